@@ -1,0 +1,91 @@
+using VectorKit.Distance;
+
+namespace VectorKit.Indexes;
+
+/// <summary>
+/// A collection of fixed-dimension float vectors, each under a caller-supplied 64-bit id, that answers
+/// k-nearest-neighbour queries. Every index kind (exact, graph, inverted-file) implements it.
+/// </summary>
+/// <remarks>
+/// <para><b>Result convention.</b> Results are <see cref="SearchHit"/> values, best first: ascending distance as
+/// defined by <see cref="DistanceMetric"/> (smaller is better for every metric), ties broken by ascending id.</para>
+/// <para><b>Cosine.</b> Under <see cref="DistanceMetric.Cosine"/> vectors are normalised to unit length once, when
+/// they are added; the query is normalised once per search. Zero vectors are rejected.</para>
+/// <para><b>Input checks.</b> Every vector must have exactly <see cref="Dimension"/> finite components. A failed
+/// add or remove leaves the index unchanged, even for a batch: it is validated whole before anything is written.</para>
+/// <para><b>Thread safety.</b> Implementations document their own guarantees; the built-in ones allow any number of
+/// concurrent searches, and serialise writes against searches.</para>
+/// </remarks>
+public interface IVectorIndex : IDisposable
+{
+    /// <summary>The number of components of every vector in the index.</summary>
+    int Dimension { get; }
+
+    /// <summary>The metric distances are computed with.</summary>
+    DistanceMetric Metric { get; }
+
+    /// <summary>The number of vectors currently in the index (removed ones excluded).</summary>
+    int Count { get; }
+
+    /// <summary>Bytes the index holds for vectors, ids and search structures (an estimate within a few percent).</summary>
+    long MemoryBytes { get; }
+
+    /// <summary>Whether a vector with this id is in the index.</summary>
+    /// <param name="id">The id to look up.</param>
+    /// <returns><see langword="true"/> when the id is present.</returns>
+    bool Contains(long id);
+
+    /// <summary>Copies the stored vector of an id (unit-normalised under cosine).</summary>
+    /// <param name="id">The id to look up.</param>
+    /// <param name="destination">Receives <see cref="Dimension"/> components.</param>
+    /// <returns><see langword="false"/> when the id is not in the index; <paramref name="destination"/> is then untouched.</returns>
+    /// <exception cref="ArgumentException"><paramref name="destination"/> is shorter than <see cref="Dimension"/>.</exception>
+    bool TryGetVector(long id, Span<float> destination);
+
+    /// <summary>Adds one vector.</summary>
+    /// <param name="id">A caller-chosen id not already in the index.</param>
+    /// <param name="vector">Exactly <see cref="Dimension"/> finite components.</param>
+    /// <exception cref="ArgumentException">Wrong length, a NaN or infinite component, a zero vector under cosine, or a duplicate id.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    void Add(long id, ReadOnlySpan<float> vector);
+
+    /// <summary>Adds many vectors at once; all or nothing.</summary>
+    /// <param name="ids">One id per vector, none already present and no repeats.</param>
+    /// <param name="vectors">The vectors, row after row: <c>ids.Length × Dimension</c> components.</param>
+    /// <exception cref="ArgumentException">Lengths disagree, a component is not finite, a zero vector under cosine, or an id repeats or exists.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors);
+
+    /// <summary>Removes the vector with this id.</summary>
+    /// <param name="id">An id in the index.</param>
+    /// <exception cref="KeyNotFoundException">The id is not in the index.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    void Remove(long id);
+
+    /// <summary>Finds the stored vectors nearest to <paramref name="query"/> and writes them, best first, into <paramref name="destination"/>.</summary>
+    /// <param name="query">Exactly <see cref="Dimension"/> finite components.</param>
+    /// <param name="destination">Its length is k, the number of results wanted.</param>
+    /// <param name="options">Filter and search width; <see langword="null"/> for <see cref="SearchOptions.Default"/>.</param>
+    /// <returns>How many results were written: <c>min(k, number of items passing the filter)</c> for an exact index.</returns>
+    /// <exception cref="ArgumentException">The query has the wrong length, a non-finite component, or is zero under cosine; or <paramref name="destination"/> is empty.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null);
+
+    /// <summary>Searches many queries, in parallel over the cores allowed by <see cref="SearchOptions.MaxDegreeOfParallelism"/>.</summary>
+    /// <param name="queries">The queries, row after row: a multiple of <see cref="Dimension"/> components.</param>
+    /// <param name="k">Results wanted per query; more than <see cref="Count"/> returns everything.</param>
+    /// <param name="options">Filter, width and parallelism; <see langword="null"/> for <see cref="SearchOptions.Default"/>.</param>
+    /// <param name="progress">Optional; receives the number of queries completed so far, from worker threads.</param>
+    /// <param name="cancellationToken">Stops the batch between blocks of queries.</param>
+    /// <returns>The results of every query, each best first, exactly as <see cref="Search"/> would return them.</returns>
+    /// <exception cref="ArgumentException">The query buffer is not a multiple of <see cref="Dimension"/>, or a query is invalid.</exception>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="k"/> is not positive.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    BatchSearchResults SearchBatch(
+        ReadOnlySpan<float> queries,
+        int k,
+        SearchOptions? options = null,
+        IProgress<int>? progress = null,
+        CancellationToken cancellationToken = default);
+}

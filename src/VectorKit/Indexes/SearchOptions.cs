@@ -1,0 +1,63 @@
+namespace VectorKit.Indexes;
+
+/// <summary>Per-call options for <see cref="IVectorIndex.Search"/> and <see cref="IVectorIndex.SearchBatch"/>.</summary>
+/// <remarks>Instances are immutable once built and may be shared between threads and calls.</remarks>
+public sealed class SearchOptions
+{
+    private readonly int _maxDegreeOfParallelism = -1;
+    private readonly int? _searchWidth;
+
+    /// <summary>Options with no filter, all cores for batches, and each index's default search width.</summary>
+    public static SearchOptions Default { get; } = new();
+
+    /// <summary>
+    /// Restricts results to ids for which the predicate returns <see langword="true"/>. The filter is evaluated
+    /// <em>during</em> the search, so a search for k results returns k passing items whenever that many exist.
+    /// </summary>
+    /// <remarks>
+    /// The predicate may be called concurrently from several threads during a batch search and must be thread-safe.
+    /// It must not call back into the index. Exceptions it throws propagate to the caller of the search.
+    /// </remarks>
+    public Func<long, bool>? Filter { get; init; }
+
+    /// <summary>
+    /// The most threads a batch search uses; -1 (the default) means one per core.
+    /// Single-query searches always run on the calling thread.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
+    public int MaxDegreeOfParallelism
+    {
+        get => _maxDegreeOfParallelism;
+        init
+        {
+            if (value == 0 || value < -1)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
+            }
+
+            _maxDegreeOfParallelism = value;
+        }
+    }
+
+    /// <summary>
+    /// How many candidates an approximate index keeps while it searches (its beam width); larger is slower and
+    /// finds more of the true nearest items. <see langword="null"/> uses the index's own default. The exact index
+    /// ignores it.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is not positive.</exception>
+    public int? SearchWidth
+    {
+        get => _searchWidth;
+        init
+        {
+            if (value is <= 0)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(SearchWidth), value.Value, "must be positive");
+            }
+
+            _searchWidth = value;
+        }
+    }
+
+    internal int EffectiveParallelism => _maxDegreeOfParallelism == -1 ? Environment.ProcessorCount : _maxDegreeOfParallelism;
+}
