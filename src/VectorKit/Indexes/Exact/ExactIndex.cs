@@ -1,0 +1,671 @@
+using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
+using VectorKit.Distance;
+using VectorKit.Distance.Kernels;
+
+namespace VectorKit.Indexes.Exact;
+
+/// <summary>
+/// Exact (brute-force) k-nearest-neighbour search: every query is compared with every stored vector. It is the
+/// ground truth approximate indexes are measured against, and the right choice up to about 10⁵ vectors.
+/// </summary>
+/// <remarks>
+/// <para><b>Storage.</b> All vectors sit in one contiguous native block (N × d × 4 bytes), with one id per row and,
+/// under squared Euclidean, one squared norm per row. Removing a vector moves the last row into its place, so the
+/// scan never meets holes. Memory beyond the vectors is about 40 bytes per vector (id, norm, id lookup), plus the
+/// growth slack left by one-at-a-time adds (up to half; <see cref="TrimExcess"/> releases it).</para>
+/// <para><b>Search.</b> A single query streams the block once through the one-against-many kernel and keeps the best
+/// k in a bounded heap. A batch is tiled: blocks of queries against cache-sized blocks of rows through a register-tiled
+/// matrix kernel, in parallel across query blocks; the candidates it selects are re-scored with the single-query kernel,
+/// so a batch returns exactly what single searches would. The filter is checked per row before its distance is computed.</para>
+/// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; adds and removes
+/// wait for running searches and block new ones until they finish, so a search sees the index entirely before or
+/// entirely after each write. A batch search holds the index for its whole duration.</para>
+/// </remarks>
+public sealed class ExactIndex : IVectorIndex
+{
+    // A batch works on this many queries at a time per thread, against row tiles of about TileBytes.
+    private const int QueryBlock = 64;
+    private const int TileBytes = 256 * 1024;
+
+    // Rows scored per kernel call in a single-query scan: the distances of one block live on the stack.
+    private const int ScanBlock = 256;
+
+    private readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
+    private readonly VectorBuffer _vectors;
+    private readonly Dictionary<long, int> _slotOf = new();
+    private readonly KernelPath _kernelPath;
+    private long[] _ids;
+    private float[] _squaredNorms;
+    private int _count;
+    private bool _disposed;
+
+    /// <summary>Creates an empty exact index.</summary>
+    /// <param name="dimension">Components per vector, at least 1.</param>
+    /// <param name="metric">The distance metric.</param>
+    /// <param name="options">Capacity options; <see langword="null"/> for <see cref="ExactIndexOptions.Default"/>.</param>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
+    public ExactIndex(int dimension, DistanceMetric metric, ExactIndexOptions? options = null)
+        : this(dimension, metric, options, KernelDispatch.Widest)
+    {
+    }
+
+    /// <summary>Creates an index whose kernels run no wider than <paramref name="kernelPath"/> (tests sweep every path).</summary>
+    internal ExactIndex(int dimension, DistanceMetric metric, ExactIndexOptions? options, KernelPath kernelPath)
+    {
+        if (dimension <= 0)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(nameof(dimension), dimension, "must be positive");
+        }
+
+        VectorChecks.CheckMetric(metric);
+        options ??= ExactIndexOptions.Default;
+        Dimension = dimension;
+        Metric = metric;
+        _kernelPath = kernelPath;
+        _vectors = new VectorBuffer(dimension, options.InitialCapacity);
+        _ids = new long[options.InitialCapacity];
+        _squaredNorms = metric == DistanceMetric.SquaredEuclidean ? new float[options.InitialCapacity] : [];
+    }
+
+    /// <inheritdoc/>
+    public int Dimension { get; }
+
+    /// <inheritdoc/>
+    public DistanceMetric Metric { get; }
+
+    /// <inheritdoc/>
+    public int Count => Volatile.Read(ref _count);
+
+    /// <inheritdoc/>
+    /// <remarks>Vectors at their reserved capacity, ids, norms, and the id lookup's entries (about 28 bytes each).</remarks>
+    public long MemoryBytes
+    {
+        get
+        {
+            _lock.EnterReadLock();
+            try
+            {
+                return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
+                    + ((long)_slotOf.EnsureCapacity(0) * 28);
+            }
+            finally
+            {
+                _lock.ExitReadLock();
+            }
+        }
+    }
+
+    /// <inheritdoc/>
+    public bool Contains(long id)
+    {
+        _lock.EnterReadLock();
+        try
+        {
+            ThrowIfDisposed();
+            return _slotOf.ContainsKey(id);
+        }
+        finally
+        {
+            _lock.ExitReadLock();
+        }
+    }
+
+    /// <inheritdoc/>
+    public bool TryGetVector(long id, Span<float> destination)
+    {
+        if (destination.Length < Dimension)
+        {
+            ThrowHelper.ThrowArgument(nameof(destination), $"destination has {destination.Length} elements; the index dimension is {Dimension}.");
+        }
+
+        _lock.EnterReadLock();
+        try
+        {
+            ThrowIfDisposed();
+            if (!_slotOf.TryGetValue(id, out int slot))
+            {
+                return false;
+            }
+
+            _vectors.RowSpan(slot).CopyTo(destination);
+            return true;
+        }
+        finally
+        {
+            _lock.ExitReadLock();
+        }
+    }
+
+    /// <inheritdoc/>
+    public void Add(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckVector(vector, Dimension, nameof(vector));
+        if (Metric == DistanceMetric.Cosine)
+        {
+            VectorChecks.CheckNotZero(vector, nameof(vector));
+        }
+
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            if (_slotOf.ContainsKey(id))
+            {
+                ThrowHelper.ThrowDuplicateId(nameof(id), id);
+            }
+
+            EnsureCapacity(_count + 1);
+            Store(_count, id, vector);
+            Volatile.Write(ref _count, _count + 1);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    /// <inheritdoc/>
+    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors)
+    {
+        int n = ids.Length;
+        if ((long)n * Dimension != vectors.Length)
+        {
+            ThrowHelper.ThrowArgument(nameof(vectors), $"vectors has {vectors.Length} components; {n} ids × dimension {Dimension} need {(long)n * Dimension}.");
+        }
+
+        VectorChecks.CheckFinite(vectors, nameof(vectors), 0, Dimension);
+        if (Metric == DistanceMetric.Cosine)
+        {
+            for (int r = 0; r < n; r++)
+            {
+                VectorChecks.CheckNotZero(vectors.Slice(r * Dimension, Dimension), $"{nameof(vectors)} row {r}");
+            }
+        }
+
+        var seen = new HashSet<long>(n);
+        foreach (long id in ids)
+        {
+            if (!seen.Add(id))
+            {
+                ThrowHelper.ThrowArgument(nameof(ids), $"Id {id} appears more than once in ids; ids must be unique.");
+            }
+        }
+
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            foreach (long id in ids)
+            {
+                if (_slotOf.ContainsKey(id))
+                {
+                    ThrowHelper.ThrowDuplicateId(nameof(ids), id);
+                }
+            }
+
+            EnsureCapacity(checked(_count + n));
+            _slotOf.EnsureCapacity(_count + n);
+            for (int r = 0; r < n; r++)
+            {
+                Store(_count + r, ids[r], vectors.Slice(r * Dimension, Dimension));
+            }
+
+            Volatile.Write(ref _count, _count + n);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    /// <inheritdoc/>
+    public void Remove(long id)
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            if (!_slotOf.Remove(id, out int slot))
+            {
+                ThrowHelper.ThrowIdNotFound(id);
+            }
+
+            // Fill the hole with the last row so the scanned range stays dense.
+            int last = _count - 1;
+            if (slot != last)
+            {
+                _vectors.CopyRow(last, slot);
+                long moved = _ids[last];
+                _ids[slot] = moved;
+                if (_squaredNorms.Length > 0)
+                {
+                    _squaredNorms[slot] = _squaredNorms[last];
+                }
+
+                _slotOf[moved] = slot;
+            }
+
+            Volatile.Write(ref _count, last);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    /// <summary>Releases the storage reserved beyond <see cref="Count"/> vectors.</summary>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    public void TrimExcess()
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            _vectors.Resize(_count);
+            Array.Resize(ref _ids, _count);
+            if (_squaredNorms.Length > 0)
+            {
+                Array.Resize(ref _squaredNorms, _count);
+            }
+
+            _slotOf.TrimExcess();
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    /// <inheritdoc/>
+    public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
+    {
+        if (destination.IsEmpty)
+        {
+            ThrowHelper.ThrowArgument(nameof(destination), "destination is empty: its length is k, the number of results wanted, which must be positive.");
+        }
+
+        VectorChecks.CheckVector(query, Dimension, nameof(query));
+        float[]? rented = null;
+        scoped ReadOnlySpan<float> q = query;
+        Span<float> unit = Metric == DistanceMetric.Cosine && Dimension <= 512 ? stackalloc float[Dimension] : default;
+        if (Metric == DistanceMetric.Cosine)
+        {
+            if (unit.IsEmpty)
+            {
+                rented = System.Buffers.ArrayPool<float>.Shared.Rent(Dimension);
+                unit = rented.AsSpan(0, Dimension);
+            }
+
+            VectorChecks.Normalize(query, unit, nameof(query));
+            q = unit;
+        }
+
+        try
+        {
+            _lock.EnterReadLock();
+            try
+            {
+                ThrowIfDisposed();
+                return SearchLocked(q, destination, options?.Filter);
+            }
+            finally
+            {
+                _lock.ExitReadLock();
+            }
+        }
+        finally
+        {
+            if (rented is not null)
+            {
+                System.Buffers.ArrayPool<float>.Shared.Return(rented);
+            }
+        }
+    }
+
+    /// <inheritdoc/>
+    public unsafe BatchSearchResults SearchBatch(
+        ReadOnlySpan<float> queries,
+        int k,
+        SearchOptions? options = null,
+        IProgress<int>? progress = null,
+        CancellationToken cancellationToken = default)
+    {
+        if (k <= 0)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(nameof(k), k, "must be positive");
+        }
+
+        int d = Dimension;
+        if (queries.Length % d != 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(queries), $"queries has {queries.Length} components, not a multiple of the index dimension {d}.");
+        }
+
+        int queryCount = queries.Length / d;
+        VectorChecks.CheckFinite(queries, nameof(queries), 0, d);
+        ReadOnlySpan<float> source = queries;
+        if (Metric == DistanceMetric.Cosine)
+        {
+            var unit = new float[queries.Length];
+            for (int i = 0; i < queryCount; i++)
+            {
+                VectorChecks.Normalize(queries.Slice(i * d, d), unit.AsSpan(i * d, d), $"{nameof(queries)} row {i}");
+            }
+
+            source = unit;
+        }
+
+        options ??= SearchOptions.Default;
+        _lock.EnterReadLock();
+        try
+        {
+            ThrowIfDisposed();
+            var results = new BatchSearchResults(queryCount, Math.Min(k, Math.Max(1, _count)));
+            if (queryCount == 0 || _count == 0)
+            {
+                return results;
+            }
+
+            fixed (float* pinned = source)
+            {
+                var batch = new BatchRun(this, (nint)pinned, queryCount, results, options, progress);
+                int blocks = (queryCount + QueryBlock - 1) / QueryBlock;
+                var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
+                Parallel.For(0, blocks, parallel, () => new BatchScratch(this, results.K), batch.RunBlock, static _ => { });
+            }
+
+            return results;
+        }
+        finally
+        {
+            _lock.ExitReadLock();
+        }
+    }
+
+    /// <summary>Frees the vector storage. Further calls throw <see cref="ObjectDisposedException"/>.</summary>
+    public void Dispose()
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            if (_disposed)
+            {
+                return;
+            }
+
+            _disposed = true;
+            _vectors.Dispose();
+            _slotOf.Clear();
+            _count = 0;
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    // Caller holds the read lock; q is validated (and unit length under cosine).
+    private int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, Func<long, bool>? filter)
+    {
+        if (_count == 0)
+        {
+            return 0;
+        }
+
+        Span<SearchHit> heap = destination[..Math.Min(destination.Length, _count)];
+        ref float query = ref MemoryMarshal.GetReference(q);
+        int found = Metric switch
+        {
+            DistanceMetric.SquaredEuclidean => Scan<SquaredDifferenceStep, KeepFinish>(ref query, heap, filter),
+            DistanceMetric.InnerProduct => Scan<DotStep, NegateFinish>(ref query, heap, filter),
+            _ => Scan<DotStep, OneMinusFinish>(ref query, heap, filter),
+        };
+        return TopK.SortBestFirst(heap, found);
+    }
+
+    private int Scan<TStep, TFinish>(ref float query, Span<SearchHit> heap, Func<long, bool>? filter)
+        where TStep : struct, IAccumulateStep
+        where TFinish : struct, IFinish
+    {
+        int n = _count;
+        int d = Dimension;
+        long[] ids = _ids;
+        int count = 0;
+        if (filter is not null)
+        {
+            // The filter runs before the distance: rejected rows cost a predicate call, not a kernel call.
+            for (int slot = 0; slot < n; slot++)
+            {
+                long id = ids[slot];
+                if (filter(id))
+                {
+                    float distance = TFinish.Apply(ManyKernel.One<TStep>(_kernelPath, ref query, ref _vectors.Row(slot), d));
+                    TopK.Offer(heap, ref count, distance, id);
+                }
+            }
+
+            return count;
+        }
+
+        Span<float> block = stackalloc float[ScanBlock];
+        ref float distances = ref MemoryMarshal.GetReference(block);
+        float bound = float.PositiveInfinity;
+        for (int start = 0; start < n; start += ScanBlock)
+        {
+            int length = Math.Min(ScanBlock, n - start);
+            ManyKernel.Compute<TStep>(_kernelPath, ref query, ref _vectors.Row(start), d, length, ref distances);
+            for (int j = 0; j < length; j++)
+            {
+                float distance = TFinish.Apply(Unsafe.Add(ref distances, j));
+                if (distance <= bound)
+                {
+                    TopK.Offer(heap, ref count, distance, ids[start + j]);
+                    bound = TopK.Bound(heap, count);
+                }
+            }
+        }
+
+        return count;
+    }
+
+    private void EnsureCapacity(int required)
+    {
+        _vectors.EnsureCapacity(required);
+        if (_ids.Length < _vectors.Capacity)
+        {
+            Array.Resize(ref _ids, _vectors.Capacity);
+            if (Metric == DistanceMetric.SquaredEuclidean)
+            {
+                Array.Resize(ref _squaredNorms, _vectors.Capacity);
+            }
+        }
+    }
+
+    // Writes one validated vector into a slot, normalised under cosine; caller holds the write lock.
+    private void Store(int slot, long id, ReadOnlySpan<float> vector)
+    {
+        Span<float> row = _vectors.RowSpan(slot);
+        if (Metric == DistanceMetric.Cosine)
+        {
+            VectorChecks.Normalize(vector, row, nameof(vector));
+        }
+        else
+        {
+            vector.CopyTo(row);
+        }
+
+        if (Metric == DistanceMetric.SquaredEuclidean)
+        {
+            _squaredNorms[slot] = PairKernel.Sum<DotStep>(_kernelPath, row, row);
+        }
+
+        _ids[slot] = id;
+        _slotOf.Add(id, slot);
+    }
+
+    private void ThrowIfDisposed()
+    {
+        if (_disposed)
+        {
+            ThrowHelper.ThrowObjectDisposed(this);
+        }
+    }
+
+    /// <summary>Turns a kernel's raw sum into the metric's distance.</summary>
+    private interface IFinish
+    {
+        static abstract float Apply(float raw);
+
+        /// <summary>The distance from a dot product, for the batch kernel (squared Euclidean expands ‖q‖² + ‖x‖² − 2 q·x).</summary>
+        static abstract float FromDot(float dot, float queryNorm, float rowNorm);
+    }
+
+    private readonly struct KeepFinish : IFinish
+    {
+        public static float Apply(float raw) => raw;
+
+        public static float FromDot(float dot, float queryNorm, float rowNorm) => queryNorm + rowNorm - (2f * dot);
+    }
+
+    private readonly struct NegateFinish : IFinish
+    {
+        public static float Apply(float raw) => -raw;
+
+        public static float FromDot(float dot, float queryNorm, float rowNorm) => -dot;
+    }
+
+    private readonly struct OneMinusFinish : IFinish
+    {
+        public static float Apply(float raw) => 1f - raw;
+
+        public static float FromDot(float dot, float queryNorm, float rowNorm) => 1f - dot;
+    }
+
+    /// <summary>One thread's buffers for a batch: row-tile distances, per-query candidate heaps, query norms.</summary>
+    private sealed class BatchScratch
+    {
+        public BatchScratch(ExactIndex index, int k)
+        {
+            TileRows = Math.Max(4, TileBytes / (index.Dimension * sizeof(float)) / 4 * 4);
+
+            // Candidates are selected with the tiled dot-product kernel, whose rounding differs from the
+            // single-query kernel's; a margin of extra candidates, re-scored exactly, keeps the final top-k the same.
+            HeapSize = Math.Min(index._count, k + Math.Max(8, k / 2));
+            Dots = new float[QueryBlock * TileRows];
+            Heaps = new SearchHit[QueryBlock * HeapSize];
+            Counts = new int[QueryBlock];
+            QueryNorms = new float[QueryBlock];
+        }
+
+        public int TileRows { get; }
+
+        public int HeapSize { get; }
+
+        public float[] Dots { get; }
+
+        public SearchHit[] Heaps { get; }
+
+        public int[] Counts { get; }
+
+        public float[] QueryNorms { get; }
+    }
+
+    /// <summary>The shared state of one batch search, and the work of one block of queries.</summary>
+    private sealed unsafe class BatchRun(ExactIndex index, nint queries, int queryCount, BatchSearchResults results, SearchOptions options, IProgress<int>? progress)
+    {
+        private int _completed;
+
+        public BatchScratch RunBlock(int block, ParallelLoopState state, BatchScratch scratch)
+        {
+            int first = block * QueryBlock;
+            int count = Math.Min(QueryBlock, queryCount - first);
+            int d = index.Dimension;
+            float* q = (float*)queries + ((nint)first * d);
+            if (options.Filter is not null)
+            {
+                for (int i = 0; i < count; i++)
+                {
+                    var query = new ReadOnlySpan<float>(q + ((nint)i * d), d);
+                    results.SetCount(first + i, index.SearchLocked(query, results.Slots(first + i), options.Filter));
+                }
+            }
+            else
+            {
+                switch (index.Metric)
+                {
+                    case DistanceMetric.SquaredEuclidean: Tiled<SquaredDifferenceStep, KeepFinish>(first, count, q, scratch); break;
+                    case DistanceMetric.InnerProduct: Tiled<DotStep, NegateFinish>(first, count, q, scratch); break;
+                    default: Tiled<DotStep, OneMinusFinish>(first, count, q, scratch); break;
+                }
+            }
+
+            int done = Interlocked.Add(ref _completed, count);
+            progress?.Report(done);
+            return scratch;
+        }
+
+        private void Tiled<TStep, TFinish>(int first, int count, float* q, BatchScratch scratch)
+            where TStep : struct, IAccumulateStep
+            where TFinish : struct, IFinish
+        {
+            int d = index.Dimension;
+            int n = index._count;
+            int heapSize = scratch.HeapSize;
+            int tileRows = scratch.TileRows;
+            long[] ids = index._ids;
+            float[] rowNorms = index._squaredNorms;
+            bool withNorms = rowNorms.Length > 0;
+            Span<SearchHit> heaps = scratch.Heaps;
+            Span<int> counts = scratch.Counts.AsSpan(0, count);
+            counts.Clear();
+            for (int i = 0; i < count; i++)
+            {
+                var query = new ReadOnlySpan<float>(q + ((nint)i * d), d);
+                scratch.QueryNorms[i] = withNorms ? PairKernel.Sum<DotStep>(index._kernelPath, query, query) : 0f;
+            }
+
+            ref float dots = ref MemoryMarshal.GetArrayDataReference(scratch.Dots);
+            for (int start = 0; start < n; start += tileRows)
+            {
+                int rows = Math.Min(tileRows, n - start);
+                BlockKernel.Dot(index._kernelPath, ref *q, count, ref index._vectors.Row(start), rows, d, ref dots, tileRows);
+                for (int i = 0; i < count; i++)
+                {
+                    Span<SearchHit> heap = heaps.Slice(i * heapSize, heapSize);
+                    ref int found = ref counts[i];
+                    float queryNorm = scratch.QueryNorms[i];
+                    float bound = TopK.Bound(heap, found);
+                    ref float row = ref Unsafe.Add(ref dots, (nint)i * tileRows);
+                    for (int j = 0; j < rows; j++)
+                    {
+                        float distance = TFinish.FromDot(Unsafe.Add(ref row, j), queryNorm, withNorms ? rowNorms[start + j] : 0f);
+                        if (distance <= bound)
+                        {
+                            TopK.Offer(heap, ref found, distance, ids[start + j]);
+                            bound = TopK.Bound(heap, found);
+                        }
+                    }
+                }
+            }
+
+            // Re-score the selected candidates with the single-query kernel, then keep the best k.
+            for (int i = 0; i < count; i++)
+            {
+                Span<SearchHit> heap = heaps.Slice(i * heapSize, counts[i]);
+                ref float query = ref *(q + ((nint)i * d));
+                for (int c = 0; c < heap.Length; c++)
+                {
+                    long id = heap[c].Id;
+                    int slot = index._slotOf[id];
+                    heap[c] = new SearchHit(id, TFinish.Apply(ManyKernel.One<TStep>(index._kernelPath, ref query, ref index._vectors.Row(slot), d)));
+                }
+
+                heap.Sort();
+                int keep = Math.Min(results.K, heap.Length);
+                heap[..keep].CopyTo(results.Slots(first + i));
+                results.SetCount(first + i, keep);
+            }
+        }
+    }
+}

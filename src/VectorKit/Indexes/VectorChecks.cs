@@ -1,0 +1,106 @@
+using System.Numerics;
+using System.Runtime.InteropServices;
+using VectorKit.Distance;
+
+namespace VectorKit.Indexes;
+
+/// <summary>Boundary checks and the cosine normalisation shared by every index.</summary>
+internal static class VectorChecks
+{
+    /// <summary>Throws unless <paramref name="vector"/> has <paramref name="dimension"/> finite components.</summary>
+    public static void CheckVector(ReadOnlySpan<float> vector, int dimension, string paramName)
+    {
+        if (vector.Length != dimension)
+        {
+            ThrowHelper.ThrowDimensionMismatch(paramName, dimension, vector.Length);
+        }
+
+        CheckFinite(vector, paramName, 0, dimension);
+    }
+
+    /// <summary>Throws on the first NaN or infinity; <paramref name="rowLength"/> turns a flat offset into row and column in the message.</summary>
+    public static void CheckFinite(ReadOnlySpan<float> values, string paramName, int firstRow, int rowLength)
+    {
+        int bad = IndexOfNonFinite(values);
+        if (bad >= 0)
+        {
+            if (rowLength > 0 && values.Length > rowLength)
+            {
+                ThrowHelper.ThrowArgument(paramName, $"{paramName} row {firstRow + (bad / rowLength)} has a non-finite component: [{bad % rowLength}] = {values[bad]}. Every component must be a finite number.");
+            }
+
+            ThrowHelper.ThrowNotFinite(paramName, bad, values[bad]);
+        }
+    }
+
+    /// <summary>The index of the first NaN or infinite value, or -1.</summary>
+    public static int IndexOfNonFinite(ReadOnlySpan<float> values)
+    {
+        // x − x is 0 for every finite x and NaN for NaN and ±∞, so one compare per lane finds both.
+        int i = 0;
+        if (Vector.IsHardwareAccelerated)
+        {
+            ReadOnlySpan<Vector<float>> lanes = MemoryMarshal.Cast<float, Vector<float>>(values);
+            for (int v = 0; v < lanes.Length; v++)
+            {
+                Vector<float> x = lanes[v];
+                if (!Vector.EqualsAll(x - x, Vector<float>.Zero))
+                {
+                    break;
+                }
+
+                i += Vector<float>.Count;
+            }
+        }
+
+        for (; i < values.Length; i++)
+        {
+            if (!float.IsFinite(values[i]))
+            {
+                return i;
+            }
+        }
+
+        return -1;
+    }
+
+    /// <summary>Writes <paramref name="vector"/> scaled to unit length; throws for a zero vector.</summary>
+    /// <remarks>The norm is summed in double so vectors with huge finite components do not overflow to infinity.</remarks>
+    public static void Normalize(ReadOnlySpan<float> vector, Span<float> destination, string paramName)
+    {
+        double sum = 0;
+        foreach (float x in vector)
+        {
+            sum += (double)x * x;
+        }
+
+        if (sum == 0)
+        {
+            ThrowHelper.ThrowZeroVectorUnderCosine(paramName);
+        }
+
+        double scale = 1.0 / Math.Sqrt(sum);
+        for (int i = 0; i < vector.Length; i++)
+        {
+            destination[i] = (float)(vector[i] * scale);
+        }
+    }
+
+    /// <summary>Throws for a zero vector (used to validate a batch before anything is written).</summary>
+    public static void CheckNotZero(ReadOnlySpan<float> vector, string paramName)
+    {
+        if (vector.IndexOfAnyExcept(0f) < 0 && vector.IndexOfAnyExcept(-0f) < 0)
+        {
+            ThrowHelper.ThrowZeroVectorUnderCosine(paramName);
+        }
+    }
+
+    /// <summary>Throws when <paramref name="metric"/> is not a defined value.</summary>
+    public static void CheckMetric(DistanceMetric metric)
+    {
+        if (metric is not (DistanceMetric.SquaredEuclidean or DistanceMetric.InnerProduct or DistanceMetric.Cosine))
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(nameof(metric), metric, "must be SquaredEuclidean, InnerProduct or Cosine");
+        }
+    }
+}
