@@ -174,7 +174,7 @@ public static class NpyFile
         string header = dict + new string(' ', padding) + "\n";
 
         Span<byte> preamble = stackalloc byte[10];
-        "\x93NUMPY"u8.CopyTo(preamble);
+        NpyReader.Magic.CopyTo(preamble);
         preamble[6] = 1;
         preamble[7] = 0;
         BinaryPrimitives.WriteUInt16LittleEndian(preamble[8..], checked((ushort)header.Length));

@@ -35,6 +35,9 @@ public sealed class NpyReader : VectorReader
 
     private readonly long[] _shape;
 
+    /// <summary>The six magic bytes: 0x93 then ASCII "NUMPY" (not UTF-8 text: 0x93 is a raw byte).</summary>
+    internal static ReadOnlySpan<byte> Magic => [0x93, (byte)'N', (byte)'U', (byte)'M', (byte)'P', (byte)'Y'];
+
     /// <summary>Starts reading a .npy stream and parses its header.</summary>
     /// <param name="stream">The stream, positioned at the magic bytes.</param>
     /// <param name="leaveOpen">Whether to leave <paramref name="stream"/> open when the reader is disposed.</param>
@@ -50,7 +53,7 @@ public sealed class NpyReader : VectorReader
     {
         Span<byte> preamble = stackalloc byte[10];
         ReadHeader(preamble[..8], "the magic and version");
-        if (!preamble[..6].SequenceEqual("\x93NUMPY"u8))
+        if (!preamble[..6].SequenceEqual(Magic))
         {
             DataFormatThrow.Malformed(Format, $"wrong magic {Convert.ToHexString(preamble[..6])}; expected 934E554D5059 (\\x93NUMPY)", 0);
         }
