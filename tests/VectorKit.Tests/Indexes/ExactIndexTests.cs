@@ -94,6 +94,24 @@ public class ExactIndexTests
     }
 
     [Fact]
+    public void SearchBatch_DataFarFromTheOrigin_StillMatchesSingleSearch()
+    {
+        // Tight clusters far from the origin: an expansion ‖q‖² + ‖x‖² − 2 q·x would cancel away the small
+        // distances and pick the wrong candidates; the batch kernel sums differences, so it must not.
+        var random = new Random(11);
+        const int d = 32, n = 2_000, queries = 64, k = 10;
+        float[] Shifted(int length) => RandomFloats(random, length).Select(v => 1000f + (0.01f * v)).ToArray();
+        using var index = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
+        index.AddRange(Enumerable.Range(0, n).Select(i => (long)i).ToArray(), Shifted(n * d));
+        float[] q = Shifted(queries * d);
+        BatchSearchResults batch = index.SearchBatch(q, k);
+        for (int i = 0; i < queries; i++)
+        {
+            Assert.Equal(index.Search(q.AsSpan(i * d, d), k), batch[i].ToArray());
+        }
+    }
+
+    [Fact]
     public void SearchBatch_WithFilter_MatchesFilteredSingleSearch()
     {
         var random = new Random(8);

@@ -3,31 +3,39 @@ using System.Runtime.CompilerServices;
 
 namespace VectorKit.Distance.Kernels;
 
-/// <summary>Dot products of a block of queries with a block of rows (both row-major, same dimension): a small GEMM.</summary>
+/// <summary>
+/// A metric's step-sums for a block of queries against a block of rows (both row-major, same dimension): a small GEMM
+/// whose multiply-add is the metric's step.
+/// </summary>
 /// <remarks>
-/// <para>A 4 × 4 register tile: per lane of components, 4 query loads and 4 row loads feed 16 FMAs into 16
-/// accumulators, half a load per FMA, so the loop is bound by FMA throughput rather than by loads. Callers keep the
+/// <para>A 4 × 4 register tile: per lane of components, 4 query loads and 4 row loads feed 16 steps into 16
+/// accumulators, half a load per step, so the loop is bound by arithmetic rather than by loads. Callers keep the
 /// row block in L2 and sweep it with each group of 4 queries, which stays in L1.</para>
+/// <para>Squared Euclidean is summed from the differences, not expanded as ‖q‖² + ‖x‖² − 2 q·x: the expansion
+/// cancels catastrophically for data far from the origin (near neighbours vanish under the norms), while the
+/// difference form errs relative to the distance itself. The subtraction runs on the FP adders, beside the FMAs.</para>
 /// <para>Results are used to <em>select</em> candidates; the batch search re-scores the selected ones with
 /// <see cref="ManyKernel.One{TStep}"/> so reported distances match single-query search exactly.</para>
 /// </remarks>
 internal static class BlockKernel
 {
-    /// <summary><c>output[q × outputStride + r] = queries[q] · rows[r]</c> for every query and row of the blocks.</summary>
-    public static void Dot(KernelPath widest, ref float queries, int queryCount, ref float rows, int rowCount, int dimension, ref float output, int outputStride)
+    /// <summary><c>output[q × outputStride + r] = Σ step(queries[q], rows[r])</c> for every query and row of the blocks.</summary>
+    public static void Compute<TStep>(KernelPath widest, ref float queries, int queryCount, ref float rows, int rowCount, int dimension, ref float output, int outputStride)
+        where TStep : struct, IAccumulateStep
     {
         Debug.Assert(dimension > 0 && outputStride >= rowCount);
         switch (KernelDispatch.For(dimension, widest))
         {
-            case KernelPath.Vector512: Dot<Lane512>(widest, ref queries, queryCount, ref rows, rowCount, dimension, ref output, outputStride); break;
-            case KernelPath.Vector256: Dot<Lane256>(widest, ref queries, queryCount, ref rows, rowCount, dimension, ref output, outputStride); break;
-            case KernelPath.Vector128: Dot<Lane128>(widest, ref queries, queryCount, ref rows, rowCount, dimension, ref output, outputStride); break;
-            default: Dot<LaneScalar>(widest, ref queries, queryCount, ref rows, rowCount, dimension, ref output, outputStride); break;
+            case KernelPath.Vector512: Compute<TStep, Lane512>(widest, ref queries, queryCount, ref rows, rowCount, dimension, ref output, outputStride); break;
+            case KernelPath.Vector256: Compute<TStep, Lane256>(widest, ref queries, queryCount, ref rows, rowCount, dimension, ref output, outputStride); break;
+            case KernelPath.Vector128: Compute<TStep, Lane128>(widest, ref queries, queryCount, ref rows, rowCount, dimension, ref output, outputStride); break;
+            default: Compute<TStep, LaneScalar>(widest, ref queries, queryCount, ref rows, rowCount, dimension, ref output, outputStride); break;
         }
     }
 
     [MethodImpl(MethodImplOptions.AggressiveOptimization)]
-    private static void Dot<TLane>(KernelPath widest, ref float queries, int queryCount, ref float rows, int rowCount, int dimension, ref float output, int outputStride)
+    private static void Compute<TStep, TLane>(KernelPath widest, ref float queries, int queryCount, ref float rows, int rowCount, int dimension, ref float output, int outputStride)
+        where TStep : struct, IAccumulateStep
         where TLane : struct, IVectorLane<TLane>
     {
         nint d = dimension;
@@ -39,24 +47,25 @@ internal static class BlockKernel
             int r = 0;
             for (; r <= rowCount - 4; r += 4)
             {
-                Tile<TLane>(ref query, ref Unsafe.Add(ref rows, r * d), d, ref Unsafe.Add(ref result, r), outputStride);
+                Tile<TStep, TLane>(ref query, ref Unsafe.Add(ref rows, r * d), d, ref Unsafe.Add(ref result, r), outputStride);
             }
 
             // Fewer than four rows left: one query at a time through the one-against-many kernel.
             for (int j = 0; j < 4 && r < rowCount; j++)
             {
-                ManyKernel.Compute<DotStep>(widest, ref Unsafe.Add(ref query, j * d), ref Unsafe.Add(ref rows, r * d), dimension, rowCount - r, ref Unsafe.Add(ref result, (j * (nint)outputStride) + r));
+                ManyKernel.Compute<TStep>(widest, ref Unsafe.Add(ref query, j * d), ref Unsafe.Add(ref rows, r * d), dimension, rowCount - r, ref Unsafe.Add(ref result, (j * (nint)outputStride) + r));
             }
         }
 
         for (; q < queryCount; q++)
         {
-            ManyKernel.Compute<DotStep>(widest, ref Unsafe.Add(ref queries, q * d), ref rows, dimension, rowCount, ref Unsafe.Add(ref output, (nint)q * outputStride));
+            ManyKernel.Compute<TStep>(widest, ref Unsafe.Add(ref queries, q * d), ref rows, dimension, rowCount, ref Unsafe.Add(ref output, (nint)q * outputStride));
         }
     }
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    private static void Tile<TLane>(ref float q0, ref float x0, nint d, ref float output, nint outputStride)
+    private static void Tile<TStep, TLane>(ref float q0, ref float x0, nint d, ref float output, nint outputStride)
+        where TStep : struct, IAccumulateStep
         where TLane : struct, IVectorLane<TLane>
     {
         ref float q1 = ref Unsafe.Add(ref q0, d);
@@ -75,30 +84,30 @@ internal static class BlockKernel
         {
             TLane a0 = TLane.Load(ref q0, i), a1 = TLane.Load(ref q1, i), a2 = TLane.Load(ref q2, i), a3 = TLane.Load(ref q3, i);
             TLane b = TLane.Load(ref x0, i);
-            s00 = TLane.MultiplyAdd(a0, b, s00); s10 = TLane.MultiplyAdd(a1, b, s10); s20 = TLane.MultiplyAdd(a2, b, s20); s30 = TLane.MultiplyAdd(a3, b, s30);
+            s00 = TStep.Step(s00, a0, b); s10 = TStep.Step(s10, a1, b); s20 = TStep.Step(s20, a2, b); s30 = TStep.Step(s30, a3, b);
             b = TLane.Load(ref x1, i);
-            s01 = TLane.MultiplyAdd(a0, b, s01); s11 = TLane.MultiplyAdd(a1, b, s11); s21 = TLane.MultiplyAdd(a2, b, s21); s31 = TLane.MultiplyAdd(a3, b, s31);
+            s01 = TStep.Step(s01, a0, b); s11 = TStep.Step(s11, a1, b); s21 = TStep.Step(s21, a2, b); s31 = TStep.Step(s31, a3, b);
             b = TLane.Load(ref x2, i);
-            s02 = TLane.MultiplyAdd(a0, b, s02); s12 = TLane.MultiplyAdd(a1, b, s12); s22 = TLane.MultiplyAdd(a2, b, s22); s32 = TLane.MultiplyAdd(a3, b, s32);
+            s02 = TStep.Step(s02, a0, b); s12 = TStep.Step(s12, a1, b); s22 = TStep.Step(s22, a2, b); s32 = TStep.Step(s32, a3, b);
             b = TLane.Load(ref x3, i);
-            s03 = TLane.MultiplyAdd(a0, b, s03); s13 = TLane.MultiplyAdd(a1, b, s13); s23 = TLane.MultiplyAdd(a2, b, s23); s33 = TLane.MultiplyAdd(a3, b, s33);
+            s03 = TStep.Step(s03, a0, b); s13 = TStep.Step(s13, a1, b); s23 = TStep.Step(s23, a2, b); s33 = TStep.Step(s33, a3, b);
         }
 
         if (i < d)
         {
-            // Overlapping last lane; masking the query side alone zeroes the products already summed.
+            // Overlapping last lane; both sides are masked so every step on the lanes already summed adds zero.
             nint last = d - width;
             int skip = (int)(i - last);
             TLane a0 = TLane.LoadSkipping(ref q0, last, skip), a1 = TLane.LoadSkipping(ref q1, last, skip);
             TLane a2 = TLane.LoadSkipping(ref q2, last, skip), a3 = TLane.LoadSkipping(ref q3, last, skip);
-            TLane b = TLane.Load(ref x0, last);
-            s00 = TLane.MultiplyAdd(a0, b, s00); s10 = TLane.MultiplyAdd(a1, b, s10); s20 = TLane.MultiplyAdd(a2, b, s20); s30 = TLane.MultiplyAdd(a3, b, s30);
-            b = TLane.Load(ref x1, last);
-            s01 = TLane.MultiplyAdd(a0, b, s01); s11 = TLane.MultiplyAdd(a1, b, s11); s21 = TLane.MultiplyAdd(a2, b, s21); s31 = TLane.MultiplyAdd(a3, b, s31);
-            b = TLane.Load(ref x2, last);
-            s02 = TLane.MultiplyAdd(a0, b, s02); s12 = TLane.MultiplyAdd(a1, b, s12); s22 = TLane.MultiplyAdd(a2, b, s22); s32 = TLane.MultiplyAdd(a3, b, s32);
-            b = TLane.Load(ref x3, last);
-            s03 = TLane.MultiplyAdd(a0, b, s03); s13 = TLane.MultiplyAdd(a1, b, s13); s23 = TLane.MultiplyAdd(a2, b, s23); s33 = TLane.MultiplyAdd(a3, b, s33);
+            TLane b = TLane.LoadSkipping(ref x0, last, skip);
+            s00 = TStep.Step(s00, a0, b); s10 = TStep.Step(s10, a1, b); s20 = TStep.Step(s20, a2, b); s30 = TStep.Step(s30, a3, b);
+            b = TLane.LoadSkipping(ref x1, last, skip);
+            s01 = TStep.Step(s01, a0, b); s11 = TStep.Step(s11, a1, b); s21 = TStep.Step(s21, a2, b); s31 = TStep.Step(s31, a3, b);
+            b = TLane.LoadSkipping(ref x2, last, skip);
+            s02 = TStep.Step(s02, a0, b); s12 = TStep.Step(s12, a1, b); s22 = TStep.Step(s22, a2, b); s32 = TStep.Step(s32, a3, b);
+            b = TLane.LoadSkipping(ref x3, last, skip);
+            s03 = TStep.Step(s03, a0, b); s13 = TStep.Step(s13, a1, b); s23 = TStep.Step(s23, a2, b); s33 = TStep.Step(s33, a3, b);
         }
 
         Store(ref output, TLane.Sum(s00), TLane.Sum(s01), TLane.Sum(s02), TLane.Sum(s03));

@@ -10,9 +10,9 @@ namespace VectorKit.Indexes.Exact;
 /// ground truth approximate indexes are measured against, and the right choice up to about 10⁵ vectors.
 /// </summary>
 /// <remarks>
-/// <para><b>Storage.</b> All vectors sit in one contiguous native block (N × d × 4 bytes), with one id per row and,
-/// under squared Euclidean, one squared norm per row. Removing a vector moves the last row into its place, so the
-/// scan never meets holes. Memory beyond the vectors is about 40 bytes per vector (id, norm, id lookup), plus the
+/// <para><b>Storage.</b> All vectors sit in one contiguous native block (N × d × 4 bytes), with one id per row.
+/// Removing a vector moves the last row into its place, so the scan never meets holes. Memory beyond the vectors is
+/// about 36 bytes per vector (id, id lookup), plus the
 /// growth slack left by one-at-a-time adds (up to half; <see cref="TrimExcess"/> releases it).</para>
 /// <para><b>Search.</b> A single query streams the block once through the one-against-many kernel and keeps the best
 /// k in a bounded heap. A batch is tiled: blocks of queries against cache-sized blocks of rows through a register-tiled
@@ -36,7 +36,6 @@ public sealed class ExactIndex : IVectorIndex
     private readonly Dictionary<long, int> _slotOf = new();
     private readonly KernelPath _kernelPath;
     private long[] _ids;
-    private float[] _squaredNorms;
     private int _count;
     private bool _disposed;
 
@@ -65,7 +64,6 @@ public sealed class ExactIndex : IVectorIndex
         _kernelPath = kernelPath;
         _vectors = new VectorBuffer(dimension, options.InitialCapacity);
         _ids = new long[options.InitialCapacity];
-        _squaredNorms = metric == DistanceMetric.SquaredEuclidean ? new float[options.InitialCapacity] : [];
     }
 
     /// <inheritdoc/>
@@ -78,7 +76,7 @@ public sealed class ExactIndex : IVectorIndex
     public int Count => Volatile.Read(ref _count);
 
     /// <inheritdoc/>
-    /// <remarks>Vectors at their reserved capacity, ids, norms, and the id lookup's entries (about 28 bytes each).</remarks>
+    /// <remarks>Vectors at their reserved capacity, ids, and the id lookup's entries (about 28 bytes each).</remarks>
     public long MemoryBytes
     {
         get
@@ -86,8 +84,7 @@ public sealed class ExactIndex : IVectorIndex
             _lock.EnterReadLock();
             try
             {
-                return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
-                    + ((long)_slotOf.EnsureCapacity(0) * 28);
+                return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_slotOf.EnsureCapacity(0) * 28);
             }
             finally
             {
@@ -238,11 +235,6 @@ public sealed class ExactIndex : IVectorIndex
                 _vectors.CopyRow(last, slot);
                 long moved = _ids[last];
                 _ids[slot] = moved;
-                if (_squaredNorms.Length > 0)
-                {
-                    _squaredNorms[slot] = _squaredNorms[last];
-                }
-
                 _slotOf[moved] = slot;
             }
 
@@ -264,10 +256,6 @@ public sealed class ExactIndex : IVectorIndex
             ThrowIfDisposed();
             _vectors.Resize(_count);
             Array.Resize(ref _ids, _count);
-            if (_squaredNorms.Length > 0)
-            {
-                Array.Resize(ref _squaredNorms, _count);
-            }
 
             _slotOf.TrimExcess();
         }
@@ -475,10 +463,6 @@ public sealed class ExactIndex : IVectorIndex
         if (_ids.Length < _vectors.Capacity)
         {
             Array.Resize(ref _ids, _vectors.Capacity);
-            if (Metric == DistanceMetric.SquaredEuclidean)
-            {
-                Array.Resize(ref _squaredNorms, _vectors.Capacity);
-            }
         }
     }
 
@@ -493,11 +477,6 @@ public sealed class ExactIndex : IVectorIndex
         else
         {
             vector.CopyTo(row);
-        }
-
-        if (Metric == DistanceMetric.SquaredEuclidean)
-        {
-            _squaredNorms[slot] = PairKernel.Sum<DotStep>(_kernelPath, row, row);
         }
 
         _ids[slot] = id;
@@ -516,46 +495,36 @@ public sealed class ExactIndex : IVectorIndex
     private interface IFinish
     {
         static abstract float Apply(float raw);
-
-        /// <summary>The distance from a dot product, for the batch kernel (squared Euclidean expands ‖q‖² + ‖x‖² − 2 q·x).</summary>
-        static abstract float FromDot(float dot, float queryNorm, float rowNorm);
     }
 
     private readonly struct KeepFinish : IFinish
     {
         public static float Apply(float raw) => raw;
-
-        public static float FromDot(float dot, float queryNorm, float rowNorm) => queryNorm + rowNorm - (2f * dot);
     }
 
     private readonly struct NegateFinish : IFinish
     {
         public static float Apply(float raw) => -raw;
-
-        public static float FromDot(float dot, float queryNorm, float rowNorm) => -dot;
     }
 
     private readonly struct OneMinusFinish : IFinish
     {
         public static float Apply(float raw) => 1f - raw;
-
-        public static float FromDot(float dot, float queryNorm, float rowNorm) => 1f - dot;
     }
 
-    /// <summary>One thread's buffers for a batch: row-tile distances, per-query candidate heaps, query norms.</summary>
+    /// <summary>One thread's buffers for a batch: row-tile distances and per-query candidate heaps.</summary>
     private sealed class BatchScratch
     {
         public BatchScratch(ExactIndex index, int k)
         {
             TileRows = Math.Max(4, TileBytes / (index.Dimension * sizeof(float)) / 4 * 4);
 
-            // Candidates are selected with the tiled dot-product kernel, whose rounding differs from the
+            // Candidates are selected with the tiled kernel, whose summation order (and so rounding) differs from the
             // single-query kernel's; a margin of extra candidates, re-scored exactly, keeps the final top-k the same.
             HeapSize = Math.Min(index._count, k + Math.Max(8, k / 2));
             Dots = new float[QueryBlock * TileRows];
             Heaps = new SearchHit[QueryBlock * HeapSize];
             Counts = new int[QueryBlock];
-            QueryNorms = new float[QueryBlock];
         }
 
         public int TileRows { get; }
@@ -567,8 +536,6 @@ public sealed class ExactIndex : IVectorIndex
         public SearchHit[] Heaps { get; }
 
         public int[] Counts { get; }
-
-        public float[] QueryNorms { get; }
     }
 
     /// <summary>The shared state of one batch search, and the work of one block of queries.</summary>
@@ -614,32 +581,24 @@ public sealed class ExactIndex : IVectorIndex
             int heapSize = scratch.HeapSize;
             int tileRows = scratch.TileRows;
             long[] ids = index._ids;
-            float[] rowNorms = index._squaredNorms;
-            bool withNorms = rowNorms.Length > 0;
             Span<SearchHit> heaps = scratch.Heaps;
             Span<int> counts = scratch.Counts.AsSpan(0, count);
             counts.Clear();
-            for (int i = 0; i < count; i++)
-            {
-                var query = new ReadOnlySpan<float>(q + ((nint)i * d), d);
-                scratch.QueryNorms[i] = withNorms ? PairKernel.Sum<DotStep>(index._kernelPath, query, query) : 0f;
-            }
 
             ref float dots = ref MemoryMarshal.GetArrayDataReference(scratch.Dots);
             for (int start = 0; start < n; start += tileRows)
             {
                 int rows = Math.Min(tileRows, n - start);
-                BlockKernel.Dot(index._kernelPath, ref *q, count, ref index._vectors.Row(start), rows, d, ref dots, tileRows);
+                BlockKernel.Compute<TStep>(index._kernelPath, ref *q, count, ref index._vectors.Row(start), rows, d, ref dots, tileRows);
                 for (int i = 0; i < count; i++)
                 {
                     Span<SearchHit> heap = heaps.Slice(i * heapSize, heapSize);
                     ref int found = ref counts[i];
-                    float queryNorm = scratch.QueryNorms[i];
                     float bound = TopK.Bound(heap, found);
                     ref float row = ref Unsafe.Add(ref dots, (nint)i * tileRows);
                     for (int j = 0; j < rows; j++)
                     {
-                        float distance = TFinish.FromDot(Unsafe.Add(ref row, j), queryNorm, withNorms ? rowNorms[start + j] : 0f);
+                        float distance = TFinish.Apply(Unsafe.Add(ref row, j));
                         if (distance <= bound)
                         {
                             TopK.Offer(heap, ref found, distance, ids[start + j]);
