@@ -13,7 +13,9 @@ public static class SearchQuality
     /// <remarks>
     /// The build adds the data set in batches of <see cref="QualityMeasurementOptions.BuildBatchSize"/>; the search is a
     /// single <see cref="IVectorIndex.SearchBatch"/> call, so throughput includes its parallelism. The index is left
-    /// built and is not disposed. Times are wall-clock: on a busy machine they vary from run to run.
+    /// built and is not disposed. Times are wall-clock: on a busy machine they vary from run to run. Nothing is warmed
+    /// up first, so in a fresh process the times include JIT compilation; for steady-state figures, measure a small
+    /// data set once before the real one.
     /// </remarks>
     /// <param name="index">An empty index of the data set's dimension.</param>
     /// <param name="ids">One distinct id per data set row; empty (or <see langword="null"/>) for the row numbers 0..n−1. Must match the ids <paramref name="groundTruth"/> was computed with.</param>
