@@ -42,6 +42,33 @@ public class GroundTruthTests
     }
 
     [Fact]
+    public void DataFarFromTheOriginKeepsItsExactOrder()
+    {
+        // A common offset of 3000 makes squared norms about 3·10⁸, beyond float's exact integers, while the true distances
+        // stay small integers: a norm-expansion formula would lose them to cancellation; direct differences do not.
+        var random = new Random(13);
+        const int n = 500, d = 32;
+        float[] data = BruteForceReference.IntegerVectors(random, n, d, 3).Select(x => x + 3000f).ToArray();
+        float[] queries = BruteForceReference.IntegerVectors(random, 40, d, 3).Select(x => x + 3000f).ToArray();
+        long[] ids = ShuffledIds(random, n);
+
+        NeighbourTable truth = GroundTruth.Compute(data, ids, queries, d, 10, DistanceMetric.SquaredEuclidean);
+
+        AssertRowsEqual(BruteForceReference.Neighbours(data, ids, queries, d, 10, DistanceMetric.SquaredEuclidean), truth);
+    }
+
+    [Fact]
+    public void AnInvalidQueryIsReportedDirectly()
+    {
+        float[] data = [1, 0, 0, 1];
+        var zero = Assert.Throws<ArgumentException>(() => GroundTruth.Compute(data, null, [1, 1, 0, 0], 2, 1, DistanceMetric.Cosine));
+        Assert.StartsWith("queries row 1 is a zero vector", zero.Message);
+
+        var nan = Assert.Throws<ArgumentException>(() => GroundTruth.Compute(data, null, [1, 1, 0, float.NaN], 2, 1, DistanceMetric.SquaredEuclidean));
+        Assert.StartsWith("queries row 1 has a non-finite component: [1] = NaN.", nan.Message);
+    }
+
+    [Fact]
     public void ManyExactTiesAreBrokenByAscendingId()
     {
         // Four components in {-1, 0, 1}: only 81 distinct vectors among 500, so most distances tie.
