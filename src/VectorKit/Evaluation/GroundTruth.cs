@@ -7,8 +7,7 @@ namespace VectorKit.Evaluation;
 /// <summary>The true k nearest neighbours of a query set, found by exhaustive search, to measure approximate indexes against.</summary>
 /// <remarks>
 /// Neighbours are ordered as every index orders them: ascending distance under the metric, ties broken by ascending id.
-/// Distances are those of <see cref="ExactIndex"/>'s single-query scan (float32 SIMD kernels, squared differences summed
-/// directly), so two candidates whose distances differ by less than float rounding may rank in either order; that is at
+/// Distances are those of <see cref="ExactIndex"/> (float32 SIMD kernels, squared differences summed directly), so two candidates whose distances differ by less than float rounding may rank in either order; that is at
 /// the edge of what any float index can resolve.
 /// </remarks>
 public static class GroundTruth
@@ -75,21 +74,9 @@ public static class GroundTruth
             ids = rowNumbers;
         }
 
-        // Validate every query before the parallel loop, so a bad one raises its ArgumentException here
-        // rather than wrapped in an AggregateException from a worker.
-        int queryCount = queries.Length / dimension;
-        VectorChecks.CheckFinite(queries, nameof(queries), 0, dimension);
-        if (metric == DistanceMetric.Cosine)
-        {
-            for (int q = 0; q < queryCount; q++)
-            {
-                VectorChecks.CheckNotZero(queries.Slice(q * dimension, dimension), $"{nameof(queries)} row {q}");
-            }
-        }
-
         using var index = new ExactIndex(dimension, metric, new ExactIndexOptions { InitialCapacity = n });
         index.AddRange(ids, baseVectors);
-        return SearchEachQuery(index, queries.ToArray(), Math.Min(k, Math.Max(1, n)), progress, cancellationToken);
+        return Compute(index, queries, k, progress, cancellationToken);
     }
 
     /// <summary>Reads the k nearest neighbours of each query from an index that is already built.</summary>
@@ -119,39 +106,5 @@ public static class GroundTruth
         }
 
         return NeighbourTable.FromResults(index.SearchBatch(queries, k, SearchOptions.Default, progress, cancellationToken));
-    }
-
-    // One single-query search per query, in parallel over blocks of queries. The single-query scan sums squared
-    // differences directly; the batch path's norm expansion (‖q‖² + ‖x‖² − 2q·x) loses the small distances of data
-    // far from the origin to cancellation, and ground truth must not depend on where the data happens to sit.
-    private static NeighbourTable SearchEachQuery(ExactIndex index, float[] queries, int width, IProgress<int>? progress, CancellationToken cancellationToken)
-    {
-        const int Block = 32;
-        int d = index.Dimension;
-        int queryCount = queries.Length / d;
-        var neighbourIds = new long[checked(queryCount * width)];
-        var counts = new int[queryCount];
-        int completed = 0;
-        var parallel = new ParallelOptions { CancellationToken = cancellationToken };
-        Parallel.For(0, (queryCount + Block - 1) / Block, parallel, block =>
-        {
-            var hits = new SearchHit[width];
-            int first = block * Block;
-            int last = Math.Min(queryCount, first + Block);
-            for (int q = first; q < last; q++)
-            {
-                int found = index.Search(queries.AsSpan(q * d, d), hits);
-                for (int j = 0; j < found; j++)
-                {
-                    neighbourIds[(q * width) + j] = hits[j].Id;
-                }
-
-                counts[q] = found;
-            }
-
-            progress?.Report(Interlocked.Add(ref completed, last - first));
-        });
-
-        return new NeighbourTable(neighbourIds, counts, width);
     }
 }
