@@ -62,16 +62,9 @@ public static class GroundTruth
             ThrowHelper.ThrowArgument(nameof(ids), $"ids has {ids.Length} elements; baseVectors holds {n} rows of dimension {dimension}. Pass one id per row, or none for 0..n-1.");
         }
 
-        long[]? rowNumbers = null;
         if (ids.IsEmpty && n > 0)
         {
-            rowNumbers = new long[n];
-            for (int i = 0; i < n; i++)
-            {
-                rowNumbers[i] = i;
-            }
-
-            ids = rowNumbers;
+            ids = RowNumbers.Upto(n);
         }
 
         using var index = new ExactIndex(dimension, metric, new ExactIndexOptions { InitialCapacity = n });

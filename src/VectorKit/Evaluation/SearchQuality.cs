@@ -83,16 +83,9 @@ public static class SearchQuality
             ThrowHelper.ThrowArgument(nameof(groundTruth), $"groundTruth holds {groundTruth.K} neighbours per query; recall@{k} over {n} vectors needs {Math.Min(k, n)}.");
         }
 
-        long[]? rowNumbers = null;
         if (ids.IsEmpty && n > 0)
         {
-            rowNumbers = new long[n];
-            for (int i = 0; i < n; i++)
-            {
-                rowNumbers[i] = i;
-            }
-
-            ids = rowNumbers;
+            ids = RowNumbers.Upto(n);
         }
 
         int batch = options.BuildBatchSize;
