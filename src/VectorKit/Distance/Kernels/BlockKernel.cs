@@ -33,7 +33,8 @@ internal static class BlockKernel
         }
     }
 
-    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
+    // Never inlined, like the other kernel bodies: inlined into a large caller the lane structs stop living in registers.
+    [MethodImpl(MethodImplOptions.NoInlining | MethodImplOptions.AggressiveOptimization)]
     private static void Compute<TStep, TLane>(KernelPath widest, ref float queries, int queryCount, ref float rows, int rowCount, int dimension, ref float output, int outputStride)
         where TStep : struct, IAccumulateStep
         where TLane : struct, IVectorLane<TLane>

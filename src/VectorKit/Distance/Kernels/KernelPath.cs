@@ -14,8 +14,8 @@ internal enum KernelPath
 /// <summary>Chooses the kernel width: the widest the hardware runs, once per process, narrowed per vector length.</summary>
 /// <remarks>
 /// The width is read from <c>VectorNNN.IsHardwareAccelerated</c>, which honours the runtime switches
-/// <c>DOTNET_EnableAVX512F=0</c>, <c>DOTNET_EnableAVX2=0</c> and <c>DOTNET_EnableHWIntrinsic=0</c>; the test suite
-/// runs again under each of them. Tests can also call every path narrower than <see cref="Widest"/> directly.
+/// <c>DOTNET_EnableAVX512=0</c> (on .NET 10 the older <c>DOTNET_EnableAVX512F=0</c> alone leaves Vector512 on),
+/// <c>DOTNET_EnableAVX2=0</c> and <c>DOTNET_EnableHWIntrinsic=0</c>; the test suite runs again under each of them. Tests can also call every path narrower than <see cref="Widest"/> directly.
 /// </remarks>
 internal static class KernelDispatch
 {
