@@ -128,8 +128,9 @@ public static class VectorDistance
         CheckLengths(x, y);
         PairKernel.CosineParts(widest, x, y, out float dot, out float xx, out float yy);
 
-        // Double for the final combination: xx·yy can overflow float for large but finite vectors.
-        return (float)(dot / Math.Sqrt((double)xx * yy));
+        // Two float roots rather than one root of xx·yy: the product can overflow float for large finite vectors,
+        // and the roots run in parallel, where a double division and root would add a fixed ~10 ns at small d.
+        return dot / (MathF.Sqrt(xx) * MathF.Sqrt(yy));
     }
 
     private static void CheckLengths(ReadOnlySpan<float> x, ReadOnlySpan<float> y)
