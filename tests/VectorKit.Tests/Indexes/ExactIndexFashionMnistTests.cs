@@ -80,7 +80,11 @@ public class ExactIndexFashionMnistTests(ITestOutputHelper output)
         int[] trainLabels = FashionMnist.TrainLabels;
         int[] testLabels = FashionMnist.TestLabels;
 
+        int fallbacksBefore = s_trainIndex.Value.BatchFallbacks;
         (double raw1, double raw5) = Accuracy(s_trainIndex.Value, FashionMnist.TestImages.Data, trainLabels, testLabels);
+        int fallbacks = s_trainIndex.Value.BatchFallbacks - fallbacksBefore;
+        output.WriteLine($"{fallbacks} of 10,000 batch queries fell back to a single scan.");
+        Assert.InRange(fallbacks, 0, 100);
         output.WriteLine($"raw pixels:   1-NN {raw1:F4}   5-NN {raw5:F4}");
 
         (float[] trainStd, float[] testStd) = Standardise(FashionMnist.TrainImages, FashionMnist.TestImages);

@@ -91,13 +91,16 @@ public class ExactIndexTests
                 Assert.Equal(single, batch[i].ToArray());
             }
         }
+
+        // On ordinary data the tiled kernel's candidates are proven complete: single-scan fallbacks stay rare.
+        Assert.InRange(index.BatchFallbacks, 0, queries / 10);
     }
 
     [Fact]
     public void SearchBatch_DataFarFromTheOrigin_StillMatchesSingleSearch()
     {
-        // Tight clusters far from the origin: an expansion ‖q‖² + ‖x‖² − 2 q·x would cancel away the small
-        // distances and pick the wrong candidates; the batch kernel sums differences, so it must not.
+        // Tight clusters far from the origin: the expansion ‖q‖² + ‖x‖² − 2 q·x cancels away the small distances,
+        // so the tiled candidates are wrong; the batch must detect it and still return the exact answer.
         var random = new Random(11);
         const int d = 32, n = 2_000, queries = 64, k = 10;
         float[] Shifted(int length) => RandomFloats(random, length).Select(v => 1000f + (0.01f * v)).ToArray();
@@ -109,6 +112,10 @@ public class ExactIndexTests
         {
             Assert.Equal(index.Search(q.AsSpan(i * d, d), k), batch[i].ToArray());
         }
+
+        // The tiled kernel's expansion cannot resolve these distances, and its error bound says so: every query
+        // falls back to a single scan rather than return a wrong neighbour.
+        Assert.Equal(queries, index.BatchFallbacks);
     }
 
     [Fact]

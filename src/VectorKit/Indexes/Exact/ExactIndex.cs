@@ -10,14 +10,17 @@ namespace VectorKit.Indexes.Exact;
 /// ground truth approximate indexes are measured against, and the right choice up to about 10⁵ vectors.
 /// </summary>
 /// <remarks>
-/// <para><b>Storage.</b> All vectors sit in one contiguous native block (N × d × 4 bytes), with one id per row.
-/// Removing a vector moves the last row into its place, so the scan never meets holes. Memory beyond the vectors is
-/// about 36 bytes per vector (id, id lookup), plus the
+/// <para><b>Storage.</b> All vectors sit in one contiguous native block (N × d × 4 bytes), with one id per row and,
+/// except under cosine, one squared norm per row. Removing a vector moves the last row into its place, so the scan
+/// never meets holes. Memory beyond the vectors is about 40 bytes per vector (id, norm, id lookup), plus the
 /// growth slack left by one-at-a-time adds (up to half; <see cref="TrimExcess"/> releases it).</para>
 /// <para><b>Search.</b> A single query streams the block once through the one-against-many kernel and keeps the best
 /// k in a bounded heap. A batch is tiled: blocks of queries against cache-sized blocks of rows through a register-tiled
-/// matrix kernel, in parallel across query blocks; the candidates it selects are re-scored with the single-query kernel,
-/// so a batch returns exactly what single searches would. The filter is checked per row before its distance is computed.</para>
+/// dot-product kernel, in parallel across query blocks. Its candidates are re-scored with the single-query kernel, and a
+/// rounding-error bound proves per query that no result of the single search was missed; a query whose candidates
+/// cannot be proven complete (data far from the origin, where ‖q‖² + ‖x‖² − 2 q·x cancels) is answered by a single-query
+/// scan instead. A batch therefore returns exactly what single searches would. The filter is checked per row before
+/// its distance is computed.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; adds and removes
 /// wait for running searches and block new ones until they finish, so a search sees the index entirely before or
 /// entirely after each write. A batch search holds the index for its whole duration.</para>
@@ -36,7 +39,9 @@ public sealed class ExactIndex : IVectorIndex
     private readonly Dictionary<long, int> _slotOf = new();
     private readonly KernelPath _kernelPath;
     private long[] _ids;
+    private float[] _squaredNorms;
     private int _count;
+    private int _batchFallbacks;
     private bool _disposed;
 
     /// <summary>Creates an empty exact index.</summary>
@@ -64,6 +69,7 @@ public sealed class ExactIndex : IVectorIndex
         _kernelPath = kernelPath;
         _vectors = new VectorBuffer(dimension, options.InitialCapacity);
         _ids = new long[options.InitialCapacity];
+        _squaredNorms = metric == DistanceMetric.Cosine ? [] : new float[options.InitialCapacity];
     }
 
     /// <inheritdoc/>
@@ -76,7 +82,7 @@ public sealed class ExactIndex : IVectorIndex
     public int Count => Volatile.Read(ref _count);
 
     /// <inheritdoc/>
-    /// <remarks>Vectors at their reserved capacity, ids, and the id lookup's entries (about 28 bytes each).</remarks>
+    /// <remarks>Vectors at their reserved capacity, ids, norms, and the id lookup's entries (about 28 bytes each).</remarks>
     public long MemoryBytes
     {
         get
@@ -84,7 +90,8 @@ public sealed class ExactIndex : IVectorIndex
             _lock.EnterReadLock();
             try
             {
-                return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_slotOf.EnsureCapacity(0) * 28);
+                return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
+                    + ((long)_slotOf.EnsureCapacity(0) * 28);
             }
             finally
             {
@@ -235,6 +242,11 @@ public sealed class ExactIndex : IVectorIndex
                 _vectors.CopyRow(last, slot);
                 long moved = _ids[last];
                 _ids[slot] = moved;
+                if (_squaredNorms.Length > 0)
+                {
+                    _squaredNorms[slot] = _squaredNorms[last];
+                }
+
                 _slotOf[moved] = slot;
             }
 
@@ -246,6 +258,9 @@ public sealed class ExactIndex : IVectorIndex
         }
     }
 
+    /// <summary>Batch queries so far whose tiled candidates could not be proven complete and were scanned singly (for tests).</summary>
+    internal int BatchFallbacks => Volatile.Read(ref _batchFallbacks);
+
     /// <summary>Releases the storage reserved beyond <see cref="Count"/> vectors.</summary>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public void TrimExcess()
@@ -256,6 +271,10 @@ public sealed class ExactIndex : IVectorIndex
             ThrowIfDisposed();
             _vectors.Resize(_count);
             Array.Resize(ref _ids, _count);
+            if (_squaredNorms.Length > 0)
+            {
+                Array.Resize(ref _squaredNorms, _count);
+            }
 
             _slotOf.TrimExcess();
         }
@@ -357,7 +376,7 @@ public sealed class ExactIndex : IVectorIndex
 
             fixed (float* pinned = source)
             {
-                var batch = new BatchRun(this, (nint)pinned, queryCount, results, options, progress);
+                var batch = new BatchRun(this, (nint)pinned, queryCount, results, options, progress, LargestSquaredNorm());
                 int blocks = (queryCount + QueryBlock - 1) / QueryBlock;
                 var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
                 Parallel.For(0, blocks, parallel, () => new BatchScratch(this, results.K), batch.RunBlock, static _ => { });
@@ -457,12 +476,33 @@ public sealed class ExactIndex : IVectorIndex
         return count;
     }
 
+    // Unit vectors under cosine; otherwise the largest stored ‖x‖², for the batch's rounding-error bound.
+    private float LargestSquaredNorm()
+    {
+        if (Metric == DistanceMetric.Cosine)
+        {
+            return 1f;
+        }
+
+        float largest = 0f;
+        foreach (float norm in _squaredNorms.AsSpan(0, _count))
+        {
+            largest = Math.Max(largest, norm);
+        }
+
+        return largest;
+    }
+
     private void EnsureCapacity(int required)
     {
         _vectors.EnsureCapacity(required);
         if (_ids.Length < _vectors.Capacity)
         {
             Array.Resize(ref _ids, _vectors.Capacity);
+            if (Metric != DistanceMetric.Cosine)
+            {
+                Array.Resize(ref _squaredNorms, _vectors.Capacity);
+            }
         }
     }
 
@@ -477,6 +517,11 @@ public sealed class ExactIndex : IVectorIndex
         else
         {
             vector.CopyTo(row);
+        }
+
+        if (Metric != DistanceMetric.Cosine)
+        {
+            _squaredNorms[slot] = PairKernel.Sum<DotStep>(_kernelPath, row, row);
         }
 
         _ids[slot] = id;
@@ -495,36 +540,71 @@ public sealed class ExactIndex : IVectorIndex
     private interface IFinish
     {
         static abstract float Apply(float raw);
+
+        /// <summary>The distance from a dot product, for the batch kernel (squared Euclidean expands ‖q‖² + ‖x‖² − 2 q·x).</summary>
+        static abstract float FromDot(float dot, float querySquaredNorm, float rowSquaredNorm);
+
+        /// <summary>
+        /// Twice the largest possible gap between a batch candidate's distance (<see cref="FromDot"/>) and the
+        /// single-query kernel's distance for the same row, given the per-sum relative error bound γ.
+        /// </summary>
+        /// <remarks>
+        /// A float sum of products errs by at most γ·Σ|terms| (γ ≈ terms-per-lane-chain × 2⁻²⁴; Higham, Accuracy and
+        /// Stability of Numerical Algorithms, ch. 3). Cauchy–Schwarz bounds Σ|q_i x_i| by ‖q‖‖x‖ and Σ(q_i − x_i)²
+        /// by 2(‖q‖² + ‖x‖²); the largest stored norm stands in for every row's.
+        /// </remarks>
+        static abstract float Margin(double gamma, float querySquaredNorm, float largestRowSquaredNorm);
     }
 
     private readonly struct KeepFinish : IFinish
     {
         public static float Apply(float raw) => raw;
+
+        public static float FromDot(float dot, float querySquaredNorm, float rowSquaredNorm) => querySquaredNorm + rowSquaredNorm - (2f * dot);
+
+        // Expansion: the three sums (γ each) and two additions (2⁻²⁴ each) over ≤ 2(‖q‖² + ‖x‖²); differences: γ over the same.
+        public static float Margin(double gamma, float querySquaredNorm, float largestRowSquaredNorm)
+            => (float)(2 * ((4 * gamma) + (4 * Unit)) * ((double)querySquaredNorm + largestRowSquaredNorm));
     }
 
     private readonly struct NegateFinish : IFinish
     {
         public static float Apply(float raw) => -raw;
+
+        public static float FromDot(float dot, float querySquaredNorm, float rowSquaredNorm) => -dot;
+
+        public static float Margin(double gamma, float querySquaredNorm, float largestRowSquaredNorm)
+            => (float)(2 * (2 * gamma) * Math.Sqrt((double)querySquaredNorm * largestRowSquaredNorm));
     }
 
     private readonly struct OneMinusFinish : IFinish
     {
         public static float Apply(float raw) => 1f - raw;
+
+        public static float FromDot(float dot, float querySquaredNorm, float rowSquaredNorm) => 1f - dot;
+
+        // Unit vectors (to within rounding, hence 1.01), plus the rounding of 1 − dot on each side.
+        public static float Margin(double gamma, float querySquaredNorm, float largestRowSquaredNorm)
+            => (float)(2 * ((2 * gamma * 1.01) + (4 * Unit)));
     }
 
-    /// <summary>One thread's buffers for a batch: row-tile distances and per-query candidate heaps.</summary>
+    // The unit roundoff of float32.
+    private const double Unit = 1.0 / (1 << 24);
+
+    /// <summary>One thread's buffers for a batch: row-tile distances, per-query candidate heaps, query norms.</summary>
     private sealed class BatchScratch
     {
         public BatchScratch(ExactIndex index, int k)
         {
             TileRows = Math.Max(4, TileBytes / (index.Dimension * sizeof(float)) / 4 * 4);
 
-            // Candidates are selected with the tiled kernel, whose summation order (and so rounding) differs from the
-            // single-query kernel's; a margin of extra candidates, re-scored exactly, keeps the final top-k the same.
+            // Candidates are selected with the tiled dot-product kernel, whose rounding differs from the single-query
+            // kernel's; extra candidates, re-scored exactly, leave room for the error bound to prove the top k complete.
             HeapSize = Math.Min(index._count, k + Math.Max(8, k / 2));
             Dots = new float[QueryBlock * TileRows];
             Heaps = new SearchHit[QueryBlock * HeapSize];
             Counts = new int[QueryBlock];
+            QuerySquaredNorms = new float[QueryBlock];
         }
 
         public int TileRows { get; }
@@ -536,10 +616,12 @@ public sealed class ExactIndex : IVectorIndex
         public SearchHit[] Heaps { get; }
 
         public int[] Counts { get; }
+
+        public float[] QuerySquaredNorms { get; }
     }
 
     /// <summary>The shared state of one batch search, and the work of one block of queries.</summary>
-    private sealed unsafe class BatchRun(ExactIndex index, nint queries, int queryCount, BatchSearchResults results, SearchOptions options, IProgress<int>? progress)
+    private sealed unsafe class BatchRun(ExactIndex index, nint queries, int queryCount, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, float largestSquaredNorm)
     {
         private int _completed;
 
@@ -581,24 +663,32 @@ public sealed class ExactIndex : IVectorIndex
             int heapSize = scratch.HeapSize;
             int tileRows = scratch.TileRows;
             long[] ids = index._ids;
+            float[] rowNorms = index._squaredNorms;
+            bool withNorms = rowNorms.Length > 0;
             Span<SearchHit> heaps = scratch.Heaps;
             Span<int> counts = scratch.Counts.AsSpan(0, count);
             counts.Clear();
+            for (int i = 0; i < count; i++)
+            {
+                var query = new ReadOnlySpan<float>(q + ((nint)i * d), d);
+                scratch.QuerySquaredNorms[i] = withNorms ? PairKernel.Sum<DotStep>(index._kernelPath, query, query) : 1f;
+            }
 
             ref float dots = ref MemoryMarshal.GetArrayDataReference(scratch.Dots);
             for (int start = 0; start < n; start += tileRows)
             {
                 int rows = Math.Min(tileRows, n - start);
-                BlockKernel.Compute<TStep>(index._kernelPath, ref *q, count, ref index._vectors.Row(start), rows, d, ref dots, tileRows);
+                BlockKernel.Compute<DotStep>(index._kernelPath, ref *q, count, ref index._vectors.Row(start), rows, d, ref dots, tileRows);
                 for (int i = 0; i < count; i++)
                 {
                     Span<SearchHit> heap = heaps.Slice(i * heapSize, heapSize);
                     ref int found = ref counts[i];
+                    float queryNorm = scratch.QuerySquaredNorms[i];
                     float bound = TopK.Bound(heap, found);
                     ref float row = ref Unsafe.Add(ref dots, (nint)i * tileRows);
                     for (int j = 0; j < rows; j++)
                     {
-                        float distance = TFinish.Apply(Unsafe.Add(ref row, j));
+                        float distance = TFinish.FromDot(Unsafe.Add(ref row, j), queryNorm, withNorms ? rowNorms[start + j] : 1f);
                         if (distance <= bound)
                         {
                             TopK.Offer(heap, ref found, distance, ids[start + j]);
@@ -608,11 +698,27 @@ public sealed class ExactIndex : IVectorIndex
                 }
             }
 
-            // Re-score the selected candidates with the single-query kernel, then keep the best k.
+            double gamma = RelativeErrorBound(index._kernelPath, d);
+            int k = results.K;
             for (int i = 0; i < count; i++)
             {
                 Span<SearchHit> heap = heaps.Slice(i * heapSize, counts[i]);
+                heap.Sort();
                 ref float query = ref *(q + ((nint)i * d));
+
+                // Complete when every row was a candidate, or when the k-th candidate beats every row left out by more
+                // than the two kernels can disagree: then no row outside could enter the single search's top k.
+                bool complete = heap.Length < heapSize || heapSize >= n
+                    || heap[k - 1].Distance + TFinish.Margin(gamma, scratch.QuerySquaredNorms[i], largestSquaredNorm) < heap[^1].Distance;
+                if (!complete)
+                {
+                    Interlocked.Increment(ref index._batchFallbacks);
+                    var single = new ReadOnlySpan<float>(q + ((nint)i * d), d);
+                    results.SetCount(first + i, index.SearchLocked(single, results.Slots(first + i), null));
+                    continue;
+                }
+
+                // Re-score the candidates with the single-query kernel, then keep the best k.
                 for (int c = 0; c < heap.Length; c++)
                 {
                     long id = heap[c].Id;
@@ -621,10 +727,24 @@ public sealed class ExactIndex : IVectorIndex
                 }
 
                 heap.Sort();
-                int keep = Math.Min(results.K, heap.Length);
+                int keep = Math.Min(k, heap.Length);
                 heap[..keep].CopyTo(results.Slots(first + i));
                 results.SetCount(first + i, keep);
             }
+        }
+
+        // γ for one float sum in either kernel: each lane chains about d / width products, then the lanes and
+        // partial sums are added (at most width + 4 more roundings); doubled for safety.
+        private static double RelativeErrorBound(KernelPath widest, int dimension)
+        {
+            int width = KernelDispatch.For(dimension, widest) switch
+            {
+                KernelPath.Vector512 => 16,
+                KernelPath.Vector256 => 8,
+                KernelPath.Vector128 => 4,
+                _ => 1,
+            };
+            return 2.0 * ((dimension / width) + width + 6) * Unit;
         }
     }
 }
