@@ -185,6 +185,24 @@ public sealed partial class GraphIndex
         Volatile.Write(ref _entry, best < 0 ? -1L & 0xFFFFFFFFL : Pack(best, bestLevel));
     }
 
+    /// <summary>The id of the entry point, or <see langword="null"/> when the index is empty (for tests).</summary>
+    internal long? EntryPointId
+    {
+        get
+        {
+            _lock.EnterReadLock();
+            try
+            {
+                int entry = EntrySlot(_entry);
+                return entry < 0 || _count == 0 ? null : _ids[entry];
+            }
+            finally
+            {
+                _lock.ExitReadLock();
+            }
+        }
+    }
+
     /// <summary>
     /// Checks the graph's structure and returns the problems found (empty when sound): no self links, no link to a
     /// slot out of range or to a node below that layer, counts within limits, every live node reachable on the bottom
@@ -216,7 +234,7 @@ public sealed partial class GraphIndex
             for (int slot = 0; slot < _used; slot++)
             {
                 int level = _links.Level(slot);
-                if (level > EntryLevel(_entry))
+                if (_removed[slot] == 0 && level > EntryLevel(_entry))
                 {
                     problems.Add($"slot {slot} has level {level}, above the entry level {EntryLevel(_entry)}");
                 }

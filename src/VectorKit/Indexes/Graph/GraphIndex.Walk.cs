@@ -150,8 +150,10 @@ public sealed partial class GraphIndex
         return written;
     }
 
-    // The published neighbour-selection heuristic (Algorithm 4, without extending or keeping pruned candidates):
-    // walk the candidates nearest first and keep one only when it is nearer to the base than to every kept one.
+    // The published neighbour-selection heuristic (Algorithm 4 with keepPrunedConnections, without extending the
+    // candidates): walk the candidates nearest first and keep one only when it is nearer to the base than to every
+    // kept one; then, if room is left, fill the list with the nearest discarded candidates. The fill matters: without
+    // it, pruning can take every in-link of a node (clusters of duplicates do it at once) and leave it unreachable.
     // keys/slots hold the candidates sorted by distance to the base; writes up to `limit` slots into `chosen`.
     private int SelectNeighbours<TDistance>(ReadOnlySpan<float> keys, ReadOnlySpan<int> slots, int limit, Span<int> chosen)
         where TDistance : struct, IGraphDistance
@@ -175,6 +177,15 @@ public sealed partial class GraphIndex
             if (good)
             {
                 chosen[kept++] = candidate;
+            }
+        }
+
+        int diverse = kept;
+        for (int i = 0; i < slots.Length && kept < limit; i++)
+        {
+            if (!chosen[..diverse].Contains(slots[i]))
+            {
+                chosen[kept++] = slots[i];
             }
         }
 
