@@ -1,18 +1,30 @@
+using System.Globalization;
 using VectorKit.Benchmarks.Indexes;
 
 namespace VectorKit.Benchmarks;
 
-/// <summary>Entry point: <c>graph-sweep</c> runs the graph index's recall-versus-throughput harness.</summary>
+/// <summary>
+/// Entry point: <c>graph-sweep [fashion-mnist directory]</c> and <c>clustered-sweep [count] [dimension]</c> run the
+/// graph index's recall-versus-throughput harness.
+/// </summary>
 public static class Program
 {
     public static void Main(string[] args)
     {
         if (args.Length > 0 && args[0] == "graph-sweep")
         {
-            GraphSweep.Run(args.Length > 1 ? args[1] : "/usr/share/datasets/fashion-mnist");
+            GraphSweep.RunFashionMnist(args.Length > 1 ? args[1] : "/usr/share/datasets/fashion-mnist");
             return;
         }
 
-        Console.WriteLine("usage: graph-sweep [fashion-mnist directory]");
+        if (args.Length > 0 && args[0] == "clustered-sweep")
+        {
+            int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
+            int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
+            GraphSweep.RunClustered(count, dimension);
+            return;
+        }
+
+        Console.WriteLine("usage: graph-sweep [fashion-mnist directory] | clustered-sweep [count, default 1000000] [dimension, default 128]");
     }
 }

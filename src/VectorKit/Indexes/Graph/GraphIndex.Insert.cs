@@ -26,12 +26,8 @@ public sealed partial class GraphIndex
 
     private void Link(int slot)
     {
-        switch (Metric)
-        {
-            case DistanceMetric.SquaredEuclidean: Link<SquaredEuclideanGraphDistance>(slot); break;
-            case DistanceMetric.InnerProduct: Link<InnerProductGraphDistance>(slot); break;
-            default: Link<CosineGraphDistance>(slot); break;
-        }
+        var action = new LinkAction(this, slot);
+        GraphDispatch.Run<LinkAction, bool>(Metric, _path, ref action);
     }
 
     private void Link<TDistance>(int slot)
@@ -54,7 +50,7 @@ public sealed partial class GraphIndex
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         int width = _options.BuildWidth;
-        scratch.EnsureSizes(Math.Max(width, _options.LinksPerNode), _links.BottomLimit);
+        scratch.EnsureSizes(Math.Max(width, _options.LinksPerNode), _links.MaxLimit);
         for (int layer = Math.Min(level, top); layer >= 0; layer--)
         {
             StartWalk(scratch, entry, entryDistance, null);
@@ -137,6 +133,16 @@ public sealed partial class GraphIndex
             int kept = SelectNeighbours<TDistance>(keys, slots, limit, chosen);
             chosen[..kept].CopyTo(block[1..]);
             Volatile.Write(ref block[0], kept);
+        }
+    }
+
+    private readonly struct LinkAction(GraphIndex index, int slot) : IGraphAction<bool>
+    {
+        public bool Run<TDistance>()
+            where TDistance : struct, IGraphDistance
+        {
+            index.Link<TDistance>(slot);
+            return true;
         }
     }
 

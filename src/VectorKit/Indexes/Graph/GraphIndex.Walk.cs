@@ -1,4 +1,6 @@
 using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
+using System.Runtime.Intrinsics.X86;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -6,7 +8,7 @@ namespace VectorKit.Indexes.Graph;
 public sealed partial class GraphIndex
 {
     // Greedy descent (ef = 1) from level `from` down to, not including, level `to`: on each layer move to the nearest
-    // neighbour while one is nearer. Removed items still serve as waypoints.
+    // neighbour while one is nearer.
     private int Descend<TDistance>(ref float query, int entry, ref float entryDistance, int from, int to)
         where TDistance : struct, IGraphDistance
     {
@@ -45,6 +47,7 @@ public sealed partial class GraphIndex
         NodeHeap candidates = scratch.Candidates;
         NodeHeap results = scratch.Results;
         VisitedSet visited = scratch.Visited;
+        ref int pending = ref MemoryMarshal.GetArrayDataReference(scratch.Pending);
         byte[] removed = _removed;
         long[] ids = _ids;
         int d = Dimension;
@@ -60,12 +63,31 @@ public sealed partial class GraphIndex
             candidates.Pop();
             Span<int> block = _links.Block(current, level);
             int count = GraphLinks.CountOf(block);
+            ref int links = ref MemoryMarshal.GetReference(block);
+
+            // Collect the unvisited neighbours first, then measure them in a row: while one distance is computed the
+            // next row is already on its way from memory (random rows are the walk's main cost, not arithmetic).
+            int fresh = 0;
             for (int i = 1; i <= count; i++)
             {
-                int next = block[i];
-                if (!visited.TryMark(next))
+                int next = Unsafe.Add(ref links, i);
+                if (visited.TryMark(next))
                 {
-                    continue;
+                    Unsafe.Add(ref pending, fresh++) = next;
+                }
+            }
+
+            if (fresh > 0)
+            {
+                Prefetch(ref _vectors.Row(pending), d);
+            }
+
+            for (int j = 0; j < fresh; j++)
+            {
+                int next = Unsafe.Add(ref pending, j);
+                if (j + 1 < fresh)
+                {
+                    Prefetch(ref _vectors.Row(Unsafe.Add(ref pending, j + 1)), d);
                 }
 
                 float distance = TDistance.Between(ref query, ref _vectors.Row(next), d);
@@ -82,6 +104,24 @@ public sealed partial class GraphIndex
                     }
                 }
             }
+        }
+    }
+
+    // Asks the cache for a whole row (one hint per 64-byte line); no effect where the hint is not available.
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private static unsafe void Prefetch(ref float row, int dimension)
+    {
+        if (Sse.IsSupported)
+        {
+            byte* start = (byte*)Unsafe.AsPointer(ref row);
+            byte* end = start + ((nint)dimension * sizeof(float));
+            for (byte* line = start; line < end; line += 64)
+            {
+                Sse.Prefetch0(line);
+            }
+
+            // A row that does not start on a line boundary ends on one more line.
+            Sse.Prefetch0(end - 1);
         }
     }
 
@@ -126,12 +166,28 @@ public sealed partial class GraphIndex
             return 0;
         }
 
-        float entryDistance = TDistance.Between(ref query, ref _vectors.Row(entry), Dimension);
-        entry = Descend<TDistance>(ref query, entry, ref entryDistance, EntryLevel(packed), 0);
+        float topDistance = TDistance.Between(ref query, ref _vectors.Row(entry), Dimension);
+        float entryDistance = topDistance;
+        int start = Descend<TDistance>(ref query, entry, ref entryDistance, EntryLevel(packed), 0);
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
-        scratch.EnsureSizes(width, _links.BottomLimit);
-        StartWalk(scratch, entry, entryDistance, filter);
+        scratch.EnsureSizes(width, _links.MaxLimit);
+        StartWalk(scratch, start, entryDistance, filter);
+
+        // The entry point joins the candidates too: every live node is reachable from it (not necessarily from where
+        // the descent ends), so a width covering the index finds every item. Being far, it is rarely expanded otherwise.
+        if (start != entry && scratch.Visited.TryMark(entry))
+        {
+            scratch.Candidates.Push(topDistance, entry);
+            if (_removed[entry] == 0 && (filter is null || filter(_ids[entry])))
+            {
+                scratch.Results.Push(-topDistance, entry);
+                if (scratch.Results.Count > width)
+                {
+                    scratch.Results.Pop();
+                }
+            }
+        }
         BeamSearch<TDistance>(ref query, scratch, 0, width, filter);
 
         int found = scratch.Results.Count;
@@ -167,7 +223,9 @@ public sealed partial class GraphIndex
             bool good = true;
             for (int j = 0; j < kept; j++)
             {
-                if (TDistance.Between(ref row, ref _vectors.Row(chosen[j]), d) < keys[i])
+                // Strictly nearer to the base, as published: an exact duplicate of a kept node is not kept by this pass
+                // (ties would otherwise fill a list with copies and wall a cluster of duplicates off from the rest).
+                if (TDistance.Between(ref row, ref _vectors.Row(chosen[j]), d) <= keys[i])
                 {
                     good = false;
                     break;

@@ -1,5 +1,6 @@
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
+using VectorKit.Distance.Kernels;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -24,15 +25,22 @@ namespace VectorKit.Indexes.Graph;
 /// walk on but are never returned. When a fixed sample of 256 items suggests that less than
 /// <see cref="GraphIndexOptions.FilteredExactScanFraction"/> of the items pass, the search scans the passing items
 /// exactly instead.</para>
-/// <para><b>Removal.</b> A removed item is never returned. Its neighbours are re-linked among themselves with the
-/// heuristic, and the item stays in the graph as a hidden waypoint (its vector and links kept) until
-/// <see cref="Compact"/> rebuilds the graph from the live items and releases the space.</para>
+/// <para><b>Removal.</b> A removed item is never returned. Every list that linked to it is chosen again by the heuristic
+/// from its remaining links and the removed item's links, so no live node links to a removed one; the item's vector
+/// keeps its space until <see cref="Compact"/> rebuilds the graph from the live items and releases it.</para>
+/// <para><b>Reachability.</b> Every live item is reachable from the entry point on the bottom layer. Pruning a full list
+/// can take the last in-link of a node (clusters of exact duplicates do it readily), so every add, add batch,
+/// removal batch and compaction ends with a pass that walks the bottom layer from the entry point and links each
+/// unreached item from a reached node near it. The pass is exclusive (it waits for searches) and costs one traversal
+/// of the bottom layer, <c>O(items × bottom links)</c> reads, plus a search per unreached item (measured: 120 of the
+/// 60,000 Fashion-MNIST items); batches amortise it.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with the
 /// linking phase of <see cref="Add"/> and <see cref="AddRange(ReadOnlySpan{long}, ReadOnlySpan{float})"/>: an add
 /// first waits for running searches while it stores the vectors (a short exclusive step), then links the new items
 /// while searches proceed; a concurrent search may or may not see an item being linked, and never sees a removed one.
-/// Several adds may link at once (per-node locks). <see cref="Remove"/>, <see cref="Compact"/> and
-/// <see cref="Dispose"/> are exclusive: they wait for running searches and adds.</para>
+/// Several adds may link at once (per-node locks). The reachability pass at the end of an add, <see cref="Remove"/>,
+/// <see cref="RemoveRange"/>, <see cref="Compact"/> and <see cref="Dispose"/> are exclusive: they wait for running
+/// searches and adds.</para>
 /// </remarks>
 public sealed partial class GraphIndex : IVectorIndex
 {
@@ -48,12 +56,14 @@ public sealed partial class GraphIndex : IVectorIndex
     private readonly GraphLinks _links;
     private readonly Dictionary<long, int> _slotOf = new();
     private readonly double _levelScale;
+    private readonly KernelPath _path;
     private Random _levelRandom;
     private long[] _ids;
     private byte[] _removed;
     private int _used;
     private int _count;
     private bool _disposed;
+    private long _orphansAttached;
 
     // The entry point and the top level, packed (level << 32 | slot) so a reader gets a consistent pair; slot -1 when empty.
     private long _entry = -1L & 0xFFFFFFFFL;
@@ -74,6 +84,7 @@ public sealed partial class GraphIndex : IVectorIndex
         _options = options ?? GraphIndexOptions.Default;
         Dimension = dimension;
         Metric = metric;
+        _path = KernelDispatch.For(dimension, KernelDispatch.Widest);
         _levelScale = 1.0 / Math.Log(_options.LinksPerNode);
         _levelRandom = new Random(_options.Seed);
         _vectors = new VectorBuffer(dimension, _options.InitialCapacity);
@@ -198,6 +209,8 @@ public sealed partial class GraphIndex : IVectorIndex
         {
             _lock.ExitReadLock();
         }
+
+        RepairReachabilityAfterAdd();
     }
 
     /// <inheritdoc/>
@@ -280,8 +293,11 @@ public sealed partial class GraphIndex : IVectorIndex
         catch (OperationCanceledException)
         {
             DropUnlinked(first, linked);
+            RepairReachabilityAfterAdd();
             throw;
         }
+
+        RepairReachabilityAfterAdd();
     }
 
     /// <inheritdoc/>
@@ -479,16 +495,17 @@ public sealed partial class GraphIndex : IVectorIndex
             return 0;
         }
 
-        ref float query = ref MemoryMarshal.GetReference(q);
         Func<long, bool>? filter = options.Filter;
-        bool scan = filter is not null && PrefersExactScan(filter);
-        int width = Math.Max(destination.Length, options.SearchWidth ?? _options.DefaultSearchWidth);
-        return Metric switch
+        var action = new SearchAction
         {
-            DistanceMetric.SquaredEuclidean => scan ? ScanFiltered<SquaredEuclideanGraphDistance>(ref query, destination, filter!) : SearchGraph<SquaredEuclideanGraphDistance>(ref query, destination, width, filter),
-            DistanceMetric.InnerProduct => scan ? ScanFiltered<InnerProductGraphDistance>(ref query, destination, filter!) : SearchGraph<InnerProductGraphDistance>(ref query, destination, width, filter),
-            _ => scan ? ScanFiltered<CosineGraphDistance>(ref query, destination, filter!) : SearchGraph<CosineGraphDistance>(ref query, destination, width, filter),
+            Index = this,
+            Query = q,
+            Destination = destination,
+            Width = Math.Max(destination.Length, options.SearchWidth ?? _options.DefaultSearchWidth),
+            Filter = filter,
+            Scan = filter is not null && PrefersExactScan(filter),
         };
+        return GraphDispatch.Run<SearchAction, int>(Metric, _path, ref action);
     }
 
     // Estimates the filter's pass rate on a fixed, evenly spaced sample of slots (deterministic: no random draw).
@@ -536,6 +553,26 @@ public sealed partial class GraphIndex : IVectorIndex
         }
 
         return TopK.SortBestFirst(heap, count);
+    }
+
+    /// <summary>One search with its distance resolved: a filtered exact scan or a graph walk.</summary>
+    private ref struct SearchAction : IGraphAction<int>
+    {
+        public GraphIndex Index;
+        public ReadOnlySpan<float> Query;
+        public Span<SearchHit> Destination;
+        public int Width;
+        public Func<long, bool>? Filter;
+        public bool Scan;
+
+        public readonly int Run<TDistance>()
+            where TDistance : struct, IGraphDistance
+        {
+            ref float query = ref MemoryMarshal.GetReference(Query);
+            return Scan
+                ? Index.ScanFiltered<TDistance>(ref query, Destination, Filter!)
+                : Index.SearchGraph<TDistance>(ref query, Destination, Width, Filter);
+        }
     }
 
     private static long Pack(int slot, int level) => ((long)level << 32) | (uint)slot;

@@ -35,6 +35,9 @@ internal sealed class GraphLinks
 
     public int BottomLimit { get; }
 
+    /// <summary>The larger of the two limits: the most neighbours any one list holds.</summary>
+    public int MaxLimit => Math.Max(UpperLimit, BottomLimit);
+
     public int Capacity => _levels.Length;
 
     public long Bytes => ((long)_bottom.Length * sizeof(int)) + ((long)_upperStart.Length * sizeof(int)) + _levels.Length + ((long)_upper.Length * sizeof(int));

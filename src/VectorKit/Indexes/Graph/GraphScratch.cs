@@ -36,6 +36,14 @@ internal sealed class GraphScratch
 
     public SearchHit[] Hits { get; private set; } = [];
 
+    /// <summary>The unvisited neighbours of the node a beam search is expanding, measured as one batch.</summary>
+    public int[] Pending { get; private set; } = [];
+
+    /// <summary>Candidates for re-linking a list after removals; grows on demand.</summary>
+    public float[] RepairKeys { get; private set; } = [];
+
+    public int[] RepairSlots { get; private set; } = [];
+
     public static Rental Rent()
     {
         GraphScratch scratch = t_cached ?? new GraphScratch();
@@ -55,11 +63,32 @@ internal sealed class GraphScratch
             Hits = new SearchHit[sorted];
         }
 
+        if (Pending.Length < links + 1)
+        {
+            Pending = new int[links + 1];
+        }
+
         if (PruneKeys.Length < 2 * (links + 1))
         {
             PruneKeys = new float[2 * (links + 1)];
             PruneSlots = new int[2 * (links + 1)];
             PruneChosen = new int[2 * (links + 1)];
+        }
+    }
+
+    /// <summary>Makes the repair buffers hold at least <paramref name="count"/> candidates.</summary>
+    public void EnsureRepairSize(int count)
+    {
+        if (RepairKeys.Length < count)
+        {
+            // Grown while candidates are being gathered: keep the ones already there.
+            int size = Math.Max(Math.Max(count, 64), 2 * RepairKeys.Length);
+            float[] keys = RepairKeys;
+            int[] slots = RepairSlots;
+            Array.Resize(ref keys, size);
+            Array.Resize(ref slots, size);
+            RepairKeys = keys;
+            RepairSlots = slots;
         }
     }
 

@@ -27,7 +27,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         SearchHit[] hits = graph.Search(data.AsSpan((int)entry * d, d), K);
         Assert.Equal(K, hits.Length);
         Assert.DoesNotContain(hits, h => h.Id == entry);
-        GraphChecks.AssertSound(graph, 0.01);
+        GraphChecks.AssertSound(graph);
     }
 
     [Fact]
@@ -57,8 +57,8 @@ public class GraphIndexTests(ITestOutputHelper output)
         NeighbourTable truth = GroundTruth.Compute(data, default, queries, d, K, metric);
         double atDefault = Recall.AtK(truth, graph.SearchBatch(queries, K), K);
         double recall = Recall.AtK(truth, graph.SearchBatch(queries, K, new SearchOptions { SearchWidth = 128 }), K);
-        int unreachable = GraphChecks.AssertSound(graph, 0.01);
-        output.WriteLine($"{metric}, {(clustered ? "clustered" : "random unit")}: recall@10 {atDefault:F4} at the default width, {recall:F4} at width 128; {unreachable} unreachable");
+        GraphChecks.AssertSound(graph);
+        output.WriteLine($"{metric}, {(clustered ? "clustered" : "random unit")}: recall@10 {atDefault:F4} at the default width, {recall:F4} at width 128; {graph.OrphansAttached} nodes attached by the reachability pass");
         Assert.True(recall >= 0.95, $"recall@10 at width 128 was {recall:F4}");
     }
 
@@ -74,13 +74,15 @@ public class GraphIndexTests(ITestOutputHelper output)
         Assert.Equal(exact.Search(query, 5), graph.Search(query, 5, new SearchOptions { SearchWidth = 500 }));
     }
 
-    [Fact(Skip = "Known gap: the measured drop is 0.018–0.025 (run to run), over the 0.02 goal; removal repair needs work.")]
+    [Fact]
     public void RemovingThirtyPercentAtRandom_DropsRecallByAtMost002_AndNeverReturnsRemovedItems()
     {
         const int n = 20000, d = 32;
         float[] data = ClusteredData.Generate(n, d, 100, 0.2f, seed: 11);
         float[] queries = ClusteredData.Generate(500, d, 100, 0.2f, seed: 12);
-        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data);
+
+        // One build thread: the graph, and so the measured drop, is the same on every run.
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { BuildParallelism = 1 });
         var searchWidth = SearchOptions.Default;
         double before = Recall.AtK(GroundTruth.Compute(data, default, queries, d, K, DistanceMetric.SquaredEuclidean), graph.SearchBatch(queries, K, searchWidth), K);
 
@@ -109,9 +111,9 @@ public class GraphIndexTests(ITestOutputHelper output)
 
         Assert.True(before - afterRecall <= 0.02, $"recall fell from {before:F4} to {afterRecall:F4}");
         Assert.Equal(n - removed.Length, graph.Count);
-        GraphChecks.AssertSound(graph, 0.01);
+        GraphChecks.AssertSound(graph);
 
-        // Compaction rebuilds from the live items: the same recall (within build noise), less memory, no waypoints.
+        // Compaction rebuilds from the live items: the same recall (within build noise) and less memory.
         long bytes = graph.MemoryBytes;
         graph.Compact();
         double compacted = Recall.AtK(liveTruth, graph.SearchBatch(queries, K, searchWidth), K);
@@ -120,10 +122,10 @@ public class GraphIndexTests(ITestOutputHelper output)
         Assert.True(graph.MemoryBytes < bytes * 0.8);
         Assert.Equal(liveIds.Length, graph.Count);
         Assert.All(liveIds, id => Assert.True(graph.Contains(id)));
-        GraphChecks.AssertSound(graph, 0.01);
+        GraphChecks.AssertSound(graph);
     }
 
-    [Fact(Skip = "Known gap: after many removals with 4 links per node, repair leaves parts of the graph unreachable and searches return fewer than k items.")]
+    [Fact]
     public void RemovingTheEntryPointAgainAndAgain_KeepsTheIndexSearchable_UntilEmpty()
     {
         const int n = 300, d = 8;
@@ -140,7 +142,7 @@ public class GraphIndexTests(ITestOutputHelper output)
             Assert.DoesNotContain(hits, h => h.Id == entry);
             if (removed % 50 == 0)
             {
-                GraphChecks.AssertSound(graph, 0.01);
+                GraphChecks.AssertSound(graph);
             }
         }
 
@@ -148,6 +150,56 @@ public class GraphIndexTests(ITestOutputHelper output)
         Assert.Empty(graph.Search(query, 5));
         graph.Add(1000, query);
         Assert.Equal(1000, graph.Search(query, 1)[0].Id);
+    }
+
+    [Fact]
+    public void ClustersOfExactDuplicates_LeaveNoItemUnreachable_AndAWideSearchFindsEveryCopy()
+    {
+        // 40 points, 25 exact copies of each, 4 links per node: pruning among equal distances cuts copies off, and
+        // the reachability pass must link every one back.
+        const int points = 40, copies = 25, d = 8;
+        float[] distinct = ClusteredData.Generate(points, d, 4, 0.3f, seed: 71);
+        float[] data = new float[points * copies * d];
+        for (int i = 0; i < points * copies; i++)
+        {
+            distinct.AsSpan((i % points) * d, d).CopyTo(data.AsSpan(i * d, d));
+        }
+
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 4, BuildParallelism = 1 });
+        output.WriteLine($"{graph.OrphansAttached} of {graph.Count} items attached by the reachability pass");
+        Assert.True(graph.OrphansAttached > 0, "the data set no longer exercises the reachability pass");
+        GraphChecks.AssertSound(graph);
+        var wide = new SearchOptions { SearchWidth = points * copies };
+        for (int p = 0; p < points; p++)
+        {
+            SearchHit[] hits = graph.Search(distinct.AsSpan(p * d, d), copies, wide);
+            Assert.Equal(Enumerable.Range(0, copies).Select(c => (long)(p + (c * points))), hits.Select(h => h.Id));
+            Assert.All(hits, h => Assert.Equal(0f, h.Distance));
+        }
+    }
+
+    [Fact]
+    public void RemoveRange_RemovesABatch_LeavesASoundGraph_AndIsAllOrNothing()
+    {
+        const int n = 3000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 20, 0.2f, seed: 81);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data);
+        Assert.Throws<KeyNotFoundException>(() => graph.RemoveRange([1, 2, 5000]));
+        ArgumentException repeated = Assert.Throws<ArgumentException>(() => graph.RemoveRange([1, 2, 1]));
+        Assert.StartsWith("Id 1 appears more than once in ids", repeated.Message, StringComparison.Ordinal);
+        Assert.Equal(n, graph.Count);
+        Assert.True(graph.Contains(1) && graph.Contains(2));
+
+        long[] gone = Ids(n).Where(id => id % 3 == 0).ToArray();
+        graph.RemoveRange(gone);
+        Assert.Equal(n - gone.Length, graph.Count);
+        GraphChecks.AssertSound(graph);
+        BatchSearchResults found = graph.SearchBatch(data, K, new SearchOptions { SearchWidth = 64 });
+        for (int q = 0; q < found.QueryCount; q++)
+        {
+            Assert.Equal(K, found[q].Length);
+            Assert.All(found[q].ToArray(), h => Assert.NotEqual(0, h.Id % 3));
+        }
     }
 
     [Fact]
@@ -196,7 +248,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         stop.Cancel();
         await searcher;
         Assert.Equal(n + 10, graph.Count);
-        GraphChecks.AssertSound(graph, 0.01);
+        GraphChecks.AssertSound(graph);
     }
 
     [Fact]
@@ -215,7 +267,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         });
         Assert.ThrowsAny<OperationCanceledException>(() => graph.AddRange(Ids(n), data, progress, cancel.Token));
         Assert.InRange(graph.Count, 1000, n - 1);
-        GraphChecks.AssertSound(graph, 0.01);
+        GraphChecks.AssertSound(graph);
         long[] kept = Ids(n).Where(graph.Contains).ToArray();
         Assert.Equal(graph.Count, kept.Length);
     }
