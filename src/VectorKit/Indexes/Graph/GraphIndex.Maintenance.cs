@@ -15,7 +15,7 @@ public sealed partial class GraphIndex
     /// <para>The items are hidden from results at once. Every list (on every layer) that linked to a removed item is
     /// chosen again by the neighbour-selection heuristic from its remaining links and the removed items' own links
     /// (and, through removed items, their links' links), so the graph stays navigable and no live node links to a
-    /// removed one. The vectors keep their space until <see cref="Compact"/>. Removing the entry point promotes the
+    /// removed one. The vectors keep their space until <see cref="Compact()"/>. Removing the entry point promotes the
     /// live node with the highest level. The call ends with the reachability pass described on
     /// <see cref="GraphIndex"/>.</para>
     /// <para>Cost: a pass over all link lists plus the re-selection of the affected lists, whatever the number of ids,
@@ -78,66 +78,93 @@ public sealed partial class GraphIndex
     /// Rebuilds the graph from the live items only, in parallel, and shrinks every array to <see cref="Count"/> items:
     /// the space of removed items is released.
     /// </summary>
-    /// <remarks>
-    /// Costs about as much as building the index anew (vectors are moved in place, not copied). Levels are drawn again
-    /// from <see cref="GraphIndexOptions.Seed"/>, so the result does not depend on the history of adds and removes.
-    /// Exclusive: waits for running searches and blocks new ones until it finishes.
-    /// </remarks>
+    /// <remarks>As <see cref="Compact(IProgress{int}, CancellationToken)"/> without progress or cancellation.</remarks>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void Compact()
+    public void Compact() => Compact(null, default);
+
+    /// <summary>
+    /// Rebuilds the graph from the live items only, in parallel, and shrinks every array to <see cref="Count"/> items:
+    /// the space of removed items is released.
+    /// </summary>
+    /// <param name="progress">Optional; receives the number of items linked into the new graph so far, from worker threads.</param>
+    /// <param name="cancellationToken">Abandons the rebuild; the index is then exactly as it was before the call.</param>
+    /// <remarks>
+    /// The new graph is built beside the old one and replaces it at the end, so a cancelled compaction changes nothing;
+    /// the price is memory: until the swap, the live vectors and links exist twice. Costs about as much as building the
+    /// index anew. Levels are drawn again from <see cref="GraphIndexOptions.Seed"/>, so the result does not depend on
+    /// the history of adds and removes. Exclusive: waits for running searches and blocks new ones until it finishes.
+    /// </remarks>
+    /// <exception cref="OperationCanceledException">The token was cancelled; see <paramref name="cancellationToken"/>.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    public void Compact(IProgress<int>? progress, CancellationToken cancellationToken)
     {
         _lock.EnterWriteLock();
         try
         {
             ThrowIfDisposed();
-            int live = 0;
-            for (int slot = 0; slot < _used; slot++)
+            cancellationToken.ThrowIfCancellationRequested();
+            var rebuilt = new GraphIndex(Dimension, Metric, _options);
+            int live = _count;
+            try
             {
-                if (_removed[slot] == 0)
+                rebuilt.StoreLiveRowsOf(this);
+                if (live > 0)
                 {
-                    // Rows only move towards the front, so copying in ascending order never overwrites a pending row.
-                    if (live != slot)
-                    {
-                        _vectors.CopyRow(slot, live);
-                        _ids[live] = _ids[slot];
-                    }
-
-                    live++;
+                    rebuilt.LinkAll(0, live, new bool[live], progress, cancellationToken);
+                    rebuilt.RepairReachabilityLocked();
                 }
             }
-
-            _vectors.Resize(live);
-            Array.Resize(ref _ids, live);
-            _removed = new byte[live];
-            _links.Reset(live);
-            _slotOf.Clear();
-            _slotOf.TrimExcess();
-            _levelRandom = new Random(_options.Seed);
-            _used = 0;
-            _count = 0;
-            Volatile.Write(ref _entry, -1L & 0xFFFFFFFFL);
-            if (live == 0)
+            catch
             {
-                return;
+                rebuilt.Dispose();
+                throw;
             }
 
-            long[] ids = _ids.AsSpan(0, live).ToArray();
-            for (int slot = 0; slot < live; slot++)
-            {
-                _slotOf.Add(ids[slot], slot);
-                _links.InitNode(slot, DrawLevel());
-            }
-
-            _used = live;
-            _count = live;
-            _entry = Pack(0, _links.Level(0));
-            LinkAll(0, live, new bool[live], null, CancellationToken.None);
-            RepairReachabilityLocked();
+            // The rebuilt index hands its storage over; it is dropped without disposing what now belongs to this one.
+            _vectors.Dispose();
+            _vectors = rebuilt._vectors;
+            _links = rebuilt._links;
+            _ids = rebuilt._ids;
+            _removed = rebuilt._removed;
+            _slotOf = rebuilt._slotOf;
+            _levelRandom = rebuilt._levelRandom;
+            _used = rebuilt._used;
+            _count = rebuilt._count;
+            _orphansAttached += rebuilt._orphansAttached;
+            Volatile.Write(ref _entry, rebuilt._entry);
         }
         finally
         {
             _lock.ExitWriteLock();
         }
+    }
+
+    // Copies the live rows (already normalised under cosine), ids and nothing else of `source` into this empty index,
+    // in slot order, with exactly as much room as they need, and draws their levels. No other thread sees this index.
+    private void StoreLiveRowsOf(GraphIndex source)
+    {
+        int live = source._count;
+        _vectors.EnsureCapacity(live);
+        _links.EnsureCapacity(live);
+        _ids = new long[live];
+        _removed = new byte[live];
+        _slotOf.EnsureCapacity(live);
+        int next = 0;
+        for (int slot = 0; slot < source._used; slot++)
+        {
+            if (source._removed[slot] == 0)
+            {
+                source._vectors.RowSpan(slot).CopyTo(_vectors.RowSpan(next));
+                _ids[next] = source._ids[slot];
+                _slotOf.Add(_ids[next], next);
+                _links.InitNode(next, DrawLevel());
+                next++;
+            }
+        }
+
+        _used = next;
+        _count = next;
+        _entry = next == 0 ? -1L & 0xFFFFFFFFL : Pack(0, _links.Level(0));
     }
 
     // Caller holds the write lock. Runs the reachability pass with the index's distance.

@@ -27,7 +27,7 @@ namespace VectorKit.Indexes.Graph;
 /// exactly instead.</para>
 /// <para><b>Removal.</b> A removed item is never returned. Every list that linked to it is chosen again by the heuristic
 /// from its remaining links and the removed item's links, so no live node links to a removed one; the item's vector
-/// keeps its space until <see cref="Compact"/> rebuilds the graph from the live items and releases it.</para>
+/// keeps its space until <see cref="Compact()"/> rebuilds the graph from the live items and releases it.</para>
 /// <para><b>Reachability.</b> Every live item is reachable from the entry point on the bottom layer. Pruning a full list
 /// can take the last in-link of a node (clusters of exact duplicates do it readily), so every add, add batch,
 /// removal batch and compaction ends with a pass that walks the bottom layer from the entry point and links each
@@ -39,7 +39,7 @@ namespace VectorKit.Indexes.Graph;
 /// first waits for running searches while it stores the vectors (a short exclusive step), then links the new items
 /// while searches proceed; a concurrent search may or may not see an item being linked, and never sees a removed one.
 /// Several adds may link at once (per-node locks). The reachability pass at the end of an add, <see cref="Remove"/>,
-/// <see cref="RemoveRange"/>, <see cref="Compact"/> and <see cref="Dispose"/> are exclusive: they wait for running
+/// <see cref="RemoveRange"/>, <see cref="Compact()"/> and <see cref="Dispose"/> are exclusive: they wait for running
 /// searches and adds.</para>
 /// </remarks>
 public sealed partial class GraphIndex : IVectorIndex
@@ -52,9 +52,9 @@ public sealed partial class GraphIndex : IVectorIndex
     private readonly object[] _stripes = new object[LockStripes];
     private readonly object _entryLock = new();
     private readonly GraphIndexOptions _options;
-    private readonly VectorBuffer _vectors;
-    private readonly GraphLinks _links;
-    private readonly Dictionary<long, int> _slotOf = new();
+    private VectorBuffer _vectors;
+    private GraphLinks _links;
+    private Dictionary<long, int> _slotOf = new();
     private readonly double _levelScale;
     private readonly KernelPath _path;
     private Random _levelRandom;
@@ -114,7 +114,7 @@ public sealed partial class GraphIndex : IVectorIndex
     /// <remarks>
     /// Vectors at their reserved capacity, ids, the link arrays (bottom layer: <c>4 × (bottom links + 1)</c> bytes per
     /// slot; upper layers only for nodes that have them), per-slot level and removal flags, and the id lookup
-    /// (about 28 bytes per entry). Removed items keep their space until <see cref="Compact"/>.
+    /// (about 28 bytes per entry). Removed items keep their space until <see cref="Compact()"/>.
     /// </remarks>
     public long MemoryBytes
     {

@@ -273,6 +273,43 @@ public class GraphIndexTests(ITestOutputHelper output)
     }
 
     [Fact]
+    public void CancelledCompaction_LeavesTheIndexAsItWas_AndACompletedOneReportsProgress()
+    {
+        const int n = 4000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 30, 0.2f, seed: 91);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data);
+        graph.RemoveRange(Ids(n).Where(id => id % 4 == 1).ToArray());
+        long bytes = graph.MemoryBytes;
+        float[] queries = ClusteredData.Generate(20, d, 30, 0.2f, seed: 92);
+        BatchSearchResults before = graph.SearchBatch(queries, K);
+
+        using var cancel = new CancellationTokenSource();
+        var stopHalfway = new SynchronousProgressForGraph(done =>
+        {
+            if (done >= 1000)
+            {
+                cancel.Cancel();
+            }
+        });
+        Assert.ThrowsAny<OperationCanceledException>(() => graph.Compact(stopHalfway, cancel.Token));
+        Assert.Equal(n - (n / 4), graph.Count);
+        Assert.Equal(bytes, graph.MemoryBytes);
+        BatchSearchResults after = graph.SearchBatch(queries, K);
+        for (int q = 0; q < queries.Length / d; q++)
+        {
+            Assert.Equal(before[q].ToArray(), after[q].ToArray());
+        }
+
+        GraphChecks.AssertSound(graph);
+        int last = 0;
+        graph.Compact(new SynchronousProgressForGraph(done => InterlockedMax(ref last, done)), default);
+        Assert.Equal(graph.Count, last);
+        Assert.True(graph.MemoryBytes < bytes);
+        GraphChecks.AssertSound(graph);
+        Assert.All(Ids(n), id => Assert.Equal(id % 4 != 1, graph.Contains(id)));
+    }
+
+    [Fact]
     public void Progress_ReachesTheBatchSize()
     {
         const int n = 1000, d = 8;
