@@ -41,7 +41,7 @@ public static class GraphSweep
         Console.WriteLine($"clustered synthetic: {count} × {dimension}, {clusters} clusters, spread 0.2, squared L2, 1000 queries");
         float[] data = ClusteredData.Generate(count, dimension, clusters, 0.2f, seed: 101);
         float[] queries = ClusteredData.Generate(1000, dimension, clusters, 0.2f, seed: 102);
-        Sweep(data, dimension, queries, exactQueries: 200, [10, 16, 32, 64, 128, 256, 512]);
+        Sweep(data, dimension, queries, exactQueries: 200, [10, 32, 128, 512, 1024, 2048, 4096]);
     }
 
     private static void Sweep(float[] data, int d, float[] queries, int exactQueries, int[] widths)
