@@ -1,10 +1,32 @@
+using System.Globalization;
 using BenchmarkDotNet.Running;
+using VectorKit.Benchmarks.Indexes;
 
 namespace VectorKit.Benchmarks;
 
-/// <summary>Runs the benchmarks picked by the command line, e.g. <c>--filter '*PairKernel*'</c>.</summary>
+/// <summary>
+/// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
+/// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory]</c> and
+/// <c>clustered-sweep [count] [dimension]</c>.
+/// </summary>
 public static class Program
 {
     public static void Main(string[] args)
-        => BenchmarkSwitcher.FromAssembly(typeof(Program).Assembly).Run(args, BenchmarkConfig.Create());
+    {
+        if (args.Length > 0 && args[0] == "graph-sweep")
+        {
+            GraphSweep.RunFashionMnist(args.Length > 1 ? args[1] : "/usr/share/datasets/fashion-mnist");
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "clustered-sweep")
+        {
+            int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
+            int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
+            GraphSweep.RunClustered(count, dimension);
+            return;
+        }
+
+        BenchmarkSwitcher.FromAssembly(typeof(Program).Assembly).Run(args, BenchmarkConfig.Create());
+    }
 }

@@ -119,8 +119,12 @@ internal static class ManyKernel
         Unsafe.Add(ref results, 3) = TLane.Sum(TLane.Add(d0, d1));
     }
 
+    /// <summary>
+    /// <see cref="One{TStep}"/> at a width already chosen by <see cref="KernelDispatch.For"/>: for callers that measure
+    /// many rows against one query and resolve the width once, so this body inlines into their loop.
+    /// </summary>
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    private static float One<TStep, TLane>(ref float q, ref float x, int dimension)
+    internal static float One<TStep, TLane>(ref float q, ref float x, int dimension)
         where TStep : struct, IAccumulateStep
         where TLane : struct, IVectorLane<TLane>
     {

@@ -1,0 +1,176 @@
+using VectorKit.Distance;
+
+namespace VectorKit.Indexes.Graph;
+
+/// <summary>Linking new items into the graph (the published Algorithm 1), in parallel with per-node locks.</summary>
+public sealed partial class GraphIndex
+{
+    // Links slots [first, first + n) in parallel. Caller holds the read lock (adds) or the write lock (compaction);
+    // the vectors are stored and the levels drawn. Marks each slot in `linked` once its links are in place.
+    private void LinkAll(int first, int n, bool[] linked, IProgress<int>? progress, CancellationToken cancellationToken)
+    {
+        int completed = 0;
+        int step = Math.Max(1, n / 100);
+        var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveBuildParallelism, CancellationToken = cancellationToken };
+        Parallel.For(0, n, parallel, i =>
+        {
+            Link(first + i);
+            linked[i] = true;
+            int done = Interlocked.Increment(ref completed);
+            if (progress is not null && (done % step == 0 || done == n))
+            {
+                progress.Report(done);
+            }
+        });
+    }
+
+    private void Link(int slot)
+    {
+        var action = new LinkAction(this, slot);
+        GraphDispatch.Run<LinkAction, bool>(Metric, _path, ref action);
+    }
+
+    private void Link<TDistance>(int slot)
+        where TDistance : struct, IGraphDistance
+    {
+        long packed = Volatile.Read(ref _entry);
+        int entry = EntrySlot(packed);
+        if (entry == slot || entry < 0)
+        {
+            return;
+        }
+
+        int top = EntryLevel(packed);
+        int level = _links.Level(slot);
+        int d = Dimension;
+        ref float vector = ref _vectors.Row(slot);
+        float entryDistance = TDistance.Between(ref vector, ref _vectors.Row(entry), d);
+        entry = Descend<TDistance>(ref vector, entry, ref entryDistance, top, level);
+
+        using GraphScratch.Rental rental = GraphScratch.Rent();
+        GraphScratch scratch = rental.Scratch;
+        int width = _options.BuildWidth;
+        scratch.EnsureSizes(Math.Max(width, _options.LinksPerNode), _links.MaxLimit);
+        for (int layer = Math.Min(level, top); layer >= 0; layer--)
+        {
+            StartWalk(scratch, entry, entryDistance, null);
+
+            // A concurrent insert may already link to this slot; it must never become its own neighbour.
+            scratch.Visited.TryMark(slot);
+            BeamSearch<TDistance>(ref vector, scratch, layer, width, null);
+            int found = DrainSorted(scratch);
+            if (found == 0)
+            {
+                continue;
+            }
+
+            Span<int> chosen = scratch.Chosen;
+            int kept = SelectNeighbours<TDistance>(scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), _options.LinksPerNode, chosen);
+            lock (StripeOf(slot))
+            {
+                Span<int> own = _links.Block(slot, layer);
+                chosen[..kept].CopyTo(own[1..]);
+                Volatile.Write(ref own[0], kept);
+            }
+
+            for (int i = 0; i < kept; i++)
+            {
+                int neighbour = chosen[i];
+                Connect<TDistance>(scratch, neighbour, slot, layer);
+            }
+
+            entry = scratch.SortedSlots[0];
+            entryDistance = scratch.SortedKeys[0];
+        }
+
+        if (level > top)
+        {
+            lock (_entryLock)
+            {
+                if (level > EntryLevel(Volatile.Read(ref _entry)))
+                {
+                    Volatile.Write(ref _entry, Pack(slot, level));
+                }
+            }
+        }
+    }
+
+    // Adds the back link neighbour → slot on one layer; a full list is pruned with the heuristic (Algorithm 1, line 15).
+    private void Connect<TDistance>(GraphScratch scratch, int neighbour, int slot, int layer)
+        where TDistance : struct, IGraphDistance
+    {
+        int limit = _links.Limit(layer);
+        lock (StripeOf(neighbour))
+        {
+            Span<int> block = _links.Block(neighbour, layer);
+            int count = block[0];
+            if (ListContains(block, count, slot))
+            {
+                return;
+            }
+
+            if (count < limit)
+            {
+                block[count + 1] = slot;
+                Volatile.Write(ref block[0], count + 1);
+                return;
+            }
+
+            int d = Dimension;
+            ref float origin = ref _vectors.Row(neighbour);
+            Span<float> keys = scratch.PruneKeys.AsSpan(0, count + 1);
+            Span<int> slots = scratch.PruneSlots.AsSpan(0, count + 1);
+            for (int i = 0; i < count; i++)
+            {
+                slots[i] = block[i + 1];
+                keys[i] = TDistance.Between(ref origin, ref _vectors.Row(slots[i]), d);
+            }
+
+            slots[count] = slot;
+            keys[count] = TDistance.Between(ref origin, ref _vectors.Row(slot), d);
+            keys.Sort(slots);
+            Span<int> chosen = scratch.PruneChosen;
+            int kept = SelectNeighbours<TDistance>(keys, slots, limit, chosen);
+            chosen[..kept].CopyTo(block[1..]);
+            Volatile.Write(ref block[0], kept);
+        }
+    }
+
+    private readonly struct LinkAction(GraphIndex index, int slot) : IGraphAction<bool>
+    {
+        public bool Run<TDistance>()
+            where TDistance : struct, IGraphDistance
+        {
+            index.Link<TDistance>(slot);
+            return true;
+        }
+    }
+
+    // After a cancelled batch: slots whose linking never started are unreachable; take them out of the index.
+    private void DropUnlinked(int first, bool[] linked)
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            if (_disposed)
+            {
+                return;
+            }
+
+            for (int i = 0; i < linked.Length; i++)
+            {
+                int slot = first + i;
+                if (!linked[i] && EntrySlot(Volatile.Read(ref _entry)) != slot)
+                {
+                    _slotOf.Remove(_ids[slot]);
+                    _removed[slot] = 1;
+                    _count--;
+                }
+            }
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+}

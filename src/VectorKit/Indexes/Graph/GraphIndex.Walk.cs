@@ -1,0 +1,258 @@
+using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
+using System.Runtime.Intrinsics.X86;
+
+namespace VectorKit.Indexes.Graph;
+
+/// <summary>The graph walks: greedy descent, beam search and neighbour selection.</summary>
+public sealed partial class GraphIndex
+{
+    // Greedy descent (ef = 1) from level `from` down to, not including, level `to`: on each layer move to the nearest
+    // neighbour while one is nearer.
+    private int Descend<TDistance>(ref float query, int entry, ref float entryDistance, int from, int to)
+        where TDistance : struct, IGraphDistance
+    {
+        int d = Dimension;
+        for (int level = from; level > to; level--)
+        {
+            bool moved = true;
+            while (moved)
+            {
+                moved = false;
+                Span<int> block = _links.Block(entry, level);
+                int count = GraphLinks.CountOf(block);
+                for (int i = 1; i <= count; i++)
+                {
+                    int next = block[i];
+                    float distance = TDistance.Between(ref query, ref _vectors.Row(next), d);
+                    if (distance < entryDistance)
+                    {
+                        entryDistance = distance;
+                        entry = next;
+                        moved = true;
+                    }
+                }
+            }
+        }
+
+        return entry;
+    }
+
+    // Beam search on one layer (the published Algorithm 2). The caller has started the visited set and put the entry
+    // point in Candidates (and in Results if eligible). Leaves the best `width` eligible nodes in Results, keyed by
+    // negated distance. Eligible: not removed and passing the filter; ineligible nodes are expanded all the same.
+    private void BeamSearch<TDistance>(ref float query, GraphScratch scratch, int level, int width, Func<long, bool>? filter)
+        where TDistance : struct, IGraphDistance
+    {
+        NodeHeap candidates = scratch.Candidates;
+        NodeHeap results = scratch.Results;
+        VisitedSet visited = scratch.Visited;
+        ref int pending = ref MemoryMarshal.GetArrayDataReference(scratch.Pending);
+        byte[] removed = _removed;
+        long[] ids = _ids;
+        int d = Dimension;
+        while (candidates.Count > 0)
+        {
+            float nearest = candidates.TopKey;
+            if (results.Count >= width && nearest > -results.TopKey)
+            {
+                break;
+            }
+
+            int current = candidates.TopSlot;
+            candidates.Pop();
+            Span<int> block = _links.Block(current, level);
+            int count = GraphLinks.CountOf(block);
+            ref int links = ref MemoryMarshal.GetReference(block);
+
+            // Collect the unvisited neighbours first, then measure them in a row: while one distance is computed the
+            // next row is already on its way from memory (random rows are the walk's main cost, not arithmetic).
+            int fresh = 0;
+            for (int i = 1; i <= count; i++)
+            {
+                int next = Unsafe.Add(ref links, i);
+                if (visited.TryMark(next))
+                {
+                    Unsafe.Add(ref pending, fresh++) = next;
+                }
+            }
+
+            if (fresh > 0)
+            {
+                Prefetch(ref _vectors.Row(pending), d);
+            }
+
+            for (int j = 0; j < fresh; j++)
+            {
+                int next = Unsafe.Add(ref pending, j);
+                if (j + 1 < fresh)
+                {
+                    Prefetch(ref _vectors.Row(Unsafe.Add(ref pending, j + 1)), d);
+                }
+
+                float distance = TDistance.Between(ref query, ref _vectors.Row(next), d);
+                if (results.Count < width || distance < -results.TopKey)
+                {
+                    candidates.Push(distance, next);
+                    if (removed[next] == 0 && (filter is null || filter(ids[next])))
+                    {
+                        results.Push(-distance, next);
+                        if (results.Count > width)
+                        {
+                            results.Pop();
+                        }
+                    }
+                }
+            }
+        }
+    }
+
+    // Asks the cache for a whole row (one hint per 64-byte line); no effect where the hint is not available.
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private static unsafe void Prefetch(ref float row, int dimension)
+    {
+        if (Sse.IsSupported)
+        {
+            byte* start = (byte*)Unsafe.AsPointer(ref row);
+            byte* end = start + ((nint)dimension * sizeof(float));
+            for (byte* line = start; line < end; line += 64)
+            {
+                Sse.Prefetch0(line);
+            }
+
+            // A row that does not start on a line boundary ends on one more line.
+            Sse.Prefetch0(end - 1);
+        }
+    }
+
+    // Starts a beam search from one entry point.
+    private void StartWalk(GraphScratch scratch, int entry, float entryDistance, Func<long, bool>? filter)
+    {
+        scratch.Visited.Begin(_links.Capacity);
+        scratch.Candidates.Clear();
+        scratch.Results.Clear();
+        scratch.Visited.TryMark(entry);
+        scratch.Candidates.Push(entryDistance, entry);
+        if (_removed[entry] == 0 && (filter is null || filter(_ids[entry])))
+        {
+            scratch.Results.Push(-entryDistance, entry);
+        }
+    }
+
+    // Empties Results into SortedKeys/SortedSlots, nearest first; returns the count.
+    private static int DrainSorted(GraphScratch scratch)
+    {
+        NodeHeap results = scratch.Results;
+        int count = results.Count;
+        float[] keys = scratch.SortedKeys;
+        int[] slots = scratch.SortedSlots;
+        for (int i = count - 1; i >= 0; i--)
+        {
+            keys[i] = -results.TopKey;
+            slots[i] = results.TopSlot;
+            results.Pop();
+        }
+
+        return count;
+    }
+
+    private int SearchGraph<TDistance>(ref float query, Span<SearchHit> destination, int width, Func<long, bool>? filter)
+        where TDistance : struct, IGraphDistance
+    {
+        long packed = Volatile.Read(ref _entry);
+        int entry = EntrySlot(packed);
+        if (entry < 0)
+        {
+            return 0;
+        }
+
+        float topDistance = TDistance.Between(ref query, ref _vectors.Row(entry), Dimension);
+        float entryDistance = topDistance;
+        int start = Descend<TDistance>(ref query, entry, ref entryDistance, EntryLevel(packed), 0);
+        using GraphScratch.Rental rental = GraphScratch.Rent();
+        GraphScratch scratch = rental.Scratch;
+        scratch.EnsureSizes(width, _links.MaxLimit);
+        StartWalk(scratch, start, entryDistance, filter);
+
+        // The entry point joins the candidates too: every live node is reachable from it (not necessarily from where
+        // the descent ends), so a width covering the index finds every item. Being far, it is rarely expanded otherwise.
+        if (start != entry && scratch.Visited.TryMark(entry))
+        {
+            scratch.Candidates.Push(topDistance, entry);
+            if (_removed[entry] == 0 && (filter is null || filter(_ids[entry])))
+            {
+                scratch.Results.Push(-topDistance, entry);
+                if (scratch.Results.Count > width)
+                {
+                    scratch.Results.Pop();
+                }
+            }
+        }
+        BeamSearch<TDistance>(ref query, scratch, 0, width, filter);
+
+        int found = scratch.Results.Count;
+        Span<SearchHit> hits = scratch.Hits.AsSpan(0, found);
+        for (int i = found - 1; i >= 0; i--)
+        {
+            NodeHeap results = scratch.Results;
+            hits[i] = new SearchHit(_ids[results.TopSlot], -results.TopKey);
+            results.Pop();
+        }
+
+        // Equal distances are ordered by id, as every index orders them.
+        hits.Sort();
+        int written = Math.Min(destination.Length, found);
+        hits[..written].CopyTo(destination);
+        return written;
+    }
+
+    // The published neighbour-selection heuristic (Algorithm 4 with keepPrunedConnections, without extending the
+    // candidates): walk the candidates nearest first and keep one only when it is nearer to the base than to every
+    // kept one; then, if room is left, fill the list with the nearest discarded candidates. The fill matters: without
+    // it, pruning can take every in-link of a node (clusters of duplicates do it at once) and leave it unreachable.
+    // keys/slots hold the candidates sorted by distance to the base; writes up to `limit` slots into `chosen`.
+    private int SelectNeighbours<TDistance>(ReadOnlySpan<float> keys, ReadOnlySpan<int> slots, int limit, Span<int> chosen)
+        where TDistance : struct, IGraphDistance
+    {
+        int d = Dimension;
+        int kept = 0;
+        for (int i = 0; i < slots.Length && kept < limit; i++)
+        {
+            int candidate = slots[i];
+            ref float row = ref _vectors.Row(candidate);
+            bool good = true;
+            for (int j = 0; j < kept; j++)
+            {
+                // Strictly nearer to the base, as published: an exact duplicate of a kept node is not kept by this pass
+                // (ties would otherwise fill a list with copies and wall a cluster of duplicates off from the rest).
+                if (TDistance.Between(ref row, ref _vectors.Row(chosen[j]), d) <= keys[i])
+                {
+                    good = false;
+                    break;
+                }
+            }
+
+            if (good)
+            {
+                chosen[kept++] = candidate;
+            }
+        }
+
+        int diverse = kept;
+        for (int i = 0; i < slots.Length && kept < limit; i++)
+        {
+            if (!chosen[..diverse].Contains(slots[i]))
+            {
+                chosen[kept++] = slots[i];
+            }
+        }
+
+        return kept;
+    }
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private static bool ListContains(Span<int> block, int count, int slot)
+    {
+        return block.Slice(1, count).Contains(slot);
+    }
+}

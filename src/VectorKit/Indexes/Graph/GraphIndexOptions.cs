@@ -1,0 +1,163 @@
+namespace VectorKit.Indexes.Graph;
+
+/// <summary>Options for building a <see cref="GraphIndex"/>.</summary>
+/// <remarks>
+/// Each property is checked when it is set; an out-of-range value throws an
+/// <see cref="ArgumentOutOfRangeException"/> whose message names the option and its allowed range.
+/// Instances are immutable once built and may be shared.
+/// </remarks>
+public sealed class GraphIndexOptions
+{
+    /// <summary>The most links a node may keep on one layer: the upper bound of <see cref="LinksPerNode"/> and <see cref="BottomLayerLinks"/>.</summary>
+    public const int MaxLinks = 512;
+
+    private readonly int _linksPerNode = 16;
+    private readonly int? _bottomLayerLinks;
+    private readonly int _buildWidth = 128;
+    private readonly int _defaultSearchWidth = 64;
+    private readonly int _initialCapacity;
+    private readonly int _buildParallelism = -1;
+    private readonly double _filteredExactScanFraction = 0.02;
+
+    /// <summary>The defaults: 16 links per node (32 on the bottom layer), build width 128, search width 64, seed 42.</summary>
+    public static GraphIndexOptions Default { get; } = new();
+
+    /// <summary>
+    /// Links each node keeps on the upper layers, and the number of neighbours chosen for a new node on every layer
+    /// (the published method's M). It also sets the level distribution: a node reaches level ℓ with probability
+    /// <c>LinksPerNode^-ℓ</c>. More links give higher recall and cost memory and build time. Default 16.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is outside [2, <see cref="MaxLinks"/>].</exception>
+    public int LinksPerNode
+    {
+        get => _linksPerNode;
+        init
+        {
+            if (value < 2 || value > MaxLinks)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(LinksPerNode), value, $"must be in [2, {MaxLinks}]");
+            }
+
+            _linksPerNode = value;
+        }
+    }
+
+    /// <summary>
+    /// Links each node may keep on the bottom layer, which holds every node; <see langword="null"/> (the default)
+    /// means twice <see cref="LinksPerNode"/> (capped at <see cref="MaxLinks"/>).
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is outside [2, <see cref="MaxLinks"/>].</exception>
+    public int? BottomLayerLinks
+    {
+        get => _bottomLayerLinks;
+        init
+        {
+            if (value is { } v && (v < 2 || v > MaxLinks))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(BottomLayerLinks), v, $"must be in [2, {MaxLinks}]");
+            }
+
+            _bottomLayerLinks = value;
+        }
+    }
+
+    /// <summary>Candidates kept by the beam search that finds a new node's neighbours; larger builds a better graph, slower. Default 128.</summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 100000].</exception>
+    public int BuildWidth
+    {
+        get => _buildWidth;
+        init
+        {
+            if (value < 1 || value > 100_000)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(BuildWidth), value, "must be in [1, 100000]");
+            }
+
+            _buildWidth = value;
+        }
+    }
+
+    /// <summary>
+    /// Candidates kept by a query's beam search when <see cref="SearchOptions.SearchWidth"/> is not given; a search
+    /// for k results always keeps at least k. Default 64.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 100000].</exception>
+    public int DefaultSearchWidth
+    {
+        get => _defaultSearchWidth;
+        init
+        {
+            if (value < 1 || value > 100_000)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(DefaultSearchWidth), value, "must be in [1, 100000]");
+            }
+
+            _defaultSearchWidth = value;
+        }
+    }
+
+    /// <summary>Seed of the level draws: the same seed and the same insertion order give the same levels. Default 42.</summary>
+    public int Seed { get; init; } = 42;
+
+    /// <summary>Vectors to reserve space for up front. Default 0.</summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is negative.</exception>
+    public int InitialCapacity
+    {
+        get => _initialCapacity;
+        init
+        {
+            if (value < 0)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(InitialCapacity), value, "must be zero or positive");
+            }
+
+            _initialCapacity = value;
+        }
+    }
+
+    /// <summary>The most threads a batch insert (and <see cref="GraphIndex.Compact()"/>) uses; -1 (the default) means one per core.</summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
+    public int BuildParallelism
+    {
+        get => _buildParallelism;
+        init
+        {
+            if (value == 0 || value < -1)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(BuildParallelism), value, "must be -1 (all cores) or a positive thread count");
+            }
+
+            _buildParallelism = value;
+        }
+    }
+
+    /// <summary>
+    /// When a search filter passes less than this fraction of the items (estimated from a fixed sample of 256 items),
+    /// the search scans the passing items exactly instead of walking the graph. 0 never scans. Default 0.02.
+    /// </summary>
+    /// <remarks>
+    /// Why 0.02: a filtered graph search keeps walking until its beam holds <c>width</c> passing items, so it evaluates
+    /// roughly <c>1 / fraction</c> times the nodes of an unfiltered search; at 2 % that is about 50 times, which for
+    /// the default widths is several thousand distances — about what an exact scan of 2 % of a 10⁵-item index costs,
+    /// with perfect recall. Common practice, not a measured optimum; tune per data set.
+    /// </remarks>
+    /// <exception cref="ArgumentOutOfRangeException">The value is outside [0, 1] or is NaN.</exception>
+    public double FilteredExactScanFraction
+    {
+        get => _filteredExactScanFraction;
+        init
+        {
+            if (!(value >= 0 && value <= 1))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(FilteredExactScanFraction), value, "must be in [0, 1]");
+            }
+
+            _filteredExactScanFraction = value;
+        }
+    }
+
+    /// <summary>The bottom layer's link limit after applying the default.</summary>
+    internal int EffectiveBottomLayerLinks => _bottomLayerLinks ?? Math.Min(MaxLinks, 2 * _linksPerNode);
+
+    internal int EffectiveBuildParallelism => _buildParallelism == -1 ? Environment.ProcessorCount : _buildParallelism;
+}

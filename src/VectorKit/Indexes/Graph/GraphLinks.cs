@@ -1,0 +1,111 @@
+using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
+
+namespace VectorKit.Indexes.Graph;
+
+/// <summary>
+/// The links of every node on every layer, in flat int arrays: no object or list per node.
+/// </summary>
+/// <remarks>
+/// <para><b>Layout.</b> A link list is a block of <c>limit + 1</c> ints: the count, then the neighbour slots.
+/// The bottom layer (every node) is one array of <c>capacity × (bottomLimit + 1)</c> ints, block of slot <c>s</c> at
+/// <c>s × (bottomLimit + 1)</c>. Upper layers exist only for nodes whose level is at least 1: such a node owns
+/// <c>level × (upperLimit + 1)</c> consecutive ints of a second array, layer <c>ℓ</c> at
+/// <c>start + (ℓ − 1) × (upperLimit + 1)</c>; with the published level distribution that is about
+/// <c>1 / (links − 1)</c> of the nodes.</para>
+/// <para><b>Concurrency.</b> Writers of one list hold that node's lock and write the count last; readers do not lock.
+/// A reader can therefore see a list mid-rewrite, but every slot it reads is a valid, fully stored node, and a count
+/// never exceeds the limit. Growth (<see cref="EnsureCapacity"/>) requires that nobody else uses the links.</para>
+/// </remarks>
+internal sealed class GraphLinks
+{
+    private int[] _bottom = [];
+    private int[] _upperStart = [];
+    private byte[] _levels = [];
+    private int[] _upper = [];
+    private int _upperUsed;
+
+    public GraphLinks(int upperLimit, int bottomLimit)
+    {
+        UpperLimit = upperLimit;
+        BottomLimit = bottomLimit;
+    }
+
+    public int UpperLimit { get; }
+
+    public int BottomLimit { get; }
+
+    /// <summary>The larger of the two limits: the most neighbours any one list holds.</summary>
+    public int MaxLimit => Math.Max(UpperLimit, BottomLimit);
+
+    public int Capacity => _levels.Length;
+
+    public long Bytes => ((long)_bottom.Length * sizeof(int)) + ((long)_upperStart.Length * sizeof(int)) + _levels.Length + ((long)_upper.Length * sizeof(int));
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public int Limit(int level) => level == 0 ? BottomLimit : UpperLimit;
+
+    /// <summary>Grows every per-node array to at least <paramref name="capacity"/> nodes; caller excludes all other users.</summary>
+    public void EnsureCapacity(int capacity)
+    {
+        if (capacity <= Capacity)
+        {
+            return;
+        }
+
+        int grown = (int)Math.Min(Array.MaxLength / (BottomLimit + 1), Math.Max(capacity, Capacity + ((long)Capacity / 2)));
+        Array.Resize(ref _bottom, checked(grown * (BottomLimit + 1)));
+        Array.Resize(ref _upperStart, grown);
+        Array.Resize(ref _levels, grown);
+    }
+
+    /// <summary>Shrinks to exactly <paramref name="capacity"/> nodes and forgets every link; caller excludes all other users.</summary>
+    public void Reset(int capacity)
+    {
+        _bottom = new int[checked(capacity * (BottomLimit + 1))];
+        _upperStart = new int[capacity];
+        _levels = new byte[capacity];
+        _upper = [];
+        _upperUsed = 0;
+    }
+
+    /// <summary>Gives a new slot its level and empty lists on every layer; caller excludes all other users.</summary>
+    public void InitNode(int slot, int level)
+    {
+        _levels[slot] = (byte)level;
+        _bottom[slot * (BottomLimit + 1)] = 0;
+        if (level > 0)
+        {
+            int length = checked(level * (UpperLimit + 1));
+            if (_upperUsed + length > _upper.Length)
+            {
+                Array.Resize(ref _upper, Math.Max(checked(_upperUsed + length), _upper.Length + (_upper.Length / 2) + 64));
+            }
+
+            _upperStart[slot] = _upperUsed;
+            _upper.AsSpan(_upperUsed, length).Clear();
+            _upperUsed += length;
+        }
+    }
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public int Level(int slot) => _levels[slot];
+
+    /// <summary>The list of <paramref name="slot"/> on <paramref name="level"/>: element 0 is the count, then the neighbours.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public Span<int> Block(int slot, int level)
+    {
+        if (level == 0)
+        {
+            int stride = BottomLimit + 1;
+            return MemoryMarshal.CreateSpan(ref Unsafe.Add(ref MemoryMarshal.GetArrayDataReference(_bottom), (nint)slot * stride), stride);
+        }
+
+        int upperStride = UpperLimit + 1;
+        return _upper.AsSpan(_upperStart[slot] + ((level - 1) * upperStride), upperStride);
+    }
+
+    /// <summary>The neighbour count of a list, read once, never more than the limit even mid-rewrite.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static int CountOf(Span<int> block) => Math.Min(Volatile.Read(ref block[0]), block.Length - 1);
+}

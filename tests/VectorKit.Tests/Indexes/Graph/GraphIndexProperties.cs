@@ -1,0 +1,96 @@
+using FsCheck.Xunit;
+using VectorKit.Distance;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
+using Xunit;
+
+namespace VectorKit.Tests.Indexes.Graph;
+
+/// <summary>Properties of the graph index on arbitrary small inputs, with the exact index as the oracle.</summary>
+public class GraphIndexProperties
+{
+    [Property(MaxTest = 150)]
+    public void WithAWidthCoveringTheSet_SearchEqualsExactSearch(int[] components, byte dimensionSeed, byte kSeed, byte metricSeed, int querySeed)
+    {
+        // Small integer components make distance ties frequent: the graph must break them by id as the exact index does.
+        DistanceMetric metric = (DistanceMetric)(metricSeed % 3);
+        int d = 1 + (dimensionSeed % 8);
+        int n = Math.Min(components.Length / d, 80);
+        int k = 1 + (kSeed % 12);
+        float[] data = components.Take(n * d).Select(c => (float)(Math.Abs(c % 7) - 3)).ToArray();
+        var random = new Random(querySeed);
+        float[] query = Enumerable.Range(0, d).Select(_ => (float)random.Next(-3, 4)).ToArray();
+        if (metric == DistanceMetric.Cosine)
+        {
+            // Cosine rejects zero vectors: nudge them.
+            for (int r = 0; r < n; r++)
+            {
+                if (data.AsSpan(r * d, d).IndexOfAnyExcept(0f) < 0)
+                {
+                    data[r * d] = 1;
+                }
+            }
+
+            query[0] = query.AsSpan().IndexOfAnyExcept(0f) < 0 ? 1 : query[0];
+        }
+
+        long[] ids = Enumerable.Range(0, n).Select(i => (long)(((i * 37) % 101) - 50 + (101 * (i / 101)))).ToArray();
+        using var graph = new GraphIndex(d, metric, new GraphIndexOptions { LinksPerNode = 6, BuildWidth = 100, Seed = querySeed });
+        using var exact = new ExactIndex(d, metric);
+        graph.AddRange(ids, data);
+        exact.AddRange(ids, data);
+        var wide = new SearchOptions { SearchWidth = 200 };
+
+        // Equality needs every node reachable, which the structure check asserts first: pruning among many exact
+        // duplicates cuts nodes off, and the reachability pass must have linked them back.
+        GraphChecks.AssertSound(graph);
+        Assert.Equal(exact.Search(query, k), graph.Search(query, k, wide));
+        Assert.Equal(exact.Search(query, k), graph.SearchBatch(query, k, wide)[0].ToArray());
+    }
+
+    [Property(MaxTest = 100)]
+    public void RandomInsertAndRemoveSequences_KeepTheGraphSound(int[] operations, byte linksSeed, bool compact)
+    {
+        const int d = 4;
+        int links = 2 + (linksSeed % 6);
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { LinksPerNode = links, BuildWidth = 32 });
+        using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
+        var live = new List<long>();
+        int next = 0;
+        foreach (int op in operations)
+        {
+            if (op % 4 == 0 && live.Count > 0)
+            {
+                long victim = live[Math.Abs(op / 4) % live.Count];
+                graph.Remove(victim);
+                exact.Remove(victim);
+                live.Remove(victim);
+            }
+            else
+            {
+                // A few vectors at a time, some of them exact duplicates of earlier ones.
+                int batch = 1 + Math.Abs(op % 5);
+                long[] ids = Enumerable.Range(next, batch).Select(i => (long)i).ToArray();
+                float[] vectors = Enumerable.Range(0, batch * d).Select(i => (float)(((op >> (i % 8)) + i) % 6)).ToArray();
+                graph.AddRange(ids, vectors);
+                exact.AddRange(ids, vectors);
+                live.AddRange(ids);
+                next += batch;
+            }
+        }
+
+        if (compact)
+        {
+            graph.Compact();
+        }
+
+        Assert.Equal(live.Count, graph.Count);
+        GraphChecks.AssertSound(graph);
+        float[] query = [1, 2, 3, 0];
+        var wide = new SearchOptions { SearchWidth = 1000 };
+        SearchHit[] found = graph.Search(query, 5, wide);
+        Assert.All(found, h => Assert.Contains(h.Id, live));
+        Assert.Equal(Math.Min(5, live.Count), exact.Search(query, 5).Length);
+    }
+}

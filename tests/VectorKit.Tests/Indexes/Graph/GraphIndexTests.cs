@@ -1,0 +1,345 @@
+using VectorKit.Distance;
+using VectorKit.Evaluation;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
+using VectorKit.Tests.TestData;
+using Xunit;
+using Xunit.Abstractions;
+
+namespace VectorKit.Tests.Indexes.Graph;
+
+/// <summary>The graph index against the exact index on seeded synthetic data: metrics, removal, compaction, filters, concurrency.</summary>
+public class GraphIndexTests(ITestOutputHelper output)
+{
+    private const int K = 10;
+    private static readonly GraphIndexOptions TwoThreads = new() { BuildParallelism = 2 };
+
+    [Fact]
+    public void RemovingTheEntryPointOnce_KeepsTheIndexSearchable()
+    {
+        const int n = 2000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 10, 0.2f, seed: 22);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data);
+        long entry = graph.EntryPointId!.Value;
+        graph.Remove(entry);
+        Assert.NotEqual(entry, graph.EntryPointId);
+        SearchHit[] hits = graph.Search(data.AsSpan((int)entry * d, d), K);
+        Assert.Equal(K, hits.Length);
+        Assert.DoesNotContain(hits, h => h.Id == entry);
+        GraphChecks.AssertSound(graph);
+    }
+
+    [Fact]
+    public void EmptyIndex_ReturnsNothing()
+    {
+        using var index = new GraphIndex(4, DistanceMetric.SquaredEuclidean);
+        Assert.Empty(index.Search([1f, 2, 3, 4], 5));
+        BatchSearchResults batch = index.SearchBatch(new float[8], 3);
+        Assert.Equal(2, batch.QueryCount);
+        Assert.Equal(0, batch[0].Length);
+        Assert.Null(index.EntryPointId);
+        Assert.Empty(index.CheckInvariants());
+    }
+
+    [Theory]
+    [InlineData(DistanceMetric.Cosine, false)]
+    [InlineData(DistanceMetric.InnerProduct, false)]
+    [InlineData(DistanceMetric.Cosine, true)]
+    [InlineData(DistanceMetric.InnerProduct, true)]
+    [InlineData(DistanceMetric.SquaredEuclidean, true)]
+    public void RecallAtTen_OnNormalisedRandomAndClusteredData_AtWidth128_IsAtLeast095(DistanceMetric metric, bool clustered)
+    {
+        const int n = 5000, d = 32;
+        float[] data = clustered ? ClusteredData.Generate(n, d, 50, 0.15f, seed: 7, normalise: metric != DistanceMetric.SquaredEuclidean) : ClusteredData.RandomUnit(n, d, seed: 7);
+        float[] queries = clustered ? ClusteredData.Generate(200, d, 50, 0.15f, seed: 8, normalise: metric != DistanceMetric.SquaredEuclidean) : ClusteredData.RandomUnit(200, d, seed: 8);
+        using var graph = Build(metric, d, data);
+        NeighbourTable truth = GroundTruth.Compute(data, default, queries, d, K, metric);
+        double atDefault = Recall.AtK(truth, graph.SearchBatch(queries, K), K);
+        double recall = Recall.AtK(truth, graph.SearchBatch(queries, K, new SearchOptions { SearchWidth = 128 }), K);
+        GraphChecks.AssertSound(graph);
+        output.WriteLine($"{metric}, {(clustered ? "clustered" : "random unit")}: recall@10 {atDefault:F4} at the default width, {recall:F4} at width 128; {graph.OrphansAttached} nodes attached by the reachability pass");
+        Assert.True(recall >= 0.95, $"recall@10 at width 128 was {recall:F4}");
+    }
+
+    [Fact]
+    public void Distances_AreThoseOfTheExactIndex()
+    {
+        const int n = 500, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 10, 0.2f, seed: 3);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data);
+        using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
+        exact.AddRange(Ids(n), data);
+        float[] query = ClusteredData.Generate(1, d, 10, 0.2f, seed: 4);
+        Assert.Equal(exact.Search(query, 5), graph.Search(query, 5, new SearchOptions { SearchWidth = 500 }));
+    }
+
+    [Fact]
+    public void RemovingThirtyPercentAtRandom_DropsRecallByAtMost002_AndNeverReturnsRemovedItems()
+    {
+        const int n = 20000, d = 32;
+        float[] data = ClusteredData.Generate(n, d, 100, 0.2f, seed: 11);
+        float[] queries = ClusteredData.Generate(500, d, 100, 0.2f, seed: 12);
+
+        // One build thread: the graph, and so the measured drop, is the same on every run.
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { BuildParallelism = 1 });
+        var searchWidth = SearchOptions.Default;
+        double before = Recall.AtK(GroundTruth.Compute(data, default, queries, d, K, DistanceMetric.SquaredEuclidean), graph.SearchBatch(queries, K, searchWidth), K);
+
+        var random = new Random(13);
+        long[] removed = Ids(n).OrderBy(_ => random.Next()).Take(n * 3 / 10).ToArray();
+        foreach (long id in removed)
+        {
+            graph.Remove(id);
+        }
+
+        var gone = removed.ToHashSet();
+        long[] liveIds = Ids(n).Where(id => !gone.Contains(id)).ToArray();
+        float[] liveData = liveIds.SelectMany(id => data.AsSpan((int)id * d, d).ToArray()).ToArray();
+        NeighbourTable liveTruth = GroundTruth.Compute(liveData, liveIds, queries, d, K, DistanceMetric.SquaredEuclidean);
+        BatchSearchResults after = graph.SearchBatch(queries, K, searchWidth);
+        double afterRecall = Recall.AtK(liveTruth, after, K);
+        output.WriteLine($"recall@10 at the default width: {before:F4} before, {afterRecall:F4} after removing 30 %");
+        for (int q = 0; q < after.QueryCount; q++)
+        {
+            Assert.Equal(K, after[q].Length);
+            foreach (SearchHit hit in after[q])
+            {
+                Assert.DoesNotContain(hit.Id, gone);
+            }
+        }
+
+        Assert.True(before - afterRecall <= 0.02, $"recall fell from {before:F4} to {afterRecall:F4}");
+        Assert.Equal(n - removed.Length, graph.Count);
+        GraphChecks.AssertSound(graph);
+
+        // Compaction rebuilds from the live items: the same recall (within build noise) and less memory.
+        long bytes = graph.MemoryBytes;
+        graph.Compact();
+        double compacted = Recall.AtK(liveTruth, graph.SearchBatch(queries, K, searchWidth), K);
+        output.WriteLine($"after compaction: recall@10 {compacted:F4}; {bytes} → {graph.MemoryBytes} bytes");
+        Assert.True(compacted >= afterRecall - 0.01, $"recall after compaction was {compacted:F4}");
+        Assert.True(graph.MemoryBytes < bytes * 0.8);
+        Assert.Equal(liveIds.Length, graph.Count);
+        Assert.All(liveIds, id => Assert.True(graph.Contains(id)));
+        GraphChecks.AssertSound(graph);
+    }
+
+    [Fact]
+    public void RemovingTheEntryPointAgainAndAgain_KeepsTheIndexSearchable_UntilEmpty()
+    {
+        const int n = 300, d = 8;
+        float[] data = ClusteredData.Generate(n, d, 5, 0.3f, seed: 21);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 4, BuildParallelism = 2 });
+        float[] query = data.AsSpan(0, d).ToArray();
+        for (int removed = 0; removed < n; removed++)
+        {
+            long entry = graph.EntryPointId!.Value;
+            graph.Remove(entry);
+            Assert.False(graph.Contains(entry));
+            SearchHit[] hits = graph.Search(query, 5, new SearchOptions { SearchWidth = 400 });
+            Assert.Equal(Math.Min(5, n - removed - 1), hits.Length);
+            Assert.DoesNotContain(hits, h => h.Id == entry);
+            if (removed % 50 == 0)
+            {
+                GraphChecks.AssertSound(graph);
+            }
+        }
+
+        Assert.Null(graph.EntryPointId);
+        Assert.Empty(graph.Search(query, 5));
+        graph.Add(1000, query);
+        Assert.Equal(1000, graph.Search(query, 1)[0].Id);
+    }
+
+    [Fact]
+    public void ClustersOfExactDuplicates_LeaveNoItemUnreachable_AndAWideSearchFindsEveryCopy()
+    {
+        // 40 points, 25 exact copies of each, 4 links per node: pruning among equal distances cuts copies off, and
+        // the reachability pass must link every one back.
+        const int points = 40, copies = 25, d = 8;
+        float[] distinct = ClusteredData.Generate(points, d, 4, 0.3f, seed: 71);
+        float[] data = new float[points * copies * d];
+        for (int i = 0; i < points * copies; i++)
+        {
+            distinct.AsSpan((i % points) * d, d).CopyTo(data.AsSpan(i * d, d));
+        }
+
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 4, BuildParallelism = 1 });
+        output.WriteLine($"{graph.OrphansAttached} of {graph.Count} items attached by the reachability pass");
+        Assert.True(graph.OrphansAttached > 0, "the data set no longer exercises the reachability pass");
+        GraphChecks.AssertSound(graph);
+        var wide = new SearchOptions { SearchWidth = points * copies };
+        for (int p = 0; p < points; p++)
+        {
+            SearchHit[] hits = graph.Search(distinct.AsSpan(p * d, d), copies, wide);
+            Assert.Equal(Enumerable.Range(0, copies).Select(c => (long)(p + (c * points))), hits.Select(h => h.Id));
+            Assert.All(hits, h => Assert.Equal(0f, h.Distance));
+        }
+    }
+
+    [Fact]
+    public void RemoveRange_RemovesABatch_LeavesASoundGraph_AndIsAllOrNothing()
+    {
+        const int n = 3000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 20, 0.2f, seed: 81);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data);
+        Assert.Throws<KeyNotFoundException>(() => graph.RemoveRange([1, 2, 5000]));
+        ArgumentException repeated = Assert.Throws<ArgumentException>(() => graph.RemoveRange([1, 2, 1]));
+        Assert.StartsWith("Id 1 appears more than once in ids", repeated.Message, StringComparison.Ordinal);
+        Assert.Equal(n, graph.Count);
+        Assert.True(graph.Contains(1) && graph.Contains(2));
+
+        long[] gone = Ids(n).Where(id => id % 3 == 0).ToArray();
+        graph.RemoveRange(gone);
+        Assert.Equal(n - gone.Length, graph.Count);
+        GraphChecks.AssertSound(graph);
+        BatchSearchResults found = graph.SearchBatch(data, K, new SearchOptions { SearchWidth = 64 });
+        for (int q = 0; q < found.QueryCount; q++)
+        {
+            Assert.Equal(K, found[q].Length);
+            Assert.All(found[q].ToArray(), h => Assert.NotEqual(0, h.Id % 3));
+        }
+    }
+
+    [Fact]
+    public void VerySelectiveFilter_SwitchesToAnExactScan_AndReturnsTheExactFilteredResults()
+    {
+        const int n = 5000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 20, 0.2f, seed: 31);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data);
+        using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
+        exact.AddRange(Ids(n), data);
+
+        // 0.5 % of the items pass, under the default 2 % threshold: the answer must be exact.
+        var options = new SearchOptions { Filter = id => id % 200 == 17, SearchWidth = 10 };
+        float[] queries = ClusteredData.Generate(50, d, 20, 0.2f, seed: 32);
+        for (int q = 0; q < 50; q++)
+        {
+            ReadOnlySpan<float> query = queries.AsSpan(q * d, d);
+            Assert.Equal(exact.Search(query, K, options), graph.Search(query, K, options));
+        }
+    }
+
+    [Fact]
+    public async Task InsertsWhileSearching_AreSafe_AndEndInASoundGraph()
+    {
+        const int n = 6000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 30, 0.2f, seed: 41);
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, TwoThreads);
+        graph.AddRange(Ids(1000), data.AsSpan(0, 1000 * d));
+        using var stop = new CancellationTokenSource();
+        Task searcher = Task.Run(() =>
+        {
+            int searches = 0;
+            while (!stop.IsCancellationRequested)
+            {
+                SearchHit[] hits = graph.Search(data.AsSpan((searches % n) * d, d), 5);
+                Assert.InRange(hits.Length, 1, 5);
+                searches++;
+            }
+        });
+        for (int start = 1000; start < n; start += 500)
+        {
+            graph.AddRange(Enumerable.Range(start, 500).Select(i => (long)i).ToArray(), data.AsSpan(start * d, 500 * d));
+            graph.Add(100_000 + start, data.AsSpan(start * d, d));
+        }
+
+        stop.Cancel();
+        await searcher;
+        Assert.Equal(n + 10, graph.Count);
+        GraphChecks.AssertSound(graph);
+    }
+
+    [Fact]
+    public void CancelledBatch_KeepsTheLinkedItems_AndDropsTheRest()
+    {
+        const int n = 4000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 30, 0.2f, seed: 51);
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, TwoThreads);
+        using var cancel = new CancellationTokenSource();
+        var progress = new SynchronousProgressForGraph(done =>
+        {
+            if (done >= 1000)
+            {
+                cancel.Cancel();
+            }
+        });
+        Assert.ThrowsAny<OperationCanceledException>(() => graph.AddRange(Ids(n), data, progress, cancel.Token));
+        Assert.InRange(graph.Count, 1000, n - 1);
+        GraphChecks.AssertSound(graph);
+        long[] kept = Ids(n).Where(graph.Contains).ToArray();
+        Assert.Equal(graph.Count, kept.Length);
+    }
+
+    [Fact]
+    public void CancelledCompaction_LeavesTheIndexAsItWas_AndACompletedOneReportsProgress()
+    {
+        const int n = 4000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 30, 0.2f, seed: 91);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data);
+        graph.RemoveRange(Ids(n).Where(id => id % 4 == 1).ToArray());
+        long bytes = graph.MemoryBytes;
+        float[] queries = ClusteredData.Generate(20, d, 30, 0.2f, seed: 92);
+        BatchSearchResults before = graph.SearchBatch(queries, K);
+
+        using var cancel = new CancellationTokenSource();
+        var stopHalfway = new SynchronousProgressForGraph(done =>
+        {
+            if (done >= 1000)
+            {
+                cancel.Cancel();
+            }
+        });
+        Assert.ThrowsAny<OperationCanceledException>(() => graph.Compact(stopHalfway, cancel.Token));
+        Assert.Equal(n - (n / 4), graph.Count);
+        Assert.Equal(bytes, graph.MemoryBytes);
+        BatchSearchResults after = graph.SearchBatch(queries, K);
+        for (int q = 0; q < queries.Length / d; q++)
+        {
+            Assert.Equal(before[q].ToArray(), after[q].ToArray());
+        }
+
+        GraphChecks.AssertSound(graph);
+        int last = 0;
+        graph.Compact(new SynchronousProgressForGraph(done => InterlockedMax(ref last, done)), default);
+        Assert.Equal(graph.Count, last);
+        Assert.True(graph.MemoryBytes < bytes);
+        GraphChecks.AssertSound(graph);
+        Assert.All(Ids(n), id => Assert.Equal(id % 4 != 1, graph.Contains(id)));
+    }
+
+    [Fact]
+    public void Progress_ReachesTheBatchSize()
+    {
+        const int n = 1000, d = 8;
+        float[] data = ClusteredData.Generate(n, d, 10, 0.2f, seed: 61);
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, TwoThreads);
+        int last = 0;
+        graph.AddRange(Ids(n), data, new SynchronousProgressForGraph(done => InterlockedMax(ref last, done)), default);
+        Assert.Equal(n, last);
+    }
+
+    internal static GraphIndex Build(DistanceMetric metric, int d, float[] data, GraphIndexOptions? options = null)
+    {
+        var graph = new GraphIndex(d, metric, options ?? TwoThreads);
+        graph.AddRange(Ids(data.Length / d), data);
+        return graph;
+    }
+
+    internal static long[] Ids(int n) => Enumerable.Range(0, n).Select(i => (long)i).ToArray();
+
+    private static void InterlockedMax(ref int target, int value)
+    {
+        int seen;
+        while ((seen = Volatile.Read(ref target)) < value && Interlocked.CompareExchange(ref target, value, seen) != seen)
+        {
+        }
+    }
+
+    /// <summary>Reports on the calling thread (the framework's <see cref="Progress{T}"/> posts asynchronously).</summary>
+    private sealed class SynchronousProgressForGraph(Action<int> report) : IProgress<int>
+    {
+        public void Report(int value) => report(value);
+    }
+}
