@@ -7,6 +7,53 @@ namespace VectorKit.Indexes;
 /// <summary>Boundary checks and the cosine normalisation shared by every index.</summary>
 internal static class VectorChecks
 {
+    /// <summary>Checks one vector for an add: dimension, finite components, and not zero under cosine.</summary>
+    public static void CheckForAdd(ReadOnlySpan<float> vector, int dimension, DistanceMetric metric)
+    {
+        CheckVector(vector, dimension, nameof(vector));
+        if (metric == DistanceMetric.Cosine)
+        {
+            CheckNotZero(vector, nameof(vector));
+        }
+    }
+
+    /// <summary>
+    /// Checks a whole batch for an add before anything is written: lengths agree, every component is finite, no zero
+    /// vector under cosine, no id repeated within the batch. (Ids already in the index are checked under the lock.)
+    /// </summary>
+    public static void CheckBatchForAdd(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, int dimension, DistanceMetric metric)
+    {
+        int n = ids.Length;
+        if ((long)n * dimension != vectors.Length)
+        {
+            ThrowHelper.ThrowArgument(nameof(vectors), $"vectors has {vectors.Length} components; {n} ids × dimension {dimension} need {(long)n * dimension}.");
+        }
+
+        CheckFinite(vectors, nameof(vectors), 0, dimension);
+        if (metric == DistanceMetric.Cosine)
+        {
+            for (int r = 0; r < n; r++)
+            {
+                CheckNotZero(vectors.Slice(r * dimension, dimension), $"{nameof(vectors)} row {r}");
+            }
+        }
+
+        CheckUniqueIds(ids);
+    }
+
+    /// <summary>Throws on the first id that appears twice in <paramref name="ids"/>.</summary>
+    public static void CheckUniqueIds(ReadOnlySpan<long> ids)
+    {
+        var seen = new HashSet<long>(ids.Length);
+        foreach (long id in ids)
+        {
+            if (!seen.Add(id))
+            {
+                ThrowHelper.ThrowArgument(nameof(ids), $"Id {id} appears more than once in ids; ids must be unique.");
+            }
+        }
+    }
+
     /// <summary>Throws unless <paramref name="vector"/> has <paramref name="dimension"/> finite components.</summary>
     public static void CheckVector(ReadOnlySpan<float> vector, int dimension, string paramName)
     {

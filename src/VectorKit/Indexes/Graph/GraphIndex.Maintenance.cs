@@ -27,14 +27,7 @@ public sealed partial class GraphIndex
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public void RemoveRange(ReadOnlySpan<long> ids)
     {
-        var seen = new HashSet<long>(ids.Length);
-        foreach (long id in ids)
-        {
-            if (!seen.Add(id))
-            {
-                ThrowHelper.ThrowArgument(nameof(ids), $"Id {id} appears more than once in ids; ids must be unique.");
-            }
-        }
+        VectorChecks.CheckUniqueIds(ids);
 
         if (ids.IsEmpty)
         {

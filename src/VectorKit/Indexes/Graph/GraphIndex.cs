@@ -176,11 +176,7 @@ public sealed partial class GraphIndex : IVectorIndex
     /// <inheritdoc/>
     public void Add(long id, ReadOnlySpan<float> vector)
     {
-        VectorChecks.CheckVector(vector, Dimension, nameof(vector));
-        if (Metric == DistanceMetric.Cosine)
-        {
-            VectorChecks.CheckNotZero(vector, nameof(vector));
-        }
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
 
         int slot;
         _lock.EnterWriteLock();
@@ -228,28 +224,7 @@ public sealed partial class GraphIndex : IVectorIndex
     public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int n = ids.Length;
-        if ((long)n * Dimension != vectors.Length)
-        {
-            ThrowHelper.ThrowArgument(nameof(vectors), $"vectors has {vectors.Length} components; {n} ids × dimension {Dimension} need {(long)n * Dimension}.");
-        }
-
-        VectorChecks.CheckFinite(vectors, nameof(vectors), 0, Dimension);
-        if (Metric == DistanceMetric.Cosine)
-        {
-            for (int r = 0; r < n; r++)
-            {
-                VectorChecks.CheckNotZero(vectors.Slice(r * Dimension, Dimension), $"{nameof(vectors)} row {r}");
-            }
-        }
-
-        var seen = new HashSet<long>(n);
-        foreach (long id in ids)
-        {
-            if (!seen.Add(id))
-            {
-                ThrowHelper.ThrowArgument(nameof(ids), $"Id {id} appears more than once in ids; ids must be unique.");
-            }
-        }
+        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
 
         if (n == 0)
         {
