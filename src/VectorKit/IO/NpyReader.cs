@@ -22,7 +22,7 @@ namespace VectorKit.IO;
 /// </para>
 /// <para>
 /// Shape (n, d) reads as n vectors of dimension d. A 1-D shape (n,) reads as n rows of dimension 1, so a single
-/// saved vector is the whole <see cref="VectorSet.Data"/>. Higher ranks (n, a, b, ...) read as n rows of dimension
+/// saved vector is the whole <see cref="RowSet{T}.Data"/>. Higher ranks (n, a, b, ...) read as n rows of dimension
 /// a × b × .... A 0-D (scalar) array is rejected.
 /// </para>
 /// </remarks>
