@@ -7,7 +7,7 @@ namespace VectorKit.Benchmarks;
 /// <summary>
 /// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory]</c> and
-/// <c>clustered-sweep [count] [dimension]</c>.
+/// <c>clustered-sweep [count] [dimension]</c>; and the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>.
 /// </summary>
 public static class Program
 {
@@ -16,6 +16,12 @@ public static class Program
         if (args.Length > 0 && args[0] == "graph-sweep")
         {
             GraphSweep.RunFashionMnist(args.Length > 1 ? args[1] : "/usr/share/datasets/fashion-mnist");
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "filter-sweep")
+        {
+            FilterSweep.RunFashionMnist(args.Length > 1 ? args[1] : "/usr/share/datasets/fashion-mnist");
             return;
         }
 

@@ -68,9 +68,7 @@ public sealed partial class GraphIndex
             int kept = SelectNeighbours<TDistance>(scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), _options.LinksPerNode, chosen);
             lock (StripeOf(slot))
             {
-                Span<int> own = _links.Block(slot, layer);
-                chosen[..kept].CopyTo(own[1..]);
-                Volatile.Write(ref own[0], kept);
+                SetList(slot, layer, chosen[..kept]);
             }
 
             for (int i = 0; i < kept; i++)
@@ -111,8 +109,7 @@ public sealed partial class GraphIndex
 
             if (count < limit)
             {
-                block[count + 1] = slot;
-                Volatile.Write(ref block[0], count + 1);
+                AppendLink(block, layer, slot);
                 return;
             }
 
@@ -131,8 +128,7 @@ public sealed partial class GraphIndex
             keys.Sort(slots);
             Span<int> chosen = scratch.PruneChosen;
             int kept = SelectNeighbours<TDistance>(keys, slots, limit, chosen);
-            chosen[..kept].CopyTo(block[1..]);
-            Volatile.Write(ref block[0], kept);
+            SetList(neighbour, layer, chosen[..kept]);
         }
     }
 
@@ -164,6 +160,7 @@ public sealed partial class GraphIndex
                 {
                     _slotOf.Remove(_ids[slot]);
                     _removed[slot] = 1;
+                    _levelCounts[_links.Level(slot)]--;
                     _count--;
                 }
             }

@@ -22,31 +22,45 @@ namespace VectorKit.Indexes.Graph;
 /// <see cref="GraphIndexOptions.DefaultSearchWidth"/>; it may return fewer than k items when the graph walk
 /// reaches fewer (rare, on tiny or heavily filtered indexes).</para>
 /// <para><b>Filters.</b> <see cref="SearchOptions.Filter"/> is evaluated during the walk: items it rejects still lead the
-/// walk on but are never returned. When a fixed sample of 256 items suggests that less than
-/// <see cref="GraphIndexOptions.FilteredExactScanFraction"/> of the items pass, the search scans the passing items
-/// exactly instead.</para>
+/// walk on but are never returned. When a fixed sample of 256 items suggests that fewer pass than a measured cost
+/// model says a walk can afford (<see cref="GraphIndexOptions.FilteredExactScanFraction"/>: about 8 % of 60,000 items
+/// at the default width, 2 % of 10⁶), the search scans the passing items exactly instead, faster and exact.</para>
 /// <para><b>Removal.</b> A removed item is never returned. Every list that linked to it is chosen again by the heuristic
 /// from its remaining links and the removed item's links, so no live node links to a removed one; the item's vector
-/// keeps its space until <see cref="Compact()"/> rebuilds the graph from the live items and releases it.</para>
-/// <para><b>Reachability.</b> Every live item is reachable from the entry point on the bottom layer. Pruning a full list
-/// can take the last in-link of a node (clusters of exact duplicates do it readily), so every add, add batch,
-/// removal batch and compaction ends with a pass that walks the bottom layer from the entry point and links each
-/// unreached item from a reached node near it. The pass is exclusive (it waits for searches) and costs one traversal
-/// of the bottom layer, <c>O(items × bottom links)</c> reads, plus a search per unreached item (measured: 120 of the
-/// 60,000 Fashion-MNIST items); batches amortise it.</para>
+/// keeps its space until <see cref="Compact()"/> rebuilds the graph from the live items and releases it. Each list
+/// keeps a count of the lists naming it (its in-degree), so the lists to repair are found by a short walk near the
+/// removed item rather than a scan: a removal costs the same on a large index as on a small one.</para>
+/// <para><b>Reachability.</b> Every live item stays reachable from the entry point on the bottom layer, kept at two
+/// levels. Locally, at once: pruning a full list can take the last in-link of a node (clusters of exact duplicates
+/// do it readily), and a node left with none is linked again from a node near it at the end of the add or removal
+/// that cut it off. Globally, amortised: a group of nodes that only link to each other would still be cut off, so a
+/// pass walks the whole bottom layer from the entry point and links every unreached item; it runs once the adds and
+/// removals since the last pass reach an eighth of <see cref="Count"/> (so after every bulk build, and at least once
+/// per eighth of the index for single changes), and always after <see cref="Compact()"/>. Its cost,
+/// <c>O(items × bottom links)</c> reads, is thus spread over many changes, and each single add or removal costs a
+/// local amount of work. Between passes a cut-off group is possible in principle; the tests count how many the pass
+/// finds.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with the
 /// linking phase of <see cref="Add"/> and <see cref="AddRange(ReadOnlySpan{long}, ReadOnlySpan{float})"/>: an add
 /// first waits for running searches while it stores the vectors (a short exclusive step), then links the new items
 /// while searches proceed; a concurrent search may or may not see an item being linked, and never sees a removed one.
-/// Several adds may link at once (per-node locks). The reachability pass at the end of an add, <see cref="Remove"/>,
-/// <see cref="RemoveRange"/>, <see cref="Compact()"/> and <see cref="Dispose"/> are exclusive: they wait for running
-/// searches and adds.</para>
+/// Several adds may link at once (per-node locks). The short repair step at the end of an add (attaching nodes left
+/// without in-links, and the global pass when it is due), <see cref="Remove"/>, <see cref="RemoveRange"/>,
+/// <see cref="Compact()"/> and <see cref="Dispose"/> are exclusive: they wait for running searches and adds.</para>
 /// </remarks>
 public sealed partial class GraphIndex : IVectorIndex
 {
     private const int MaxLevel = 30;
     private const int LockStripes = 1024;
     private const int FilterSampleSize = 256;
+
+    // The cost model's constant for choosing between a filtered walk and an exact scan (fitted; see
+    // GraphIndexOptions.FilteredExactScanFraction).
+    private const double WalkCostConstant = 0.2;
+
+    // Bounds of the walk that finds the lists naming a removed node (see FindInLinks).
+    private const int InLinkSearchHops = 3;
+    private const int InLinkSearchNodes = 4096;
 
     private readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
     private readonly object[] _stripes = new object[LockStripes];
@@ -63,7 +77,14 @@ public sealed partial class GraphIndex : IVectorIndex
     private int _used;
     private int _count;
     private bool _disposed;
+    private int[] _levelCounts = new int[MaxLevel + 1];
+    private readonly List<int> _orphanNotes = [];
+    private long _changesSinceFullPass;
     private long _orphansAttached;
+    private long _orphansAttachedLocally;
+    private long _fullPasses;
+    private long _incompleteRemovals;
+    private readonly List<int> _waypoints = [];
 
     // The entry point and the top level, packed (level << 32 | slot) so a reader gets a consistent pair; slot -1 when empty.
     private long _entry = -1L & 0xFFFFFFFFL;
@@ -206,7 +227,7 @@ public sealed partial class GraphIndex : IVectorIndex
             _lock.ExitReadLock();
         }
 
-        RepairReachabilityAfterAdd();
+        FinishAdd(slot, 1);
     }
 
     /// <inheritdoc/>
@@ -268,11 +289,11 @@ public sealed partial class GraphIndex : IVectorIndex
         catch (OperationCanceledException)
         {
             DropUnlinked(first, linked);
-            RepairReachabilityAfterAdd();
+            FinishAdd(first, n);
             throw;
         }
 
-        RepairReachabilityAfterAdd();
+        FinishAdd(first, n);
     }
 
     /// <inheritdoc/>
@@ -442,7 +463,7 @@ public sealed partial class GraphIndex : IVectorIndex
             _ids[slot] = ids[r];
             _removed[slot] = 0;
             _slotOf.Add(ids[r], slot);
-            _links.InitNode(slot, DrawLevel());
+            InitNode(slot);
         }
 
         _used = required;
@@ -453,6 +474,14 @@ public sealed partial class GraphIndex : IVectorIndex
         }
 
         return first;
+    }
+
+    // Draws the level of a new slot and gives it empty lists. Caller excludes every other user of the links.
+    private void InitNode(int slot)
+    {
+        int level = DrawLevel();
+        _links.InitNode(slot, level);
+        _levelCounts[level]++;
     }
 
     private int DrawLevel()
@@ -478,15 +507,18 @@ public sealed partial class GraphIndex : IVectorIndex
             Destination = destination,
             Width = Math.Max(destination.Length, options.SearchWidth ?? _options.DefaultSearchWidth),
             Filter = filter,
-            Scan = filter is not null && PrefersExactScan(filter),
+            Scan = filter is not null && PrefersExactScan(filter, Math.Max(destination.Length, options.SearchWidth ?? _options.DefaultSearchWidth)),
         };
         return GraphDispatch.Run<SearchAction, int>(Metric, _path, ref action);
     }
 
-    // Estimates the filter's pass rate on a fixed, evenly spaced sample of slots (deterministic: no random draw).
-    private bool PrefersExactScan(Func<long, bool> filter)
+    // Estimates the filter's pass rate on a fixed, evenly spaced sample of slots (deterministic: no random draw) and
+    // compares it with the fixed fraction of the options or the cost model's crossover (see the option's remarks).
+    private bool PrefersExactScan(Func<long, bool> filter, int width)
     {
-        double threshold = _options.FilteredExactScanFraction;
+        double threshold = FilteredScanFractionOverride
+            ?? _options.FilteredExactScanFraction
+            ?? Math.Sqrt(WalkCostConstant * width * _links.BottomLimit / Math.Max(1, _count));
         if (threshold <= 0)
         {
             return false;

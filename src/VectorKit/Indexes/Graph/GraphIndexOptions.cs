@@ -17,7 +17,7 @@ public sealed class GraphIndexOptions
     private readonly int _defaultSearchWidth = 64;
     private readonly int _initialCapacity;
     private readonly int _buildParallelism = -1;
-    private readonly double _filteredExactScanFraction = 0.02;
+    private readonly double? _filteredExactScanFraction;
 
     /// <summary>The defaults: 16 links per node (32 on the bottom layer), build width 128, search width 64, seed 42.</summary>
     public static GraphIndexOptions Default { get; } = new();
@@ -133,23 +133,28 @@ public sealed class GraphIndexOptions
 
     /// <summary>
     /// When a search filter passes less than this fraction of the items (estimated from a fixed sample of 256 items),
-    /// the search scans the passing items exactly instead of walking the graph. 0 never scans. Default 0.02.
+    /// the search scans the passing items exactly instead of walking the graph. <see langword="null"/> (the default)
+    /// chooses the fraction per search from a measured cost model; 0 never scans; 1 always scans.
     /// </summary>
     /// <remarks>
-    /// Why 0.02: a filtered graph search keeps walking until its beam holds <c>width</c> passing items, so it evaluates
-    /// roughly <c>1 / fraction</c> times the nodes of an unfiltered search; at 2 % that is about 50 times, which for
-    /// the default widths is several thousand distances — about what an exact scan of 2 % of a 10⁵-item index costs,
-    /// with perfect recall. Common practice, not a measured optimum; tune per data set.
+    /// <para>The cost model. A filtered walk keeps going until its beam holds <c>width</c> passing items, so its cost
+    /// grows as <c>1 / p</c> for a pass rate <c>p</c>; the scan computes <c>p × Count</c> distances. The two meet at
+    /// <c>p* = √(0.2 × width × bottom links / Count)</c>, the constant fitted to two runs of the <c>filter-sweep</c>
+    /// benchmark on Fashion-MNIST (60,000 × 784, width 64, 32 bottom links: the walk is 2.5–3 times slower than the
+    /// scan at 5 %, 1.4–1.7 times faster at 10 %; crossover near 8 %; see benchmarks/RESULTS.md). Below <c>p*</c>
+    /// the scan is both faster and exact. For 10⁶ items at the defaults <c>p*</c> is about 2 %; for 10⁴ items about
+    /// 20 %. One data set fitted the constant: treat it as a starting point and set a fixed fraction when a
+    /// measurement on your own data says otherwise.</para>
     /// </remarks>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [0, 1] or is NaN.</exception>
-    public double FilteredExactScanFraction
+    public double? FilteredExactScanFraction
     {
         get => _filteredExactScanFraction;
         init
         {
-            if (!(value >= 0 && value <= 1))
+            if (value is double fraction && !(fraction >= 0 && fraction <= 1))
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(FilteredExactScanFraction), value, "must be in [0, 1]");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(FilteredExactScanFraction), fraction, "must be in [0, 1], or null for the cost model");
             }
 
             _filteredExactScanFraction = value;

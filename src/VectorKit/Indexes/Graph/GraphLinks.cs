@@ -13,6 +13,10 @@ namespace VectorKit.Indexes.Graph;
 /// <c>level × (upperLimit + 1)</c> consecutive ints of a second array, layer <c>ℓ</c> at
 /// <c>start + (ℓ − 1) × (upperLimit + 1)</c>; with the published level distribution that is about
 /// <c>1 / (links − 1)</c> of the nodes.</para>
+/// <para><b>In-degrees.</b> Every list also has a count of the lists that name it (its in-degree on that layer), kept by
+/// whoever writes a list, with interlocked updates. Removal finds the lists to repair by walking near the removed node
+/// until it has found that many, instead of scanning every list; the bottom-layer count says at once when a node has
+/// lost its last in-link.</para>
 /// <para><b>Concurrency.</b> Writers of one list hold that node's lock and write the count last; readers do not lock.
 /// A reader can therefore see a list mid-rewrite, but every slot it reads is a valid, fully stored node, and a count
 /// never exceeds the limit. Growth (<see cref="EnsureCapacity"/>) requires that nobody else uses the links.</para>
@@ -24,6 +28,8 @@ internal sealed class GraphLinks
     private byte[] _levels = [];
     private int[] _upper = [];
     private int _upperUsed;
+    private int[] _inBottom = [];
+    private int[] _inUpper = [];
 
     public GraphLinks(int upperLimit, int bottomLimit)
     {
@@ -40,7 +46,8 @@ internal sealed class GraphLinks
 
     public int Capacity => _levels.Length;
 
-    public long Bytes => ((long)_bottom.Length * sizeof(int)) + ((long)_upperStart.Length * sizeof(int)) + _levels.Length + ((long)_upper.Length * sizeof(int));
+    public long Bytes =>
+        ((long)(_bottom.Length + _upperStart.Length + _upper.Length + _inBottom.Length + _inUpper.Length) * sizeof(int)) + _levels.Length;
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public int Limit(int level) => level == 0 ? BottomLimit : UpperLimit;
@@ -57,6 +64,7 @@ internal sealed class GraphLinks
         Array.Resize(ref _bottom, checked(grown * (BottomLimit + 1)));
         Array.Resize(ref _upperStart, grown);
         Array.Resize(ref _levels, grown);
+        Array.Resize(ref _inBottom, grown);
     }
 
     /// <summary>Shrinks to exactly <paramref name="capacity"/> nodes and forgets every link; caller excludes all other users.</summary>
@@ -65,7 +73,9 @@ internal sealed class GraphLinks
         _bottom = new int[checked(capacity * (BottomLimit + 1))];
         _upperStart = new int[capacity];
         _levels = new byte[capacity];
+        _inBottom = new int[capacity];
         _upper = [];
+        _inUpper = [];
         _upperUsed = 0;
     }
 
@@ -74,16 +84,19 @@ internal sealed class GraphLinks
     {
         _levels[slot] = (byte)level;
         _bottom[slot * (BottomLimit + 1)] = 0;
+        _inBottom[slot] = 0;
         if (level > 0)
         {
             int length = checked(level * (UpperLimit + 1));
             if (_upperUsed + length > _upper.Length)
             {
                 Array.Resize(ref _upper, Math.Max(checked(_upperUsed + length), _upper.Length + (_upper.Length / 2) + 64));
+                Array.Resize(ref _inUpper, _upper.Length / (UpperLimit + 1));
             }
 
             _upperStart[slot] = _upperUsed;
             _upper.AsSpan(_upperUsed, length).Clear();
+            _inUpper.AsSpan(_upperUsed / (UpperLimit + 1), level).Clear();
             _upperUsed += length;
         }
     }
@@ -103,6 +116,15 @@ internal sealed class GraphLinks
 
         int upperStride = UpperLimit + 1;
         return _upper.AsSpan(_upperStart[slot] + ((level - 1) * upperStride), upperStride);
+    }
+
+    /// <summary>How many lists on <paramref name="level"/> name <paramref name="slot"/>; update it with interlocked operations.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public ref int InDegree(int slot, int level)
+    {
+        return ref level == 0
+            ? ref _inBottom[slot]
+            : ref _inUpper[(_upperStart[slot] / (UpperLimit + 1)) + level - 1];
     }
 
     /// <summary>The neighbour count of a list, read once, never more than the limit even mid-rewrite.</summary>

@@ -8,7 +8,7 @@ internal static class GraphChecks
 {
     /// <summary>
     /// Asserts every structural invariant: no self links, links in range and on the right layers, no live node linking
-    /// to a removed one, counts within limits, a live entry point on the top level, and every live node reachable
+    /// to a removed one (but a waypoint awaiting the global pass), counts within limits, a live entry point on the top level, and every live node reachable
     /// from the entry point on the bottom layer.
     /// </summary>
     public static void AssertSound(GraphIndex graph)

@@ -213,7 +213,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
         exact.AddRange(Ids(n), data);
 
-        // 0.5 % of the items pass, under the default 2 % threshold: the answer must be exact.
+        // 0.5 % of the items pass, far below the cost model's crossover (about 25 % for 5,000 items): the answer must be exact.
         var options = new SearchOptions { Filter = id => id % 200 == 17, SearchWidth = 10 };
         float[] queries = ClusteredData.Generate(50, d, 20, 0.2f, seed: 32);
         for (int q = 0; q < 50; q++)
@@ -309,6 +309,68 @@ public class GraphIndexTests(ITestOutputHelper output)
         Assert.True(graph.MemoryBytes < bytes);
         GraphChecks.AssertSound(graph);
         Assert.All(Ids(n), id => Assert.Equal(id % 4 != 1, graph.Contains(id)));
+    }
+
+    [Fact]
+    public void SingleRemovals_RepairNearby_AndLeaveTheRestToTheGlobalPass()
+    {
+        // Live removal is local: the lists naming a removed node are found by a bounded walk near it. Most walks find
+        // them all; the others leave the removed node as a waypoint, and the global pass repairs the rest. Counted,
+        // not timed.
+        const int n = 20000, d = 32;
+        float[] data = ClusteredData.Generate(n, d, 100, 0.2f, seed: 17);
+        float[] queries = ClusteredData.Generate(300, d, 100, 0.2f, seed: 18);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { BuildParallelism = 1 });
+        long passesAfterBuild = graph.FullPasses;
+        var random = new Random(18);
+        long[] removed = Ids(n).OrderBy(_ => random.Next()).Take(1000).ToArray();
+        foreach (long id in removed)
+        {
+            graph.Remove(id);
+        }
+
+        output.WriteLine($"{removed.Length} single removals: {graph.IncompleteRemovals} left a waypoint ({graph.PendingWaypoints} pending); {graph.OrphansAttachedLocally} nodes re-attached locally; {graph.FullPasses - passesAfterBuild} global passes");
+        Assert.True(graph.IncompleteRemovals <= removed.Length / 5, $"{graph.IncompleteRemovals} of {removed.Length} removals left a waypoint");
+
+        // 1,000 changes on 20,000 items stay under the eighth that makes the global pass due.
+        Assert.Equal(passesAfterBuild, graph.FullPasses);
+        Assert.Empty(graph.CheckInvariants(reachability: false));
+        var gone = removed.ToHashSet();
+        BatchSearchResults found = graph.SearchBatch(queries, K);
+        for (int q = 0; q < found.QueryCount; q++)
+        {
+            Assert.Equal(K, found[q].Length);
+            Assert.All(found[q].ToArray(), h => Assert.DoesNotContain(h.Id, gone));
+        }
+
+        graph.RunFullPass();
+        Assert.Equal(0, graph.PendingWaypoints);
+        GraphChecks.AssertSound(graph);
+    }
+
+    [Fact]
+    public void SingleAdds_AfterABulkBuild_AreLinkedLocally_AndTheGlobalPassRunsOnlyWhenDue()
+    {
+        const int n = 8000, d = 16;
+        float[] data = ClusteredData.Generate(n + 900, d, 40, 0.2f, seed: 19);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data.AsSpan(0, n * d).ToArray(), new GraphIndexOptions { BuildParallelism = 1 });
+        Assert.Equal(1, graph.FullPasses);
+
+        // 900 single adds: the pass is due after 1,000 changes (an eighth of 8,000), so it has not run again.
+        for (int i = 0; i < 900; i++)
+        {
+            graph.Add(n + i, data.AsSpan((n + i) * d, d));
+        }
+
+        Assert.Equal(1, graph.FullPasses);
+        Assert.Empty(graph.CheckInvariants(reachability: false));
+        for (int i = 0; i < 300; i++)
+        {
+            graph.Remove(i * 7);
+        }
+
+        Assert.Equal(2, graph.FullPasses);
+        GraphChecks.AssertSound(graph);
     }
 
     [Fact]

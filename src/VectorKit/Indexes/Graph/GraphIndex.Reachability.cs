@@ -1,0 +1,335 @@
+namespace VectorKit.Indexes.Graph;
+
+/// <summary>
+/// Link-list writes that keep in-degrees, local repair of nodes that lost their last in-link, and the amortised
+/// global reachability pass.
+/// </summary>
+public sealed partial class GraphIndex
+{
+    // Every list write goes through SetList or AppendLink so the in-degree counts stay exact. Caller holds the stripe
+    // lock of `slot` or the write lock. Increments come before decrements, so a node named by both the old and the new
+    // list never reads as orphaned.
+    private void SetList(int slot, int layer, ReadOnlySpan<int> links)
+    {
+        Span<int> block = _links.Block(slot, layer);
+        int old = block[0];
+        foreach (int to in links)
+        {
+            Interlocked.Increment(ref _links.InDegree(to, layer));
+        }
+
+        for (int i = 1; i <= old; i++)
+        {
+            DropInLink(block[i], layer);
+        }
+
+        links.CopyTo(block[1..]);
+        Volatile.Write(ref block[0], links.Length);
+    }
+
+    // Appends one link to a list with room. Caller holds the owner's stripe lock or the write lock.
+    private void AppendLink(Span<int> block, int layer, int to)
+    {
+        int count = block[0];
+        block[count + 1] = to;
+        Interlocked.Increment(ref _links.InDegree(to, layer));
+        Volatile.Write(ref block[0], count + 1);
+    }
+
+    private void DropInLink(int to, int layer)
+    {
+        if (Interlocked.Decrement(ref _links.InDegree(to, layer)) == 0 && layer == 0)
+        {
+            // Noted now, checked later under the write lock: a concurrent insert may link it again meanwhile.
+            lock (_orphanNotes)
+            {
+                _orphanNotes.Add(to);
+            }
+        }
+    }
+
+    // The last step of every add, removal and compaction; caller holds the write lock. Links the noted nodes (and the
+    // new slots [first, first + added)) that still have no in-link on the bottom layer, then runs the global pass when
+    // it is due: once the changes since the last one reach 1/FullPassDivisor of the items, so its O(items × links)
+    // cost is spread over at least that many changes.
+    private int FinishChanges<TDistance>(int first, int added, int changes, bool forceFullPass)
+        where TDistance : struct, IGraphDistance
+    {
+        int entry = EntrySlot(_entry);
+        if (_count == 0 || entry < 0)
+        {
+            _orphanNotes.Clear();
+            return 0;
+        }
+
+        for (int slot = first; slot < first + added; slot++)
+        {
+            if (_removed[slot] == 0 && slot != entry && _links.InDegree(slot, 0) == 0)
+            {
+                _orphanNotes.Add(slot);
+            }
+        }
+
+        bool overflow = AttachNotedOrphans<TDistance>();
+        _changesSinceFullPass += changes;
+        if (forceFullPass || overflow || (FullPassDivisor > 0 && _changesSinceFullPass * FullPassDivisor >= _count))
+        {
+            _changesSinceFullPass = 0;
+            _fullPasses++;
+            return RepairReachability<TDistance>();
+        }
+
+        return 0;
+    }
+
+    // Attaches every noted node that is live, not the entry point and without a bottom-layer in-link. Attaching can
+    // take a link from a full list and orphan another node, which is noted and handled in the next round; returns
+    // true when the rounds ran out (the global pass then finishes the job).
+    private bool AttachNotedOrphans<TDistance>()
+        where TDistance : struct, IGraphDistance
+    {
+        if (_orphanNotes.Count == 0)
+        {
+            return false;
+        }
+
+        using GraphScratch.Rental rental = GraphScratch.Rent();
+        GraphScratch scratch = rental.Scratch;
+        scratch.EnsureSizes(_options.BuildWidth, _links.MaxLimit);
+        for (int round = 0; round < 16; round++)
+        {
+            if (_orphanNotes.Count == 0)
+            {
+                return false;
+            }
+
+            int[] noted = [.. _orphanNotes];
+            _orphanNotes.Clear();
+            Array.Sort(noted);
+            for (int i = 0; i < noted.Length; i++)
+            {
+                int slot = noted[i];
+                if ((i > 0 && noted[i - 1] == slot) || _removed[slot] != 0 || slot == EntrySlot(_entry) || _links.InDegree(slot, 0) > 0)
+                {
+                    continue;
+                }
+
+                Attach<TDistance>(scratch, slot, null);
+                _orphansAttachedLocally++;
+            }
+        }
+
+        _orphanNotes.Clear();
+        return true;
+    }
+
+    // The global pass. First it repairs the lists still naming removed waypoints (removals whose local walk missed an
+    // in-link). Then the safety net behind "every live node is reachable from the entry point on the bottom layer":
+    // in-degrees catch a node that lost its last in-link at once, but not a group of nodes that only link to each
+    // other; a traversal from the entry point finds those and links each from a reached node near it.
+    // Caller holds the write lock. Returns the number of nodes attached.
+    private int RepairReachability<TDistance>()
+        where TDistance : struct, IGraphDistance
+    {
+        int entry = EntrySlot(_entry);
+        if (_count == 0 || entry < 0)
+        {
+            return 0;
+        }
+
+        RetireWaypoints<TDistance>();
+        int used = _used;
+        var reached = new bool[used];
+        var stack = new Stack<int>();
+        Spread(entry, reached, stack);
+        int attached = 0;
+        using GraphScratch.Rental rental = GraphScratch.Rent();
+        GraphScratch scratch = rental.Scratch;
+        scratch.EnsureSizes(_options.BuildWidth, _links.MaxLimit);
+
+        // Attaching replaces a link only when the reached node's list is full; a node cut off that way is found by
+        // the next round. Rounds beyond the first are rare; the bound only guards against a pathological cycle.
+        for (int round = 0; round < 8; round++)
+        {
+            bool any = false;
+            for (int slot = 0; slot < used; slot++)
+            {
+                if (_removed[slot] == 0 && !reached[slot])
+                {
+                    any = true;
+                    Attach<TDistance>(scratch, slot, reached);
+                    attached++;
+                    Spread(slot, reached, stack);
+                }
+            }
+
+            if (!any)
+            {
+                break;
+            }
+
+            Array.Clear(reached);
+            Spread(entry, reached, stack);
+        }
+
+        // Attaching can leave a node without in-links that the pass then reached some other way: none is kept noted.
+        _orphanNotes.Clear();
+        _orphansAttached += attached;
+        return attached;
+    }
+
+    // Marks every node reachable on the bottom layer from `start`.
+    private void Spread(int start, bool[] reached, Stack<int> stack)
+    {
+        if (reached[start])
+        {
+            return;
+        }
+
+        reached[start] = true;
+        stack.Push(start);
+        while (stack.Count > 0)
+        {
+            Span<int> block = _links.Block(stack.Pop(), 0);
+            for (int i = 1; i <= block[0]; i++)
+            {
+                int to = block[i];
+                if (!reached[to])
+                {
+                    reached[to] = true;
+                    stack.Push(to);
+                }
+            }
+        }
+    }
+
+    // Links `orphan` from the nearest suitable node with room on the bottom layer (found by a search for the orphan's
+    // own vector). Suitable: reached by the global pass (`reached` given), or else live and itself linked from
+    // somewhere (or the entry point). When every one found is full, the nearest suitable one gives up a link,
+    // preferably one the orphan itself links to, so that node stays reachable through the orphan. Write lock held.
+    private void Attach<TDistance>(GraphScratch scratch, int orphan, bool[]? reached)
+        where TDistance : struct, IGraphDistance
+    {
+        int d = Dimension;
+        ref float vector = ref _vectors.Row(orphan);
+        long packed = _entry;
+        int entry = EntrySlot(packed);
+        float entryDistance = TDistance.Between(ref vector, ref _vectors.Row(entry), d);
+        int start = Descend<TDistance>(ref vector, entry, ref entryDistance, EntryLevel(packed), 0);
+        if (!IsAnchor(start, orphan, entry, reached))
+        {
+            start = entry;
+            entryDistance = TDistance.Between(ref vector, ref _vectors.Row(entry), d);
+        }
+
+        StartWalk(scratch, start, entryDistance, null);
+        scratch.Visited.TryMark(orphan);
+        BeamSearch<TDistance>(ref vector, scratch, 0, _options.BuildWidth, null);
+        int found = DrainSorted(scratch);
+        int limit = _links.BottomLimit;
+        int host = -1, fullHost = -1;
+        for (int i = 0; i < found && host < 0; i++)
+        {
+            int candidate = scratch.SortedSlots[i];
+            if (IsAnchor(candidate, orphan, entry, reached))
+            {
+                if (_links.Block(candidate, 0)[0] < limit)
+                {
+                    host = candidate;
+                }
+                else if (fullHost < 0)
+                {
+                    fullHost = candidate;
+                }
+            }
+        }
+
+        host = host >= 0 ? host : fullHost >= 0 ? fullHost : entry;
+        Span<int> own = _links.Block(orphan, 0);
+        Span<int> block = _links.Block(host, 0);
+        if (block[0] < limit)
+        {
+            AppendLink(block, 0, orphan);
+        }
+        else
+        {
+            int victim = block[0];
+            for (int i = block[0]; i >= 1; i--)
+            {
+                if (ListContains(own, own[0], block[i]))
+                {
+                    victim = i;
+                    break;
+                }
+            }
+
+            int dropped = block[victim];
+            if (!ListContains(own, own[0], dropped) && own[0] < limit && dropped != orphan)
+            {
+                AppendLink(own, 0, dropped);
+            }
+
+            block[victim] = orphan;
+            Interlocked.Increment(ref _links.InDegree(orphan, 0));
+            DropInLink(dropped, 0);
+        }
+
+        // An orphan without links of its own gets them too, so walks can leave it.
+        if (own[0] == 0 && found > 0)
+        {
+            int kept = SelectNeighbours<TDistance>(scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), limit, scratch.Chosen);
+            SetList(orphan, 0, scratch.Chosen.AsSpan(0, kept));
+        }
+    }
+
+    private bool IsAnchor(int candidate, int orphan, int entry, bool[]? reached)
+    {
+        if (candidate == orphan || _removed[candidate] != 0)
+        {
+            return false;
+        }
+
+        return reached is not null ? reached[candidate] : candidate == entry || _links.InDegree(candidate, 0) > 0;
+    }
+
+    /// <summary>Runs the last step of an add, removal or compaction with the index's distance.</summary>
+    private readonly struct FinishAction(GraphIndex index, int[]? removed, int first, int added, bool forceFullPass) : IGraphAction<int>
+    {
+        public int Run<TDistance>()
+            where TDistance : struct, IGraphDistance
+        {
+            int changes = added;
+            if (removed is not null)
+            {
+                index.RepairAfterRemoval<TDistance>(removed);
+                changes += removed.Length;
+            }
+
+            return index.FinishChanges<TDistance>(first, added, changes, forceFullPass);
+        }
+    }
+
+    // Caller holds the write lock.
+    private int FinishLocked(int[]? removed, int first, int added, bool forceFullPass)
+    {
+        var action = new FinishAction(this, removed, first, added, forceFullPass);
+        return GraphDispatch.Run<FinishAction, int>(Metric, _path, ref action);
+    }
+
+    // Runs under the write lock after an add batch (a short exclusive step after the shared linking phase).
+    private void FinishAdd(int first, int added)
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            if (!_disposed)
+            {
+                FinishLocked(null, first, added, forceFullPass: false);
+            }
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+}
