@@ -117,24 +117,21 @@ internal static class RecallStatistics
             return (double.NaN, double.NaN, double.NaN);
         }
 
-        double sum = 0;
+        // Integer sums, so that queries that all found the same number give a variance of exactly zero.
+        long sum = 0;
+        long squares = 0;
         for (int i = 0; i < n; i++)
         {
-            sum += (double)found[i] / perQuery;
+            sum += found[i];
+            squares += (long)found[i] * found[i];
         }
 
-        double mean = sum / n;
-        double squares = 0;
-        for (int i = 0; i < n; i++)
-        {
-            double e = ((double)found[i] / perQuery) - mean;
-            squares += e * e;
-        }
-
-        double variance = n > 1 ? squares / (n - 1) : 0;
+        double mean = sum / ((double)n * perQuery);
+        long spread = (n * squares) - (sum * sum);   // n² × the population variance of the counts
         double trials = n;
-        if (variance > 0)
+        if (spread > 0 && n > 1)
         {
+            double variance = spread / ((double)n * (n - 1) * perQuery * perQuery);
             trials = Math.Clamp(mean * (1 - mean) * n / variance, n, (double)n * perQuery);
         }
 

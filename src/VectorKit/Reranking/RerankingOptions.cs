@@ -98,9 +98,9 @@ public sealed class RerankingOptions
 
     /// <summary>Serialises the settings (all but <see cref="Filter"/>) as JSON.</summary>
     /// <returns>An indented JSON object.</returns>
-    public string ToJson() => JsonSerializer.Serialize(this, RerankingJsonContext.Default.RerankingOptions);
+    public string ToJson() => JsonSerializer.Serialize(RerankingOptionsDocument.From(this), RerankingJsonContext.Default.RerankingOptionsDocument);
 
-    /// <summary>Reads settings written by <see cref="ToJson"/>; missing properties take their defaults.</summary>
+    /// <summary>Reads settings written by <see cref="ToJson"/>; missing properties take their defaults, unknown ones are rejected.</summary>
     /// <param name="json">A JSON object.</param>
     /// <returns>The settings, checked as a pipeline would check them.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="json"/> is null.</exception>
@@ -111,7 +111,7 @@ public sealed class RerankingOptions
         RerankingOptions? options;
         try
         {
-            options = JsonSerializer.Deserialize(json, RerankingJsonContext.Default.RerankingOptions);
+            options = JsonSerializer.Deserialize(json, RerankingJsonContext.Default.RerankingOptionsDocument)?.ToOptions();
         }
         catch (JsonException e)
         {
@@ -132,6 +132,7 @@ public sealed class RerankingOptions
     }
 
     /// <summary>Checks the relations between the depths.</summary>
+    /// <param name="paramName">The parameter to name in the exception.</param>
     internal void CheckConsistent(string paramName)
     {
         if (_retrievalDepth < _finalCount)

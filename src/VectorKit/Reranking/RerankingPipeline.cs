@@ -1,5 +1,6 @@
 using System.Collections.Concurrent;
 using System.Diagnostics;
+using System.Globalization;
 using System.Runtime.ExceptionServices;
 using VectorKit.Distance;
 using VectorKit.Indexes;
@@ -226,7 +227,7 @@ public sealed class RerankingPipeline<TQuery>
         {
             if (!float.IsFinite(scores[i]))
             {
-                throw new RerankingException(queryIndex, stage, $"the scorer returned {scores[i]} for candidate id {ids[i]} (candidate {offset + i}); every score must be a finite number.");
+                throw new RerankingException(queryIndex, stage, $"the scorer returned {scores[i].ToString(CultureInfo.InvariantCulture)} for candidate id {ids[i]} (candidate {offset + i}); every score must be a finite number.");
             }
         }
     }
