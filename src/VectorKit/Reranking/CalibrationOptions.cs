@@ -14,6 +14,7 @@ public sealed class CalibrationOptions
     private readonly int? _exactRescoringOverfetch;
     private readonly int _scoringBatchSize = 1024;
     private readonly int _maxDegreeOfParallelism = -1;
+    private readonly CalibrationSelection _selection;
 
     /// <summary>Recall 0.95 of the top 10 at 95 % confidence within ± 0.05, half the sample held out, seed 1.</summary>
     public static CalibrationOptions Default { get; } = new();
@@ -90,6 +91,22 @@ public sealed class CalibrationOptions
             }
 
             _heldOutFraction = value;
+        }
+    }
+
+    /// <summary>How a depth is judged to meet the target on the tuning queries. Default <see cref="CalibrationSelection.LowerConfidenceBound"/>.</summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined member.</exception>
+    public CalibrationSelection Selection
+    {
+        get => _selection;
+        init
+        {
+            if (!Enum.IsDefined(value))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(Selection), value, "must be a defined CalibrationSelection");
+            }
+
+            _selection = value;
         }
     }
 

@@ -10,9 +10,10 @@ namespace VectorKit.Reranking;
 /// <remarks>
 /// <para><b>Method.</b> (1) The sample queries are split, seeded, into tuning and held-out queries. (2) For every
 /// sample query the scorer ranks the whole collection once (<see cref="ScoreEverything"/>): its true top k. (3) On the
-/// tuning queries, for each search width, a bisection finds the smallest retrieval depth whose mean recall — the
-/// fraction of the true top k among the retrieved candidates, which is exactly the fraction the pipeline returns, since
-/// an item of the scorer's top k that reaches the scorer always stays in its top k — meets the target; with
+/// tuning queries, for each search width, a bisection finds the smallest retrieval depth whose recall — the fraction
+/// of the true top k among the retrieved candidates, which is exactly the fraction the pipeline returns, since an item
+/// of the scorer's top k that reaches the scorer always stays in its top k — meets the target under
+/// <see cref="CalibrationOptions.Selection"/> (by default, the lower end of its confidence interval must reach it); with
 /// <see cref="CalibrationOptions.ExactRescoringOverfetch"/> retrieval over-fetches and the exact stage's depth is
 /// chosen the same way. Among widths the setting with the least estimated time per query wins: measured retrieval time
 /// plus scorer calls × the scorer's measured time per pair. (4) The chosen pipeline runs on the held-out queries, and
@@ -207,6 +208,8 @@ public static class RerankingCalibration
     private static Setting Tune<TQuery>(Run<TQuery> run, int[] tuning, int? width, int maxDepth, double secondsPerPair, Action step)
     {
         double target = run.Options.TargetRecall;
+        double z = RecallStatistics.TwoSidedZ(run.Options.Confidence);
+        CalibrationSelection rule = run.Options.Selection;
         var measured = new Dictionary<int, Measurement>();
         Measurement At(int depth)
         {
@@ -223,23 +226,23 @@ public static class RerankingCalibration
 
         int low = run.TruthSize;
         Measurement deepest = At(maxDepth);
-        if (deepest.Recall(maxDepth) < target)
+        if (!deepest.Meets(maxDepth, target, z, rule))
         {
             return new Setting(width, maxDepth, null, deepest.Recall(maxDepth), double.PositiveInfinity, false);
         }
 
         int depth = maxDepth;
-        if (At(low).Recall(low) >= target)
+        if (At(low).Meets(low, target, z, rule))
         {
             depth = low;
         }
         else
         {
-            // Invariant: recall(low) < target ≤ recall(depth).
+            // Invariant: depth meets the target, low does not.
             while (low + 1 < depth)
             {
                 int mid = low + ((depth - low) / 2);
-                if (At(mid).Recall(mid) >= target)
+                if (At(mid).Meets(mid, target, z, rule))
                 {
                     depth = mid;
                 }
@@ -263,14 +266,14 @@ public static class RerankingCalibration
         int keep = fetched;
         for (int e = run.TruthSize; e <= fetched; e++)
         {
-            if (exact.Recall(e) >= target)
+            if (exact.Meets(e, target, z, rule))
             {
                 keep = e;
                 break;
             }
         }
 
-        return new Setting(width, fetched, keep, exact.Recall(keep), exact.SecondsPerQuery + (keep * secondsPerPair), exact.Recall(keep) >= target);
+        return new Setting(width, fetched, keep, exact.Recall(keep), exact.SecondsPerQuery + (keep * secondsPerPair), exact.Meets(keep, target, z, rule));
     }
 
     private static CalibrationReport Verify<TQuery>(Run<TQuery> run, int[] heldOut, RerankingOptions settings, Setting chosen, bool reached, int collectionSize, double exhaustiveMilliseconds, double z, IProgress<CalibrationProgress>? progress)
@@ -293,7 +296,7 @@ public static class RerankingCalibration
             }
         }
 
-        double perQuery = 1000.0 / heldOut.Length;
+        double perQuery = 1.0 / heldOut.Length;
         var stages = new List<StageReport>();
         Measurement retrieval = run.Measure(heldOut, settings.RetrievalDepth, null, settings.SearchWidth);
         (double rMean, double rLow, double rHigh) = RecallStatistics.Estimate(retrieval.Found(settings.RetrievalDepth), truthSize, z);
@@ -424,6 +427,13 @@ public static class RerankingCalibration
     // Where each query's true top-k items sit in its surviving candidates (−1: pruned), and the stages' time.
     private sealed class Measurement(int[][] positions, int truthSize, double secondsPerQuery)
     {
+        // Whether the first `depth` candidates meet the target under the selection rule.
+        public bool Meets(int depth, double target, double z, CalibrationSelection rule)
+        {
+            (double mean, double low, _) = RecallStatistics.Estimate(Found(depth), truthSize, z);
+            return rule == CalibrationSelection.PointEstimate || target == 1.0 ? mean >= target : low >= target;
+        }
+
         public double SecondsPerQuery { get; } = secondsPerQuery;
 
         // Items of the true top k among the first `depth` surviving candidates, per query.

@@ -85,6 +85,20 @@ public class CalibrationTests
     }
 
     [Fact]
+    public void PointEstimateSelection_ChoosesNoDeeperThanTheLowerBoundRule()
+    {
+        var world = new LineWorld(3000, 20, seed: 51);
+        using var index = world.BuildIndex();
+        var options = new CalibrationOptions { TargetRecall = 0.9, FinalCount = K, MaxUncertainty = 0.08 };
+        double[] sample = world.Queries(RerankingCalibration.RequiredSampleSize(options), seed: 52);
+        CalibrationReport bound = RerankingCalibration.Calibrate(index, new LineWorld.Scorer(world.Count), sample, options);
+        CalibrationReport point = RerankingCalibration.Calibrate(index, new LineWorld.Scorer(world.Count), sample, new CalibrationOptions { TargetRecall = 0.9, FinalCount = K, MaxUncertainty = 0.08, Selection = CalibrationSelection.PointEstimate });
+        Assert.True(point.Settings.RetrievalDepth <= bound.Settings.RetrievalDepth, point.ToTable() + bound.ToTable());
+        Assert.True(point.TuningRecall >= 0.9);
+        Assert.True(point.Settings.RetrievalDepth > K);
+    }
+
+    [Fact]
     public void ExactStage_IsCalibratedWhenAsked()
     {
         var world = new LineWorld(3000, 15, seed: 31);
