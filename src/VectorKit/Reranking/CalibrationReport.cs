@@ -91,6 +91,7 @@ public sealed class CalibrationReport
             text.AppendLine(c, $"{name,-18} {s.Depth,7} {width,7} {s.Recall,12:0.000} {interval,17} {s.ScorerCallsPerQuery,19:0.#} {s.MillisecondsPerQuery,10:0.###}");
         }
 
+        text.AppendLine("(ms/query: time per query summed over threads, so one thread's cost; recall and intervals on the held-out queries.)");
         text.Append(c, $"Scorer calls {ScorerCallReduction:0.#}x fewer than scoring everything; held-out recall {HeldOutRecall:0.000} ");
         text.Append(MeetsTarget ? "meets the target." : WithinSamplingError ? "is below the target, within sampling error." : "is below the target beyond sampling error.");
         if (!TargetReachedOnTuning)
