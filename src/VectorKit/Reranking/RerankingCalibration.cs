@@ -29,7 +29,9 @@ public static class RerankingCalibration
     /// <summary>
     /// The fewest sample queries <see cref="Calibrate"/> accepts for these options: enough held-out queries for a
     /// Wilson interval at the target recall no wider than ± <see cref="CalibrationOptions.MaxUncertainty"/>, counting
-    /// each query as one trial, plus at least one tuning query.
+    /// each query as one trial; and enough tuning queries that the selection rule can be met at all — under
+    /// <see cref="CalibrationSelection.LowerConfidenceBound"/>, n tuning queries that all find everything give a lower
+    /// bound of n / (n + z²), which must reach the target, so n ≥ z² t / (1 − t) (73 for t = 0.95 at 95 %).
     /// </summary>
     /// <param name="options">The calibration options; <see langword="null"/> for <see cref="CalibrationOptions.Default"/>.</param>
     /// <returns>The number of sample queries needed.</returns>
@@ -37,8 +39,9 @@ public static class RerankingCalibration
     {
         options ??= CalibrationOptions.Default;
         int heldOut = RequiredHeldOut(options);
-        int n = heldOut;
-        while (HeldOutCount(n, options.HeldOutFraction) < heldOut || n - HeldOutCount(n, options.HeldOutFraction) < 1)
+        int tuning = RequiredTuning(options);
+        int n = heldOut + tuning;
+        while (HeldOutCount(n, options.HeldOutFraction) < heldOut || n - HeldOutCount(n, options.HeldOutFraction) < tuning)
         {
             n++;
         }
@@ -124,11 +127,12 @@ public static class RerankingCalibration
         int n = sampleQueries.Count;
         int heldOutCount = HeldOutCount(n, options.HeldOutFraction);
         int requiredHeldOut = RequiredHeldOut(options);
-        if (heldOutCount < requiredHeldOut || n - heldOutCount < 1)
+        int requiredTuning = RequiredTuning(options);
+        if (heldOutCount < requiredHeldOut || n - heldOutCount < requiredTuning)
         {
             ThrowHelper.ThrowArgument(
                 nameof(sampleQueries),
-                $"The calibration sample has {n} queries, {heldOutCount} of them held out. Estimating recall {options.TargetRecall} within ±{options.MaxUncertainty} at {options.Confidence * 100:0.#} % confidence needs at least {requiredHeldOut} held-out queries: a sample of at least {RequiredSampleSize(options)} queries with HeldOutFraction {options.HeldOutFraction}.");
+                $"The calibration sample has {n} queries, {heldOutCount} of them held out and {n - heldOutCount} for tuning. Recall {options.TargetRecall} at {options.Confidence * 100:0.#} % confidence needs at least {requiredHeldOut} held-out queries (for an interval of ±{options.MaxUncertainty}) and {requiredTuning} tuning queries (for the {options.Selection} rule to be attainable): a sample of at least {RequiredSampleSize(options)} queries with HeldOutFraction {options.HeldOutFraction}.");
         }
 
         long[] ids = options.CollectionIds is null ? index.GetIds() : AsArray(options.CollectionIds);
@@ -406,6 +410,25 @@ public static class RerankingCalibration
 
     private static int RequiredHeldOut(CalibrationOptions options)
         => RecallStatistics.RequiredQueries(options.TargetRecall, RecallStatistics.TwoSidedZ(options.Confidence), options.MaxUncertainty);
+
+    // Under the lower-bound rule, the fewest tuning queries whose Wilson lower bound can reach the target at all
+    // (every query finding everything, one trial per query): n / (n + z²) ≥ t.
+    private static int RequiredTuning(CalibrationOptions options)
+    {
+        if (options.Selection != CalibrationSelection.LowerConfidenceBound || options.TargetRecall >= 1)
+        {
+            return 1;
+        }
+
+        double z = RecallStatistics.TwoSidedZ(options.Confidence);
+        int n = Math.Max(1, (int)Math.Floor(z * z * options.TargetRecall / (1 - options.TargetRecall)));
+        while (RecallStatistics.Wilson(1, n, z).Low < options.TargetRecall)
+        {
+            n++;
+        }
+
+        return n;
+    }
 
     private static int HeldOutCount(int n, double fraction) => (int)Math.Clamp(Math.Round(n * fraction, MidpointRounding.AwayFromZero), 0, n);
 

@@ -40,7 +40,7 @@ public class RerankingInputTests
             Assert.Equal(0, single.QueryIndex);
 
             // Calibration meets the same scorer in its exhaustive pass, and says so.
-            var calibration = Assert.Throws<RerankingException>(() => RerankingCalibration.Calibrate(index, new FaultyScorer(Dimension, 13, fault), queries, new CalibrationOptions { FinalCount = 5, MaxUncertainty = 0.5 }));
+            var calibration = Assert.Throws<RerankingException>(() => RerankingCalibration.Calibrate(index, new FaultyScorer(Dimension, 13, fault), queries, new CalibrationOptions { FinalCount = 5, MaxUncertainty = 0.5, Selection = CalibrationSelection.PointEstimate }));
             Assert.Equal(13, calibration.QueryIndex);
             Assert.Equal(RerankingStage.ExhaustiveScoring, calibration.Stage);
         }
@@ -129,6 +129,12 @@ public class RerankingInputTests
             Assert.Equal("sampleQueries", e.ParamName);
             Assert.Contains($"a sample of at least {needed} queries", e.Message);
             Assert.Contains($"{queries.Length} queries", e.Message);
+
+            // Under the default lower-bound rule the tuning half must be able to show 0.95 at all: 73 queries that all
+            // find everything give a Wilson lower bound of 73 / (73 + 1.96²) = 0.9500.
+            var rule = Assert.Throws<ArgumentException>(() => RerankingCalibration.Calibrate(index, new HashScorer(Dimension), queries, new CalibrationOptions { TargetRecall = 0.95, MaxUncertainty = 0.5 }));
+            Assert.Contains("73 tuning queries", rule.Message);
+            Assert.Equal(146, RerankingCalibration.RequiredSampleSize(new CalibrationOptions { TargetRecall = 0.95, MaxUncertainty = 0.5 }));
 
             // The number it names is enough: that many queries pass the check (and calibrate).
             VectorQuery[] enough = Enumerable.Range(0, needed).Select(i => queries[i % queries.Length] with { Seed = i }).ToArray();
