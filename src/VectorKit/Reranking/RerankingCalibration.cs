@@ -64,6 +64,7 @@ public static class RerankingCalibration
     /// <returns>For each query, up to <paramref name="k"/> ids, highest score first, ties by ascending id.</returns>
     /// <exception cref="ArgumentNullException">An argument is null.</exception>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="k"/> is not positive, or <paramref name="maxDegreeOfParallelism"/> is 0 or below -1.</exception>
+    /// <exception cref="ArgumentException">An id appears more than once in <paramref name="collectionIds"/>.</exception>
     /// <exception cref="RerankingException">The scorer threw or returned an invalid result (stage <see cref="RerankingStage.ExhaustiveScoring"/>).</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     public static long[][] ScoreEverything<TQuery>(
@@ -94,7 +95,9 @@ public static class RerankingCalibration
             all[i] = i;
         }
 
-        return Exhaustive(scorer, queries, all, AsArray(collectionIds), k, 1024, maxDegreeOfParallelism, progress, cancellationToken, out _);
+        long[] ids = AsArray(collectionIds);
+        CheckDistinct(ids);
+        return Exhaustive(scorer, queries, all, ids, k, 1024, maxDegreeOfParallelism, progress, cancellationToken, out _);
     }
 
     /// <summary>Chooses the smallest candidate depths that keep <see cref="CalibrationOptions.TargetRecall"/> of the scorer's top k.</summary>
@@ -107,7 +110,7 @@ public static class RerankingCalibration
     /// <param name="cancellationToken">Checked between scorer calls and searches.</param>
     /// <returns>The chosen settings and the measured report.</returns>
     /// <exception cref="ArgumentNullException">An argument is null.</exception>
-    /// <exception cref="ArgumentException">The sample is too small for the requested confidence and uncertainty (the message says how many queries are needed); the collection is empty; or <see cref="CalibrationOptions.MaxRetrievalDepth"/> is below <see cref="CalibrationOptions.FinalCount"/>.</exception>
+    /// <exception cref="ArgumentException">The sample is too small for the requested confidence and uncertainty (the message says how many queries are needed); the collection is empty or lists an id twice; or <see cref="CalibrationOptions.MaxRetrievalDepth"/> is below <see cref="CalibrationOptions.FinalCount"/>.</exception>
     /// <exception cref="NotSupportedException">No <see cref="CalibrationOptions.CollectionIds"/> were given and the index cannot list its ids.</exception>
     /// <exception cref="RerankingException">The scorer threw or returned an invalid result; the query and stage are named.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
@@ -140,6 +143,8 @@ public static class RerankingCalibration
         {
             ThrowHelper.ThrowArgument(nameof(options), "The collection is empty: there is nothing to rank.");
         }
+
+        CheckDistinct(ids);
 
         int k = options.FinalCount;
         if (options.MaxRetrievalDepth < k)
@@ -228,7 +233,8 @@ public static class RerankingCalibration
             return m;
         }
 
-        int low = run.TruthSize;
+        // Depths below k cannot be configured (a stage cannot return more than it receives).
+        int low = run.Options.FinalCount;
         Measurement deepest = At(maxDepth);
         if (!deepest.Meets(maxDepth, target, z, rule))
         {
@@ -268,7 +274,7 @@ public static class RerankingCalibration
         Measurement exact = run.Measure(tuning, fetched, fetched, width);
         step();
         int keep = fetched;
-        for (int e = run.TruthSize; e <= fetched; e++)
+        for (int e = run.Options.FinalCount; e <= fetched; e++)
         {
             if (exact.Meets(e, target, z, rule))
             {
@@ -354,7 +360,7 @@ public static class RerankingCalibration
         int kept = Math.Min(k, ids.Length);
         int completed = 0;
         long ticks = 0;
-        var parallel = new ParallelOptions { MaxDegreeOfParallelism = maxDegreeOfParallelism, CancellationToken = cancellationToken };
+        var parallel = new ParallelOptions { MaxDegreeOfParallelism = Threads(maxDegreeOfParallelism), CancellationToken = cancellationToken };
         try
         {
             Parallel.For(
@@ -432,7 +438,23 @@ public static class RerankingCalibration
 
     private static int HeldOutCount(int n, double fraction) => (int)Math.Clamp(Math.Round(n * fraction, MidpointRounding.AwayFromZero), 0, n);
 
+    // -1 means one thread per core: never more, or the thread pool adds threads to long iterations and the
+    // per-query times (summed over threads) count time-sharing as work.
+    internal static int Threads(int maxDegreeOfParallelism) => maxDegreeOfParallelism == -1 ? Environment.ProcessorCount : maxDegreeOfParallelism;
+
     private static long[] AsArray(IReadOnlyList<long> ids) => ids as long[] ?? ids.ToArray();
+
+    private static void CheckDistinct(long[] ids)
+    {
+        var seen = new HashSet<long>(ids.Length);
+        foreach (long id in ids)
+        {
+            if (!seen.Add(id))
+            {
+                ThrowHelper.ThrowArgument("options", $"CollectionIds lists id {id} more than once; each item must appear once.");
+            }
+        }
+    }
 
     private sealed record Setting(int? Width, int RetrievalDepth, int? ExactDepth, double Recall, double EstimatedSeconds, bool MeetsTarget);
 
@@ -520,7 +542,7 @@ public static class RerankingCalibration
             var pipeline = new RerankingPipeline<TQuery>(Index, Scorer, settings, Options.FullVectors);
             int[][] positions = new int[which.Length][];
             long ticks = 0;
-            var parallel = new ParallelOptions { MaxDegreeOfParallelism = Options.MaxDegreeOfParallelism, CancellationToken = CancellationToken };
+            var parallel = new ParallelOptions { MaxDegreeOfParallelism = Threads(Options.MaxDegreeOfParallelism), CancellationToken = CancellationToken };
             try
             {
                 Parallel.For(

@@ -140,7 +140,7 @@ public sealed class RerankingPipeline<TQuery>
         ArgumentNullException.ThrowIfNull(queries);
         var results = new RerankingResults(queries.Count, _options.FinalCount);
         int completed = 0;
-        var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.MaxDegreeOfParallelism, CancellationToken = cancellationToken };
+        var parallel = new ParallelOptions { MaxDegreeOfParallelism = RerankingCalibration.Threads(_options.MaxDegreeOfParallelism), CancellationToken = cancellationToken };
         try
         {
             Parallel.For(
@@ -183,7 +183,7 @@ public sealed class RerankingPipeline<TQuery>
         int completed = 0;
         var parallel = new ParallelOptions
         {
-            MaxDegreeOfParallelism = _options.MaxDegreeOfParallelism == -1 ? Environment.ProcessorCount : _options.MaxDegreeOfParallelism,
+            MaxDegreeOfParallelism = RerankingCalibration.Threads(_options.MaxDegreeOfParallelism),
             CancellationToken = cancellationToken,
         };
         Task run = Parallel.ForAsync(0, queries.Count, parallel, async (i, token) =>
