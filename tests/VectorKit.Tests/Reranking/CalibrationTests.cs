@@ -1,4 +1,6 @@
+using VectorKit.Distance;
 using VectorKit.Evaluation;
+using VectorKit.Indexes.Graph;
 using VectorKit.Reranking;
 using VectorKit.Tests.Evaluation;
 
@@ -116,6 +118,36 @@ public class CalibrationTests
     }
 
     [Fact]
+    public void SearchWidths_AreTriedOnAGraphIndex_AndTheChosenOneIsReported()
+    {
+        var world = new LineWorld(3000, 20, seed: 61);
+        using var graph = new GraphIndex(2, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { Seed = 2 });
+        graph.AddRange(Enumerable.Range(0, world.Count).Select(i => (long)i).ToArray(), world.Vectors);
+        var options = new CalibrationOptions { TargetRecall = 0.9, FinalCount = K, MaxUncertainty = 0.08, SearchWidths = [16, 400], MaxDegreeOfParallelism = 1 };
+        double[] sample = world.Queries(RerankingCalibration.RequiredSampleSize(options), seed: 62);
+        CalibrationReport report = RerankingCalibration.Calibrate(graph, new LineWorld.Scorer(world.Count), sample, options);
+        Assert.Contains(report.Settings.SearchWidth!.Value, new[] { 16, 400 });
+        Assert.Equal(report.Settings.SearchWidth, report.Stages[0].SearchWidth);
+        Assert.Equal(1, report.Settings.MaxDegreeOfParallelism);
+        Assert.True(report.WithinSamplingError, report.ToTable());
+    }
+
+    [Fact]
+    public void Cancellation_StopsACalibration()
+    {
+        var world = new LineWorld(2000, 10, seed: 71);
+        using var index = world.BuildIndex();
+        var options = new CalibrationOptions { TargetRecall = 0.9, FinalCount = K };
+        double[] sample = world.Queries(RerankingCalibration.RequiredSampleSize(options), seed: 72);
+        using var cancel = new CancellationTokenSource();
+
+        // Cancel from the progress callback once the exhaustive pass is under way.
+        var progress = new CancelAfter(cancel, after: 3);
+        Assert.ThrowsAny<OperationCanceledException>(() => RerankingCalibration.Calibrate(index, new LineWorld.Scorer(world.Count), sample, options, progress, cancel.Token));
+        Assert.True(progress.Reports < sample.Length, $"{progress.Reports} progress reports after cancelling");
+    }
+
+    [Fact]
     public void Report_SerialisesAndTheSettingsRoundTrip()
     {
         var world = new LineWorld(1000, 10, seed: 41);
@@ -132,5 +164,20 @@ public class CalibrationTests
         Assert.Contains("\"HeldOutRecall\"", json);
         Assert.Contains("\"Stages\"", json);
         Assert.Contains("pairwise scoring", report.ToTable());
+    }
+
+    private sealed class CancelAfter(CancellationTokenSource source, int after) : IProgress<CalibrationProgress>
+    {
+        private int _reports;
+
+        public int Reports => Volatile.Read(ref _reports);
+
+        public void Report(CalibrationProgress value)
+        {
+            if (Interlocked.Increment(ref _reports) == after)
+            {
+                source.Cancel();
+            }
+        }
     }
 }
