@@ -7,7 +7,8 @@ namespace VectorKit.Benchmarks;
 /// <summary>
 /// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory]</c> and
-/// <c>clustered-sweep [count] [dimension]</c>; and the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>.
+/// <c>clustered-sweep [count] [dimension]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
+/// or the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>.
 /// </summary>
 public static class Program
 {
@@ -30,6 +31,15 @@ public static class Program
             int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
             int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
             GraphSweep.RunClustered(count, dimension);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "reranking")
+        {
+            int items = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 100_000;
+            int hidden = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 400;
+            int baseline = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 16;
+            Reranking.RerankingHarness.Run(items, hidden, baseline);
             return;
         }
 

@@ -42,6 +42,16 @@ public interface IVectorIndex : IDisposable
     /// <exception cref="ArgumentException"><paramref name="destination"/> is shorter than <see cref="Dimension"/>.</exception>
     bool TryGetVector(long id, Span<float> destination);
 
+    /// <summary>A snapshot of the ids currently in the index, in ascending order.</summary>
+    /// <returns>A new array of <see cref="Count"/> ids, taken at one moment: a concurrent add or remove is either in it entirely or not at all.</returns>
+    /// <remarks>
+    /// Re-ranking calibration uses it to score a whole collection. The default implementation throws, so that an index
+    /// kind written before this member existed still compiles; the built-in indexes implement it.
+    /// </remarks>
+    /// <exception cref="NotSupportedException">The index kind cannot list its ids.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    long[] GetIds() => throw new NotSupportedException($"{GetType().Name} cannot list its ids; pass the collection's ids explicitly.");
+
     /// <summary>Adds one vector.</summary>
     /// <param name="id">A caller-chosen id not already in the index.</param>
     /// <param name="vector">Exactly <see cref="Dimension"/> finite components.</param>
