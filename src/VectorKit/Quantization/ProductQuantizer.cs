@@ -1,4 +1,6 @@
+using System.Buffers;
 using System.Numerics;
+using System.Numerics.Tensors;
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Clustering;
@@ -141,7 +143,15 @@ public sealed class ProductQuantizer
     {
         VectorChecks.CheckVector(vector, Dimension, nameof(vector));
         CheckCode(code.Length, nameof(code));
-        EncodeUnchecked(KernelDispatch.Widest, vector, code);
+        float[] table = ArrayPool<float>.Shared.Rent(TableLength);
+        try
+        {
+            EncodeUnchecked(vector, code, table);
+        }
+        finally
+        {
+            ArrayPool<float>.Shared.Return(table);
+        }
     }
 
     /// <summary>Writes the reconstruction of a code: its codewords side by side.</summary>
@@ -210,12 +220,16 @@ public sealed class ProductQuantizer
         }
     }
 
-    internal void EncodeUnchecked(KernelPath path, ReadOnlySpan<float> vector, Span<byte> code)
+    /// <summary>
+    /// Encodes through the squared-distance table: the distances of each sub-vector to its 256 codewords come out of
+    /// the SIMD table fill, and each code byte is the first index of the smallest (ties go to the lower codeword).
+    /// </summary>
+    internal void EncodeUnchecked(ReadOnlySpan<float> vector, Span<byte> code, Span<float> table)
     {
-        int s = SubspaceDimension;
+        FillTable(vector, table, squared: true);
         for (int m = 0; m < CodeBytes; m++)
         {
-            code[m] = (byte)NearestCentroid.One(path, vector.Slice(m * s, s), _codewords.AsSpan(m * CodewordsPerSubspace * s, CodewordsPerSubspace * s), CodewordsPerSubspace, out _);
+            code[m] = (byte)TensorPrimitives.IndexOfMin(table.Slice(m * CodewordsPerSubspace, CodewordsPerSubspace));
         }
     }
 

@@ -397,6 +397,32 @@ public sealed partial class InvertedFileIndex : IVectorIndex
         }
     }
 
+    /// <summary>Releases the storage reserved beyond the vectors held (list growth slack, slot arrays, id lookup).</summary>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    public void TrimExcess()
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            for (int list = 0; list < _listCounts.Length; list++)
+            {
+                Array.Resize(ref _listSlots[list], _listCounts[list]);
+                Array.Resize(ref _listCodes[list], _listCounts[list] * _codeBytes);
+            }
+
+            Array.Resize(ref _ids, _count);
+            Array.Resize(ref _listOf, _count);
+            Array.Resize(ref _positionOf, _count);
+            _full?.Resize(_count);
+            _slotOf.TrimExcess();
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
     /// <summary>The number of vectors in each list (for diagnostics and tests).</summary>
     /// <returns>A new array of <see cref="InvertedFileOptions.ListCount"/> counts.</returns>
     public int[] ListLengths()
@@ -460,34 +486,31 @@ public sealed partial class InvertedFileIndex : IVectorIndex
             int total = ids.Length;
             EnsureSlotCapacity(checked(_count + total));
             _slotOf.EnsureCapacity(_count + total);
+
+            // Two passes over the batch in chunks (temporary copies stay small): assign every row to its list, grow
+            // each list once to its final size, then encode and append.
             int chunkRows = Math.Min(AddChunk, Math.Max(1, total));
             var rows = new float[chunkRows * d];
-            var labels = new int[chunkRows];
+            var labels = new int[total];
             var distances = new float[chunkRows];
             var codes = new byte[chunkRows * _codeBytes];
             for (int start = 0; start < total; start += chunkRows)
             {
                 int n = Math.Min(chunkRows, total - start);
-                ReadOnlySpan<float> source = vectors.Slice(start * d, n * d);
-                if (Metric == DistanceMetric.Cosine)
-                {
-                    for (int r = 0; r < n; r++)
-                    {
-                        VectorChecks.Normalize(source.Slice(r * d, d), rows.AsSpan(r * d, d), nameof(vectors));
-                    }
-                }
-                else
-                {
-                    source.CopyTo(rows);
-                }
-
+                Prepare(vectors.Slice(start * d, n * d), rows);
                 fixed (float* pointer = rows)
                 {
-                    NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels, distances, _options.EffectiveParallelism, CancellationToken.None);
+                    NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances, _options.EffectiveParallelism, CancellationToken.None);
                 }
+            }
 
-                Encode(rows, labels, n, codes);
-                Append(ids.Slice(start, n), rows, labels, codes, n);
+            GrowLists(labels);
+            for (int start = 0; start < total; start += chunkRows)
+            {
+                int n = Math.Min(chunkRows, total - start);
+                Prepare(vectors.Slice(start * d, n * d), rows);
+                Encode(rows, labels.AsSpan(start, n), n, codes);
+                Append(ids.Slice(start, n), rows, labels.AsSpan(start, n), codes, n);
             }
         }
         finally
@@ -496,8 +519,25 @@ public sealed partial class InvertedFileIndex : IVectorIndex
         }
     }
 
+    // The rows as stored: copied, or scaled to unit length under cosine.
+    private void Prepare(ReadOnlySpan<float> source, float[] rows)
+    {
+        int d = Dimension;
+        if (Metric == DistanceMetric.Cosine)
+        {
+            for (int r = 0; r < source.Length / d; r++)
+            {
+                VectorChecks.Normalize(source.Slice(r * d, d), rows.AsSpan(r * d, d), "vectors");
+            }
+        }
+        else
+        {
+            source.CopyTo(rows);
+        }
+    }
+
     // Writes each row's list entry: the vector itself, or the code of its residual from its list's centroid.
-    private void Encode(float[] rows, int[] labels, int n, byte[] codes)
+    private void Encode(float[] rows, ReadOnlySpan<int> labelSpan, int n, byte[] codes)
     {
         int d = Dimension;
         int size = _codeBytes;
@@ -507,11 +547,15 @@ public sealed partial class InvertedFileIndex : IVectorIndex
             return;
         }
 
+        int[] labels = labelSpan.ToArray();
         const int Block = 256;
         int blocks = (n + Block - 1) / Block;
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveParallelism };
-        Parallel.For(0, blocks, parallel, () => new float[d], (b, _, residual) =>
+        int tableLength = _product?.TableLength ?? 0;
+        Parallel.For(0, blocks, parallel, () => new float[d + tableLength], (b, _, scratch) =>
         {
+            Span<float> residual = scratch.AsSpan(0, d);
+            Span<float> table = scratch.AsSpan(d);
             int end = Math.Min(n, (b + 1) * Block);
             for (int r = b * Block; r < end; r++)
             {
@@ -525,7 +569,7 @@ public sealed partial class InvertedFileIndex : IVectorIndex
                 Span<byte> code = codes.AsSpan(r * size, size);
                 if (_product is not null)
                 {
-                    _product.EncodeUnchecked(_kernelPath, residual, code);
+                    _product.EncodeUnchecked(residual, code, table);
                 }
                 else
                 {
@@ -533,32 +577,38 @@ public sealed partial class InvertedFileIndex : IVectorIndex
                 }
             }
 
-            return residual;
+            return scratch;
         }, static _ => { });
     }
 
-    // Appends encoded rows to their lists and slots; every list grows at most once per call.
-    private void Append(ReadOnlySpan<long> ids, float[] rows, int[] labels, byte[] codes, int n)
+    // Grows every list that the batch adds to, once: exactly to size when it was empty (a bulk load leaves no slack),
+    // else by half again or to size, whichever is larger.
+    private void GrowLists(ReadOnlySpan<int> labels)
+    {
+        var added = new int[_listCounts.Length];
+        foreach (int label in labels)
+        {
+            added[label]++;
+        }
+
+        for (int list = 0; list < added.Length; list++)
+        {
+            int required = _listCounts[list] + added[list];
+            int current = _listSlots[list].Length;
+            if (added[list] > 0 && current < required)
+            {
+                int capacity = current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
+                Array.Resize(ref _listSlots[list], capacity);
+                Array.Resize(ref _listCodes[list], checked(capacity * _codeBytes));
+            }
+        }
+    }
+
+    // Appends encoded rows to their lists (already grown) and to the slots.
+    private void Append(ReadOnlySpan<long> ids, float[] rows, ReadOnlySpan<int> labels, byte[] codes, int n)
     {
         int d = Dimension;
         int size = _codeBytes;
-        var added = new Dictionary<int, int>();
-        for (int r = 0; r < n; r++)
-        {
-            added[labels[r]] = added.GetValueOrDefault(labels[r]) + 1;
-        }
-
-        foreach ((int list, int more) in added)
-        {
-            int required = _listCounts[list] + more;
-            if (_listSlots[list].Length < required)
-            {
-                int capacity = Math.Max(required, Math.Max(8, _listSlots[list].Length + (_listSlots[list].Length / 2)));
-                Array.Resize(ref _listSlots[list], capacity);
-                Array.Resize(ref _listCodes[list], checked(capacity * size));
-            }
-        }
-
         for (int r = 0; r < n; r++)
         {
             int list = labels[r];
@@ -573,6 +623,7 @@ public sealed partial class InvertedFileIndex : IVectorIndex
             {
                 rows.AsSpan(r * d, d).CopyTo(_full.RowSpan(slot));
             }
+
             _slotOf.Add(ids[r], slot);
         }
 
@@ -590,7 +641,10 @@ public sealed partial class InvertedFileIndex : IVectorIndex
         Array.Resize(ref _ids, capacity);
         Array.Resize(ref _listOf, capacity);
         Array.Resize(ref _positionOf, capacity);
-        _full?.EnsureCapacity(capacity);
+        if (_full is not null && _full.Capacity < capacity)
+        {
+            _full.Resize(capacity);
+        }
     }
 
     // Residuals of (a sample of) the training rows from their nearest centroids, for the residual quantizer.

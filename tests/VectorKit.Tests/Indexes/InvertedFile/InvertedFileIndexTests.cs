@@ -223,6 +223,21 @@ public class InvertedFileIndexTests
         Assert.True(product.MemoryBytes < flat.MemoryBytes);
     }
 
+    [Fact]
+    public void EvaluationTools_MeasureATrainedIndex()
+    {
+        const int D = 16, N = 2000;
+        float[] data = ClusteredData.Generate(N, D, 20, 0.3f, seed: 40);
+        float[] queries = ClusteredData.Generate(50, D, 20, 0.3f, seed: 41);
+        NeighbourTable truth = GroundTruth.Compute(data, default, queries, D, 10, DistanceMetric.SquaredEuclidean);
+        using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 16, Storage = ListStorage.Scalar8Bit, RescoreDepth = 40 });
+        index.Train(data);
+        SearchQualityReport report = SearchQuality.Measure(index, default, data, queries, truth, new QualityMeasurementOptions { K = 10, Search = new SearchOptions { SearchWidth = 16 } });
+        Assert.Equal(N, index.Count);
+        Assert.True(report.Recall >= 0.99, $"recall {report.Recall}");
+        Assert.True(report.BytesPerVector > 16 + (D * 4));
+    }
+
     private static int NearestList(InvertedFileIndex index, ReadOnlySpan<float> vector)
     {
         int d = index.Dimension;
