@@ -224,6 +224,77 @@ public class InvertedFileIndexTests
     }
 
     [Fact]
+    public void ConcurrentSearchesDuringAddsAndRemoves_SeeConsistentStates()
+    {
+        const int D = 8;
+        using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 8, Storage = ListStorage.ProductCodes, ProductCodeBytes = 4, RescoreDepth = 20 });
+        index.Train(ClusteredData.Generate(600, D, 10, 0.4f, seed: 50));
+        float[] query = ClusteredData.Generate(1, D, 10, 0.4f, seed: 51);
+        using var stop = new CancellationTokenSource();
+        var searchers = Enumerable.Range(0, 2).Select(_ => Task.Run(() =>
+        {
+            int searches = 0;
+            var hits = new SearchHit[10];
+            while (!stop.IsCancellationRequested)
+            {
+                int found = index.Search(query, hits, new SearchOptions { SearchWidth = 8 });
+                for (int i = 1; i < found; i++)
+                {
+                    Assert.True(hits[i - 1].CompareTo(hits[i]) < 0);
+                }
+
+                searches++;
+            }
+
+            return searches;
+        })).ToArray();
+
+        for (int batch = 0; batch < 40; batch++)
+        {
+            long[] ids = Enumerable.Range(batch * 50, 50).Select(i => (long)i).ToArray();
+            index.AddRange(ids, ClusteredData.Generate(50, D, 10, 0.4f, seed: 100 + batch));
+            if (batch % 4 == 3)
+            {
+                for (long id = (batch - 3) * 50; id < ((batch - 3) * 50) + 20; id++)
+                {
+                    index.Remove(id);
+                }
+            }
+        }
+
+        stop.Cancel();
+        Assert.All(searchers, s => Assert.True(s.Result > 0));
+        Assert.Equal((40 * 50) - (10 * 20), index.Count);
+        Assert.Equal(index.Count, index.ListLengths().Sum());
+    }
+
+    [Theory]
+    [InlineData(ListStorage.Float32)]
+    [InlineData(ListStorage.ProductCodes)]
+    public void TrimExcess_ReleasesSlack_AndKeepsEveryVector(ListStorage storage)
+    {
+        const int D = 16, N = 3000;
+        float[] data = ClusteredData.Generate(N, D, 10, 0.4f, seed: 60);
+        long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
+        using InvertedFileIndex index = Build(storage, DistanceMetric.SquaredEuclidean, D, data, ids);
+        using var exact = new ExactIndex(D, DistanceMetric.SquaredEuclidean);
+        exact.AddRange(ids, data);
+        for (long id = 0; id < N; id += 2)
+        {
+            index.Remove(id);
+            exact.Remove(id);
+        }
+
+        long before = index.MemoryBytes;
+        index.TrimExcess();
+        Assert.True(index.MemoryBytes < before, $"{index.MemoryBytes} ≥ {before}");
+        float[] query = ClusteredData.Generate(1, D, 10, 0.4f, seed: 61);
+        Assert.Equal(exact.Search(query, 10), index.Search(query, 10, new SearchOptions { SearchWidth = 8 }));
+        index.Add(-1, query);
+        Assert.Equal(-1, index.Search(query, 1)[0].Id);
+    }
+
+    [Fact]
     public void EvaluationTools_MeasureATrainedIndex()
     {
         const int D = 16, N = 2000;
