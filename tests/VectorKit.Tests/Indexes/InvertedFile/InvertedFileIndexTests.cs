@@ -231,7 +231,11 @@ public class InvertedFileIndexTests
         index.Train(ClusteredData.Generate(600, D, 10, 0.4f, seed: 50));
         float[] query = ClusteredData.Generate(1, D, 10, 0.4f, seed: 51);
         using var stop = new CancellationTokenSource();
-        var searchers = Enumerable.Range(0, 2).Select(_ => Task.Run(() =>
+        using var started = new CountdownEvent(2);
+
+        // Dedicated threads (not the shared pool, which a busy test run can starve), each signalling after its first
+        // search so the writes below always overlap running searches.
+        var searchers = Enumerable.Range(0, 2).Select(_ => Task.Factory.StartNew(() =>
         {
             int searches = 0;
             var hits = new SearchHit[10];
@@ -243,12 +247,17 @@ public class InvertedFileIndexTests
                     Assert.True(hits[i - 1].CompareTo(hits[i]) < 0);
                 }
 
-                searches++;
+                if (searches++ == 0)
+                {
+                    started.Signal();
+                }
             }
 
             return searches;
-        })).ToArray();
+        }, TaskCreationOptions.LongRunning)).ToArray();
 
+        // Bounded only so that a searcher failing before its first signal reports its exception below instead of hanging.
+        started.Wait(TimeSpan.FromMinutes(2));
         for (int batch = 0; batch < 40; batch++)
         {
             long[] ids = Enumerable.Range(batch * 50, 50).Select(i => (long)i).ToArray();
