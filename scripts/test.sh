@@ -2,7 +2,8 @@
 # Runs the whole test suite: installs the open data set the tests read (Fashion-MNIST, from Debian's
 # dataset-fashion-mnist) when it is missing, runs every test, then re-runs the kernel tests with the wider SIMD
 # instruction sets switched off so the 256-bit, 128-bit and scalar paths run on a machine that has wider ones
-# (the exact and graph index tests too: both pick their kernel width once per operation).
+# (the exact, graph and inverted-file index tests too, and the product quantizer's ADC property: each picks its
+# kernel width once per operation; the 8-bit code kernel tests are in the Kernels category).
 # On .NET 10, DOTNET_EnableAVX512=0 turns Vector512 off; DOTNET_EnableAVX512F=0 alone does not.
 # Extra arguments go to every `dotnet test` call.
 set -euo pipefail
@@ -29,7 +30,7 @@ run() { # label, then environment assignments, then test arguments
 }
 
 run all dotnet test VectorKit.sln -c Release "$@"
-filter="Category=Kernels|FullyQualifiedName~ExactIndexTests|FullyQualifiedName~GraphIndexTests"
+filter="Category=Kernels|FullyQualifiedName~ExactIndexTests|FullyQualifiedName~GraphIndexTests|FullyQualifiedName~InvertedFileIndexTests|FullyQualifiedName~AdcDistance"
 run avx2 DOTNET_EnableAVX512=0 VECTORKIT_EXPECT_PATH=Vector256 dotnet test tests/VectorKit.Tests -c Release --no-build --filter "$filter" "$@"
 run sse DOTNET_EnableAVX2=0 VECTORKIT_EXPECT_PATH=Vector128 dotnet test tests/VectorKit.Tests -c Release --no-build --filter "$filter" "$@"
 run scalar DOTNET_EnableHWIntrinsic=0 VECTORKIT_EXPECT_PATH=Scalar dotnet test tests/VectorKit.Tests -c Release --no-build --filter "$filter" "$@"

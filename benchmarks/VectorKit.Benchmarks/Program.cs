@@ -8,7 +8,8 @@ namespace VectorKit.Benchmarks;
 /// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory]</c> and
 /// <c>clustered-sweep [count] [dimension]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
-/// or the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>.
+/// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; and the inverted-file harness,
+/// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>.
 /// </summary>
 public static class Program
 {
@@ -40,6 +41,16 @@ public static class Program
             int hidden = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 400;
             int baseline = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 16;
             Reranking.RerankingHarness.Run(items, hidden, baseline);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "inverted-file-sweep")
+        {
+            int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
+            int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
+            int lists = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 1024;
+            int productBytes = args.Length > 4 ? int.Parse(args[4], CultureInfo.InvariantCulture) : 64;
+            InvertedFileSweep.Run(count, dimension, lists, productBytes);
             return;
         }
 

@@ -6,6 +6,7 @@ public sealed class SearchOptions
 {
     private readonly int _maxDegreeOfParallelism = -1;
     private readonly int? _searchWidth;
+    private readonly int? _rescoreDepth;
 
     /// <summary>Options with no filter, all cores for batches, and each index's default search width.</summary>
     public static SearchOptions Default { get; } = new();
@@ -40,9 +41,10 @@ public sealed class SearchOptions
     }
 
     /// <summary>
-    /// How many candidates an approximate index keeps while it searches (its beam width); larger is slower and
-    /// finds more of the true nearest items. <see langword="null"/> uses the index's own default. The exact index
-    /// ignores it.
+    /// How widely an approximate index searches; larger is slower and finds more of the true nearest items.
+    /// <see langword="null"/> uses the index's own default. For the graph index it is the number of candidates kept
+    /// during the walk (the beam width); for the inverted-file index it is the number of lists probed per query. The
+    /// exact index ignores it.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is not positive.</exception>
     public int? SearchWidth
@@ -56,6 +58,26 @@ public sealed class SearchOptions
             }
 
             _searchWidth = value;
+        }
+    }
+
+    /// <summary>
+    /// For an index that searches compressed codes and keeps the full vectors: how many of the best candidates by
+    /// code distance are re-scored exactly on the full vectors before the best k are returned. 0 turns re-scoring off
+    /// for this call; <see langword="null"/> uses the index's own default. Indexes without full vectors ignore it.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is negative.</exception>
+    public int? RescoreDepth
+    {
+        get => _rescoreDepth;
+        init
+        {
+            if (value is < 0)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(RescoreDepth), value.Value, "must be 0 (off) or positive");
+            }
+
+            _rescoreDepth = value;
         }
     }
 

@@ -1,0 +1,20 @@
+namespace VectorKit.Indexes.InvertedFile;
+
+/// <summary>What an index's training is doing.</summary>
+public enum IndexTrainingStage
+{
+    /// <summary>Seeding the list centroids (k-means++); <see cref="IndexTrainingProgress.Done"/> counts centroids chosen.</summary>
+    SeedingCentroids = 0,
+
+    /// <summary>k-means iterations for the list centroids; <see cref="IndexTrainingProgress.Done"/> counts iterations.</summary>
+    RefiningCentroids = 1,
+
+    /// <summary>Training the residual quantizer; <see cref="IndexTrainingProgress.Done"/> counts product-quantizer sub-spaces trained.</summary>
+    TrainingQuantizer = 2,
+}
+
+/// <summary>A progress report from <see cref="InvertedFileIndex.Train"/>.</summary>
+/// <param name="Stage">The current stage.</param>
+/// <param name="Done">Work done in this stage.</param>
+/// <param name="Total">Work in this stage (for iterations, the most that may run).</param>
+public readonly record struct IndexTrainingProgress(IndexTrainingStage Stage, int Done, int Total);

@@ -1,0 +1,381 @@
+using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
+using VectorKit.Distance;
+using VectorKit.Distance.Kernels;
+
+namespace VectorKit.Indexes.InvertedFile;
+
+/// <summary>The search: nearest centroids, a scan of their lists by the storage's kernel, optional exact re-scoring.</summary>
+public sealed partial class InvertedFileIndex
+{
+    // Entries scored per kernel call; their distances live in the scratch block.
+    private const int ScanBlock = 256;
+
+    [ThreadStatic]
+    private static SearchScratch? t_scratch;
+
+    /// <inheritdoc/>
+    /// <remarks>
+    /// Probes <see cref="SearchOptions.SearchWidth"/> lists (default <see cref="InvertedFileOptions.ListsProbed"/>) and,
+    /// when full vectors are kept, re-scores <see cref="SearchOptions.RescoreDepth"/> candidates (default
+    /// <see cref="InvertedFileOptions.RescoreDepth"/>) exactly. Returns fewer than k hits only when the probed lists
+    /// hold fewer than k (passing) vectors.
+    /// </remarks>
+    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
+    public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
+    {
+        if (destination.IsEmpty)
+        {
+            ThrowHelper.ThrowArgument(nameof(destination), "destination is empty: its length is k, the number of results wanted, which must be positive.");
+        }
+
+        VectorChecks.CheckVector(query, Dimension, nameof(query));
+        SearchScratch scratch = RentScratch();
+        try
+        {
+            ReadOnlySpan<float> q = query;
+            if (Metric == DistanceMetric.Cosine)
+            {
+                Span<float> unit = scratch.Unit(Dimension);
+                VectorChecks.Normalize(query, unit, nameof(query));
+                q = unit;
+            }
+
+            _lock.EnterReadLock();
+            try
+            {
+                ThrowIfDisposed();
+                ThrowIfNotTrained();
+                return SearchLocked(q, destination, options ?? SearchOptions.Default, scratch);
+            }
+            finally
+            {
+                _lock.ExitReadLock();
+            }
+        }
+        finally
+        {
+            ReturnScratch(scratch);
+        }
+    }
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
+    public unsafe BatchSearchResults SearchBatch(
+        ReadOnlySpan<float> queries,
+        int k,
+        SearchOptions? options = null,
+        IProgress<int>? progress = null,
+        CancellationToken cancellationToken = default)
+    {
+        if (k <= 0)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(nameof(k), k, "must be positive");
+        }
+
+        int d = Dimension;
+        if (queries.Length % d != 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(queries), $"queries has {queries.Length} components, not a multiple of the index dimension {d}.");
+        }
+
+        int queryCount = queries.Length / d;
+        VectorChecks.CheckFinite(queries, nameof(queries), 0, d);
+        float[] source = queries.ToArray();
+        if (Metric == DistanceMetric.Cosine)
+        {
+            for (int i = 0; i < queryCount; i++)
+            {
+                VectorChecks.Normalize(queries.Slice(i * d, d), source.AsSpan(i * d, d), $"{nameof(queries)} row {i}");
+            }
+        }
+
+        options ??= SearchOptions.Default;
+        _lock.EnterReadLock();
+        try
+        {
+            ThrowIfDisposed();
+            var results = new BatchSearchResults(queryCount, k);
+            if (queryCount == 0)
+            {
+                return results;
+            }
+
+            ThrowIfNotTrained();
+            int completed = 0;
+            const int Block = 16;
+            int blocks = (queryCount + Block - 1) / Block;
+            var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
+            Parallel.For(0, blocks, parallel, () => new SearchScratch(), (b, _, scratch) =>
+            {
+                int end = Math.Min(queryCount, (b + 1) * Block);
+                for (int i = b * Block; i < end; i++)
+                {
+                    results.SetCount(i, SearchLocked(source.AsSpan(i * d, d), results.Slots(i), options, scratch));
+                }
+
+                progress?.Report(Interlocked.Add(ref completed, end - (b * Block)));
+                return scratch;
+            }, static _ => { });
+            return results;
+        }
+        finally
+        {
+            _lock.ExitReadLock();
+        }
+    }
+
+    // Caller holds the read lock; q is validated (unit length under cosine).
+    private int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options, SearchScratch scratch)
+    {
+        if (_count == 0)
+        {
+            return 0;
+        }
+
+        int k = destination.Length;
+        int lists = _options.ListCount;
+        int probes = Math.Min(options.SearchWidth ?? _options.ListsProbed, lists);
+        int depth = _full is null ? 0 : options.RescoreDepth ?? _options.RescoreDepth;
+        bool rescore = depth > 0;
+        int candidates = Math.Min(rescore ? Math.Max(k, depth) : k, _count);
+
+        // The lists of the nearest centroids, nearest first so the candidate bound tightens early.
+        Span<float> centroidDistances = scratch.CentroidDistances(lists);
+        ref float query = ref MemoryMarshal.GetReference(q);
+        ManyKernel.Compute<SquaredDifferenceStep>(_kernelPath, ref query, ref MemoryMarshal.GetArrayDataReference(_centroids), Dimension, lists, ref MemoryMarshal.GetReference(centroidDistances));
+        Span<SearchHit> probeHeap = scratch.Probes(probes);
+        int probeCount = 0;
+        for (int l = 0; l < lists; l++)
+        {
+            TopK.Offer(probeHeap, ref probeCount, centroidDistances[l], l);
+        }
+
+        TopK.SortBestFirst(probeHeap, probeCount);
+        Span<SearchHit> heap = scratch.Candidates(candidates);
+        int found = Metric switch
+        {
+            DistanceMetric.SquaredEuclidean => ScanProbed<SquaredDifferenceStep, KeepFinish>(q, probeHeap[..probeCount], heap, options.Filter, scratch),
+            DistanceMetric.InnerProduct => ScanProbed<DotStep, NegateFinish>(q, probeHeap[..probeCount], heap, options.Filter, scratch),
+            _ => ScanProbed<DotStep, OneMinusFinish>(q, probeHeap[..probeCount], heap, options.Filter, scratch),
+        };
+
+        if (rescore)
+        {
+            found = Metric switch
+            {
+                DistanceMetric.SquaredEuclidean => Rescore<SquaredDifferenceStep, KeepFinish>(ref query, heap[..found]),
+                DistanceMetric.InnerProduct => Rescore<DotStep, NegateFinish>(ref query, heap[..found]),
+                _ => Rescore<DotStep, OneMinusFinish>(ref query, heap[..found]),
+            };
+        }
+
+        TopK.SortBestFirst(heap, found);
+        int keep = Math.Min(k, found);
+        heap[..keep].CopyTo(destination);
+        return keep;
+    }
+
+    // Exact distances on the full vectors for every candidate; the caller sorts.
+    private int Rescore<TStep, TFinish>(ref float query, Span<SearchHit> candidates)
+        where TStep : struct, IAccumulateStep
+        where TFinish : struct, IFinish
+    {
+        int d = Dimension;
+        for (int i = 0; i < candidates.Length; i++)
+        {
+            long id = candidates[i].Id;
+            int slot = _slotOf[id];
+            candidates[i] = new SearchHit(id, TFinish.Apply(ManyKernel.One<TStep>(_kernelPath, ref query, ref _full!.Row(slot), d)));
+        }
+
+        return candidates.Length;
+    }
+
+    private int ScanProbed<TStep, TFinish>(ReadOnlySpan<float> q, ReadOnlySpan<SearchHit> probes, Span<SearchHit> heap, Func<long, bool>? filter, SearchScratch scratch)
+        where TStep : struct, IAccumulateStep
+        where TFinish : struct, IFinish
+    {
+        int d = Dimension;
+        int size = _codeBytes;
+        bool squared = typeof(TStep) == typeof(SquaredDifferenceStep);
+        ref float query = ref MemoryMarshal.GetReference(q);
+        Span<float> block = scratch.Block(ScanBlock);
+        ref float distances = ref MemoryMarshal.GetReference(block);
+        int count = 0;
+        float bound = float.PositiveInfinity;
+
+        // Per-query preparation for the compressed kinds: the dot-product table or padded query do not depend on the list.
+        Span<float> table = default;
+        Span<float> prepared = default;
+        if (_product is not null)
+        {
+            table = scratch.Table(_product.TableLength);
+            if (!squared)
+            {
+                _product.FillTable(q, table, squared: false);
+            }
+        }
+        else if (_scalar is not null)
+        {
+            prepared = scratch.Prepared(_scalar.CodeBytes);
+            _scalar.Pad(q, prepared);
+        }
+
+        Span<float> residual = _options.Storage == ListStorage.Float32 ? default : scratch.Residual(Math.Max(d, _scalar?.CodeBytes ?? 0));
+        foreach (SearchHit probe in probes)
+        {
+            int list = (int)probe.Id;
+            int length = _listCounts[list];
+            if (length == 0)
+            {
+                continue;
+            }
+
+            ref byte codes = ref MemoryMarshal.GetArrayDataReference(_listCodes[list]);
+            int[] slots = _listSlots[list];
+            ReadOnlySpan<float> centroid = _centroids.AsSpan(list * d, d);
+
+            // Compressed codes hold x − c: under squared L2 the query moves by −c; under a dot product q·c is added.
+            float offset = 0;
+            if (_options.Storage != ListStorage.Float32)
+            {
+                if (squared)
+                {
+                    for (int j = 0; j < d; j++)
+                    {
+                        residual[j] = q[j] - centroid[j];
+                    }
+
+                    if (_product is not null)
+                    {
+                        _product.FillTable(residual[..d], table, squared: true);
+                    }
+                    else
+                    {
+                        residual[d.._scalar!.CodeBytes].Clear();
+                    }
+                }
+                else
+                {
+                    offset = PairKernel.Sum<DotStep>(_kernelPath, q, centroid);
+                }
+            }
+
+            for (int start = 0; start < length; start += ScanBlock)
+            {
+                int n = Math.Min(ScanBlock, length - start);
+                ref byte first = ref Unsafe.Add(ref codes, (nint)start * size);
+                switch (_options.Storage)
+                {
+                    case ListStorage.Float32:
+                        ManyKernel.Compute<TStep>(_kernelPath, ref query, ref Unsafe.As<byte, float>(ref first), d, n, ref distances);
+                        break;
+                    case ListStorage.ProductCodes:
+                        _product!.Scan(ref MemoryMarshal.GetReference(table), ref first, n, ref distances);
+                        break;
+                    default:
+                        _scalar!.Compute<TStep>(_kernelPath, ref MemoryMarshal.GetReference(squared ? residual : prepared), ref first, n, ref distances);
+                        break;
+                }
+
+                for (int j = 0; j < n; j++)
+                {
+                    float distance = TFinish.Apply(offset + Unsafe.Add(ref distances, j));
+                    if (distance <= bound)
+                    {
+                        long id = _ids[slots[start + j]];
+                        if (filter is null || filter(id))
+                        {
+                            TopK.Offer(heap, ref count, distance, id);
+                            bound = TopK.Bound(heap, count);
+                        }
+                    }
+                }
+            }
+        }
+
+        return count;
+    }
+
+    private static SearchScratch RentScratch()
+    {
+        SearchScratch? scratch = t_scratch;
+        if (scratch is null || scratch.InUse)
+        {
+            // A filter that searches another inverted-file index on this thread gets scratch of its own.
+            scratch = new SearchScratch();
+            t_scratch ??= scratch;
+        }
+
+        scratch.InUse = true;
+        return scratch;
+    }
+
+    private static void ReturnScratch(SearchScratch scratch) => scratch.InUse = false;
+
+    /// <summary>Turns a kernel's raw sum into the metric's distance.</summary>
+    private interface IFinish
+    {
+        static abstract float Apply(float raw);
+    }
+
+    private readonly struct KeepFinish : IFinish
+    {
+        [MethodImpl(MethodImplOptions.AggressiveInlining)]
+        public static float Apply(float raw) => raw;
+    }
+
+    private readonly struct NegateFinish : IFinish
+    {
+        [MethodImpl(MethodImplOptions.AggressiveInlining)]
+        public static float Apply(float raw) => -raw;
+    }
+
+    private readonly struct OneMinusFinish : IFinish
+    {
+        [MethodImpl(MethodImplOptions.AggressiveInlining)]
+        public static float Apply(float raw) => 1f - raw;
+    }
+
+    /// <summary>One thread's search buffers, grown on demand and reused, so a search allocates nothing in steady state.</summary>
+    private sealed class SearchScratch
+    {
+        private float[] _unit = [];
+        private float[] _centroidDistances = [];
+        private SearchHit[] _probes = [];
+        private SearchHit[] _candidates = [];
+        private float[] _block = [];
+        private float[] _table = [];
+        private float[] _prepared = [];
+        private float[] _residual = [];
+
+        public bool InUse { get; set; }
+
+        public Span<float> Unit(int length) => Grow(ref _unit, length);
+
+        public Span<float> CentroidDistances(int length) => Grow(ref _centroidDistances, length);
+
+        public Span<SearchHit> Probes(int length) => Grow(ref _probes, length);
+
+        public Span<SearchHit> Candidates(int length) => Grow(ref _candidates, length);
+
+        public Span<float> Block(int length) => Grow(ref _block, length);
+
+        public Span<float> Table(int length) => Grow(ref _table, length);
+
+        public Span<float> Prepared(int length) => Grow(ref _prepared, length);
+
+        public Span<float> Residual(int length) => Grow(ref _residual, length);
+
+        private static Span<T> Grow<T>(ref T[] array, int length)
+        {
+            if (array.Length < length)
+            {
+                array = new T[length];
+            }
+
+            return array.AsSpan(0, length);
+        }
+    }
+}

@@ -1,0 +1,716 @@
+using System.Runtime.InteropServices;
+using VectorKit.Clustering;
+using VectorKit.Distance;
+using VectorKit.Distance.Kernels;
+using VectorKit.Quantization;
+
+namespace VectorKit.Indexes.InvertedFile;
+
+/// <summary>
+/// An inverted-file index: k-means splits the space into <see cref="InvertedFileOptions.ListCount"/> cells, each
+/// vector is stored in the list of its nearest centroid, and a search scans only the lists of the query's nearest
+/// centroids. Lists hold float32 vectors, product-quantization codes or 8-bit scalar codes
+/// (<see cref="InvertedFileOptions.Storage"/>), optionally with the full vectors kept for exact re-scoring.
+/// </summary>
+/// <remarks>
+/// <para><b>Training first.</b> <see cref="Train"/> learns the centroids (and the residual quantizer) from a sample;
+/// adding or searching before that throws <see cref="IndexNotTrainedException"/>. Vectors are assigned to lists by
+/// squared Euclidean distance under every metric (under cosine they are unit vectors, where that ranks like the
+/// cosine), and a query probes the lists of its nearest centroids by the same distance.</para>
+/// <para><b>Storage.</b> Each list keeps its codes in one contiguous array (a list's vectors are scanned front to
+/// back) and a parallel array of slot numbers; per slot the index keeps the id, list and position in flat arrays, and
+/// the full vectors (when kept) in one native block. Compressed codes encode the residual <c>x − centroid</c>.
+/// Removing a vector moves the last entry of its list into its place, so lists never hold holes.</para>
+/// <para><b>Distances.</b> Float32 lists report exact distances (the same numbers as <see cref="Exact.ExactIndex"/>).
+/// Compressed lists report the distance to the code's reconstruction, unless re-scoring is on, in which case the
+/// returned hits carry exact distances computed on the full vectors. A filter is checked during the scan of the probed
+/// lists, so fewer than k results come back when the probed lists hold fewer than k passing items.</para>
+/// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds
+/// and removes wait for running searches and block new ones. A batch search holds the index for its duration.</para>
+/// <para>Persistence is not implemented for this index yet; all state is in flat arrays ready to be written as raw
+/// sections.</para>
+/// </remarks>
+public sealed partial class InvertedFileIndex : IVectorIndex
+{
+    // Bulk adds work in chunks so the temporary copies stay small next to the index.
+    private const int AddChunk = 65_536;
+
+    private readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
+    private readonly InvertedFileOptions _options;
+    private readonly KernelPath _kernelPath;
+    private readonly Dictionary<long, int> _slotOf = new();
+    private readonly int _codeBytes;
+
+    // Trained state: centroids (ListCount × Dimension), and the residual quantizer under compressed storage.
+    private float[] _centroids = [];
+    private ProductQuantizer? _product;
+    private ScalarQuantizer? _scalar;
+    private bool _trained;
+
+    // Lists: codes (capacity × code bytes), the slot of each entry, and the entries in use.
+    private readonly byte[][] _listCodes;
+    private readonly int[][] _listSlots;
+    private readonly int[] _listCounts;
+
+    // Per slot (dense, 0.._count): id, list, position in the list; and the full vector when kept.
+    private long[] _ids = [];
+    private int[] _listOf = [];
+    private int[] _positionOf = [];
+    private readonly VectorBuffer? _full;
+    private int _count;
+    private bool _disposed;
+
+    /// <summary>Creates an empty, untrained inverted-file index.</summary>
+    /// <param name="dimension">Components per vector, at least 1.</param>
+    /// <param name="metric">The distance metric.</param>
+    /// <param name="options">Lists, probes, storage, re-scoring, training; <see langword="null"/> for <see cref="InvertedFileOptions.Default"/>.</param>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
+    /// <exception cref="ArgumentException">Under product codes, <see cref="InvertedFileOptions.ProductCodeBytes"/> does not divide the dimension (the message lists the divisors).</exception>
+    public InvertedFileIndex(int dimension, DistanceMetric metric, InvertedFileOptions? options = null)
+        : this(dimension, metric, options, KernelDispatch.Widest)
+    {
+    }
+
+    /// <summary>Creates an index whose kernels run no wider than <paramref name="kernelPath"/> (tests sweep every path).</summary>
+    internal InvertedFileIndex(int dimension, DistanceMetric metric, InvertedFileOptions? options, KernelPath kernelPath)
+    {
+        if (dimension <= 0)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(nameof(dimension), dimension, "must be positive");
+        }
+
+        VectorChecks.CheckMetric(metric);
+        options ??= InvertedFileOptions.Default;
+        if (options.Storage == ListStorage.ProductCodes)
+        {
+            ProductQuantizer.CheckCodeBytes(options.ProductCodeBytes, dimension, nameof(options));
+        }
+
+        Dimension = dimension;
+        Metric = metric;
+        _options = options;
+        _kernelPath = kernelPath;
+        _codeBytes = options.Storage switch
+        {
+            ListStorage.Float32 => checked(dimension * sizeof(float)),
+            ListStorage.ProductCodes => options.ProductCodeBytes,
+            _ => ScalarQuantizer.PaddedLength(dimension),
+        };
+        int lists = options.ListCount;
+        _listCodes = new byte[lists][];
+        _listSlots = new int[lists][];
+        _listCounts = new int[lists];
+        Array.Fill(_listCodes, []);
+        Array.Fill(_listSlots, []);
+        if (options.Storage != ListStorage.Float32 && options.RescoreDepth > 0)
+        {
+            _full = new VectorBuffer(dimension, 0);
+        }
+    }
+
+    /// <inheritdoc/>
+    public int Dimension { get; }
+
+    /// <inheritdoc/>
+    public DistanceMetric Metric { get; }
+
+    /// <summary>The options the index was created with.</summary>
+    public InvertedFileOptions Options => _options;
+
+    /// <summary>Whether <see cref="Train"/> has run; adds and searches need it.</summary>
+    public bool IsTrained => Volatile.Read(ref _trained);
+
+    /// <summary>Whether the full float32 vectors are kept for exact re-scoring (compressed storage with a positive <see cref="InvertedFileOptions.RescoreDepth"/>).</summary>
+    public bool KeepsFullVectors => _full is not null;
+
+    /// <summary>
+    /// Bytes a search reads per stored vector in the lists: 4 × dimension for float32, the code size for product
+    /// codes, the dimension rounded up to 16 for 8-bit codes. Full vectors kept for re-scoring are not counted here
+    /// (they are read only for the few candidates re-scored); <see cref="MemoryBytes"/> counts them.
+    /// </summary>
+    public int CodeBytesPerVector => _codeBytes;
+
+    /// <inheritdoc/>
+    public int Count => Volatile.Read(ref _count);
+
+    /// <inheritdoc/>
+    /// <remarks>List codes and slot numbers at their reserved capacity, per-slot id, list and position, the full vectors
+    /// when kept, the centroids and codebooks, and the id lookup's entries (about 28 bytes each).</remarks>
+    public long MemoryBytes
+    {
+        get
+        {
+            _lock.EnterReadLock();
+            try
+            {
+                long bytes = (long)_centroids.Length * sizeof(float);
+                for (int l = 0; l < _listCodes.Length; l++)
+                {
+                    bytes += _listCodes[l].Length + ((long)_listSlots[l].Length * sizeof(int));
+                }
+
+                bytes += (long)_ids.Length * (sizeof(long) + sizeof(int) + sizeof(int));
+                bytes += _full?.Bytes ?? 0;
+                bytes += _product is null ? 0 : 2L * _product.Codewords.Length * sizeof(float);
+                bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
+                bytes += (long)_slotOf.EnsureCapacity(0) * 28;
+                return bytes;
+            }
+            finally
+            {
+                _lock.ExitReadLock();
+            }
+        }
+    }
+
+    /// <summary>Bytes the lists' codes occupy for the stored vectors: <see cref="Count"/> × <see cref="CodeBytesPerVector"/>.</summary>
+    public long CodeBytes => (long)Count * _codeBytes;
+
+    /// <summary>The list centroids, row after row (empty until trained).</summary>
+    public ReadOnlySpan<float> Centroids => _centroids;
+
+    /// <summary>
+    /// Learns the list centroids by k-means on <paramref name="sample"/> (at most <see cref="InvertedFileOptions.TrainingSampleSize"/>
+    /// rows of it), and under compressed storage the quantizer of the residuals from them.
+    /// </summary>
+    /// <param name="sample">Training rows, row after row: at least <see cref="InvertedFileOptions.ListCount"/> rows (and 256 under product codes) of finite components. They are not added to the index.</param>
+    /// <param name="progress">Optional; receives the stage and the work done.</param>
+    /// <param name="cancellationToken">Stops training between steps; a cancelled training leaves the index as it was.</param>
+    /// <exception cref="ArgumentException">The sample is not a multiple of the dimension, has too few rows (the message names the minimum), a non-finite component, or a zero row under cosine.</exception>
+    /// <exception cref="InvalidOperationException">The index already holds vectors; their codes depend on the current training.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
+    {
+        int d = Dimension;
+        if (sample.Length % d != 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(sample), $"sample has {sample.Length} components, not a multiple of the index dimension {d}.");
+        }
+
+        int n = sample.Length / d;
+        int lists = _options.ListCount;
+        int minimum = _options.Storage == ListStorage.ProductCodes ? Math.Max(lists, ProductQuantizer.CodewordsPerSubspace) : lists;
+        if (n < minimum)
+        {
+            string why = minimum == lists ? $"an inverted file with {lists} lists" : $"product codes (256 codewords per sub-space) with {lists} lists";
+            ThrowHelper.ThrowArgument(nameof(sample), $"sample has {n} rows; {why} needs at least {minimum} training rows.");
+        }
+
+        VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
+        float[]? normalised = null;
+        if (Metric == DistanceMetric.Cosine)
+        {
+            normalised = new float[sample.Length];
+            for (int r = 0; r < n; r++)
+            {
+                VectorChecks.Normalize(sample.Slice(r * d, d), normalised.AsSpan(r * d, d), $"{nameof(sample)} row {r}");
+            }
+
+            sample = normalised;
+        }
+
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            if (_count > 0)
+            {
+                throw new InvalidOperationException($"The index holds {_count} vectors, whose codes depend on the current training; train before adding, or build a new index.");
+            }
+
+            var kmeansOptions = new KMeansOptions
+            {
+                ClusterCount = lists,
+                MaxIterations = _options.TrainingIterations,
+                SampleSize = _options.EffectiveTrainingSampleSize,
+                Seed = _options.Seed,
+                MaxDegreeOfParallelism = _options.EffectiveParallelism,
+            };
+            IProgress<KMeansProgress>? forward = progress is null ? null : new KMeansForward(progress);
+            KMeansResult coarse = KMeans.Train(sample, d, kmeansOptions, forward, cancellationToken, _kernelPath);
+            ProductQuantizer? product = null;
+            ScalarQuantizer? scalar = null;
+            if (_options.Storage != ListStorage.Float32)
+            {
+                float[] residuals = Residuals(sample, coarse, _options.Seed, cancellationToken);
+                if (_options.Storage == ListStorage.ProductCodes)
+                {
+                    var productOptions = new ProductQuantizerOptions
+                    {
+                        CodeBytes = _options.ProductCodeBytes,
+                        MaxIterations = _options.TrainingIterations,
+                        Seed = _options.Seed,
+                        MaxDegreeOfParallelism = _options.EffectiveParallelism,
+                    };
+                    IProgress<int>? subspaces = progress is null ? null : new SubspaceForward(progress, _options.ProductCodeBytes);
+                    product = ProductQuantizer.Train(residuals, d, productOptions, subspaces, cancellationToken);
+                }
+                else
+                {
+                    scalar = ScalarQuantizer.Train(residuals, d);
+                    progress?.Report(new IndexTrainingProgress(IndexTrainingStage.TrainingQuantizer, 1, 1));
+                }
+            }
+
+            _centroids = coarse.CentroidArray;
+            _product = product;
+            _scalar = scalar;
+            Volatile.Write(ref _trained, true);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    /// <inheritdoc/>
+    public bool Contains(long id)
+    {
+        _lock.EnterReadLock();
+        try
+        {
+            ThrowIfDisposed();
+            return _slotOf.ContainsKey(id);
+        }
+        finally
+        {
+            _lock.ExitReadLock();
+        }
+    }
+
+    /// <inheritdoc/>
+    /// <remarks>Under compressed storage without full vectors, this is the reconstruction (centroid + decoded residual), not the vector added.</remarks>
+    public bool TryGetVector(long id, Span<float> destination)
+    {
+        if (destination.Length < Dimension)
+        {
+            ThrowHelper.ThrowArgument(nameof(destination), $"destination has {destination.Length} elements; the index dimension is {Dimension}.");
+        }
+
+        _lock.EnterReadLock();
+        try
+        {
+            ThrowIfDisposed();
+            if (!_slotOf.TryGetValue(id, out int slot))
+            {
+                return false;
+            }
+
+            int d = Dimension;
+            int list = _listOf[slot];
+            ReadOnlySpan<byte> code = _listCodes[list].AsSpan(_positionOf[slot] * _codeBytes, _codeBytes);
+            if (_options.Storage == ListStorage.Float32)
+            {
+                MemoryMarshal.Cast<byte, float>(code).CopyTo(destination);
+            }
+            else if (_full is not null)
+            {
+                _full.RowSpan(slot).CopyTo(destination);
+            }
+            else
+            {
+                if (_product is not null)
+                {
+                    _product.Decode(code, destination);
+                }
+                else
+                {
+                    _scalar!.Decode(code, destination);
+                }
+
+                ReadOnlySpan<float> centroid = _centroids.AsSpan(list * d, d);
+                for (int j = 0; j < d; j++)
+                {
+                    destination[j] += centroid[j];
+                }
+            }
+
+            return true;
+        }
+        finally
+        {
+            _lock.ExitReadLock();
+        }
+    }
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
+    public void Add(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        AddValidated([id], vector, nameof(id));
+    }
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
+    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors)
+    {
+        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
+        AddValidated(ids, vectors, nameof(ids));
+    }
+
+    /// <inheritdoc/>
+    public void Remove(long id)
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            if (!_slotOf.Remove(id, out int slot))
+            {
+                ThrowHelper.ThrowIdNotFound(id);
+            }
+
+            // Close the hole in the list with the list's last entry.
+            int list = _listOf[slot];
+            int position = _positionOf[slot];
+            int lastPosition = _listCounts[list] - 1;
+            if (position != lastPosition)
+            {
+                int moved = _listSlots[list][lastPosition];
+                _listCodes[list].AsSpan(lastPosition * _codeBytes, _codeBytes).CopyTo(_listCodes[list].AsSpan(position * _codeBytes, _codeBytes));
+                _listSlots[list][position] = moved;
+                _positionOf[moved] = position;
+            }
+
+            _listCounts[list] = lastPosition;
+
+            // Close the hole in the slots with the last slot, so the per-slot arrays stay dense.
+            int lastSlot = _count - 1;
+            if (slot != lastSlot)
+            {
+                long movedId = _ids[lastSlot];
+                _ids[slot] = movedId;
+                _listOf[slot] = _listOf[lastSlot];
+                _positionOf[slot] = _positionOf[lastSlot];
+                _listSlots[_listOf[slot]][_positionOf[slot]] = slot;
+                _full?.CopyRow(lastSlot, slot);
+                _slotOf[movedId] = slot;
+            }
+
+            Volatile.Write(ref _count, lastSlot);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    /// <summary>Releases the storage reserved beyond the vectors held (list growth slack, slot arrays, id lookup).</summary>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    public void TrimExcess()
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            for (int list = 0; list < _listCounts.Length; list++)
+            {
+                Array.Resize(ref _listSlots[list], _listCounts[list]);
+                Array.Resize(ref _listCodes[list], _listCounts[list] * _codeBytes);
+            }
+
+            Array.Resize(ref _ids, _count);
+            Array.Resize(ref _listOf, _count);
+            Array.Resize(ref _positionOf, _count);
+            _full?.Resize(_count);
+            _slotOf.TrimExcess();
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    /// <summary>The number of vectors in each list (for diagnostics and tests).</summary>
+    /// <returns>A new array of <see cref="InvertedFileOptions.ListCount"/> counts.</returns>
+    public int[] ListLengths()
+    {
+        _lock.EnterReadLock();
+        try
+        {
+            return (int[])_listCounts.Clone();
+        }
+        finally
+        {
+            _lock.ExitReadLock();
+        }
+    }
+
+    /// <summary>Frees the storage. Further calls throw <see cref="ObjectDisposedException"/>.</summary>
+    public void Dispose()
+    {
+        _lock.EnterWriteLock();
+        try
+        {
+            if (_disposed)
+            {
+                return;
+            }
+
+            _disposed = true;
+            _full?.Dispose();
+            _slotOf.Clear();
+            for (int l = 0; l < _listCodes.Length; l++)
+            {
+                _listCodes[l] = [];
+                _listSlots[l] = [];
+                _listCounts[l] = 0;
+            }
+
+            _count = 0;
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    private unsafe void AddValidated(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, string idsName)
+    {
+        int d = Dimension;
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            ThrowIfNotTrained();
+            foreach (long id in ids)
+            {
+                if (_slotOf.ContainsKey(id))
+                {
+                    ThrowHelper.ThrowDuplicateId(idsName, id);
+                }
+            }
+
+            int total = ids.Length;
+            EnsureSlotCapacity(checked(_count + total));
+            _slotOf.EnsureCapacity(_count + total);
+
+            // Two passes over the batch in chunks (temporary copies stay small): assign every row to its list, grow
+            // each list once to its final size, then encode and append.
+            int chunkRows = Math.Min(AddChunk, Math.Max(1, total));
+            var rows = new float[chunkRows * d];
+            var labels = new int[total];
+            var distances = new float[chunkRows];
+            var codes = new byte[chunkRows * _codeBytes];
+            for (int start = 0; start < total; start += chunkRows)
+            {
+                int n = Math.Min(chunkRows, total - start);
+                Prepare(vectors.Slice(start * d, n * d), rows);
+                fixed (float* pointer = rows)
+                {
+                    NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances, _options.EffectiveParallelism, CancellationToken.None);
+                }
+            }
+
+            GrowLists(labels);
+            for (int start = 0; start < total; start += chunkRows)
+            {
+                int n = Math.Min(chunkRows, total - start);
+                Prepare(vectors.Slice(start * d, n * d), rows);
+                Encode(rows, labels.AsSpan(start, n), n, codes);
+                Append(ids.Slice(start, n), rows, labels.AsSpan(start, n), codes, n);
+            }
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    // The rows as stored: copied, or scaled to unit length under cosine.
+    private void Prepare(ReadOnlySpan<float> source, float[] rows)
+    {
+        int d = Dimension;
+        if (Metric == DistanceMetric.Cosine)
+        {
+            for (int r = 0; r < source.Length / d; r++)
+            {
+                VectorChecks.Normalize(source.Slice(r * d, d), rows.AsSpan(r * d, d), "vectors");
+            }
+        }
+        else
+        {
+            source.CopyTo(rows);
+        }
+    }
+
+    // Writes each row's list entry: the vector itself, or the code of its residual from its list's centroid.
+    private void Encode(float[] rows, ReadOnlySpan<int> labelSpan, int n, byte[] codes)
+    {
+        int d = Dimension;
+        int size = _codeBytes;
+        if (_options.Storage == ListStorage.Float32)
+        {
+            MemoryMarshal.AsBytes(rows.AsSpan(0, n * d)).CopyTo(codes);
+            return;
+        }
+
+        int[] labels = labelSpan.ToArray();
+        const int Block = 256;
+        int blocks = (n + Block - 1) / Block;
+        var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveParallelism };
+        int tableLength = _product?.TableLength ?? 0;
+        Parallel.For(0, blocks, parallel, () => new float[d + tableLength], (b, _, scratch) =>
+        {
+            Span<float> residual = scratch.AsSpan(0, d);
+            Span<float> table = scratch.AsSpan(d);
+            int end = Math.Min(n, (b + 1) * Block);
+            for (int r = b * Block; r < end; r++)
+            {
+                ReadOnlySpan<float> row = rows.AsSpan(r * d, d);
+                ReadOnlySpan<float> centroid = _centroids.AsSpan(labels[r] * d, d);
+                for (int j = 0; j < d; j++)
+                {
+                    residual[j] = row[j] - centroid[j];
+                }
+
+                Span<byte> code = codes.AsSpan(r * size, size);
+                if (_product is not null)
+                {
+                    _product.EncodeUnchecked(residual, code, table);
+                }
+                else
+                {
+                    _scalar!.EncodeUnchecked(residual, code);
+                }
+            }
+
+            return scratch;
+        }, static _ => { });
+    }
+
+    // Grows every list that the batch adds to, once: exactly to size when it was empty (a bulk load leaves no slack),
+    // else by half again or to size, whichever is larger.
+    private void GrowLists(ReadOnlySpan<int> labels)
+    {
+        var added = new int[_listCounts.Length];
+        foreach (int label in labels)
+        {
+            added[label]++;
+        }
+
+        for (int list = 0; list < added.Length; list++)
+        {
+            int required = _listCounts[list] + added[list];
+            int current = _listSlots[list].Length;
+            if (added[list] > 0 && current < required)
+            {
+                int capacity = current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
+                Array.Resize(ref _listSlots[list], capacity);
+                Array.Resize(ref _listCodes[list], checked(capacity * _codeBytes));
+            }
+        }
+    }
+
+    // Appends encoded rows to their lists (already grown) and to the slots.
+    private void Append(ReadOnlySpan<long> ids, float[] rows, ReadOnlySpan<int> labels, byte[] codes, int n)
+    {
+        int d = Dimension;
+        int size = _codeBytes;
+        for (int r = 0; r < n; r++)
+        {
+            int list = labels[r];
+            int position = _listCounts[list]++;
+            int slot = _count + r;
+            codes.AsSpan(r * size, size).CopyTo(_listCodes[list].AsSpan(position * size, size));
+            _listSlots[list][position] = slot;
+            _ids[slot] = ids[r];
+            _listOf[slot] = list;
+            _positionOf[slot] = position;
+            if (_full is not null)
+            {
+                rows.AsSpan(r * d, d).CopyTo(_full.RowSpan(slot));
+            }
+
+            _slotOf.Add(ids[r], slot);
+        }
+
+        Volatile.Write(ref _count, _count + n);
+    }
+
+    private void EnsureSlotCapacity(int required)
+    {
+        if (_ids.Length >= required)
+        {
+            return;
+        }
+
+        int capacity = (int)Math.Min(Array.MaxLength, Math.Max(required, _ids.Length + ((long)_ids.Length / 2)));
+        Array.Resize(ref _ids, capacity);
+        Array.Resize(ref _listOf, capacity);
+        Array.Resize(ref _positionOf, capacity);
+        if (_full is not null && _full.Capacity < capacity)
+        {
+            _full.Resize(capacity);
+        }
+    }
+
+    // Residuals of (a sample of) the training rows from their nearest centroids, for the residual quantizer.
+    private float[] Residuals(ReadOnlySpan<float> sample, KMeansResult coarse, int seed, CancellationToken cancellationToken)
+    {
+        int d = Dimension;
+        int n = sample.Length / d;
+        const int Cap = 65_536;
+        float[] rows;
+        if (n > Cap)
+        {
+            var random = new Random(seed ^ 0x5EED);
+            rows = new float[Cap * d];
+            for (int i = 0; i < Cap; i++)
+            {
+                // Rows drawn with replacement: enough for ranges and codebooks, and no n-sized index array.
+                sample.Slice(random.Next(n) * d, d).CopyTo(rows.AsSpan(i * d, d));
+            }
+
+            n = Cap;
+        }
+        else
+        {
+            rows = sample.ToArray();
+        }
+
+        var labels = new int[n];
+        coarse.Assign(rows, labels, cancellationToken);
+        for (int r = 0; r < n; r++)
+        {
+            Span<float> row = rows.AsSpan(r * d, d);
+            ReadOnlySpan<float> centroid = coarse.Centroid(labels[r]);
+            for (int j = 0; j < d; j++)
+            {
+                row[j] -= centroid[j];
+            }
+        }
+
+        return rows;
+    }
+
+    private void ThrowIfDisposed()
+    {
+        if (_disposed)
+        {
+            ThrowHelper.ThrowObjectDisposed(this);
+        }
+    }
+
+    private void ThrowIfNotTrained()
+    {
+        if (!_trained)
+        {
+            int minimum = _options.Storage == ListStorage.ProductCodes ? Math.Max(_options.ListCount, ProductQuantizer.CodewordsPerSubspace) : _options.ListCount;
+            throw new IndexNotTrainedException($"The inverted-file index is not trained: call Train with a sample of at least {minimum} vectors before adding or searching.");
+        }
+    }
+
+    private sealed class KMeansForward(IProgress<IndexTrainingProgress> target) : IProgress<KMeansProgress>
+    {
+        public void Report(KMeansProgress value)
+            => target.Report(new IndexTrainingProgress(value.Stage == KMeansStage.Seeding ? IndexTrainingStage.SeedingCentroids : IndexTrainingStage.RefiningCentroids, value.Done, value.Total));
+    }
+
+    private sealed class SubspaceForward(IProgress<IndexTrainingProgress> target, int total) : IProgress<int>
+    {
+        public void Report(int value) => target.Report(new IndexTrainingProgress(IndexTrainingStage.TrainingQuantizer, value, total));
+    }
+}

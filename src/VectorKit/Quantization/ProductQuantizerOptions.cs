@@ -1,0 +1,87 @@
+namespace VectorKit.Quantization;
+
+/// <summary>Options for training a <see cref="ProductQuantizer"/>.</summary>
+/// <remarks>Each property is checked when it is set; instances are immutable once built and may be shared.</remarks>
+public sealed class ProductQuantizerOptions
+{
+    private readonly int _codeBytes = 16;
+    private readonly int _maxIterations = 20;
+    private readonly int _sampleSize = 65_536;
+    private readonly int _maxDegreeOfParallelism = -1;
+
+    /// <summary>The defaults: 16-byte codes, 20 k-means iterations per sub-space, a sample of 65,536 rows, seed 42.</summary>
+    public static ProductQuantizerOptions Default { get; } = new();
+
+    /// <summary>
+    /// Bytes per code, which is also the number of sub-spaces: each sub-space of <c>dimension / CodeBytes</c>
+    /// components is quantized to one of 256 codewords (one byte). It must divide the dimension; 8 to 64 bytes is
+    /// the usual range. Default 16.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 4096].</exception>
+    public int CodeBytes
+    {
+        get => _codeBytes;
+        init
+        {
+            if (value < 1 || value > 4096)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(CodeBytes), value, "must be in [1, 4096]");
+            }
+
+            _codeBytes = value;
+        }
+    }
+
+    /// <summary>The most k-means iterations per sub-space codebook. Default 20.</summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is outside [0, 10000].</exception>
+    public int MaxIterations
+    {
+        get => _maxIterations;
+        init
+        {
+            if (value < 0 || value > 10_000)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxIterations), value, "must be in [0, 10000]");
+            }
+
+            _maxIterations = value;
+        }
+    }
+
+    /// <summary>The most training rows used (sampled uniformly when there are more). Default 65,536 (256 per codeword, common practice).</summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is below 256, the number of codewords.</exception>
+    public int SampleSize
+    {
+        get => _sampleSize;
+        init
+        {
+            if (value < ProductQuantizer.CodewordsPerSubspace)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(SampleSize), value, $"must be at least {ProductQuantizer.CodewordsPerSubspace}");
+            }
+
+            _sampleSize = value;
+        }
+    }
+
+    /// <summary>The seed of sampling and of each sub-space's k-means++ seeding. Default 42.</summary>
+    public int Seed { get; init; } = 42;
+
+    /// <summary>The most threads training and bulk encoding use (sub-spaces train in parallel); -1 (the default) means one per core.</summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
+    public int MaxDegreeOfParallelism
+    {
+        get => _maxDegreeOfParallelism;
+        init
+        {
+            if (value == 0 || value < -1)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
+            }
+
+            _maxDegreeOfParallelism = value;
+        }
+    }
+
+    internal int EffectiveParallelism => _maxDegreeOfParallelism == -1 ? Environment.ProcessorCount : _maxDegreeOfParallelism;
+}
