@@ -25,7 +25,7 @@ namespace VectorKit.Indexes.Exact;
 /// wait for running searches and block new ones until they finish, so a search sees the index entirely before or
 /// entirely after each write. A batch search holds the index for its whole duration.</para>
 /// </remarks>
-public sealed class ExactIndex : IVectorIndex
+public sealed partial class ExactIndex : IVectorIndex
 {
     // A batch works on this many queries at a time per thread, against row tiles of about TileBytes.
     private const int QueryBlock = 64;
