@@ -42,5 +42,9 @@ internal static class FileLayout
         BinaryPrimitives.WriteInt32LittleEndian(destination[12..], headerLength);
     }
 
+    /// <summary>The section's name alone (for <see cref="IndexFileException.Section"/>).</summary>
+    public static string SectionKey(uint id) => Enum.IsDefined(typeof(SectionId), id) ? ((SectionId)id).ToString() : $"section {id}";
+
+    /// <summary>The section's name and id, for messages.</summary>
     public static string SectionName(uint id) => Enum.IsDefined(typeof(SectionId), id) ? $"'{(SectionId)id}' (id {id})" : $"id {id}";
 }

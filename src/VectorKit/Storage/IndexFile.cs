@@ -264,7 +264,7 @@ public static class IndexFile
         }
         catch (OverflowException e)
         {
-            throw new IndexFileException($"Index file declares sizes that overflow (in {reader.SectionName}, near byte {reader.Position}).", reader.SectionName, reader.Position, e);
+            throw new IndexFileException($"Index file declares sizes that overflow (in {reader.SectionName}, near byte {reader.Position}).", reader.SectionKey, reader.Position, e);
         }
     }
 

@@ -15,7 +15,7 @@ internal sealed class IndexFileReader
     private const int BlockBytes = 1 << 20;
 
     // Arrays on a stream of unknown length start at this many bytes and double as data arrives.
-    private const int FirstGrowthBytes = 1 << 20;
+    private const int FirstGrowthBytes = 64 << 10;
 
     private readonly Stream _stream;
     private readonly CancellationToken _cancellationToken;
@@ -47,8 +47,11 @@ internal sealed class IndexFileReader
 
     public long Position => _position;
 
-    /// <summary>The name of the open section, for messages.</summary>
+    /// <summary>The name and id of the open section, for messages.</summary>
     public string SectionName => _inSection ? FileLayout.SectionName(_open.Id) : "header";
+
+    /// <summary>The name of the open section (or the last one read), for <see cref="IndexFileException.Section"/>.</summary>
+    public string SectionKey => _inSection || _nextSection > 0 ? FileLayout.SectionKey(_open.Id) : "header";
 
     public IndexHeader ReadHeader()
     {
@@ -58,15 +61,15 @@ internal sealed class IndexFileReader
         {
             throw new IndexFileException(
                 got < 8
-                    ? $"Not an index file: it has {got} bytes, fewer than the 8-byte magic number."
-                    : $"Not an index file: the first 8 bytes are {Convert.ToHexString(preamble[..8])}; an index file starts with {Convert.ToHexString(FileLayout.Magic)}.",
+                    ? $"Index file not recognised: it has {got} bytes, fewer than the 8-byte magic number."
+                    : $"Index file not recognised: the first 8 bytes are {Convert.ToHexString(preamble[..8])}; an index file starts with {Convert.ToHexString(FileLayout.Magic)}.",
                 "header",
                 0);
         }
 
         if (got < FileLayout.PreambleBytes)
         {
-            throw Truncated("header", 0, FileLayout.PreambleBytes, got);
+            throw Truncated("header", "header", 0, FileLayout.PreambleBytes, got);
         }
 
         uint version = BinaryPrimitives.ReadUInt32LittleEndian(preamble[8..]);
@@ -91,7 +94,7 @@ internal sealed class IndexFileReader
         CheckAvailable("header", 0, (long)FileLayout.PreambleBytes + headerLength + FileLayout.ChecksumBytes);
         byte[] head = new byte[FileLayout.PreambleBytes + headerLength + FileLayout.ChecksumBytes];
         preamble.CopyTo(head);
-        ReadExactly(head.AsSpan(FileLayout.PreambleBytes), "header");
+        ReadExactly(head.AsSpan(FileLayout.PreambleBytes), "header", "header");
         ulong stored = BinaryPrimitives.ReadUInt64LittleEndian(head.AsSpan(FileLayout.PreambleBytes + headerLength));
         ulong computed = XxHash3.HashToUInt64(head.AsSpan(0, FileLayout.PreambleBytes + headerLength));
         if (stored != computed)
@@ -150,7 +153,7 @@ internal sealed class IndexFileReader
         {
             _cancellationToken.ThrowIfCancellationRequested();
             Span<byte> block = destination[..Math.Min(destination.Length, BlockBytes)];
-            ReadExactly(block, SectionName);
+            ReadExactly(block, SectionName, SectionKey);
             _hash.Append(block);
             _sectionRead += block.Length;
             destination = destination[block.Length..];
@@ -223,7 +226,7 @@ internal sealed class IndexFileReader
             {
                 throw new IndexFileException(
                     $"Index file section {SectionName} holds a non-finite vector component ({block[bad]}) at row {start + (bad / d)}, component {bad % d}, byte {blockStart + ((long)bad * sizeof(float))}; stored vectors must be finite.",
-                    SectionName,
+                    SectionKey,
                     blockStart + ((long)bad * sizeof(float)));
             }
         }
@@ -238,14 +241,14 @@ internal sealed class IndexFileReader
         }
 
         Span<byte> checksum = stackalloc byte[FileLayout.ChecksumBytes];
-        ReadExactly(checksum, SectionName);
+        ReadExactly(checksum, SectionName, SectionKey);
         ulong stored = BinaryPrimitives.ReadUInt64LittleEndian(checksum);
         ulong computed = _hash.GetCurrentHashAsUInt64();
         if (stored != computed)
         {
             throw new IndexFileException(
                 $"Index file section {SectionName} is damaged: the checksum of its {_open.Length} payload bytes (from byte {_sectionStart}) is {computed:X16}, the stored one {stored:X16}.",
-                SectionName,
+                SectionKey,
                 _sectionStart);
         }
 
@@ -254,7 +257,7 @@ internal sealed class IndexFileReader
 
     /// <summary>A structural problem inside the open (or last) section, found after its bytes were read.</summary>
     public IndexFileException SectionProblem(string problem)
-        => new($"Index file section {SectionName} (payload from byte {_sectionStart}) is invalid: {problem}.", SectionName, _sectionStart);
+        => new($"Index file section {SectionName} (payload from byte {_sectionStart}) is invalid: {problem}.", SectionKey, _sectionStart);
 
     /// <summary>Checks that the open section's payload has exactly the size the index kind derives from the header.</summary>
     public void ExpectPayload(long bytes)
@@ -342,9 +345,10 @@ internal sealed class IndexFileReader
     {
         _nextSection++;
         string name = FileLayout.SectionName(entry.Id);
+        string key = FileLayout.SectionKey(entry.Id);
         long frameStart = _position;
         Span<byte> frame = stackalloc byte[FileLayout.SectionFrameBytes];
-        ReadExactly(frame, name);
+        ReadExactly(frame, name, key);
         uint id = BinaryPrimitives.ReadUInt32LittleEndian(frame);
         uint flags = BinaryPrimitives.ReadUInt32LittleEndian(frame[4..]);
         long length = BinaryPrimitives.ReadInt64LittleEndian(frame[8..]);
@@ -352,18 +356,18 @@ internal sealed class IndexFileReader
         {
             throw new IndexFileException(
                 $"Index file section frame at byte {frameStart} says id {id}, flags {flags}, length {length}; the header lists {name} with flags {entry.Flags}, length {entry.Length}.",
-                name,
+                key,
                 frameStart);
         }
 
         int padding = FileLayout.PaddingAfter(_position);
         Span<byte> zeros = stackalloc byte[FileLayout.PayloadAlignment];
-        ReadExactly(zeros[..padding], name);
+        ReadExactly(zeros[..padding], name, key);
         int nonZero = zeros[..padding].IndexOfAnyExcept((byte)0);
         if (nonZero >= 0)
         {
             throw new IndexFileException(
-                $"Index file section {name}: padding byte {_position - padding + nonZero} is {zeros[nonZero]:X2}; padding must be zero.", name, _position - padding + nonZero);
+                $"Index file section {name}: padding byte {_position - padding + nonZero} is {zeros[nonZero]:X2}; padding must be zero.", key, _position - padding + nonZero);
         }
 
         _open = entry;
@@ -386,17 +390,17 @@ internal sealed class IndexFileReader
     {
         if (LengthKnown && from + bytes > _available)
         {
-            throw Truncated(where, from, bytes, _available - from);
+            throw Truncated(where, where, from, bytes, _available - from);
         }
     }
 
-    private void ReadExactly(Span<byte> destination, string where)
+    private void ReadExactly(Span<byte> destination, string where, string key)
     {
         long start = _position;
         int got = ReadUpTo(destination);
         if (got < destination.Length)
         {
-            throw Truncated(where, start, destination.Length, got);
+            throw Truncated(where, key, start, destination.Length, got);
         }
     }
 
@@ -418,6 +422,6 @@ internal sealed class IndexFileReader
         return total;
     }
 
-    private static IndexFileException Truncated(string where, long offset, long needed, long got)
-        => new($"Index file is truncated in {where}: {needed} bytes were needed from byte {offset}, only {Math.Max(0, got)} remain.", where, offset);
+    private static IndexFileException Truncated(string where, string key, long offset, long needed, long got)
+        => new($"Index file is truncated in {where}: {needed} bytes were needed from byte {offset}, only {Math.Max(0, got)} remain.", key, offset);
 }
