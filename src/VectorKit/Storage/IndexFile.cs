@@ -214,6 +214,9 @@ public static class IndexFile
                 file.Flush(flushToDisk: true);
             }
 
+            // A token cancelled while the last block was written still wins: the target is not replaced.
+            cancellationToken.ThrowIfCancellationRequested();
+
             File.Move(temporary, target, overwrite: true);
         }
         catch

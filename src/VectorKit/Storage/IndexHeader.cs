@@ -138,12 +138,10 @@ internal sealed class IndexHeader
                 throw Malformed($"{bytes.Length - reader.Consumed} bytes follow the header map");
             }
         }
-        catch (IndexFileException)
+        catch (Exception e) when (e is not IndexFileException and not OutOfMemoryException)
         {
-            throw;
-        }
-        catch (Exception e) when (e is MessagePackSerializationException or EndOfStreamException or InsufficientExecutionStackException or OverflowException or InvalidOperationException)
-        {
+            // The decoder works on a bounded, checksummed buffer in memory: whatever it throws (MessagePack's own
+            // errors, end of data, depth limit, overflow, out-of-range lengths) means the header is malformed.
             throw new IndexFileException(
                 $"Index file header is malformed at key '{key}' (header byte {reader.Consumed}): {e.Message}", "header", FileLayout.PreambleBytes + reader.Consumed, e);
         }

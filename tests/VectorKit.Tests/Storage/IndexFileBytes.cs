@@ -25,7 +25,7 @@ internal static class IndexFileBytes
     public static int HeaderLength(byte[] file) => BinaryPrimitives.ReadInt32LittleEndian(file.AsSpan(12));
 
     /// <summary>The end of the header checksum, where the first section frame starts.</summary>
-    public static int HeaderEnd(byte[] file) => Preamble + HeaderLength(file) + 8;
+    public static int HeaderEnd(byte[] file) => (int)Math.Min(int.MaxValue, Preamble + (long)(uint)HeaderLength(file) + 8);
 
     public static IndexHeader Header(byte[] file) => IndexHeader.Decode(file.AsMemory(Preamble, HeaderLength(file)));
 
@@ -34,12 +34,12 @@ internal static class IndexFileBytes
     {
         var sections = new List<SectionSpan>();
         long at = HeaderEnd(file);
-        while (at + 16 <= file.Length)
+        while (at >= 0 && at + 16 <= file.Length)
         {
             uint id = BinaryPrimitives.ReadUInt32LittleEndian(file.AsSpan((int)at));
             long length = BinaryPrimitives.ReadInt64LittleEndian(file.AsSpan((int)at + 8));
             long payload = Align(at + 16);
-            if (length < 0 || payload + length + 8 > file.Length)
+            if (length < 0 || length > file.Length || payload + length + 8 > file.Length)
             {
                 break;
             }
