@@ -1,13 +1,14 @@
 using System.Globalization;
 using BenchmarkDotNet.Running;
 using VectorKit.Benchmarks.Indexes;
+using VectorKit.Benchmarks.Storage;
 
 namespace VectorKit.Benchmarks;
 
 /// <summary>
 /// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory]</c> and
-/// <c>clustered-sweep [count] [dimension]</c>.
+/// <c>clustered-sweep [count] [dimension]</c>; or the load-speed harness: <c>storage-load [exact count] [graph count] [dimension]</c>.
 /// </summary>
 public static class Program
 {
@@ -24,6 +25,15 @@ public static class Program
             int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
             int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
             GraphSweep.RunClustered(count, dimension);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "storage-load")
+        {
+            int exactCount = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
+            int graphCount = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 200_000;
+            int dimension = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 128;
+            StorageLoad.Run(exactCount, graphCount, dimension);
             return;
         }
 

@@ -1,5 +1,6 @@
 using System.Buffers.Binary;
 using System.IO.Hashing;
+using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Indexes;
 
@@ -144,11 +145,7 @@ internal sealed class IndexFileReader
     /// <summary>Reads payload bytes of the open section into <paramref name="destination"/>, hashing them block by block.</summary>
     public void Read(Span<byte> destination)
     {
-        if (_sectionRead + destination.Length > _open.Length)
-        {
-            throw SectionProblem($"reading {destination.Length} bytes would pass the section's end ({_open.Length} bytes)");
-        }
-
+        CheckRoom(destination.Length);
         while (!destination.IsEmpty)
         {
             _cancellationToken.ThrowIfCancellationRequested();
@@ -157,6 +154,54 @@ internal sealed class IndexFileReader
             _hash.Append(block);
             _sectionRead += block.Length;
             destination = destination[block.Length..];
+        }
+    }
+
+    /// <summary>
+    /// Reads <paramref name="length"/> payload bytes into pinned or native memory as a two-stage pipeline: while this
+    /// thread reads block i + 1 from the stream, a worker hashes block i and runs <paramref name="check"/> on it (with
+    /// the block's offset from <paramref name="destination"/>), so the checks cost little beyond the read itself.
+    /// Blocks are handed over in order, so the hash sees the bytes in file order.
+    /// </summary>
+    public unsafe void ReadPipelined(byte* destination, long length, Action<long, int>? check)
+    {
+        CheckRoom(length);
+        if (length <= 2L * BlockBytes)
+        {
+            Read(new Span<byte>(destination, (int)length));
+            check?.Invoke(0, (int)length);
+            return;
+        }
+
+        Task? pending = null;
+        try
+        {
+            for (long at = 0; at < length; at += BlockBytes)
+            {
+                _cancellationToken.ThrowIfCancellationRequested();
+                int n = (int)Math.Min(BlockBytes, length - at);
+                ReadExactly(new Span<byte>(destination + at, n), SectionName, SectionKey);
+                pending?.GetAwaiter().GetResult();
+                byte* block = destination + at;
+                long offset = at;
+                pending = Task.Run(() =>
+                {
+                    _hash.Append(new ReadOnlySpan<byte>(block, n));
+                    check?.Invoke(offset, n);
+                });
+                _sectionRead += n;
+            }
+
+            pending?.GetAwaiter().GetResult();
+            pending = null;
+        }
+        finally
+        {
+            // On failure, the worker must be done with the memory before the caller frees it.
+            if (pending is not null)
+            {
+                ((IAsyncResult)pending).AsyncWaitHandle.WaitOne();
+            }
         }
     }
 
@@ -175,7 +220,11 @@ internal sealed class IndexFileReader
         if (LengthKnown)
         {
             T[] all = GC.AllocateUninitializedArray<T>(count);
-            Read<T>(all);
+            fixed (T* pinned = all)
+            {
+                ReadPipelined((byte*)pinned, (long)count * sizeof(T), null);
+            }
+
             return all;
         }
 
@@ -200,15 +249,25 @@ internal sealed class IndexFileReader
     /// Reads <paramref name="rows"/> vectors of the open section straight into <paramref name="buffer"/>, block by block,
     /// and checks each block for non-finite components while it is in cache.
     /// </summary>
-    public void ReadRows(VectorBuffer buffer, int rows)
+    public unsafe void ReadRows(VectorBuffer buffer, int rows)
     {
         int d = buffer.Dimension;
-        ExpectPayload(checked((long)rows * d * sizeof(float)));
+        long bytes = checked((long)rows * d * sizeof(float));
+        ExpectPayload(bytes);
         if (LengthKnown)
         {
             buffer.Resize(rows);
+            if (rows > 0)
+            {
+                long payloadStart = _position;
+                byte* start = (byte*)Unsafe.AsPointer(ref buffer.Row(0));
+                ReadPipelined(start, bytes, (offset, length) => CheckFinite(new ReadOnlySpan<float>(start + offset, length / sizeof(float)), offset / sizeof(float), d, payloadStart + offset));
+            }
+
+            return;
         }
 
+        // Unknown length: grow with the data, block by block.
         int blockRows = Math.Max(1, BlockBytes / (d * sizeof(float)));
         for (int start = 0; start < rows; start += blockRows)
         {
@@ -221,14 +280,21 @@ internal sealed class IndexFileReader
             Span<float> block = MemoryMarshal.CreateSpan(ref buffer.Row(start), n * d);
             long blockStart = _position;
             Read(MemoryMarshal.AsBytes(block));
-            int bad = FiniteCheck.IndexOfNonFinite(block);
-            if (bad >= 0)
-            {
-                throw new IndexFileException(
-                    $"Index file section {SectionName} holds a non-finite vector component ({block[bad]}) at row {start + (bad / d)}, component {bad % d}, byte {blockStart + ((long)bad * sizeof(float))}; stored vectors must be finite.",
-                    SectionKey,
-                    blockStart + ((long)bad * sizeof(float)));
-            }
+            CheckFinite(block, (long)start * d, d, blockStart);
+        }
+    }
+
+    private void CheckFinite(ReadOnlySpan<float> block, long firstElement, int d, long fileOffset)
+    {
+        int bad = FiniteCheck.IndexOfNonFinite(block);
+        if (bad >= 0)
+        {
+            long element = firstElement + bad;
+            long offset = fileOffset + ((long)bad * sizeof(float));
+            throw new IndexFileException(
+                $"Index file section {FileLayout.SectionName(_open.Id)} holds a non-finite vector component ({block[bad].ToString(System.Globalization.CultureInfo.InvariantCulture)}) at row {element / d}, component {element % d}, byte {offset}; stored vectors must be finite.",
+                FileLayout.SectionKey(_open.Id),
+                offset);
         }
     }
 
@@ -258,6 +324,14 @@ internal sealed class IndexFileReader
     /// <summary>A structural problem inside the open (or last) section, found after its bytes were read.</summary>
     public IndexFileException SectionProblem(string problem)
         => new($"Index file section {SectionName} (payload from byte {_sectionStart}) is invalid: {problem}.", SectionKey, _sectionStart);
+
+    private void CheckRoom(long length)
+    {
+        if (_sectionRead + length > _open.Length)
+        {
+            throw SectionProblem($"reading {length} bytes would pass the section's end ({_open.Length} bytes)");
+        }
+    }
 
     /// <summary>Checks that the open section's payload has exactly the size the index kind derives from the header.</summary>
     public void ExpectPayload(long bytes)

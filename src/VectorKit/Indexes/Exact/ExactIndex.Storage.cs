@@ -52,8 +52,23 @@ public sealed partial class ExactIndex
     internal static ExactIndex FromParts(int dimension, DistanceMetric metric, long[] ids, VectorBuffer vectors, int count)
     {
         var index = new ExactIndex(dimension, metric, vectors, ids, count);
+        Task? norms = null;
         try
         {
+            // The norms (a pass over the vectors) and the id lookup (hashing the ids) are independent: on two cores
+            // they overlap.
+            if (metric != DistanceMetric.Cosine && count > 0)
+            {
+                norms = Task.Run(() =>
+                {
+                    for (int slot = 0; slot < count; slot++)
+                    {
+                        Span<float> row = vectors.RowSpan(slot);
+                        index._squaredNorms[slot] = PairKernel.Sum<DotStep>(index._kernelPath, row, row);
+                    }
+                });
+            }
+
             index._slotOf.EnsureCapacity(count);
             for (int slot = 0; slot < count; slot++)
             {
@@ -63,19 +78,18 @@ public sealed partial class ExactIndex
                 }
             }
 
-            if (metric != DistanceMetric.Cosine)
-            {
-                for (int slot = 0; slot < count; slot++)
-                {
-                    Span<float> row = vectors.RowSpan(slot);
-                    index._squaredNorms[slot] = PairKernel.Sum<DotStep>(index._kernelPath, row, row);
-                }
-            }
-
+            norms?.GetAwaiter().GetResult();
+            norms = null;
             return index;
         }
         catch
         {
+            // The norms task reads the vectors: it must finish before they are freed.
+            if (norms is not null)
+            {
+                ((IAsyncResult)norms).AsyncWaitHandle.WaitOne();
+            }
+
             index.Dispose();
             throw;
         }
