@@ -282,6 +282,26 @@ public class IndexFileDamageTests
         Assert.NotNull(header);
     }
 
+    [Fact]
+    public void UnknownSkippableSections_AreSkipped_UnknownRequiredOnesRejected()
+    {
+        byte[] file = Sample("exact");
+        IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
+        List<byte[]> payloads = IndexFileBytes.Payloads(file);
+        byte[] extra = [1, 2, 3, 4, 5];
+        header.Sections.Insert(1, new SectionEntry(99, 1, extra.Length));
+        payloads.Insert(1, extra);
+        header.Sections.Add(new SectionEntry(98, 1, extra.Length));
+        payloads.Add(extra);
+        using (var loaded = IndexFileBytes.Load(IndexFileBytes.Compose(header, payloads)))
+        {
+            Assert.Equal(12, loaded.Count);
+        }
+
+        header.Sections[1] = new SectionEntry(99, 0, extra.Length);
+        Assert.Contains("section 1 is id 99; this index kind expects 'Vectors' (id 2) there", Rejection.Assert(IndexFileBytes.Compose(header, payloads)).Message, StringComparison.Ordinal);
+    }
+
     internal static byte[] Sample(string name)
     {
         using IVectorIndex index = name switch
