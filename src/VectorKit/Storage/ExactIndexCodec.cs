@@ -44,9 +44,12 @@ internal sealed class ExactIndexCodec : IndexCodec
         reader.CloseSection();
         reader.OpenSection(SectionId.Vectors);
         var vectors = new VectorBuffer(header.Dimension, 0);
+
+        // Norms are derived block by block while the rows are still in cache, instead of in a second pass.
+        float[]? norms = ExactIndex.KeepsSquaredNorms(header.Metric) ? GC.AllocateUninitializedArray<float>(n) : null;
         try
         {
-            reader.ReadRows(vectors, n);
+            reader.ReadRows(vectors, n, norms is null ? null : (first, count) => ExactIndex.ComputeSquaredNorms(vectors, first, count, norms));
             reader.CloseSection();
         }
         catch
@@ -57,7 +60,7 @@ internal sealed class ExactIndexCodec : IndexCodec
 
         try
         {
-            return ExactIndex.FromParts(header.Dimension, header.Metric, ids, vectors, n);
+            return ExactIndex.FromParts(header.Dimension, header.Metric, ids, vectors, n, norms);
         }
         catch (InvalidDataException e)
         {

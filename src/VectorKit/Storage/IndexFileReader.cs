@@ -163,10 +163,10 @@ internal sealed class IndexFileReader
     /// the block's offset from <paramref name="destination"/>), so the checks cost little beyond the read itself.
     /// Blocks are handed over in order, so the hash sees the bytes in file order.
     /// </summary>
-    public unsafe void ReadPipelined(byte* destination, long length, Action<long, int>? check)
+    public unsafe void ReadPipelined(byte* destination, long length, Action<long, int>? check, int blockBytes = BlockBytes)
     {
         CheckRoom(length);
-        if (length <= 2L * BlockBytes)
+        if (length <= 2L * blockBytes)
         {
             Read(new Span<byte>(destination, (int)length));
             check?.Invoke(0, (int)length);
@@ -176,10 +176,10 @@ internal sealed class IndexFileReader
         Task? pending = null;
         try
         {
-            for (long at = 0; at < length; at += BlockBytes)
+            for (long at = 0; at < length; at += blockBytes)
             {
                 _cancellationToken.ThrowIfCancellationRequested();
-                int n = (int)Math.Min(BlockBytes, length - at);
+                int n = (int)Math.Min(blockBytes, length - at);
                 ReadExactly(new Span<byte>(destination + at, n), SectionName, SectionKey);
                 pending?.GetAwaiter().GetResult();
                 byte* block = destination + at;
@@ -246,14 +246,18 @@ internal sealed class IndexFileReader
     }
 
     /// <summary>
-    /// Reads <paramref name="rows"/> vectors of the open section straight into <paramref name="buffer"/>, block by block,
-    /// and checks each block for non-finite components while it is in cache.
+    /// Reads <paramref name="rows"/> vectors of the open section straight into <paramref name="buffer"/>, in blocks of
+    /// whole rows, and checks each block for non-finite components while it is in cache; then hands the block's rows
+    /// to <paramref name="onRows"/> (first row, row count), still in cache, for derived values such as norms. With a
+    /// known length, checks and <paramref name="onRows"/> run on a worker while the next block is read.
     /// </summary>
-    public unsafe void ReadRows(VectorBuffer buffer, int rows)
+    public unsafe void ReadRows(VectorBuffer buffer, int rows, Action<int, int>? onRows = null)
     {
         int d = buffer.Dimension;
-        long bytes = checked((long)rows * d * sizeof(float));
+        int rowBytes = d * sizeof(float);
+        long bytes = checked((long)rows * rowBytes);
         ExpectPayload(bytes);
+        int blockRows = Math.Max(1, BlockBytes / rowBytes);
         if (LengthKnown)
         {
             buffer.Resize(rows);
@@ -261,14 +265,21 @@ internal sealed class IndexFileReader
             {
                 long payloadStart = _position;
                 byte* start = (byte*)Unsafe.AsPointer(ref buffer.Row(0));
-                ReadPipelined(start, bytes, (offset, length) => CheckFinite(new ReadOnlySpan<float>(start + offset, length / sizeof(float)), offset / sizeof(float), d, payloadStart + offset));
+                ReadPipelined(
+                    start,
+                    bytes,
+                    (offset, length) =>
+                    {
+                        CheckFinite(new ReadOnlySpan<float>(start + offset, length / sizeof(float)), offset / sizeof(float), d, payloadStart + offset);
+                        onRows?.Invoke((int)(offset / rowBytes), length / rowBytes);
+                    },
+                    blockRows * rowBytes);
             }
 
             return;
         }
 
         // Unknown length: grow with the data, block by block.
-        int blockRows = Math.Max(1, BlockBytes / (d * sizeof(float)));
         for (int start = 0; start < rows; start += blockRows)
         {
             int n = Math.Min(blockRows, rows - start);
@@ -281,6 +292,7 @@ internal sealed class IndexFileReader
             long blockStart = _position;
             Read(MemoryMarshal.AsBytes(block));
             CheckFinite(block, (long)start * d, d, blockStart);
+            onRows?.Invoke(start, n);
         }
     }
 

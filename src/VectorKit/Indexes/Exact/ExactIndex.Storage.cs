@@ -9,7 +9,7 @@ namespace VectorKit.Indexes.Exact;
 /// </summary>
 public sealed partial class ExactIndex
 {
-    private ExactIndex(int dimension, DistanceMetric metric, VectorBuffer vectors, long[] ids, int count)
+    private ExactIndex(int dimension, DistanceMetric metric, VectorBuffer vectors, long[] ids, int count, float[]? squaredNorms)
     {
         Dimension = dimension;
         Metric = metric;
@@ -17,7 +17,23 @@ public sealed partial class ExactIndex
         _vectors = vectors;
         _ids = ids;
         _count = count;
-        _squaredNorms = metric == DistanceMetric.Cosine ? [] : new float[ids.Length];
+        _squaredNorms = metric == DistanceMetric.Cosine ? [] : squaredNorms ?? new float[ids.Length];
+    }
+
+    /// <summary>Whether the index keeps a squared norm per row (every metric but cosine, whose rows are unit length).</summary>
+    internal static bool KeepsSquaredNorms(DistanceMetric metric) => metric != DistanceMetric.Cosine;
+
+    /// <summary>
+    /// The squared norms of rows [<paramref name="first"/>, first + <paramref name="count"/>), exactly as an add
+    /// computes them, so a loader can derive them block by block while the rows are in cache.
+    /// </summary>
+    internal static void ComputeSquaredNorms(VectorBuffer vectors, int first, int count, Span<float> destination)
+    {
+        for (int i = 0; i < count; i++)
+        {
+            Span<float> row = vectors.RowSpan(first + i);
+            destination[first + i] = PairKernel.Sum<DotStep>(KernelDispatch.Widest, row, row);
+        }
     }
 
     /// <summary>
@@ -48,25 +64,22 @@ public sealed partial class ExactIndex
     /// <param name="ids">At least <paramref name="count"/> ids, row order.</param>
     /// <param name="vectors">At least <paramref name="count"/> finite rows.</param>
     /// <param name="count">The number of rows.</param>
+    /// <param name="squaredNorms">
+    /// The rows' squared norms from <see cref="ComputeSquaredNorms"/> (at least <paramref name="count"/>), or
+    /// <see langword="null"/> to compute them here; ignored under cosine.
+    /// </param>
     /// <exception cref="InvalidDataException">An id repeats.</exception>
-    internal static ExactIndex FromParts(int dimension, DistanceMetric metric, long[] ids, VectorBuffer vectors, int count)
+    internal static ExactIndex FromParts(int dimension, DistanceMetric metric, long[] ids, VectorBuffer vectors, int count, float[]? squaredNorms = null)
     {
-        var index = new ExactIndex(dimension, metric, vectors, ids, count);
+        var index = new ExactIndex(dimension, metric, vectors, ids, count, squaredNorms);
         Task? norms = null;
         try
         {
             // The norms (a pass over the vectors) and the id lookup (hashing the ids) are independent: on two cores
             // they overlap.
-            if (metric != DistanceMetric.Cosine && count > 0)
+            if (KeepsSquaredNorms(metric) && squaredNorms is null && count > 0)
             {
-                norms = Task.Run(() =>
-                {
-                    for (int slot = 0; slot < count; slot++)
-                    {
-                        Span<float> row = vectors.RowSpan(slot);
-                        index._squaredNorms[slot] = PairKernel.Sum<DotStep>(index._kernelPath, row, row);
-                    }
-                });
+                norms = Task.Run(() => ComputeSquaredNorms(vectors, 0, count, index._squaredNorms));
             }
 
             index._slotOf.EnsureCapacity(count);
