@@ -89,7 +89,10 @@ internal sealed class GraphIndexCodec : IndexCodec
             DefaultSearchWidth = (int)header.Integer(DefaultSearchWidth, 1, 100_000),
             Seed = (int)header.Integer(Seed, int.MinValue, int.MaxValue),
             BuildParallelism = parallelism == 0 ? -1 : parallelism,
-            FilteredExactScanFraction = header.Real(FilteredExactScanFraction, 0, 1),
+            // Optional: absent means the options' default (a writer omits it when the option is left at its default).
+            FilteredExactScanFraction = header.Reals.ContainsKey(FilteredExactScanFraction)
+                ? header.Real(FilteredExactScanFraction, 0, 1)
+                : GraphIndexOptions.Default.FilteredExactScanFraction,
         };
         if (parallelism == 0)
         {

@@ -2,6 +2,7 @@ using System.Buffers.Binary;
 using MessagePack;
 using VectorKit.Distance;
 using VectorKit.Indexes;
+using VectorKit.Indexes.Graph;
 using VectorKit.Storage;
 using VectorKit.Tests.IO;
 
@@ -300,6 +301,18 @@ public class IndexFileDamageTests
 
         header.Sections[1] = new SectionEntry(99, 0, extra.Length);
         Assert.Contains("section 1 is id 99; this index kind expects 'Vectors' (id 2) there", Rejection.Assert(IndexFileBytes.Compose(header, payloads)).Message, StringComparison.Ordinal);
+    }
+
+    [Fact]
+    public void AnAbsentOptionalGraphField_LoadsAsTheDefault()
+    {
+        using GraphIndex graph = StorageSamples.Graph();
+        byte[] file = IndexFileBytes.Save(graph);
+        IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
+        Assert.True(header.Reals.Remove("filtered-exact-scan-fraction"));
+        using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))));
+        Assert.Equal(GraphIndexOptions.Default.FilteredExactScanFraction, loaded.Options.FilteredExactScanFraction);
+        Assert.Equal(graph.Count, loaded.Count);
     }
 
     internal static byte[] Sample(string name)
