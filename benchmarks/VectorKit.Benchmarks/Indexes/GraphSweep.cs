@@ -32,15 +32,18 @@ public static class GraphSweep
 
     /// <summary>
     /// The repository's seeded clustered generator: <paramref name="count"/> × <paramref name="dimension"/>, one cluster
-    /// per 100 items (spread 0.2 around centres uniform in [−1, 1]ᵈ), 1,000 queries from the same generator with
-    /// another seed; the exact index is timed on the first 200 of them (a full scan per query).
+    /// per 100 items (spread 0.2 around centres uniform in [−1, 1]ᵈ), 1,000 queries: the generator's next 1,000 rows,
+    /// so from the same clusters; the exact index is timed on the first 200 of them (a full scan per query).
     /// </summary>
     public static void RunClustered(int count, int dimension)
     {
         int clusters = Math.Max(1, count / 100);
         Console.WriteLine($"clustered synthetic: {count} × {dimension}, {clusters} clusters, spread 0.2, squared L2, 1000 queries");
-        float[] data = ClusteredData.Generate(count, dimension, clusters, 0.2f, seed: 101);
-        float[] queries = ClusteredData.Generate(1000, dimension, clusters, 0.2f, seed: 102);
+        // The queries are the generator's next 1,000 rows, from the same cluster centres as the data (another seed would
+        // draw new centres, and every query would then lie far from every cluster).
+        float[] all = ClusteredData.Generate(count + 1000, dimension, clusters, 0.2f, seed: 101);
+        float[] data = all.AsSpan(0, count * dimension).ToArray();
+        float[] queries = all.AsSpan(count * dimension).ToArray();
         Sweep(data, dimension, queries, exactQueries: 200, [10, 32, 128, 512, 1024, 2048, 4096]);
     }
 

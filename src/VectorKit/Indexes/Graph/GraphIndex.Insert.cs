@@ -65,7 +65,7 @@ public sealed partial class GraphIndex
             }
 
             Span<int> chosen = scratch.Chosen;
-            int kept = SelectNeighbours<TDistance>(scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), _options.LinksPerNode, chosen);
+            int kept = SelectNeighbours<TDistance>(scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), Math.Min(_options.LinksPerNode, _links.Limit(layer)), chosen);
             lock (StripeOf(slot))
             {
                 SetList(slot, layer, chosen[..kept]);

@@ -374,6 +374,19 @@ public class GraphIndexTests(ITestOutputHelper output)
     }
 
     [Fact]
+    public void BottomLayerLimitBelowLinksPerNode_BuildsASoundGraph()
+    {
+        // A new node picks LinksPerNode neighbours, but never more than the layer's own limit.
+        const int n = 1500, d = 8;
+        float[] data = ClusteredData.Generate(n, d, 15, 0.2f, seed: 23);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 8, BottomLayerLinks = 4, BuildParallelism = 1 });
+        GraphChecks.AssertSound(graph);
+        using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
+        exact.AddRange(Ids(n), data);
+        Assert.Equal(exact.Search(data.AsSpan(0, d), K), graph.Search(data.AsSpan(0, d), K, new SearchOptions { SearchWidth = n }));
+    }
+
+    [Fact]
     public void Progress_ReachesTheBatchSize()
     {
         const int n = 1000, d = 8;

@@ -1,0 +1,185 @@
+using VectorKit.Indexes;
+using VectorKit.Indexes.Graph;
+
+namespace VectorKit.Storage;
+
+/// <summary>
+/// The graph index: its options and entry point as header fields; sections ids, node levels, removal flags,
+/// bottom-layer links, upper-layer links and vectors, in that order.
+/// </summary>
+internal sealed class GraphIndexCodec : IndexCodec
+{
+    private const string LinksPerNode = "links-per-node";
+    private const string BottomLayerLinks = "bottom-layer-links";
+    private const string BuildWidth = "build-width";
+    private const string DefaultSearchWidth = "default-search-width";
+    private const string Seed = "seed";
+    private const string BuildParallelism = "build-parallelism";
+    private const string FilteredExactScanFraction = "filtered-exact-scan-fraction";
+    private const string EntrySlot = "entry-slot";
+    private const string EntryLevel = "entry-level";
+
+    public override IndexKind Kind => IndexKind.Graph;
+
+    public override Type IndexType => typeof(GraphIndex);
+
+    public override void Save(IVectorIndex index, IndexFileWriter writer)
+    {
+        ((GraphIndex)index).ExportParts(parts =>
+        {
+            GraphIndexOptions options = parts.Options;
+            int slots = parts.Slots;
+            var header = new IndexHeader { Kind = Kind, Metric = parts.Metric, Dimension = parts.Dimension, Count = parts.Count, Rows = slots };
+            header.Integers[LinksPerNode] = options.LinksPerNode;
+            header.Integers[BottomLayerLinks] = options.BottomLayerLinks ?? 0;
+            header.Integers[BuildWidth] = options.BuildWidth;
+            header.Integers[DefaultSearchWidth] = options.DefaultSearchWidth;
+            header.Integers[Seed] = options.Seed;
+            header.Integers[BuildParallelism] = options.BuildParallelism;
+            // Absent means "chosen by the cost model" (the default).
+            if (options.FilteredExactScanFraction is double fraction)
+            {
+                header.Reals[FilteredExactScanFraction] = fraction;
+            }
+            header.Integers[EntrySlot] = parts.EntrySlot;
+            header.Integers[EntryLevel] = parts.EntryLevel;
+            header.Sections.Add(new SectionEntry((uint)SectionId.Ids, 0, checked((long)slots * sizeof(long))));
+            header.Sections.Add(new SectionEntry((uint)SectionId.NodeLevels, 0, slots));
+            header.Sections.Add(new SectionEntry((uint)SectionId.RemovedFlags, 0, slots));
+            header.Sections.Add(new SectionEntry((uint)SectionId.BottomLinks, 0, checked((long)parts.BottomLinks.Length * sizeof(int))));
+            header.Sections.Add(new SectionEntry((uint)SectionId.UpperLinks, 0, checked((long)parts.UpperLinks.Length * sizeof(int))));
+            header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, checked((long)slots * parts.Dimension * sizeof(float))));
+            writer.WriteHeader(header);
+            writer.BeginSection(SectionId.Ids);
+            writer.Write<long>(parts.Ids.AsSpan(0, slots));
+            writer.EndSection();
+            writer.BeginSection(SectionId.NodeLevels);
+            writer.Write<byte>(parts.Levels);
+            writer.EndSection();
+            writer.BeginSection(SectionId.RemovedFlags);
+            writer.Write<byte>(parts.Removed.AsSpan(0, slots));
+            writer.EndSection();
+            writer.BeginSection(SectionId.BottomLinks);
+            writer.Write<int>(parts.BottomLinks);
+            writer.EndSection();
+            writer.BeginSection(SectionId.UpperLinks);
+            writer.Write<int>(parts.UpperLinks);
+            writer.EndSection();
+            writer.BeginSection(SectionId.Vectors);
+            StorageBlocks.WriteRows(writer, parts.Vectors, slots);
+            writer.EndSection();
+            writer.Finish();
+            return 0;
+        });
+    }
+
+    public override IVectorIndex Load(IndexHeader header, IndexFileReader reader)
+    {
+        int maxLinks = reader.Options.MaxLinksPerNode;
+        int slots = (int)header.Rows;
+        int links = (int)header.Integer(LinksPerNode, 2, maxLinks);
+        int bottom = (int)header.Integer(BottomLayerLinks, 0, maxLinks);
+        if (bottom == 1)
+        {
+            throw IndexHeader.Malformed($"the field '{BottomLayerLinks}' is 1; expected 0 (the default) or 2 to {maxLinks}");
+        }
+
+        int parallelism = (int)header.Integer(BuildParallelism, -1, int.MaxValue);
+        var options = new GraphIndexOptions
+        {
+            LinksPerNode = links,
+            BottomLayerLinks = bottom == 0 ? null : bottom,
+            BuildWidth = (int)header.Integer(BuildWidth, 1, 100_000),
+            DefaultSearchWidth = (int)header.Integer(DefaultSearchWidth, 1, 100_000),
+            Seed = (int)header.Integer(Seed, int.MinValue, int.MaxValue),
+            BuildParallelism = parallelism == 0 ? -1 : parallelism,
+            // Optional: absent means the options' default (a writer omits it when the option is left at its default).
+            FilteredExactScanFraction = header.Reals.ContainsKey(FilteredExactScanFraction)
+                ? header.Real(FilteredExactScanFraction, 0, 1)
+                : null,
+        };
+        if (parallelism == 0)
+        {
+            throw IndexHeader.Malformed($"the field '{BuildParallelism}' is 0; expected -1 or a positive thread count");
+        }
+
+        if (options.EffectiveBottomLayerLinks > maxLinks)
+        {
+            throw IndexHeader.Malformed($"the bottom layer allows {options.EffectiveBottomLayerLinks} links per node; the load options allow {maxLinks} ({nameof(IndexLoadOptions.MaxLinksPerNode)})");
+        }
+
+        int entrySlot = (int)header.Integer(EntrySlot, -1, Math.Max(-1, slots - 1));
+        int entryLevel = (int)header.Integer(EntryLevel, 0, GraphIndexParts.MaxNodeLevel);
+
+        reader.OpenSection(SectionId.Ids);
+        long[] ids = reader.ReadArray<long>(slots);
+        reader.CloseSection();
+        reader.OpenSection(SectionId.NodeLevels);
+        byte[] levels = reader.ReadArray<byte>(slots);
+        reader.CloseSection();
+        reader.OpenSection(SectionId.RemovedFlags);
+        byte[] removed = reader.ReadArray<byte>(slots);
+        reader.CloseSection();
+        reader.OpenSection(SectionId.BottomLinks);
+        int[] bottomLinks = reader.ReadArray<int>(checked(slots * (options.EffectiveBottomLayerLinks + 1)));
+        reader.CloseSection();
+
+        long upperInts = 0;
+        foreach (byte level in levels)
+        {
+            if (level > GraphIndexParts.MaxNodeLevel)
+            {
+                throw new IndexFileException(
+                    $"Index file section 'NodeLevels' is invalid: a node has level {level}; the most is {GraphIndexParts.MaxNodeLevel}.", "NodeLevels", -1);
+            }
+
+            upperInts += (long)level * (links + 1);
+        }
+
+        reader.OpenSection(SectionId.UpperLinks);
+        if (upperInts > int.MaxValue)
+        {
+            throw reader.SectionProblem($"the levels require {upperInts} upper-layer link ints, more than one array holds");
+        }
+
+        int[] upperLinks = reader.ReadArray<int>((int)upperInts);
+        reader.CloseSection();
+        reader.OpenSection(SectionId.Vectors);
+        var vectors = new VectorBuffer(header.Dimension, 0);
+        try
+        {
+            reader.ReadRows(vectors, slots);
+            reader.CloseSection();
+        }
+        catch
+        {
+            vectors.Dispose();
+            throw;
+        }
+
+        var parts = new GraphIndexParts
+        {
+            Dimension = header.Dimension,
+            Metric = header.Metric,
+            Options = options,
+            Slots = slots,
+            Count = (int)header.Count,
+            Ids = ids,
+            Removed = removed,
+            Levels = levels,
+            BottomLinks = bottomLinks,
+            UpperLinks = upperLinks,
+            Vectors = vectors,
+            EntrySlot = entrySlot,
+            EntryLevel = entryLevel,
+        };
+        try
+        {
+            return GraphIndex.FromParts(parts);
+        }
+        catch (InvalidDataException e)
+        {
+            throw new IndexFileException($"Index file holds an invalid graph: {e.Message}.", "graph", -1, e);
+        }
+    }
+}

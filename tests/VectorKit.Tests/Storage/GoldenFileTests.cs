@@ -1,0 +1,85 @@
+using System.Buffers.Binary;
+using System.Runtime.CompilerServices;
+using VectorKit.Distance;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
+using VectorKit.Storage;
+using VectorKit.Tests.TestData;
+
+namespace VectorKit.Tests.Storage;
+
+/// <summary>
+/// Files of format version 1 kept as fixtures (Storage/Fixtures): every later library must still load them to the
+/// same contents. Regenerate only when adding the fixtures of a new version, with
+/// <c>VECTORKIT_WRITE_STORAGE_FIXTURES=1</c>; a version's fixture is never rewritten once committed.
+/// </summary>
+public class GoldenFileTests
+{
+    [Fact]
+    public void ExactIndexFixtureOfVersion1_LoadsToItsContents_AndTodaysWriterStillProducesItsBytes()
+    {
+        using ExactIndex expected = StorageSamples.Exact(count: 6, dimension: 3);
+        byte[] today = IndexFileBytes.Save(expected);
+        byte[] fixture = Fixture("exact-v1.vkx", today);
+        Assert.Equal(1u, BinaryPrimitives.ReadUInt32LittleEndian(fixture.AsSpan(8)));
+
+        using var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(fixture), IndexLoadOptions.Untrusted);
+        Assert.Equal((6, 3, DistanceMetric.SquaredEuclidean), (loaded.Count, loaded.Dimension, loaded.Metric));
+        float[] data = ClusteredData.Generate(6, 3, 3, 0.3f, 7);
+        var row = new float[3];
+        for (int i = 0; i < 6; i++)
+        {
+            Assert.True(loaded.TryGetVector(1000 + (i * 7), row));
+            Assert.Equal(data.AsSpan(i * 3, 3).ToArray(), row);
+        }
+
+        Assert.Equal(fixture, today);
+    }
+
+    [Fact]
+    public void GraphIndexFixtureOfVersion1_LoadsToItsContents()
+    {
+        using GraphIndex built = StorageSamples.Graph(count: 24, dimension: 3);
+        byte[] fixture = Fixture("graph-v1.vkx", IndexFileBytes.Save(built));
+        Assert.Equal(1u, BinaryPrimitives.ReadUInt32LittleEndian(fixture.AsSpan(8)));
+
+        using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(fixture), IndexLoadOptions.Untrusted);
+        Assert.Equal((22, 3, DistanceMetric.SquaredEuclidean), (loaded.Count, loaded.Dimension, loaded.Metric));
+        Assert.Equal((3, 16, 11, 1), (loaded.Options.LinksPerNode, loaded.Options.BuildWidth, loaded.Options.Seed, loaded.Options.BuildParallelism));
+        float[] data = ClusteredData.Generate(24, 3, 4, 0.3f, 11);
+        using var exact = new ExactIndex(3, DistanceMetric.SquaredEuclidean);
+        var row = new float[3];
+        for (int i = 0; i < 24; i++)
+        {
+            long id = 500 + (i * 3);
+            bool removed = id is 500 or 509;
+            Assert.Equal(!removed, loaded.TryGetVector(id, row));
+            if (!removed)
+            {
+                Assert.Equal(data.AsSpan(i * 3, 3).ToArray(), row);
+                exact.Add(id, row);
+            }
+        }
+
+        // A width covering the graph finds the exact neighbours: the stored links reach every item.
+        var wide = new SearchOptions { SearchWidth = 64 };
+        foreach (float[] query in new[] { new float[] { 0, 0, 0 }, [0.5f, -0.5f, 1], [-1, 1, 0.25f] })
+        {
+            Assert.Equal(exact.Search(query, 10), loaded.Search(query, 10, wide));
+        }
+
+        Assert.Equal(fixture, IndexFileBytes.Save(loaded));
+    }
+
+    // Reads a committed fixture; writes it first only when asked to (new format versions add new fixtures).
+    private static byte[] Fixture(string name, byte[] current, [CallerFilePath] string source = "")
+    {
+        if (Environment.GetEnvironmentVariable("VECTORKIT_WRITE_STORAGE_FIXTURES") == "1")
+        {
+            File.WriteAllBytes(Path.Combine(Path.GetDirectoryName(source)!, "Fixtures", name), current);
+        }
+
+        return File.ReadAllBytes(Path.Combine(AppContext.BaseDirectory, "Storage", "Fixtures", name));
+    }
+}

@@ -1,0 +1,352 @@
+using FsCheck.Xunit;
+using VectorKit.Distance;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
+using VectorKit.Storage;
+using VectorKit.Tests.Indexes.Graph;
+using VectorKit.Tests.IO;
+using VectorKit.Tests.TestData;
+
+namespace VectorKit.Tests.Storage;
+
+/// <summary>Save → load gives the same index: counts, ids, vectors, options and search results; and the same bytes again.</summary>
+public class IndexFileRoundTripTests
+{
+    [Property(MaxTest = 120)]
+    public void ExactIndex_RoundTripsWithIdenticalSearchResults(int[] components, byte dimensionSeed, byte metricSeed, int seed, byte removeSeed)
+    {
+        DistanceMetric metric = (DistanceMetric)(metricSeed % 3);
+        int d = 1 + (dimensionSeed % 9);
+        int n = Math.Min(components.Length / d, 120);
+        float[] data = Data(components, n, d, seed);
+        long[] ids = Enumerable.Range(0, n).Select(i => ((long)i * 7919) - 3000).ToArray();
+        using var index = new ExactIndex(d, metric);
+        index.AddRange(ids, data);
+        long[] removed = ids.Where((_, i) => (i + removeSeed) % 4 == 0).ToArray();
+        foreach (long id in removed)
+        {
+            index.Remove(id);
+        }
+
+        byte[] file = IndexFileBytes.Save(index);
+        using var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(file));
+        AssertSameContents(index, loaded, ids, seed);
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+    }
+
+    [Property(MaxTest = 60)]
+    public void GraphIndex_RoundTripsWithIdenticalSearchResults(int[] components, byte dimensionSeed, byte metricSeed, int seed, byte linksSeed, byte removeSeed, bool compact)
+    {
+        DistanceMetric metric = (DistanceMetric)(metricSeed % 3);
+        int d = 1 + (dimensionSeed % 8);
+        int n = Math.Min(components.Length / d, 150);
+        float[] data = Data(components, n, d, seed);
+        long[] ids = Enumerable.Range(0, n).Select(i => ((long)i * 104729) + 17).ToArray();
+        // A bottom limit below LinksPerNode is left out: the graph itself does not support it yet (an add overflows the list).
+        int links = 2 + (linksSeed % 7);
+        var options = new GraphIndexOptions
+        {
+            LinksPerNode = links,
+            BottomLayerLinks = linksSeed % 2 == 0 ? null : links + (linksSeed % 11),
+            BuildWidth = 8 + (linksSeed % 40),
+            DefaultSearchWidth = 5 + (seed & 31),
+            Seed = seed,
+            BuildParallelism = 1 + (linksSeed % 2),
+            FilteredExactScanFraction = (linksSeed % 5) / 10.0,
+        };
+        using var graph = new GraphIndex(d, metric, options);
+        graph.AddRange(ids, data);
+        long[] removed = ids.Where((_, i) => (i + removeSeed) % 5 == 0).ToArray();
+        graph.RemoveRange(removed);
+        if (compact)
+        {
+            graph.Compact();
+        }
+
+        byte[] file = IndexFileBytes.Save(graph);
+        using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(file));
+        AssertSameContents(graph, loaded, ids, seed);
+        GraphIndexOptions back = loaded.Options;
+        Assert.Equal(
+            (options.LinksPerNode, options.BottomLayerLinks, options.BuildWidth, options.DefaultSearchWidth, options.Seed, options.BuildParallelism, options.FilteredExactScanFraction),
+            (back.LinksPerNode, back.BottomLayerLinks, back.BuildWidth, back.DefaultSearchWidth, back.Seed, back.BuildParallelism, back.FilteredExactScanFraction));
+        Assert.Equal(graph.CheckInvariants(), loaded.CheckInvariants());
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+
+        // The loaded graph keeps working: adds link into it and removals repair it.
+        float[] more = Data(components.Reverse().ToArray(), Math.Min(n, 20), d, seed + 1);
+        long[] moreIds = Enumerable.Range(0, more.Length / d).Select(i => -1L - i).ToArray();
+        loaded.AddRange(moreIds, more);
+        if (moreIds.Length > 0)
+        {
+            loaded.Remove(moreIds[0]);
+        }
+
+        GraphChecks.AssertSound(loaded);
+    }
+
+    [Theory]
+    [InlineData(DistanceMetric.SquaredEuclidean)]
+    [InlineData(DistanceMetric.InnerProduct)]
+    [InlineData(DistanceMetric.Cosine)]
+    public void EmptyIndexes_RoundTrip(DistanceMetric metric)
+    {
+        using var exact = new ExactIndex(5, metric);
+        using var loadedExact = IndexFile.Load<ExactIndex>(new MemoryStream(IndexFileBytes.Save(exact)));
+        Assert.Equal((0, 5, metric), (loadedExact.Count, loadedExact.Dimension, loadedExact.Metric));
+        loadedExact.Add(1, [1, 2, 3, 4, 5]);
+        Assert.Equal(1, loadedExact.Search([1, 2, 3, 4, 5], 3).Single().Id);
+
+        using var graph = new GraphIndex(5, metric);
+        using var loadedGraph = IndexFile.Load<GraphIndex>(new MemoryStream(IndexFileBytes.Save(graph)));
+        Assert.Equal((0, 5, metric), (loadedGraph.Count, loadedGraph.Dimension, loadedGraph.Metric));
+        loadedGraph.Add(1, [1, 2, 3, 4, 5]);
+        Assert.Equal(1, loadedGraph.Search([1, 2, 3, 4, 5], 3).Single().Id);
+    }
+
+    [Fact]
+    public void GraphWithEveryItemRemoved_RoundTrips()
+    {
+        using GraphIndex graph = StorageSamples.Graph(count: 10, remove: false);
+        graph.RemoveRange(Enumerable.Range(0, 10).Select(i => 500L + (i * 3)).ToArray());
+        using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(IndexFileBytes.Save(graph)));
+        Assert.Equal(0, loaded.Count);
+        Assert.Empty(loaded.Search([0, 0, 0, 1], 5));
+        loaded.Add(500, [1, 0, 0, 0]);
+        Assert.Equal(500, loaded.Search([1, 0, 0, 0], 1)[0].Id);
+    }
+
+    [Fact]
+    public async Task FilePath_SaveAndLoad_AndAsync()
+    {
+        string folder = Directory.CreateTempSubdirectory("vk-storage-").FullName;
+        try
+        {
+            string path = Path.Combine(folder, "catalogue.vkx");
+            using GraphIndex graph = StorageSamples.Graph();
+            IndexFile.Save(graph, path);
+            using (IVectorIndex loaded = IndexFile.Load(path))
+            {
+                Assert.IsType<GraphIndex>(loaded);
+                Assert.Equal(graph.Count, loaded.Count);
+            }
+
+            using ExactIndex exact = StorageSamples.Exact();
+            await IndexFile.SaveAsync(exact, path);
+            using (ExactIndex loaded = await IndexFile.LoadAsync<ExactIndex>(path, IndexLoadOptions.Untrusted))
+            {
+                Assert.Equal(exact.Search([0, 0, 0], 5), loaded.Search([0, 0, 0], 5));
+            }
+
+            var stream = new MemoryStream();
+            await IndexFile.SaveAsync(exact, stream);
+            stream.Position = 0;
+            using (IVectorIndex loaded = await IndexFile.LoadAsync(stream))
+            {
+                Assert.Equal(exact.Count, loaded.Count);
+            }
+
+            // Only the target remains: no temporary files are left behind.
+            Assert.Equal(["catalogue.vkx"], Directory.GetFiles(folder).Select(Path.GetFileName));
+        }
+        finally
+        {
+            Directory.Delete(folder, recursive: true);
+        }
+    }
+
+    [Fact]
+    public void StreamLoad_StopsAtTheIndexEnd_SoSeveralIndexesShareAStream()
+    {
+        using ExactIndex exact = StorageSamples.Exact();
+        using GraphIndex graph = StorageSamples.Graph();
+        var stream = new MemoryStream();
+        IndexFile.Save(exact, stream);
+        IndexFile.Save(graph, stream);
+        stream.WriteByte(42);
+        stream.Position = 0;
+        using var first = IndexFile.Load<ExactIndex>(stream);
+        using var second = IndexFile.Load<GraphIndex>(stream);
+        Assert.Equal(42, stream.ReadByte());
+        Assert.Equal((exact.Count, graph.Count), (first.Count, second.Count));
+    }
+
+    [Fact]
+    public void NonSeekableStreamThatReturnsAFewBytesPerRead_LoadsTheSameIndex()
+    {
+        using GraphIndex graph = StorageSamples.Graph(count: 300);
+        byte[] file = IndexFileBytes.Save(graph);
+        using var loaded = IndexFile.Load<GraphIndex>(new TrickleStream(file, maxPerRead: 7));
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+    }
+
+    [Fact]
+    public async Task SavesDuringConcurrentAddsAndSearches_AreEachOneConsistentState()
+    {
+        const int d = 8;
+        float[] data = ClusteredData.Generate(2400, d, 20, 0.3f, 5);
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { LinksPerNode = 6, BuildWidth = 32 });
+        using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
+        graph.AddRange(Enumerable.Range(0, 400).Select(i => (long)i).ToArray(), data.AsSpan(0, 400 * d));
+        exact.AddRange(Enumerable.Range(0, 400).Select(i => (long)i).ToArray(), data.AsSpan(0, 400 * d));
+        var writer = Task.Run(() =>
+        {
+            for (int start = 400; start < 2400; start += 100)
+            {
+                long[] ids = Enumerable.Range(start, 100).Select(i => (long)i).ToArray();
+                graph.AddRange(ids, data.AsSpan(start * d, 100 * d));
+                exact.AddRange(ids, data.AsSpan(start * d, 100 * d));
+                graph.Remove(start - 50);
+                exact.Remove(start - 50);
+            }
+        });
+        var searcher = Task.Run(() =>
+        {
+            while (!writer.IsCompleted)
+            {
+                graph.Search(data.AsSpan(0, d), 5);
+                exact.Search(data.AsSpan(0, d), 5);
+            }
+        });
+
+        int saves = 0;
+        do
+        {
+            using (var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(IndexFileBytes.Save(graph))))
+            {
+                // A snapshot may fall between an add's store and link steps or before its reachability pass: every
+                // other invariant holds.
+                Assert.DoesNotContain(loaded.CheckInvariants(), p => !p.Contains("not reachable", StringComparison.Ordinal) && !p.Contains("has no in-link", StringComparison.Ordinal));
+            }
+
+            using (var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(IndexFileBytes.Save(exact))))
+            {
+                Assert.True(loaded.Count >= 400);
+            }
+
+            saves++;
+        }
+        while (!writer.IsCompleted);
+        await writer;
+        await searcher;
+        Assert.True(saves > 0);
+    }
+
+    [Fact]
+    public void TypedLoadOfAnotherKind_FailsBeforeReadingSections()
+    {
+        using ExactIndex exact = StorageSamples.Exact();
+        byte[] file = IndexFileBytes.Save(exact);
+        var e = Assert.Throws<IndexFileException>(() => IndexFile.Load<GraphIndex>(new MemoryStream(file)));
+        Assert.Equal("Index file holds an ExactIndex; a GraphIndex was requested.", e.Message);
+    }
+
+    [Fact]
+    public void SavingAForeignIndexType_NamesTheSupportedTypes()
+    {
+        using var foreign = new ForeignIndex();
+        var e = Assert.Throws<ArgumentException>(() => IndexFile.Save(foreign, new MemoryStream()));
+        Assert.Contains("ExactIndex, GraphIndex", e.Message, StringComparison.Ordinal);
+        Assert.Equal("index", e.ParamName);
+    }
+
+    [Fact]
+    public void SavingADisposedIndex_Throws()
+    {
+        ExactIndex exact = StorageSamples.Exact();
+        exact.Dispose();
+        Assert.Throws<ObjectDisposedException>(() => IndexFile.Save(exact, new MemoryStream()));
+    }
+
+    [Fact]
+    public void LoadOptions_RejectOutOfRangeValues_NamingTheOption()
+    {
+        Assert.Equal("MaxDimension", Assert.Throws<ArgumentOutOfRangeException>(() => new IndexLoadOptions { MaxDimension = 0 }).ParamName);
+        Assert.Equal("MaxCount", Assert.Throws<ArgumentOutOfRangeException>(() => new IndexLoadOptions { MaxCount = -1 }).ParamName);
+        Assert.Equal("MaxLinksPerNode", Assert.Throws<ArgumentOutOfRangeException>(() => new IndexLoadOptions { MaxLinksPerNode = 513 }).ParamName);
+        Assert.Equal("MaxSectionBytes", Assert.Throws<ArgumentOutOfRangeException>(() => new IndexLoadOptions { MaxSectionBytes = -1 }).ParamName);
+        Assert.Equal("MaxHeaderBytes", Assert.Throws<ArgumentOutOfRangeException>(() => new IndexLoadOptions { MaxHeaderBytes = 10 }).ParamName);
+    }
+
+    private static float[] Data(int[] components, int n, int d, int seed)
+    {
+        // Arbitrary integers (ties are frequent) with a seeded fraction for spread; no zero rows (cosine rejects them).
+        var random = new Random(seed);
+        var data = new float[n * d];
+        for (int i = 0; i < data.Length; i++)
+        {
+            data[i] = (Math.Abs(components[i] % 9) - 4) + (float)(random.Next(4) * 0.25);
+        }
+
+        for (int r = 0; r < n; r++)
+        {
+            if (data.AsSpan(r * d, d).IndexOfAnyExcept(0f) < 0)
+            {
+                data[r * d] = 1;
+            }
+        }
+
+        return data;
+    }
+
+    private static void AssertSameContents(IVectorIndex original, IVectorIndex loaded, long[] candidateIds, int seed)
+    {
+        Assert.Equal((original.Count, original.Dimension, original.Metric), (loaded.Count, loaded.Dimension, loaded.Metric));
+        int d = original.Dimension;
+        var a = new float[d];
+        var b = new float[d];
+        foreach (long id in candidateIds)
+        {
+            Assert.Equal(original.Contains(id), loaded.Contains(id));
+            if (original.TryGetVector(id, a))
+            {
+                Assert.True(loaded.TryGetVector(id, b));
+                Assert.Equal(a, b);
+            }
+        }
+
+        var random = new Random(seed);
+        for (int q = 0; q < 8; q++)
+        {
+            float[] query = Enumerable.Range(0, d).Select(_ => (float)((random.NextDouble() * 8) - 4)).ToArray();
+            query[0] = query[0] == 0 ? 1 : query[0];
+            int k = 1 + random.Next(12);
+            Assert.Equal(original.Search(query, k), loaded.Search(query, k));
+            var options = new SearchOptions { SearchWidth = 1 + random.Next(40), Filter = id => (id & 1) == 0 };
+            Assert.Equal(original.Search(query, k, options), loaded.Search(query, k, options));
+            Assert.Equal(original.SearchBatch(query, k)[0].ToArray(), loaded.SearchBatch(query, k)[0].ToArray());
+        }
+    }
+
+    /// <summary>An index type from outside the library: saving it must be refused.</summary>
+    private sealed class ForeignIndex : IVectorIndex
+    {
+        public int Dimension => 1;
+
+        public DistanceMetric Metric => DistanceMetric.SquaredEuclidean;
+
+        public int Count => 0;
+
+        public long MemoryBytes => 0;
+
+        public bool Contains(long id) => false;
+
+        public bool TryGetVector(long id, Span<float> destination) => false;
+
+        public void Add(long id, ReadOnlySpan<float> vector) => throw new NotSupportedException();
+
+        public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors) => throw new NotSupportedException();
+
+        public void Remove(long id) => throw new NotSupportedException();
+
+        public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null) => 0;
+
+        public BatchSearchResults SearchBatch(ReadOnlySpan<float> queries, int k, SearchOptions? options = null, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+            => throw new NotSupportedException();
+
+        public void Dispose()
+        {
+        }
+    }
+}
