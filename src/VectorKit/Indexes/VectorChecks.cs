@@ -65,6 +65,39 @@ internal static class VectorChecks
         CheckFinite(vector, paramName, 0, dimension);
     }
 
+    /// <summary>
+    /// The checks every batch search starts with: k positive, the queries a whole number of rows, every component
+    /// finite. Returns the number of queries, and under cosine the queries normalised to unit length (a new array;
+    /// a zero row is rejected), else <see langword="null"/>.
+    /// </summary>
+    public static float[]? CheckBatchQueries(ReadOnlySpan<float> queries, int k, int dimension, DistanceMetric metric, out int queryCount)
+    {
+        if (k <= 0)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(nameof(k), k, "must be positive");
+        }
+
+        if (queries.Length % dimension != 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(queries), $"queries has {queries.Length} components, not a multiple of the index dimension {dimension}.");
+        }
+
+        queryCount = queries.Length / dimension;
+        CheckFinite(queries, nameof(queries), 0, dimension);
+        if (metric != DistanceMetric.Cosine)
+        {
+            return null;
+        }
+
+        var unit = new float[queries.Length];
+        for (int i = 0; i < queryCount; i++)
+        {
+            Normalize(queries.Slice(i * dimension, dimension), unit.AsSpan(i * dimension, dimension), $"{nameof(queries)} row {i}");
+        }
+
+        return unit;
+    }
+
     /// <summary>Throws on the first NaN or infinity; <paramref name="rowLength"/> turns a flat offset into row and column in the message.</summary>
     public static void CheckFinite(ReadOnlySpan<float> values, string paramName, int firstRow, int rowLength)
     {

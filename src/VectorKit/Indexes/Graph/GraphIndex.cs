@@ -350,27 +350,8 @@ public sealed partial class GraphIndex : IVectorIndex
         IProgress<int>? progress = null,
         CancellationToken cancellationToken = default)
     {
-        if (k <= 0)
-        {
-            ThrowHelper.ThrowArgumentOutOfRange(nameof(k), k, "must be positive");
-        }
-
         int d = Dimension;
-        if (queries.Length % d != 0)
-        {
-            ThrowHelper.ThrowArgument(nameof(queries), $"queries has {queries.Length} components, not a multiple of the index dimension {d}.");
-        }
-
-        int queryCount = queries.Length / d;
-        VectorChecks.CheckFinite(queries, nameof(queries), 0, d);
-        float[] source = queries.ToArray();
-        if (Metric == DistanceMetric.Cosine)
-        {
-            for (int i = 0; i < queryCount; i++)
-            {
-                VectorChecks.Normalize(queries.Slice(i * d, d), source.AsSpan(i * d, d), $"{nameof(queries)} row {i}");
-            }
-        }
+        float[] source = VectorChecks.CheckBatchQueries(queries, k, d, Metric, out int queryCount) ?? queries.ToArray();
 
         options ??= SearchOptions.Default;
         _lock.EnterReadLock();
