@@ -130,6 +130,10 @@ public sealed partial class GraphIndex
             _count = rebuilt._count;
             _levelCounts = rebuilt._levelCounts;
             _changesSinceFullPass = 0;
+
+            // Waypoints and noted orphans name slots of the old graph; the rebuilt one has neither.
+            _waypoints.Clear();
+            _orphanNotes.Clear();
             _orphansAttached += rebuilt._orphansAttached;
             _orphansAttachedLocally += rebuilt._orphansAttachedLocally;
             _fullPasses += rebuilt._fullPasses;

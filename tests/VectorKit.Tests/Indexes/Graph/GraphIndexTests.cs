@@ -349,6 +349,35 @@ public class GraphIndexTests(ITestOutputHelper output)
     }
 
     [Fact]
+    public void Compaction_ForgetsTheOldGraphsWaypoints()
+    {
+        // Waypoints name slots of the graph they were left in; after a compaction renumbers the slots, a later global
+        // pass must not touch the lists of whatever items now sit in those slots.
+        const int n = 4000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 40, 0.2f, seed: 29);
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { BuildParallelism = 1 });
+        graph.FullPassDivisor = 0;
+        for (int id = 0; id < n; id += 3)
+        {
+            graph.Remove(id);
+        }
+
+        Assert.True(graph.PendingWaypoints > 0, "the removals no longer leave waypoints");
+        graph.Compact();
+        Assert.Equal(0, graph.PendingWaypoints);
+        graph.RunFullPass();
+        GraphChecks.AssertSound(graph);
+        var wide = new SearchOptions { SearchWidth = 400 };
+        for (int id = 1; id < n; id += 97)
+        {
+            if (id % 3 != 0)
+            {
+                Assert.Equal(id, graph.Search(data.AsSpan(id * d, d), 1, wide)[0].Id);
+            }
+        }
+    }
+
+    [Fact]
     public void SingleAdds_AfterABulkBuild_AreLinkedLocally_AndTheGlobalPassRunsOnlyWhenDue()
     {
         const int n = 8000, d = 16;
