@@ -78,7 +78,7 @@ public sealed class ProductQuantizer
                 int s = dimension / codeBytes;
                 int perSubspace = CodewordsPerSubspace * s;
                 throw new InvalidDataException(
-                    $"codebook component {i} (sub-space {i / perSubspace}, codeword {i % perSubspace / s}) is {codewords[i]}; codewords must be finite");
+                    $"codebook component {i} (sub-space {i / perSubspace}, codeword {i % perSubspace / s}) is {codewords[i].ToString(System.Globalization.CultureInfo.InvariantCulture)}; codewords must be finite");
             }
         }
 

@@ -146,7 +146,7 @@ public sealed class ScalarQuantizer
             if (!float.IsFinite(minimum) || !float.IsFinite(step) || step < 0 || !double.IsFinite((float)(minimum + (255.0 * step))))
             {
                 throw new InvalidDataException(
-                    $"the scalar range of component {j} (minimum {minimum}, step {step}) is not usable: the minimum and step must be finite, the step non-negative, and minimum + 255·step finite");
+                    $"the scalar range of component {j} (minimum {minimum.ToString(System.Globalization.CultureInfo.InvariantCulture)}, step {step.ToString(System.Globalization.CultureInfo.InvariantCulture)}) is not usable: the minimum and step must be finite, the step non-negative, and minimum + 255·step finite");
             }
 
             paddedMinimums[j] = minimum;

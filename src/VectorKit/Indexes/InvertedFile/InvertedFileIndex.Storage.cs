@@ -215,7 +215,7 @@ public sealed partial class InvertedFileIndex
         {
             if (!float.IsFinite(parts.Centroids[i]))
             {
-                throw new InvalidDataException($"centroid {i / d}, component {i % d} is {parts.Centroids[i]}; centroids must be finite");
+                throw new InvalidDataException($"centroid {i / d}, component {i % d} is {Invariant(parts.Centroids[i])}; centroids must be finite");
             }
         }
 
@@ -255,7 +255,7 @@ public sealed partial class InvertedFileIndex
             {
                 if (!float.IsFinite(values[i]))
                 {
-                    throw new InvalidDataException($"list {list}, entry {i / Dimension}, component {i % Dimension} is {values[i]}; vectors must be finite");
+                    throw new InvalidDataException($"list {list}, entry {i / Dimension}, component {i % Dimension} is {Invariant(values[i])}; vectors must be finite");
                 }
             }
         }
@@ -270,4 +270,6 @@ public sealed partial class InvertedFileIndex
             }
         }
     }
+
+    private static string Invariant(float value) => value.ToString(System.Globalization.CultureInfo.InvariantCulture);
 }
