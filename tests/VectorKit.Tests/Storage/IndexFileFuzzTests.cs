@@ -235,7 +235,9 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
                 // An untrained inverted file loads as such; it must refuse searches and adds as a fresh one does.
                 if (index is InvertedFileIndex { IsTrained: false })
                 {
-                    Assert.Throws<IndexNotTrainedException>(() => index.Search(new float[index.Dimension], 1));
+                    float[] unit = new float[index.Dimension];
+                    unit[0] = 1;
+                    Assert.Throws<IndexNotTrainedException>(() => index.Search(unit, 1));
                     return;
                 }
 
