@@ -279,6 +279,20 @@ public class IndexFileRoundTripTests
         Assert.Equal(file, IndexFileBytes.Save(loaded));
     }
 
+    [Theory]
+    [InlineData(ListStorage.Float32)]
+    [InlineData(ListStorage.ProductCodes)]
+    [InlineData(ListStorage.Scalar8Bit)]
+    public void InvertedFileFromANonSeekableTrickle_LoadsTheSameIndex(ListStorage storage)
+    {
+        // Per-list code arrays grow with the data when the stream's length is unknown.
+        using InvertedFileIndex index = StorageSamples.InvertedFile(storage, DistanceMetric.InnerProduct, count: 200, dimension: 4, rescoreDepth: 7);
+        byte[] file = IndexFileBytes.Save(index);
+        using var loaded = IndexFile.Load<InvertedFileIndex>(new TrickleStream(file, maxPerRead: 5));
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+        AssertSameContents(index, loaded, StorageSamples.InvertedFileIds(200), 17);
+    }
+
     [Fact]
     public async Task SavesDuringConcurrentAddsAndSearches_AreEachOneConsistentState()
     {
