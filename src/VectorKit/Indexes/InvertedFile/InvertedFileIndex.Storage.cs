@@ -108,7 +108,6 @@ public sealed partial class InvertedFileIndex
 
     private void Restore(InvertedFileIndexParts parts)
     {
-        int d = Dimension;
         int lists = _options.ListCount;
         int count = parts.Count;
         bool keepsFull = _options.Storage != ListStorage.Float32 && _options.RescoreDepth > 0;
