@@ -53,6 +53,38 @@ public sealed class ProductQuantizer
         }
     }
 
+    /// <summary>
+    /// Rebuilds a quantizer from stored codewords (<paramref name="codeBytes"/> × 256 × dimension / codeBytes floats,
+    /// the layout of <see cref="Codewords"/>); the transposed copy for the tables is derived again.
+    /// </summary>
+    /// <exception cref="InvalidDataException">The code size does not divide the dimension, the length is wrong, or a codeword component is not finite.</exception>
+    internal static ProductQuantizer FromCodewords(float[] codewords, int dimension, int codeBytes)
+    {
+        if (codeBytes < 1 || dimension % codeBytes != 0)
+        {
+            throw new InvalidDataException($"a product code of {codeBytes} bytes does not divide the dimension {dimension}");
+        }
+
+        long expected = (long)dimension * CodewordsPerSubspace;
+        if (codewords.Length != expected)
+        {
+            throw new InvalidDataException($"the codebooks hold {codewords.Length} floats; {codeBytes} sub-spaces of 256 codewords need {expected}");
+        }
+
+        for (int i = 0; i < codewords.Length; i++)
+        {
+            if (!float.IsFinite(codewords[i]))
+            {
+                int s = dimension / codeBytes;
+                int perSubspace = CodewordsPerSubspace * s;
+                throw new InvalidDataException(
+                    $"codebook component {i} (sub-space {i / perSubspace}, codeword {i % perSubspace / s}) is {codewords[i].ToString(System.Globalization.CultureInfo.InvariantCulture)}; codewords must be finite");
+            }
+        }
+
+        return new ProductQuantizer(codewords, dimension, codeBytes);
+    }
+
     /// <summary>Components per vector.</summary>
     public int Dimension { get; }
 

@@ -128,6 +128,34 @@ public sealed class ScalarQuantizer
     /// <exception cref="ArgumentException">Wrong lengths.</exception>
     public float Dot(ReadOnlySpan<float> query, ReadOnlySpan<byte> code) => Single<DotStep>(query, code);
 
+    /// <summary>
+    /// Rebuilds a quantizer from stored ranges (<paramref name="minimums"/> and <paramref name="steps"/>, each
+    /// <paramref name="dimension"/> values), checking what decoding relies on: finite minimums, finite non-negative
+    /// steps, and a finite top of every range (minimum + 255·step).
+    /// </summary>
+    /// <exception cref="InvalidDataException">A value breaks those rules; the message names the component.</exception>
+    internal static ScalarQuantizer FromRanges(ReadOnlySpan<float> minimums, ReadOnlySpan<float> steps, int dimension)
+    {
+        int padded = PaddedLength(dimension);
+        var paddedMinimums = new float[padded];
+        var paddedSteps = new float[padded];
+        for (int j = 0; j < dimension; j++)
+        {
+            float minimum = minimums[j];
+            float step = steps[j];
+            if (!float.IsFinite(minimum) || !float.IsFinite(step) || step < 0 || !double.IsFinite((float)(minimum + (255.0 * step))))
+            {
+                throw new InvalidDataException(
+                    $"the scalar range of component {j} (minimum {minimum.ToString(System.Globalization.CultureInfo.InvariantCulture)}, step {step.ToString(System.Globalization.CultureInfo.InvariantCulture)}) is not usable: the minimum and step must be finite, the step non-negative, and minimum + 255·step finite");
+            }
+
+            paddedMinimums[j] = minimum;
+            paddedSteps[j] = step;
+        }
+
+        return new ScalarQuantizer(paddedMinimums, paddedSteps, dimension);
+    }
+
     internal static int PaddedLength(int dimension) => (dimension + ByteCodeKernel.Granularity - 1) / ByteCodeKernel.Granularity * ByteCodeKernel.Granularity;
 
     internal void EncodeUnchecked(ReadOnlySpan<float> vector, Span<byte> code)

@@ -5,7 +5,7 @@ namespace VectorKit.Storage;
 /// <summary>The registered codecs, one per index kind.</summary>
 internal static class IndexCodecs
 {
-    private static readonly IndexCodec[] All = [new ExactIndexCodec(), new GraphIndexCodec()];
+    private static readonly IndexCodec[] All = [new ExactIndexCodec(), new GraphIndexCodec(), new InvertedFileIndexCodec()];
 
     public static IndexCodec? ForKind(IndexKind kind)
     {

@@ -2,20 +2,22 @@ using System.Buffers.Binary;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
 
 namespace VectorKit.Storage;
 
 /// <summary>
 /// Saves indexes to, and loads them from, files and streams in VectorKit's own versioned format: a checksummed
 /// MessagePack header, then raw little-endian sections (ids, vectors, links), each with its own XXH3-64 checksum.
-/// Every index kind of the library can be saved (<see cref="ExactIndex"/>, <see cref="GraphIndex"/>).
+/// Every index kind of the library can be saved (<see cref="ExactIndex"/>, <see cref="GraphIndex"/>,
+/// <see cref="InvertedFileIndex"/>).
 /// </summary>
 /// <remarks>
 /// <para><b>Atomic saving.</b> <see cref="Save(IVectorIndex, string, CancellationToken)"/> writes a temporary file in
 /// the target's folder, flushes it to the disk, then renames it over the target: an exception, a cancellation or a
 /// crash part-way leaves the previous file as it was.</para>
 /// <para><b>Consistency.</b> A save sees one consistent state of the index. An exact index lets searches run during
-/// the save and holds writes back; a graph index holds searches and writes back for the duration (its adds link
+/// the save and holds writes back (so does an inverted file); a graph index holds searches and writes back for the duration (its adds link
 /// under the shared lock, so nothing weaker gives a consistent graph).</para>
 /// <para><b>Safe loading.</b> Loading verifies the magic number, the format version, every checksum, every size
 /// against <see cref="IndexLoadOptions"/> and against the bytes that remain, and the structure of what it loads;
@@ -23,7 +25,8 @@ namespace VectorKit.Storage;
 /// Use <see cref="IndexLoadOptions.Untrusted"/> for files from elsewhere.</para>
 /// <para><b>What is restored.</b> Dimension, metric, ids, vectors (unit length under cosine, as stored), and for a
 /// graph its options (except <see cref="GraphIndexOptions.InitialCapacity"/>, a build-time hint), links, levels,
-/// entry point and removed slots, so searches return exactly what the saved index returned.</para>
+/// entry point and removed slots, and for an inverted file its options, training state, centroids, quantizer, lists
+/// and kept full vectors, so searches return exactly what the saved index returned.</para>
 /// <para><b>Async.</b> The async methods run the same work on a thread-pool thread (the stream is read or written
 /// synchronously in 1 MiB blocks, checksummed block by block) and check the token between blocks.</para>
 /// <para><b>Thread safety.</b> All methods are thread-safe; several loads and saves may run at once.</para>
@@ -106,7 +109,7 @@ public static class IndexFile
     /// <param name="source">A readable stream. When it is seekable, every declared size is checked against its length before allocating.</param>
     /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>. Use <see cref="IndexLoadOptions.Untrusted"/> for files from elsewhere.</param>
     /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
-    /// <returns>The loaded index; the caller owns (and disposes) it. Its concrete type is given by the file (<see cref="ExactIndex"/> or <see cref="GraphIndex"/>).</returns>
+    /// <returns>The loaded index; the caller owns (and disposes) it. Its concrete type is given by the file (<see cref="ExactIndex"/>, <see cref="GraphIndex"/> or <see cref="InvertedFileIndex"/>).</returns>
     /// <exception cref="ArgumentNullException"><paramref name="source"/> is null.</exception>
     /// <exception cref="IndexFileException">The data is not an index file, is damaged, truncated or inconsistent, exceeds a cap, or has an unsupported format version.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
@@ -131,7 +134,7 @@ public static class IndexFile
         => LoadFile(path, options, null, cancellationToken);
 
     /// <summary>Reads an index of a known type from a stream; fails before reading the sections when the file holds another kind.</summary>
-    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
+    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/>, <see cref="InvertedFileIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
     /// <param name="source">A readable stream.</param>
     /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
     /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
@@ -146,7 +149,7 @@ public static class IndexFile
     }
 
     /// <summary>Reads an index of a known type from a file; fails before reading the sections when the file holds another kind.</summary>
-    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
+    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/>, <see cref="InvertedFileIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
     /// <param name="path">The file.</param>
     /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
     /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
@@ -182,7 +185,7 @@ public static class IndexFile
     }
 
     /// <summary>Reads an index of a known type from a file on a thread-pool thread; see <see cref="Load{TIndex}(string, IndexLoadOptions?, CancellationToken)"/>.</summary>
-    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
+    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/>, <see cref="InvertedFileIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
     /// <param name="path">The file.</param>
     /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
     /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>

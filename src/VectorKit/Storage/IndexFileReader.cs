@@ -217,6 +217,17 @@ internal sealed class IndexFileReader
         where T : unmanaged
     {
         ExpectPayload(checked((long)count * sizeof(T)));
+        return ReadPart<T>(count);
+    }
+
+    /// <summary>
+    /// Reads the next <paramref name="count"/> elements of the open section (one part of a payload the caller has
+    /// already checked with <see cref="ExpectPayload"/>), allocating as <see cref="ReadArray{T}"/> does.
+    /// </summary>
+    public unsafe T[] ReadPart<T>(int count)
+        where T : unmanaged
+    {
+        CheckRoom((long)count * sizeof(T));
         if (LengthKnown)
         {
             T[] all = GC.AllocateUninitializedArray<T>(count);

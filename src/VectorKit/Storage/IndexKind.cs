@@ -8,4 +8,7 @@ public enum IndexKind
 
     /// <summary>A <see cref="Indexes.Graph.GraphIndex"/>.</summary>
     Graph = 2,
+
+    /// <summary>An <see cref="Indexes.InvertedFile.InvertedFileIndex"/>.</summary>
+    InvertedFile = 3,
 }

@@ -23,4 +23,19 @@ internal enum SectionId : uint
 
     /// <summary>Graph: the upper layers' link blocks of every node with a level ≥ 1, in slot order, layer 1 first.</summary>
     UpperLinks = 6,
+
+    /// <summary>Inverted file: the list centroids, <c>lists × dimension</c> float32 (empty when untrained).</summary>
+    Centroids = 7,
+
+    /// <summary>Inverted file: the entries per list, <c>lists</c> int32.</summary>
+    ListLengths = 8,
+
+    /// <summary>Inverted file: every list's codes (float32 vectors or quantizer codes), list after list, entries in list order.</summary>
+    ListCodes = 9,
+
+    /// <summary>Inverted file under product codes: the codewords, <c>code bytes × 256 × (dimension / code bytes)</c> float32.</summary>
+    ProductCodebooks = 10,
+
+    /// <summary>Inverted file under 8-bit scalar codes: <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
+    ScalarRanges = 11,
 }

@@ -4,6 +4,7 @@ using VectorKit.Distance;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
 using VectorKit.Storage;
 using VectorKit.Tests.TestData;
 
@@ -67,6 +68,49 @@ public class GoldenFileTests
         foreach (float[] query in new[] { new float[] { 0, 0, 0 }, [0.5f, -0.5f, 1], [-1, 1, 0.25f] })
         {
             Assert.Equal(exact.Search(query, 10), loaded.Search(query, 10, wide));
+        }
+
+        Assert.Equal(fixture, IndexFileBytes.Save(loaded));
+    }
+
+    [Fact]
+    public void InvertedFileFixtureOfVersion1_LoadsToItsContents()
+    {
+        // 8-bit codes with full vectors kept: every part of the kind (centroids, ranges, lists, ids, vectors) is in it.
+        using InvertedFileIndex built = StorageSamples.InvertedFile(ListStorage.Scalar8Bit, count: 20, rescoreDepth: 6);
+        byte[] fixture = Fixture("ivf-v1.vkx", IndexFileBytes.Save(built));
+        Assert.Equal(1u, BinaryPrimitives.ReadUInt32LittleEndian(fixture.AsSpan(8)));
+        Assert.Equal((uint)IndexKind.InvertedFile, (uint)IndexFileBytes.Header(fixture).Kind);
+
+        using var loaded = IndexFile.Load<InvertedFileIndex>(new MemoryStream(fixture), IndexLoadOptions.Untrusted);
+        Assert.Equal((18, 3, DistanceMetric.SquaredEuclidean, true), (loaded.Count, loaded.Dimension, loaded.Metric, loaded.IsTrained));
+        InvertedFileOptions options = loaded.Options;
+        Assert.Equal((4, 2, ListStorage.Scalar8Bit, 6, 3, 13, 1), (options.ListCount, options.ListsProbed, options.Storage, options.RescoreDepth, options.TrainingIterations, options.Seed, options.TrainingParallelism));
+        Assert.True(loaded.KeepsFullVectors);
+        Assert.Equal(18, loaded.ListLengths().Sum());
+        Assert.Equal(12, loaded.Centroids.Length);
+
+        // The full vectors are the rows added; the two removed ids are gone.
+        float[] data = ClusteredData.Generate(20, 3, 4, 0.3f, 13);
+        using var exact = new ExactIndex(3, DistanceMetric.SquaredEuclidean);
+        var row = new float[3];
+        for (int i = 0; i < 20; i++)
+        {
+            long id = 200 + (5 * i);
+            bool removed = id is 200 or 235;
+            Assert.Equal(!removed, loaded.TryGetVector(id, row));
+            if (!removed)
+            {
+                Assert.Equal(data.AsSpan(i * 3, 3).ToArray(), row);
+                exact.Add(id, row);
+            }
+        }
+
+        // Probing every list and re-scoring every entry gives the exact neighbours (an independent index's answer).
+        var everything = new SearchOptions { SearchWidth = 4, RescoreDepth = 18 };
+        foreach (float[] query in new[] { new float[] { 0, 0, 0 }, [0.5f, -0.5f, 1], [-1, 1, 0.25f] })
+        {
+            Assert.Equal(exact.Search(query, 10), loaded.Search(query, 10, everything));
         }
 
         Assert.Equal(fixture, IndexFileBytes.Save(loaded));

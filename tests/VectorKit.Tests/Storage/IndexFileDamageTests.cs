@@ -3,6 +3,7 @@ using MessagePack;
 using VectorKit.Distance;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
 using VectorKit.Storage;
 using VectorKit.Tests.IO;
 
@@ -14,7 +15,7 @@ namespace VectorKit.Tests.Storage;
 /// </summary>
 public class IndexFileDamageTests
 {
-    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product" };
+    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar" };
 
     [Theory]
     [MemberData(nameof(Samples))]
@@ -232,7 +233,7 @@ public class IndexFileDamageTests
         byte[] file = Sample("exact");
         IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
         header.Kind = (IndexKind)77;
-        Assert.Contains("the index kind is 77, which this library does not know (it knows 1 = Exact, 2 = Graph)", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
+        Assert.Contains("the index kind is 77, which this library does not know (it knows 1 = Exact, 2 = Graph, 3 = InvertedFile)", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
         header.Kind = IndexKind.Exact;
         header.Metric = (DistanceMetric)9;
         Assert.Contains("the metric code is 9", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
@@ -323,7 +324,12 @@ public class IndexFileDamageTests
             "exact" => StorageSamples.Exact(),
             "exact-cosine" => StorageSamples.Exact(metric: DistanceMetric.Cosine),
             "graph" => StorageSamples.Graph(),
-            _ => StorageSamples.Graph(metric: DistanceMetric.InnerProduct, seed: 5),
+            "graph-inner-product" => StorageSamples.Graph(metric: DistanceMetric.InnerProduct, seed: 5),
+            "ivf-float32" => StorageSamples.InvertedFile(ListStorage.Float32, count: 16),
+            // Product codes of one component per byte keep the codebooks (dimension × 256 floats) small.
+            "ivf-product" => StorageSamples.InvertedFile(ListStorage.ProductCodes, DistanceMetric.InnerProduct, count: 16, dimension: 2, rescoreDepth: 4),
+            "ivf-scalar" => StorageSamples.InvertedFile(ListStorage.Scalar8Bit, DistanceMetric.Cosine, count: 16, rescoreDepth: 3),
+            _ => throw new ArgumentOutOfRangeException(nameof(name), name, "not a sample"),
         };
         return IndexFileBytes.Save(index);
     }

@@ -3,6 +3,7 @@ using System.Diagnostics;
 using System.Globalization;
 using VectorKit.Distance;
 using VectorKit.Indexes;
+using VectorKit.Indexes.InvertedFile;
 using VectorKit.Storage;
 using Xunit.Abstractions;
 
@@ -72,7 +73,7 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
     private static List<byte[]> Corpus()
     {
         var corpus = new List<byte[]>();
-        foreach (string name in new[] { "exact", "exact-cosine", "graph", "graph-inner-product" })
+        foreach (string name in new[] { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar" })
         {
             corpus.Add(IndexFileDamageTests.Sample(name));
         }
@@ -85,6 +86,11 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
         using (var empty = new VectorKit.Indexes.Graph.GraphIndex(3, DistanceMetric.SquaredEuclidean))
         {
             corpus.Add(IndexFileBytes.Save(empty));
+        }
+
+        using (var untrained = new InvertedFileIndex(3, DistanceMetric.InnerProduct, new InvertedFileOptions { ListCount = 3, Storage = ListStorage.Scalar8Bit, RescoreDepth = 2 }))
+        {
+            corpus.Add(IndexFileBytes.Save(untrained));
         }
 
         return corpus;
@@ -226,6 +232,15 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
         {
             using (index)
             {
+                // An untrained inverted file loads as such; it must refuse searches and adds as a fresh one does.
+                if (index is InvertedFileIndex { IsTrained: false })
+                {
+                    float[] unit = new float[index.Dimension];
+                    unit[0] = 1;
+                    Assert.Throws<IndexNotTrainedException>(() => index.Search(unit, 1));
+                    return;
+                }
+
                 int d = index.Dimension;
                 float[] query = Enumerable.Range(0, d).Select(_ => (float)(random.NextDouble() - 0.5)).ToArray();
                 query[0] += 1;

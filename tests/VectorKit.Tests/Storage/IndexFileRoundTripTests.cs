@@ -3,6 +3,7 @@ using VectorKit.Distance;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
 using VectorKit.Storage;
 using VectorKit.Tests.Indexes.Graph;
 using VectorKit.Tests.IO;
@@ -84,6 +85,103 @@ public class IndexFileRoundTripTests
         }
 
         GraphChecks.AssertSound(loaded);
+    }
+
+    [Property(MaxTest = 45)]
+    public void InvertedFileIndex_RoundTripsWithIdenticalSearchResults(int[] components, byte dimensionSeed, byte metricSeed, byte storageSeed, int seed, byte removeSeed)
+    {
+        DistanceMetric metric = (DistanceMetric)(metricSeed % 3);
+        var storage = (ListStorage)(storageSeed % 3);
+        int d = 1 + (dimensionSeed % 8);
+        int n = Math.Min(components.Length / d, 120);
+        float[] data = Data(components, n, d, seed);
+        long[] ids = Enumerable.Range(0, n).Select(i => ((long)i * 6151) - 900).ToArray();
+        int[] divisors = Enumerable.Range(1, d).Where(b => d % b == 0).ToArray();
+        var options = new InvertedFileOptions
+        {
+            ListCount = 1 + (storageSeed % 5),
+            ListsProbed = 1 + (seed & 3),
+            Storage = storage,
+            ProductCodeBytes = divisors[(storageSeed / 3) % divisors.Length],
+            RescoreDepth = storageSeed % 2 == 0 ? 0 : 1 + (seed & 15),
+            TrainingIterations = 2,
+            TrainingSampleSize = (storageSeed & 4) == 0 ? null : 300,
+            Seed = seed,
+            TrainingParallelism = 1,
+        };
+        using var index = new InvertedFileIndex(d, metric, options);
+
+        // Trained on rows of their own (product codes need 256), so the data also lands in lists far from any centroid.
+        index.Train(Data([.. components, .. Enumerable.Range(0, 256 * d)], 256, d, seed ^ 77));
+        index.AddRange(ids, data);
+        long[] removed = ids.Where((_, i) => (i + removeSeed) % 4 == 0).ToArray();
+        foreach (long id in removed)
+        {
+            index.Remove(id);
+        }
+
+        byte[] file = IndexFileBytes.Save(index);
+        using var loaded = IndexFile.Load<InvertedFileIndex>(new MemoryStream(file));
+        AssertSameContents(index, loaded, ids, seed);
+        InvertedFileOptions back = loaded.Options;
+        Assert.Equal(
+            (options.ListCount, options.ListsProbed, options.Storage, options.ProductCodeBytes, options.RescoreDepth, options.TrainingIterations, options.TrainingSampleSize, options.Seed, options.TrainingParallelism),
+            (back.ListCount, back.ListsProbed, back.Storage, back.ProductCodeBytes, back.RescoreDepth, back.TrainingIterations, back.TrainingSampleSize, back.Seed, back.TrainingParallelism));
+        Assert.Equal(index.KeepsFullVectors, loaded.KeepsFullVectors);
+        Assert.Equal(index.ListLengths(), loaded.ListLengths());
+        Assert.Equal(index.Centroids.ToArray(), loaded.Centroids.ToArray());
+        Assert.Equal(ids.Except(removed).Order(), loaded.GetIds());
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+
+        // Both keep working the same way: the same adds and removals leave the same lists and results.
+        float[] more = Data(components.Reverse().ToArray(), Math.Min(n, 20), d, seed + 1);
+        long[] moreIds = Enumerable.Range(0, more.Length / d).Select(i => -1L - i).ToArray();
+        foreach (InvertedFileIndex target in new[] { index, loaded })
+        {
+            target.AddRange(moreIds, more);
+            if (moreIds.Length > 0)
+            {
+                target.Remove(moreIds[0]);
+            }
+
+            long live = ids.Except(removed).FirstOrDefault(long.MinValue);
+            if (live != long.MinValue)
+            {
+                target.Remove(live);
+            }
+        }
+
+        AssertSameContents(index, loaded, [.. ids, .. moreIds], seed + 2);
+        Assert.Equal(IndexFileBytes.Save(index), IndexFileBytes.Save(loaded));
+    }
+
+    [Theory]
+    [InlineData(ListStorage.Float32, DistanceMetric.SquaredEuclidean, 0)]
+    [InlineData(ListStorage.ProductCodes, DistanceMetric.InnerProduct, 5)]
+    [InlineData(ListStorage.Scalar8Bit, DistanceMetric.Cosine, 5)]
+    [InlineData(ListStorage.Scalar8Bit, DistanceMetric.SquaredEuclidean, 0)]
+    public void UntrainedInvertedFile_RoundTrips_AndTrainsLikeTheOriginal(ListStorage storage, DistanceMetric metric, int rescoreDepth)
+    {
+        var options = new InvertedFileOptions { ListCount = 3, Storage = storage, ProductCodeBytes = 2, RescoreDepth = rescoreDepth, TrainingIterations = 3, Seed = 9, TrainingParallelism = 1 };
+        using var index = new InvertedFileIndex(4, metric, options);
+        byte[] file = IndexFileBytes.Save(index);
+        using var loaded = IndexFile.Load<InvertedFileIndex>(new MemoryStream(file), IndexLoadOptions.Untrusted);
+        Assert.False(loaded.IsTrained);
+        Assert.Equal((0, 4, metric, storage, rescoreDepth, index.KeepsFullVectors), (loaded.Count, loaded.Dimension, loaded.Metric, loaded.Options.Storage, loaded.Options.RescoreDepth, loaded.KeepsFullVectors));
+        Assert.Throws<IndexNotTrainedException>(() => loaded.Search(new float[] { 1, 0, 0, 0 }, 1));
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+
+        float[] sample = ClusteredData.Generate(256, 4, 3, 0.3f, 4);
+        float[] rows = ClusteredData.Generate(30, 4, 3, 0.3f, 5);
+        long[] ids = Enumerable.Range(0, 30).Select(i => (long)i).ToArray();
+        foreach (InvertedFileIndex target in new[] { index, loaded })
+        {
+            target.Train(sample);
+            target.AddRange(ids, rows);
+        }
+
+        AssertSameContents(index, loaded, ids, 3);
+        Assert.Equal(IndexFileBytes.Save(index), IndexFileBytes.Save(loaded));
     }
 
     [Theory]
@@ -179,6 +277,20 @@ public class IndexFileRoundTripTests
         byte[] file = IndexFileBytes.Save(graph);
         using var loaded = IndexFile.Load<GraphIndex>(new TrickleStream(file, maxPerRead: 7));
         Assert.Equal(file, IndexFileBytes.Save(loaded));
+    }
+
+    [Theory]
+    [InlineData(ListStorage.Float32)]
+    [InlineData(ListStorage.ProductCodes)]
+    [InlineData(ListStorage.Scalar8Bit)]
+    public void InvertedFileFromANonSeekableTrickle_LoadsTheSameIndex(ListStorage storage)
+    {
+        // Per-list code arrays grow with the data when the stream's length is unknown.
+        using InvertedFileIndex index = StorageSamples.InvertedFile(storage, DistanceMetric.InnerProduct, count: 200, dimension: 4, rescoreDepth: 7);
+        byte[] file = IndexFileBytes.Save(index);
+        using var loaded = IndexFile.Load<InvertedFileIndex>(new TrickleStream(file, maxPerRead: 5));
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+        AssertSameContents(index, loaded, StorageSamples.InvertedFileIds(200), 17);
     }
 
     [Fact]

@@ -1,6 +1,7 @@
 using VectorKit.Distance;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
 using VectorKit.Tests.TestData;
 
 namespace VectorKit.Tests.Storage;
@@ -29,4 +30,43 @@ internal static class StorageSamples
 
         return graph;
     }
+
+    /// <summary>
+    /// A small trained inverted file (4 lists) with ids 200 + 5i and two removed items; trained on its own rows, or on
+    /// 256 rows of the same clusters under product codes (which need 256 training rows).
+    /// </summary>
+    public static InvertedFileIndex InvertedFile(
+        ListStorage storage,
+        DistanceMetric metric = DistanceMetric.SquaredEuclidean,
+        int count = 30,
+        int dimension = 3,
+        int rescoreDepth = 0,
+        int seed = 13,
+        bool remove = true)
+    {
+        var options = new InvertedFileOptions
+        {
+            ListCount = 4,
+            ListsProbed = 2,
+            Storage = storage,
+            ProductCodeBytes = dimension,
+            RescoreDepth = rescoreDepth,
+            TrainingIterations = 3,
+            Seed = seed,
+            TrainingParallelism = 1,
+        };
+        var index = new InvertedFileIndex(dimension, metric, options);
+        float[] data = ClusteredData.Generate(count, dimension, 4, 0.3f, seed);
+        index.Train(storage == ListStorage.ProductCodes ? ClusteredData.Generate(256, dimension, 4, 0.3f, seed + 1) : data);
+        index.AddRange(InvertedFileIds(count), data);
+        if (remove && count > 4)
+        {
+            index.Remove(200);
+            index.Remove(200 + (5 * 7));
+        }
+
+        return index;
+    }
+
+    public static long[] InvertedFileIds(int count) => Enumerable.Range(0, count).Select(i => 200L + (5 * i)).ToArray();
 }

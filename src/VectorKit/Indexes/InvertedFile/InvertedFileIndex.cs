@@ -27,8 +27,8 @@ namespace VectorKit.Indexes.InvertedFile;
 /// lists, so fewer than k results come back when the probed lists hold fewer than k passing items.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds
 /// and removes wait for running searches and block new ones. A batch search holds the index for its duration.</para>
-/// <para>Persistence is not implemented for this index yet; all state is in flat arrays ready to be written as raw
-/// sections.</para>
+/// <para><b>Persistence.</b> <see cref="Storage.IndexFile"/> saves and loads the index, trained or not (options,
+/// centroids, the quantizer, the lists and the full vectors when kept).</para>
 /// </remarks>
 public sealed partial class InvertedFileIndex : IVectorIndex
 {
@@ -73,6 +73,12 @@ public sealed partial class InvertedFileIndex : IVectorIndex
 
     /// <summary>Creates an index whose kernels run no wider than <paramref name="kernelPath"/> (tests sweep every path).</summary>
     internal InvertedFileIndex(int dimension, DistanceMetric metric, InvertedFileOptions? options, KernelPath kernelPath)
+        : this(dimension, metric, options, kernelPath, null)
+    {
+    }
+
+    // A loader hands over the full vectors it read (the buffer is then owned by the index).
+    private InvertedFileIndex(int dimension, DistanceMetric metric, InvertedFileOptions? options, KernelPath kernelPath, VectorBuffer? loadedFull)
     {
         if (dimension <= 0)
         {
@@ -104,7 +110,7 @@ public sealed partial class InvertedFileIndex : IVectorIndex
         Array.Fill(_listSlots, []);
         if (options.Storage != ListStorage.Float32 && options.RescoreDepth > 0)
         {
-            _full = new VectorBuffer(dimension, 0);
+            _full = loadedFull ?? new VectorBuffer(dimension, 0);
         }
     }
 

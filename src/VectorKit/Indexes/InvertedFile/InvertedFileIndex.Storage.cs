@@ -1,0 +1,274 @@
+using System.Runtime.InteropServices;
+using VectorKit.Distance.Kernels;
+using VectorKit.Quantization;
+
+namespace VectorKit.Indexes.InvertedFile;
+
+/// <summary>
+/// The inverted file's primary state for persistence (<see cref="InvertedFileIndexParts"/>): exported under the
+/// shared lock (every change takes the exclusive one, so that state is consistent), and rebuilt into a working index
+/// by <see cref="FromParts"/>, which verifies everything a search relies on and derives slots and the id lookup.
+/// </summary>
+public sealed partial class InvertedFileIndex
+{
+    /// <summary>
+    /// Runs <paramref name="export"/> on the primary state while holding the shared lock: searches proceed, changes
+    /// wait. Ids and list lengths are copies; list codes and full vectors are the live storage and must not be modified.
+    /// </summary>
+    internal T ExportParts<T>(Func<InvertedFileIndexParts, T> export)
+    {
+        _lock.EnterReadLock();
+        try
+        {
+            ThrowIfDisposed();
+            int lists = _listCounts.Length;
+            var ids = new long[_count];
+            int[]? order = _full is null ? null : new int[_count];
+            int at = 0;
+            for (int list = 0; list < lists; list++)
+            {
+                int[] slots = _listSlots[list];
+                for (int p = 0; p < _listCounts[list]; p++)
+                {
+                    ids[at] = _ids[slots[p]];
+                    if (order is not null)
+                    {
+                        order[at] = slots[p];
+                    }
+
+                    at++;
+                }
+            }
+
+            float[]? ranges = null;
+            if (_scalar is not null)
+            {
+                ranges = new float[2 * Dimension];
+                _scalar.Minimums.CopyTo(ranges);
+                _scalar.Steps.CopyTo(ranges.AsSpan(Dimension));
+            }
+
+            var parts = new InvertedFileIndexParts
+            {
+                Dimension = Dimension,
+                Metric = Metric,
+                Options = _options,
+                Trained = _trained,
+                Count = _count,
+                Centroids = _centroids,
+                ProductCodewords = _product?.Codewords.ToArray(),
+                ScalarRanges = ranges,
+                ListLengths = (int[])_listCounts.Clone(),
+                ListCodes = _listCodes,
+                Ids = ids,
+                FullVectors = _full,
+                FullRowOrder = order,
+            };
+            return export(parts);
+        }
+        finally
+        {
+            _lock.ExitReadLock();
+        }
+    }
+
+    /// <summary>
+    /// Builds a working index from loaded primary state, taking ownership of its arrays and of the full-vector buffer
+    /// (disposed on failure). Verifies first: the options fit the dimension; an untrained index holds nothing; a
+    /// trained one has <c>ListCount × Dimension</c> finite centroids and, under compressed storage, finite codebooks
+    /// or usable scalar ranges; one length per list, none negative, summing to the count; each list's codes exactly
+    /// <c>length × code bytes</c>; float32 entries finite; 8-bit codes with zero padding; ids unique; full vectors
+    /// present exactly when the options keep them. (The reader has already checked full vectors for finiteness.)
+    /// </summary>
+    /// <exception cref="InvalidDataException">The state violates an invariant; the message says which and where.</exception>
+    internal static InvertedFileIndex FromParts(InvertedFileIndexParts parts)
+    {
+        InvertedFileIndex index;
+        try
+        {
+            index = new InvertedFileIndex(parts.Dimension, parts.Metric, parts.Options, KernelDispatch.Widest, parts.FullVectors);
+        }
+        catch (ArgumentException e)
+        {
+            parts.FullVectors?.Dispose();
+            throw new InvalidDataException($"the options do not fit the index: {e.Message}", e);
+        }
+
+        try
+        {
+            index.Restore(parts);
+            return index;
+        }
+        catch
+        {
+            index.Dispose();
+            throw;
+        }
+    }
+
+    private void Restore(InvertedFileIndexParts parts)
+    {
+        int lists = _options.ListCount;
+        int count = parts.Count;
+        bool keepsFull = _options.Storage != ListStorage.Float32 && _options.RescoreDepth > 0;
+        if ((parts.FullVectors is not null) != keepsFull)
+        {
+            throw new InvalidDataException(keepsFull
+                ? "the options keep full vectors for re-scoring, but none are stored"
+                : "full vectors are stored, but the options do not keep them");
+        }
+
+        if (parts.FullVectors is not null && parts.FullVectors.Capacity < count)
+        {
+            throw new InvalidDataException($"{parts.FullVectors.Capacity} full vectors are stored for {count} entries");
+        }
+
+        if (parts.ListLengths.Length != lists || parts.ListCodes.Length != lists)
+        {
+            throw new InvalidDataException($"{parts.ListLengths.Length} list lengths are stored; the options declare {lists} lists");
+        }
+
+        if (!parts.Trained)
+        {
+            if (count != 0 || parts.Centroids.Length != 0 || parts.ProductCodewords is not null || parts.ScalarRanges is not null)
+            {
+                throw new InvalidDataException($"an untrained index holds no centroids, quantizer or vectors, but this one declares {count} vectors and {parts.Centroids.Length} centroid components");
+            }
+        }
+        else
+        {
+            RestoreTraining(parts);
+        }
+
+        if (parts.Ids.Length != count)
+        {
+            throw new InvalidDataException($"{parts.Ids.Length} ids are stored for {count} entries");
+        }
+
+        long total = 0;
+        for (int list = 0; list < lists; list++)
+        {
+            int length = parts.ListLengths[list];
+            if (length < 0)
+            {
+                throw new InvalidDataException($"list {list} has length {length}");
+            }
+
+            total += length;
+            if (parts.ListCodes[list].Length != (long)length * _codeBytes)
+            {
+                throw new InvalidDataException($"list {list} holds {parts.ListCodes[list].Length} code bytes; its {length} entries of {_codeBytes} bytes need {(long)length * _codeBytes}");
+            }
+        }
+
+        if (total != count)
+        {
+            throw new InvalidDataException($"the list lengths add up to {total}, but the index declares {count} vectors");
+        }
+
+        for (int list = 0; list < lists; list++)
+        {
+            CheckCodes(list, parts.ListCodes[list], parts.ListLengths[list]);
+        }
+
+        _ids = parts.Ids;
+        _listOf = new int[count];
+        _positionOf = new int[count];
+        _slotOf.EnsureCapacity(count);
+        int slot = 0;
+        for (int list = 0; list < lists; list++)
+        {
+            int length = parts.ListLengths[list];
+            var slots = new int[length];
+            for (int p = 0; p < length; p++, slot++)
+            {
+                long id = _ids[slot];
+                if (!_slotOf.TryAdd(id, slot))
+                {
+                    throw new InvalidDataException($"id {id} is stored twice (entries {_slotOf[id]} and {slot} in list order)");
+                }
+
+                slots[p] = slot;
+                _listOf[slot] = list;
+                _positionOf[slot] = p;
+            }
+
+            _listSlots[list] = slots;
+            _listCodes[list] = parts.ListCodes[list];
+            _listCounts[list] = length;
+        }
+
+        _count = count;
+    }
+
+    private void RestoreTraining(InvertedFileIndexParts parts)
+    {
+        int d = Dimension;
+        int lists = _options.ListCount;
+        if (parts.Centroids.Length != (long)lists * d)
+        {
+            throw new InvalidDataException($"{parts.Centroids.Length} centroid components are stored; {lists} lists of dimension {d} need {(long)lists * d}");
+        }
+
+        for (int i = 0; i < parts.Centroids.Length; i++)
+        {
+            if (!float.IsFinite(parts.Centroids[i]))
+            {
+                throw new InvalidDataException($"centroid {i / d}, component {i % d} is {Invariant(parts.Centroids[i])}; centroids must be finite");
+            }
+        }
+
+        bool product = _options.Storage == ListStorage.ProductCodes;
+        bool scalar = _options.Storage == ListStorage.Scalar8Bit;
+        if ((parts.ProductCodewords is not null) != product || (parts.ScalarRanges is not null) != scalar)
+        {
+            throw new InvalidDataException($"the stored quantizer does not match the list storage {_options.Storage}");
+        }
+
+        if (product)
+        {
+            _product = ProductQuantizer.FromCodewords(parts.ProductCodewords!, d, _options.ProductCodeBytes);
+        }
+        else if (scalar)
+        {
+            float[] ranges = parts.ScalarRanges!;
+            if (ranges.Length != 2 * d)
+            {
+                throw new InvalidDataException($"{ranges.Length} scalar range values are stored; dimension {d} needs {2 * d}");
+            }
+
+            _scalar = ScalarQuantizer.FromRanges(ranges.AsSpan(0, d), ranges.AsSpan(d, d), d);
+        }
+
+        _centroids = parts.Centroids;
+        _trained = true;
+    }
+
+    // What a scan relies on beyond the lengths: float32 entries are finite; 8-bit codes keep the encoder's zero padding.
+    private void CheckCodes(int list, byte[] codes, int length)
+    {
+        if (_options.Storage == ListStorage.Float32)
+        {
+            ReadOnlySpan<float> values = MemoryMarshal.Cast<byte, float>(codes);
+            for (int i = 0; i < values.Length; i++)
+            {
+                if (!float.IsFinite(values[i]))
+                {
+                    throw new InvalidDataException($"list {list}, entry {i / Dimension}, component {i % Dimension} is {Invariant(values[i])}; vectors must be finite");
+                }
+            }
+        }
+        else if (_options.Storage == ListStorage.Scalar8Bit && _codeBytes > Dimension)
+        {
+            for (int p = 0; p < length; p++)
+            {
+                if (codes.AsSpan((p * _codeBytes) + Dimension, _codeBytes - Dimension).IndexOfAnyExcept((byte)0) >= 0)
+                {
+                    throw new InvalidDataException($"list {list}, entry {p} has non-zero padding after its {Dimension} code bytes");
+                }
+            }
+        }
+    }
+
+    private static string Invariant(float value) => value.ToString(System.Globalization.CultureInfo.InvariantCulture);
+}
