@@ -226,26 +226,42 @@ public sealed partial class GraphIndex
         scratch.Visited.TryMark(orphan);
         BeamSearch<TDistance>(ref vector, scratch, 0, _options.BuildWidth, null);
         int found = DrainSorted(scratch);
+        // The nearest suitable node with room takes the orphan. Failing that, the nearest suitable node with a link it
+        // can give up without cutting its target off: one the orphan itself links to (still reachable through the
+        // orphan), or one whose target has another in-link. Failing that too, the nearest suitable node gives up its
+        // last link, and the node it cut off is found again (by the next round or the next note).
         int limit = _links.BottomLimit;
-        int host = -1, fullHost = -1;
+        Span<int> own = _links.Block(orphan, 0);
+        int host = -1, victim = -1, fallback = -1;
         for (int i = 0; i < found && host < 0; i++)
         {
             int candidate = scratch.SortedSlots[i];
-            if (IsAnchor(candidate, orphan, entry, reached))
+            if (!IsAnchor(candidate, orphan, entry, reached))
             {
-                if (_links.Block(candidate, 0)[0] < limit)
-                {
-                    host = candidate;
-                }
-                else if (fullHost < 0)
-                {
-                    fullHost = candidate;
-                }
+                continue;
+            }
+
+            Span<int> list = _links.Block(candidate, 0);
+            if (list[0] < limit)
+            {
+                host = candidate;
+                break;
+            }
+
+            fallback = fallback < 0 ? candidate : fallback;
+            int spare = SpareLink(list, own);
+            if (spare > 0)
+            {
+                host = candidate;
+                victim = spare;
             }
         }
 
-        host = host >= 0 ? host : fullHost >= 0 ? fullHost : entry;
-        Span<int> own = _links.Block(orphan, 0);
+        if (host < 0)
+        {
+            host = fallback >= 0 ? fallback : entry;
+        }
+
         Span<int> block = _links.Block(host, 0);
         if (block[0] < limit)
         {
@@ -253,16 +269,7 @@ public sealed partial class GraphIndex
         }
         else
         {
-            int victim = block[0];
-            for (int i = block[0]; i >= 1; i--)
-            {
-                if (ListContains(own, own[0], block[i]))
-                {
-                    victim = i;
-                    break;
-                }
-            }
-
+            victim = victim > 0 ? victim : SpareLink(block, own) is int spare && spare > 0 ? spare : block[0];
             int dropped = block[victim];
             if (!ListContains(own, own[0], dropped) && own[0] < limit && dropped != orphan)
             {
@@ -280,6 +287,29 @@ public sealed partial class GraphIndex
             int kept = SelectNeighbours<TDistance>(scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), limit, scratch.Chosen);
             SetList(orphan, 0, scratch.Chosen.AsSpan(0, kept));
         }
+    }
+
+    // The position (1-based) of a link in a full list that can be given up without cutting its target off: one the
+    // orphan's own list names, else one whose target has another in-link; 0 when there is none.
+    private int SpareLink(Span<int> list, Span<int> own)
+    {
+        for (int i = list[0]; i >= 1; i--)
+        {
+            if (ListContains(own, own[0], list[i]))
+            {
+                return i;
+            }
+        }
+
+        for (int i = list[0]; i >= 1; i--)
+        {
+            if (_links.InDegree(list[i], 0) >= 2)
+            {
+                return i;
+            }
+        }
+
+        return 0;
     }
 
     private bool IsAnchor(int candidate, int orphan, int entry, bool[]? reached)
