@@ -175,6 +175,24 @@ internal static class VectorChecks
         }
     }
 
+    /// <summary>The destination of a stored vector must hold <paramref name="dimension"/> components.</summary>
+    public static void CheckVectorDestination(Span<float> destination, int dimension)
+    {
+        if (destination.Length < dimension)
+        {
+            ThrowHelper.ThrowArgument(nameof(destination), $"destination has {destination.Length} elements; the index dimension is {dimension}.");
+        }
+    }
+
+    /// <summary>The destination of a search is k long, and k must be positive.</summary>
+    public static void CheckResultDestination(Span<SearchHit> destination)
+    {
+        if (destination.IsEmpty)
+        {
+            ThrowHelper.ThrowArgument(nameof(destination), "destination is empty: its length is k, the number of results wanted, which must be positive.");
+        }
+    }
+
     /// <summary>Throws when <paramref name="metric"/> is not a defined value.</summary>
     public static void CheckMetric(DistanceMetric metric)
     {

@@ -103,42 +103,19 @@ public sealed partial class ExactIndex : IVectorIndex
     /// <inheritdoc/>
     public bool Contains(long id)
     {
-        _lock.EnterReadLock();
-        try
-        {
-            ThrowIfDisposed();
-            return _slotOf.ContainsKey(id);
-        }
-        finally
-        {
-            _lock.ExitReadLock();
-        }
+        using LockScopes.ReadScope read = _lock.EnterRead();
+        ThrowIfDisposed();
+        return _slotOf.ContainsKey(id);
     }
 
     /// <inheritdoc/>
     public bool TryGetVector(long id, Span<float> destination)
     {
-        if (destination.Length < Dimension)
-        {
-            ThrowHelper.ThrowArgument(nameof(destination), $"destination has {destination.Length} elements; the index dimension is {Dimension}.");
-        }
+        VectorChecks.CheckVectorDestination(destination, Dimension);
 
-        _lock.EnterReadLock();
-        try
-        {
-            ThrowIfDisposed();
-            if (!_slotOf.TryGetValue(id, out int slot))
-            {
-                return false;
-            }
-
-            _vectors.RowSpan(slot).CopyTo(destination);
-            return true;
-        }
-        finally
-        {
-            _lock.ExitReadLock();
-        }
+        using LockScopes.ReadScope read = _lock.EnterRead();
+        ThrowIfDisposed();
+        return IdLookup.TryCopyRow(_slotOf, _vectors, id, destination);
     }
 
     /// <inheritdoc/>
@@ -262,10 +239,7 @@ public sealed partial class ExactIndex : IVectorIndex
     /// <inheritdoc/>
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
-        if (destination.IsEmpty)
-        {
-            ThrowHelper.ThrowArgument(nameof(destination), "destination is empty: its length is k, the number of results wanted, which must be positive.");
-        }
+        VectorChecks.CheckResultDestination(destination);
 
         VectorChecks.CheckVector(query, Dimension, nameof(query));
         float[]? rented = null;

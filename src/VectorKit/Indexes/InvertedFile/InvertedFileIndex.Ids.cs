@@ -5,18 +5,8 @@ public sealed partial class InvertedFileIndex
     /// <inheritdoc/>
     public long[] GetIds()
     {
-        _lock.EnterReadLock();
-        try
-        {
-            ThrowIfDisposed();
-            long[] ids = new long[_slotOf.Count];
-            _slotOf.Keys.CopyTo(ids, 0);
-            Array.Sort(ids);
-            return ids;
-        }
-        finally
-        {
-            _lock.ExitReadLock();
-        }
+        using LockScopes.ReadScope read = _lock.EnterRead();
+        ThrowIfDisposed();
+        return IdLookup.SortedIds(_slotOf);
     }
 }

@@ -24,10 +24,7 @@ public sealed partial class InvertedFileIndex
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
-        if (destination.IsEmpty)
-        {
-            ThrowHelper.ThrowArgument(nameof(destination), "destination is empty: its length is k, the number of results wanted, which must be positive.");
-        }
+        VectorChecks.CheckResultDestination(destination);
 
         VectorChecks.CheckVector(query, Dimension, nameof(query));
         SearchScratch scratch = RentScratch();

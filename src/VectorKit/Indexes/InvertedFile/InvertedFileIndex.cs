@@ -273,26 +273,16 @@ public sealed partial class InvertedFileIndex : IVectorIndex
     /// <inheritdoc/>
     public bool Contains(long id)
     {
-        _lock.EnterReadLock();
-        try
-        {
-            ThrowIfDisposed();
-            return _slotOf.ContainsKey(id);
-        }
-        finally
-        {
-            _lock.ExitReadLock();
-        }
+        using LockScopes.ReadScope read = _lock.EnterRead();
+        ThrowIfDisposed();
+        return _slotOf.ContainsKey(id);
     }
 
     /// <inheritdoc/>
     /// <remarks>Under compressed storage without full vectors, this is the reconstruction (centroid + decoded residual), not the vector added.</remarks>
     public bool TryGetVector(long id, Span<float> destination)
     {
-        if (destination.Length < Dimension)
-        {
-            ThrowHelper.ThrowArgument(nameof(destination), $"destination has {destination.Length} elements; the index dimension is {Dimension}.");
-        }
+        VectorChecks.CheckVectorDestination(destination, Dimension);
 
         _lock.EnterReadLock();
         try

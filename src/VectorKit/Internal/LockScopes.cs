@@ -1,0 +1,20 @@
+namespace VectorKit;
+
+/// <summary>
+/// <c>using</c>-scoped reader/writer lock sections, so a short locked member reads as its body rather than as a
+/// try/finally around it. The scopes are structs: no allocation.
+/// </summary>
+internal static class LockScopes
+{
+    public static ReadScope EnterRead(this ReaderWriterLockSlim rwLock)
+    {
+        rwLock.EnterReadLock();
+        return new ReadScope(rwLock);
+    }
+
+    /// <summary>Leaves the read lock when disposed.</summary>
+    public readonly struct ReadScope(ReaderWriterLockSlim rwLock) : IDisposable
+    {
+        public void Dispose() => rwLock.ExitReadLock();
+    }
+}
