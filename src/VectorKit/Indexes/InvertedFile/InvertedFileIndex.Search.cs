@@ -140,34 +140,13 @@ public sealed partial class InvertedFileIndex
 
         if (rescore)
         {
-            found = Metric switch
-            {
-                DistanceMetric.SquaredEuclidean => Rescore<SquaredDifferenceStep, KeepFinish>(ref query, heap[..found]),
-                DistanceMetric.InnerProduct => Rescore<DotStep, NegateFinish>(ref query, heap[..found]),
-                _ => Rescore<DotStep, OneMinusFinish>(ref query, heap[..found]),
-            };
+            ExactRescoring.Rescore(Metric, _kernelPath, ref query, Dimension, heap[..found], new SlotRows(_full!, _slotOf));
         }
 
         TopK.SortBestFirst(heap, found);
         int keep = Math.Min(k, found);
         heap[..keep].CopyTo(destination);
         return keep;
-    }
-
-    // Exact distances on the full vectors for every candidate; the caller sorts.
-    private int Rescore<TStep, TFinish>(ref float query, Span<SearchHit> candidates)
-        where TStep : struct, IAccumulateStep
-        where TFinish : struct, IFinish
-    {
-        int d = Dimension;
-        for (int i = 0; i < candidates.Length; i++)
-        {
-            long id = candidates[i].Id;
-            int slot = _slotOf[id];
-            candidates[i] = new SearchHit(id, TFinish.Apply(ManyKernel.One<TStep>(_kernelPath, ref query, ref _full!.Row(slot), d)));
-        }
-
-        return candidates.Length;
     }
 
     private int ScanProbed<TStep, TFinish>(ReadOnlySpan<float> q, ReadOnlySpan<SearchHit> probes, Span<SearchHit> heap, Func<long, bool>? filter, SearchScratch scratch)

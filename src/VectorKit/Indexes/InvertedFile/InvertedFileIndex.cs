@@ -30,7 +30,7 @@ namespace VectorKit.Indexes.InvertedFile;
 /// <para><b>Persistence.</b> <see cref="Storage.IndexFile"/> saves and loads the index, trained or not (options,
 /// centroids, the quantizer, the lists and the full vectors when kept).</para>
 /// </remarks>
-public sealed partial class InvertedFileIndex : IVectorIndex
+public sealed partial class InvertedFileIndex : ITrainableIndex
 {
     // Bulk adds work in chunks so the temporary copies stay small next to the index.
     private const int AddChunk = 65_536;

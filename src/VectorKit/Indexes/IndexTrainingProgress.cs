@@ -1,4 +1,4 @@
-namespace VectorKit.Indexes.InvertedFile;
+namespace VectorKit.Indexes;
 
 /// <summary>What an index's training is doing.</summary>
 public enum IndexTrainingStage
@@ -9,11 +9,11 @@ public enum IndexTrainingStage
     /// <summary>k-means iterations for the list centroids; <see cref="IndexTrainingProgress.Done"/> counts iterations.</summary>
     RefiningCentroids = 1,
 
-    /// <summary>Training the residual quantizer; <see cref="IndexTrainingProgress.Done"/> counts product-quantizer sub-spaces trained.</summary>
+    /// <summary>Training the quantizer of the stored codes; <see cref="IndexTrainingProgress.Done"/> counts product-quantizer sub-spaces trained (1 of 1 for scalar ranges).</summary>
     TrainingQuantizer = 2,
 }
 
-/// <summary>A progress report from <see cref="InvertedFileIndex.Train"/>.</summary>
+/// <summary>A progress report from <see cref="ITrainableIndex.Train"/>.</summary>
 /// <param name="Stage">The current stage.</param>
 /// <param name="Done">Work done in this stage.</param>
 /// <param name="Total">Work in this stage (for iterations, the most that may run).</param>

@@ -1,0 +1,57 @@
+using System.Runtime.CompilerServices;
+using VectorKit.Distance;
+using VectorKit.Distance.Kernels;
+
+namespace VectorKit.Indexes;
+
+/// <summary>Where the re-scoring stage finds an item's full float32 vector.</summary>
+internal interface IFullRows
+{
+    /// <summary>The first component of <paramref name="id"/>'s full vector, valid until the next call.</summary>
+    ref float Row(long id);
+}
+
+/// <summary>Full vectors kept in memory by the index, found through its id → slot map.</summary>
+internal readonly struct SlotRows(VectorBuffer full, Dictionary<long, int> slotOf) : IFullRows
+{
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public ref float Row(long id) => ref full.Row(slotOf[id]);
+}
+
+/// <summary>
+/// The exact re-scoring stage shared by the compressed indexes: replaces each candidate's approximate distance by the
+/// metric's exact distance on the full vector, with the same kernel as the exact index (so re-scored distances equal
+/// the exact index's, bit for bit). The caller sorts afterwards.
+/// </summary>
+internal static class ExactRescoring
+{
+    /// <param name="metric">The index metric (under cosine, the query and the rows are unit vectors).</param>
+    /// <param name="path">The kernel width chosen for the dimension.</param>
+    /// <param name="query">The query's first component.</param>
+    /// <param name="dimension">Components per vector.</param>
+    /// <param name="candidates">Candidates by approximate distance; rewritten in place.</param>
+    /// <param name="rows">The full vectors.</param>
+    public static void Rescore<TRows>(DistanceMetric metric, KernelPath path, ref float query, int dimension, Span<SearchHit> candidates, TRows rows)
+        where TRows : struct, IFullRows
+    {
+        // distance = offset + sign · sum: squared L2 as is, inner product negated, cosine 1 − dot.
+        switch (metric)
+        {
+            case DistanceMetric.SquaredEuclidean: Rescore<SquaredDifferenceStep, TRows>(path, ref query, dimension, candidates, rows, 0f, 1f); break;
+            case DistanceMetric.InnerProduct: Rescore<DotStep, TRows>(path, ref query, dimension, candidates, rows, 0f, -1f); break;
+            default: Rescore<DotStep, TRows>(path, ref query, dimension, candidates, rows, 1f, -1f); break;
+        }
+    }
+
+    private static void Rescore<TStep, TRows>(KernelPath path, ref float query, int dimension, Span<SearchHit> candidates, TRows rows, float offset, float sign)
+        where TStep : struct, IAccumulateStep
+        where TRows : struct, IFullRows
+    {
+        for (int i = 0; i < candidates.Length; i++)
+        {
+            long id = candidates[i].Id;
+            float sum = ManyKernel.One<TStep>(path, ref query, ref rows.Row(id), dimension);
+            candidates[i] = new SearchHit(id, offset + (sign * sum));
+        }
+    }
+}
