@@ -13,8 +13,8 @@ namespace VectorKit.IO;
 /// </summary>
 /// <remarks>
 /// <para><b>Reads.</b> Each <see cref="TryGetVector"/> is one positional read (<see cref="RandomAccess.Read(SafeFileHandle, Span{byte}, long)"/>)
-/// straight into the caller's span (two for .fvecs: the row's dimension prefix, checked, then the values). There is
-/// no shared stream position, no lock and no allocation on the read path. The operating system's page cache does the
+/// straight into the caller's span (for .fvecs into a per-thread buffer, so the row's dimension prefix is checked, then
+/// copied). There is no shared stream position, no lock and no allocation on the read path. The operating system's page cache does the
 /// caching: a file that fits in free memory is read from RAM after the first touch.</para>
 /// <para><b>Checks.</b> Opening parses and checks the header with the same rules as <see cref="NpyReader"/> and
 /// <see cref="VecsReader"/> (sizes against <see cref="DataReadLimits"/> and against the file length, before anything
@@ -34,6 +34,10 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     private readonly string _format;
     private readonly Dictionary<long, int>? _rowOf;
     private volatile bool _disposed;
+
+    // A .fvecs row with its prefix, per thread (grown to the widest row seen), so a read allocates nothing.
+    [ThreadStatic]
+    private static byte[]? t_prefixedRow;
 
     private FileVectorSource(SafeFileHandle handle, string path, string format, long dataStart, long count, int dimension, bool prefixed, long[]? rowIds)
     {
@@ -235,21 +239,27 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
         }
 
         long offset = _dataStart + (row * _rowStride);
+        Span<float> values = destination[..d];
         if (_prefixed)
         {
-            Span<byte> prefix = stackalloc byte[sizeof(int)];
-            ReadExactly(prefix, offset, row, "the dimension of row");
-            int found = BinaryPrimitives.ReadInt32LittleEndian(prefix);
+            // Prefix and values in one read (one system call) through this thread's buffer, then one copy.
+            int bytes = (int)_rowStride;
+            byte[] buffer = t_prefixedRow is { } held && held.Length >= bytes ? held : (t_prefixedRow = new byte[bytes]);
+            Span<byte> whole = buffer.AsSpan(0, bytes);
+            ReadExactly(whole, offset, row, "row");
+            int found = BinaryPrimitives.ReadInt32LittleEndian(whole);
             if (found != d)
             {
                 DataFormatThrow.RaggedRow(_format, row, d, found, offset);
             }
 
-            offset += sizeof(int);
+            whole[sizeof(int)..].CopyTo(MemoryMarshal.AsBytes(values));
+        }
+        else
+        {
+            ReadExactly(MemoryMarshal.AsBytes(values), offset, row, "the values of row");
         }
 
-        Span<float> values = destination[..d];
-        ReadExactly(MemoryMarshal.AsBytes(values), offset, row, "the values of row");
         if (!BitConverter.IsLittleEndian)
         {
             Span<int> raw = MemoryMarshal.Cast<float, int>(values);

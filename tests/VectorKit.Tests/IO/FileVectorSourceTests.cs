@@ -173,6 +173,20 @@ public sealed class FileVectorSourceTests : IDisposable
         var e = Assert.Throws<DataFormatException>(() => source.TryGetVector(4, row));
         Assert.Contains("the values of row 4", e.Message, StringComparison.Ordinal);
         Assert.Contains("at byte offset 64: expected 16 bytes, found 6", e.Message, StringComparison.Ordinal);
+
+        // .fvecs reads a row with its prefix: rows of 20 bytes, row 4 at byte 80, 6 of its bytes left.
+        string fvecs = Write(Layout.Fvecs, data, D);
+        using FileVectorSource prefixed = FileVectorSource.OpenFvecs(fvecs);
+        using (var file = new FileStream(fvecs, FileMode.Open, FileAccess.Write, FileShare.ReadWrite))
+        {
+            file.SetLength((4 * 20) + 6);
+        }
+
+        Assert.True(prefixed.TryGetVector(3, row));
+        Assert.Equal([12f, 13f, 14f, 15f], row);
+        e = Assert.Throws<DataFormatException>(() => prefixed.TryGetVector(4, row));
+        Assert.Contains("row 4 in", e.Message, StringComparison.Ordinal);
+        Assert.Contains("at byte offset 80: expected 20 bytes, found 6", e.Message, StringComparison.Ordinal);
     }
 
     [Fact]
