@@ -130,6 +130,9 @@ public sealed class NpyReader : VectorReader
     /// <summary>The major format version: 1, 2 or 3.</summary>
     public int FormatVersion { get; }
 
+    /// <summary>The byte offset of the first data byte (just after the header), from where the reader started.</summary>
+    internal long DataStart => Offset;
+
     /// <summary>Opens a .npy file for streaming.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>

@@ -1,6 +1,8 @@
+using System.Diagnostics.CodeAnalysis;
 using System.Runtime.CompilerServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
+using VectorKit.Reranking;
 
 namespace VectorKit.Indexes;
 
@@ -16,6 +18,59 @@ internal readonly struct SlotRows(VectorBuffer full, Dictionary<long, int> slotO
 {
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public ref float Row(long id) => ref full.Row(slotOf[id]);
+}
+
+/// <summary>
+/// Full vectors read from an attached <see cref="IFullVectorSource"/> (a file read on demand) into a per-thread row,
+/// normalised there under cosine so the row matches what an in-memory index would have stored (the same
+/// <see cref="VectorChecks.Normalize"/>, so the re-scored distances are bit-identical to <see cref="SlotRows"/>').
+/// </summary>
+internal readonly struct SourceRows(IFullVectorSource source, int dimension, bool normalise) : IFullRows
+{
+    // One row per thread: Rescore uses a row before asking for the next, and a search runs on one thread.
+    [ThreadStatic]
+    private static float[]? t_row;
+
+    public ref float Row(long id)
+    {
+        float[] row = t_row is { } held && held.Length >= dimension ? held : (t_row = new float[dimension]);
+        Span<float> span = row.AsSpan(0, dimension);
+        if (!source.TryGetVector(id, span))
+        {
+            ThrowMissing(id);
+        }
+
+        if (normalise)
+        {
+            VectorChecks.Normalize(span, span, "full vector");
+        }
+
+        return ref row[0];
+    }
+
+    /// <summary>The checks of <see cref="IExternalFullVectors.AttachFullVectors"/>, shared by the index kinds.</summary>
+    public static void CheckAttach(IFullVectorSource source, int dimension, bool external)
+    {
+        ArgumentNullException.ThrowIfNull(source);
+        if (source.Dimension != dimension)
+        {
+            ThrowHelper.ThrowArgument(nameof(source), $"the source's vectors have {source.Dimension} components; the index dimension is {dimension}.");
+        }
+
+        if (!external)
+        {
+            throw new InvalidOperationException("This index does not read full vectors from a source: create it with FullVectorLocation.ExternalSource and a positive re-scoring depth under compressed storage.");
+        }
+    }
+
+    /// <summary>Thrown by a search that needs to re-score while no source is attached.</summary>
+    [DoesNotReturn]
+    public static void ThrowNoSource()
+        => throw new InvalidOperationException("Re-scoring reads full vectors from an external source, but none is attached (a loaded index has none): call AttachFullVectors, or search with RescoreDepth = 0 for approximate distances.");
+
+    [DoesNotReturn]
+    private static void ThrowMissing(long id)
+        => throw new InvalidOperationException($"The attached full-vector source has no vector for id {id}; it must hold the vector of every id added to the index.");
 }
 
 /// <summary>

@@ -5,7 +5,11 @@ namespace VectorKit.Reranking;
 /// index whose own distances are approximate (a compressed index). Without one, the pipeline reads vectors back
 /// from the index with <see cref="Indexes.IVectorIndex.TryGetVector"/>.
 /// </summary>
-/// <remarks>Called concurrently from several threads; implementations must be thread-safe.</remarks>
+/// <remarks>
+/// Called concurrently from several threads; implementations must be thread-safe. Compressed indexes whose options say
+/// <see cref="Indexes.FullVectorLocation.ExternalSource"/> re-score from one too (<see cref="Indexes.IExternalFullVectors"/>);
+/// <see cref="IO.FileVectorSource"/> reads the vectors from a file on demand.
+/// </remarks>
 public interface IFullVectorSource
 {
     /// <summary>Components per vector; must equal the index's dimension.</summary>

@@ -7,7 +7,8 @@ namespace VectorKit.Storage;
 /// <summary>
 /// The inverted-file index: its options and whether it is trained as header fields; sections centroids, the
 /// quantizer (product codebooks or scalar ranges, under compressed storage), list lengths, ids, list codes and the
-/// full vectors (when kept), in that order. Entries are stored in list order; an untrained index stores empty
+/// full vectors (when kept in memory), in that order; an index reading full vectors from an external source records
+/// that in the field <c>full-vector-location</c> and stores no vectors. Entries are stored in list order; an untrained index stores empty
 /// centroid and quantizer sections and no entries.
 /// </summary>
 internal sealed class InvertedFileIndexCodec : IndexCodec
@@ -22,6 +23,9 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
     private const string Seed = "seed";
     private const string TrainingParallelism = "training-parallelism";
     private const string Trained = "trained";
+
+    // Written only for an external source (absent: in the index's memory), so in-memory files keep their bytes.
+    private const string FullVectorLocationField = "full-vector-location";
 
     public override IndexKind Kind => IndexKind.InvertedFile;
 
@@ -48,6 +52,10 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             header.Integers[Seed] = options.Seed;
             header.Integers[TrainingParallelism] = options.TrainingParallelism;
             header.Integers[Trained] = parts.Trained ? 1 : 0;
+            if (options.FullVectors != FullVectorLocation.InIndexMemory)
+            {
+                header.Integers[FullVectorLocationField] = (int)options.FullVectors;
+            }
             header.Sections.Add(new SectionEntry((uint)SectionId.Centroids, 0, checked((long)parts.Centroids.Length * sizeof(float))));
             if (options.Storage == ListStorage.ProductCodes)
             {
@@ -131,6 +139,9 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         }
 
         int sampleSize = (int)header.Integer(TrainingSampleSize, 0, int.MaxValue);
+        var location = header.Integers.ContainsKey(FullVectorLocationField)
+            ? (FullVectorLocation)header.Integer(FullVectorLocationField, (int)FullVectorLocation.InIndexMemory, (int)FullVectorLocation.ExternalSource)
+            : FullVectorLocation.InIndexMemory;
         var options = new InvertedFileOptions
         {
             ListCount = lists,
@@ -142,6 +153,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             TrainingSampleSize = sampleSize == 0 ? null : sampleSize,
             Seed = (int)header.Integer(Seed, int.MinValue, int.MaxValue),
             TrainingParallelism = parallelism,
+            FullVectors = location,
         };
         bool trained = header.Integer(Trained, 0, 1) == 1;
         if (!trained && count != 0)
@@ -160,7 +172,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             ListStorage.ProductCodes => productCodeBytes,
             _ => ScalarQuantizer.PaddedLength(d),
         };
-        bool keepsFull = storage != ListStorage.Float32 && options.RescoreDepth > 0;
+        bool keepsFull = options.KeepsFullInMemory;
 
         reader.OpenSection(SectionId.Centroids);
         float[] centroids = reader.ReadArray<float>(trained ? checked(lists * d) : 0);

@@ -1,5 +1,6 @@
 using System.Buffers.Binary;
 using VectorKit.Distance;
+using VectorKit.Indexes;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.Storage;
 
@@ -97,6 +98,31 @@ public class CraftedInvertedFileTests
         header.Integers["trained"] = 1;
         header.Integers["list-storage"] = (int)ListStorage.Float32;
         Assert.Contains("this index kind expects 'ListLengths' (id 8) there", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
+    }
+
+    [Fact]
+    [Trait("Weakness", "CWE-20 input validation")]
+    public void AFullVectorLocationThatDisagreesWithTheSections_IsRejected()
+    {
+        using InvertedFileIndex external = StorageSamples.InvertedFile(ListStorage.Scalar8Bit, rescoreDepth: 3, fullVectors: FullVectorLocation.ExternalSource);
+        byte[] file = IndexFileBytes.Save(external);
+        IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
+        Assert.Equal(1, header.Integers["full-vector-location"]);
+        Assert.DoesNotContain(IndexFileBytes.Map(file), s => s.Id == (uint)SectionId.Vectors);
+
+        // Claimed in memory, but no vectors stored; and a value that names no location.
+        header.Integers.Remove("full-vector-location");
+        Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file)));
+        header.Integers["full-vector-location"] = 2;
+        Assert.Contains("the field 'full-vector-location' is 2; expected a value in [0, 1]", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
+
+        // Claimed external over a file that stores the vectors.
+        using InvertedFileIndex memory = StorageSamples.InvertedFile(ListStorage.Scalar8Bit, rescoreDepth: 3);
+        byte[] withVectors = IndexFileBytes.Save(memory);
+        IndexHeader memoryHeader = IndexFileBytes.CopyHeader(IndexFileBytes.Header(withVectors));
+        Assert.False(memoryHeader.Integers.ContainsKey("full-vector-location"));
+        memoryHeader.Integers["full-vector-location"] = 1;
+        Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors)));
     }
 
     private static string Reject(ListStorage storage, Action<byte[]> damage, int rescoreDepth = 0)

@@ -73,7 +73,7 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
     private static List<byte[]> Corpus()
     {
         var corpus = new List<byte[]>();
-        foreach (string name in new[] { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar" })
+        foreach (string name in new[] { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external" })
         {
             corpus.Add(IndexFileDamageTests.Sample(name));
         }
@@ -244,6 +244,14 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
                 int d = index.Dimension;
                 float[] query = Enumerable.Range(0, d).Select(_ => (float)(random.NextDouble() - 0.5)).ToArray();
                 query[0] += 1;
+
+                // A loaded index that re-scores from an external source has none until one is attached.
+                if (index is IExternalFullVectors { ReadsFullVectorsExternally: true, FullVectorSource: null } external)
+                {
+                    Assert.Throws<InvalidOperationException>(() => index.Search(query, 5));
+                    external.AttachFullVectors(new AnyIdSource(d));
+                }
+
                 index.Search(query, 5);
                 index.Search(query, 3, new SearchOptions { Filter = id => id % 2 == 0, SearchWidth = 4 });
                 index.SearchBatch([.. query, .. query], 4);
@@ -259,5 +267,21 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
         bool finished = task.Wait(TimeSpan.FromSeconds(60));
         Assert.True(finished, $"input seed {inputSeed}: using the loaded index did not finish within 60 s");
         Assert.True(task.Exception is null, $"input seed {inputSeed}: the loaded index failed in use: {task.Exception}");
+    }
+
+    /// <summary>A vector for every id (never zero, so usable under cosine).</summary>
+    private sealed class AnyIdSource(int dimension) : VectorKit.Reranking.IFullVectorSource
+    {
+        public int Dimension => dimension;
+
+        public bool TryGetVector(long id, Span<float> destination)
+        {
+            for (int j = 0; j < dimension; j++)
+            {
+                destination[j] = 1 + ((id + j) & 7);
+            }
+
+            return true;
+        }
     }
 }

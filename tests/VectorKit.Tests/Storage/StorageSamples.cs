@@ -1,6 +1,7 @@
 using VectorKit.Distance;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
+using VectorKit.Indexes;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.Tests.TestData;
 
@@ -42,7 +43,8 @@ internal static class StorageSamples
         int dimension = 3,
         int rescoreDepth = 0,
         int seed = 13,
-        bool remove = true)
+        bool remove = true,
+        FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory)
     {
         var options = new InvertedFileOptions
         {
@@ -54,6 +56,7 @@ internal static class StorageSamples
             TrainingIterations = 3,
             Seed = seed,
             TrainingParallelism = 1,
+            FullVectors = fullVectors,
         };
         var index = new InvertedFileIndex(dimension, metric, options);
         float[] data = ClusteredData.Generate(count, dimension, 4, 0.3f, seed);

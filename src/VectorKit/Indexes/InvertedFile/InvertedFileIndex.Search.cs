@@ -2,6 +2,7 @@ using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
+using VectorKit.Reranking;
 
 namespace VectorKit.Indexes.InvertedFile;
 
@@ -17,11 +18,12 @@ public sealed partial class InvertedFileIndex
     /// <inheritdoc/>
     /// <remarks>
     /// Probes <see cref="SearchOptions.SearchWidth"/> lists (default <see cref="InvertedFileOptions.ListsProbed"/>) and,
-    /// when full vectors are kept, re-scores <see cref="SearchOptions.RescoreDepth"/> candidates (default
+    /// when full vectors are kept (in memory or in an attached source), re-scores <see cref="SearchOptions.RescoreDepth"/> candidates (default
     /// <see cref="InvertedFileOptions.RescoreDepth"/>) exactly. Returns fewer than k hits only when the probed lists
     /// hold fewer than k (passing) vectors.
     /// </remarks>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
         VectorChecks.CheckResultDestination(destination);
@@ -58,6 +60,7 @@ public sealed partial class InvertedFileIndex
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
     public unsafe BatchSearchResults SearchBatch(
         ReadOnlySpan<float> queries,
         int k,
@@ -80,6 +83,11 @@ public sealed partial class InvertedFileIndex
             }
 
             ThrowIfNotTrained();
+            if (_options.Rescores && _full is null && _source is null && (options.RescoreDepth ?? _options.RescoreDepth) > 0)
+            {
+                SourceRows.ThrowNoSource(); // here, not wrapped in the parallel loop's AggregateException
+            }
+
             int completed = 0;
             const int Block = 16;
             int blocks = (queryCount + Block - 1) / Block;
@@ -114,8 +122,14 @@ public sealed partial class InvertedFileIndex
         int k = destination.Length;
         int lists = _options.ListCount;
         int probes = Math.Min(options.SearchWidth ?? _options.ListsProbed, lists);
-        int depth = _full is null ? 0 : options.RescoreDepth ?? _options.RescoreDepth;
+        int depth = _options.Rescores ? options.RescoreDepth ?? _options.RescoreDepth : 0;
         bool rescore = depth > 0;
+        IFullVectorSource? source = _source;
+        if (rescore && _full is null && source is null)
+        {
+            SourceRows.ThrowNoSource();
+        }
+
         int candidates = Math.Min(rescore ? Math.Max(k, depth) : k, _count);
 
         // The lists of the nearest centroids, nearest first so the candidate bound tightens early.
@@ -140,7 +154,14 @@ public sealed partial class InvertedFileIndex
 
         if (rescore)
         {
-            ExactRescoring.Rescore(Metric, _kernelPath, ref query, Dimension, heap[..found], new SlotRows(_full!, _slotOf));
+            if (_full is not null)
+            {
+                ExactRescoring.Rescore(Metric, _kernelPath, ref query, Dimension, heap[..found], new SlotRows(_full, _slotOf));
+            }
+            else
+            {
+                ExactRescoring.Rescore(Metric, _kernelPath, ref query, Dimension, heap[..found], new SourceRows(source!, Dimension, Metric == DistanceMetric.Cosine));
+            }
         }
 
         TopK.SortBestFirst(heap, found);

@@ -110,7 +110,7 @@ public sealed partial class InvertedFileIndex
     {
         int lists = _options.ListCount;
         int count = parts.Count;
-        bool keepsFull = _options.Storage != ListStorage.Float32 && _options.RescoreDepth > 0;
+        bool keepsFull = _options.KeepsFullInMemory;
         if ((parts.FullVectors is not null) != keepsFull)
         {
             throw new InvalidDataException(keepsFull

@@ -3,6 +3,7 @@ using VectorKit.Clustering;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Quantization;
+using VectorKit.Reranking;
 
 namespace VectorKit.Indexes.InvertedFile;
 
@@ -25,12 +26,19 @@ namespace VectorKit.Indexes.InvertedFile;
 /// Compressed lists report the distance to the code's reconstruction, unless re-scoring is on, in which case the
 /// returned hits carry exact distances computed on the full vectors. A filter is checked during the scan of the probed
 /// lists, so fewer than k results come back when the probed lists hold fewer than k passing items.</para>
+/// <para><b>Full vectors from a source.</b> With <see cref="InvertedFileOptions.FullVectors"/> set to
+/// <see cref="FullVectorLocation.ExternalSource"/>, the index keeps no full vectors: re-scoring reads each candidate's
+/// vector from the <see cref="IFullVectorSource"/> given at construction or attached later with
+/// <see cref="AttachFullVectors"/> (a loaded index has none until then; a search that would re-score without one
+/// throws <see cref="InvalidOperationException"/>). Under cosine the rows read are normalised as the index normalises
+/// added vectors, so the results equal, bit for bit, those of the same index keeping the vectors in memory.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds
 /// and removes wait for running searches and block new ones. A batch search holds the index for its duration.</para>
 /// <para><b>Persistence.</b> <see cref="Storage.IndexFile"/> saves and loads the index, trained or not (options,
-/// centroids, the quantizer, the lists and the full vectors when kept).</para>
+/// centroids, the quantizer, the lists and the full vectors when kept in memory; an external source is neither saved
+/// nor disposed by the index: attach it again after loading).</para>
 /// </remarks>
-public sealed partial class InvertedFileIndex : ITrainableIndex
+public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVectors
 {
     // Bulk adds work in chunks so the temporary copies stay small next to the index.
     private const int AddChunk = 65_536;
@@ -57,6 +65,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
     private int[] _listOf = [];
     private int[] _positionOf = [];
     private readonly VectorBuffer? _full;
+    private IFullVectorSource? _source;
     private int _count;
     private bool _disposed;
 
@@ -69,6 +78,22 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
     public InvertedFileIndex(int dimension, DistanceMetric metric, InvertedFileOptions? options = null)
         : this(dimension, metric, options, KernelDispatch.Widest)
     {
+    }
+
+    /// <summary>Creates an empty, untrained inverted-file index that re-scores from <paramref name="fullVectors"/>.</summary>
+    /// <param name="dimension">Components per vector, at least 1.</param>
+    /// <param name="metric">The distance metric.</param>
+    /// <param name="options">Options with compressed storage, a positive <see cref="InvertedFileOptions.RescoreDepth"/> and <see cref="InvertedFileOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
+    /// <param name="fullVectors">The full vector of every id that will be added (not owned by the index).</param>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
+    /// <exception cref="ArgumentException">The source's dimension differs, or the product code size does not divide the dimension.</exception>
+    /// <exception cref="ArgumentNullException"><paramref name="options"/> or <paramref name="fullVectors"/> is <see langword="null"/>.</exception>
+    /// <exception cref="InvalidOperationException">The options do not re-score from an external source.</exception>
+    public InvertedFileIndex(int dimension, DistanceMetric metric, InvertedFileOptions options, IFullVectorSource fullVectors)
+        : this(dimension, metric, options ?? throw new ArgumentNullException(nameof(options)), KernelDispatch.Widest)
+    {
+        SourceRows.CheckAttach(fullVectors, dimension, _options.ReadsExternally);
+        _source = fullVectors;
     }
 
     /// <summary>Creates an index whose kernels run no wider than <paramref name="kernelPath"/> (tests sweep every path).</summary>
@@ -108,7 +133,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
         _listCounts = new int[lists];
         Array.Fill(_listCodes, []);
         Array.Fill(_listSlots, []);
-        if (options.Storage != ListStorage.Float32 && options.RescoreDepth > 0)
+        if (options.KeepsFullInMemory)
         {
             _full = loadedFull ?? new VectorBuffer(dimension, 0);
         }
@@ -126,8 +151,30 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
     /// <summary>Whether <see cref="Train"/> has run; adds and searches need it.</summary>
     public bool IsTrained => Volatile.Read(ref _trained);
 
-    /// <summary>Whether the full float32 vectors are kept for exact re-scoring (compressed storage with a positive <see cref="InvertedFileOptions.RescoreDepth"/>).</summary>
+    /// <summary>Whether the full float32 vectors are kept in the index's memory for exact re-scoring (compressed storage with a positive <see cref="InvertedFileOptions.RescoreDepth"/> and <see cref="FullVectorLocation.InIndexMemory"/>).</summary>
     public bool KeepsFullVectors => _full is not null;
+
+    /// <inheritdoc/>
+    public bool ReadsFullVectorsExternally => _options.ReadsExternally;
+
+    /// <inheritdoc/>
+    public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
+
+    /// <inheritdoc/>
+    public void AttachFullVectors(IFullVectorSource source)
+    {
+        SourceRows.CheckAttach(source, Dimension, _options.ReadsExternally);
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            Volatile.Write(ref _source, source);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
 
     /// <summary>
     /// Bytes a search reads per stored vector in the lists: 4 × dimension for float32, the code size for product
@@ -279,7 +326,9 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
     }
 
     /// <inheritdoc/>
-    /// <remarks>Under compressed storage without full vectors, this is the reconstruction (centroid + decoded residual), not the vector added.</remarks>
+    /// <remarks>Under compressed storage the full vector when the index keeps it or a source is attached (unit length under
+    /// cosine), otherwise the reconstruction (centroid + decoded residual), not the vector added.</remarks>
+    /// <exception cref="InvalidOperationException">An attached source has no vector for an id the index holds.</exception>
     public bool TryGetVector(long id, Span<float> destination)
     {
         VectorChecks.CheckVectorDestination(destination, Dimension);
@@ -303,6 +352,11 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
             else if (_full is not null)
             {
                 _full.RowSpan(slot).CopyTo(destination);
+            }
+            else if (_source is not null)
+            {
+                ref float row = ref new SourceRows(_source, d, Metric == DistanceMetric.Cosine).Row(id);
+                MemoryMarshal.CreateReadOnlySpan(ref row, d).CopyTo(destination);
             }
             else
             {

@@ -13,6 +13,7 @@ public sealed class InvertedFileOptions
     private readonly ListStorage _storage = ListStorage.Float32;
     private readonly int _productCodeBytes = 16;
     private readonly int _rescoreDepth;
+    private readonly FullVectorLocation _fullVectors = FullVectorLocation.InIndexMemory;
     private readonly int _trainingIterations = 20;
     private readonly int? _trainingSampleSize;
     private readonly int _trainingParallelism = -1;
@@ -95,8 +96,8 @@ public sealed class InvertedFileOptions
     }
 
     /// <summary>
-    /// Under compressed storage, a positive value keeps every full float32 vector in memory beside its code and, by
-    /// default, re-scores this many best candidates (by code distance) exactly before returning the best k; a search
+    /// Under compressed storage, a positive value keeps every full float32 vector (in memory beside its code, or in an
+    /// external source: <see cref="FullVectors"/>) and, by default, re-scores this many best candidates (by code distance) exactly before returning the best k; a search
     /// overrides the depth with <see cref="SearchOptions.RescoreDepth"/>. 0 (the default) keeps no full vectors, so
     /// distances are the codes' approximations. Ignored under <see cref="ListStorage.Float32"/>, which is exact already.
     /// </summary>
@@ -112,6 +113,28 @@ public sealed class InvertedFileOptions
             }
 
             _rescoreDepth = value;
+        }
+    }
+
+    /// <summary>
+    /// Where re-scoring (a positive <see cref="RescoreDepth"/> under compressed storage) reads full vectors: a copy kept
+    /// in the index's memory (the default), or an <see cref="Reranking.IFullVectorSource"/> attached with
+    /// <see cref="InvertedFileIndex.AttachFullVectors"/>, such as a <see cref="IO.FileVectorSource"/> over the file the
+    /// vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's file,
+    /// at the cost of one read per re-scored candidate. Ignored when re-scoring is off.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="Indexes.FullVectorLocation"/>.</exception>
+    public FullVectorLocation FullVectors
+    {
+        get => _fullVectors;
+        init
+        {
+            if (value is not (FullVectorLocation.InIndexMemory or FullVectorLocation.ExternalSource))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(FullVectors), value, "must be InIndexMemory or ExternalSource");
+            }
+
+            _fullVectors = value;
         }
     }
 
@@ -169,6 +192,15 @@ public sealed class InvertedFileOptions
             _trainingParallelism = value;
         }
     }
+
+    /// <summary>Whether the index re-scores: compressed storage and a positive depth.</summary>
+    internal bool Rescores => _storage != ListStorage.Float32 && _rescoreDepth > 0;
+
+    /// <summary>Whether the index keeps the full vectors itself.</summary>
+    internal bool KeepsFullInMemory => Rescores && _fullVectors == FullVectorLocation.InIndexMemory;
+
+    /// <summary>Whether re-scoring reads an attached source.</summary>
+    internal bool ReadsExternally => Rescores && _fullVectors == FullVectorLocation.ExternalSource;
 
     internal int EffectiveTrainingSampleSize => _trainingSampleSize ?? (int)Math.Min(int.MaxValue, 64L * _listCount);
 
