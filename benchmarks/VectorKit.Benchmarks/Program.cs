@@ -11,7 +11,8 @@ namespace VectorKit.Benchmarks;
 /// <c>clustered-sweep [count] [dimension]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
 /// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; the inverted-file harness,
 /// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; re-scoring from memory vs a file,
-/// <c>rescore-source [count] [dimension] [lists] [product code bytes]</c>; and the load-speed harness:
+/// <c>rescore-source [count] [dimension] [lists] [product code bytes]</c>; the 8-bit exact index harness,
+/// <c>exact-scalar-sweep [count] [dimension]</c>; and the load-speed harness:
 /// <c>storage-load [exact count] [graph count] [dimension]</c>.
 /// </summary>
 public static class Program
@@ -64,6 +65,14 @@ public static class Program
             int lists = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 512;
             int productBytes = args.Length > 4 ? int.Parse(args[4], CultureInfo.InvariantCulture) : 32;
             RescoreSourceSweep.Run(count, dimension, lists, productBytes);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "exact-scalar-sweep")
+        {
+            int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
+            int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
+            ExactScalarSweep.Run(count, dimension);
             return;
         }
 

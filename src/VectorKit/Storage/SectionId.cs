@@ -36,6 +36,9 @@ internal enum SectionId : uint
     /// <summary>Inverted file under product codes: the codewords, <c>code bytes × 256 × (dimension / code bytes)</c> float32.</summary>
     ProductCodebooks = 10,
 
-    /// <summary>Inverted file under 8-bit scalar codes: <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
+    /// <summary>Under 8-bit scalar codes (inverted file, exact index): <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
     ScalarRanges = 11,
+
+    /// <summary>One 8-bit scalar code per row, row order, each <c>dimension</c> rounded up to 16 bytes (padding zero).</summary>
+    ScalarCodes = 12,
 }

@@ -39,6 +39,45 @@ public class GoldenFileTests
     }
 
     [Fact]
+    public void ExactIndexWith8BitStorageFixtureOfVersion1_LoadsToItsContents()
+    {
+        // Cosine with the full vectors kept: every part of the variant (ranges, codes, unit vectors) is in it.
+        using ExactIndex built = StorageSamples.ExactScalar(count: 8, dimension: 3, metric: DistanceMetric.Cosine, rescoreDepth: 4);
+        byte[] fixture = Fixture("exact-scalar-v1.vkx", IndexFileBytes.Save(built));
+        Assert.Equal(1u, BinaryPrimitives.ReadUInt32LittleEndian(fixture.AsSpan(8)));
+
+        using var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(fixture), IndexLoadOptions.Untrusted);
+        Assert.Equal((7, 3, DistanceMetric.Cosine), (loaded.Count, loaded.Dimension, loaded.Metric));
+        Assert.Equal((VectorStorage.Scalar8Bit, 4, true, true), (loaded.Storage, loaded.RescoreDepth, loaded.KeepsFullVectors, loaded.IsTrained));
+
+        // The full vectors are the rows added, at unit length; the removed id is gone. Re-scoring every item gives the
+        // answer of a float32 exact index over the same rows (an independent index's answer).
+        float[] data = ClusteredData.Generate(8, 3, 3, 0.3f, 7);
+        using var exact = new ExactIndex(3, DistanceMetric.Cosine);
+        var row = new float[3];
+        for (int i = 0; i < 8; i++)
+        {
+            long id = 1000 + (i * 7);
+            Assert.Equal(id != 1007, loaded.TryGetVector(id, row));
+            if (id != 1007)
+            {
+                exact.Add(id, data.AsSpan(i * 3, 3));
+                var unit = new float[3];
+                Assert.True(exact.TryGetVector(id, unit));
+                Assert.Equal(unit, row);
+            }
+        }
+
+        var everything = new SearchOptions { RescoreDepth = 7 };
+        foreach (float[] query in new[] { new float[] { 1, 0, 0 }, [0.5f, -0.5f, 1], [-1, 1, 0.25f] })
+        {
+            Assert.Equal(exact.Search(query, 5), loaded.Search(query, 5, everything));
+        }
+
+        Assert.Equal(fixture, IndexFileBytes.Save(loaded));
+    }
+
+    [Fact]
     public void GraphIndexFixtureOfVersion1_LoadsToItsContents()
     {
         using GraphIndex built = StorageSamples.Graph(count: 24, dimension: 3);

@@ -15,7 +15,7 @@ namespace VectorKit.Tests.Storage;
 /// </summary>
 public class IndexFileDamageTests
 {
-    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external" };
+    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full" };
 
     [Theory]
     [MemberData(nameof(Samples))]
@@ -330,6 +330,8 @@ public class IndexFileDamageTests
             "ivf-product" => StorageSamples.InvertedFile(ListStorage.ProductCodes, DistanceMetric.InnerProduct, count: 16, dimension: 2, rescoreDepth: 4),
             "ivf-scalar" => StorageSamples.InvertedFile(ListStorage.Scalar8Bit, DistanceMetric.Cosine, count: 16, rescoreDepth: 3),
             "ivf-external" => StorageSamples.InvertedFile(ListStorage.Scalar8Bit, count: 16, rescoreDepth: 3, fullVectors: FullVectorLocation.ExternalSource),
+            "exact-scalar" => StorageSamples.ExactScalar(),
+            "exact-scalar-full" => StorageSamples.ExactScalar(metric: DistanceMetric.Cosine, rescoreDepth: 3),
             _ => throw new ArgumentOutOfRangeException(nameof(name), name, "not a sample"),
         };
         return IndexFileBytes.Save(index);

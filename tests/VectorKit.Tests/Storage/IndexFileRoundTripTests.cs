@@ -36,6 +36,86 @@ public class IndexFileRoundTripTests
         Assert.Equal(file, IndexFileBytes.Save(loaded));
     }
 
+    [Property(MaxTest = 80)]
+    public void ExactIndexWith8BitStorage_RoundTripsWithIdenticalSearchResults(int[] components, byte dimensionSeed, byte metricSeed, int seed, byte removeSeed, byte depthSeed)
+    {
+        DistanceMetric metric = (DistanceMetric)(metricSeed % 3);
+        int d = 1 + (dimensionSeed % 20);
+        int n = Math.Min(components.Length / d, 120);
+        float[] data = Data(components, n, d, seed);
+        long[] ids = Enumerable.Range(0, n).Select(i => ((long)i * 7919) - 3000).ToArray();
+        int depth = depthSeed % 3 == 0 ? 0 : 1 + (depthSeed % 17);
+        using var index = new ExactIndex(d, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = depth });
+
+        // Trained on rows of their own, so some data falls outside the ranges and is clamped.
+        index.Train(Data([.. components, .. Enumerable.Range(0, 16 * d)], 16, d, seed ^ 77));
+        index.AddRange(ids, data);
+        long[] removed = ids.Where((_, i) => (i + removeSeed) % 4 == 0).ToArray();
+        foreach (long id in removed)
+        {
+            index.Remove(id);
+        }
+
+        byte[] file = IndexFileBytes.Save(index);
+        using var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(file));
+        Assert.Equal((VectorStorage.Scalar8Bit, depth, depth > 0, true), (loaded.Storage, loaded.RescoreDepth, loaded.KeepsFullVectors, loaded.IsTrained));
+        AssertSameContents(index, loaded, ids, seed);
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+
+        // Both keep working the same way.
+        float[] more = Data(components.Reverse().ToArray(), Math.Min(n, 20), d, seed + 1);
+        long[] moreIds = Enumerable.Range(0, more.Length / d).Select(i => -1L - i).ToArray();
+        foreach (ExactIndex target in new[] { index, loaded })
+        {
+            target.AddRange(moreIds, more);
+            if (moreIds.Length > 0)
+            {
+                target.Remove(moreIds[0]);
+            }
+        }
+
+        AssertSameContents(index, loaded, [.. ids, .. moreIds], seed + 2);
+        Assert.Equal(IndexFileBytes.Save(index), IndexFileBytes.Save(loaded));
+    }
+
+    [Theory]
+    [InlineData(DistanceMetric.SquaredEuclidean, 0)]
+    [InlineData(DistanceMetric.Cosine, 4)]
+    public void UntrainedExactIndexWith8BitStorage_RoundTrips_AndTrainsLikeTheOriginal(DistanceMetric metric, int rescoreDepth)
+    {
+        using var index = new ExactIndex(4, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth });
+        byte[] file = IndexFileBytes.Save(index);
+        using var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(file), IndexLoadOptions.Untrusted);
+        Assert.False(loaded.IsTrained);
+        Assert.Equal((0, 4, metric, VectorStorage.Scalar8Bit, rescoreDepth), (loaded.Count, loaded.Dimension, loaded.Metric, loaded.Storage, loaded.RescoreDepth));
+        Assert.Throws<IndexNotTrainedException>(() => loaded.Search(new float[] { 1, 0, 0, 0 }, 1));
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+
+        float[] rows = ClusteredData.Generate(30, 4, 3, 0.3f, 5);
+        long[] ids = Enumerable.Range(0, 30).Select(i => (long)i).ToArray();
+        foreach (ExactIndex target in new[] { index, loaded })
+        {
+            target.Train(ClusteredData.Generate(50, 4, 3, 0.3f, 4));
+            target.AddRange(ids, rows);
+        }
+
+        AssertSameContents(index, loaded, ids, 3);
+        Assert.Equal(IndexFileBytes.Save(index), IndexFileBytes.Save(loaded));
+    }
+
+    [Theory]
+    [InlineData(0)]
+    [InlineData(5)]
+    public void ExactIndexWith8BitStorage_FromANonSeekableTrickle_LoadsTheSameIndex(int rescoreDepth)
+    {
+        // The code block grows with the data when the stream's length is unknown.
+        using ExactIndex index = StorageSamples.ExactScalar(count: 3000, dimension: 20, metric: DistanceMetric.InnerProduct, rescoreDepth: rescoreDepth);
+        byte[] file = IndexFileBytes.Save(index);
+        using var loaded = IndexFile.Load<ExactIndex>(new TrickleStream(file, maxPerRead: 4093));
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+        AssertSameContents(index, loaded, Enumerable.Range(0, 3000).Select(i => 1000L + (i * 7)).ToArray(), 17);
+    }
+
     [Property(MaxTest = 60)]
     public void GraphIndex_RoundTripsWithIdenticalSearchResults(int[] components, byte dimensionSeed, byte metricSeed, int seed, byte linksSeed, byte removeSeed, bool compact)
     {

@@ -1,7 +1,7 @@
 using VectorKit.Distance;
+using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
-using VectorKit.Indexes;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.Tests.TestData;
 
@@ -15,6 +15,17 @@ internal static class StorageSamples
         var index = new ExactIndex(dimension, metric);
         float[] data = ClusteredData.Generate(count, dimension, 3, 0.3f, seed);
         index.AddRange(Enumerable.Range(0, count).Select(i => 1000L + (i * 7)).ToArray(), data);
+        return index;
+    }
+
+    /// <summary>A small exact index under 8-bit storage, trained on its own rows, with one removed item.</summary>
+    public static ExactIndex ExactScalar(int count = 12, int dimension = 3, DistanceMetric metric = DistanceMetric.SquaredEuclidean, int rescoreDepth = 0, int seed = 7)
+    {
+        var index = new ExactIndex(dimension, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth });
+        float[] data = ClusteredData.Generate(count, dimension, 3, 0.3f, seed);
+        index.Train(data);
+        index.AddRange(Enumerable.Range(0, count).Select(i => 1000L + (i * 7)).ToArray(), data);
+        index.Remove(1000 + 7);
         return index;
     }
 

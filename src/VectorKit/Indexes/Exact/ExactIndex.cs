@@ -2,6 +2,7 @@ using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
+using VectorKit.Quantization;
 
 namespace VectorKit.Indexes.Exact;
 
@@ -21,11 +22,18 @@ namespace VectorKit.Indexes.Exact;
 /// cannot be proven complete (data far from the origin, where ‖q‖² + ‖x‖² − 2 q·x cancels) is answered by a single-query
 /// scan instead. A batch therefore returns exactly what single searches would. The filter is checked per row before
 /// its distance is computed.</para>
-/// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; adds and removes
-/// wait for running searches and block new ones until they finish, so a search sees the index entirely before or
-/// entirely after each write. A batch search holds the index for its whole duration.</para>
+/// <para><b>8-bit storage.</b> With <see cref="ExactIndexOptions.Storage"/> set to <see cref="VectorStorage.Scalar8Bit"/>
+/// the rows are one-byte-per-component codes (<see cref="ScalarQuantizer"/>, ranges learnt by <see cref="Train"/>,
+/// which must run before the first add) in one contiguous native block, and a search streams the codes once through
+/// the SIMD byte-code kernel: distances are those of the query to the decoded codes. With a positive
+/// <see cref="ExactIndexOptions.RescoreDepth"/> the full vectors are kept as well and the best candidates are re-scored
+/// exactly (the same numbers as a float32 exact index). A batch under 8-bit storage runs the single-query scan for
+/// each query, queries in parallel: the tiled kernel and its completeness proof are for float32 rows.</para>
+/// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds and
+/// removes wait for running searches and block new ones until they finish, so a search sees the index entirely before
+/// or entirely after each write. A batch search holds the index for its whole duration.</para>
 /// </remarks>
-public sealed partial class ExactIndex : IVectorIndex
+public sealed partial class ExactIndex : ITrainableIndex
 {
     // A batch works on this many queries at a time per thread, against row tiles of about TileBytes.
     private const int QueryBlock = 64;
@@ -38,6 +46,14 @@ public sealed partial class ExactIndex : IVectorIndex
     private readonly VectorBuffer _vectors;
     private readonly Dictionary<long, int> _slotOf = new();
     private readonly KernelPath _kernelPath;
+
+    // 8-bit storage: the codes (null under float32) and their quantizer once trained. _vectors holds the rows under
+    // float32, the full vectors under 8-bit storage with re-scoring, and nothing (capacity 0) otherwise.
+    private readonly VectorStorage _storage;
+    private readonly int _rescoreDepth;
+    private readonly bool _keepsVectors = true;
+    private readonly CodeBuffer? _codes;
+    private ScalarQuantizer? _scalar;
     private long[] _ids;
     private float[] _squaredNorms;
     private int _count;
@@ -47,7 +63,7 @@ public sealed partial class ExactIndex : IVectorIndex
     /// <summary>Creates an empty exact index.</summary>
     /// <param name="dimension">Components per vector, at least 1.</param>
     /// <param name="metric">The distance metric.</param>
-    /// <param name="options">Capacity options; <see langword="null"/> for <see cref="ExactIndexOptions.Default"/>.</param>
+    /// <param name="options">Capacity, storage and re-scoring options; <see langword="null"/> for <see cref="ExactIndexOptions.Default"/>.</param>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
     public ExactIndex(int dimension, DistanceMetric metric, ExactIndexOptions? options = null)
         : this(dimension, metric, options, KernelDispatch.Widest)
@@ -67,9 +83,18 @@ public sealed partial class ExactIndex : IVectorIndex
         Dimension = dimension;
         Metric = metric;
         _kernelPath = kernelPath;
-        _vectors = new VectorBuffer(dimension, options.InitialCapacity);
-        _ids = new long[options.InitialCapacity];
-        _squaredNorms = metric == DistanceMetric.Cosine ? [] : new float[options.InitialCapacity];
+        _storage = options.Storage;
+        _rescoreDepth = options.RescoreDepth;
+        int capacity = options.InitialCapacity;
+        if (_storage == VectorStorage.Scalar8Bit)
+        {
+            _keepsVectors = _rescoreDepth > 0;
+            _codes = new CodeBuffer(ScalarQuantizer.PaddedLength(dimension), capacity);
+        }
+
+        _vectors = new VectorBuffer(dimension, _keepsVectors ? capacity : 0);
+        _ids = new long[capacity];
+        _squaredNorms = KeepsSquaredNorms(metric, _storage) ? new float[capacity] : [];
     }
 
     /// <inheritdoc/>
@@ -81,8 +106,24 @@ public sealed partial class ExactIndex : IVectorIndex
     /// <inheritdoc/>
     public int Count => Volatile.Read(ref _count);
 
+    /// <summary>How the vectors are stored: float32 rows, or 8-bit codes.</summary>
+    public VectorStorage Storage => _storage;
+
+    /// <summary>The default number of candidates re-scored exactly under 8-bit storage with full vectors kept (0: off).</summary>
+    public int RescoreDepth => _rescoreDepth;
+
+    /// <summary>
+    /// Whether adds and searches may run: always under float32 storage; under 8-bit storage once <see cref="Train"/>
+    /// has learnt the code ranges.
+    /// </summary>
+    public bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
+
+    /// <summary>Whether full float32 vectors are held: under float32 storage, or under 8-bit storage with a positive <see cref="RescoreDepth"/>.</summary>
+    public bool KeepsFullVectors => _keepsVectors;
+
     /// <inheritdoc/>
-    /// <remarks>Vectors at their reserved capacity, ids, norms, and the id lookup's entries (about 28 bytes each).</remarks>
+    /// <remarks>Vectors (and 8-bit codes) at their reserved capacity, ids, norms, the code ranges, and the id lookup's
+    /// entries (about 28 bytes each).</remarks>
     public long MemoryBytes
     {
         get
@@ -91,7 +132,7 @@ public sealed partial class ExactIndex : IVectorIndex
             try
             {
                 return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
-                    + ((long)_slotOf.EnsureCapacity(0) * 28);
+                    + ((long)_slotOf.EnsureCapacity(0) * 28) + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
             }
             finally
             {
@@ -109,16 +150,26 @@ public sealed partial class ExactIndex : IVectorIndex
     }
 
     /// <inheritdoc/>
+    /// <remarks>
+    /// Under 8-bit storage without full vectors this is the decoded code, an approximation of the vector added (each
+    /// component within half a quantization step when inside the trained range, clamped to the range otherwise).
+    /// </remarks>
     public bool TryGetVector(long id, Span<float> destination)
     {
         VectorChecks.CheckVectorDestination(destination, Dimension);
 
         using LockScopes.ReadScope read = _lock.EnterRead();
         ThrowIfDisposed();
+        if (!_keepsVectors)
+        {
+            return TryDecode(id, destination);
+        }
+
         return IdLookup.TryCopyRow(_slotOf, _vectors, id, destination);
     }
 
     /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
     public void Add(long id, ReadOnlySpan<float> vector)
     {
         VectorChecks.CheckForAdd(vector, Dimension, Metric);
@@ -127,6 +178,7 @@ public sealed partial class ExactIndex : IVectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfNotTrained();
             if (_slotOf.ContainsKey(id))
             {
                 ThrowHelper.ThrowDuplicateId(nameof(id), id);
@@ -143,6 +195,7 @@ public sealed partial class ExactIndex : IVectorIndex
     }
 
     /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
     public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors)
     {
         int n = ids.Length;
@@ -152,6 +205,7 @@ public sealed partial class ExactIndex : IVectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfNotTrained();
             foreach (long id in ids)
             {
                 if (_slotOf.ContainsKey(id))
@@ -191,7 +245,12 @@ public sealed partial class ExactIndex : IVectorIndex
             int last = _count - 1;
             if (slot != last)
             {
-                _vectors.CopyRow(last, slot);
+                if (_keepsVectors)
+                {
+                    _vectors.CopyRow(last, slot);
+                }
+
+                _codes?.CopyRow(last, slot);
                 long moved = _ids[last];
                 _ids[slot] = moved;
                 if (_squaredNorms.Length > 0)
@@ -221,7 +280,12 @@ public sealed partial class ExactIndex : IVectorIndex
         try
         {
             ThrowIfDisposed();
-            _vectors.Resize(_count);
+            if (_keepsVectors)
+            {
+                _vectors.Resize(_count);
+            }
+
+            _codes?.Resize(_count);
             Array.Resize(ref _ids, _count);
             if (_squaredNorms.Length > 0)
             {
@@ -237,6 +301,11 @@ public sealed partial class ExactIndex : IVectorIndex
     }
 
     /// <inheritdoc/>
+    /// <remarks>
+    /// Under 8-bit storage with full vectors kept, <see cref="SearchOptions.RescoreDepth"/> (default
+    /// <see cref="RescoreDepth"/>) candidates by code distance are re-scored exactly and the returned distances are exact.
+    /// </remarks>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
         VectorChecks.CheckResultDestination(destination);
@@ -263,6 +332,12 @@ public sealed partial class ExactIndex : IVectorIndex
             try
             {
                 ThrowIfDisposed();
+                if (_codes is not null)
+                {
+                    ThrowIfNotTrained();
+                    return SearchCodesLocked(q, destination, options ?? SearchOptions.Default);
+                }
+
                 return SearchLocked(q, destination, options?.Filter);
             }
             finally
@@ -280,6 +355,8 @@ public sealed partial class ExactIndex : IVectorIndex
     }
 
     /// <inheritdoc/>
+    /// <remarks>Under 8-bit storage each query runs the single-query code scan (and re-scoring), queries in parallel.</remarks>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
     public unsafe BatchSearchResults SearchBatch(
         ReadOnlySpan<float> queries,
         int k,
@@ -296,8 +373,19 @@ public sealed partial class ExactIndex : IVectorIndex
         {
             ThrowIfDisposed();
             var results = new BatchSearchResults(queryCount, Math.Min(k, Math.Max(1, _count)));
+            if (queryCount > 0)
+            {
+                ThrowIfNotTrained();
+            }
+
             if (queryCount == 0 || _count == 0)
             {
+                return results;
+            }
+
+            if (_codes is not null)
+            {
+                SearchCodesBatch(source, queryCount, results, options, progress, cancellationToken);
                 return results;
             }
 
@@ -330,6 +418,7 @@ public sealed partial class ExactIndex : IVectorIndex
 
             _disposed = true;
             _vectors.Dispose();
+            _codes?.Dispose();
             _slotOf.Clear();
             _count = 0;
         }
@@ -422,13 +511,20 @@ public sealed partial class ExactIndex : IVectorIndex
 
     private void EnsureCapacity(int required)
     {
-        _vectors.EnsureCapacity(required);
-        if (_ids.Length < _vectors.Capacity)
+        if (_keepsVectors)
         {
-            Array.Resize(ref _ids, _vectors.Capacity);
-            if (Metric != DistanceMetric.Cosine)
+            _vectors.EnsureCapacity(required);
+        }
+
+        // Both buffers grow by the same rule from the same capacity, so they stay the same size.
+        _codes?.EnsureCapacity(required);
+        int capacity = _codes?.Capacity ?? _vectors.Capacity;
+        if (_ids.Length < capacity)
+        {
+            Array.Resize(ref _ids, capacity);
+            if (KeepsSquaredNorms(Metric, _storage))
             {
-                Array.Resize(ref _squaredNorms, _vectors.Capacity);
+                Array.Resize(ref _squaredNorms, capacity);
             }
         }
     }
@@ -436,6 +532,14 @@ public sealed partial class ExactIndex : IVectorIndex
     // Writes one validated vector into a slot, normalised under cosine; caller holds the write lock.
     private void Store(int slot, long id, ReadOnlySpan<float> vector)
     {
+        if (_codes is not null)
+        {
+            StoreCode(slot, vector);
+            _ids[slot] = id;
+            _slotOf.Add(id, slot);
+            return;
+        }
+
         Span<float> row = _vectors.RowSpan(slot);
         if (Metric == DistanceMetric.Cosine)
         {

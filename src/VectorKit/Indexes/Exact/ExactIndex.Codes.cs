@@ -1,0 +1,297 @@
+using System.Buffers;
+using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
+using VectorKit.Distance;
+using VectorKit.Distance.Kernels;
+using VectorKit.Quantization;
+
+namespace VectorKit.Indexes.Exact;
+
+/// <summary>8-bit storage: training the code ranges, encoding, the code scan, exact re-scoring and the batch.</summary>
+public sealed partial class ExactIndex
+{
+    // Queries of a batch handed to one worker at a time.
+    private const int CodeQueryBlock = 16;
+
+    // A padded query up to this many floats lives on the stack.
+    private const int StackQueryFloats = 1024;
+
+    // Under cosine without kept full vectors, the unit vector being encoded; used under the write lock only.
+    private float[] _unitScratch = [];
+
+    /// <summary>
+    /// Under <see cref="VectorStorage.Scalar8Bit"/>, learns each component's code range (minimum and maximum) from
+    /// <paramref name="sample"/>; under float32 storage it only validates the sample, since nothing is learnt.
+    /// </summary>
+    /// <param name="sample">
+    /// Training rows, row after row: at least one row of finite components (no zero row under cosine, where the rows
+    /// are scaled to unit length first, as they are stored). They are not added to the index. Components outside the
+    /// learnt ranges are clamped when encoded, so the sample should cover the data to come.
+    /// </param>
+    /// <param name="progress">Optional; under 8-bit storage receives <see cref="IndexTrainingStage.TrainingQuantizer"/> 1 of 1 when the ranges are set. Float32 storage reports nothing.</param>
+    /// <param name="cancellationToken">Checked between steps; a cancelled training leaves the index as it was.</param>
+    /// <exception cref="ArgumentException">The sample is empty or not a multiple of the dimension (the message names the minimum of one row), has a non-finite component, or a zero row under cosine (the message names the row).</exception>
+    /// <exception cref="InvalidOperationException">Under 8-bit storage, the index already holds vectors, whose codes depend on the current ranges.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
+    {
+        int d = Dimension;
+        if (sample.Length % d != 0 || sample.Length == 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(sample), $"sample has {sample.Length} components; training needs at least 1 row and a multiple of the index dimension {d}.");
+        }
+
+        VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
+        int n = sample.Length / d;
+        cancellationToken.ThrowIfCancellationRequested();
+        using (_lock.EnterRead())
+        {
+            // Fail before the work when the answer is known already (checked again under the write lock).
+            ThrowIfDisposed();
+            if (_codes is not null)
+            {
+                ThrowIfHoldingVectors();
+            }
+        }
+
+        float[]? normalised = null;
+        if (Metric == DistanceMetric.Cosine)
+        {
+            normalised = _codes is null ? null : new float[sample.Length];
+            for (int r = 0; r < n; r++)
+            {
+                if ((r & 4095) == 4095)
+                {
+                    cancellationToken.ThrowIfCancellationRequested();
+                }
+
+                ReadOnlySpan<float> row = sample.Slice(r * d, d);
+                if (normalised is null)
+                {
+                    VectorChecks.CheckNotZero(row, $"{nameof(sample)} row {r}");
+                }
+                else
+                {
+                    VectorChecks.Normalize(row, normalised.AsSpan(r * d, d), $"{nameof(sample)} row {r}");
+                }
+            }
+        }
+
+        if (_codes is null)
+        {
+            return;
+        }
+
+        cancellationToken.ThrowIfCancellationRequested();
+        ScalarQuantizer scalar = ScalarQuantizer.Train(normalised ?? sample, d);
+        cancellationToken.ThrowIfCancellationRequested();
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            ThrowIfHoldingVectors();
+            Volatile.Write(ref _scalar, scalar);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+
+        progress?.Report(new IndexTrainingProgress(IndexTrainingStage.TrainingQuantizer, 1, 1));
+    }
+
+    private void ThrowIfHoldingVectors()
+    {
+        if (_count > 0)
+        {
+            throw new InvalidOperationException($"The index holds {_count} vectors, whose 8-bit codes depend on the current ranges; train before adding, or build a new index.");
+        }
+    }
+
+    private void ThrowIfNotTrained()
+    {
+        if (_codes is not null && _scalar is null)
+        {
+            throw new IndexNotTrainedException("The exact index stores 8-bit codes and is not trained: call Train with a sample of at least 1 vector (ideally covering the data's range) before adding or searching.");
+        }
+    }
+
+    // Caller holds a lock; 8-bit storage without full vectors.
+    private bool TryDecode(long id, Span<float> destination)
+    {
+        if (!_slotOf.TryGetValue(id, out int slot))
+        {
+            return false;
+        }
+
+        _scalar!.Decode(_codes!.RowSpan(slot), destination);
+        return true;
+    }
+
+    // Encodes one validated vector into a slot's code (and keeps the full vector when re-scoring is on), normalised
+    // under cosine; caller holds the write lock.
+    private void StoreCode(int slot, ReadOnlySpan<float> vector)
+    {
+        ReadOnlySpan<float> row = vector;
+        if (_keepsVectors)
+        {
+            Span<float> full = _vectors.RowSpan(slot);
+            if (Metric == DistanceMetric.Cosine)
+            {
+                VectorChecks.Normalize(vector, full, nameof(vector));
+            }
+            else
+            {
+                vector.CopyTo(full);
+            }
+
+            row = full;
+        }
+        else if (Metric == DistanceMetric.Cosine)
+        {
+            if (_unitScratch.Length < Dimension)
+            {
+                _unitScratch = new float[Dimension];
+            }
+
+            Span<float> unit = _unitScratch.AsSpan(0, Dimension);
+            VectorChecks.Normalize(vector, unit, nameof(vector));
+            row = unit;
+        }
+
+        _scalar!.EncodeUnchecked(row, _codes!.RowSpan(slot));
+    }
+
+    // Caller holds the read lock and checked training; q is validated (unit length under cosine).
+    private int SearchCodesLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options)
+    {
+        if (_count == 0)
+        {
+            return 0;
+        }
+
+        ScalarQuantizer scalar = _scalar!;
+        int k = destination.Length;
+        int depth = _keepsVectors ? options.RescoreDepth ?? _rescoreDepth : 0;
+        int candidates = Math.Min(Math.Max(k, depth), _count);
+
+        // The candidates live in the destination unless re-scoring needs more of them than it holds.
+        SearchHit[]? rentedHits = candidates > k ? ArrayPool<SearchHit>.Shared.Rent(candidates) : null;
+        Span<SearchHit> heap = rentedHits is null ? destination[..candidates] : rentedHits.AsSpan(0, candidates);
+        int padded = scalar.CodeBytes;
+        float[]? rentedQuery = padded > StackQueryFloats ? ArrayPool<float>.Shared.Rent(padded) : null;
+        Span<float> prepared = rentedQuery is null ? stackalloc float[padded] : rentedQuery.AsSpan(0, padded);
+        try
+        {
+            // The query padded with zeros to the code length: padding meets decoded zeros and adds nothing.
+            scalar.Pad(q, prepared);
+            ref float query = ref MemoryMarshal.GetReference(prepared);
+            int found = Metric switch
+            {
+                DistanceMetric.SquaredEuclidean => ScanCodes<SquaredDifferenceStep, KeepFinish>(scalar, ref query, heap, options.Filter),
+                DistanceMetric.InnerProduct => ScanCodes<DotStep, NegateFinish>(scalar, ref query, heap, options.Filter),
+                _ => ScanCodes<DotStep, OneMinusFinish>(scalar, ref query, heap, options.Filter),
+            };
+
+            if (depth > 0)
+            {
+                ExactRescoring.Rescore(Metric, _kernelPath, ref MemoryMarshal.GetReference(q), Dimension, heap[..found], new SlotRows(_vectors, _slotOf));
+            }
+
+            TopK.SortBestFirst(heap, found);
+            int keep = Math.Min(k, found);
+            if (rentedHits is not null)
+            {
+                heap[..keep].CopyTo(destination);
+            }
+
+            return keep;
+        }
+        finally
+        {
+            if (rentedHits is not null)
+            {
+                ArrayPool<SearchHit>.Shared.Return(rentedHits);
+            }
+
+            if (rentedQuery is not null)
+            {
+                ArrayPool<float>.Shared.Return(rentedQuery);
+            }
+        }
+    }
+
+    // One pass over the codes: the byte-code kernel scores a block of rows at a time, the bounded heap keeps the best.
+    private int ScanCodes<TStep, TFinish>(ScalarQuantizer scalar, ref float query, Span<SearchHit> heap, Func<long, bool>? filter)
+        where TStep : struct, IAccumulateStep
+        where TFinish : struct, IFinish
+    {
+        int n = _count;
+        CodeBuffer codes = _codes!;
+        KernelPath path = _kernelPath;
+        long[] ids = _ids;
+        int count = 0;
+        if (filter is not null)
+        {
+            // The filter runs before the distance: rejected rows cost a predicate call, not a kernel call.
+            float single = 0;
+            for (int slot = 0; slot < n; slot++)
+            {
+                long id = ids[slot];
+                if (filter(id))
+                {
+                    scalar.Compute<TStep>(path, ref query, ref codes.Row(slot), 1, ref single);
+                    TopK.Offer(heap, ref count, TFinish.Apply(single), id);
+                }
+            }
+
+            return count;
+        }
+
+        Span<float> block = stackalloc float[ScanBlock];
+        ref float distances = ref MemoryMarshal.GetReference(block);
+        float bound = float.PositiveInfinity;
+        for (int start = 0; start < n; start += ScanBlock)
+        {
+            int length = Math.Min(ScanBlock, n - start);
+            scalar.Compute<TStep>(path, ref query, ref codes.Row(start), length, ref distances);
+            for (int j = 0; j < length; j++)
+            {
+                float distance = TFinish.Apply(Unsafe.Add(ref distances, j));
+                if (distance <= bound)
+                {
+                    TopK.Offer(heap, ref count, distance, ids[start + j]);
+                    bound = TopK.Bound(heap, count);
+                }
+            }
+        }
+
+        return count;
+    }
+
+    // Caller holds the read lock for the whole batch; queries are validated (unit length under cosine).
+    private unsafe void SearchCodesBatch(ReadOnlySpan<float> queries, int queryCount, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
+    {
+        int d = Dimension;
+        int blocks = (queryCount + CodeQueryBlock - 1) / CodeQueryBlock;
+        int completed = 0;
+        var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
+        fixed (float* pinned = queries)
+        {
+            nint address = (nint)pinned;
+            Parallel.For(0, blocks, parallel, b =>
+            {
+                int end = Math.Min(queryCount, (b + 1) * CodeQueryBlock);
+                for (int i = b * CodeQueryBlock; i < end; i++)
+                {
+                    var query = new ReadOnlySpan<float>((float*)address + ((nint)i * d), d);
+                    results.SetCount(i, SearchCodesLocked(query, results.Slots(i), options));
+                }
+
+                int done = Interlocked.Add(ref completed, end - (b * CodeQueryBlock));
+                progress?.Report(done);
+            });
+        }
+    }
+}
