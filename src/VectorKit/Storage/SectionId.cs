@@ -38,4 +38,7 @@ internal enum SectionId : uint
 
     /// <summary>Inverted file under 8-bit scalar codes: <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
     ScalarRanges = 11,
+
+    /// <summary>Inverted file under rotated product codes: the rotation, <c>dimension × dimension</c> float32, row-major (empty when untrained).</summary>
+    ProductRotation = 12,
 }

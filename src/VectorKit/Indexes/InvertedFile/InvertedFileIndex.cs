@@ -44,6 +44,10 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
     // Trained state: centroids (ListCount × Dimension), and the residual quantizer under compressed storage.
     private float[] _centroids = [];
     private ProductQuantizer? _product;
+
+    // Under a rotated product quantizer, R·c for every centroid (derived): a search rotates the query once and takes
+    // each probed list's residual as R·q − R·c, O(d) per list, instead of rotating q − c per list, O(d²).
+    private float[] _rotatedCentroids = [];
     private ScalarQuantizer? _scalar;
     private bool _trained;
 
@@ -157,7 +161,8 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
 
                 bytes += (long)_ids.Length * (sizeof(long) + sizeof(int) + sizeof(int));
                 bytes += _full?.Bytes ?? 0;
-                bytes += _product is null ? 0 : 2L * _product.Codewords.Length * sizeof(float);
+                bytes += _product is null ? 0 : ((2L * _product.Codewords.Length) + _product.Rotation.Length) * sizeof(float);
+                bytes += (long)_rotatedCentroids.Length * sizeof(float);
                 bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
                 bytes += (long)_slotOf.EnsureCapacity(0) * 28;
                 return bytes;
@@ -248,6 +253,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
                         MaxIterations = _options.TrainingIterations,
                         Seed = _options.Seed,
                         MaxDegreeOfParallelism = _options.EffectiveParallelism,
+                        Rotation = _options.ProductCodeRotation,
                     };
                     IProgress<int>? subspaces = progress is null ? null : new SubspaceForward(progress, _options.ProductCodeBytes);
                     product = ProductQuantizer.Train(residuals, d, productOptions, subspaces, cancellationToken);
@@ -260,6 +266,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
             }
 
             _centroids = coarse.CentroidArray;
+            _rotatedCentroids = RotatedCentroids(_centroids, product);
             _product = product;
             _scalar = scalar;
             Volatile.Write(ref _trained, true);
@@ -548,10 +555,12 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
         int blocks = (n + Block - 1) / Block;
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveParallelism };
         int tableLength = _product?.TableLength ?? 0;
-        Parallel.For(0, blocks, parallel, () => new float[d + tableLength], (b, _, scratch) =>
+        int rotatedLength = _product is { IsRotated: true } ? d : 0;
+        Parallel.For(0, blocks, parallel, () => new float[d + rotatedLength + tableLength], (b, _, scratch) =>
         {
             Span<float> residual = scratch.AsSpan(0, d);
-            Span<float> table = scratch.AsSpan(d);
+            Span<float> rotated = scratch.AsSpan(d, rotatedLength);
+            Span<float> table = scratch.AsSpan(d + rotatedLength);
             int end = Math.Min(n, (b + 1) * Block);
             for (int r = b * Block; r < end; r++)
             {
@@ -563,7 +572,12 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
                 }
 
                 Span<byte> code = codes.AsSpan(r * size, size);
-                if (_product is not null)
+                if (rotatedLength > 0)
+                {
+                    _product!.Rotate(residual, rotated);
+                    _product.EncodeUnchecked(rotated, code, table);
+                }
+                else if (_product is not null)
                 {
                     _product.EncodeUnchecked(residual, code, table);
                 }
@@ -680,6 +694,24 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
         }
 
         return rows;
+    }
+
+    // R·c for every centroid under a rotated product quantizer, else empty.
+    private static float[] RotatedCentroids(float[] centroids, ProductQuantizer? product)
+    {
+        if (product is not { IsRotated: true })
+        {
+            return [];
+        }
+
+        int d = product.Dimension;
+        var rotated = new float[centroids.Length];
+        for (int c = 0; c < centroids.Length / d; c++)
+        {
+            product.Rotate(centroids.AsSpan(c * d, d), rotated.AsSpan(c * d, d));
+        }
+
+        return rotated;
     }
 
     private void ThrowIfDisposed()
