@@ -10,7 +10,8 @@ namespace VectorKit.Benchmarks;
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory]</c> and
 /// <c>clustered-sweep [count] [dimension]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
 /// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; the inverted-file harness,
-/// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; and the load-speed harness:
+/// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; product codes with and without the
+/// variance-balancing rotation: <c>product-rotation-sweep [clustered count] [dimension]</c>; and the load-speed harness:
 /// <c>storage-load [exact count] [graph count] [dimension]</c>.
 /// </summary>
 public static class Program
@@ -53,6 +54,14 @@ public static class Program
             int lists = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 1024;
             int productBytes = args.Length > 4 ? int.Parse(args[4], CultureInfo.InvariantCulture) : 64;
             InvertedFileSweep.Run(count, dimension, lists, productBytes);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "product-rotation-sweep")
+        {
+            int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 200_000;
+            int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
+            ProductRotationSweep.Run(count, dimension);
             return;
         }
 

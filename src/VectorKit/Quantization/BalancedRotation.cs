@@ -134,8 +134,7 @@ internal static class BalancedRotation
         }
     }
 
-    // Covariance about the mean, in double; blocks of rows are transposed to float columns and their column pairs
-    // dotted with the SIMD kernel.
+    // Covariance about the mean, in double.
     private static double[] Covariance(ReadOnlySpan<float> sample, int rows, int d, int parallelism, CancellationToken cancellationToken)
     {
         var mean = new double[d];
@@ -153,46 +152,73 @@ internal static class BalancedRotation
             mean[j] /= rows;
         }
 
-        // Blocks in order, rows of the covariance in parallel: every sum is accumulated in the same order on any
-        // number of threads, so the rotation is reproducible.
+        double[] total = CrossProduct(sample, sample, mean, rows, d, symmetric: true, parallelism, cancellationToken);
+        double scale = 1.0 / Math.Max(1, rows - 1);
+        for (int i = 0; i < total.Length; i++)
+        {
+            total[i] *= scale;
+        }
+
+        return total;
+    }
+
+    /// <summary>
+    /// <c>Σ_r (a_r − mean)ᵢ · (b_r − mean)ⱼ</c> for all i, j (d × d, row-major, double); <paramref name="mean"/> null means
+    /// zero. Blocks of rows are transposed to float columns and their column pairs dotted with the SIMD kernel; blocks
+    /// run in order and rows of the result in parallel, so every sum is accumulated in the same order on any number of
+    /// threads and the result is reproducible. With <paramref name="symmetric"/> (a = b) only the lower triangle is
+    /// computed and then mirrored.
+    /// </summary>
+    internal static double[] CrossProduct(ReadOnlySpan<float> a, ReadOnlySpan<float> b, double[]? mean, int rows, int d, bool symmetric, int parallelism, CancellationToken cancellationToken)
+    {
         var total = new double[d * d];
-        var columns = new float[d * CovarianceBlock];
+        var left = new float[d * CovarianceBlock];
+        float[] right = symmetric ? left : new float[d * CovarianceBlock];
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = parallelism, CancellationToken = cancellationToken };
         for (int start = 0; start < rows; start += CovarianceBlock)
         {
             cancellationToken.ThrowIfCancellationRequested();
             int count = Math.Min(CovarianceBlock, rows - start);
-            for (int r = 0; r < count; r++)
+            Transpose(a, mean, start, count, d, left);
+            if (!symmetric)
             {
-                ReadOnlySpan<float> row = sample.Slice((start + r) * d, d);
-                for (int j = 0; j < d; j++)
-                {
-                    columns[(j * CovarianceBlock) + r] = (float)(row[j] - mean[j]);
-                }
+                Transpose(b, mean, start, count, d, right);
             }
 
             Parallel.For(0, d, parallel, i =>
             {
-                ReadOnlySpan<float> a = columns.AsSpan(i * CovarianceBlock, count);
-                Span<double> sums = total.AsSpan(i * d, i + 1);
-                for (int j = 0; j <= i; j++)
+                ReadOnlySpan<float> x = left.AsSpan(i * CovarianceBlock, count);
+                Span<double> sums = total.AsSpan(i * d, symmetric ? i + 1 : d);
+                for (int j = 0; j < sums.Length; j++)
                 {
-                    sums[j] += TensorPrimitives.Dot(a, columns.AsSpan(j * CovarianceBlock, count));
+                    sums[j] += TensorPrimitives.Dot(x, right.AsSpan(j * CovarianceBlock, count));
                 }
             });
         }
 
-        double scale = 1.0 / Math.Max(1, rows - 1);
-        for (int i = 0; i < d; i++)
+        if (symmetric)
         {
-            for (int j = 0; j <= i; j++)
+            for (int i = 0; i < d; i++)
             {
-                double value = total[(i * d) + j] * scale;
-                total[(i * d) + j] = value;
-                total[(j * d) + i] = value;
+                for (int j = 0; j < i; j++)
+                {
+                    total[(j * d) + i] = total[(i * d) + j];
+                }
             }
         }
 
         return total;
+    }
+
+    private static void Transpose(ReadOnlySpan<float> rows, double[]? mean, int start, int count, int d, float[] columns)
+    {
+        for (int r = 0; r < count; r++)
+        {
+            ReadOnlySpan<float> row = rows.Slice((start + r) * d, d);
+            for (int j = 0; j < d; j++)
+            {
+                columns[(j * CovarianceBlock) + r] = mean is null ? row[j] : (float)(row[j] - mean[j]);
+            }
+        }
     }
 }
