@@ -169,7 +169,7 @@ internal static class BalancedRotation
     /// threads and the result is reproducible. With <paramref name="symmetric"/> (a = b) only the lower triangle is
     /// computed and then mirrored.
     /// </summary>
-    internal static double[] CrossProduct(ReadOnlySpan<float> a, ReadOnlySpan<float> b, double[]? mean, int rows, int d, bool symmetric, int parallelism, CancellationToken cancellationToken)
+    private static double[] CrossProduct(ReadOnlySpan<float> a, ReadOnlySpan<float> b, double[]? mean, int rows, int d, bool symmetric, int parallelism, CancellationToken cancellationToken)
     {
         var total = new double[d * d];
         var left = new float[d * CovarianceBlock];

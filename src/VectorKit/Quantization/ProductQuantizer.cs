@@ -34,10 +34,6 @@ public sealed class ProductQuantizer
     /// <summary>Codewords per sub-space: one byte of code.</summary>
     public const int CodewordsPerSubspace = 256;
 
-    // Rounds of SubspaceRotation.VarianceBalancedRefined (the published method runs more, with one Lloyd step each;
-    // 10 keeps training within a few times the unrotated cost at 784 dimensions).
-    private const int RefinementRounds = 10;
-
     // Codewords row-major per sub-space ([m][j][t]) for encoding, and transposed ([m][t][j]) for the tables.
     private readonly float[] _codewords;
     private readonly float[] _transposed;
@@ -169,7 +165,6 @@ public sealed class ProductQuantizer
         float[] sample = SampleRows(vectors, dimension, options.SampleSize, options.Seed);
         int rows = sample.Length / dimension;
         float[]? rotation = null;
-        float[] unrotated = sample;
         if (options.Rotation != SubspaceRotation.None)
         {
             rotation = BalancedRotation.Learn(sample, rows, dimension, m, options.EffectiveParallelism, cancellationToken);
@@ -199,11 +194,6 @@ public sealed class ProductQuantizer
             result.Centroids.CopyTo(codewords.AsSpan(subspace * CodewordsPerSubspace * s, CodewordsPerSubspace * s));
             progress?.Report(Interlocked.Increment(ref done));
         });
-
-        if (options.Rotation == SubspaceRotation.VarianceBalancedRefined)
-        {
-            RotationRefinement.Refine(rotation!, codewords, unrotated, dimension, m, RefinementRounds, options.EffectiveParallelism, cancellationToken);
-        }
 
         return new ProductQuantizer(codewords, dimension, m, rotation);
     }

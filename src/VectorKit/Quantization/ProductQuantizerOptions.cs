@@ -75,9 +75,9 @@ public sealed class ProductQuantizerOptions
         get => _rotation;
         init
         {
-            if (value is not (SubspaceRotation.None or SubspaceRotation.VarianceBalanced or SubspaceRotation.VarianceBalancedRefined))
+            if (value is not (SubspaceRotation.None or SubspaceRotation.VarianceBalanced))
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(Rotation), value, "must be None, VarianceBalanced or VarianceBalancedRefined");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(Rotation), value, "must be None or VarianceBalanced");
             }
 
             _rotation = value;

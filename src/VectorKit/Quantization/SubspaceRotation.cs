@@ -15,14 +15,4 @@ public enum SubspaceRotation
     /// <c>dimension × dimension</c> matrix-vector product per encoded vector and per query.
     /// </summary>
     VarianceBalanced = 1,
-
-    /// <summary>
-    /// <see cref="VarianceBalanced"/>, then refined against the codebooks: 10 rounds alternating one k-means (Lloyd)
-    /// step of every sub-space codebook with the orthogonal Procrustes update of the rotation — the non-parametric
-    /// solution of optimised product quantization (Ge, He, Ke &amp; Sun, CVPR 2013), which does not assume Gaussian
-    /// data. Each round can only lower the error on the training rows. Training costs about two extra passes of
-    /// <c>rows × dimension²</c> and one <c>dimension³</c> decomposition per round; searching costs the same as
-    /// <see cref="VarianceBalanced"/>.
-    /// </summary>
-    VarianceBalancedRefined = 2,
 }

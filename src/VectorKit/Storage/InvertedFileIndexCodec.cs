@@ -154,7 +154,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
 
         int sampleSize = (int)header.Integer(TrainingSampleSize, 0, int.MaxValue);
         var rotation = header.Integers.ContainsKey(ProductRotation)
-            ? (SubspaceRotation)header.Integer(ProductRotation, (int)SubspaceRotation.None, (int)SubspaceRotation.VarianceBalancedRefined)
+            ? (SubspaceRotation)header.Integer(ProductRotation, (int)SubspaceRotation.None, (int)SubspaceRotation.VarianceBalanced)
             : SubspaceRotation.None;
         var options = new InvertedFileOptions
         {

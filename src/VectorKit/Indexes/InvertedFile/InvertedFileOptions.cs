@@ -108,9 +108,9 @@ public sealed class InvertedFileOptions
         get => _productCodeRotation;
         init
         {
-            if (value is not (SubspaceRotation.None or SubspaceRotation.VarianceBalanced or SubspaceRotation.VarianceBalancedRefined))
+            if (value is not (SubspaceRotation.None or SubspaceRotation.VarianceBalanced))
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(ProductCodeRotation), value, "must be None, VarianceBalanced or VarianceBalancedRefined");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(ProductCodeRotation), value, "must be None or VarianceBalanced");
             }
 
             _productCodeRotation = value;
