@@ -2,6 +2,7 @@ using VectorKit.Distance;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
 using VectorKit.Indexes.InvertedFile;
+using VectorKit.Quantization;
 using VectorKit.Tests.TestData;
 
 namespace VectorKit.Tests.Storage;
@@ -42,10 +43,12 @@ internal static class StorageSamples
         int dimension = 3,
         int rescoreDepth = 0,
         int seed = 13,
-        bool remove = true)
+        bool remove = true,
+        SubspaceRotation rotation = SubspaceRotation.None)
     {
         var options = new InvertedFileOptions
         {
+            ProductCodeRotation = rotation,
             ListCount = 4,
             ListsProbed = 2,
             Storage = storage,

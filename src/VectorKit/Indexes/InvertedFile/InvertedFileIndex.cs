@@ -19,7 +19,8 @@ namespace VectorKit.Indexes.InvertedFile;
 /// cosine), and a query probes the lists of its nearest centroids by the same distance.</para>
 /// <para><b>Storage.</b> Each list keeps its codes in one contiguous array (a list's vectors are scanned front to
 /// back) and a parallel array of slot numbers; per slot the index keeps the id, list and position in flat arrays, and
-/// the full vectors (when kept) in one native block. Compressed codes encode the residual <c>x − centroid</c>.
+/// the full vectors (when kept) in one native block. Compressed codes encode the residual <c>x − centroid</c> (product
+/// codes with <see cref="InvertedFileOptions.ProductCodeRotation"/>: <c>R·(x − centroid)</c>).
 /// Removing a vector moves the last entry of its list into its place, so lists never hold holes.</para>
 /// <para><b>Distances.</b> Float32 lists report exact distances (the same numbers as <see cref="Exact.ExactIndex"/>).
 /// Compressed lists report the distance to the code's reconstruction, unless re-scoring is on, in which case the
@@ -145,7 +146,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex
 
     /// <inheritdoc/>
     /// <remarks>List codes and slot numbers at their reserved capacity, per-slot id, list and position, the full vectors
-    /// when kept, the centroids and codebooks, and the id lookup's entries (about 28 bytes each).</remarks>
+    /// when kept, the centroids and codebooks (and a product-code rotation with the rotated centroids), and the id lookup's entries (about 28 bytes each).</remarks>
     public long MemoryBytes
     {
         get
