@@ -12,7 +12,8 @@ namespace VectorKit.Benchmarks;
 /// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; the inverted-file harness,
 /// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; re-scoring from memory vs a file,
 /// <c>rescore-source [count] [dimension] [lists] [product code bytes]</c>; the 8-bit exact index harness,
-/// <c>exact-scalar-sweep [count] [dimension]</c>; and the load-speed harness:
+/// <c>exact-scalar-sweep [count] [dimension]</c>; product codes with and without the
+/// variance-balancing rotation: <c>product-rotation-sweep [clustered count] [dimension]</c>; and the load-speed harness:
 /// <c>storage-load [exact count] [graph count] [dimension]</c>.
 /// </summary>
 public static class Program
@@ -73,6 +74,14 @@ public static class Program
             int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
             int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
             ExactScalarSweep.Run(count, dimension);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "product-rotation-sweep")
+        {
+            int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 200_000;
+            int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
+            ProductRotationSweep.Run(count, dimension);
             return;
         }
 

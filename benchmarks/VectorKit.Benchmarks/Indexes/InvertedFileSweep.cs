@@ -87,7 +87,7 @@ public static class InvertedFileSweep
         }
     }
 
-    private static double SingleThreadQps(IVectorIndex index, float[] queries, int d, SearchOptions? options, int timedPasses, out long[][] found)
+    internal static double SingleThreadQps(IVectorIndex index, float[] queries, int d, SearchOptions? options, int timedPasses, out long[][] found)
     {
         int n = queries.Length / d;
         var hits = new SearchHit[K];

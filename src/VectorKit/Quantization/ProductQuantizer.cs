@@ -22,6 +22,11 @@ namespace VectorKit.Quantization;
 /// <para><b>Layout.</b> The table is <c>CodeBytes × 256</c> floats, one contiguous row of 256 per sub-space. It is
 /// filled a whole lane of codewords at a time from a transposed copy of the codebooks (per sub-space, per component,
 /// 256 contiguous values), so building it is plain SIMD arithmetic with no gathers.</para>
+/// <para><b>Rotation.</b> With <see cref="ProductQuantizerOptions.Rotation"/> set, a learnt orthogonal matrix R
+/// (<see cref="Rotation"/>) is applied first: vectors and queries are quantized as <c>R·x</c>, and
+/// <see cref="Decode"/> returns <c>Rᵀ·</c>(the codewords). Since R preserves distances and dot products, the ADC
+/// sums still equal the distances to the decoded vectors (up to float rounding). <see cref="Codewords"/> live in the
+/// rotated space.</para>
 /// <para>Immutable once trained, and thread-safe.</para>
 /// </remarks>
 public sealed class ProductQuantizer
@@ -33,9 +38,13 @@ public sealed class ProductQuantizer
     private readonly float[] _codewords;
     private readonly float[] _transposed;
 
-    private ProductQuantizer(float[] codewords, int dimension, int codeBytes)
+    // d × d row-major, y = R·x; null without rotation.
+    private readonly float[]? _rotation;
+
+    private ProductQuantizer(float[] codewords, int dimension, int codeBytes, float[]? rotation)
     {
         _codewords = codewords;
+        _rotation = rotation;
         Dimension = dimension;
         CodeBytes = codeBytes;
         SubspaceDimension = dimension / codeBytes;
@@ -55,11 +64,17 @@ public sealed class ProductQuantizer
 
     /// <summary>
     /// Rebuilds a quantizer from stored codewords (<paramref name="codeBytes"/> × 256 × dimension / codeBytes floats,
-    /// the layout of <see cref="Codewords"/>); the transposed copy for the tables is derived again.
+    /// the layout of <see cref="Codewords"/>) and its rotation, if any (<c>dimension²</c> floats, the layout of
+    /// <see cref="Rotation"/>); the transposed copy for the tables is derived again.
     /// </summary>
-    /// <exception cref="InvalidDataException">The code size does not divide the dimension, the length is wrong, or a codeword component is not finite.</exception>
-    internal static ProductQuantizer FromCodewords(float[] codewords, int dimension, int codeBytes)
+    /// <exception cref="InvalidDataException">The code size does not divide the dimension, a length is wrong, a component is not finite, or a rotation row is not of unit length.</exception>
+    internal static ProductQuantizer FromCodewords(float[] codewords, int dimension, int codeBytes, float[]? rotation = null)
     {
+        if (rotation is not null)
+        {
+            BalancedRotation.Check(rotation, dimension);
+        }
+
         if (codeBytes < 1 || dimension % codeBytes != 0)
         {
             throw new InvalidDataException($"a product code of {codeBytes} bytes does not divide the dimension {dimension}");
@@ -82,7 +97,7 @@ public sealed class ProductQuantizer
             }
         }
 
-        return new ProductQuantizer(codewords, dimension, codeBytes);
+        return new ProductQuantizer(codewords, dimension, codeBytes, rotation);
     }
 
     /// <summary>Components per vector.</summary>
@@ -97,10 +112,19 @@ public sealed class ProductQuantizer
     /// <summary>Floats in a lookup table: <see cref="CodeBytes"/> × 256.</summary>
     public int TableLength => CodeBytes * CodewordsPerSubspace;
 
-    /// <summary>The codewords: for each sub-space, 256 rows of <see cref="SubspaceDimension"/> floats.</summary>
+    /// <summary>The codewords: for each sub-space, 256 rows of <see cref="SubspaceDimension"/> floats (in the rotated space when <see cref="IsRotated"/>).</summary>
     public ReadOnlySpan<float> Codewords => _codewords;
 
-    /// <summary>Learns the 256 codewords of every sub-space by k-means on training rows.</summary>
+    /// <summary>Whether vectors are rotated before quantization (<see cref="ProductQuantizerOptions.Rotation"/> was not <see cref="SubspaceRotation.None"/>).</summary>
+    public bool IsRotated => _rotation is not null;
+
+    /// <summary>
+    /// The learnt orthogonal rotation R, <see cref="Dimension"/> × <see cref="Dimension"/> floats row-major (a vector x
+    /// is quantized as <c>R·x</c>); empty when <see cref="IsRotated"/> is <see langword="false"/>.
+    /// </summary>
+    public ReadOnlySpan<float> Rotation => _rotation;
+
+    /// <summary>Learns the rotation (when <see cref="ProductQuantizerOptions.Rotation"/> asks for one), then the 256 codewords of every sub-space by k-means on the (rotated) training rows.</summary>
     /// <param name="vectors">Row after row, a multiple of <paramref name="dimension"/> finite components; at least 256 rows.</param>
     /// <param name="dimension">Components per row; <see cref="ProductQuantizerOptions.CodeBytes"/> must divide it.</param>
     /// <param name="options">Code size, iterations, sample, seed, threads; <see langword="null"/> for <see cref="ProductQuantizerOptions.Default"/>.</param>
@@ -140,6 +164,13 @@ public sealed class ProductQuantizer
         int s = dimension / m;
         float[] sample = SampleRows(vectors, dimension, options.SampleSize, options.Seed);
         int rows = sample.Length / dimension;
+        float[]? rotation = null;
+        if (options.Rotation != SubspaceRotation.None)
+        {
+            rotation = BalancedRotation.Learn(sample, rows, dimension, m, options.EffectiveParallelism, cancellationToken);
+            sample = BalancedRotation.RotateRows(rotation, sample, dimension, options.EffectiveParallelism, cancellationToken);
+        }
+
         var codewords = new float[m * CodewordsPerSubspace * s];
         int done = 0;
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
@@ -164,7 +195,7 @@ public sealed class ProductQuantizer
             progress?.Report(Interlocked.Increment(ref done));
         });
 
-        return new ProductQuantizer(codewords, dimension, m);
+        return new ProductQuantizer(codewords, dimension, m, rotation);
     }
 
     /// <summary>Encodes a vector: the nearest codeword (squared Euclidean) of each sub-vector.</summary>
@@ -175,9 +206,16 @@ public sealed class ProductQuantizer
     {
         VectorChecks.CheckVector(vector, Dimension, nameof(vector));
         CheckCode(code.Length, nameof(code));
-        float[] table = ArrayPool<float>.Shared.Rent(TableLength);
+        float[] table = ArrayPool<float>.Shared.Rent(TableLength + (_rotation is null ? 0 : Dimension));
         try
         {
+            if (_rotation is not null)
+            {
+                Span<float> rotated = table.AsSpan(TableLength, Dimension);
+                Rotate(vector, rotated);
+                vector = rotated;
+            }
+
             EncodeUnchecked(vector, code, table);
         }
         finally
@@ -186,7 +224,7 @@ public sealed class ProductQuantizer
         }
     }
 
-    /// <summary>Writes the reconstruction of a code: its codewords side by side.</summary>
+    /// <summary>Writes the reconstruction of a code: its codewords side by side (rotated back by <c>Rᵀ</c> when <see cref="IsRotated"/>).</summary>
     /// <param name="code">At least <see cref="CodeBytes"/> bytes.</param>
     /// <param name="vector">Receives <see cref="Dimension"/> components.</param>
     /// <exception cref="ArgumentException">Wrong lengths.</exception>
@@ -198,10 +236,21 @@ public sealed class ProductQuantizer
             ThrowHelper.ThrowArgument(nameof(vector), $"vector has {vector.Length} elements; the dimension is {Dimension}.");
         }
 
-        int s = SubspaceDimension;
-        for (int m = 0; m < CodeBytes; m++)
+        if (_rotation is null)
         {
-            _codewords.AsSpan(((m * CodewordsPerSubspace) + code[m]) * s, s).CopyTo(vector.Slice(m * s, s));
+            DecodeUnrotated(code, vector);
+            return;
+        }
+
+        float[] rotated = ArrayPool<float>.Shared.Rent(Dimension);
+        try
+        {
+            DecodeUnrotated(code, rotated);
+            BalancedRotation.RotateBack(_rotation, rotated.AsSpan(0, Dimension), vector);
+        }
+        finally
+        {
+            ArrayPool<float>.Shared.Return(rotated);
         }
     }
 
@@ -212,7 +261,7 @@ public sealed class ProductQuantizer
     public void ComputeSquaredDistanceTable(ReadOnlySpan<float> query, Span<float> table)
     {
         CheckTableArguments(query, table);
-        FillTable(query, table, squared: true);
+        FillRotatingTable(query, table, squared: true);
     }
 
     /// <summary>Fills the dot-product lookup table: <c>table[m × 256 + j] = query_m · codeword_{m,j}</c>.</summary>
@@ -222,7 +271,7 @@ public sealed class ProductQuantizer
     public void ComputeDotTable(ReadOnlySpan<float> query, Span<float> table)
     {
         CheckTableArguments(query, table);
-        FillTable(query, table, squared: false);
+        FillRotatingTable(query, table, squared: false);
     }
 
     /// <summary>The ADC sum for one code: <c>Σ_m table[m × 256 + code[m]]</c>.</summary>
@@ -252,8 +301,21 @@ public sealed class ProductQuantizer
         }
     }
 
+    /// <summary><c>y = R·x</c> (a copy without rotation): the space the codebooks, <see cref="EncodeUnchecked"/> and <see cref="FillTable"/> work in.</summary>
+    internal void Rotate(ReadOnlySpan<float> x, Span<float> y)
+    {
+        if (_rotation is null)
+        {
+            x.CopyTo(y);
+        }
+        else
+        {
+            BalancedRotation.Rotate(_rotation, x, y);
+        }
+    }
+
     /// <summary>
-    /// Encodes through the squared-distance table: the distances of each sub-vector to its 256 codewords come out of
+    /// Encodes a vector already in the codebooks' space (rotated when <see cref="IsRotated"/>) through the squared-distance table: the distances of each sub-vector to its 256 codewords come out of
     /// the SIMD table fill, and each code byte is the first index of the smallest (ties go to the lower codeword).
     /// </summary>
     internal void EncodeUnchecked(ReadOnlySpan<float> vector, Span<byte> code, Span<float> table)
@@ -265,6 +327,7 @@ public sealed class ProductQuantizer
         }
     }
 
+    /// <summary>Fills a table for a query already in the codebooks' space (rotated when <see cref="IsRotated"/>).</summary>
     internal void FillTable(ReadOnlySpan<float> query, Span<float> table, bool squared)
     {
         int s = SubspaceDimension;
@@ -339,6 +402,35 @@ public sealed class ProductQuantizer
             }
 
             Unsafe.Add(ref results, r) = s0;
+        }
+    }
+
+    private void FillRotatingTable(ReadOnlySpan<float> query, Span<float> table, bool squared)
+    {
+        if (_rotation is null)
+        {
+            FillTable(query, table, squared);
+            return;
+        }
+
+        float[] rotated = ArrayPool<float>.Shared.Rent(Dimension);
+        try
+        {
+            Rotate(query, rotated.AsSpan(0, Dimension));
+            FillTable(rotated.AsSpan(0, Dimension), table, squared);
+        }
+        finally
+        {
+            ArrayPool<float>.Shared.Return(rotated);
+        }
+    }
+
+    private void DecodeUnrotated(ReadOnlySpan<byte> code, Span<float> vector)
+    {
+        int s = SubspaceDimension;
+        for (int m = 0; m < CodeBytes; m++)
+        {
+            _codewords.AsSpan(((m * CodewordsPerSubspace) + code[m]) * s, s).CopyTo(vector.Slice(m * s, s));
         }
     }
 

@@ -8,6 +8,7 @@ public sealed class ProductQuantizerOptions
     private readonly int _maxIterations = 20;
     private readonly int _sampleSize = 65_536;
     private readonly int _maxDegreeOfParallelism = -1;
+    private readonly SubspaceRotation _rotation = SubspaceRotation.None;
 
     /// <summary>The defaults: 16-byte codes, 20 k-means iterations per sub-space, a sample of 65,536 rows, seed 42.</summary>
     public static ProductQuantizerOptions Default { get; } = new();
@@ -61,6 +62,25 @@ public sealed class ProductQuantizerOptions
             }
 
             _sampleSize = value;
+        }
+    }
+
+    /// <summary>
+    /// An orthogonal rotation learnt from the training rows and applied before the vector is cut into sub-spaces.
+    /// Default <see cref="SubspaceRotation.None"/>.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="SubspaceRotation"/>.</exception>
+    public SubspaceRotation Rotation
+    {
+        get => _rotation;
+        init
+        {
+            if (value is not (SubspaceRotation.None or SubspaceRotation.VarianceBalanced))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(Rotation), value, "must be None or VarianceBalanced");
+            }
+
+            _rotation = value;
         }
     }
 

@@ -27,6 +27,9 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
     // Written only for an external source (absent: in the index's memory), so in-memory files keep their bytes.
     private const string FullVectorLocationField = "full-vector-location";
 
+    // Optional (files written before rotations existed lack it): absent means no rotation.
+    private const string ProductRotation = "product-rotation";
+
     public override IndexKind Kind => IndexKind.InvertedFile;
 
     public override Type IndexType => typeof(InvertedFileIndex);
@@ -56,10 +59,24 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             {
                 header.Integers[FullVectorLocationField] = (int)options.FullVectors;
             }
+
+            if (options.ProductCodeRotation != SubspaceRotation.None)
+            {
+                // Written only when set, so files without a rotation stay byte-identical to (and loadable by) older readers.
+                header.Integers[ProductRotation] = (int)options.ProductCodeRotation;
+            }
+
+            bool rotated = options.Storage == ListStorage.ProductCodes && options.ProductCodeRotation != SubspaceRotation.None;
             header.Sections.Add(new SectionEntry((uint)SectionId.Centroids, 0, checked((long)parts.Centroids.Length * sizeof(float))));
             if (options.Storage == ListStorage.ProductCodes)
             {
                 header.Sections.Add(new SectionEntry((uint)SectionId.ProductCodebooks, 0, checked((long)(parts.ProductCodewords?.Length ?? 0) * sizeof(float))));
+
+                // Not skippable: a reader that ignored the rotation would misread every code.
+                if (rotated)
+                {
+                    header.Sections.Add(new SectionEntry((uint)SectionId.ProductRotation, 0, checked((long)(parts.ProductRotation?.Length ?? 0) * sizeof(float))));
+                }
             }
             else if (options.Storage == ListStorage.Scalar8Bit)
             {
@@ -83,6 +100,12 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
                 writer.BeginSection(SectionId.ProductCodebooks);
                 writer.Write<float>(parts.ProductCodewords);
                 writer.EndSection();
+                if (rotated)
+                {
+                    writer.BeginSection(SectionId.ProductRotation);
+                    writer.Write<float>(parts.ProductRotation);
+                    writer.EndSection();
+                }
             }
             else if (options.Storage == ListStorage.Scalar8Bit)
             {
@@ -142,6 +165,9 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         var location = header.Integers.ContainsKey(FullVectorLocationField)
             ? (FullVectorLocation)header.Integer(FullVectorLocationField, (int)FullVectorLocation.InIndexMemory, (int)FullVectorLocation.ExternalSource)
             : FullVectorLocation.InIndexMemory;
+        var rotation = header.Integers.ContainsKey(ProductRotation)
+            ? (SubspaceRotation)header.Integer(ProductRotation, (int)SubspaceRotation.None, (int)SubspaceRotation.VarianceBalanced)
+            : SubspaceRotation.None;
         var options = new InvertedFileOptions
         {
             ListCount = lists,
@@ -154,6 +180,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             Seed = (int)header.Integer(Seed, int.MinValue, int.MaxValue),
             TrainingParallelism = parallelism,
             FullVectors = location,
+            ProductCodeRotation = rotation,
         };
         bool trained = header.Integer(Trained, 0, 1) == 1;
         if (!trained && count != 0)
@@ -178,12 +205,19 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         float[] centroids = reader.ReadArray<float>(trained ? checked(lists * d) : 0);
         reader.CloseSection();
         float[]? codewords = null;
+        float[]? rotationMatrix = null;
         float[]? ranges = null;
         if (storage == ListStorage.ProductCodes)
         {
             reader.OpenSection(SectionId.ProductCodebooks);
             codewords = reader.ReadArray<float>(trained ? checked(d * ProductQuantizer.CodewordsPerSubspace) : 0);
             reader.CloseSection();
+            if (rotation != SubspaceRotation.None)
+            {
+                reader.OpenSection(SectionId.ProductRotation);
+                rotationMatrix = reader.ReadArray<float>(trained ? checked(d * d) : 0);
+                reader.CloseSection();
+            }
         }
         else if (storage == ListStorage.Scalar8Bit)
         {
@@ -251,6 +285,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             Count = count,
             Centroids = centroids,
             ProductCodewords = trained ? codewords : null,
+            ProductRotation = trained ? rotationMatrix : null,
             ScalarRanges = trained ? ranges : null,
             ListLengths = lengths,
             ListCodes = codes,

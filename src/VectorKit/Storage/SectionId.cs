@@ -41,4 +41,7 @@ internal enum SectionId : uint
 
     /// <summary>One 8-bit scalar code per row, row order, each <c>dimension</c> rounded up to 16 bytes (padding zero).</summary>
     ScalarCodes = 12,
+
+    /// <summary>Inverted file under rotated product codes: the rotation, <c>dimension × dimension</c> float32, row-major (empty when untrained).</summary>
+    ProductRotation = 13,
 }

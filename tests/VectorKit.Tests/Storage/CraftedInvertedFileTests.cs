@@ -2,6 +2,7 @@ using System.Buffers.Binary;
 using VectorKit.Distance;
 using VectorKit.Indexes;
 using VectorKit.Indexes.InvertedFile;
+using VectorKit.Quantization;
 using VectorKit.Storage;
 
 namespace VectorKit.Tests.Storage;
@@ -123,6 +124,50 @@ public class CraftedInvertedFileTests
         Assert.False(memoryHeader.Integers.ContainsKey("full-vector-location"));
         memoryHeader.Integers["full-vector-location"] = 1;
         Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors)));
+    }
+
+    [Fact]
+    [Trait("Weakness", "CWE-20 input validation")]
+    public void ABrokenOrMisplacedRotation_IsRejected()
+    {
+        using InvertedFileIndex rotated = StorageSamples.InvertedFile(ListStorage.ProductCodes, dimension: 4, rotation: SubspaceRotation.VarianceBalanced);
+        byte[] file = IndexFileBytes.Save(rotated);
+        using (var loaded = IndexFile.Load<InvertedFileIndex>(new MemoryStream(file), IndexLoadOptions.Untrusted))
+        {
+            Assert.Equal(SubspaceRotation.VarianceBalanced, loaded.Options.ProductCodeRotation);
+        }
+
+        Assert.Contains("rotation row 0, column 1 is NaN; the rotation must be finite", Damaged(file, f => Edit(f, SectionId.ProductRotation, span => BinaryPrimitives.WriteSingleLittleEndian(span[4..], float.NaN))), StringComparison.Ordinal);
+        Assert.Contains("rotation row 1 has squared length 4; an orthogonal rotation has rows of length 1", Damaged(file, f => Edit(f, SectionId.ProductRotation, span =>
+        {
+            for (int j = 4; j < 8; j++)
+            {
+                BinaryPrimitives.WriteSingleLittleEndian(span[(4 * j)..], 2 * BinaryPrimitives.ReadSingleLittleEndian(span[(4 * j)..]));
+            }
+        })), StringComparison.Ordinal);
+
+        // Without the field (as a reader that predates rotations sees the file), the rotation stands where the lists
+        // belong (such a reader names the section "id 13").
+        IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
+        header.Integers.Remove("product-rotation");
+        Assert.Contains("section 2 is 'ProductRotation' (id 13); this index kind expects 'ListLengths' (id 8) there", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
+        header.Integers["product-rotation"] = 5;
+        Assert.Contains("the field 'product-rotation' is 5; expected a value in [0, 1]", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
+
+        // The field on a file without the section.
+        using InvertedFileIndex plain = StorageSamples.InvertedFile(ListStorage.ProductCodes, dimension: 4);
+        byte[] plainFile = IndexFileBytes.Save(plain);
+        IndexHeader plainHeader = IndexFileBytes.CopyHeader(IndexFileBytes.Header(plainFile));
+        plainHeader.Integers["product-rotation"] = 1;
+        Assert.Contains("this index kind expects 'ProductRotation' (id 13) there", Rejection.Assert(IndexFileBytes.Compose(plainHeader, IndexFileBytes.Payloads(plainFile))).Message, StringComparison.Ordinal);
+    }
+
+    private static string Damaged(byte[] original, Action<byte[]> damage)
+    {
+        byte[] file = (byte[])original.Clone();
+        damage(file);
+        IndexFileBytes.FixChecksums(file);
+        return Rejection.Assert(file).Message;
     }
 
     private static string Reject(ListStorage storage, Action<byte[]> damage, int rescoreDepth = 0)

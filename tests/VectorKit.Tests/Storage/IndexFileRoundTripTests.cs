@@ -4,6 +4,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
 using VectorKit.Indexes.InvertedFile;
+using VectorKit.Quantization;
 using VectorKit.Storage;
 using VectorKit.Tests.Indexes.Graph;
 using VectorKit.Tests.IO;
@@ -200,6 +201,7 @@ public class IndexFileRoundTripTests
             TrainingSampleSize = (storageSeed & 4) == 0 ? null : 300,
             Seed = seed,
             TrainingParallelism = 1,
+            ProductCodeRotation = (storageSeed & 8) == 0 ? SubspaceRotation.None : SubspaceRotation.VarianceBalanced,
         };
         using var index = new InvertedFileIndex(d, metric, options);
 
@@ -217,8 +219,8 @@ public class IndexFileRoundTripTests
         AssertSameContents(index, loaded, ids, seed);
         InvertedFileOptions back = loaded.Options;
         Assert.Equal(
-            (options.ListCount, options.ListsProbed, options.Storage, options.ProductCodeBytes, options.RescoreDepth, options.TrainingIterations, options.TrainingSampleSize, options.Seed, options.TrainingParallelism),
-            (back.ListCount, back.ListsProbed, back.Storage, back.ProductCodeBytes, back.RescoreDepth, back.TrainingIterations, back.TrainingSampleSize, back.Seed, back.TrainingParallelism));
+            (options.ListCount, options.ListsProbed, options.Storage, options.ProductCodeBytes, options.RescoreDepth, options.TrainingIterations, options.TrainingSampleSize, options.Seed, options.TrainingParallelism, options.ProductCodeRotation),
+            (back.ListCount, back.ListsProbed, back.Storage, back.ProductCodeBytes, back.RescoreDepth, back.TrainingIterations, back.TrainingSampleSize, back.Seed, back.TrainingParallelism, back.ProductCodeRotation));
         Assert.Equal(index.KeepsFullVectors, loaded.KeepsFullVectors);
         Assert.Equal(index.ListLengths(), loaded.ListLengths());
         Assert.Equal(index.Centroids.ToArray(), loaded.Centroids.ToArray());

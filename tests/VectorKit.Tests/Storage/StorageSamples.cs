@@ -3,6 +3,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
 using VectorKit.Indexes.InvertedFile;
+using VectorKit.Quantization;
 using VectorKit.Tests.TestData;
 
 namespace VectorKit.Tests.Storage;
@@ -55,10 +56,12 @@ internal static class StorageSamples
         int rescoreDepth = 0,
         int seed = 13,
         bool remove = true,
-        FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory)
+        FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory,
+        SubspaceRotation rotation = SubspaceRotation.None)
     {
         var options = new InvertedFileOptions
         {
+            ProductCodeRotation = rotation,
             ListCount = 4,
             ListsProbed = 2,
             Storage = storage,

@@ -184,14 +184,23 @@ public sealed partial class InvertedFileIndex
         float bound = float.PositiveInfinity;
 
         // Per-query preparation for the compressed kinds: the dot-product table or padded query do not depend on the list.
+        // A rotated product quantizer works on R·q, rotated once here (see _rotatedCentroids).
         Span<float> table = default;
         Span<float> prepared = default;
+        ReadOnlySpan<float> codeQuery = q;
         if (_product is not null)
         {
             table = scratch.Table(_product.TableLength);
+            if (_product.IsRotated)
+            {
+                Span<float> rotated = scratch.Rotated(d);
+                _product.Rotate(q, rotated);
+                codeQuery = rotated;
+            }
+
             if (!squared)
             {
-                _product.FillTable(q, table, squared: false);
+                _product.FillTable(codeQuery, table, squared: false);
             }
         }
         else if (_scalar is not null)
@@ -214,15 +223,22 @@ public sealed partial class InvertedFileIndex
             int[] slots = _listSlots[list];
             ReadOnlySpan<float> centroid = _centroids.AsSpan(list * d, d);
 
-            // Compressed codes hold x − c: under squared L2 the query moves by −c; under a dot product q·c is added.
+            // Compressed codes hold x − c (rotated: R·(x − c)): under squared L2 the query moves by −c (R·q by −R·c);
+            // under a dot product q·c is added (R preserves dot products, so the table of R·q serves the rest).
             float offset = 0;
             if (_options.Storage != ListStorage.Float32)
             {
                 if (squared)
                 {
+                    ReadOnlySpan<float> from = centroid;
+                    if (_rotatedCentroids.Length != 0)
+                    {
+                        from = _rotatedCentroids.AsSpan(list * d, d);
+                    }
+
                     for (int j = 0; j < d; j++)
                     {
-                        residual[j] = q[j] - centroid[j];
+                        residual[j] = codeQuery[j] - from[j];
                     }
 
                     if (_product is not null)
@@ -327,6 +343,7 @@ public sealed partial class InvertedFileIndex
         private float[] _table = [];
         private float[] _prepared = [];
         private float[] _residual = [];
+        private float[] _rotated = [];
 
         public bool InUse { get; set; }
 
@@ -345,6 +362,8 @@ public sealed partial class InvertedFileIndex
         public Span<float> Prepared(int length) => Grow(ref _prepared, length);
 
         public Span<float> Residual(int length) => Grow(ref _residual, length);
+
+        public Span<float> Rotated(int length) => Grow(ref _rotated, length);
 
         private static Span<T> Grow<T>(ref T[] array, int length)
         {

@@ -57,6 +57,7 @@ public sealed partial class InvertedFileIndex
                 Count = _count,
                 Centroids = _centroids,
                 ProductCodewords = _product?.Codewords.ToArray(),
+                ProductRotation = _product is { IsRotated: true } ? _product.Rotation.ToArray() : null,
                 ScalarRanges = ranges,
                 ListLengths = (int[])_listCounts.Clone(),
                 ListCodes = _listCodes,
@@ -130,7 +131,7 @@ public sealed partial class InvertedFileIndex
 
         if (!parts.Trained)
         {
-            if (count != 0 || parts.Centroids.Length != 0 || parts.ProductCodewords is not null || parts.ScalarRanges is not null)
+            if (count != 0 || parts.Centroids.Length != 0 || parts.ProductCodewords is not null || parts.ProductRotation is not null || parts.ScalarRanges is not null)
             {
                 throw new InvalidDataException($"an untrained index holds no centroids, quantizer or vectors, but this one declares {count} vectors and {parts.Centroids.Length} centroid components");
             }
@@ -225,9 +226,18 @@ public sealed partial class InvertedFileIndex
             throw new InvalidDataException($"the stored quantizer does not match the list storage {_options.Storage}");
         }
 
+        bool rotated = product && _options.ProductCodeRotation != SubspaceRotation.None;
+        if ((parts.ProductRotation is not null) != rotated)
+        {
+            throw new InvalidDataException(rotated
+                ? $"the options rotate product codes ({_options.ProductCodeRotation}), but no rotation is stored"
+                : "a product-code rotation is stored, but the options do not rotate");
+        }
+
         if (product)
         {
-            _product = ProductQuantizer.FromCodewords(parts.ProductCodewords!, d, _options.ProductCodeBytes);
+            _product = ProductQuantizer.FromCodewords(parts.ProductCodewords!, d, _options.ProductCodeBytes, parts.ProductRotation);
+            _rotatedCentroids = RotatedCentroids(parts.Centroids, _product);
         }
         else if (scalar)
         {

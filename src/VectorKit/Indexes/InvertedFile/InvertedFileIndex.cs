@@ -20,7 +20,8 @@ namespace VectorKit.Indexes.InvertedFile;
 /// cosine), and a query probes the lists of its nearest centroids by the same distance.</para>
 /// <para><b>Storage.</b> Each list keeps its codes in one contiguous array (a list's vectors are scanned front to
 /// back) and a parallel array of slot numbers; per slot the index keeps the id, list and position in flat arrays, and
-/// the full vectors (when kept) in one native block. Compressed codes encode the residual <c>x − centroid</c>.
+/// the full vectors (when kept) in one native block. Compressed codes encode the residual <c>x − centroid</c> (product
+/// codes with <see cref="InvertedFileOptions.ProductCodeRotation"/>: <c>R·(x − centroid)</c>).
 /// Removing a vector moves the last entry of its list into its place, so lists never hold holes.</para>
 /// <para><b>Distances.</b> Float32 lists report exact distances (the same numbers as <see cref="Exact.ExactIndex"/>).
 /// Compressed lists report the distance to the code's reconstruction, unless re-scoring is on, in which case the
@@ -52,6 +53,10 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     // Trained state: centroids (ListCount × Dimension), and the residual quantizer under compressed storage.
     private float[] _centroids = [];
     private ProductQuantizer? _product;
+
+    // Under a rotated product quantizer, R·c for every centroid (derived): a search rotates the query once and takes
+    // each probed list's residual as R·q − R·c, O(d) per list, instead of rotating q − c per list, O(d²).
+    private float[] _rotatedCentroids = [];
     private ScalarQuantizer? _scalar;
     private bool _trained;
 
@@ -188,7 +193,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
     /// <inheritdoc/>
     /// <remarks>List codes and slot numbers at their reserved capacity, per-slot id, list and position, the full vectors
-    /// when kept, the centroids and codebooks, and the id lookup's entries (about 28 bytes each).</remarks>
+    /// when kept, the centroids and codebooks (and a product-code rotation with the rotated centroids), and the id lookup's entries (about 28 bytes each).</remarks>
     public long MemoryBytes
     {
         get
@@ -204,7 +209,8 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
                 bytes += (long)_ids.Length * (sizeof(long) + sizeof(int) + sizeof(int));
                 bytes += _full?.Bytes ?? 0;
-                bytes += _product is null ? 0 : 2L * _product.Codewords.Length * sizeof(float);
+                bytes += _product is null ? 0 : ((2L * _product.Codewords.Length) + _product.Rotation.Length) * sizeof(float);
+                bytes += (long)_rotatedCentroids.Length * sizeof(float);
                 bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
                 bytes += (long)_slotOf.EnsureCapacity(0) * 28;
                 return bytes;
@@ -295,6 +301,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
                         MaxIterations = _options.TrainingIterations,
                         Seed = _options.Seed,
                         MaxDegreeOfParallelism = _options.EffectiveParallelism,
+                        Rotation = _options.ProductCodeRotation,
                     };
                     IProgress<int>? subspaces = progress is null ? null : new SubspaceForward(progress, _options.ProductCodeBytes);
                     product = ProductQuantizer.Train(residuals, d, productOptions, subspaces, cancellationToken);
@@ -307,6 +314,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
             }
 
             _centroids = coarse.CentroidArray;
+            _rotatedCentroids = RotatedCentroids(_centroids, product);
             _product = product;
             _scalar = scalar;
             Volatile.Write(ref _trained, true);
@@ -602,10 +610,12 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         int blocks = (n + Block - 1) / Block;
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveParallelism };
         int tableLength = _product?.TableLength ?? 0;
-        Parallel.For(0, blocks, parallel, () => new float[d + tableLength], (b, _, scratch) =>
+        int rotatedLength = _product is { IsRotated: true } ? d : 0;
+        Parallel.For(0, blocks, parallel, () => new float[d + rotatedLength + tableLength], (b, _, scratch) =>
         {
             Span<float> residual = scratch.AsSpan(0, d);
-            Span<float> table = scratch.AsSpan(d);
+            Span<float> rotated = scratch.AsSpan(d, rotatedLength);
+            Span<float> table = scratch.AsSpan(d + rotatedLength);
             int end = Math.Min(n, (b + 1) * Block);
             for (int r = b * Block; r < end; r++)
             {
@@ -617,7 +627,12 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
                 }
 
                 Span<byte> code = codes.AsSpan(r * size, size);
-                if (_product is not null)
+                if (rotatedLength > 0)
+                {
+                    _product!.Rotate(residual, rotated);
+                    _product.EncodeUnchecked(rotated, code, table);
+                }
+                else if (_product is not null)
                 {
                     _product.EncodeUnchecked(residual, code, table);
                 }
@@ -734,6 +749,24 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         }
 
         return rows;
+    }
+
+    // R·c for every centroid under a rotated product quantizer, else empty.
+    private static float[] RotatedCentroids(float[] centroids, ProductQuantizer? product)
+    {
+        if (product is not { IsRotated: true })
+        {
+            return [];
+        }
+
+        int d = product.Dimension;
+        var rotated = new float[centroids.Length];
+        for (int c = 0; c < centroids.Length / d; c++)
+        {
+            product.Rotate(centroids.AsSpan(c * d, d), rotated.AsSpan(c * d, d));
+        }
+
+        return rotated;
     }
 
     private void ThrowIfDisposed()

@@ -27,6 +27,9 @@ internal sealed class InvertedFileIndexParts
     /// <summary>Under product codes when trained: the codewords (<c>CodeBytes × 256 × Dimension / CodeBytes</c> floats); else <see langword="null"/>.</summary>
     public float[]? ProductCodewords { get; init; }
 
+    /// <summary>Under product codes with a rotation when trained: the <c>Dimension × Dimension</c> rotation, row-major; else <see langword="null"/>.</summary>
+    public float[]? ProductRotation { get; init; }
+
     /// <summary>Under 8-bit scalar codes when trained: <c>Dimension</c> minimums, then <c>Dimension</c> steps; else <see langword="null"/>.</summary>
     public float[]? ScalarRanges { get; init; }
 

@@ -1,3 +1,5 @@
+using VectorKit.Quantization;
+
 namespace VectorKit.Indexes.InvertedFile;
 
 /// <summary>Options for an <see cref="InvertedFileIndex"/>.</summary>
@@ -17,6 +19,7 @@ public sealed class InvertedFileOptions
     private readonly int _trainingIterations = 20;
     private readonly int? _trainingSampleSize;
     private readonly int _trainingParallelism = -1;
+    private readonly SubspaceRotation _productCodeRotation = SubspaceRotation.None;
 
     /// <summary>The defaults: 1,024 lists, 16 probed per query, float32 lists, no re-scoring.</summary>
     public static InvertedFileOptions Default { get; } = new();
@@ -92,6 +95,26 @@ public sealed class InvertedFileOptions
             }
 
             _productCodeBytes = value;
+        }
+    }
+
+    /// <summary>
+    /// Under <see cref="ListStorage.ProductCodes"/>, an orthogonal rotation learnt with the product quantizer and applied
+    /// to residuals before they are cut into sub-spaces (and to each query once per search). Ignored under the other
+    /// storages. Default <see cref="SubspaceRotation.None"/>.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="SubspaceRotation"/>.</exception>
+    public SubspaceRotation ProductCodeRotation
+    {
+        get => _productCodeRotation;
+        init
+        {
+            if (value is not (SubspaceRotation.None or SubspaceRotation.VarianceBalanced))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(ProductCodeRotation), value, "must be None or VarianceBalanced");
+            }
+
+            _productCodeRotation = value;
         }
     }
 

@@ -1,6 +1,7 @@
 using VectorKit.Distance;
 using VectorKit.Indexes;
 using VectorKit.Indexes.InvertedFile;
+using VectorKit.Quantization;
 using VectorKit.Tests.TestData;
 using Xunit;
 
@@ -119,6 +120,7 @@ public class InvertedFileIndexInputTests : VectorIndexInputTests
         Assert.Contains("RescoreDepth must be 0 (off) or positive; got -1", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { RescoreDepth = -1 }).Message);
         Assert.Contains("TrainingIterations must be in [0, 10000]", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { TrainingIterations = -1 }).Message);
         Assert.Contains("TrainingSampleSize must be positive", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { TrainingSampleSize = 0 }).Message);
+        Assert.Contains("ProductCodeRotation must be None or VarianceBalanced; got 9", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { ProductCodeRotation = (SubspaceRotation)9 }).Message);
         Assert.Contains("TrainingParallelism must be -1", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { TrainingParallelism = -2 }).Message);
         Assert.Contains("RescoreDepth must be 0 (off) or positive", Assert.Throws<ArgumentOutOfRangeException>(() => new SearchOptions { RescoreDepth = -3 }).Message);
     }

@@ -5,6 +5,7 @@ using VectorKit.Evaluation;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.InvertedFile;
+using VectorKit.Quantization;
 using VectorKit.Tests.Evaluation;
 using VectorKit.Tests.TestData;
 using Xunit;
@@ -32,7 +33,7 @@ public class InvertedFileIndexTests
         return data;
     }
 
-    private static InvertedFileIndex Build(ListStorage storage, DistanceMetric metric, int d, float[] data, long[] ids, int lists = 8, int depth = 100_000)
+    private static InvertedFileIndex Build(ListStorage storage, DistanceMetric metric, int d, float[] data, long[] ids, int lists = 8, int depth = 100_000, SubspaceRotation rotation = SubspaceRotation.None)
     {
         var index = new InvertedFileIndex(d, metric, new InvertedFileOptions
         {
@@ -40,10 +41,32 @@ public class InvertedFileIndexTests
             Storage = storage,
             ProductCodeBytes = d / 4,
             RescoreDepth = storage == ListStorage.Float32 ? 0 : depth,
+            ProductCodeRotation = rotation,
         });
         index.Train(data);
         index.AddRange(ids, data);
         return index;
+    }
+
+    [Theory]
+    [InlineData(DistanceMetric.SquaredEuclidean)]
+    [InlineData(DistanceMetric.InnerProduct)]
+    [InlineData(DistanceMetric.Cosine)]
+    public void RotatedProductCodes_EveryListProbed_WithEveryCandidateRescored_EqualsExactSearch(DistanceMetric metric)
+    {
+        const int D = 20, N = 600;
+        float[] data = ClusteredData.Generate(N, D, 12, 0.4f, seed: 4);
+        float[] queries = ClusteredData.Generate(25, D, 12, 0.4f, seed: 5);
+        long[] ids = Enumerable.Range(0, N).Select(i => (long)((i * 7919) % 100_003)).ToArray();
+        using InvertedFileIndex index = Build(ListStorage.ProductCodes, metric, D, data, ids, rotation: SubspaceRotation.VarianceBalanced);
+        using var exact = new ExactIndex(D, metric);
+        exact.AddRange(ids, data);
+        var all = new SearchOptions { SearchWidth = 8 };
+        for (int q = 0; q < 25; q++)
+        {
+            ReadOnlySpan<float> query = queries.AsSpan(q * D, D);
+            Assert.Equal(exact.Search(query, 10), index.Search(query, 10, all));
+        }
     }
 
     [Theory]
@@ -110,21 +133,26 @@ public class InvertedFileIndexTests
         }
     }
 
-    [Fact]
-    public void ProductCodesWithoutRescoring_ReportTheAdcDistance_OfTheReconstruction()
+    [Theory]
+    [InlineData(DistanceMetric.SquaredEuclidean, SubspaceRotation.None)]
+    [InlineData(DistanceMetric.SquaredEuclidean, SubspaceRotation.VarianceBalanced)]
+    [InlineData(DistanceMetric.InnerProduct, SubspaceRotation.None)]
+    [InlineData(DistanceMetric.InnerProduct, SubspaceRotation.VarianceBalanced)]
+    public void ProductCodesWithoutRescoring_ReportTheAdcDistance_OfTheReconstruction(DistanceMetric metric, SubspaceRotation rotation)
     {
         const int D = 12, N = 800;
         float[] data = ClusteredData.Generate(N, D, 6, 0.5f, seed: 12);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
-        using InvertedFileIndex index = Build(ListStorage.ProductCodes, DistanceMetric.SquaredEuclidean, D, data, ids, lists: 4, depth: 0);
+        using InvertedFileIndex index = Build(ListStorage.ProductCodes, metric, D, data, ids, lists: 4, depth: 0, rotation: rotation);
         Assert.False(index.KeepsFullVectors);
         float[] query = ClusteredData.Generate(1, D, 6, 0.5f, seed: 13);
         var reconstruction = new float[D];
         foreach (SearchHit hit in index.Search(query, 20, new SearchOptions { SearchWidth = 4 }))
         {
+            // The reconstruction is centroid + Rᵀ·(codewords); the search used R·q − R·c against the codewords.
             Assert.True(index.TryGetVector(hit.Id, reconstruction));
-            double reference = DoubleMath.SquaredEuclidean(query, reconstruction);
-            Assert.Equal(reference, hit.Distance, Math.Max(1e-4, reference * 1e-4));
+            double reference = metric == DistanceMetric.SquaredEuclidean ? DoubleMath.SquaredEuclidean(query, reconstruction) : -DoubleMath.Dot(query, reconstruction);
+            Assert.Equal(reference, hit.Distance, Math.Max(1e-4, Math.Abs(reference) * 1e-4));
         }
     }
 
