@@ -24,9 +24,6 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
     private const string TrainingParallelism = "training-parallelism";
     private const string Trained = "trained";
 
-    // Written only for an external source (absent: in the index's memory), so in-memory files keep their bytes.
-    private const string FullVectorLocationField = "full-vector-location";
-
     public override IndexKind Kind => IndexKind.InvertedFile;
 
     public override Type IndexType => typeof(InvertedFileIndex);
@@ -52,10 +49,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             header.Integers[Seed] = options.Seed;
             header.Integers[TrainingParallelism] = options.TrainingParallelism;
             header.Integers[Trained] = parts.Trained ? 1 : 0;
-            if (options.FullVectors != FullVectorLocation.InIndexMemory)
-            {
-                header.Integers[FullVectorLocationField] = (int)options.FullVectors;
-            }
+            WriteFullVectorLocation(header, options.FullVectors);
             header.Sections.Add(new SectionEntry((uint)SectionId.Centroids, 0, checked((long)parts.Centroids.Length * sizeof(float))));
             if (options.Storage == ListStorage.ProductCodes)
             {
@@ -139,9 +133,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         }
 
         int sampleSize = (int)header.Integer(TrainingSampleSize, 0, int.MaxValue);
-        var location = header.Integers.ContainsKey(FullVectorLocationField)
-            ? (FullVectorLocation)header.Integer(FullVectorLocationField, (int)FullVectorLocation.InIndexMemory, (int)FullVectorLocation.ExternalSource)
-            : FullVectorLocation.InIndexMemory;
+        FullVectorLocation location = ReadFullVectorLocation(header);
         var options = new InvertedFileOptions
         {
             ListCount = lists,
