@@ -1,5 +1,6 @@
 using System.Diagnostics.CodeAnalysis;
 using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Reranking;
@@ -47,6 +48,9 @@ internal readonly struct SourceRows(IFullVectorSource source, int dimension, boo
 
         return ref row[0];
     }
+
+    /// <summary>Copies <paramref name="id"/>'s full vector, as re-scoring sees it, into <paramref name="destination"/> (for TryGetVector).</summary>
+    public void CopyTo(long id, Span<float> destination) => MemoryMarshal.CreateReadOnlySpan(ref Row(id), dimension).CopyTo(destination);
 
     /// <summary>The checks of <see cref="IExternalFullVectors.AttachFullVectors"/>, shared by the index kinds.</summary>
     public static void CheckAttach(IFullVectorSource source, int dimension, bool external)

@@ -10,7 +10,8 @@ namespace VectorKit.Storage;
 /// <see cref="SectionId.Vectors"/> (the layout of the first files, unchanged). 8-bit storage: fields
 /// <c>vector-storage</c> (1), <c>rescore-depth</c> and <c>trained</c>; sections <see cref="SectionId.Ids"/>,
 /// <see cref="SectionId.ScalarRanges"/> (empty when untrained), <see cref="SectionId.ScalarCodes"/>, and
-/// <see cref="SectionId.Vectors"/> when the full vectors are kept.
+/// <see cref="SectionId.Vectors"/> when the full vectors are kept in memory; an index reading full vectors from an
+/// external source records that in the field <c>full-vector-location</c> (1) and stores no vectors.
 /// </summary>
 internal sealed class ExactIndexCodec : IndexCodec
 {
@@ -102,6 +103,7 @@ internal sealed class ExactIndexCodec : IndexCodec
         header.Integers[StorageField] = (int)VectorStorage.Scalar8Bit;
         header.Integers[RescoreDepthField] = exact.RescoreDepth;
         header.Integers[TrainedField] = parts.Scalar is null ? 0 : 1;
+        WriteFullVectorLocation(header, exact.FullVectors);
         int rangeValues = parts.Scalar is null ? 0 : 2 * d;
         header.Sections.Add(new SectionEntry((uint)SectionId.Ids, 0, checked((long)count * sizeof(long))));
         header.Sections.Add(new SectionEntry((uint)SectionId.ScalarRanges, 0, checked((long)rangeValues * sizeof(float))));
@@ -149,6 +151,7 @@ internal sealed class ExactIndexCodec : IndexCodec
         int n = (int)header.Rows;
         int rescoreDepth = (int)header.Integer(RescoreDepthField, 0, int.MaxValue);
         bool trained = header.Integer(TrainedField, 0, 1) == 1;
+        FullVectorLocation location = ReadFullVectorLocation(header);
         if (!trained && n != 0)
         {
             throw IndexHeader.Malformed($"an untrained exact index holds no vectors, but it declares {n}");
@@ -168,7 +171,7 @@ internal sealed class ExactIndexCodec : IndexCodec
         {
             ReadCodes(reader, codes, n);
             reader.CloseSection();
-            if (rescoreDepth > 0)
+            if (rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory)
             {
                 reader.OpenSection(SectionId.Vectors);
                 full = new VectorBuffer(d, 0);
@@ -185,7 +188,7 @@ internal sealed class ExactIndexCodec : IndexCodec
 
         try
         {
-            return ExactIndex.FromCodeParts(d, header.Metric, rescoreDepth, trained ? ranges : null, ids, codes, full, n);
+            return ExactIndex.FromCodeParts(d, header.Metric, rescoreDepth, location, trained ? ranges : null, ids, codes, full, n);
         }
         catch (InvalidDataException e)
         {

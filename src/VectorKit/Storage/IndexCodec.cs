@@ -26,4 +26,23 @@ internal abstract class IndexCodec
     /// against the file length) and returns the working index; anything invalid raises <see cref="IndexFileException"/>.
     /// </summary>
     public abstract IVectorIndex Load(IndexHeader header, IndexFileReader reader);
+
+    // The compressed kinds' field for where re-scoring reads full vectors. Written only for an external source
+    // (absent: in the index's memory), so in-memory files keep their bytes.
+    private const string FullVectorLocationField = "full-vector-location";
+
+    /// <summary>Records <paramref name="location"/> in the header when it is not the default (in the index's memory).</summary>
+    protected static void WriteFullVectorLocation(IndexHeader header, FullVectorLocation location)
+    {
+        if (location != FullVectorLocation.InIndexMemory)
+        {
+            header.Integers[FullVectorLocationField] = (int)location;
+        }
+    }
+
+    /// <summary>The recorded location: in the index's memory when the field is absent (every file written before it existed).</summary>
+    protected static FullVectorLocation ReadFullVectorLocation(IndexHeader header)
+        => header.Integers.ContainsKey(FullVectorLocationField)
+            ? (FullVectorLocation)header.Integer(FullVectorLocationField, (int)FullVectorLocation.InIndexMemory, (int)FullVectorLocation.ExternalSource)
+            : FullVectorLocation.InIndexMemory;
 }

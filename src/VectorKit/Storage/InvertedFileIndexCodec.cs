@@ -24,9 +24,6 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
     private const string TrainingParallelism = "training-parallelism";
     private const string Trained = "trained";
 
-    // Written only for an external source (absent: in the index's memory), so in-memory files keep their bytes.
-    private const string FullVectorLocationField = "full-vector-location";
-
     // Optional (files written before rotations existed lack it): absent means no rotation.
     private const string ProductRotation = "product-rotation";
 
@@ -55,10 +52,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             header.Integers[Seed] = options.Seed;
             header.Integers[TrainingParallelism] = options.TrainingParallelism;
             header.Integers[Trained] = parts.Trained ? 1 : 0;
-            if (options.FullVectors != FullVectorLocation.InIndexMemory)
-            {
-                header.Integers[FullVectorLocationField] = (int)options.FullVectors;
-            }
+            WriteFullVectorLocation(header, options.FullVectors);
 
             if (options.ProductCodeRotation != SubspaceRotation.None)
             {
@@ -162,9 +156,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         }
 
         int sampleSize = (int)header.Integer(TrainingSampleSize, 0, int.MaxValue);
-        var location = header.Integers.ContainsKey(FullVectorLocationField)
-            ? (FullVectorLocation)header.Integer(FullVectorLocationField, (int)FullVectorLocation.InIndexMemory, (int)FullVectorLocation.ExternalSource)
-            : FullVectorLocation.InIndexMemory;
+        FullVectorLocation location = ReadFullVectorLocation(header);
         var rotation = header.Integers.ContainsKey(ProductRotation)
             ? (SubspaceRotation)header.Integer(ProductRotation, (int)SubspaceRotation.None, (int)SubspaceRotation.VarianceBalanced)
             : SubspaceRotation.None;

@@ -15,7 +15,7 @@ namespace VectorKit.Tests.Storage;
 /// </summary>
 public class IndexFileDamageTests
 {
-    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full" };
+    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full", "exact-scalar-external" };
 
     [Theory]
     [MemberData(nameof(Samples))]
@@ -332,6 +332,7 @@ public class IndexFileDamageTests
             "ivf-external" => StorageSamples.InvertedFile(ListStorage.Scalar8Bit, count: 16, rescoreDepth: 3, fullVectors: FullVectorLocation.ExternalSource),
             "exact-scalar" => StorageSamples.ExactScalar(),
             "exact-scalar-full" => StorageSamples.ExactScalar(metric: DistanceMetric.Cosine, rescoreDepth: 3),
+            "exact-scalar-external" => StorageSamples.ExactScalar(metric: DistanceMetric.Cosine, rescoreDepth: 3, fullVectors: FullVectorLocation.ExternalSource),
             _ => throw new ArgumentOutOfRangeException(nameof(name), name, "not a sample"),
         };
         return IndexFileBytes.Save(index);

@@ -20,9 +20,15 @@ internal static class StorageSamples
     }
 
     /// <summary>A small exact index under 8-bit storage, trained on its own rows, with one removed item.</summary>
-    public static ExactIndex ExactScalar(int count = 12, int dimension = 3, DistanceMetric metric = DistanceMetric.SquaredEuclidean, int rescoreDepth = 0, int seed = 7)
+    public static ExactIndex ExactScalar(
+        int count = 12,
+        int dimension = 3,
+        DistanceMetric metric = DistanceMetric.SquaredEuclidean,
+        int rescoreDepth = 0,
+        int seed = 7,
+        FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory)
     {
-        var index = new ExactIndex(dimension, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth });
+        var index = new ExactIndex(dimension, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = fullVectors });
         float[] data = ClusteredData.Generate(count, dimension, 3, 0.3f, seed);
         index.Train(data);
         index.AddRange(Enumerable.Range(0, count).Select(i => 1000L + (i * 7)).ToArray(), data);

@@ -4,6 +4,7 @@ using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Quantization;
+using VectorKit.Reranking;
 
 namespace VectorKit.Indexes.Exact;
 
@@ -173,7 +174,13 @@ public sealed partial class ExactIndex
 
         ScalarQuantizer scalar = _scalar!;
         int k = destination.Length;
-        int depth = _keepsVectors ? options.RescoreDepth ?? _rescoreDepth : 0;
+        int depth = _keepsVectors || _readsExternally ? options.RescoreDepth ?? _rescoreDepth : 0;
+        IFullVectorSource? source = _source;
+        if (depth > 0 && !_keepsVectors && source is null)
+        {
+            SourceRows.ThrowNoSource();
+        }
+
         int candidates = Math.Min(Math.Max(k, depth), _count);
 
         // The candidates live in the destination unless re-scoring needs more of them than it holds.
@@ -194,9 +201,13 @@ public sealed partial class ExactIndex
                 _ => ScanCodes<DotStep, OneMinusFinish>(scalar, ref query, heap, options.Filter),
             };
 
-            if (depth > 0)
+            if (depth > 0 && _keepsVectors)
             {
                 ExactRescoring.Rescore(Metric, _kernelPath, ref MemoryMarshal.GetReference(q), Dimension, heap[..found], new SlotRows(_vectors, _slotOf));
+            }
+            else if (depth > 0)
+            {
+                ExactRescoring.Rescore(Metric, _kernelPath, ref MemoryMarshal.GetReference(q), Dimension, heap[..found], new SourceRows(source!, Dimension, Metric == DistanceMetric.Cosine));
             }
 
             TopK.SortBestFirst(heap, found);
@@ -274,6 +285,11 @@ public sealed partial class ExactIndex
     private unsafe void SearchCodesBatch(ReadOnlySpan<float> queries, int queryCount, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int d = Dimension;
+        if (_readsExternally && _source is null && (options.RescoreDepth ?? _rescoreDepth) > 0)
+        {
+            SourceRows.ThrowNoSource(); // here, not wrapped in the parallel loop's AggregateException
+        }
+
         int blocks = (queryCount + CodeQueryBlock - 1) / CodeQueryBlock;
         int completed = 0;
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };

@@ -6,7 +6,7 @@ namespace VectorKit.Indexes.Exact;
 
 /// <summary>
 /// The exact index's primary state for persistence: dimension, metric, ids and rows (under 8-bit storage: the code
-/// ranges, the codes and the full vectors when kept). Everything else (squared norms, the id lookup, the padded
+/// ranges, the codes and the full vectors when kept in memory). Everything else (squared norms, the id lookup, the padded
 /// ranges) is derived again by <see cref="FromParts"/> or <see cref="FromCodeParts"/>, so saved files never depend on
 /// internal bookkeeping.
 /// </summary>
@@ -115,14 +115,16 @@ public sealed partial class ExactIndex
     }
 
     // A loaded index under 8-bit storage; takes ownership of the buffers.
-    private ExactIndex(int dimension, DistanceMetric metric, int rescoreDepth, ScalarQuantizer? scalar, CodeBuffer codes, VectorBuffer? full, long[] ids, int count)
+    private ExactIndex(int dimension, DistanceMetric metric, int rescoreDepth, FullVectorLocation location, ScalarQuantizer? scalar, CodeBuffer codes, VectorBuffer? full, long[] ids, int count)
     {
         Dimension = dimension;
         Metric = metric;
         _kernelPath = KernelDispatch.Widest;
         _storage = VectorStorage.Scalar8Bit;
         _rescoreDepth = rescoreDepth;
-        _keepsVectors = rescoreDepth > 0;
+        _fullVectors = location;
+        _readsExternally = rescoreDepth > 0 && location == FullVectorLocation.ExternalSource;
+        _keepsVectors = rescoreDepth > 0 && !_readsExternally;
         _scalar = scalar;
         _codes = codes;
         _vectors = full ?? new VectorBuffer(dimension, 0);
@@ -136,7 +138,7 @@ public sealed partial class ExactIndex
     /// <param name="Ids">At least <paramref name="Count"/> ids, row order.</param>
     /// <param name="Scalar">The trained quantizer, or <see langword="null"/> when untrained.</param>
     /// <param name="Codes">At least <paramref name="Count"/> codes of <see cref="ScalarQuantizer.PaddedLength"/> bytes.</param>
-    /// <param name="FullVectors">The full vectors (unit length under cosine) when kept, else <see langword="null"/>.</param>
+    /// <param name="FullVectors">The full vectors (unit length under cosine) when kept in memory, else <see langword="null"/>.</param>
     internal readonly record struct CodeParts(int Count, long[] Ids, ScalarQuantizer? Scalar, CodeBuffer Codes, VectorBuffer? FullVectors);
 
     /// <summary>
@@ -164,21 +166,22 @@ public sealed partial class ExactIndex
     /// </summary>
     /// <param name="dimension">Components per vector.</param>
     /// <param name="metric">The metric; under cosine the full vectors must already be unit length.</param>
-    /// <param name="rescoreDepth">The default re-score depth; positive exactly when <paramref name="full"/> is given.</param>
+    /// <param name="rescoreDepth">The default re-score depth; positive with an in-memory <paramref name="location"/> exactly when <paramref name="full"/> is given.</param>
+    /// <param name="location">Where re-scoring reads full vectors (an external source is attached after the load).</param>
     /// <param name="ranges"><paramref name="dimension"/> minimums then <paramref name="dimension"/> steps, or <see langword="null"/> when untrained.</param>
     /// <param name="ids">At least <paramref name="count"/> ids, row order.</param>
     /// <param name="codes">At least <paramref name="count"/> codes.</param>
-    /// <param name="full">At least <paramref name="count"/> finite rows when re-scoring is on, else <see langword="null"/>.</param>
+    /// <param name="full">At least <paramref name="count"/> finite rows when re-scoring from memory is on, else <see langword="null"/>.</param>
     /// <param name="count">The number of rows.</param>
     /// <exception cref="InvalidDataException">A range is unusable, a code's padding is not zero, an id repeats, or an untrained index holds rows.</exception>
-    internal static ExactIndex FromCodeParts(int dimension, DistanceMetric metric, int rescoreDepth, float[]? ranges, long[] ids, CodeBuffer codes, VectorBuffer? full, int count)
+    internal static ExactIndex FromCodeParts(int dimension, DistanceMetric metric, int rescoreDepth, FullVectorLocation location, float[]? ranges, long[] ids, CodeBuffer codes, VectorBuffer? full, int count)
     {
         ScalarQuantizer? scalar = null;
         try
         {
-            if ((full is not null) != (rescoreDepth > 0))
+            if ((full is not null) != (rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory))
             {
-                throw new InvalidDataException($"the re-score depth is {rescoreDepth} but full vectors are {(full is null ? "missing" : "present")}; they are kept exactly when the depth is positive");
+                throw new InvalidDataException($"the re-score depth is {rescoreDepth} and the full vectors' location {location}, but full vectors are {(full is null ? "missing" : "present")}; they are kept exactly when the depth is positive and the location is in memory");
             }
 
             if (ranges is null)
@@ -214,7 +217,7 @@ public sealed partial class ExactIndex
             throw;
         }
 
-        var index = new ExactIndex(dimension, metric, rescoreDepth, scalar, codes, full, ids, count);
+        var index = new ExactIndex(dimension, metric, rescoreDepth, location, scalar, codes, full, ids, count);
         try
         {
             index._slotOf.EnsureCapacity(count);

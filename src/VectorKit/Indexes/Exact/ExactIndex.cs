@@ -3,6 +3,7 @@ using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Quantization;
+using VectorKit.Reranking;
 
 namespace VectorKit.Indexes.Exact;
 
@@ -29,11 +30,19 @@ namespace VectorKit.Indexes.Exact;
 /// <see cref="ExactIndexOptions.RescoreDepth"/> the full vectors are kept as well and the best candidates are re-scored
 /// exactly (the same numbers as a float32 exact index). A batch under 8-bit storage runs the single-query scan for
 /// each query, queries in parallel: the tiled kernel and its completeness proof are for float32 rows.</para>
+/// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
+/// <see cref="ExactIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
+/// only the codes: re-scoring reads each candidate's vector from the <see cref="IFullVectorSource"/> given at
+/// construction or attached later with <see cref="AttachFullVectors"/> (a loaded index has none until then; a search
+/// that would re-score without one throws <see cref="InvalidOperationException"/>). Under cosine the rows read are
+/// normalised as the index normalises added vectors, so the results equal, bit for bit, those of the same index keeping
+/// the vectors in memory. The source is neither saved nor disposed by the index. Under float32 storage the option is
+/// ignored: the rows are the full vectors.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds and
 /// removes wait for running searches and block new ones until they finish, so a search sees the index entirely before
 /// or entirely after each write. A batch search holds the index for its whole duration.</para>
 /// </remarks>
-public sealed partial class ExactIndex : ITrainableIndex
+public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
 {
     // A batch works on this many queries at a time per thread, against row tiles of about TileBytes.
     private const int QueryBlock = 64;
@@ -48,10 +57,14 @@ public sealed partial class ExactIndex : ITrainableIndex
     private readonly KernelPath _kernelPath;
 
     // 8-bit storage: the codes (null under float32) and their quantizer once trained. _vectors holds the rows under
-    // float32, the full vectors under 8-bit storage with re-scoring, and nothing (capacity 0) otherwise.
+    // float32, the full vectors under 8-bit storage with re-scoring from memory, and nothing (capacity 0) otherwise;
+    // re-scoring from an external source reads _source.
     private readonly VectorStorage _storage;
     private readonly int _rescoreDepth;
+    private readonly FullVectorLocation _fullVectors;
     private readonly bool _keepsVectors = true;
+    private readonly bool _readsExternally;
+    private IFullVectorSource? _source;
     private readonly CodeBuffer? _codes;
     private ScalarQuantizer? _scalar;
     private long[] _ids;
@@ -68,6 +81,22 @@ public sealed partial class ExactIndex : ITrainableIndex
     public ExactIndex(int dimension, DistanceMetric metric, ExactIndexOptions? options = null)
         : this(dimension, metric, options, KernelDispatch.Widest)
     {
+    }
+
+    /// <summary>Creates an empty exact index under 8-bit storage that re-scores from <paramref name="fullVectors"/>.</summary>
+    /// <param name="dimension">Components per vector, at least 1.</param>
+    /// <param name="metric">The distance metric.</param>
+    /// <param name="options">Options with <see cref="VectorStorage.Scalar8Bit"/> storage, a positive <see cref="ExactIndexOptions.RescoreDepth"/> and <see cref="ExactIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
+    /// <param name="fullVectors">The full vector of every id that will be added (not owned by the index).</param>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
+    /// <exception cref="ArgumentException">The source's dimension differs from <paramref name="dimension"/>.</exception>
+    /// <exception cref="ArgumentNullException"><paramref name="options"/> or <paramref name="fullVectors"/> is <see langword="null"/>.</exception>
+    /// <exception cref="InvalidOperationException">The options do not re-score from an external source.</exception>
+    public ExactIndex(int dimension, DistanceMetric metric, ExactIndexOptions options, IFullVectorSource fullVectors)
+        : this(dimension, metric, options ?? throw new ArgumentNullException(nameof(options)), KernelDispatch.Widest)
+    {
+        SourceRows.CheckAttach(fullVectors, dimension, _readsExternally);
+        _source = fullVectors;
     }
 
     /// <summary>Creates an index whose kernels run no wider than <paramref name="kernelPath"/> (tests sweep every path).</summary>
@@ -88,7 +117,9 @@ public sealed partial class ExactIndex : ITrainableIndex
         int capacity = options.InitialCapacity;
         if (_storage == VectorStorage.Scalar8Bit)
         {
-            _keepsVectors = _rescoreDepth > 0;
+            _fullVectors = options.FullVectors;
+            _readsExternally = _rescoreDepth > 0 && _fullVectors == FullVectorLocation.ExternalSource;
+            _keepsVectors = _rescoreDepth > 0 && !_readsExternally;
             _codes = new CodeBuffer(ScalarQuantizer.PaddedLength(dimension), capacity);
         }
 
@@ -118,8 +149,39 @@ public sealed partial class ExactIndex : ITrainableIndex
     /// </summary>
     public bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
 
-    /// <summary>Whether full float32 vectors are held: under float32 storage, or under 8-bit storage with a positive <see cref="RescoreDepth"/>.</summary>
+    /// <summary>
+    /// Whether full float32 vectors are held in the index: under float32 storage, or under 8-bit storage with a positive
+    /// <see cref="RescoreDepth"/> and <see cref="FullVectors"/> = <see cref="FullVectorLocation.InIndexMemory"/>.
+    /// </summary>
     public bool KeepsFullVectors => _keepsVectors;
+
+    /// <summary>
+    /// Where re-scoring reads full vectors, as set by <see cref="ExactIndexOptions.FullVectors"/> under 8-bit storage;
+    /// always <see cref="FullVectorLocation.InIndexMemory"/> under float32 storage, whose rows are the full vectors.
+    /// </summary>
+    public FullVectorLocation FullVectors => _fullVectors;
+
+    /// <inheritdoc/>
+    public bool ReadsFullVectorsExternally => _readsExternally;
+
+    /// <inheritdoc/>
+    public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
+
+    /// <inheritdoc/>
+    public void AttachFullVectors(IFullVectorSource source)
+    {
+        SourceRows.CheckAttach(source, Dimension, _readsExternally);
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            Volatile.Write(ref _source, source);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
 
     /// <inheritdoc/>
     /// <remarks>Vectors (and 8-bit codes) at their reserved capacity, ids, norms, the code ranges, and the id lookup's
@@ -152,14 +214,27 @@ public sealed partial class ExactIndex : ITrainableIndex
     /// <inheritdoc/>
     /// <remarks>
     /// Under 8-bit storage without full vectors this is the decoded code, an approximation of the vector added (each
-    /// component within half a quantization step when inside the trained range, clamped to the range otherwise).
+    /// component within half a quantization step when inside the trained range, clamped to the range otherwise). With
+    /// an attached external source it is the source's vector (unit length under cosine, as an index keeping it stores it).
     /// </remarks>
+    /// <exception cref="InvalidOperationException">The attached source lacks the vector of an id the index holds.</exception>
     public bool TryGetVector(long id, Span<float> destination)
     {
         VectorChecks.CheckVectorDestination(destination, Dimension);
 
         using LockScopes.ReadScope read = _lock.EnterRead();
         ThrowIfDisposed();
+        if (_source is { } source && !_keepsVectors)
+        {
+            if (!_slotOf.ContainsKey(id))
+            {
+                return false;
+            }
+
+            new SourceRows(source, Dimension, Metric == DistanceMetric.Cosine).CopyTo(id, destination);
+            return true;
+        }
+
         if (!_keepsVectors)
         {
             return TryDecode(id, destination);
@@ -302,10 +377,11 @@ public sealed partial class ExactIndex : ITrainableIndex
 
     /// <inheritdoc/>
     /// <remarks>
-    /// Under 8-bit storage with full vectors kept, <see cref="SearchOptions.RescoreDepth"/> (default
+    /// Under 8-bit storage with full vectors kept (in memory or in an attached source), <see cref="SearchOptions.RescoreDepth"/> (default
     /// <see cref="RescoreDepth"/>) candidates by code distance are re-scored exactly and the returned distances are exact.
     /// </remarks>
     /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
         VectorChecks.CheckResultDestination(destination);
@@ -357,6 +433,7 @@ public sealed partial class ExactIndex : ITrainableIndex
     /// <inheritdoc/>
     /// <remarks>Under 8-bit storage each query runs the single-query code scan (and re-scoring), queries in parallel.</remarks>
     /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
     public unsafe BatchSearchResults SearchBatch(
         ReadOnlySpan<float> queries,
         int k,

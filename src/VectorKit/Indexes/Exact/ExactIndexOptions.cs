@@ -10,6 +10,7 @@ public sealed class ExactIndexOptions
     private readonly int _initialCapacity;
     private readonly VectorStorage _storage = VectorStorage.Float32;
     private readonly int _rescoreDepth;
+    private readonly FullVectorLocation _fullVectors = FullVectorLocation.InIndexMemory;
 
     /// <summary>The defaults: no space reserved up front, float32 storage, no re-scoring.</summary>
     public static ExactIndexOptions Default { get; } = new();
@@ -51,8 +52,8 @@ public sealed class ExactIndexOptions
     }
 
     /// <summary>
-    /// Under <see cref="VectorStorage.Scalar8Bit"/>, a positive value keeps every full float32 vector in memory beside
-    /// its code and, by default, re-scores this many best candidates (by code distance) exactly before returning the
+    /// Under <see cref="VectorStorage.Scalar8Bit"/>, a positive value keeps every full float32 vector (in memory beside
+    /// its code, or in an external source: <see cref="FullVectors"/>) and, by default, re-scores this many best candidates (by code distance) exactly before returning the
     /// best k; a search overrides the depth with <see cref="SearchOptions.RescoreDepth"/>. 0 (the default) keeps no
     /// full vectors, so distances are the codes' approximations. Ignored under <see cref="VectorStorage.Float32"/>,
     /// which is exact already.
@@ -69,6 +70,29 @@ public sealed class ExactIndexOptions
             }
 
             _rescoreDepth = value;
+        }
+    }
+
+    /// <summary>
+    /// Where re-scoring (a positive <see cref="RescoreDepth"/> under <see cref="VectorStorage.Scalar8Bit"/>) reads full
+    /// vectors: a copy kept in the index's memory (the default), or an <see cref="Reranking.IFullVectorSource"/> attached
+    /// with <see cref="ExactIndex.AttachFullVectors"/>, such as a <see cref="IO.FileVectorSource"/> over the file the
+    /// vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's file,
+    /// at the cost of one read per re-scored candidate. Ignored when re-scoring is off, and under
+    /// <see cref="VectorStorage.Float32"/>, whose rows are the full vectors.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="FullVectorLocation"/>.</exception>
+    public FullVectorLocation FullVectors
+    {
+        get => _fullVectors;
+        init
+        {
+            if (value is not (FullVectorLocation.InIndexMemory or FullVectorLocation.ExternalSource))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(FullVectors), value, "must be InIndexMemory or ExternalSource");
+            }
+
+            _fullVectors = value;
         }
     }
 }

@@ -363,8 +363,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
             }
             else if (_source is not null)
             {
-                ref float row = ref new SourceRows(_source, d, Metric == DistanceMetric.Cosine).Row(id);
-                MemoryMarshal.CreateReadOnlySpan(ref row, d).CopyTo(destination);
+                new SourceRows(_source, d, Metric == DistanceMetric.Cosine).CopyTo(id, destination);
             }
             else
             {
