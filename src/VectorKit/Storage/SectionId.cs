@@ -36,6 +36,9 @@ internal enum SectionId : uint
     /// <summary>Inverted file under product codes: the codewords, <c>code bytes × 256 × (dimension / code bytes)</c> float32.</summary>
     ProductCodebooks = 10,
 
-    /// <summary>Inverted file under 8-bit scalar codes: <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
+    /// <summary>Inverted file or graph under 8-bit scalar codes: <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
     ScalarRanges = 11,
+
+    /// <summary>Graph under 8-bit scalar codes: one code per slot, <c>rows × (dimension rounded up to 16)</c> bytes, padding zero.</summary>
+    GraphCodes = 12,
 }
