@@ -274,8 +274,8 @@ internal sealed class GraphIndexCodec : IndexCodec
         }
     }
 
-    // Reads `rows` codes of the open section, block by block (growing only as data arrives), and checks that each keeps
-    // the encoder's zero padding after the dimension.
+    // Reads `rows` codes of the open section, block by block (growing only as data arrives). Their padding is checked
+    // by GraphIndex.FromParts, after the checksum.
     private static CodeBuffer ReadCodes(IndexFileReader reader, int dimension, int rows)
     {
         int size = ScalarQuantizer.PaddedLength(dimension);
@@ -295,13 +295,6 @@ internal sealed class GraphIndexCodec : IndexCodec
 
                 Span<byte> block = MemoryMarshal.CreateSpan(ref codes.Row(start), n * size);
                 reader.Read(block);
-                for (int r = 0; r < n; r++)
-                {
-                    if (block.Slice((r * size) + dimension, size - dimension).IndexOfAnyExcept((byte)0) >= 0)
-                    {
-                        throw reader.SectionProblem($"the code of slot {start + r} has non-zero padding after its {dimension} bytes");
-                    }
-                }
             }
 
             return codes;

@@ -15,7 +15,7 @@ namespace VectorKit.Tests.Storage;
 /// </summary>
 public class IndexFileDamageTests
 {
-    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar" };
+    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "graph-scalar", "graph-scalar-full" };
 
     [Theory]
     [MemberData(nameof(Samples))]
@@ -329,6 +329,8 @@ public class IndexFileDamageTests
             // Product codes of one component per byte keep the codebooks (dimension × 256 floats) small.
             "ivf-product" => StorageSamples.InvertedFile(ListStorage.ProductCodes, DistanceMetric.InnerProduct, count: 16, dimension: 2, rescoreDepth: 4),
             "ivf-scalar" => StorageSamples.InvertedFile(ListStorage.Scalar8Bit, DistanceMetric.Cosine, count: 16, rescoreDepth: 3),
+            "graph-scalar" => StorageSamples.ScalarGraph(count: 16, dimension: 3),
+            "graph-scalar-full" => StorageSamples.ScalarGraph(count: 16, dimension: 3, metric: DistanceMetric.Cosine, rescoreDepth: 5),
             _ => throw new ArgumentOutOfRangeException(nameof(name), name, "not a sample"),
         };
         return IndexFileBytes.Save(index);

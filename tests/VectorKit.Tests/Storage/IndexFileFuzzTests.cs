@@ -73,7 +73,7 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
     private static List<byte[]> Corpus()
     {
         var corpus = new List<byte[]>();
-        foreach (string name in new[] { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar" })
+        foreach (string name in new[] { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "graph-scalar", "graph-scalar-full" })
         {
             corpus.Add(IndexFileDamageTests.Sample(name));
         }

@@ -291,6 +291,18 @@ public sealed partial class GraphIndex
         {
             throw new InvalidDataException($"an untrained 8-bit graph stores no vectors, but it has {parts.Slots} slots");
         }
+
+        // The kernels read the padding against zero scales, so any value is harmless; non-zero padding means damage.
+        if (parts.Codes is CodeBuffer stored)
+        {
+            for (int slot = 0; slot < parts.Slots; slot++)
+            {
+                if (stored.RowSpan(slot)[parts.Dimension..].IndexOfAnyExcept((byte)0) >= 0)
+                {
+                    throw new InvalidDataException($"the code of slot {slot} has non-zero padding after its {parts.Dimension} bytes");
+                }
+            }
+        }
     }
 
     private static void CheckBlock(GraphIndexParts parts, ReadOnlySpan<int> block, int slot, int layer, bool[] waypoint)

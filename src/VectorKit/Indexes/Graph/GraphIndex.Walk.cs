@@ -181,7 +181,7 @@ public sealed partial class GraphIndex
 
         // Equal distances are ordered by id, as every index orders them.
         hits.Sort();
-        found = Rescore(ref query, hits, depth);
+        found = Rescore(ref query, hits, destination.Length, depth);
         int written = Math.Min(destination.Length, found);
         hits[..written].CopyTo(destination);
         return written;

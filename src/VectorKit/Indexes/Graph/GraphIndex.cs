@@ -657,16 +657,17 @@ public sealed partial class GraphIndex : ITrainableIndex
         where TAction : struct, IGraphAction<TResult>, allows ref struct
         => GraphDispatch.Run<TAction, TResult>(Metric, _path, _codes is not null, ref action);
 
-    // Under full vectors kept beside codes: the first `depth` of `hits` (sorted by code distance) get their exact
-    // distances and are sorted again; the caller then takes the best k of them. Returns how many remain candidates.
-    private int Rescore(ref float query, Span<SearchHit> hits, int depth)
+    // Under full vectors kept beside codes: the first max(k, depth) of `hits` (sorted by code distance) get their exact
+    // distances and are sorted again, so every distance returned is exact; the caller then takes the best k of them.
+    // Returns how many remain candidates.
+    private int Rescore(ref float query, Span<SearchHit> hits, int k, int depth)
     {
         if (depth <= 0)
         {
             return hits.Length;
         }
 
-        Span<SearchHit> rescored = hits[..Math.Min(depth, hits.Length)];
+        Span<SearchHit> rescored = hits[..Math.Min(Math.Max(k, depth), hits.Length)];
         ExactRescoring.Rescore(Metric, _path, ref query, Dimension, rescored, new SlotRows(_vectors!, _slotOf));
         rescored.Sort();
         return rescored.Length;
@@ -725,7 +726,7 @@ public sealed partial class GraphIndex : ITrainableIndex
             }
 
             count = TopK.SortBestFirst(heap, count);
-            count = Rescore(ref query, heap[..count], depth);
+            count = Rescore(ref query, heap[..count], destination.Length, depth);
             int written = Math.Min(destination.Length, count);
             if (rented is not null)
             {
