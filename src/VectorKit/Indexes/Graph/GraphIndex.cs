@@ -27,9 +27,9 @@ namespace VectorKit.Indexes.Graph;
 /// best first, ties by id. A search keeps <c>max(k, width, depth)</c> candidates, width being
 /// <see cref="SearchOptions.SearchWidth"/> or <see cref="GraphIndexOptions.DefaultSearchWidth"/> and depth the re-score
 /// depth when full vectors are kept (else 0); it may return fewer than k items when the graph walk reaches fewer
-/// (rare, on tiny or heavily filtered indexes). Under 8-bit codes, distances are to the decoded codes, or, for the
-/// re-scored candidates, the exact index's distances bit for bit (the k results are then the best k of the
-/// re-scored ones).</para>
+/// (rare, on tiny or heavily filtered indexes). Under 8-bit codes, distances are to the decoded codes; with
+/// re-scoring, the best <c>max(k, depth)</c> candidates by code distance get the exact index's distances (bit for bit)
+/// and the k results are the best k of them, so every distance returned is exact.</para>
 /// <para><b>Filters.</b> <see cref="SearchOptions.Filter"/> is evaluated during the walk: items it rejects still lead the
 /// walk on but are never returned. When a fixed sample of 256 items suggests that fewer pass than a measured cost
 /// model says a walk can afford (<see cref="GraphIndexOptions.FilteredExactScanFraction"/>: about 8 % of 60,000 items

@@ -185,8 +185,8 @@ public sealed class GraphIndexOptions
 
     /// <summary>
     /// Under <see cref="VectorStorage.Scalar8Bit"/>: a positive value keeps every full float32 vector in memory beside
-    /// its code, and each search re-scores that many of the walk's best candidates exactly on them (the walk then keeps
-    /// at least this many); <see cref="SearchOptions.RescoreDepth"/> overrides it per search. 0 (the default) keeps
+    /// its code, and each search re-scores that many of the walk's best candidates exactly on them (at least k; the walk
+    /// then keeps at least this many); <see cref="SearchOptions.RescoreDepth"/> overrides it per search. 0 (the default) keeps
     /// no full vectors, so distances are the codes' approximations. Ignored under <see cref="VectorStorage.Float32"/>,
     /// which is exact already.
     /// </summary>
