@@ -234,16 +234,16 @@ public class Scalar8BitGraphIndexTests
                 live.AddRange(ids);
                 next += batch;
             }
-
-            GraphChecks.AssertSound(graph);
         }
 
+        // Checked at the end, as for float32 storage (GraphIndexProperties): between two global passes a group cut off
+        // by pruning may wait for the next one, which the class documents.
         if (compact)
         {
             graph.Compact();
-            GraphChecks.AssertSound(graph);
         }
 
+        GraphChecks.AssertSound(graph);
         Assert.Equal(live.Count, graph.Count);
         if (live.Count > 0)
         {
