@@ -7,8 +7,8 @@ namespace VectorKit.Benchmarks;
 
 /// <summary>
 /// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
-/// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory]</c> and
-/// <c>clustered-sweep [count] [dimension]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
+/// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory] [with-8bit]</c> and
+/// <c>clustered-sweep [count] [dimension] [with-8bit]</c> (<c>with-8bit</c> adds the graph under 8-bit codes); the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
 /// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; the inverted-file harness,
 /// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; re-scoring from memory vs a file,
 /// <c>rescore-source [count] [dimension] [lists] [product code bytes]</c>; the 8-bit exact index harness,
@@ -22,7 +22,7 @@ public static class Program
     {
         if (args.Length > 0 && args[0] == "graph-sweep")
         {
-            GraphSweep.RunFashionMnist(args.Length > 1 ? args[1] : "/usr/share/datasets/fashion-mnist");
+            GraphSweep.RunFashionMnist(args.Length > 1 && args[1] != "with-8bit" ? args[1] : "/usr/share/datasets/fashion-mnist", args.Contains("with-8bit"));
             return;
         }
 
@@ -36,7 +36,7 @@ public static class Program
         {
             int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
             int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
-            GraphSweep.RunClustered(count, dimension);
+            GraphSweep.RunClustered(count, dimension, args.Contains("with-8bit"));
             return;
         }
 

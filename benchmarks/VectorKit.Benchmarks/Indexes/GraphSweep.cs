@@ -14,20 +14,27 @@ namespace VectorKit.Benchmarks.Indexes;
 /// index on 2 threads, then measures single-thread queries/s at several search widths with recall@10 against exact
 /// ground truth, and the exact index's single-thread queries/s on the same queries in the same run. The machine may
 /// be shared, so every throughput is the best of several timed passes (after an untimed one): interference only
-/// ever slows a pass down.
+/// ever slows a pass down. With <c>withCodes</c>, the same data also goes into a graph under 8-bit codes, and a second
+/// table sets it beside the float32 graph at each width, without and with exact re-scoring.
 /// </summary>
 public static class GraphSweep
 {
     private const int K = 10;
 
+    // Candidates the 8-bit graph re-scores exactly in the comparison (ten times k: common practice).
+    private const int RescoreDepth = 100;
+
+    // Rows the 8-bit graph's ranges are trained on (the first ones of the base).
+    private const int TrainingRows = 20_000;
+
     /// <summary>Fashion-MNIST: the 60,000 training images as the base, the first 1,000 test images as queries.</summary>
-    public static void RunFashionMnist(string directory)
+    public static void RunFashionMnist(string directory, bool withCodes = false)
     {
         VectorSet train = IdxFile.ReadVectors(Path.Combine(directory, "train-images-idx3-ubyte.gz"));
         VectorSet test = IdxFile.ReadVectors(Path.Combine(directory, "t10k-images-idx3-ubyte.gz"));
         int d = train.Dimension;
         Console.WriteLine($"Fashion-MNIST: {train.Count} × {d}, squared L2, 1000 queries");
-        Sweep(train.Data, d, test.Data.AsSpan(0, 1000 * d).ToArray(), exactQueries: 1000, [10, 16, 24, 32, 48, 64, 96, 128, 256]);
+        Sweep(train.Data, d, test.Data.AsSpan(0, 1000 * d).ToArray(), exactQueries: 1000, [10, 16, 24, 32, 48, 64, 96, 128, 256], withCodes);
     }
 
     /// <summary>
@@ -35,7 +42,7 @@ public static class GraphSweep
     /// per 100 items (spread 0.2 around centres uniform in [−1, 1]ᵈ), 1,000 queries: the generator's next 1,000 rows,
     /// so from the same clusters; the exact index is timed on the first 200 of them (a full scan per query).
     /// </summary>
-    public static void RunClustered(int count, int dimension)
+    public static void RunClustered(int count, int dimension, bool withCodes = false)
     {
         int clusters = Math.Max(1, count / 100);
         Console.WriteLine($"clustered synthetic: {count} × {dimension}, {clusters} clusters, spread 0.2, squared L2, 1000 queries");
@@ -44,10 +51,10 @@ public static class GraphSweep
         float[] all = ClusteredData.Generate(count + 1000, dimension, clusters, 0.2f, seed: 101);
         float[] data = all.AsSpan(0, count * dimension).ToArray();
         float[] queries = all.AsSpan(count * dimension).ToArray();
-        Sweep(data, dimension, queries, exactQueries: 200, [10, 32, 128, 512, 1024, 2048, 4096]);
+        Sweep(data, dimension, queries, exactQueries: 200, [10, 32, 128, 512, 1024, 2048, 4096], withCodes);
     }
 
-    private static void Sweep(float[] data, int d, float[] queries, int exactQueries, int[] widths)
+    private static void Sweep(float[] data, int d, float[] queries, int exactQueries, int[] widths, bool withCodes)
     {
         int count = data.Length / d;
         int queryCount = queries.Length / d;
@@ -72,12 +79,60 @@ public static class GraphSweep
             $"managed heap grew {(GC.GetTotalMemory(forceFullCollection: true) - before) / 1048576.0:F0} MiB");
         Console.WriteLine($"exact index: {exactQps:F1} queries/s (single thread, {exactQueries} queries)");
         Console.WriteLine("width  recall@10  queries/s  × exact");
-        foreach (int width in widths)
+        List<long[]> expected = Enumerable.Range(0, queryCount).Select(q => truth[q].ToArray()).ToList();
+        var floatRows = new (double Recall, double Qps)[widths.Length];
+        for (int w = 0; w < widths.Length; w++)
         {
+            int width = widths[w];
             var options = new SearchOptions { SearchWidth = width };
             double qps = SingleThreadQps(graph, queries, d, options, timedPasses: 5, out long[][] found);
-            double recall = Recall.AtK(Enumerable.Range(0, queryCount).Select(q => truth[q].ToArray()).ToList(), found, K);
+            double recall = Recall.AtK(expected, found, K);
+            floatRows[w] = (recall, qps);
             Console.WriteLine($"{width,5}  {recall,9:F4}  {qps,9:F0}  {qps / exactQps,7:F1}");
+        }
+
+        if (withCodes)
+        {
+            double floatBytes = graph.MemoryBytes / (double)count;
+            graph.Dispose();
+            CompareCodes(data, d, ids, queries, expected, widths, floatRows, floatBytes, watch.Elapsed.TotalSeconds);
+        }
+    }
+
+    // The 8-bit graph on the same data, beside the float32 rows already measured. One graph keeps the full vectors, so
+    // it answers both with re-scoring and (depth 0 per search) without; its bytes per vector without them are its
+    // memory less the full vectors' block (reserved for exactly `count` rows), which is what a graph built without
+    // re-scoring holds: the graph itself does not depend on the full vectors.
+    private static void CompareCodes(float[] data, int d, long[] ids, float[] queries, List<long[]> expected, int[] widths, (double Recall, double Qps)[] floatRows, double floatBytes, double floatBuildSeconds)
+    {
+        int count = ids.Length;
+        var watch = Stopwatch.StartNew();
+        using var codes = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions
+        {
+            BuildParallelism = 2,
+            Storage = VectorStorage.Scalar8Bit,
+            RescoreDepth = RescoreDepth,
+            InitialCapacity = count,
+        });
+        codes.Train(data.AsSpan(0, Math.Min(count, TrainingRows) * d));
+        double trainSeconds = watch.Elapsed.TotalSeconds;
+        codes.AddRange(ids, data);
+        watch.Stop();
+        double withFull = codes.MemoryBytes / (double)count;
+        double codesOnly = (codes.MemoryBytes - ((long)count * d * sizeof(float))) / (double)count;
+        Console.WriteLine(
+            $"8-bit graph: trained on {Math.Min(count, TrainingRows)} rows in {trainSeconds:F2} s, built in {watch.Elapsed.TotalSeconds - trainSeconds:F1} s on 2 threads " +
+            $"(float32 graph: {floatBuildSeconds:F1} s); bytes/vector: float32 graph {floatBytes:F0}, 8-bit graph {codesOnly:F0} ({codes.CodeBytesPerVector} of them the code), " +
+            $"8-bit graph + full vectors {withFull:F0}");
+        Console.WriteLine($"width  float32 recall@10  queries/s | 8-bit recall@10  queries/s | 8-bit + re-score {RescoreDepth} recall@10  queries/s");
+        for (int w = 0; w < widths.Length; w++)
+        {
+            int width = widths[w];
+            double plainQps = SingleThreadQps(codes, queries, d, new SearchOptions { SearchWidth = width, RescoreDepth = 0 }, timedPasses: 5, out long[][] plainFound);
+            double rescoredQps = SingleThreadQps(codes, queries, d, new SearchOptions { SearchWidth = width }, timedPasses: 5, out long[][] rescoredFound);
+            Console.WriteLine(
+                $"{width,5}  {floatRows[w].Recall,17:F4}  {floatRows[w].Qps,9:F0} | {Recall.AtK(expected, plainFound, K),15:F4}  {plainQps,9:F0} | " +
+                $"{Recall.AtK(expected, rescoredFound, K),28:F4}  {rescoredQps,9:F0}");
         }
     }
 

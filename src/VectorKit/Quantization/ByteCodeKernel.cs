@@ -50,8 +50,9 @@ internal static class ByteCodeKernel
         }
     }
 
+    /// <summary>The step-sum of the prepared query with one code (the graph index calls it per node, inlined into its walk).</summary>
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    private static float One<TStep, TLane>(ref float q, ref float scale, ref float offset, ref byte code, int paddedLength)
+    internal static float One<TStep, TLane>(ref float q, ref float scale, ref float offset, ref byte code, int paddedLength)
         where TStep : struct, IAccumulateStep
         where TLane : struct, IVectorLane<TLane>
     {

@@ -156,6 +156,29 @@ public sealed class ScalarQuantizer
         return new ScalarQuantizer(paddedMinimums, paddedSteps, dimension);
     }
 
+    /// <summary>The first decoding step, padded with zeros to <see cref="CodeBytes"/> (the kernel's scales).</summary>
+    internal ref float ScaleReference => ref MemoryMarshal.GetArrayDataReference(_steps);
+
+    /// <summary>The first minimum, padded with zeros to <see cref="CodeBytes"/> (the kernel's offsets).</summary>
+    internal ref float OffsetReference => ref MemoryMarshal.GetArrayDataReference(_minimums);
+
+    /// <summary>
+    /// Decodes a code into <see cref="CodeBytes"/> floats, zeros in the padding, with the kernel's multiply-add: the
+    /// result serves as a prepared query against other codes.
+    /// </summary>
+    internal void DecodePadded(ReadOnlySpan<byte> code, Span<float> padded)
+    {
+        int n = CodeBytes;
+        ReadOnlySpan<float> steps = _steps.AsSpan(0, n);
+        ReadOnlySpan<float> minimums = _minimums.AsSpan(0, n);
+        code = code[..n];
+        padded = padded[..n];
+        for (int j = 0; j < n; j++)
+        {
+            padded[j] = float.MultiplyAddEstimate(steps[j], code[j], minimums[j]);
+        }
+    }
+
     internal static int PaddedLength(int dimension) => (dimension + ByteCodeKernel.Granularity - 1) / ByteCodeKernel.Granularity * ByteCodeKernel.Granularity;
 
     internal void EncodeUnchecked(ReadOnlySpan<float> vector, Span<byte> code)

@@ -1,11 +1,14 @@
+using System.Runtime.InteropServices;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Graph;
+using VectorKit.Quantization;
 
 namespace VectorKit.Storage;
 
 /// <summary>
 /// The graph index: its options and entry point as header fields; sections ids, node levels, removal flags,
-/// bottom-layer links, upper-layer links and vectors, in that order.
+/// bottom-layer links, upper-layer links and vectors, in that order. Under 8-bit codes the vectors section is replaced
+/// by the scalar ranges and the codes, followed by the vectors only when the full vectors are kept for re-scoring.
 /// </summary>
 internal sealed class GraphIndexCodec : IndexCodec
 {
@@ -18,6 +21,12 @@ internal sealed class GraphIndexCodec : IndexCodec
     private const string FilteredExactScanFraction = "filtered-exact-scan-fraction";
     private const string EntrySlot = "entry-slot";
     private const string EntryLevel = "entry-level";
+
+    // Written only when not at their defaults (float32, no re-scoring), so float32 files keep the bytes of version 1.
+    private const string VectorStorageField = "vector-storage";
+    private const string RescoreDepth = "rescore-depth";
+    private const string Trained = "trained";
+    private const int CodeBlockBytes = 1 << 20;
 
     public override IndexKind Kind => IndexKind.Graph;
 
@@ -43,12 +52,34 @@ internal sealed class GraphIndexCodec : IndexCodec
             }
             header.Integers[EntrySlot] = parts.EntrySlot;
             header.Integers[EntryLevel] = parts.EntryLevel;
+            bool codes = options.Storage == VectorStorage.Scalar8Bit;
+            if (codes)
+            {
+                header.Integers[VectorStorageField] = (int)options.Storage;
+                header.Integers[Trained] = parts.ScalarRanges is null ? 0 : 1;
+            }
+
+            if (options.RescoreDepth != 0)
+            {
+                header.Integers[RescoreDepth] = options.RescoreDepth;
+            }
+
             header.Sections.Add(new SectionEntry((uint)SectionId.Ids, 0, checked((long)slots * sizeof(long))));
             header.Sections.Add(new SectionEntry((uint)SectionId.NodeLevels, 0, slots));
             header.Sections.Add(new SectionEntry((uint)SectionId.RemovedFlags, 0, slots));
             header.Sections.Add(new SectionEntry((uint)SectionId.BottomLinks, 0, checked((long)parts.BottomLinks.Length * sizeof(int))));
             header.Sections.Add(new SectionEntry((uint)SectionId.UpperLinks, 0, checked((long)parts.UpperLinks.Length * sizeof(int))));
-            header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, checked((long)slots * parts.Dimension * sizeof(float))));
+            if (codes)
+            {
+                header.Sections.Add(new SectionEntry((uint)SectionId.ScalarRanges, 0, checked((long)(parts.ScalarRanges?.Length ?? 0) * sizeof(float))));
+                header.Sections.Add(new SectionEntry((uint)SectionId.ScalarCodes, 0, checked((long)slots * parts.Codes!.Dimension)));
+            }
+
+            if (parts.Vectors is not null)
+            {
+                header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, checked((long)slots * parts.Dimension * sizeof(float))));
+            }
+
             writer.WriteHeader(header);
             writer.BeginSection(SectionId.Ids);
             writer.Write<long>(parts.Ids.AsSpan(0, slots));
@@ -65,9 +96,23 @@ internal sealed class GraphIndexCodec : IndexCodec
             writer.BeginSection(SectionId.UpperLinks);
             writer.Write<int>(parts.UpperLinks);
             writer.EndSection();
-            writer.BeginSection(SectionId.Vectors);
-            StorageBlocks.WriteRows(writer, parts.Vectors, slots);
-            writer.EndSection();
+            if (codes)
+            {
+                writer.BeginSection(SectionId.ScalarRanges);
+                writer.Write<float>(parts.ScalarRanges ?? []);
+                writer.EndSection();
+                writer.BeginSection(SectionId.ScalarCodes);
+                WriteCodes(writer, parts.Codes!, slots);
+                writer.EndSection();
+            }
+
+            if (parts.Vectors is not null)
+            {
+                writer.BeginSection(SectionId.Vectors);
+                StorageBlocks.WriteRows(writer, parts.Vectors, slots);
+                writer.EndSection();
+            }
+
             writer.Finish();
             return 0;
         });
@@ -85,6 +130,19 @@ internal sealed class GraphIndexCodec : IndexCodec
         }
 
         int parallelism = (int)header.Integer(BuildParallelism, -1, int.MaxValue);
+
+        // Optional: absent in files written before 8-bit storage existed, and whenever they are at their defaults.
+        var storage = header.Integers.ContainsKey(VectorStorageField)
+            ? (VectorStorage)header.Integer(VectorStorageField, (int)VectorStorage.Float32, (int)VectorStorage.Scalar8Bit)
+            : VectorStorage.Float32;
+        int rescoreDepth = header.Integers.ContainsKey(RescoreDepth) ? (int)header.Integer(RescoreDepth, 0, 100_000) : 0;
+        bool codes = storage == VectorStorage.Scalar8Bit;
+        bool trained = !codes || header.Integer(Trained, 0, 1) == 1;
+        if (!trained && (slots != 0 || header.Count != 0))
+        {
+            throw IndexHeader.Malformed($"an untrained 8-bit graph holds no vectors, but it declares {slots} slots");
+        }
+
         var options = new GraphIndexOptions
         {
             LinksPerNode = links,
@@ -97,6 +155,8 @@ internal sealed class GraphIndexCodec : IndexCodec
             FilteredExactScanFraction = header.Reals.ContainsKey(FilteredExactScanFraction)
                 ? header.Real(FilteredExactScanFraction, 0, 1)
                 : null,
+            Storage = storage,
+            RescoreDepth = rescoreDepth,
         };
         if (parallelism == 0)
         {
@@ -144,16 +204,33 @@ internal sealed class GraphIndexCodec : IndexCodec
 
         int[] upperLinks = reader.ReadArray<int>((int)upperInts);
         reader.CloseSection();
-        reader.OpenSection(SectionId.Vectors);
-        var vectors = new VectorBuffer(header.Dimension, 0);
+        float[]? ranges = null;
+        CodeBuffer? codeRows = null;
+        VectorBuffer? vectors = null;
         try
         {
-            reader.ReadRows(vectors, slots);
-            reader.CloseSection();
+            if (codes)
+            {
+                reader.OpenSection(SectionId.ScalarRanges);
+                ranges = reader.ReadArray<float>(trained ? 2 * header.Dimension : 0);
+                reader.CloseSection();
+                reader.OpenSection(SectionId.ScalarCodes);
+                codeRows = ReadCodes(reader, header.Dimension, slots);
+                reader.CloseSection();
+            }
+
+            if (!codes || rescoreDepth > 0)
+            {
+                reader.OpenSection(SectionId.Vectors);
+                vectors = new VectorBuffer(header.Dimension, 0);
+                reader.ReadRows(vectors, slots);
+                reader.CloseSection();
+            }
         }
         catch
         {
-            vectors.Dispose();
+            codeRows?.Dispose();
+            vectors?.Dispose();
             throw;
         }
 
@@ -170,6 +247,8 @@ internal sealed class GraphIndexCodec : IndexCodec
             BottomLinks = bottomLinks,
             UpperLinks = upperLinks,
             Vectors = vectors,
+            Codes = codeRows,
+            ScalarRanges = trained && codes ? ranges : null,
             EntrySlot = entrySlot,
             EntryLevel = entryLevel,
         };
@@ -180,6 +259,50 @@ internal sealed class GraphIndexCodec : IndexCodec
         catch (InvalidDataException e)
         {
             throw new IndexFileException($"Index file holds an invalid graph: {e.Message}.", "graph", -1, e);
+        }
+    }
+
+    // Codes in blocks of about 1 MiB (a code buffer may exceed one span's reach).
+    private static void WriteCodes(IndexFileWriter writer, CodeBuffer codes, int rows)
+    {
+        int size = codes.Dimension;
+        int blockRows = Math.Max(1, CodeBlockBytes / size);
+        for (int start = 0; start < rows; start += blockRows)
+        {
+            int n = Math.Min(blockRows, rows - start);
+            writer.Write<byte>(MemoryMarshal.CreateReadOnlySpan(ref codes.Row(start), n * size));
+        }
+    }
+
+    // Reads `rows` codes of the open section, block by block (growing only as data arrives). Their padding is checked
+    // by GraphIndex.FromParts, after the checksum.
+    private static CodeBuffer ReadCodes(IndexFileReader reader, int dimension, int rows)
+    {
+        int size = ScalarQuantizer.PaddedLength(dimension);
+        reader.ExpectPayload(checked((long)rows * size));
+        var codes = new CodeBuffer(size, 0);
+        try
+        {
+            int blockRows = Math.Max(1, CodeBlockBytes / size);
+            for (int start = 0; start < rows; start += blockRows)
+            {
+                int n = Math.Min(blockRows, rows - start);
+                if (codes.Capacity < start + n)
+                {
+                    // A known length was checked against the declared sizes: allocate once; otherwise grow with the data.
+                    codes.Resize(reader.LengthKnown ? rows : (int)Math.Min(rows, Math.Max(start + n, 2L * codes.Capacity)));
+                }
+
+                Span<byte> block = MemoryMarshal.CreateSpan(ref codes.Row(start), n * size);
+                reader.Read(block);
+            }
+
+            return codes;
+        }
+        catch
+        {
+            codes.Dispose();
+            throw;
         }
     }
 }

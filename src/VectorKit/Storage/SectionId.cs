@@ -36,10 +36,10 @@ internal enum SectionId : uint
     /// <summary>Inverted file under product codes: the codewords, <c>code bytes × 256 × (dimension / code bytes)</c> float32.</summary>
     ProductCodebooks = 10,
 
-    /// <summary>Under 8-bit scalar codes (inverted file, exact index): <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
+    /// <summary>Under 8-bit scalar codes (inverted file, exact index, graph): <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
     ScalarRanges = 11,
 
-    /// <summary>One 8-bit scalar code per row, row order, each <c>dimension</c> rounded up to 16 bytes (padding zero).</summary>
+    /// <summary>Exact index or graph under 8-bit scalar codes: one code per row (graph: per slot), in order, each <c>dimension</c> rounded up to 16 bytes (padding zero).</summary>
     ScalarCodes = 12,
 
     /// <summary>Inverted file under rotated product codes: the rotation, <c>dimension × dimension</c> float32, row-major (empty when untrained).</summary>

@@ -15,7 +15,7 @@ namespace VectorKit.Tests.Storage;
 /// </summary>
 public class IndexFileDamageTests
 {
-    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full", "exact-scalar-external" };
+    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full", "exact-scalar-external", "graph-scalar", "graph-scalar-full" };
 
     [Theory]
     [MemberData(nameof(Samples))]
@@ -333,6 +333,8 @@ public class IndexFileDamageTests
             "exact-scalar" => StorageSamples.ExactScalar(),
             "exact-scalar-full" => StorageSamples.ExactScalar(metric: DistanceMetric.Cosine, rescoreDepth: 3),
             "exact-scalar-external" => StorageSamples.ExactScalar(metric: DistanceMetric.Cosine, rescoreDepth: 3, fullVectors: FullVectorLocation.ExternalSource),
+            "graph-scalar" => StorageSamples.ScalarGraph(count: 16, dimension: 3),
+            "graph-scalar-full" => StorageSamples.ScalarGraph(count: 16, dimension: 3, metric: DistanceMetric.Cosine, rescoreDepth: 5),
             _ => throw new ArgumentOutOfRangeException(nameof(name), name, "not a sample"),
         };
         return IndexFileBytes.Save(index);

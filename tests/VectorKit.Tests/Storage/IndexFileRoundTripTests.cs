@@ -168,6 +168,60 @@ public class IndexFileRoundTripTests
         GraphChecks.AssertSound(loaded);
     }
 
+    [Property(MaxTest = 40)]
+    public void ScalarGraphIndex_RoundTripsWithIdenticalSearchResults(int[] components, byte dimensionSeed, byte metricSeed, int seed, byte depthSeed, bool compact)
+    {
+        DistanceMetric metric = (DistanceMetric)(metricSeed % 3);
+        int d = 1 + (dimensionSeed % 20);
+        int n = Math.Min(components.Length / d, 120);
+        float[] data = Data(components, n, d, seed);
+        long[] ids = Enumerable.Range(0, n).Select(i => ((long)i * 7919) + 3).ToArray();
+        int depth = depthSeed % 3 == 0 ? 0 : 1 + (depthSeed % 30);
+        var options = new GraphIndexOptions { LinksPerNode = 4, BuildWidth = 24, Seed = seed, BuildParallelism = 1, Storage = VectorStorage.Scalar8Bit, RescoreDepth = depth };
+        using var graph = new GraphIndex(d, metric, options);
+        graph.Train(n > 0 ? data : Enumerable.Repeat(1f, d).ToArray());
+        graph.AddRange(ids, data);
+        graph.RemoveRange(ids.Where((_, i) => i % 4 == 1).ToArray());
+        if (compact)
+        {
+            graph.Compact();
+        }
+
+        byte[] file = IndexFileBytes.Save(graph);
+        using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(file), IndexLoadOptions.Untrusted);
+        AssertSameContents(graph, loaded, ids, seed);
+        Assert.Equal((VectorStorage.Scalar8Bit, depth, graph.KeepsFullVectors), (loaded.Options.Storage, loaded.Options.RescoreDepth, loaded.KeepsFullVectors));
+        Assert.Equal(graph.CheckInvariants(), loaded.CheckInvariants());
+        Assert.Equal(file, IndexFileBytes.Save(loaded));
+
+        // The loaded graph keeps working on the same ranges.
+        float[] more = Data(components.Reverse().ToArray(), Math.Min(n, 10), d, seed + 1);
+        loaded.AddRange(Enumerable.Range(0, more.Length / d).Select(i => -1L - i).ToArray(), more);
+        GraphChecks.AssertSound(loaded);
+    }
+
+    [Theory]
+    [InlineData(DistanceMetric.SquaredEuclidean, 0)]
+    [InlineData(DistanceMetric.Cosine, 6)]
+    public void UntrainedScalarGraph_RoundTrips_AndTrainsLikeTheOriginal(DistanceMetric metric, int rescoreDepth)
+    {
+        var options = new GraphIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth, BuildParallelism = 1 };
+        using var graph = new GraphIndex(4, metric, options);
+        using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(IndexFileBytes.Save(graph)), IndexLoadOptions.Untrusted);
+        Assert.False(loaded.IsTrained);
+        Assert.Equal((VectorStorage.Scalar8Bit, rescoreDepth), (loaded.Options.Storage, loaded.Options.RescoreDepth));
+        Assert.Throws<IndexNotTrainedException>(() => loaded.Add(1, [1, 2, 3, 4]));
+        float[] data = ClusteredData.Generate(30, 4, 3, 0.3f, 5);
+        long[] ids = Enumerable.Range(0, 30).Select(i => (long)i).ToArray();
+        foreach (GraphIndex target in new[] { graph, loaded })
+        {
+            target.Train(data);
+            target.AddRange(ids, data);
+        }
+
+        AssertSameContents(graph, loaded, ids, 4);
+    }
+
     [Fact]
     public void GraphIndex_WithTwoLinksOnALine_StaysReachableAfterLoadAddAndRemove()
     {

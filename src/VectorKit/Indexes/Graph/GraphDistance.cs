@@ -1,82 +1,177 @@
 using System.Runtime.CompilerServices;
+using System.Runtime.Intrinsics.X86;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
+using VectorKit.Quantization;
 
 namespace VectorKit.Indexes.Graph;
 
-/// <summary>A metric's distance between two rows, smaller is better, bit-identical to what the exact index reports.</summary>
+/// <summary>
+/// A metric's distance from a prepared query to a stored node of the graph, smaller is better, for one way of storing
+/// the rows: float32 rows (bit-identical to the exact index) or 8-bit codes (the float query against the decoded code).
+/// </summary>
 /// <remarks>
-/// Implementations are generic over the SIMD lane, resolved once per operation by <see cref="GraphDispatch"/>: the
-/// kernel body then inlines into the graph walk instead of being chosen again for every pair.
+/// Implementations are generic over the metric's step, its finish and the SIMD lane, resolved once per operation by
+/// <see cref="GraphDispatch"/>: the kernel body then inlines into the graph walk instead of being chosen again for
+/// every pair, and the float path runs exactly the code it ran before codes existed.
+/// <para>A <i>prepared query</i> is a search query (for codes padded with zeros to the code length), or a stored node turned into a query by <see cref="NodeAsQuery"/>. Node-to-node distances are thus one
+/// side decoded once and the other read as a code; both kernels are symmetric term by term, so which side is decoded
+/// does not change the result.</para>
 /// </remarks>
 internal interface IGraphDistance
 {
-    static abstract float Between(ref float a, ref float b, int dimension);
+    /// <summary>The distance from a prepared query to the row of <paramref name="slot"/>.</summary>
+    static abstract float ToNode(GraphIndex index, ref float query, int slot);
+
+    /// <summary>
+    /// The row of <paramref name="slot"/> as a prepared query: the stored float row itself, or the code decoded into
+    /// buffer <paramref name="place"/> of the scratch (valid until that place is written again).
+    /// </summary>
+    static abstract ref float NodeAsQuery(GraphIndex index, int slot, GraphScratch scratch, int place);
+
+    /// <summary>What <see cref="NodeAsQuery"/> returned earlier for the same slot and place, without decoding again.</summary>
+    static abstract ref float Prepared(GraphIndex index, int slot, GraphScratch scratch, int place);
+
+    /// <summary>Asks the cache for the row of <paramref name="slot"/>.</summary>
+    static abstract void Prefetch(GraphIndex index, int slot);
 }
 
-/// <summary>Squared Euclidean distance.</summary>
-internal readonly struct SquaredEuclideanGraphDistance<TLane> : IGraphDistance
+/// <summary>How a metric turns the kernel's step-sum into a distance.</summary>
+internal interface IGraphFinish
+{
+    static abstract float Apply(float sum);
+}
+
+/// <summary>Squared Euclidean distance: the sum as is.</summary>
+internal readonly struct KeepSum : IGraphFinish
+{
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static float Apply(float sum) => sum;
+}
+
+/// <summary>Inner product: the negated dot product.</summary>
+internal readonly struct NegateSum : IGraphFinish
+{
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static float Apply(float sum) => -sum;
+}
+
+/// <summary>Cosine: one minus the dot product of unit vectors.</summary>
+internal readonly struct OneMinusSum : IGraphFinish
+{
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static float Apply(float sum) => 1f - sum;
+}
+
+/// <summary>Float32 rows: the exact index's kernel, so distances equal its own bit for bit.</summary>
+internal readonly struct FloatGraphDistance<TStep, TFinish, TLane> : IGraphDistance
+    where TStep : struct, IAccumulateStep
+    where TFinish : struct, IGraphFinish
     where TLane : struct, IVectorLane<TLane>
 {
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public static float Between(ref float a, ref float b, int dimension)
-        => ManyKernel.One<SquaredDifferenceStep, TLane>(ref a, ref b, dimension);
+    public static float ToNode(GraphIndex index, ref float query, int slot)
+        => TFinish.Apply(ManyKernel.One<TStep, TLane>(ref query, ref index.FloatRows.Row(slot), index.Dimension));
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static ref float NodeAsQuery(GraphIndex index, int slot, GraphScratch scratch, int place) => ref index.FloatRows.Row(slot);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static ref float Prepared(GraphIndex index, int slot, GraphScratch scratch, int place) => ref index.FloatRows.Row(slot);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static void Prefetch(GraphIndex index, int slot)
+        => GraphDispatch.PrefetchBytes(ref Unsafe.As<float, byte>(ref index.FloatRows.Row(slot)), index.Dimension * sizeof(float));
 }
 
-/// <summary>Negated dot product.</summary>
-internal readonly struct InnerProductGraphDistance<TLane> : IGraphDistance
+/// <summary>8-bit scalar codes: the float query against the decoded code, on the SIMD byte-code kernel.</summary>
+internal readonly struct CodeGraphDistance<TStep, TFinish, TLane> : IGraphDistance
+    where TStep : struct, IAccumulateStep
+    where TFinish : struct, IGraphFinish
     where TLane : struct, IVectorLane<TLane>
 {
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public static float Between(ref float a, ref float b, int dimension)
-        => -ManyKernel.One<DotStep, TLane>(ref a, ref b, dimension);
-}
+    public static float ToNode(GraphIndex index, ref float query, int slot)
+    {
+        ScalarQuantizer quantizer = index.Quantizer;
+        return TFinish.Apply(ByteCodeKernel.One<TStep, TLane>(ref query, ref quantizer.ScaleReference, ref quantizer.OffsetReference, ref index.CodeRows.Row(slot), quantizer.CodeBytes));
+    }
 
-/// <summary>One minus the dot product of unit vectors.</summary>
-internal readonly struct CosineGraphDistance<TLane> : IGraphDistance
-    where TLane : struct, IVectorLane<TLane>
-{
+    public static ref float NodeAsQuery(GraphIndex index, int slot, GraphScratch scratch, int place)
+    {
+        ScalarQuantizer quantizer = index.Quantizer;
+        Span<float> into = scratch.DecodePlace(place, quantizer.CodeBytes, index.DecodePlaces);
+        quantizer.DecodePadded(index.CodeRows.RowSpan(slot), into);
+        return ref into[0];
+    }
+
+    public static ref float Prepared(GraphIndex index, int slot, GraphScratch scratch, int place)
+        => ref scratch.DecodePlace(place, index.Quantizer.CodeBytes, index.DecodePlaces)[0];
+
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public static float Between(ref float a, ref float b, int dimension)
-        => 1f - ManyKernel.One<DotStep, TLane>(ref a, ref b, dimension);
+    public static void Prefetch(GraphIndex index, int slot)
+        => GraphDispatch.PrefetchBytes(ref index.CodeRows.Row(slot), index.Quantizer.CodeBytes);
 }
 
-/// <summary>An operation of the graph index that runs with one concrete distance (metric and SIMD width).</summary>
+/// <summary>An operation of the graph index that runs with one concrete distance (storage, metric and SIMD width).</summary>
 internal interface IGraphAction<TResult>
 {
     TResult Run<TDistance>()
         where TDistance : struct, IGraphDistance;
 }
 
-/// <summary>Resolves a metric and the kernel width for a dimension into one concrete <see cref="IGraphDistance"/>.</summary>
+/// <summary>Resolves the storage, a metric and the kernel width for a dimension into one concrete <see cref="IGraphDistance"/>.</summary>
 internal static class GraphDispatch
 {
-    public static TResult Run<TAction, TResult>(DistanceMetric metric, KernelPath path, ref TAction action)
+    public static TResult Run<TAction, TResult>(DistanceMetric metric, KernelPath path, bool codes, ref TAction action)
         where TAction : struct, IGraphAction<TResult>, allows ref struct
     {
         return metric switch
         {
-            DistanceMetric.SquaredEuclidean => path switch
-            {
-                KernelPath.Vector512 => action.Run<SquaredEuclideanGraphDistance<Lane512>>(),
-                KernelPath.Vector256 => action.Run<SquaredEuclideanGraphDistance<Lane256>>(),
-                KernelPath.Vector128 => action.Run<SquaredEuclideanGraphDistance<Lane128>>(),
-                _ => action.Run<SquaredEuclideanGraphDistance<LaneScalar>>(),
-            },
-            DistanceMetric.InnerProduct => path switch
-            {
-                KernelPath.Vector512 => action.Run<InnerProductGraphDistance<Lane512>>(),
-                KernelPath.Vector256 => action.Run<InnerProductGraphDistance<Lane256>>(),
-                KernelPath.Vector128 => action.Run<InnerProductGraphDistance<Lane128>>(),
-                _ => action.Run<InnerProductGraphDistance<LaneScalar>>(),
-            },
-            _ => path switch
-            {
-                KernelPath.Vector512 => action.Run<CosineGraphDistance<Lane512>>(),
-                KernelPath.Vector256 => action.Run<CosineGraphDistance<Lane256>>(),
-                KernelPath.Vector128 => action.Run<CosineGraphDistance<Lane128>>(),
-                _ => action.Run<CosineGraphDistance<LaneScalar>>(),
-            },
+            DistanceMetric.SquaredEuclidean => ByPath<TAction, TResult, SquaredDifferenceStep, KeepSum>(path, codes, ref action),
+            DistanceMetric.InnerProduct => ByPath<TAction, TResult, DotStep, NegateSum>(path, codes, ref action),
+            _ => ByPath<TAction, TResult, DotStep, OneMinusSum>(path, codes, ref action),
         };
     }
+
+    // Asks the cache for a row (one hint per 64-byte line); no effect where the hint is not available.
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static unsafe void PrefetchBytes(ref byte row, int bytes)
+    {
+        if (Sse.IsSupported)
+        {
+            byte* start = (byte*)Unsafe.AsPointer(ref row);
+            byte* end = start + bytes;
+            for (byte* line = start; line < end; line += 64)
+            {
+                Sse.Prefetch0(line);
+            }
+
+            // A row that does not start on a line boundary ends on one more line.
+            Sse.Prefetch0(end - 1);
+        }
+    }
+
+    private static TResult ByPath<TAction, TResult, TStep, TFinish>(KernelPath path, bool codes, ref TAction action)
+        where TAction : struct, IGraphAction<TResult>, allows ref struct
+        where TStep : struct, IAccumulateStep
+        where TFinish : struct, IGraphFinish
+    {
+        return path switch
+        {
+            KernelPath.Vector512 => ByStorage<TAction, TResult, TStep, TFinish, Lane512>(codes, ref action),
+            KernelPath.Vector256 => ByStorage<TAction, TResult, TStep, TFinish, Lane256>(codes, ref action),
+            KernelPath.Vector128 => ByStorage<TAction, TResult, TStep, TFinish, Lane128>(codes, ref action),
+            _ => ByStorage<TAction, TResult, TStep, TFinish, LaneScalar>(codes, ref action),
+        };
+    }
+
+    private static TResult ByStorage<TAction, TResult, TStep, TFinish, TLane>(bool codes, ref TAction action)
+        where TAction : struct, IGraphAction<TResult>, allows ref struct
+        where TStep : struct, IAccumulateStep
+        where TFinish : struct, IGraphFinish
+        where TLane : struct, IVectorLane<TLane>
+        => codes
+            ? action.Run<CodeGraphDistance<TStep, TFinish, TLane>>()
+            : action.Run<FloatGraphDistance<TStep, TFinish, TLane>>();
 }

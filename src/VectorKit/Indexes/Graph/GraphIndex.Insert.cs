@@ -27,7 +27,7 @@ public sealed partial class GraphIndex
     private void Link(int slot)
     {
         var action = new LinkAction(this, slot);
-        GraphDispatch.Run<LinkAction, bool>(Metric, _path, ref action);
+        Dispatch<LinkAction, bool>(ref action);
     }
 
     private void Link<TDistance>(int slot)
@@ -42,15 +42,14 @@ public sealed partial class GraphIndex
 
         int top = EntryLevel(packed);
         int level = _links.Level(slot);
-        int d = Dimension;
-        ref float vector = ref _vectors.Row(slot);
-        float entryDistance = TDistance.Between(ref vector, ref _vectors.Row(entry), d);
-        entry = Descend<TDistance>(ref vector, entry, ref entryDistance, top, level);
-
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         int width = _options.BuildWidth;
         scratch.EnsureSizes(Math.Max(width, _options.LinksPerNode), _links.MaxLimit);
+        ref float vector = ref TDistance.NodeAsQuery(this, slot, scratch, BasePlace);
+        float entryDistance = TDistance.ToNode(this, ref vector, entry);
+        entry = Descend<TDistance>(ref vector, entry, ref entryDistance, top, level);
+
         for (int layer = Math.Min(level, top); layer >= 0; layer--)
         {
             StartWalk(scratch, entry, entryDistance, null);
@@ -65,7 +64,7 @@ public sealed partial class GraphIndex
             }
 
             Span<int> chosen = scratch.Chosen;
-            int kept = SelectNeighbours<TDistance>(scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), Math.Min(_options.LinksPerNode, _links.Limit(layer)), chosen);
+            int kept = SelectNeighbours<TDistance>(scratch, scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), Math.Min(_options.LinksPerNode, _links.Limit(layer)), chosen);
             lock (StripeOf(slot))
             {
                 SetList(slot, layer, chosen[..kept]);
@@ -113,21 +112,20 @@ public sealed partial class GraphIndex
                 return;
             }
 
-            int d = Dimension;
-            ref float origin = ref _vectors.Row(neighbour);
+            ref float origin = ref TDistance.NodeAsQuery(this, neighbour, scratch, OriginPlace);
             Span<float> keys = scratch.PruneKeys.AsSpan(0, count + 1);
             Span<int> slots = scratch.PruneSlots.AsSpan(0, count + 1);
             for (int i = 0; i < count; i++)
             {
                 slots[i] = block[i + 1];
-                keys[i] = TDistance.Between(ref origin, ref _vectors.Row(slots[i]), d);
+                keys[i] = TDistance.ToNode(this, ref origin, slots[i]);
             }
 
             slots[count] = slot;
-            keys[count] = TDistance.Between(ref origin, ref _vectors.Row(slot), d);
+            keys[count] = TDistance.ToNode(this, ref origin, slot);
             keys.Sort(slots);
             Span<int> chosen = scratch.PruneChosen;
-            int kept = SelectNeighbours<TDistance>(keys, slots, limit, chosen);
+            int kept = SelectNeighbours<TDistance>(scratch, keys, slots, limit, chosen);
             SetList(neighbour, layer, chosen[..kept]);
         }
     }

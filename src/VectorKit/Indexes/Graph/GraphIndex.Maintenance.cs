@@ -101,7 +101,7 @@ public sealed partial class GraphIndex
         {
             ThrowIfDisposed();
             cancellationToken.ThrowIfCancellationRequested();
-            var rebuilt = new GraphIndex(Dimension, Metric, _options);
+            var rebuilt = new GraphIndex(Dimension, Metric, _options) { _scalar = _scalar };
             int live = _count;
             try
             {
@@ -119,8 +119,10 @@ public sealed partial class GraphIndex
             }
 
             // The rebuilt index hands its storage over; it is dropped without disposing what now belongs to this one.
-            _vectors.Dispose();
+            _vectors?.Dispose();
+            _codes?.Dispose();
             _vectors = rebuilt._vectors;
+            _codes = rebuilt._codes;
             _links = rebuilt._links;
             _ids = rebuilt._ids;
             _removed = rebuilt._removed;
@@ -145,12 +147,12 @@ public sealed partial class GraphIndex
         }
     }
 
-    // Copies the live rows (already normalised under cosine), ids and nothing else of `source` into this empty index,
+    // Copies the live rows (already normalised under cosine; codes as they are, the ranges being the same), ids and nothing else of `source` into this empty index,
     // in slot order, with exactly as much room as they need, and draws their levels. No other thread sees this index.
     private void StoreLiveRowsOf(GraphIndex source)
     {
         int live = source._count;
-        _vectors.EnsureCapacity(live);
+        EnsureRowCapacity(live);
         _links.EnsureCapacity(live);
         _ids = new long[live];
         _removed = new byte[live];
@@ -160,7 +162,16 @@ public sealed partial class GraphIndex
         {
             if (source._removed[slot] == 0)
             {
-                source._vectors.RowSpan(slot).CopyTo(_vectors.RowSpan(next));
+                if (_vectors is not null)
+                {
+                    source._vectors!.RowSpan(slot).CopyTo(_vectors.RowSpan(next));
+                }
+
+                if (_codes is not null)
+                {
+                    source._codes!.RowSpan(slot).CopyTo(_codes.RowSpan(next));
+                }
+
                 _ids[next] = source._ids[slot];
                 _slotOf.Add(_ids[next], next);
                 InitNode(next);
@@ -341,6 +352,7 @@ public sealed partial class GraphIndex
         Span<int> block = _links.Block(slot, layer);
         int count = block[0];
         int limit = _links.Limit(layer);
+        ref float origin = ref TDistance.NodeAsQuery(this, slot, scratch, OriginPlace);
         VisitedSet seen = scratch.Visited;
         seen.Begin(_links.Capacity);
         seen.TryMark(slot);
@@ -350,7 +362,7 @@ public sealed partial class GraphIndex
             int to = block[i];
             if (_removed[to] == 0)
             {
-                AddCandidate<TDistance>(scratch, slot, to, ref n);
+                AddCandidate<TDistance>(scratch, ref origin, to, ref n);
             }
         }
 
@@ -361,7 +373,7 @@ public sealed partial class GraphIndex
                 int to = block[i];
                 if (_removed[to] != 0)
                 {
-                    AddLiveLinksOf<TDistance>(scratch, slot, to, layer, hops, ref n);
+                    AddLiveLinksOf<TDistance>(scratch, ref origin, to, layer, hops, ref n);
                 }
             }
         }
@@ -372,12 +384,12 @@ public sealed partial class GraphIndex
         Span<int> slots = scratch.RepairSlots.AsSpan(0, n);
         keys.Sort(slots);
         Span<int> chosen = scratch.PruneChosen;
-        int kept = SelectNeighbours<TDistance>(keys[..considered], slots[..considered], limit, chosen);
+        int kept = SelectNeighbours<TDistance>(scratch, keys[..considered], slots[..considered], limit, chosen);
         SetList(slot, layer, chosen[..kept]);
     }
 
     // Adds the live links of removed node `via` (hops 1), or of the removed nodes it links to (hops 2).
-    private void AddLiveLinksOf<TDistance>(GraphScratch scratch, int slot, int via, int layer, int hops, ref int n)
+    private void AddLiveLinksOf<TDistance>(GraphScratch scratch, ref float origin, int via, int layer, int hops, ref int n)
         where TDistance : struct, IGraphDistance
     {
         Span<int> from = _links.Block(via, layer);
@@ -389,17 +401,18 @@ public sealed partial class GraphIndex
             {
                 if (hops == 1)
                 {
-                    AddCandidate<TDistance>(scratch, slot, to, ref n);
+                    AddCandidate<TDistance>(scratch, ref origin, to, ref n);
                 }
             }
             else if (hops == 2 && _links.Level(to) >= layer)
             {
-                AddLiveLinksOf<TDistance>(scratch, slot, to, layer, 1, ref n);
+                AddLiveLinksOf<TDistance>(scratch, ref origin, to, layer, 1, ref n);
             }
         }
     }
 
-    private void AddCandidate<TDistance>(GraphScratch scratch, int slot, int candidate, ref int n)
+    // `origin` is the list owner's row as a query (NodeAsQuery).
+    private void AddCandidate<TDistance>(GraphScratch scratch, ref float origin, int candidate, ref int n)
         where TDistance : struct, IGraphDistance
     {
         if (!scratch.Visited.TryMark(candidate))
@@ -409,7 +422,7 @@ public sealed partial class GraphIndex
 
         scratch.EnsureRepairSize(n + 1);
         scratch.RepairSlots[n] = candidate;
-        scratch.RepairKeys[n] = TDistance.Between(ref _vectors.Row(slot), ref _vectors.Row(candidate), Dimension);
+        scratch.RepairKeys[n] = TDistance.ToNode(this, ref origin, candidate);
         n++;
     }
 

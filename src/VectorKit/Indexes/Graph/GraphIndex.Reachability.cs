@@ -210,16 +210,15 @@ public sealed partial class GraphIndex
     private void Attach<TDistance>(GraphScratch scratch, int orphan, bool[]? reached)
         where TDistance : struct, IGraphDistance
     {
-        int d = Dimension;
-        ref float vector = ref _vectors.Row(orphan);
+        ref float vector = ref TDistance.NodeAsQuery(this, orphan, scratch, BasePlace);
         long packed = _entry;
         int entry = EntrySlot(packed);
-        float entryDistance = TDistance.Between(ref vector, ref _vectors.Row(entry), d);
+        float entryDistance = TDistance.ToNode(this, ref vector, entry);
         int start = Descend<TDistance>(ref vector, entry, ref entryDistance, EntryLevel(packed), 0);
         if (!IsAnchor(start, orphan, entry, reached))
         {
             start = entry;
-            entryDistance = TDistance.Between(ref vector, ref _vectors.Row(entry), d);
+            entryDistance = TDistance.ToNode(this, ref vector, entry);
         }
 
         StartWalk(scratch, start, entryDistance, null);
@@ -284,7 +283,7 @@ public sealed partial class GraphIndex
         // An orphan without links of its own gets them too, so walks can leave it.
         if (own[0] == 0 && found > 0)
         {
-            int kept = SelectNeighbours<TDistance>(scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), limit, scratch.Chosen);
+            int kept = SelectNeighbours<TDistance>(scratch, scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), limit, scratch.Chosen);
             SetList(orphan, 0, scratch.Chosen.AsSpan(0, kept));
         }
     }
@@ -343,7 +342,7 @@ public sealed partial class GraphIndex
     private int FinishLocked(int[]? removed, int first, int added, bool forceFullPass)
     {
         var action = new FinishAction(this, removed, first, added, forceFullPass);
-        return GraphDispatch.Run<FinishAction, int>(Metric, _path, ref action);
+        return Dispatch<FinishAction, int>(ref action);
     }
 
     // Runs under the write lock after an add batch (a short exclusive step after the shared linking phase).

@@ -1,4 +1,5 @@
 using VectorKit.Distance;
+using VectorKit.Quantization;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -50,6 +51,14 @@ public sealed partial class GraphIndex
             }
 
             long packed = _entry;
+            float[]? ranges = null;
+            if (_scalar is not null)
+            {
+                ranges = new float[2 * Dimension];
+                _scalar.Minimums.CopyTo(ranges);
+                _scalar.Steps.CopyTo(ranges.AsSpan(Dimension));
+            }
+
             var parts = new GraphIndexParts
             {
                 Dimension = Dimension,
@@ -63,6 +72,8 @@ public sealed partial class GraphIndex
                 BottomLinks = bottom,
                 UpperLinks = upper,
                 Vectors = _vectors,
+                Codes = _codes,
+                ScalarRanges = ranges,
                 EntrySlot = EntrySlot(packed),
                 EntryLevel = EntrySlot(packed) < 0 ? 0 : EntryLevel(packed),
             };
@@ -75,8 +86,8 @@ public sealed partial class GraphIndex
     }
 
     /// <summary>
-    /// Builds a working index from loaded primary state, taking ownership of its arrays and vector storage (disposed
-    /// on failure). Verifies the structure first: levels within the cap, link counts within the limits, every link
+    /// Builds a working index from loaded primary state, taking ownership of its arrays, vector and code storage
+    /// (disposed on failure). Verifies the structure first: levels within the cap, link counts within the limits, every link
     /// target a stored slot whose level reaches the layer, no live node linking a removed one, the entry point a live
     /// node on the top layer, live ids unique and the live count right. Then derives the id lookup.
     /// </summary>
@@ -99,8 +110,16 @@ public sealed partial class GraphIndex
         try
         {
             Validate(parts, bottomStride, upperStride);
-            index._vectors.Dispose();
+            ValidateRows(parts);
+            if (parts.ScalarRanges is float[] ranges)
+            {
+                index._scalar = ScalarQuantizer.FromRanges(ranges.AsSpan(0, parts.Dimension), ranges.AsSpan(parts.Dimension, parts.Dimension), parts.Dimension);
+            }
+
+            index._vectors?.Dispose();
+            index._codes?.Dispose();
             index._vectors = parts.Vectors;
+            index._codes = parts.Codes;
             index._ids = parts.Ids;
             index._removed = parts.Removed;
             index._links.EnsureCapacity(slots);
@@ -136,10 +155,15 @@ public sealed partial class GraphIndex
         }
         catch
         {
-            // Until the swap above, the vectors belong to the caller's parts, not to the index: free them either way.
+            // Until the swap above, the rows belong to the caller's parts, not to the index: free them either way.
             if (!ReferenceEquals(index._vectors, parts.Vectors))
             {
-                parts.Vectors.Dispose();
+                parts.Vectors?.Dispose();
+            }
+
+            if (!ReferenceEquals(index._codes, parts.Codes))
+            {
+                parts.Codes?.Dispose();
             }
 
             index.Dispose();
@@ -152,7 +176,7 @@ public sealed partial class GraphIndex
         int slots = parts.Slots;
         byte[] levels = parts.Levels;
         byte[] removed = parts.Removed;
-        if (levels.Length < slots || removed.Length < slots || parts.Ids.Length < slots || parts.Vectors.Capacity < slots
+        if (levels.Length < slots || removed.Length < slots || parts.Ids.Length < slots
             || parts.BottomLinks.Length != (long)slots * bottomStride)
         {
             throw new InvalidDataException($"the arrays do not match the {slots} slots");
@@ -234,6 +258,49 @@ public sealed partial class GraphIndex
             if (removed[slot] == 0 && levels[slot] > parts.EntryLevel)
             {
                 throw new InvalidDataException($"slot {slot} has level {levels[slot]}, above the entry point's level {parts.EntryLevel}");
+            }
+        }
+    }
+
+    // The rows the options call for, each holding every slot, and ranges exactly when codes exist and are trained.
+    private static void ValidateRows(GraphIndexParts parts)
+    {
+        GraphIndexOptions options = parts.Options;
+        bool codes = options.Storage == VectorStorage.Scalar8Bit;
+        bool full = !codes || options.RescoreDepth > 0;
+        if (full != parts.Vectors is not null || (parts.Vectors is not null && (parts.Vectors.Dimension != parts.Dimension || parts.Vectors.Capacity < parts.Slots)))
+        {
+            throw new InvalidDataException(full
+                ? $"the {options.Storage} graph (re-score depth {options.RescoreDepth}) needs float vectors for its {parts.Slots} slots"
+                : $"the {options.Storage} graph without re-scoring keeps no float vectors, yet some are given");
+        }
+
+        if (codes != parts.Codes is not null || (parts.Codes is not null && (parts.Codes.Dimension != ScalarQuantizer.PaddedLength(parts.Dimension) || parts.Codes.Capacity < parts.Slots)))
+        {
+            throw new InvalidDataException(codes
+                ? $"the 8-bit graph needs {ScalarQuantizer.PaddedLength(parts.Dimension)}-byte codes for its {parts.Slots} slots"
+                : "a float32 graph keeps no codes, yet some are given");
+        }
+
+        if (parts.ScalarRanges is not null && (!codes || parts.ScalarRanges.Length != 2 * parts.Dimension))
+        {
+            throw new InvalidDataException($"scalar ranges of {parts.ScalarRanges.Length} values do not fit a {options.Storage} graph of dimension {parts.Dimension}");
+        }
+
+        if (codes && parts.ScalarRanges is null && parts.Slots > 0)
+        {
+            throw new InvalidDataException($"an untrained 8-bit graph stores no vectors, but it has {parts.Slots} slots");
+        }
+
+        // The kernels read the padding against zero scales, so any value is harmless; non-zero padding means damage.
+        if (parts.Codes is CodeBuffer stored)
+        {
+            for (int slot = 0; slot < parts.Slots; slot++)
+            {
+                if (stored.RowSpan(slot)[parts.Dimension..].IndexOfAnyExcept((byte)0) >= 0)
+                {
+                    throw new InvalidDataException($"the code of slot {slot} has non-zero padding after its {parts.Dimension} bytes");
+                }
             }
         }
     }

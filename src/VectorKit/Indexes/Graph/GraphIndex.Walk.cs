@@ -1,6 +1,5 @@
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
-using System.Runtime.Intrinsics.X86;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -12,7 +11,6 @@ public sealed partial class GraphIndex
     private int Descend<TDistance>(ref float query, int entry, ref float entryDistance, int from, int to)
         where TDistance : struct, IGraphDistance
     {
-        int d = Dimension;
         for (int level = from; level > to; level--)
         {
             bool moved = true;
@@ -24,7 +22,7 @@ public sealed partial class GraphIndex
                 for (int i = 1; i <= count; i++)
                 {
                     int next = block[i];
-                    float distance = TDistance.Between(ref query, ref _vectors.Row(next), d);
+                    float distance = TDistance.ToNode(this, ref query, next);
                     if (distance < entryDistance)
                     {
                         entryDistance = distance;
@@ -50,7 +48,6 @@ public sealed partial class GraphIndex
         ref int pending = ref MemoryMarshal.GetArrayDataReference(scratch.Pending);
         byte[] removed = _removed;
         long[] ids = _ids;
-        int d = Dimension;
         while (candidates.Count > 0)
         {
             float nearest = candidates.TopKey;
@@ -79,7 +76,7 @@ public sealed partial class GraphIndex
 
             if (fresh > 0)
             {
-                Prefetch(ref _vectors.Row(pending), d);
+                TDistance.Prefetch(this, pending);
             }
 
             for (int j = 0; j < fresh; j++)
@@ -87,10 +84,10 @@ public sealed partial class GraphIndex
                 int next = Unsafe.Add(ref pending, j);
                 if (j + 1 < fresh)
                 {
-                    Prefetch(ref _vectors.Row(Unsafe.Add(ref pending, j + 1)), d);
+                    TDistance.Prefetch(this, Unsafe.Add(ref pending, j + 1));
                 }
 
-                float distance = TDistance.Between(ref query, ref _vectors.Row(next), d);
+                float distance = TDistance.ToNode(this, ref query, next);
                 if (results.Count < width || distance < -results.TopKey)
                 {
                     candidates.Push(distance, next);
@@ -104,24 +101,6 @@ public sealed partial class GraphIndex
                     }
                 }
             }
-        }
-    }
-
-    // Asks the cache for a whole row (one hint per 64-byte line); no effect where the hint is not available.
-    [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    private static unsafe void Prefetch(ref float row, int dimension)
-    {
-        if (Sse.IsSupported)
-        {
-            byte* start = (byte*)Unsafe.AsPointer(ref row);
-            byte* end = start + ((nint)dimension * sizeof(float));
-            for (byte* line = start; line < end; line += 64)
-            {
-                Sse.Prefetch0(line);
-            }
-
-            // A row that does not start on a line boundary ends on one more line.
-            Sse.Prefetch0(end - 1);
         }
     }
 
@@ -156,7 +135,8 @@ public sealed partial class GraphIndex
         return count;
     }
 
-    private int SearchGraph<TDistance>(ref float query, Span<SearchHit> destination, int width, Func<long, bool>? filter)
+    // `prepared` is what the rows are measured against (the query, padded under codes); `query` is re-scored.
+    private int SearchGraph<TDistance>(ref float query, ref float prepared, Span<SearchHit> destination, int width, int depth, Func<long, bool>? filter)
         where TDistance : struct, IGraphDistance
     {
         long packed = Volatile.Read(ref _entry);
@@ -166,9 +146,9 @@ public sealed partial class GraphIndex
             return 0;
         }
 
-        float topDistance = TDistance.Between(ref query, ref _vectors.Row(entry), Dimension);
+        float topDistance = TDistance.ToNode(this, ref prepared, entry);
         float entryDistance = topDistance;
-        int start = Descend<TDistance>(ref query, entry, ref entryDistance, EntryLevel(packed), 0);
+        int start = Descend<TDistance>(ref prepared, entry, ref entryDistance, EntryLevel(packed), 0);
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         scratch.EnsureSizes(width, _links.MaxLimit);
@@ -188,7 +168,7 @@ public sealed partial class GraphIndex
                 }
             }
         }
-        BeamSearch<TDistance>(ref query, scratch, 0, width, filter);
+        BeamSearch<TDistance>(ref prepared, scratch, 0, width, filter);
 
         int found = scratch.Results.Count;
         Span<SearchHit> hits = scratch.Hits.AsSpan(0, found);
@@ -201,6 +181,7 @@ public sealed partial class GraphIndex
 
         // Equal distances are ordered by id, as every index orders them.
         hits.Sort();
+        found = Rescore(ref query, hits, destination.Length, depth);
         int written = Math.Min(destination.Length, found);
         hits[..written].CopyTo(destination);
         return written;
@@ -211,21 +192,22 @@ public sealed partial class GraphIndex
     // kept one; then, if room is left, fill the list with the nearest discarded candidates. The fill matters: without
     // it, pruning can take every in-link of a node (clusters of duplicates do it at once) and leave it unreachable.
     // keys/slots hold the candidates sorted by distance to the base; writes up to `limit` slots into `chosen`.
-    private int SelectNeighbours<TDistance>(ReadOnlySpan<float> keys, ReadOnlySpan<int> slots, int limit, Span<int> chosen)
+    // Each kept node is turned into a query once (under codes: decoded once into its own scratch place, 2 + its
+    // position) and measured against the later candidates' rows; distances are symmetric, so this is the published
+    // test with the decoding paid per kept node rather than per candidate.
+    private int SelectNeighbours<TDistance>(GraphScratch scratch, ReadOnlySpan<float> keys, ReadOnlySpan<int> slots, int limit, Span<int> chosen)
         where TDistance : struct, IGraphDistance
     {
-        int d = Dimension;
         int kept = 0;
         for (int i = 0; i < slots.Length && kept < limit; i++)
         {
             int candidate = slots[i];
-            ref float row = ref _vectors.Row(candidate);
             bool good = true;
             for (int j = 0; j < kept; j++)
             {
                 // Strictly nearer to the base, as published: an exact duplicate of a kept node is not kept by this pass
                 // (ties would otherwise fill a list with copies and wall a cluster of duplicates off from the rest).
-                if (TDistance.Between(ref row, ref _vectors.Row(chosen[j]), d) <= keys[i])
+                if (TDistance.ToNode(this, ref TDistance.Prepared(this, chosen[j], scratch, KeptPlace + j), candidate) <= keys[i])
                 {
                     good = false;
                     break;
@@ -234,6 +216,7 @@ public sealed partial class GraphIndex
 
             if (good)
             {
+                TDistance.NodeAsQuery(this, candidate, scratch, KeptPlace + kept);
                 chosen[kept++] = candidate;
             }
         }

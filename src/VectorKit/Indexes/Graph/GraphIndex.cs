@@ -1,6 +1,7 @@
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
+using VectorKit.Quantization;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -16,11 +17,19 @@ namespace VectorKit.Indexes.Graph;
 /// nearer to the new item than to every neighbour already kept. Links are bidirectional; a list that outgrows its
 /// limit is pruned by the same heuristic.</para>
 /// <para><b>Storage.</b> Vectors sit in one contiguous native block as in the exact index; links in flat int arrays
-/// (see <see cref="MemoryBytes"/>).</para>
-/// <para><b>Results.</b> Distances are those of the exact index (same kernels, bit for bit), best first, ties by id.
-/// A search keeps <c>max(k, width)</c> candidates, width being <see cref="SearchOptions.SearchWidth"/> or
-/// <see cref="GraphIndexOptions.DefaultSearchWidth"/>; it may return fewer than k items when the graph walk
-/// reaches fewer (rare, on tiny or heavily filtered indexes).</para>
+/// (see <see cref="MemoryBytes"/>). Under <see cref="VectorStorage.Scalar8Bit"/> (<see cref="GraphIndexOptions.Storage"/>)
+/// the block holds one 8-bit code per vector instead (a quarter of the bytes; <see cref="Train"/> learns the ranges
+/// first), and every distance the graph computes (walks, neighbour selection, removal repair, re-linking, the
+/// filtered scan, <see cref="Compact()"/>) is computed on the codes: a query against a code on the SIMD byte-code
+/// kernel, a node against a node by decoding one of them. With a positive <see cref="GraphIndexOptions.RescoreDepth"/>
+/// the full vectors are kept beside the codes, and the best candidates of each search are re-scored on them.</para>
+/// <para><b>Results.</b> Under float32 storage, distances are those of the exact index (same kernels, bit for bit),
+/// best first, ties by id. A search keeps <c>max(k, width, depth)</c> candidates, width being
+/// <see cref="SearchOptions.SearchWidth"/> or <see cref="GraphIndexOptions.DefaultSearchWidth"/> and depth the re-score
+/// depth when full vectors are kept (else 0); it may return fewer than k items when the graph walk reaches fewer
+/// (rare, on tiny or heavily filtered indexes). Under 8-bit codes, distances are to the decoded codes; with
+/// re-scoring, the best <c>max(k, depth)</c> candidates by code distance get the exact index's distances (bit for bit)
+/// and the k results are the best k of them, so every distance returned is exact.</para>
 /// <para><b>Filters.</b> <see cref="SearchOptions.Filter"/> is evaluated during the walk: items it rejects still lead the
 /// walk on but are never returned. When a fixed sample of 256 items suggests that fewer pass than a measured cost
 /// model says a walk can afford (<see cref="GraphIndexOptions.FilteredExactScanFraction"/>: about 8 % of 60,000 items
@@ -48,8 +57,14 @@ namespace VectorKit.Indexes.Graph;
 /// without in-links, and the global pass when it is due), <see cref="Remove"/>, <see cref="RemoveRange"/>,
 /// <see cref="Compact()"/> and <see cref="Dispose"/> are exclusive: they wait for running searches and adds.</para>
 /// </remarks>
-public sealed partial class GraphIndex : IVectorIndex
+public sealed partial class GraphIndex : ITrainableIndex
 {
+    // Scratch places of rows decoded from codes (see IGraphDistance.NodeAsQuery): the node being linked or attached,
+    // the owner of a list being pruned or re-linked, and from KeptPlace on the nodes neighbour selection has kept.
+    private const int BasePlace = 0;
+    private const int OriginPlace = 1;
+    private const int KeptPlace = 2;
+
     private const int MaxLevel = 30;
     private const int LockStripes = 1024;
     private const int FilterSampleSize = 256;
@@ -66,7 +81,10 @@ public sealed partial class GraphIndex : IVectorIndex
     private readonly object[] _stripes = new object[LockStripes];
     private readonly object _entryLock = new();
     private readonly GraphIndexOptions _options;
-    private VectorBuffer _vectors;
+    // Float rows: the storage under float32, the full vectors kept for re-scoring under codes, else null.
+    private VectorBuffer? _vectors;
+    private CodeBuffer? _codes;
+    private ScalarQuantizer? _scalar;
     private GraphLinks _links;
     private Dictionary<long, int> _slotOf = new();
     private readonly double _levelScale;
@@ -94,6 +112,7 @@ public sealed partial class GraphIndex : IVectorIndex
     /// <param name="metric">The distance metric.</param>
     /// <param name="options">Graph options; <see langword="null"/> for <see cref="GraphIndexOptions.Default"/>.</param>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
+    /// <remarks>Under <see cref="VectorStorage.Scalar8Bit"/> the index must be trained (<see cref="Train"/>) before the first add or search.</remarks>
     public GraphIndex(int dimension, DistanceMetric metric, GraphIndexOptions? options = null)
     {
         if (dimension <= 0)
@@ -108,7 +127,16 @@ public sealed partial class GraphIndex : IVectorIndex
         _path = KernelDispatch.For(dimension, KernelDispatch.Widest);
         _levelScale = 1.0 / Math.Log(_options.LinksPerNode);
         _levelRandom = new Random(_options.Seed);
-        _vectors = new VectorBuffer(dimension, _options.InitialCapacity);
+        if (_options.Storage == VectorStorage.Scalar8Bit)
+        {
+            _codes = new CodeBuffer(ScalarQuantizer.PaddedLength(dimension), _options.InitialCapacity);
+        }
+
+        if (_codes is null || _options.RescoreDepth > 0)
+        {
+            _vectors = new VectorBuffer(dimension, _options.InitialCapacity);
+        }
+
         _links = new GraphLinks(_options.LinksPerNode, _options.EffectiveBottomLayerLinks);
         _links.EnsureCapacity(_options.InitialCapacity);
         _ids = new long[_options.InitialCapacity];
@@ -128,14 +156,103 @@ public sealed partial class GraphIndex : IVectorIndex
     /// <summary>The options the index was built with.</summary>
     public GraphIndexOptions Options => _options;
 
+    /// <summary>
+    /// Whether the index can take vectors: always under <see cref="VectorStorage.Float32"/>; under
+    /// <see cref="VectorStorage.Scalar8Bit"/> once <see cref="Train"/> has run.
+    /// </summary>
+    public bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
+
+    /// <summary>Whether the full float32 vectors are kept beside the 8-bit codes for exact re-scoring (a positive <see cref="GraphIndexOptions.RescoreDepth"/>).</summary>
+    public bool KeepsFullVectors => _codes is not null && _options.RescoreDepth > 0;
+
+    /// <summary>
+    /// Bytes a graph walk reads per stored vector: <c>4 × dimension</c> for float32, the dimension rounded up to a
+    /// multiple of 16 for 8-bit codes. Full vectors kept for re-scoring are not counted (a search reads them only for
+    /// the re-scored candidates); <see cref="MemoryBytes"/> counts them.
+    /// </summary>
+    public int CodeBytesPerVector => _codes?.Dimension ?? Dimension * sizeof(float);
+
+    /// <summary>
+    /// Under 8-bit storage, learns the range of every component from <paramref name="sample"/> (under cosine the rows
+    /// are normalised first, as stored vectors are); values outside a trained range are later clamped to its ends, so
+    /// the sample should cover the data to come. Under float32 storage there is nothing to learn: the sample is
+    /// validated and the call returns, changing nothing.
+    /// </summary>
+    /// <param name="sample">Training rows, row after row: at least one row of finite components (a few thousand representative rows are plenty). They are not added to the index.</param>
+    /// <param name="progress">Optional; receives <see cref="IndexTrainingStage.TrainingQuantizer"/> once the ranges are learnt.</param>
+    /// <param name="cancellationToken">Checked before the ranges are stored; a cancelled training leaves the index as it was.</param>
+    /// <remarks>Training again before any add replaces the ranges. Exclusive: waits for running searches.</remarks>
+    /// <exception cref="ArgumentException">The sample is empty, not a multiple of the dimension, has a non-finite component, or a zero row under cosine.</exception>
+    /// <exception cref="InvalidOperationException">Under 8-bit storage, the index already stores vectors (removed ones count until <see cref="Compact()"/>): their codes depend on the current ranges.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
+    {
+        int d = Dimension;
+        if (sample.IsEmpty || sample.Length % d != 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(sample), $"sample has {sample.Length} components; training needs at least one row and a multiple of the index dimension {d}.");
+        }
+
+        int n = sample.Length / d;
+        VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
+        float[]? normalised = null;
+        if (Metric == DistanceMetric.Cosine)
+        {
+            normalised = new float[sample.Length];
+            for (int r = 0; r < n; r++)
+            {
+                VectorChecks.Normalize(sample.Slice(r * d, d), normalised.AsSpan(r * d, d), $"{nameof(sample)} row {r}");
+            }
+
+            sample = normalised;
+        }
+
+        ScalarQuantizer? scalar = _codes is null ? null : ScalarQuantizer.Train(sample, d);
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            if (_codes is not null && _used > 0)
+            {
+                throw new InvalidOperationException($"The graph index stores {_used} vectors ({_count} live), whose 8-bit codes depend on the current training; train before adding, or build a new index.");
+            }
+
+            cancellationToken.ThrowIfCancellationRequested();
+            if (scalar is not null)
+            {
+                Volatile.Write(ref _scalar, scalar);
+            }
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+
+        progress?.Report(new IndexTrainingProgress(IndexTrainingStage.TrainingQuantizer, 1, 1));
+    }
+
+    /// <summary>The float rows (float32 storage, or the full vectors kept beside codes); only for distances resolved to them.</summary>
+    internal VectorBuffer FloatRows => _vectors!;
+
+    /// <summary>The 8-bit codes; only for distances resolved to them.</summary>
+    internal CodeBuffer CodeRows => _codes!;
+
+    /// <summary>The trained quantizer of the codes; only for distances resolved to them.</summary>
+    internal ScalarQuantizer Quantizer => _scalar!;
+
+    /// <summary>Decoded-row places an operation may use (see <see cref="GraphScratch.DecodePlace"/>).</summary>
+    internal int DecodePlaces => KeptPlace + _links.MaxLimit + 1;
+
     /// <inheritdoc/>
     public int Count => Volatile.Read(ref _count);
 
     /// <inheritdoc/>
     /// <remarks>
-    /// Vectors at their reserved capacity, ids, the link arrays (bottom layer: <c>4 × (bottom links + 1)</c> bytes per
-    /// slot; upper layers only for nodes that have them), per-slot level and removal flags, and the id lookup
-    /// (about 28 bytes per entry). Removed items keep their space until <see cref="Compact()"/>.
+    /// Vectors (or 8-bit codes, plus the full vectors when kept, plus the trained ranges) at their reserved capacity,
+    /// ids, the link arrays (bottom layer: <c>4 × (bottom links + 1)</c> bytes per slot; upper layers only for nodes
+    /// that have them), per-slot level and removal flags, and the id lookup (about 28 bytes per entry). Removed items
+    /// keep their space until <see cref="Compact()"/>.
     /// </remarks>
     public long MemoryBytes
     {
@@ -144,7 +261,8 @@ public sealed partial class GraphIndex : IVectorIndex
             _lock.EnterReadLock();
             try
             {
-                return _vectors.Bytes + _links.Bytes + ((long)_ids.Length * sizeof(long)) + _removed.Length + ((long)_slotOf.EnsureCapacity(0) * 28);
+                long rows = (_vectors?.Bytes ?? 0) + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
+                return rows + _links.Bytes + ((long)_ids.Length * sizeof(long)) + _removed.Length + ((long)_slotOf.EnsureCapacity(0) * 28);
             }
             finally
             {
@@ -162,13 +280,29 @@ public sealed partial class GraphIndex : IVectorIndex
     }
 
     /// <inheritdoc/>
+    /// <remarks>
+    /// Under cosine the stored vector is the unit-length one. Under 8-bit storage without full vectors this is the
+    /// decoded code, an approximation (each component within half a quantization step of the vector added, when it
+    /// lay in the trained range).
+    /// </remarks>
     public bool TryGetVector(long id, Span<float> destination)
     {
         VectorChecks.CheckVectorDestination(destination, Dimension);
 
         using LockScopes.ReadScope read = _lock.EnterRead();
         ThrowIfDisposed();
-        return IdLookup.TryCopyRow(_slotOf, _vectors, id, destination);
+        if (_vectors is not null)
+        {
+            return IdLookup.TryCopyRow(_slotOf, _vectors, id, destination);
+        }
+
+        if (!_slotOf.TryGetValue(id, out int slot))
+        {
+            return false;
+        }
+
+        _scalar!.Decode(_codes!.RowSpan(slot), destination);
+        return true;
     }
 
     /// <inheritdoc/>
@@ -181,6 +315,7 @@ public sealed partial class GraphIndex : IVectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfNotTrained();
             if (_slotOf.ContainsKey(id))
             {
                 ThrowHelper.ThrowDuplicateId(nameof(id), id);
@@ -234,6 +369,7 @@ public sealed partial class GraphIndex : IVectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfNotTrained();
             foreach (long id in ids)
             {
                 if (_slotOf.ContainsKey(id))
@@ -300,6 +436,7 @@ public sealed partial class GraphIndex : IVectorIndex
             try
             {
                 ThrowIfDisposed();
+                ThrowIfNotTrained();
                 return SearchLocked(q, destination, options ?? SearchOptions.Default);
             }
             finally
@@ -332,6 +469,7 @@ public sealed partial class GraphIndex : IVectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfNotTrained();
             var results = new BatchSearchResults(queryCount, Math.Min(k, Math.Max(1, _count)));
             if (queryCount == 0 || _count == 0)
             {
@@ -373,7 +511,8 @@ public sealed partial class GraphIndex : IVectorIndex
             }
 
             _disposed = true;
-            _vectors.Dispose();
+            _vectors?.Dispose();
+            _codes?.Dispose();
             _slotOf.Clear();
             _count = 0;
             _used = 0;
@@ -385,7 +524,7 @@ public sealed partial class GraphIndex : IVectorIndex
         }
     }
 
-    // Reserves slots for a validated batch, writes vectors (normalised under cosine) and ids, and draws levels.
+    // Reserves slots for a validated batch, writes vectors (normalised under cosine; encoded under codes) and ids, and draws levels.
     // Caller holds the write lock. When the graph is empty the first new slot becomes the entry point at once, so
     // linking never races to create it. Returns the first slot.
     private int StoreBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors)
@@ -393,27 +532,40 @@ public sealed partial class GraphIndex : IVectorIndex
         int n = ids.Length;
         int first = _used;
         int required = checked(first + n);
-        _vectors.EnsureCapacity(required);
-        _links.EnsureCapacity(_vectors.Capacity);
-        if (_ids.Length < _vectors.Capacity)
+        int capacity = EnsureRowCapacity(required);
+        _links.EnsureCapacity(capacity);
+        if (_ids.Length < capacity)
         {
-            Array.Resize(ref _ids, _vectors.Capacity);
-            Array.Resize(ref _removed, _vectors.Capacity);
+            Array.Resize(ref _ids, capacity);
+            Array.Resize(ref _removed, capacity);
         }
 
         _slotOf.EnsureCapacity(_slotOf.Count + n);
+        float[]? unit = _vectors is null && Metric == DistanceMetric.Cosine ? new float[Dimension] : null;
         for (int r = 0; r < n; r++)
         {
             int slot = first + r;
             ReadOnlySpan<float> vector = vectors.Slice(r * Dimension, Dimension);
-            if (Metric == DistanceMetric.Cosine)
+            if (_vectors is not null)
             {
-                VectorChecks.Normalize(vector, _vectors.RowSpan(slot), nameof(vectors));
+                if (Metric == DistanceMetric.Cosine)
+                {
+                    VectorChecks.Normalize(vector, _vectors.RowSpan(slot), nameof(vectors));
+                }
+                else
+                {
+                    vector.CopyTo(_vectors.RowSpan(slot));
+                }
+
+                vector = _vectors.RowSpan(slot);
             }
-            else
+            else if (unit is not null)
             {
-                vector.CopyTo(_vectors.RowSpan(slot));
+                VectorChecks.Normalize(vector, unit, nameof(vectors));
+                vector = unit;
             }
+
+            _scalar?.EncodeUnchecked(vector, _codes!.RowSpan(slot));
 
             _ids[slot] = ids[r];
             _removed[slot] = 0;
@@ -429,6 +581,14 @@ public sealed partial class GraphIndex : IVectorIndex
         }
 
         return first;
+    }
+
+    // Grows the row storage (vectors and/or codes, in step) to hold `required` rows; returns the capacity.
+    private int EnsureRowCapacity(int required)
+    {
+        _vectors?.EnsureCapacity(required);
+        _codes?.EnsureCapacity(required);
+        return _vectors?.Capacity ?? _codes!.Capacity;
     }
 
     // Draws the level of a new slot and gives it empty lists. Caller excludes every other user of the links.
@@ -455,16 +615,62 @@ public sealed partial class GraphIndex : IVectorIndex
         }
 
         Func<long, bool>? filter = options.Filter;
-        var action = new SearchAction
+        int depth = KeepsFullVectors ? options.RescoreDepth ?? _options.RescoreDepth : 0;
+        int width = Math.Max(Math.Max(destination.Length, depth), options.SearchWidth ?? _options.DefaultSearchWidth);
+
+        // Codes are read in lanes of up to 16: the query gets zeros up to the code length, which meet zero scales.
+        scoped Span<float> padded = default;
+        float[]? rented = null;
+        if (_codes is not null)
         {
-            Index = this,
-            Query = q,
-            Destination = destination,
-            Width = Math.Max(destination.Length, options.SearchWidth ?? _options.DefaultSearchWidth),
-            Filter = filter,
-            Scan = filter is not null && PrefersExactScan(filter, Math.Max(destination.Length, options.SearchWidth ?? _options.DefaultSearchWidth)),
-        };
-        return GraphDispatch.Run<SearchAction, int>(Metric, _path, ref action);
+            int length = _codes.Dimension;
+            padded = length <= 1024 ? stackalloc float[length] : (rented = System.Buffers.ArrayPool<float>.Shared.Rent(length)).AsSpan(0, length);
+            _scalar!.Pad(q, padded);
+        }
+
+        try
+        {
+            var action = new SearchAction
+            {
+                Index = this,
+                Query = q,
+                Prepared = _codes is null ? q : padded,
+                Destination = destination,
+                Width = width,
+                Depth = depth,
+                Filter = filter,
+                Scan = filter is not null && PrefersExactScan(filter, width),
+            };
+            return Dispatch<SearchAction, int>(ref action);
+        }
+        finally
+        {
+            if (rented is not null)
+            {
+                System.Buffers.ArrayPool<float>.Shared.Return(rented);
+            }
+        }
+    }
+
+    // Runs an operation with the distance of this index's storage, metric and kernel width.
+    private TResult Dispatch<TAction, TResult>(ref TAction action)
+        where TAction : struct, IGraphAction<TResult>, allows ref struct
+        => GraphDispatch.Run<TAction, TResult>(Metric, _path, _codes is not null, ref action);
+
+    // Under full vectors kept beside codes: the first max(k, depth) of `hits` (sorted by code distance) get their exact
+    // distances and are sorted again, so every distance returned is exact; the caller then takes the best k of them.
+    // Returns how many remain candidates.
+    private int Rescore(ref float query, Span<SearchHit> hits, int k, int depth)
+    {
+        if (depth <= 0)
+        {
+            return hits.Length;
+        }
+
+        Span<SearchHit> rescored = hits[..Math.Min(Math.Max(k, depth), hits.Length)];
+        ExactRescoring.Rescore(Metric, _path, ref query, Dimension, rescored, new SlotRows(_vectors!, _slotOf));
+        rescored.Sort();
+        return rescored.Length;
     }
 
     // Estimates the filter's pass rate on a fixed, evenly spaced sample of slots (deterministic: no random draw) and
@@ -500,30 +706,57 @@ public sealed partial class GraphIndex : IVectorIndex
         return seen == 0 || passed < threshold * seen;
     }
 
-    private int ScanFiltered<TDistance>(ref float query, Span<SearchHit> destination, Func<long, bool> filter)
+    // The exact scan of the passing items (exact on the stored rows: under codes, code distances, then re-scored).
+    private int ScanFiltered<TDistance>(ref float query, ref float prepared, Span<SearchHit> destination, int depth, Func<long, bool> filter)
         where TDistance : struct, IGraphDistance
     {
-        Span<SearchHit> heap = destination[..Math.Min(destination.Length, _count)];
-        int count = 0;
-        int used = _used;
-        for (int slot = 0; slot < used; slot++)
+        SearchHit[]? rented = null;
+        int size = Math.Min(Math.Max(destination.Length, depth), _count);
+        Span<SearchHit> heap = size <= destination.Length ? destination[..size] : (rented = System.Buffers.ArrayPool<SearchHit>.Shared.Rent(size)).AsSpan(0, size);
+        try
         {
-            if (_removed[slot] == 0 && filter(_ids[slot]))
+            int count = 0;
+            int used = _used;
+            for (int slot = 0; slot < used; slot++)
             {
-                TopK.Offer(heap, ref count, TDistance.Between(ref query, ref _vectors.Row(slot), Dimension), _ids[slot]);
+                if (_removed[slot] == 0 && filter(_ids[slot]))
+                {
+                    TopK.Offer(heap, ref count, TDistance.ToNode(this, ref prepared, slot), _ids[slot]);
+                }
+            }
+
+            count = TopK.SortBestFirst(heap, count);
+            count = Rescore(ref query, heap[..count], destination.Length, depth);
+            int written = Math.Min(destination.Length, count);
+            if (rented is not null)
+            {
+                heap[..written].CopyTo(destination);
+            }
+
+            return written;
+        }
+        finally
+        {
+            if (rented is not null)
+            {
+                System.Buffers.ArrayPool<SearchHit>.Shared.Return(rented);
             }
         }
-
-        return TopK.SortBestFirst(heap, count);
     }
 
     /// <summary>One search with its distance resolved: a filtered exact scan or a graph walk.</summary>
     private ref struct SearchAction : IGraphAction<int>
     {
         public GraphIndex Index;
+
+        /// <summary>The query as given (unit length under cosine), for re-scoring.</summary>
         public ReadOnlySpan<float> Query;
+
+        /// <summary>The query the stored rows are measured against: itself, or padded to the code length.</summary>
+        public ReadOnlySpan<float> Prepared;
         public Span<SearchHit> Destination;
         public int Width;
+        public int Depth;
         public Func<long, bool>? Filter;
         public bool Scan;
 
@@ -531,9 +764,10 @@ public sealed partial class GraphIndex : IVectorIndex
             where TDistance : struct, IGraphDistance
         {
             ref float query = ref MemoryMarshal.GetReference(Query);
+            ref float prepared = ref MemoryMarshal.GetReference(Prepared);
             return Scan
-                ? Index.ScanFiltered<TDistance>(ref query, Destination, Filter!)
-                : Index.SearchGraph<TDistance>(ref query, Destination, Width, Filter);
+                ? Index.ScanFiltered<TDistance>(ref query, ref prepared, Destination, Depth, Filter!)
+                : Index.SearchGraph<TDistance>(ref query, ref prepared, Destination, Width, Depth, Filter);
         }
     }
 
@@ -544,6 +778,14 @@ public sealed partial class GraphIndex : IVectorIndex
     private static int EntryLevel(long packed) => (int)(packed >> 32);
 
     private object StripeOf(int slot) => _stripes[slot & (LockStripes - 1)];
+
+    private void ThrowIfNotTrained()
+    {
+        if (!IsTrained)
+        {
+            throw new IndexNotTrainedException("The graph index stores 8-bit codes and is not trained: call Train with a sample of at least one vector (a few thousand representative ones are plenty) before adding or searching.");
+        }
+    }
 
     private void ThrowIfDisposed()
     {

@@ -18,8 +18,10 @@ public sealed class GraphIndexOptions
     private readonly int _initialCapacity;
     private readonly int _buildParallelism = -1;
     private readonly double? _filteredExactScanFraction;
+    private readonly VectorStorage _storage = VectorStorage.Float32;
+    private readonly int _rescoreDepth;
 
-    /// <summary>The defaults: 16 links per node (32 on the bottom layer), build width 128, search width 64, seed 42.</summary>
+    /// <summary>The defaults: 16 links per node (32 on the bottom layer), build width 128, search width 64, seed 42, float32 vectors.</summary>
     public static GraphIndexOptions Default { get; } = new();
 
     /// <summary>
@@ -158,6 +160,48 @@ public sealed class GraphIndexOptions
             }
 
             _filteredExactScanFraction = value;
+        }
+    }
+
+    /// <summary>
+    /// How the graph stores its vectors: <see cref="VectorStorage.Float32"/> (the default; exact distances) or
+    /// <see cref="VectorStorage.Scalar8Bit"/> (one byte per component, a quarter of the memory; the index must be
+    /// trained with <see cref="GraphIndex.Train"/> first, and every distance the graph computes is to decoded codes).
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="VectorStorage"/>.</exception>
+    public VectorStorage Storage
+    {
+        get => _storage;
+        init
+        {
+            if (value is not (VectorStorage.Float32 or VectorStorage.Scalar8Bit))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(Storage), value, "must be Float32 or Scalar8Bit");
+            }
+
+            _storage = value;
+        }
+    }
+
+    /// <summary>
+    /// Under <see cref="VectorStorage.Scalar8Bit"/>: a positive value keeps every full float32 vector in memory beside
+    /// its code, and each search re-scores that many of the walk's best candidates exactly on them (at least k; the walk
+    /// then keeps at least this many); <see cref="SearchOptions.RescoreDepth"/> overrides it per search. 0 (the default) keeps
+    /// no full vectors, so distances are the codes' approximations. Ignored under <see cref="VectorStorage.Float32"/>,
+    /// which is exact already.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is negative or above 100000.</exception>
+    public int RescoreDepth
+    {
+        get => _rescoreDepth;
+        init
+        {
+            if (value < 0 || value > 100_000)
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(RescoreDepth), value, "must be 0 (off) or in [1, 100000]");
+            }
+
+            _rescoreDepth = value;
         }
     }
 

@@ -36,8 +36,17 @@ internal sealed class GraphIndexParts
     /// <summary>For each slot with level ≥ 1, in slot order, <c>level × (upper limit + 1)</c> ints, layer 1 first.</summary>
     public required int[] UpperLinks { get; init; }
 
-    /// <summary>At least <see cref="Slots"/> rows, unit length under cosine.</summary>
-    public required VectorBuffer Vectors { get; init; }
+    /// <summary>
+    /// At least <see cref="Slots"/> rows, unit length under cosine: the storage under float32, the full vectors under
+    /// 8-bit codes with a positive re-score depth, else <see langword="null"/>.
+    /// </summary>
+    public required VectorBuffer? Vectors { get; init; }
+
+    /// <summary>Under 8-bit storage, at least <see cref="Slots"/> codes; else <see langword="null"/>.</summary>
+    public CodeBuffer? Codes { get; init; }
+
+    /// <summary>Under 8-bit storage once trained: <c>dimension</c> minimums, then <c>dimension</c> steps; else <see langword="null"/>.</summary>
+    public float[]? ScalarRanges { get; init; }
 
     /// <summary>The entry point's slot; -1 when there are no live items.</summary>
     public required int EntrySlot { get; init; }

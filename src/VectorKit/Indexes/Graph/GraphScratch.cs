@@ -44,6 +44,9 @@ internal sealed class GraphScratch
 
     public int[] RepairSlots { get; private set; } = [];
 
+    /// <summary>Nodes decoded from 8-bit codes to serve as queries (see <see cref="IGraphDistance.NodeAsQuery"/>), one row per place.</summary>
+    public float[] Decoded { get; private set; } = [];
+
     public static Rental Rent()
     {
         GraphScratch scratch = t_cached ?? new GraphScratch();
@@ -74,6 +77,20 @@ internal sealed class GraphScratch
             PruneSlots = new int[2 * (links + 1)];
             PruneChosen = new int[2 * (links + 1)];
         }
+    }
+
+    /// <summary>
+    /// Place <paramref name="place"/> of the decoded rows, <paramref name="length"/> floats. The buffer is sized for all
+    /// <paramref name="places"/> at the first call, so a row handed out earlier in the same operation stays valid.
+    /// </summary>
+    public Span<float> DecodePlace(int place, int length, int places)
+    {
+        if (Decoded.Length < places * length)
+        {
+            Decoded = new float[places * length];
+        }
+
+        return Decoded.AsSpan(place * length, length);
     }
 
     /// <summary>Makes the repair buffers hold at least <paramref name="count"/> candidates.</summary>
