@@ -144,6 +144,27 @@ internal static class VectorChecks
         return -1;
     }
 
+    /// <summary>
+    /// Training rows as a cosine index stores vectors: a copy of <paramref name="sample"/> with every row scaled to unit
+    /// length (the quantizer ranges or centroids are learnt on what will be encoded). Throws for a zero row, naming it.
+    /// </summary>
+    public static float[] NormalisedRows(ReadOnlySpan<float> sample, int dimension, string paramName, CancellationToken cancellationToken = default)
+    {
+        var normalised = new float[sample.Length];
+        int n = sample.Length / dimension;
+        for (int r = 0; r < n; r++)
+        {
+            if ((r & 4095) == 4095)
+            {
+                cancellationToken.ThrowIfCancellationRequested();
+            }
+
+            Normalize(sample.Slice(r * dimension, dimension), normalised.AsSpan(r * dimension, dimension), $"{paramName} row {r}");
+        }
+
+        return normalised;
+    }
+
     /// <summary>Writes <paramref name="vector"/> scaled to unit length; throws for a zero vector.</summary>
     /// <remarks>The norm is summed in double so vectors with huge finite components do not overflow to infinity.</remarks>
     public static void Normalize(ReadOnlySpan<float> vector, Span<float> destination, string paramName)

@@ -44,7 +44,6 @@ public sealed partial class ExactIndex
         }
 
         VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
-        int n = sample.Length / d;
         cancellationToken.ThrowIfCancellationRequested();
         using (_lock.EnterRead())
         {
@@ -56,29 +55,8 @@ public sealed partial class ExactIndex
             }
         }
 
-        float[]? normalised = null;
-        if (Metric == DistanceMetric.Cosine)
-        {
-            normalised = _codes is null ? null : new float[sample.Length];
-            for (int r = 0; r < n; r++)
-            {
-                if ((r & 4095) == 4095)
-                {
-                    cancellationToken.ThrowIfCancellationRequested();
-                }
-
-                ReadOnlySpan<float> row = sample.Slice(r * d, d);
-                if (normalised is null)
-                {
-                    VectorChecks.CheckNotZero(row, $"{nameof(sample)} row {r}");
-                }
-                else
-                {
-                    VectorChecks.Normalize(row, normalised.AsSpan(r * d, d), $"{nameof(sample)} row {r}");
-                }
-            }
-        }
-
+        // Under cosine the ranges are learnt on unit rows, as they will be encoded (and a zero row is rejected).
+        float[]? normalised = Metric == DistanceMetric.Cosine ? VectorChecks.NormalisedRows(sample, d, nameof(sample), cancellationToken) : null;
         if (_codes is null)
         {
             return;

@@ -257,16 +257,9 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         }
 
         VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
-        float[]? normalised = null;
         if (Metric == DistanceMetric.Cosine)
         {
-            normalised = new float[sample.Length];
-            for (int r = 0; r < n; r++)
-            {
-                VectorChecks.Normalize(sample.Slice(r * d, d), normalised.AsSpan(r * d, d), $"{nameof(sample)} row {r}");
-            }
-
-            sample = normalised;
+            sample = VectorChecks.NormalisedRows(sample, d, nameof(sample), cancellationToken);
         }
 
         _lock.EnterWriteLock();
