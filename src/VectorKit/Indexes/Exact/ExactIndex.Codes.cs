@@ -174,9 +174,9 @@ public sealed partial class ExactIndex
             ref float query = ref MemoryMarshal.GetReference(prepared);
             int found = Metric switch
             {
-                DistanceMetric.SquaredEuclidean => ScanCodes<SquaredDifferenceStep, KeepFinish>(scalar, ref query, heap, options.Filter),
-                DistanceMetric.InnerProduct => ScanCodes<DotStep, NegateFinish>(scalar, ref query, heap, options.Filter),
-                _ => ScanCodes<DotStep, OneMinusFinish>(scalar, ref query, heap, options.Filter),
+                DistanceMetric.SquaredEuclidean => Scan<SquaredDifferenceStep, KeepFinish, CodeScanRows>(ref query, heap, options.Filter, new(scalar, _codes!, _kernelPath)),
+                DistanceMetric.InnerProduct => Scan<DotStep, NegateFinish, CodeScanRows>(ref query, heap, options.Filter, new(scalar, _codes!, _kernelPath)),
+                _ => Scan<DotStep, OneMinusFinish, CodeScanRows>(ref query, heap, options.Filter, new(scalar, _codes!, _kernelPath)),
             };
 
             if (depth > 0 && _keepsVectors)
@@ -209,54 +209,6 @@ public sealed partial class ExactIndex
                 ArrayPool<float>.Shared.Return(rentedQuery);
             }
         }
-    }
-
-    // One pass over the codes: the byte-code kernel scores a block of rows at a time, the bounded heap keeps the best.
-    private int ScanCodes<TStep, TFinish>(ScalarQuantizer scalar, ref float query, Span<SearchHit> heap, Func<long, bool>? filter)
-        where TStep : struct, IAccumulateStep
-        where TFinish : struct, IFinish
-    {
-        int n = _count;
-        CodeBuffer codes = _codes!;
-        KernelPath path = _kernelPath;
-        long[] ids = _ids;
-        int count = 0;
-        if (filter is not null)
-        {
-            // The filter runs before the distance: rejected rows cost a predicate call, not a kernel call.
-            float single = 0;
-            for (int slot = 0; slot < n; slot++)
-            {
-                long id = ids[slot];
-                if (filter(id))
-                {
-                    scalar.Compute<TStep>(path, ref query, ref codes.Row(slot), 1, ref single);
-                    TopK.Offer(heap, ref count, TFinish.Apply(single), id);
-                }
-            }
-
-            return count;
-        }
-
-        Span<float> block = stackalloc float[ScanBlock];
-        ref float distances = ref MemoryMarshal.GetReference(block);
-        float bound = float.PositiveInfinity;
-        for (int start = 0; start < n; start += ScanBlock)
-        {
-            int length = Math.Min(ScanBlock, n - start);
-            scalar.Compute<TStep>(path, ref query, ref codes.Row(start), length, ref distances);
-            for (int j = 0; j < length; j++)
-            {
-                float distance = TFinish.Apply(Unsafe.Add(ref distances, j));
-                if (distance <= bound)
-                {
-                    TopK.Offer(heap, ref count, distance, ids[start + j]);
-                    bound = TopK.Bound(heap, count);
-                }
-            }
-        }
-
-        return count;
     }
 
     // Caller holds the read lock for the whole batch; queries are validated (unit length under cosine).

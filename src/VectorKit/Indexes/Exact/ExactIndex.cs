@@ -517,31 +517,34 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         ref float query = ref MemoryMarshal.GetReference(q);
         int found = Metric switch
         {
-            DistanceMetric.SquaredEuclidean => Scan<SquaredDifferenceStep, KeepFinish>(ref query, heap, filter),
-            DistanceMetric.InnerProduct => Scan<DotStep, NegateFinish>(ref query, heap, filter),
-            _ => Scan<DotStep, OneMinusFinish>(ref query, heap, filter),
+            DistanceMetric.SquaredEuclidean => Scan<SquaredDifferenceStep, KeepFinish, FloatScanRows>(ref query, heap, filter, new(_vectors, _kernelPath)),
+            DistanceMetric.InnerProduct => Scan<DotStep, NegateFinish, FloatScanRows>(ref query, heap, filter, new(_vectors, _kernelPath)),
+            _ => Scan<DotStep, OneMinusFinish, FloatScanRows>(ref query, heap, filter, new(_vectors, _kernelPath)),
         };
         return TopK.SortBestFirst(heap, found);
     }
 
-    private int Scan<TStep, TFinish>(ref float query, Span<SearchHit> heap, Func<long, bool>? filter)
+    // One pass over the rows (float32 vectors or 8-bit codes): the kernel scores a block of rows at a time, the bounded
+    // heap keeps the best.
+    private int Scan<TStep, TFinish, TRows>(ref float query, Span<SearchHit> heap, Func<long, bool>? filter, TRows rows)
         where TStep : struct, IAccumulateStep
         where TFinish : struct, IFinish
+        where TRows : struct, IScanRows
     {
         int n = _count;
-        int d = Dimension;
         long[] ids = _ids;
         int count = 0;
         if (filter is not null)
         {
             // The filter runs before the distance: rejected rows cost a predicate call, not a kernel call.
+            float single = 0;
             for (int slot = 0; slot < n; slot++)
             {
                 long id = ids[slot];
                 if (filter(id))
                 {
-                    float distance = TFinish.Apply(ManyKernel.One<TStep>(_kernelPath, ref query, ref _vectors.Row(slot), d));
-                    TopK.Offer(heap, ref count, distance, id);
+                    rows.Compute<TStep>(ref query, slot, 1, ref single);
+                    TopK.Offer(heap, ref count, TFinish.Apply(single), id);
                 }
             }
 
@@ -554,7 +557,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         for (int start = 0; start < n; start += ScanBlock)
         {
             int length = Math.Min(ScanBlock, n - start);
-            ManyKernel.Compute<TStep>(_kernelPath, ref query, ref _vectors.Row(start), d, length, ref distances);
+            rows.Compute<TStep>(ref query, start, length, ref distances);
             for (int j = 0; j < length; j++)
             {
                 float distance = TFinish.Apply(Unsafe.Add(ref distances, j));
@@ -567,6 +570,31 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         }
 
         return count;
+    }
+
+    /// <summary>The rows a scan scores, a block at a time: the step-sums of the query with rows [start, start + count).</summary>
+    private interface IScanRows
+    {
+        void Compute<TStep>(ref float query, int start, int count, ref float results)
+            where TStep : struct, IAccumulateStep;
+    }
+
+    /// <summary>Float32 rows, on the one-against-many kernel (a block of one equals the single-row kernel, bit for bit).</summary>
+    private readonly struct FloatScanRows(VectorBuffer vectors, KernelPath path) : IScanRows
+    {
+        [MethodImpl(MethodImplOptions.AggressiveInlining)]
+        public void Compute<TStep>(ref float query, int start, int count, ref float results)
+            where TStep : struct, IAccumulateStep
+            => ManyKernel.Compute<TStep>(path, ref query, ref vectors.Row(start), vectors.Dimension, count, ref results);
+    }
+
+    /// <summary>8-bit codes, on the byte-code kernel; the query is padded to the code length.</summary>
+    private readonly struct CodeScanRows(ScalarQuantizer scalar, CodeBuffer codes, KernelPath path) : IScanRows
+    {
+        [MethodImpl(MethodImplOptions.AggressiveInlining)]
+        public void Compute<TStep>(ref float query, int start, int count, ref float results)
+            where TStep : struct, IAccumulateStep
+            => scalar.Compute<TStep>(path, ref query, ref codes.Row(start), count, ref results);
     }
 
     // Unit vectors under cosine; otherwise the largest stored ‖x‖², for the batch's rounding-error bound.
