@@ -8,7 +8,9 @@ namespace VectorKit.Storage;
 /// <summary>
 /// The graph index: its options and entry point as header fields; sections ids, node levels, removal flags,
 /// bottom-layer links, upper-layer links and vectors, in that order. Under 8-bit codes the vectors section is replaced
-/// by the scalar ranges and the codes, followed by the vectors only when the full vectors are kept for re-scoring.
+/// by the scalar ranges and the codes, followed by the vectors only when the full vectors are kept in memory for
+/// re-scoring; a graph re-scoring from an external source records that in the field <c>full-vector-location</c> (1)
+/// and stores no vectors.
 /// </summary>
 internal sealed class GraphIndexCodec : IndexCodec
 {
@@ -57,6 +59,9 @@ internal sealed class GraphIndexCodec : IndexCodec
             {
                 header.Integers[VectorStorageField] = (int)options.Storage;
                 header.Integers[Trained] = parts.ScalarRanges is null ? 0 : 1;
+
+                // Only under codes (float32 rows are the full vectors), and only when external: other files keep their bytes.
+                WriteFullVectorLocation(header, options.FullVectors);
             }
 
             if (options.RescoreDepth != 0)
@@ -137,6 +142,7 @@ internal sealed class GraphIndexCodec : IndexCodec
             : VectorStorage.Float32;
         int rescoreDepth = header.Integers.ContainsKey(RescoreDepth) ? (int)header.Integer(RescoreDepth, 0, 100_000) : 0;
         bool codes = storage == VectorStorage.Scalar8Bit;
+        FullVectorLocation location = ReadFullVectorLocation(header);
         bool trained = !codes || header.Integer(Trained, 0, 1) == 1;
         if (!trained && (slots != 0 || header.Count != 0))
         {
@@ -157,6 +163,7 @@ internal sealed class GraphIndexCodec : IndexCodec
                 : null,
             Storage = storage,
             RescoreDepth = rescoreDepth,
+            FullVectors = location,
         };
         if (parallelism == 0)
         {
@@ -219,7 +226,7 @@ internal sealed class GraphIndexCodec : IndexCodec
                 reader.CloseSection();
             }
 
-            if (!codes || rescoreDepth > 0)
+            if (!codes || (rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory))
             {
                 reader.OpenSection(SectionId.Vectors);
                 vectors = new VectorBuffer(header.Dimension, 0);

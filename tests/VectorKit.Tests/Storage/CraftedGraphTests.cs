@@ -1,4 +1,5 @@
 using System.Buffers.Binary;
+using VectorKit.Indexes;
 using VectorKit.Indexes.Graph;
 using VectorKit.Storage;
 
@@ -94,6 +95,31 @@ public class CraftedGraphTests
     {
         string message = Reject(file => Payload(file, SectionId.Vectors, (_, at) => BinaryPrimitives.WriteSingleLittleEndian(file.AsSpan(at + (4 * 9)), float.NaN)));
         Assert.Contains("non-finite vector component (NaN) at row 2, component 1", message, StringComparison.Ordinal);
+    }
+
+    [Fact]
+    [Trait("Weakness", "CWE-20 input validation")]
+    public void AFullVectorLocationThatDisagreesWithTheSections_IsRejected()
+    {
+        using GraphIndex external = StorageSamples.ScalarGraph(rescoreDepth: 4, fullVectors: FullVectorLocation.ExternalSource);
+        byte[] file = IndexFileBytes.Save(external);
+        IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
+        Assert.Equal(1, header.Integers["full-vector-location"]);
+        Assert.DoesNotContain(IndexFileBytes.Map(file), s => s.Id == (uint)SectionId.Vectors);
+
+        // Claimed in memory, but no vectors stored; and a value that names no location.
+        header.Integers.Remove("full-vector-location");
+        Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file)));
+        header.Integers["full-vector-location"] = 2;
+        Assert.Contains("the field 'full-vector-location' is 2; expected a value in [0, 1]", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
+
+        // Claimed external over a file that stores the vectors: the section is left over.
+        using GraphIndex memory = StorageSamples.ScalarGraph(rescoreDepth: 4);
+        byte[] withVectors = IndexFileBytes.Save(memory);
+        IndexHeader memoryHeader = IndexFileBytes.CopyHeader(IndexFileBytes.Header(withVectors));
+        Assert.False(memoryHeader.Integers.ContainsKey("full-vector-location"));
+        memoryHeader.Integers["full-vector-location"] = 1;
+        Assert.Contains("section 'Vectors' (id 2) is listed but this index kind does not use it", Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors))).Message, StringComparison.Ordinal);
     }
 
     private static string Reject(Action<byte[]> damage, bool settled = false)

@@ -15,7 +15,7 @@ namespace VectorKit.Tests.Storage;
 /// </summary>
 public class IndexFileDamageTests
 {
-    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full", "exact-scalar-external", "graph-scalar", "graph-scalar-full" };
+    public static TheoryData<string> Samples => new() { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full", "exact-scalar-external", "graph-scalar", "graph-scalar-full", "graph-scalar-external" };
 
     [Theory]
     [MemberData(nameof(Samples))]
@@ -335,6 +335,7 @@ public class IndexFileDamageTests
             "exact-scalar-external" => StorageSamples.ExactScalar(metric: DistanceMetric.Cosine, rescoreDepth: 3, fullVectors: FullVectorLocation.ExternalSource),
             "graph-scalar" => StorageSamples.ScalarGraph(count: 16, dimension: 3),
             "graph-scalar-full" => StorageSamples.ScalarGraph(count: 16, dimension: 3, metric: DistanceMetric.Cosine, rescoreDepth: 5),
+            "graph-scalar-external" => StorageSamples.ScalarGraph(count: 16, dimension: 3, metric: DistanceMetric.Cosine, rescoreDepth: 5, fullVectors: FullVectorLocation.ExternalSource),
             _ => throw new ArgumentOutOfRangeException(nameof(name), name, "not a sample"),
         };
         return IndexFileBytes.Save(index);

@@ -73,7 +73,7 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
     private static List<byte[]> Corpus()
     {
         var corpus = new List<byte[]>();
-        foreach (string name in new[] { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full", "exact-scalar-external", "graph-scalar", "graph-scalar-full" })
+        foreach (string name in new[] { "exact", "exact-cosine", "graph", "graph-inner-product", "ivf-float32", "ivf-product", "ivf-scalar", "ivf-external", "exact-scalar", "exact-scalar-full", "exact-scalar-external", "graph-scalar", "graph-scalar-full", "graph-scalar-external" })
         {
             corpus.Add(IndexFileDamageTests.Sample(name));
         }

@@ -50,10 +50,19 @@ internal static class StorageSamples
         return graph;
     }
 
-    /// <summary>A small graph under 8-bit codes (trained on its own rows), with full vectors when <paramref name="rescoreDepth"/> is positive, and two removed items.</summary>
-    public static GraphIndex ScalarGraph(int count = 40, int dimension = 4, DistanceMetric metric = DistanceMetric.SquaredEuclidean, int rescoreDepth = 0, int seed = 11)
+    /// <summary>
+    /// A small graph under 8-bit codes (trained on its own rows), with full vectors when <paramref name="rescoreDepth"/>
+    /// is positive (in memory, or none stored when <paramref name="fullVectors"/> is external), and two removed items.
+    /// </summary>
+    public static GraphIndex ScalarGraph(
+        int count = 40,
+        int dimension = 4,
+        DistanceMetric metric = DistanceMetric.SquaredEuclidean,
+        int rescoreDepth = 0,
+        int seed = 11,
+        FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory)
     {
-        var graph = new GraphIndex(dimension, metric, new GraphIndexOptions { LinksPerNode = 3, BuildWidth = 16, Seed = seed, BuildParallelism = 1, Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth });
+        var graph = new GraphIndex(dimension, metric, new GraphIndexOptions { LinksPerNode = 3, BuildWidth = 16, Seed = seed, BuildParallelism = 1, Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = fullVectors });
         float[] data = ClusteredData.Generate(count, dimension, 4, 0.3f, seed);
         graph.Train(data);
         graph.AddRange(Enumerable.Range(0, count).Select(i => 500L + (i * 3)).ToArray(), data);

@@ -86,7 +86,8 @@ public sealed partial class GraphIndex
     }
 
     /// <summary>
-    /// Builds a working index from loaded primary state, taking ownership of its arrays, vector and code storage
+    /// Builds a working index from loaded primary state (with no external full-vector source: one is attached after the
+    /// load), taking ownership of its arrays, vector and code storage
     /// (disposed on failure). Verifies the structure first: levels within the cap, link counts within the limits, every link
     /// target a stored slot whose level reaches the layer, no live node linking a removed one, the entry point a live
     /// node on the top layer, live ids unique and the live count right. Then derives the id lookup.
@@ -267,12 +268,13 @@ public sealed partial class GraphIndex
     {
         GraphIndexOptions options = parts.Options;
         bool codes = options.Storage == VectorStorage.Scalar8Bit;
-        bool full = !codes || options.RescoreDepth > 0;
+        bool external = options.FullVectors == FullVectorLocation.ExternalSource;
+        bool full = !codes || (options.RescoreDepth > 0 && !external);
         if (full != parts.Vectors is not null || (parts.Vectors is not null && (parts.Vectors.Dimension != parts.Dimension || parts.Vectors.Capacity < parts.Slots)))
         {
             throw new InvalidDataException(full
                 ? $"the {options.Storage} graph (re-score depth {options.RescoreDepth}) needs float vectors for its {parts.Slots} slots"
-                : $"the {options.Storage} graph without re-scoring keeps no float vectors, yet some are given");
+                : $"the {options.Storage} graph {(options.RescoreDepth > 0 && external ? "re-scoring from an external source" : "without re-scoring")} keeps no float vectors, yet some are given");
         }
 
         if (codes != parts.Codes is not null || (parts.Codes is not null && (parts.Codes.Dimension != ScalarQuantizer.PaddedLength(parts.Dimension) || parts.Codes.Capacity < parts.Slots)))

@@ -2,6 +2,7 @@ using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Quantization;
+using VectorKit.Reranking;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -23,6 +24,14 @@ namespace VectorKit.Indexes.Graph;
 /// filtered scan, <see cref="Compact()"/>) is computed on the codes: a query against a code on the SIMD byte-code
 /// kernel, a node against a node by decoding one of them. With a positive <see cref="GraphIndexOptions.RescoreDepth"/>
 /// the full vectors are kept beside the codes, and the best candidates of each search are re-scored on them.</para>
+/// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
+/// <see cref="GraphIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
+/// only the codes: re-scoring reads each candidate's vector from the <see cref="IFullVectorSource"/> given at
+/// construction or attached later with <see cref="AttachFullVectors"/> (a loaded index has none until then; a search
+/// that would re-score without one throws <see cref="InvalidOperationException"/>). Under cosine the rows read are
+/// normalised as the index normalises added vectors, and the graph is built on the codes either way, so the results
+/// equal, bit for bit, those of the same index keeping the vectors in memory. The source is neither saved nor disposed
+/// by the index. Under float32 storage the option is ignored: the rows are the full vectors.</para>
 /// <para><b>Results.</b> Under float32 storage, distances are those of the exact index (same kernels, bit for bit),
 /// best first, ties by id. A search keeps <c>max(k, width, depth)</c> candidates, width being
 /// <see cref="SearchOptions.SearchWidth"/> or <see cref="GraphIndexOptions.DefaultSearchWidth"/> and depth the re-score
@@ -57,7 +66,7 @@ namespace VectorKit.Indexes.Graph;
 /// without in-links, and the global pass when it is due), <see cref="Remove"/>, <see cref="RemoveRange"/>,
 /// <see cref="Compact()"/> and <see cref="Dispose"/> are exclusive: they wait for running searches and adds.</para>
 /// </remarks>
-public sealed partial class GraphIndex : ITrainableIndex
+public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
 {
     // Scratch places of rows decoded from codes (see IGraphDistance.NodeAsQuery): the node being linked or attached,
     // the owner of a list being pruned or re-linked, and from KeptPlace on the nodes neighbour selection has kept.
@@ -81,8 +90,11 @@ public sealed partial class GraphIndex : ITrainableIndex
     private readonly object[] _stripes = new object[LockStripes];
     private readonly object _entryLock = new();
     private readonly GraphIndexOptions _options;
-    // Float rows: the storage under float32, the full vectors kept for re-scoring under codes, else null.
+    // Float rows: the storage under float32, the full vectors kept in memory for re-scoring under codes, else null;
+    // re-scoring from an external source reads _source (set by the constructor or AttachFullVectors, under the write lock).
     private VectorBuffer? _vectors;
+    private readonly bool _readsExternally;
+    private IFullVectorSource? _source;
     private CodeBuffer? _codes;
     private ScalarQuantizer? _scalar;
     private GraphLinks _links;
@@ -130,9 +142,10 @@ public sealed partial class GraphIndex : ITrainableIndex
         if (_options.Storage == VectorStorage.Scalar8Bit)
         {
             _codes = new CodeBuffer(ScalarQuantizer.PaddedLength(dimension), _options.InitialCapacity);
+            _readsExternally = _options.RescoreDepth > 0 && _options.FullVectors == FullVectorLocation.ExternalSource;
         }
 
-        if (_codes is null || _options.RescoreDepth > 0)
+        if (_codes is null || (_options.RescoreDepth > 0 && !_readsExternally))
         {
             _vectors = new VectorBuffer(dimension, _options.InitialCapacity);
         }
@@ -145,6 +158,32 @@ public sealed partial class GraphIndex : ITrainableIndex
         {
             _stripes[i] = new object();
         }
+    }
+
+    /// <summary>Creates an empty graph index under 8-bit storage that re-scores from <paramref name="fullVectors"/>.</summary>
+    /// <param name="dimension">Components per vector, at least 1.</param>
+    /// <param name="metric">The distance metric.</param>
+    /// <param name="options">Options with <see cref="VectorStorage.Scalar8Bit"/> storage, a positive <see cref="GraphIndexOptions.RescoreDepth"/> and <see cref="GraphIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
+    /// <param name="fullVectors">The full vector of every id that will be added (not owned by the index).</param>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
+    /// <exception cref="ArgumentException">The source's dimension differs from <paramref name="dimension"/>.</exception>
+    /// <exception cref="ArgumentNullException"><paramref name="options"/> or <paramref name="fullVectors"/> is <see langword="null"/>.</exception>
+    /// <exception cref="InvalidOperationException">The options do not re-score from an external source.</exception>
+    /// <remarks>The index must still be trained (<see cref="Train"/>) before the first add or search.</remarks>
+    public GraphIndex(int dimension, DistanceMetric metric, GraphIndexOptions options, IFullVectorSource fullVectors)
+        : this(dimension, metric, options ?? throw new ArgumentNullException(nameof(options)))
+    {
+        try
+        {
+            SourceRows.CheckAttach(fullVectors, dimension, _readsExternally);
+        }
+        catch
+        {
+            Dispose(); // the code block is native memory
+            throw;
+        }
+
+        _source = fullVectors;
     }
 
     /// <inheritdoc/>
@@ -162,8 +201,34 @@ public sealed partial class GraphIndex : ITrainableIndex
     /// </summary>
     public bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
 
-    /// <summary>Whether the full float32 vectors are kept beside the 8-bit codes for exact re-scoring (a positive <see cref="GraphIndexOptions.RescoreDepth"/>).</summary>
-    public bool KeepsFullVectors => _codes is not null && _options.RescoreDepth > 0;
+    /// <summary>
+    /// Whether the full float32 vectors are kept in memory beside the 8-bit codes for exact re-scoring (a positive
+    /// <see cref="GraphIndexOptions.RescoreDepth"/> with <see cref="GraphIndexOptions.FullVectors"/> =
+    /// <see cref="FullVectorLocation.InIndexMemory"/>).
+    /// </summary>
+    public bool KeepsFullVectors => _codes is not null && _options.RescoreDepth > 0 && !_readsExternally;
+
+    /// <inheritdoc/>
+    public bool ReadsFullVectorsExternally => _readsExternally;
+
+    /// <inheritdoc/>
+    public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
+
+    /// <inheritdoc/>
+    public void AttachFullVectors(IFullVectorSource source)
+    {
+        SourceRows.CheckAttach(source, Dimension, _readsExternally);
+        _lock.EnterWriteLock();
+        try
+        {
+            ThrowIfDisposed();
+            Volatile.Write(ref _source, source);
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
 
     /// <summary>
     /// Bytes a graph walk reads per stored vector: <c>4 × dimension</c> for float32, the dimension rounded up to a
@@ -249,10 +314,10 @@ public sealed partial class GraphIndex : ITrainableIndex
 
     /// <inheritdoc/>
     /// <remarks>
-    /// Vectors (or 8-bit codes, plus the full vectors when kept, plus the trained ranges) at their reserved capacity,
+    /// Vectors (or 8-bit codes, plus the full vectors when kept in memory, plus the trained ranges) at their reserved capacity,
     /// ids, the link arrays (bottom layer: <c>4 × (bottom links + 1)</c> bytes per slot; upper layers only for nodes
     /// that have them), per-slot level and removal flags, and the id lookup (about 28 bytes per entry). Removed items
-    /// keep their space until <see cref="Compact()"/>.
+    /// keep their space until <see cref="Compact()"/>. An attached external source is not counted (the index does not own it).
     /// </remarks>
     public long MemoryBytes
     {
@@ -283,8 +348,10 @@ public sealed partial class GraphIndex : ITrainableIndex
     /// <remarks>
     /// Under cosine the stored vector is the unit-length one. Under 8-bit storage without full vectors this is the
     /// decoded code, an approximation (each component within half a quantization step of the vector added, when it
-    /// lay in the trained range).
+    /// lay in the trained range). With an attached external source it is the source's vector (unit length under cosine,
+    /// as an index keeping it stores it).
     /// </remarks>
+    /// <exception cref="InvalidOperationException">The attached source lacks the vector of an id the index holds.</exception>
     public bool TryGetVector(long id, Span<float> destination)
     {
         VectorChecks.CheckVectorDestination(destination, Dimension);
@@ -299,6 +366,12 @@ public sealed partial class GraphIndex : ITrainableIndex
         if (!_slotOf.TryGetValue(id, out int slot))
         {
             return false;
+        }
+
+        if (_source is { } source)
+        {
+            new SourceRows(source, Dimension, Metric == DistanceMetric.Cosine).CopyTo(id, destination);
+            return true;
         }
 
         _scalar!.Decode(_codes!.RowSpan(slot), destination);
@@ -410,6 +483,8 @@ public sealed partial class GraphIndex : ITrainableIndex
     }
 
     /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
         VectorChecks.CheckResultDestination(destination);
@@ -454,6 +529,8 @@ public sealed partial class GraphIndex : ITrainableIndex
     }
 
     /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
     public BatchSearchResults SearchBatch(
         ReadOnlySpan<float> queries,
         int k,
@@ -474,6 +551,11 @@ public sealed partial class GraphIndex : ITrainableIndex
             if (queryCount == 0 || _count == 0)
             {
                 return results;
+            }
+
+            if (_readsExternally && _source is null && (options.RescoreDepth ?? _options.RescoreDepth) > 0)
+            {
+                SourceRows.ThrowNoSource(); // here, not wrapped in the parallel loop's AggregateException
             }
 
             const int block = 16;
@@ -615,7 +697,12 @@ public sealed partial class GraphIndex : ITrainableIndex
         }
 
         Func<long, bool>? filter = options.Filter;
-        int depth = KeepsFullVectors ? options.RescoreDepth ?? _options.RescoreDepth : 0;
+        int depth = KeepsFullVectors || _readsExternally ? options.RescoreDepth ?? _options.RescoreDepth : 0;
+        if (depth > 0 && _readsExternally && _source is null)
+        {
+            SourceRows.ThrowNoSource();
+        }
+
         int width = Math.Max(Math.Max(destination.Length, depth), options.SearchWidth ?? _options.DefaultSearchWidth);
 
         // Codes are read in lanes of up to 16: the query gets zeros up to the code length, which meet zero scales.
@@ -657,7 +744,7 @@ public sealed partial class GraphIndex : ITrainableIndex
         where TAction : struct, IGraphAction<TResult>, allows ref struct
         => GraphDispatch.Run<TAction, TResult>(Metric, _path, _codes is not null, ref action);
 
-    // Under full vectors kept beside codes: the first max(k, depth) of `hits` (sorted by code distance) get their exact
+    // Under full vectors kept beside codes (or read from the attached source): the first max(k, depth) of `hits` (sorted by code distance) get their exact
     // distances and are sorted again, so every distance returned is exact; the caller then takes the best k of them.
     // Returns how many remain candidates.
     private int Rescore(ref float query, Span<SearchHit> hits, int k, int depth)
@@ -668,7 +755,16 @@ public sealed partial class GraphIndex : ITrainableIndex
         }
 
         Span<SearchHit> rescored = hits[..Math.Min(Math.Max(k, depth), hits.Length)];
-        ExactRescoring.Rescore(Metric, _path, ref query, Dimension, rescored, new SlotRows(_vectors!, _slotOf));
+        if (_readsExternally)
+        {
+            // The source cannot change during a search: attaching takes the write lock.
+            ExactRescoring.Rescore(Metric, _path, ref query, Dimension, rescored, new SourceRows(_source!, Dimension, Metric == DistanceMetric.Cosine));
+        }
+        else
+        {
+            ExactRescoring.Rescore(Metric, _path, ref query, Dimension, rescored, new SlotRows(_vectors!, _slotOf));
+        }
+
         rescored.Sort();
         return rescored.Length;
     }

@@ -20,6 +20,7 @@ public sealed class GraphIndexOptions
     private readonly double? _filteredExactScanFraction;
     private readonly VectorStorage _storage = VectorStorage.Float32;
     private readonly int _rescoreDepth;
+    private readonly FullVectorLocation _fullVectors = FullVectorLocation.InIndexMemory;
 
     /// <summary>The defaults: 16 links per node (32 on the bottom layer), build width 128, search width 64, seed 42, float32 vectors.</summary>
     public static GraphIndexOptions Default { get; } = new();
@@ -184,8 +185,8 @@ public sealed class GraphIndexOptions
     }
 
     /// <summary>
-    /// Under <see cref="VectorStorage.Scalar8Bit"/>: a positive value keeps every full float32 vector in memory beside
-    /// its code, and each search re-scores that many of the walk's best candidates exactly on them (at least k; the walk
+    /// Under <see cref="VectorStorage.Scalar8Bit"/>: a positive value keeps every full float32 vector (in memory beside
+    /// its code, or in an external source: <see cref="FullVectors"/>), and each search re-scores that many of the walk's best candidates exactly on them (at least k; the walk
     /// then keeps at least this many); <see cref="SearchOptions.RescoreDepth"/> overrides it per search. 0 (the default) keeps
     /// no full vectors, so distances are the codes' approximations. Ignored under <see cref="VectorStorage.Float32"/>,
     /// which is exact already.
@@ -202,6 +203,30 @@ public sealed class GraphIndexOptions
             }
 
             _rescoreDepth = value;
+        }
+    }
+
+    /// <summary>
+    /// Where re-scoring (a positive <see cref="RescoreDepth"/> under <see cref="VectorStorage.Scalar8Bit"/>) reads full
+    /// vectors: a copy kept in the index's memory (the default), or an <see cref="Reranking.IFullVectorSource"/> attached
+    /// with <see cref="GraphIndex.AttachFullVectors"/>, such as a <see cref="IO.FileVectorSource"/> over the file the
+    /// vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's file,
+    /// at the cost of one read per re-scored candidate; the graph itself (walks, linking, removal repair,
+    /// <see cref="GraphIndex.Compact()"/>) works on the codes either way. Ignored when re-scoring is off, and under
+    /// <see cref="VectorStorage.Float32"/>, whose rows are the full vectors.
+    /// </summary>
+    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="FullVectorLocation"/>.</exception>
+    public FullVectorLocation FullVectors
+    {
+        get => _fullVectors;
+        init
+        {
+            if (value is not (FullVectorLocation.InIndexMemory or FullVectorLocation.ExternalSource))
+            {
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(FullVectors), value, "must be InIndexMemory or ExternalSource");
+            }
+
+            _fullVectors = value;
         }
     }
 
