@@ -259,18 +259,10 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
             ThrowHelper.ThrowArgument(nameof(sample), $"sample has {sample.Length} components; training needs at least one row and a multiple of the index dimension {d}.");
         }
 
-        int n = sample.Length / d;
         VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
-        float[]? normalised = null;
         if (Metric == DistanceMetric.Cosine)
         {
-            normalised = new float[sample.Length];
-            for (int r = 0; r < n; r++)
-            {
-                VectorChecks.Normalize(sample.Slice(r * d, d), normalised.AsSpan(r * d, d), $"{nameof(sample)} row {r}");
-            }
-
-            sample = normalised;
+            sample = VectorChecks.NormalisedRows(sample, d, nameof(sample), cancellationToken);
         }
 
         ScalarQuantizer? scalar = _codes is null ? null : ScalarQuantizer.Train(sample, d);
