@@ -7,6 +7,7 @@ using VectorKit.Reranking;
 using VectorKit.Storage;
 using VectorKit.Tests.TestData;
 using Xunit;
+using static VectorKit.Tests.TestData.FullVectorSources;
 
 namespace VectorKit.Tests.Indexes.Graph;
 
@@ -24,19 +25,13 @@ public sealed class ExternalSourceGraphIndexTests : IDisposable
     private const int D = 24, N = 600, Q = 25;
     private readonly string _directory = Directory.CreateTempSubdirectory("vk-graph-external-").FullName;
 
-    public enum SourceKind
+    public static TheoryData<DistanceMetric, FullVectorSourceKind> Cases()
     {
-        NpyFile,
-        InMemory,
-    }
-
-    public static TheoryData<DistanceMetric, SourceKind> Cases()
-    {
-        var data = new TheoryData<DistanceMetric, SourceKind>();
+        var data = new TheoryData<DistanceMetric, FullVectorSourceKind>();
         foreach (DistanceMetric metric in Enum.GetValues<DistanceMetric>())
         {
-            data.Add(metric, SourceKind.NpyFile);
-            data.Add(metric, SourceKind.InMemory);
+            data.Add(metric, FullVectorSourceKind.NpyFile);
+            data.Add(metric, FullVectorSourceKind.InMemory);
         }
 
         return data;
@@ -46,12 +41,12 @@ public sealed class ExternalSourceGraphIndexTests : IDisposable
 
     [Theory]
     [MemberData(nameof(Cases))]
-    public void RescoringFromASource_EqualsRescoringFromMemory_BitForBit(DistanceMetric metric, SourceKind kind)
+    public void RescoringFromASource_EqualsRescoringFromMemory_BitForBit(DistanceMetric metric, FullVectorSourceKind kind)
     {
         float[] data = ClusteredData.Generate(N, D, 12, 0.4f, seed: 41);
         float[] queries = ClusteredData.Generate(Q, D, 12, 0.4f, seed: 42);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i * 31 + 5).ToArray();
-        using IDisposable? owner = OpenSource(kind, data, ids, out IFullVectorSource source);
+        using IDisposable? owner = FullVectorSources.Open(kind, _directory, data, ids, D, out IFullVectorSource source);
         using GraphIndex memory = Build(metric, data, ids, FullVectorLocation.InIndexMemory, null);
         using GraphIndex external = Build(metric, data, ids, FullVectorLocation.ExternalSource, source);
         Assert.True(memory.KeepsFullVectors);
@@ -209,7 +204,7 @@ public sealed class ExternalSourceGraphIndexTests : IDisposable
         float[] data = ClusteredData.Generate(N, D, 12, 0.4f, seed: 45);
         float[] queries = ClusteredData.Generate(Q, D, 12, 0.4f, seed: 46);
         long[] ids = Enumerable.Range(0, N).Select(i => 7L * i).ToArray();
-        using FileVectorSource file = WriteNpy(data, ids);
+        using FileVectorSource file = FullVectorSources.WriteNpy(_directory, data, ids, D);
         using GraphIndex memory = Build(DistanceMetric.Cosine, data, ids, FullVectorLocation.InIndexMemory, null);
         using GraphIndex external = Build(DistanceMetric.Cosine, data, ids, FullVectorLocation.ExternalSource, file);
         memory.RemoveRange([ids[5], ids[77]]);
@@ -331,74 +326,5 @@ public sealed class ExternalSourceGraphIndexTests : IDisposable
         index.Train(data);
         index.AddRange(ids, data);
         return index;
-    }
-
-    // Rows written in three batches, as a loader streaming a data set would write them.
-    private FileVectorSource WriteNpy(float[] data, long[] ids)
-    {
-        string path = Path.Combine(_directory, $"full-{Guid.NewGuid():N}.npy");
-        using (NpyRowWriter writer = NpyRowWriter.Create(path, D))
-        {
-            int rows = data.Length / D;
-            writer.Append(data.AsSpan(0, 100 * D));
-            writer.Append(data.AsSpan(100 * D, 350 * D));
-            writer.Append(data.AsSpan(450 * D, (rows - 450) * D));
-            writer.Complete();
-        }
-
-        return FileVectorSource.OpenNpy(path, ids);
-    }
-
-    private IDisposable? OpenSource(SourceKind kind, float[] data, long[] ids, out IFullVectorSource source)
-    {
-        if (kind == SourceKind.NpyFile)
-        {
-            FileVectorSource file = WriteNpy(data, ids);
-            source = file;
-            return file;
-        }
-
-        var byId = new Dictionary<long, float[]>();
-        for (int i = 0; i < ids.Length; i++)
-        {
-            byId[ids[i]] = data.AsSpan(i * D, D).ToArray();
-        }
-
-        source = new DictionarySource(byId, D);
-        return null;
-    }
-
-    /// <summary>Row r of an array is id r.</summary>
-    private sealed class RowSource(float[] data, int dimension) : IFullVectorSource
-    {
-        public int Dimension => dimension;
-
-        public bool TryGetVector(long id, Span<float> destination)
-        {
-            if (id < 0 || id >= data.Length / dimension)
-            {
-                return false;
-            }
-
-            data.AsSpan((int)id * dimension, dimension).CopyTo(destination);
-            return true;
-        }
-    }
-
-    /// <summary>Vectors held by id in a dictionary, as a caller's own store would hold them.</summary>
-    private sealed class DictionarySource(Dictionary<long, float[]> vectors, int dimension) : IFullVectorSource
-    {
-        public int Dimension => dimension;
-
-        public bool TryGetVector(long id, Span<float> destination)
-        {
-            if (!vectors.TryGetValue(id, out float[]? vector))
-            {
-                return false;
-            }
-
-            vector.CopyTo(destination);
-            return true;
-        }
     }
 }
