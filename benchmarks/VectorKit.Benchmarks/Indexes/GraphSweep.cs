@@ -125,13 +125,20 @@ public static class GraphSweep
             $"(float32 graph: {floatBuildSeconds:F1} s); bytes/vector: float32 graph {floatBytes:F0}, 8-bit graph {codesOnly:F0} ({codes.CodeBytesPerVector} of them the code), " +
             $"8-bit graph + full vectors {withFull:F0}");
         Console.WriteLine($"width  float32 recall@10  queries/s | 8-bit recall@10  queries/s | 8-bit + re-score {RescoreDepth} recall@10  queries/s");
+        // Every width without re-scoring first, then every width with it.
+        var plain = new (double Recall, double Qps)[widths.Length];
+        for (int w = 0; w < widths.Length; w++)
+        {
+            double qps = SingleThreadQps(codes, queries, d, new SearchOptions { SearchWidth = widths[w], RescoreDepth = 0 }, timedPasses: 5, out long[][] found);
+            plain[w] = (Recall.AtK(expected, found, K), qps);
+        }
+
         for (int w = 0; w < widths.Length; w++)
         {
             int width = widths[w];
-            double plainQps = SingleThreadQps(codes, queries, d, new SearchOptions { SearchWidth = width, RescoreDepth = 0 }, timedPasses: 5, out long[][] plainFound);
             double rescoredQps = SingleThreadQps(codes, queries, d, new SearchOptions { SearchWidth = width }, timedPasses: 5, out long[][] rescoredFound);
             Console.WriteLine(
-                $"{width,5}  {floatRows[w].Recall,17:F4}  {floatRows[w].Qps,9:F0} | {Recall.AtK(expected, plainFound, K),15:F4}  {plainQps,9:F0} | " +
+                $"{width,5}  {floatRows[w].Recall,17:F4}  {floatRows[w].Qps,9:F0} | {plain[w].Recall,15:F4}  {plain[w].Qps,9:F0} | " +
                 $"{Recall.AtK(expected, rescoredFound, K),28:F4}  {rescoredQps,9:F0}");
         }
     }
