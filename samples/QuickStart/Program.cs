@@ -44,7 +44,7 @@ Print(index.Search(catalogue.VectorOf(bag.Id), 5, new SearchOptions { Filter = i
 // 4. A measured batch: 1,000 browsing queries, recall@10 against exact ground truth, on a fresh index.
 const int QueryCount = 1_000;
 float[] queries = catalogue.SampleQueries(QueryCount, Seed + 1);
-NeighbourTable truth = GroundTruth.Compute(catalogue.Vectors, ids, queries, Dimension, 10, DistanceMetric.Cosine);
+NeighborTable truth = GroundTruth.Compute(catalogue.Vectors, ids, queries, Dimension, 10, DistanceMetric.Cosine);
 using var measured = new ExactIndex(Dimension, DistanceMetric.Cosine);
 SearchQualityReport report = SearchQuality.Measure(measured, ids, catalogue.Vectors, queries, truth);
 Console.WriteLine();

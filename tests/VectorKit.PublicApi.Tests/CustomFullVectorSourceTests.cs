@@ -2,7 +2,7 @@ using VectorKit.Distance;
 using VectorKit.Indexes;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.Reranking;
-using VectorKit.Storage;
+using VectorKit.Persistence;
 
 namespace VectorKit.PublicApi.Tests;
 

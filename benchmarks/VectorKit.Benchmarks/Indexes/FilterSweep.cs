@@ -37,7 +37,7 @@ public static class FilterSweep
         {
             int m = modulus;
             var options = new SearchOptions { Filter = id => id % m == 3 };
-            NeighbourTable truth = NeighbourTable.FromResults(exact.SearchBatch(queries, K, options));
+            NeighborTable truth = NeighborTable.FromResults(exact.SearchBatch(queries, K, options));
             graph.FilteredScanFractionOverride = 0;
             double walk = Qps(graph, queries, d, options, out BatchSearchResults walked);
             graph.FilteredScanFractionOverride = 1;

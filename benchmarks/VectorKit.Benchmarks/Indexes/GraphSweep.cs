@@ -59,7 +59,7 @@ public static class GraphSweep
         int count = data.Length / d;
         int queryCount = queries.Length / d;
         long[] ids = Enumerable.Range(0, count).Select(i => (long)i).ToArray();
-        NeighbourTable truth;
+        NeighborTable truth;
         double exactQps;
         using (var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean))
         {

@@ -41,7 +41,7 @@ public static class InvertedFileSweep
         using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
         exact.AddRange(ids, data);
         long exactBytes = exact.MemoryBytes;
-        NeighbourTable truth = GroundTruth.Compute(exact, queries, K);
+        NeighborTable truth = GroundTruth.Compute(exact, queries, K);
         float[] exactQueries = queries.AsSpan(0, ExactQueries * d).ToArray();
         double exactBefore = SingleThreadQps(exact, exactQueries, d, null, timedPasses: 2, out _);
         double exactQps = exactBefore;
@@ -59,7 +59,7 @@ public static class InvertedFileSweep
         Console.WriteLine($"process peak working set {Process.GetCurrentProcess().PeakWorkingSet64 / 1048576.0:F0} MiB");
     }
 
-    private static void Sweep(string name, InvertedFileOptions options, float[] data, long[] ids, float[] queries, NeighbourTable truth, double exactQps, int[] probes, int[] depths)
+    private static void Sweep(string name, InvertedFileOptions options, float[] data, long[] ids, float[] queries, NeighborTable truth, double exactQps, int[] probes, int[] depths)
     {
         int d = queries.Length / QueryCount;
         int count = ids.Length;

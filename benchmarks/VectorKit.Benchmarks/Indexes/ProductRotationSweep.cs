@@ -46,7 +46,7 @@ public static class ProductRotationSweep
     {
         int count = data.Length / d;
         long[] ids = Enumerable.Range(0, count).Select(i => (long)i).ToArray();
-        NeighbourTable truth;
+        NeighborTable truth;
         using (var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean))
         {
             exact.AddRange(ids, data);

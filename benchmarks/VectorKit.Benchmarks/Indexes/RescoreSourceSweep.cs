@@ -32,7 +32,7 @@ public static class RescoreSourceSweep
         float[] queries = all.AsSpan(count * d).ToArray();
         all = [];
         long[] ids = Enumerable.Range(0, count).Select(i => (long)i).ToArray();
-        NeighbourTable truth = GroundTruth.Compute(data, default, queries, d, K, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, default, queries, d, K, DistanceMetric.SquaredEuclidean);
         List<long[]> truthRows = [.. Enumerable.Range(0, QueryCount).Select(q => truth[q].ToArray())];
 
         string directory = Path.Combine("BenchmarkDotNet.Artifacts", "rescore-source");

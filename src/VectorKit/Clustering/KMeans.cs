@@ -1,7 +1,7 @@
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance.Kernels;
-using VectorKit.Indexes;
+using VectorKit.Internal;
 
 namespace VectorKit.Clustering;
 

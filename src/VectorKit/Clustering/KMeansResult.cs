@@ -1,4 +1,5 @@
 using VectorKit.Distance.Kernels;
+using VectorKit.Internal;
 
 namespace VectorKit.Clustering;
 
@@ -74,7 +75,7 @@ public sealed class KMeansResult
     /// <exception cref="ArgumentException">The vector has the wrong length or a non-finite component.</exception>
     public int Assign(ReadOnlySpan<float> vector)
     {
-        Indexes.VectorChecks.CheckVector(vector, Dimension, nameof(vector));
+        Internal.VectorChecks.CheckVector(vector, Dimension, nameof(vector));
         return NearestCentroid.One(KernelDispatch.Widest, vector, _centroids, ClusterCount, out _);
     }
 
@@ -92,7 +93,7 @@ public sealed class KMeansResult
             ThrowHelper.ThrowArgument(nameof(clusters), $"vectors holds {vectors.Length} components and clusters {clusters.Length} slots; dimension {d} needs {vectors.Length / d} slots and a multiple of {d} components.");
         }
 
-        Indexes.VectorChecks.CheckFinite(vectors, nameof(vectors), 0, d);
+        Internal.VectorChecks.CheckFinite(vectors, nameof(vectors), 0, d);
         var distances = new float[clusters.Length];
         fixed (float* rows = vectors)
         {

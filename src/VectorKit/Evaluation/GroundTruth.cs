@@ -1,6 +1,7 @@
 using VectorKit.Distance;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
+using VectorKit.Internal;
 
 namespace VectorKit.Evaluation;
 
@@ -25,7 +26,7 @@ public static class GroundTruth
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> or <paramref name="k"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
     /// <exception cref="ArgumentException">A buffer is not a multiple of <paramref name="dimension"/>, <paramref name="ids"/> has the wrong length or a repeated id, or a vector is invalid for the metric.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
-    public static NeighbourTable Compute(
+    public static NeighborTable Compute(
         ReadOnlySpan<float> baseVectors,
         ReadOnlySpan<long> ids,
         ReadOnlySpan<float> queries,
@@ -85,7 +86,7 @@ public static class GroundTruth
     /// <exception cref="ArgumentException">The query buffer is not a multiple of the dimension, or a query is invalid.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public static NeighbourTable Compute(
+    public static NeighborTable Compute(
         IVectorIndex index,
         ReadOnlySpan<float> queries,
         int k,
@@ -98,6 +99,6 @@ public static class GroundTruth
             ThrowHelper.ThrowArgumentOutOfRange(nameof(k), k, "must be positive");
         }
 
-        return NeighbourTable.FromResults(index.SearchBatch(queries, k, SearchOptions.Default, progress, cancellationToken));
+        return NeighborTable.FromResults(index.SearchBatch(queries, k, SearchOptions.Default, progress, cancellationToken));
     }
 }

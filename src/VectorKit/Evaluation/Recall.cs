@@ -41,7 +41,7 @@ public static class Recall
     /// <exception cref="ArgumentNullException">A table is null.</exception>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="k"/> is not positive.</exception>
     /// <exception cref="ArgumentException">The query counts differ or are zero, or a truth row repeats an id among its first k.</exception>
-    public static double AtK(NeighbourTable truth, NeighbourTable results, int k)
+    public static double AtK(NeighborTable truth, NeighborTable results, int k)
     {
         ArgumentNullException.ThrowIfNull(truth);
         ArgumentNullException.ThrowIfNull(results);
@@ -64,10 +64,10 @@ public static class Recall
     /// <exception cref="ArgumentNullException">An argument is null.</exception>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="k"/> is not positive.</exception>
     /// <exception cref="ArgumentException">The query counts differ or are zero, or a truth row repeats an id among its first k.</exception>
-    public static double AtK(NeighbourTable truth, BatchSearchResults results, int k)
+    public static double AtK(NeighborTable truth, BatchSearchResults results, int k)
     {
         ArgumentNullException.ThrowIfNull(results);
-        return AtK(truth, NeighbourTable.FromResults(results), k);
+        return AtK(truth, NeighborTable.FromResults(results), k);
     }
 
     /// <summary>Mean recall@k of plain id arrays, one per query, best first.</summary>
@@ -82,7 +82,7 @@ public static class Recall
     {
         ArgumentNullException.ThrowIfNull(truth);
         ArgumentNullException.ThrowIfNull(results);
-        return AtK(NeighbourTable.FromRows(truth), NeighbourTable.FromRows(results), k);
+        return AtK(NeighborTable.FromRows(truth), NeighborTable.FromRows(results), k);
     }
 
     private static void CheckK(int k)

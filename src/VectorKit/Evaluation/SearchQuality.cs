@@ -35,7 +35,7 @@ public static class SearchQuality
         ReadOnlySpan<long> ids,
         ReadOnlySpan<float> baseVectors,
         ReadOnlySpan<float> queries,
-        NeighbourTable groundTruth,
+        NeighborTable groundTruth,
         QualityMeasurementOptions? options = null,
         IProgress<EvaluationProgress>? progress = null,
         CancellationToken cancellationToken = default)

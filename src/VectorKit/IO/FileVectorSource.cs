@@ -1,7 +1,7 @@
 using System.Buffers.Binary;
 using System.Runtime.InteropServices;
 using Microsoft.Win32.SafeHandles;
-using VectorKit.Reranking;
+using VectorKit.Indexes;
 
 namespace VectorKit.IO;
 

@@ -7,8 +7,8 @@ public enum FullVectorLocation
     InIndexMemory = 0,
 
     /// <summary>
-    /// The index keeps no full vectors: re-scoring reads them from an <see cref="Reranking.IFullVectorSource"/> attached
-    /// with <see cref="IExternalFullVectors.AttachFullVectors"/> (for example a <see cref="IO.FileVectorSource"/>).
+    /// The index keeps no full vectors: re-scoring reads them from an <see cref="Indexes.IFullVectorSource"/> attached
+    /// with <see cref="IExternalFullVectors.AttachFullVectors"/> (for example a <c>VectorKit.IO.FileVectorSource</c>).
     /// The source must hold the vector of every id added; the index's file records the location but not the vectors.
     /// </summary>
     ExternalSource = 1,

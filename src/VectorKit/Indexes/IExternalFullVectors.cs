@@ -1,4 +1,3 @@
-using VectorKit.Reranking;
 
 namespace VectorKit.Indexes;
 

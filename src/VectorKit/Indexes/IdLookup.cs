@@ -1,3 +1,4 @@
+using VectorKit.Internal;
 namespace VectorKit.Indexes;
 
 /// <summary>Helpers over the id → slot lookup the indexes keep.</summary>

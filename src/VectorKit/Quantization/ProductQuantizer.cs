@@ -5,7 +5,7 @@ using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Clustering;
 using VectorKit.Distance.Kernels;
-using VectorKit.Indexes;
+using VectorKit.Internal;
 
 namespace VectorKit.Quantization;
 

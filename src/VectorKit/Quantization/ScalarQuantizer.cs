@@ -1,6 +1,6 @@
 using System.Runtime.InteropServices;
 using VectorKit.Distance.Kernels;
-using VectorKit.Indexes;
+using VectorKit.Internal;
 
 namespace VectorKit.Quantization;
 

@@ -1,3 +1,4 @@
+using VectorKit.Indexes;
 namespace VectorKit.Reranking;
 
 /// <summary>What <see cref="RerankingCalibration.Calibrate"/> aims for and how it samples.</summary>

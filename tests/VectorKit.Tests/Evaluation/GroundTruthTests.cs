@@ -21,7 +21,7 @@ public class GroundTruthTests
         float[] queries = BruteForceReference.IntegerVectors(random, 30, dimension, 3);
         long[] ids = ShuffledIds(random, n);
 
-        NeighbourTable truth = GroundTruth.Compute(data, ids, queries, dimension, 10, metric);
+        NeighborTable truth = GroundTruth.Compute(data, ids, queries, dimension, 10, metric);
 
         AssertRowsEqual(BruteForceReference.Neighbours(data, ids, queries, dimension, 10, metric), truth);
     }
@@ -36,7 +36,7 @@ public class GroundTruthTests
         float[] queries = BruteForceReference.GaussianVectors(random, 30, d);
         long[] ids = ShuffledIds(random, n);
 
-        NeighbourTable truth = GroundTruth.Compute(data, ids, queries, d, 10, DistanceMetric.Cosine);
+        NeighborTable truth = GroundTruth.Compute(data, ids, queries, d, 10, DistanceMetric.Cosine);
 
         AssertRowsEqual(BruteForceReference.Neighbours(data, ids, queries, d, 10, DistanceMetric.Cosine), truth);
     }
@@ -52,7 +52,7 @@ public class GroundTruthTests
         float[] queries = BruteForceReference.IntegerVectors(random, 40, d, 3).Select(x => x + 3000f).ToArray();
         long[] ids = ShuffledIds(random, n);
 
-        NeighbourTable truth = GroundTruth.Compute(data, ids, queries, d, 10, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, ids, queries, d, 10, DistanceMetric.SquaredEuclidean);
 
         AssertRowsEqual(BruteForceReference.Neighbours(data, ids, queries, d, 10, DistanceMetric.SquaredEuclidean), truth);
     }
@@ -78,7 +78,7 @@ public class GroundTruthTests
         float[] queries = BruteForceReference.IntegerVectors(random, 40, d, 1);
         long[] ids = ShuffledIds(random, n);
 
-        NeighbourTable truth = GroundTruth.Compute(data, ids, queries, d, 25, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, ids, queries, d, 25, DistanceMetric.SquaredEuclidean);
 
         AssertRowsEqual(BruteForceReference.Neighbours(data, ids, queries, d, 25, DistanceMetric.SquaredEuclidean), truth);
     }
@@ -91,7 +91,7 @@ public class GroundTruthTests
         float[] queries = BruteForceReference.IntegerVectors(random, 5, 6, 4);
         long[] rowNumbers = Enumerable.Range(0, 50).Select(i => (long)i).ToArray();
 
-        NeighbourTable truth = GroundTruth.Compute(data, null, queries, 6, 7, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, null, queries, 6, 7, DistanceMetric.SquaredEuclidean);
 
         AssertRowsEqual(BruteForceReference.Neighbours(data, rowNumbers, queries, 6, 7, DistanceMetric.SquaredEuclidean), truth);
     }
@@ -100,7 +100,7 @@ public class GroundTruthTests
     public void KLargerThanTheDataSetReturnsEveryVector()
     {
         float[] data = [1, 0, 0, 1, 2, 2];
-        NeighbourTable truth = GroundTruth.Compute(data, [10, 20, 30], [0, 0], 2, 50, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, [10, 20, 30], [0, 0], 2, 50, DistanceMetric.SquaredEuclidean);
         Assert.Equal(1, truth.QueryCount);
         Assert.Equal(new long[] { 10, 20, 30 }, truth[0].ToArray());
     }
@@ -108,7 +108,7 @@ public class GroundTruthTests
     [Fact]
     public void AnEmptyDataSetGivesEmptyRows()
     {
-        NeighbourTable truth = GroundTruth.Compute([], null, [1, 2, 3, 4], 2, 3, DistanceMetric.InnerProduct);
+        NeighborTable truth = GroundTruth.Compute([], null, [1, 2, 3, 4], 2, 3, DistanceMetric.InnerProduct);
         Assert.Equal(2, truth.QueryCount);
         Assert.True(truth[0].IsEmpty);
         Assert.True(truth[1].IsEmpty);
@@ -123,8 +123,8 @@ public class GroundTruthTests
         using var index = new ExactIndex(12, DistanceMetric.InnerProduct);
         index.AddRange(Enumerable.Range(0, 300).Select(i => (long)i).ToArray(), data);
 
-        NeighbourTable fromIndex = GroundTruth.Compute(index, queries, 8);
-        NeighbourTable fromData = GroundTruth.Compute(data, null, queries, 12, 8, DistanceMetric.InnerProduct);
+        NeighborTable fromIndex = GroundTruth.Compute(index, queries, 8);
+        NeighborTable fromData = GroundTruth.Compute(data, null, queries, 12, 8, DistanceMetric.InnerProduct);
 
         for (int q = 0; q < 20; q++)
         {
@@ -194,7 +194,7 @@ public class GroundTruthTests
         return ids;
     }
 
-    private static void AssertRowsEqual(long[][] expected, NeighbourTable actual)
+    private static void AssertRowsEqual(long[][] expected, NeighborTable actual)
     {
         Assert.Equal(expected.Length, actual.QueryCount);
         for (int q = 0; q < expected.Length; q++)

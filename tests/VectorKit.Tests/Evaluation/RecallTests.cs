@@ -91,12 +91,12 @@ public class RecallTests
         index.AddRange(Enumerable.Range(0, 200).Select(i => (long)i).ToArray(), data);
         BatchSearchResults results = index.SearchBatch(queries, 5);
 
-        NeighbourTable truth = GroundTruth.Compute(data, null, queries, d, 5, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, null, queries, d, 5, DistanceMetric.SquaredEuclidean);
         Assert.Equal(1.0, Recall.AtK(truth, results, 5));
 
         // Shift every true id so exactly none of the found ones match.
         long[][] shifted = Enumerable.Range(0, 20).Select(q => truth[q].ToArray().Select(id => id + 1000).ToArray()).ToArray();
-        Assert.Equal(0.0, Recall.AtK(NeighbourTable.FromRows(shifted), results, 5));
+        Assert.Equal(0.0, Recall.AtK(NeighborTable.FromRows(shifted), results, 5));
     }
 
     [Theory]
@@ -145,7 +145,7 @@ public class RecallTests
     public void NullArgumentsAreRejected()
     {
         Assert.Throws<ArgumentNullException>(() => Recall.AtK((IReadOnlyList<long[]>)null!, [[1L]], 1));
-        Assert.Throws<ArgumentNullException>(() => Recall.AtK(NeighbourTable.FromRows([[1L]]), (BatchSearchResults)null!, 1));
+        Assert.Throws<ArgumentNullException>(() => Recall.AtK(NeighborTable.FromRows([[1L]]), (BatchSearchResults)null!, 1));
         var error = Assert.Throws<ArgumentException>(() => Recall.AtK([[1L], null!], [[1L], [2L]], 1));
         Assert.StartsWith("rows[1] is null;", error.Message);
     }

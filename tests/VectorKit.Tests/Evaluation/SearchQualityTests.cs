@@ -17,7 +17,7 @@ public class SearchQualityTests
         var random = new Random(21);
         float[] data = BruteForceReference.GaussianVectors(random, 1_000, D);
         float[] queries = BruteForceReference.GaussianVectors(random, 50, D);
-        NeighbourTable truth = GroundTruth.Compute(data, null, queries, D, 10, DistanceMetric.Cosine);
+        NeighborTable truth = GroundTruth.Compute(data, null, queries, D, 10, DistanceMetric.Cosine);
         using var index = new ExactIndex(D, DistanceMetric.Cosine);
 
         var options = new QualityMeasurementOptions { K = 10, BuildBatchSize = 300, Search = new SearchOptions { MaxDegreeOfParallelism = 1 } };
@@ -43,7 +43,7 @@ public class SearchQualityTests
         float[] data = BruteForceReference.IntegerVectors(random, 600, D, 3);
         float[] extra = BruteForceReference.IntegerVectors(random, 600, D, 3);
         float[] queries = BruteForceReference.IntegerVectors(random, 40, D, 3);
-        NeighbourTable truth = GroundTruth.Compute([.. data, .. extra], null, queries, D, 10, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute([.. data, .. extra], null, queries, D, 10, DistanceMetric.SquaredEuclidean);
         using var index = new ExactIndex(D, DistanceMetric.SquaredEuclidean);
 
         SearchQualityReport report = SearchQuality.Measure(index, null, data, queries, truth);
@@ -64,7 +64,7 @@ public class SearchQualityTests
         var random = new Random(23);
         float[] data = BruteForceReference.GaussianVectors(random, 500, D);
         float[] queries = BruteForceReference.GaussianVectors(random, 130, D);
-        NeighbourTable truth = GroundTruth.Compute(data, null, queries, D, 10, DistanceMetric.InnerProduct);
+        NeighborTable truth = GroundTruth.Compute(data, null, queries, D, 10, DistanceMetric.InnerProduct);
         using var index = new ExactIndex(D, DistanceMetric.InnerProduct);
         var seen = new SynchronousProgress<EvaluationProgress>();
 
@@ -82,7 +82,7 @@ public class SearchQualityTests
     public void ACancelledTokenStopsBeforeTheBuild()
     {
         float[] data = BruteForceReference.GaussianVectors(new Random(24), 100, D);
-        NeighbourTable truth = GroundTruth.Compute(data, null, data, D, 10, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, null, data, D, 10, DistanceMetric.SquaredEuclidean);
         using var index = new ExactIndex(D, DistanceMetric.SquaredEuclidean);
         using var cancelled = new CancellationTokenSource();
         cancelled.Cancel();
@@ -95,7 +95,7 @@ public class SearchQualityTests
     public void ArgumentsAreValidated()
     {
         float[] data = BruteForceReference.GaussianVectors(new Random(25), 20, D);
-        NeighbourTable truth = GroundTruth.Compute(data, null, data, D, 10, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, null, data, D, 10, DistanceMetric.SquaredEuclidean);
         using var index = new ExactIndex(D, DistanceMetric.SquaredEuclidean);
 
         var ids = Assert.Throws<ArgumentException>(() => SearchQuality.Measure(index, [1, 2], data, data, truth));
@@ -110,7 +110,7 @@ public class SearchQualityTests
         var narrow = Assert.Throws<ArgumentException>(() => SearchQuality.Measure(index, null, data, data, truth, new QualityMeasurementOptions { K = 12 }));
         Assert.StartsWith("groundTruth holds 10 neighbours per query; recall@12 over 20 vectors needs 12.", narrow.Message);
 
-        var noQueries = Assert.Throws<ArgumentException>(() => SearchQuality.Measure(index, null, data, [], NeighbourTable.FromRows([])));
+        var noQueries = Assert.Throws<ArgumentException>(() => SearchQuality.Measure(index, null, data, [], NeighborTable.FromRows([])));
         Assert.StartsWith("queries is empty;", noQueries.Message);
 
         index.Add(99, data.AsSpan(0, D));

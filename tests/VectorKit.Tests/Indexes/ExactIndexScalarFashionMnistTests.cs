@@ -60,7 +60,7 @@ public sealed class ExactIndexScalarFashionMnistFixture : IDisposable
 
         public float[] Queries { get; }
 
-        public NeighbourTable Truth { get; }
+        public NeighborTable Truth { get; }
 
         public ExactIndex Index { get; }
 

@@ -3,7 +3,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.IO;
 using VectorKit.Reranking;
-using VectorKit.Storage;
+using VectorKit.Persistence;
 using VectorKit.Tests.TestData;
 using Xunit;
 using static VectorKit.Tests.TestData.FullVectorSources;

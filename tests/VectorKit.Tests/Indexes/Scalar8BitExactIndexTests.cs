@@ -6,6 +6,7 @@ using VectorKit.Indexes.Exact;
 using VectorKit.Quantization;
 using VectorKit.Tests.Evaluation;
 using Xunit;
+using VectorKit.Internal;
 
 namespace VectorKit.Tests.Indexes;
 

@@ -1,5 +1,6 @@
 using VectorKit.IO;
 using VectorKit.Reranking;
+using VectorKit.Indexes;
 
 namespace VectorKit.Tests.TestData;
 

@@ -4,7 +4,7 @@ using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Quantization;
-using VectorKit.Reranking;
+using VectorKit.Internal;
 
 namespace VectorKit.Indexes.Exact;
 
@@ -56,7 +56,7 @@ public sealed partial class ExactIndex
         }
 
         // Under cosine the ranges are learnt on unit rows, as they will be encoded (and a zero row is rejected).
-        float[]? normalised = Metric == DistanceMetric.Cosine ? VectorChecks.NormalisedRows(sample, d, nameof(sample), cancellationToken) : null;
+        float[]? normalised = Metric == DistanceMetric.Cosine ? VectorChecks.NormalizedRows(sample, d, nameof(sample), cancellationToken) : null;
         if (_codes is null)
         {
             return;

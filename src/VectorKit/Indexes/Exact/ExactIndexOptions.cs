@@ -75,8 +75,8 @@ public sealed class ExactIndexOptions
 
     /// <summary>
     /// Where re-scoring (a positive <see cref="RescoreDepth"/> under <see cref="VectorStorage.Scalar8Bit"/>) reads full
-    /// vectors: a copy kept in the index's memory (the default), or an <see cref="Reranking.IFullVectorSource"/> attached
-    /// with <see cref="ExactIndex.AttachFullVectors"/>, such as a <see cref="IO.FileVectorSource"/> over the file the
+    /// vectors: a copy kept in the index's memory (the default), or an <see cref="Indexes.IFullVectorSource"/> attached
+    /// with <see cref="ExactIndex.AttachFullVectors"/>, such as a <c>VectorKit.IO.FileVectorSource</c> over the file the
     /// vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's file,
     /// at the cost of one read per re-scored candidate. Ignored when re-scoring is off, and under
     /// <see cref="VectorStorage.Float32"/>, whose rows are the full vectors.

@@ -2,7 +2,7 @@ using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Quantization;
-using VectorKit.Reranking;
+using VectorKit.Internal;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -262,7 +262,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
         VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
         if (Metric == DistanceMetric.Cosine)
         {
-            sample = VectorChecks.NormalisedRows(sample, d, nameof(sample), cancellationToken);
+            sample = VectorChecks.NormalizedRows(sample, d, nameof(sample), cancellationToken);
         }
 
         ScalarQuantizer? scalar = _codes is null ? null : ScalarQuantizer.Train(sample, d);

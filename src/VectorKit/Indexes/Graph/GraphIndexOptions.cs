@@ -208,8 +208,8 @@ public sealed class GraphIndexOptions
 
     /// <summary>
     /// Where re-scoring (a positive <see cref="RescoreDepth"/> under <see cref="VectorStorage.Scalar8Bit"/>) reads full
-    /// vectors: a copy kept in the index's memory (the default), or an <see cref="Reranking.IFullVectorSource"/> attached
-    /// with <see cref="GraphIndex.AttachFullVectors"/>, such as a <see cref="IO.FileVectorSource"/> over the file the
+    /// vectors: a copy kept in the index's memory (the default), or an <see cref="Indexes.IFullVectorSource"/> attached
+    /// with <see cref="GraphIndex.AttachFullVectors"/>, such as a <c>VectorKit.IO.FileVectorSource</c> over the file the
     /// vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's file,
     /// at the cost of one read per re-scored candidate; the graph itself (walks, linking, removal repair,
     /// <see cref="GraphIndex.Compact()"/>) works on the codes either way. Ignored when re-scoring is off, and under

@@ -2,7 +2,7 @@ using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
-using VectorKit.Reranking;
+using VectorKit.Internal;
 
 namespace VectorKit.Indexes.InvertedFile;
 

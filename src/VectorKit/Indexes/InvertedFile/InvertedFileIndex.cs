@@ -3,7 +3,7 @@ using VectorKit.Clustering;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Quantization;
-using VectorKit.Reranking;
+using VectorKit.Internal;
 
 namespace VectorKit.Indexes.InvertedFile;
 
@@ -35,7 +35,7 @@ namespace VectorKit.Indexes.InvertedFile;
 /// added vectors, so the results equal, bit for bit, those of the same index keeping the vectors in memory.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds
 /// and removes wait for running searches and block new ones. A batch search holds the index for its duration.</para>
-/// <para><b>Persistence.</b> <see cref="Storage.IndexFile"/> saves and loads the index, trained or not (options,
+/// <para><b>Persistence.</b> <c>VectorKit.Persistence.IndexFile</c> saves and loads the index, trained or not (options,
 /// centroids, the quantizer, the lists and the full vectors when kept in memory; an external source is neither saved
 /// nor disposed by the index: attach it again after loading).</para>
 /// </remarks>
@@ -259,7 +259,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
         if (Metric == DistanceMetric.Cosine)
         {
-            sample = VectorChecks.NormalisedRows(sample, d, nameof(sample), cancellationToken);
+            sample = VectorChecks.NormalizedRows(sample, d, nameof(sample), cancellationToken);
         }
 
         _lock.EnterWriteLock();

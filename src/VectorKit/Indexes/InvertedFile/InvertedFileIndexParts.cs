@@ -1,4 +1,5 @@
 using VectorKit.Distance;
+using VectorKit.Internal;
 
 namespace VectorKit.Indexes.InvertedFile;
 

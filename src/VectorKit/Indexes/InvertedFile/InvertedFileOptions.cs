@@ -141,8 +141,8 @@ public sealed class InvertedFileOptions
 
     /// <summary>
     /// Where re-scoring (a positive <see cref="RescoreDepth"/> under compressed storage) reads full vectors: a copy kept
-    /// in the index's memory (the default), or an <see cref="Reranking.IFullVectorSource"/> attached with
-    /// <see cref="InvertedFileIndex.AttachFullVectors"/>, such as a <see cref="IO.FileVectorSource"/> over the file the
+    /// in the index's memory (the default), or an <see cref="Indexes.IFullVectorSource"/> attached with
+    /// <see cref="InvertedFileIndex.AttachFullVectors"/>, such as a <c>VectorKit.IO.FileVectorSource</c> over the file the
     /// vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's file,
     /// at the cost of one read per re-scored candidate. Ignored when re-scoring is off.
     /// </summary>

@@ -41,7 +41,7 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
         return sample;
     });
 
-    private static readonly Lazy<NeighbourTable> s_truth = new(() =>
+    private static readonly Lazy<NeighborTable> s_truth = new(() =>
         GroundTruth.Compute(FashionMnist.TrainImages.Data, default, s_queries.Value, 784, K, DistanceMetric.SquaredEuclidean));
 
     [DataFact]
@@ -68,7 +68,7 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
         VectorSet train = FashionMnist.TrainImages;
         using var exact = new VectorKit.Indexes.Exact.ExactIndex(784, DistanceMetric.SquaredEuclidean);
         exact.AddRange(RowNumbers(train.Count), train.Data);
-        NeighbourTable truth = NeighbourTable.FromResults(exact.SearchBatch(s_queries.Value, K, options));
+        NeighborTable truth = NeighborTable.FromResults(exact.SearchBatch(s_queries.Value, K, options));
 
         // At default settings (the cost model chooses the walk or the scan), and with the walk forced.
         GraphIndex graph = s_graph.Value;
@@ -101,7 +101,7 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
         using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { BuildParallelism = 2 });
         graph.AddRange(RowNumbers(n), train.Data);
         float[] queries = s_queries.Value.AsSpan(0, 1000 * d).ToArray();
-        NeighbourTable truth = GroundTruth.Compute(train.Data, default, queries, d, K, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(train.Data, default, queries, d, K, DistanceMetric.SquaredEuclidean);
         double before = Recall.AtK(truth, graph.SearchBatch(queries, K), K);
 
         var random = new Random(2017);
@@ -119,7 +119,7 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
             train.Row((int)liveIds[i]).CopyTo(liveData.AsSpan(i * d, d));
         }
 
-        NeighbourTable liveTruth = GroundTruth.Compute(liveData, liveIds, queries, d, K, DistanceMetric.SquaredEuclidean);
+        NeighborTable liveTruth = GroundTruth.Compute(liveData, liveIds, queries, d, K, DistanceMetric.SquaredEuclidean);
         BatchSearchResults after = graph.SearchBatch(queries, K);
         double afterRecall = Recall.AtK(liveTruth, after, K);
         output.WriteLine($"recall@10 at the default width: {before:F4} before, {afterRecall:F4} after removing 30 % one by one; {graph.IncompleteRemovals} of {removed.Length} removals left a waypoint; {graph.FullPasses} global passes");

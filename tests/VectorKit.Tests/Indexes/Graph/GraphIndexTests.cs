@@ -56,7 +56,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         // One build thread: the graph, and so the recall, is then the same on every run (a parallel build's
         // interleaving varies the links, and recall near the bound would make the test flaky).
         using var graph = Build(metric, d, data, new GraphIndexOptions { BuildParallelism = 1 });
-        NeighbourTable truth = GroundTruth.Compute(data, default, queries, d, K, metric);
+        NeighborTable truth = GroundTruth.Compute(data, default, queries, d, K, metric);
         double atDefault = Recall.AtK(truth, graph.SearchBatch(queries, K), K);
         double recall = Recall.AtK(truth, graph.SearchBatch(queries, K, new SearchOptions { SearchWidth = 128 }), K);
         GraphChecks.AssertSound(graph);
@@ -98,7 +98,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         var gone = removed.ToHashSet();
         long[] liveIds = Ids(n).Where(id => !gone.Contains(id)).ToArray();
         float[] liveData = liveIds.SelectMany(id => data.AsSpan((int)id * d, d).ToArray()).ToArray();
-        NeighbourTable liveTruth = GroundTruth.Compute(liveData, liveIds, queries, d, K, DistanceMetric.SquaredEuclidean);
+        NeighborTable liveTruth = GroundTruth.Compute(liveData, liveIds, queries, d, K, DistanceMetric.SquaredEuclidean);
         BatchSearchResults after = graph.SearchBatch(queries, K, searchWidth);
         double afterRecall = Recall.AtK(liveTruth, after, K);
         output.WriteLine($"recall@10 at the default width: {before:F4} before, {afterRecall:F4} after removing 30 %");

@@ -37,7 +37,7 @@ public class Scalar8BitGraphFashionMnistTests(ITestOutputHelper output)
             test.Row(i * 5).CopyTo(queries.AsSpan(i * d, d));
         }
 
-        NeighbourTable truth = GroundTruth.Compute(train.Data, default, queries, d, K, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(train.Data, default, queries, d, K, DistanceMetric.SquaredEuclidean);
 
         // Full vectors kept (depth 32), so one graph answers both with and without re-scoring.
         using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { BuildParallelism = 2, Storage = VectorStorage.Scalar8Bit, RescoreDepth = 32 });

@@ -4,7 +4,7 @@ using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.IO;
 using VectorKit.Reranking;
-using VectorKit.Storage;
+using VectorKit.Persistence;
 using VectorKit.Tests.IO;
 using VectorKit.Tests.TestData;
 using Xunit;

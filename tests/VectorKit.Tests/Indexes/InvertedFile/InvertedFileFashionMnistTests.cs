@@ -67,7 +67,7 @@ public sealed class InvertedFileFashionMnistFixture : IDisposable
 
         public float[] Queries { get; }
 
-        public NeighbourTable Truth { get; }
+        public NeighborTable Truth { get; }
 
         public InvertedFileIndex Flat { get; }
 

@@ -9,6 +9,7 @@ using VectorKit.Quantization;
 using VectorKit.Tests.Evaluation;
 using VectorKit.Tests.TestData;
 using Xunit;
+using VectorKit.Internal;
 
 namespace VectorKit.Tests.Indexes.InvertedFile;
 
@@ -100,7 +101,7 @@ public class InvertedFileIndexTests
         float[] queries = ClusteredData.Generate(100, D, 40, 0.3f, seed: 9);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
         using InvertedFileIndex index = Build(storage, metric, D, data, ids, lists: 32, depth: 50);
-        NeighbourTable truth = GroundTruth.Compute(data, ids, queries, D, 10, metric);
+        NeighborTable truth = GroundTruth.Compute(data, ids, queries, D, 10, metric);
         double previous = -1;
         foreach (int probes in new[] { 1, 4, 32 })
         {
@@ -337,7 +338,7 @@ public class InvertedFileIndexTests
         const int D = 16, N = 2000;
         float[] data = ClusteredData.Generate(N, D, 20, 0.3f, seed: 40);
         float[] queries = ClusteredData.Generate(50, D, 20, 0.3f, seed: 41);
-        NeighbourTable truth = GroundTruth.Compute(data, default, queries, D, 10, DistanceMetric.SquaredEuclidean);
+        NeighborTable truth = GroundTruth.Compute(data, default, queries, D, 10, DistanceMetric.SquaredEuclidean);
         using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 16, Storage = ListStorage.Scalar8Bit, RescoreDepth = 40 });
         index.Train(data);
         SearchQualityReport report = SearchQuality.Measure(index, default, data, queries, truth, new QualityMeasurementOptions { K = 10, Search = new SearchOptions { SearchWidth = 16 } });

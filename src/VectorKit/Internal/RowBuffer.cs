@@ -1,0 +1,108 @@
+using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
+
+namespace VectorKit.Internal;
+
+/// <summary>
+/// Rows of <typeparamref name="T"/> (float32 vectors, or byte codes) in one contiguous, 64-byte-aligned native block,
+/// row <c>s</c> at <c>s × width</c>: scans stream it front to back, and 10⁷ rows of 768 floats (over 2³¹ elements)
+/// still fit, which a managed array would not.
+/// </summary>
+/// <remarks>
+/// Not thread-safe on its own: the owning index serialises growth against readers. Growth moves the block, so no
+/// reference into it may be held across a call that can grow it. Freed by <see cref="Dispose"/>, or by the finalizer
+/// if the owner was never disposed.
+/// </remarks>
+internal abstract unsafe class RowBuffer<T> : IDisposable
+    where T : unmanaged
+{
+    private const nuint Alignment = 64;
+    private T* _rows;
+
+    protected RowBuffer(int dimension, int initialCapacity)
+    {
+        Dimension = dimension;
+        if (initialCapacity > 0)
+        {
+            Resize(initialCapacity);
+        }
+    }
+
+    ~RowBuffer() => Free();
+
+    /// <summary>Elements per row (for codes, bytes per code).</summary>
+    public int Dimension { get; }
+
+    /// <summary>Rows the block can hold without moving.</summary>
+    public int Capacity { get; private set; }
+
+    public long Bytes => (long)Capacity * Dimension * sizeof(T);
+
+    /// <summary>The first element of row <paramref name="slot"/>; valid until the buffer next grows.</summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public ref T Row(int slot) => ref Unsafe.AsRef<T>(_rows + ((nint)slot * Dimension));
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public Span<T> RowSpan(int slot) => new(_rows + ((nint)slot * Dimension), Dimension);
+
+    /// <summary>Rows [0, count) as one span, when that fits a span (under 2³¹ elements).</summary>
+    public Span<T> Rows(int count) => new(_rows, checked(count * Dimension));
+
+    /// <summary>Grows to hold at least <paramref name="required"/> rows: by half again, or exactly when one batch needs more.</summary>
+    public void EnsureCapacity(int required)
+    {
+        if (required > Capacity)
+        {
+            long grown = Capacity + ((long)Capacity / 2);
+            Resize((int)Math.Min(Math.Max(required, grown), Array.MaxLength));
+        }
+    }
+
+    /// <summary>Shrinks (or grows) to exactly <paramref name="capacity"/> rows, keeping the first rows' content.</summary>
+    public void Resize(int capacity)
+    {
+        nuint bytes = checked((nuint)capacity * (nuint)Dimension * (nuint)sizeof(T));
+        if (capacity == 0)
+        {
+            Free();
+            return;
+        }
+
+        // AlignedRealloc keeps min(old, new) bytes, so growing never loses rows.
+        long oldBytes = Bytes;
+        _rows = (T*)NativeMemory.AlignedRealloc(_rows, bytes, Alignment);
+        Capacity = capacity;
+        long delta = Bytes - oldBytes;
+        if (delta > 0)
+        {
+            GC.AddMemoryPressure(delta);
+        }
+        else if (delta < 0)
+        {
+            GC.RemoveMemoryPressure(-delta);
+        }
+    }
+
+    public void CopyRow(int from, int to) => RowSpan(from).CopyTo(RowSpan(to));
+
+    public void Dispose()
+    {
+        Free();
+        GC.SuppressFinalize(this);
+    }
+
+    private void Free()
+    {
+        if (_rows != null)
+        {
+            NativeMemory.AlignedFree(_rows);
+            _rows = null;
+            if (Bytes > 0)
+            {
+                GC.RemoveMemoryPressure(Bytes);
+            }
+
+            Capacity = 0;
+        }
+    }
+}

@@ -1,0 +1,48 @@
+using VectorKit.Indexes;
+
+namespace VectorKit.Persistence;
+
+/// <summary>
+/// Saves and loads one index kind: its header fields and its sections. A new index kind plugs in by adding a codec
+/// (with a new <see cref="IndexKind"/> value and new <see cref="SectionId"/> numbers) and registering it in
+/// <see cref="IndexCodecs"/>; the file layout, checksums, caps and atomic saving are shared.
+/// </summary>
+internal abstract class IndexCodec
+{
+    /// <summary>The kind this codec writes into the header and answers for on load.</summary>
+    public abstract IndexKind Kind { get; }
+
+    /// <summary>The concrete index type this codec saves and loads.</summary>
+    public abstract Type IndexType { get; }
+
+    /// <summary>
+    /// Writes the header and every section of <paramref name="index"/>, holding whatever lock gives the index a
+    /// consistent state for the duration.
+    /// </summary>
+    public abstract void Save(IVectorIndex index, IndexFileWriter writer);
+
+    /// <summary>
+    /// Reads the sections after the header was verified (common fields: dimension, counts, metric, section sizes
+    /// against the file length) and returns the working index; anything invalid raises <see cref="IndexFileException"/>.
+    /// </summary>
+    public abstract IVectorIndex Load(IndexHeader header, IndexFileReader reader);
+
+    // The compressed kinds' field for where re-scoring reads full vectors. Written only for an external source
+    // (absent: in the index's memory), so in-memory files keep their bytes.
+    private const string FullVectorLocationField = "full-vector-location";
+
+    /// <summary>Records <paramref name="location"/> in the header when it is not the default (in the index's memory).</summary>
+    protected static void WriteFullVectorLocation(IndexHeader header, FullVectorLocation location)
+    {
+        if (location != FullVectorLocation.InIndexMemory)
+        {
+            header.Integers[FullVectorLocationField] = (int)location;
+        }
+    }
+
+    /// <summary>The recorded location: in the index's memory when the field is absent (every file written before it existed).</summary>
+    protected static FullVectorLocation ReadFullVectorLocation(IndexHeader header)
+        => header.Integers.ContainsKey(FullVectorLocationField)
+            ? (FullVectorLocation)header.Integer(FullVectorLocationField, (int)FullVectorLocation.InIndexMemory, (int)FullVectorLocation.ExternalSource)
+            : FullVectorLocation.InIndexMemory;
+}

@@ -1,0 +1,312 @@
+using System.Buffers.Binary;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
+
+namespace VectorKit.Persistence;
+
+/// <summary>
+/// Saves indexes to, and loads them from, files and streams in VectorKit's own versioned format: a checksummed
+/// MessagePack header, then raw little-endian sections (ids, vectors, links), each with its own XXH3-64 checksum.
+/// Every index kind of the library can be saved (<see cref="ExactIndex"/>, <see cref="GraphIndex"/>,
+/// <see cref="InvertedFileIndex"/>).
+/// </summary>
+/// <remarks>
+/// <para><b>Atomic saving.</b> <see cref="Save(IVectorIndex, string, CancellationToken)"/> writes a temporary file in
+/// the target's folder, flushes it to the disk, then renames it over the target: an exception, a cancellation or a
+/// crash part-way leaves the previous file as it was.</para>
+/// <para><b>Consistency.</b> A save sees one consistent state of the index. An exact index lets searches run during
+/// the save and holds writes back (so does an inverted file); a graph index holds searches and writes back for the duration (its adds link
+/// under the shared lock, so nothing weaker gives a consistent graph).</para>
+/// <para><b>Safe loading.</b> Loading verifies the magic number, the format version, every checksum, every size
+/// against <see cref="IndexLoadOptions"/> and against the bytes that remain, and the structure of what it loads;
+/// any failure raises <see cref="IndexFileException"/> naming the problem and where it is, and nothing is kept.
+/// Use <see cref="IndexLoadOptions.Untrusted"/> for files from elsewhere.</para>
+/// <para><b>What is restored.</b> Dimension, metric, ids, vectors (unit length under cosine, as stored), and for a
+/// graph its options (except <see cref="GraphIndexOptions.InitialCapacity"/>, a build-time hint), links, levels,
+/// entry point and removed slots, and for an inverted file its options, training state, centroids, quantizer, lists
+/// and kept full vectors, so searches return exactly what the saved index returned.</para>
+/// <para><b>Async.</b> The async methods run the same work on a thread-pool thread (the stream is read or written
+/// synchronously in 1 MiB blocks, checksummed block by block) and check the token between blocks.</para>
+/// <para><b>Thread safety.</b> All methods are thread-safe; several loads and saves may run at once.</para>
+/// </remarks>
+public static class IndexFile
+{
+    /// <summary>Writes <paramref name="index"/> to a stream, from its current position.</summary>
+    /// <param name="index">An index of a kind the library saves.</param>
+    /// <param name="destination">A writable stream; it is flushed, not closed.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks; a cancelled save leaves a partial stream.</param>
+    /// <exception cref="ArgumentNullException">An argument is null.</exception>
+    /// <exception cref="ArgumentException">The index is of a type this library cannot save, or the stream is not writable.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="IOException">The stream failed.</exception>
+    public static void Save(IVectorIndex index, Stream destination, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        ArgumentNullException.ThrowIfNull(destination);
+        if (!destination.CanWrite)
+        {
+            ThrowHelper.ThrowArgument(nameof(destination), "The destination stream is not writable.");
+        }
+
+        IndexCodec codec = CodecFor(index);
+        CheckByteOrder();
+
+        // Small writes (frames, link blocks) are gathered; large ones pass straight through to the stream.
+        var buffered = new BufferedStream(destination, 1 << 20);
+        codec.Save(index, new IndexFileWriter(buffered, cancellationToken));
+        buffered.Flush();
+    }
+
+    /// <summary>Writes <paramref name="index"/> to a file, atomically: the previous file stays intact until the new one is complete and on disk.</summary>
+    /// <param name="index">An index of a kind the library saves.</param>
+    /// <param name="path">The file to create or replace. Its folder must exist.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks; a cancelled save leaves the previous file as it was.</param>
+    /// <remarks>
+    /// The data goes to a hidden temporary file beside <paramref name="path"/>, which is flushed to the disk and then
+    /// renamed over <paramref name="path"/> (a single rename, atomic on the same volume). On failure the temporary
+    /// file is deleted. The folder entry itself is not flushed: after a power cut right after the rename, either the
+    /// old or the new file is found, never a mix.
+    /// </remarks>
+    /// <exception cref="ArgumentNullException">An argument is null.</exception>
+    /// <exception cref="ArgumentException">The index is of a type this library cannot save, or the path is empty.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="IOException">Writing or renaming failed.</exception>
+    /// <exception cref="UnauthorizedAccessException">The folder or the target is not writable.</exception>
+    public static void Save(IVectorIndex index, string path, CancellationToken cancellationToken = default)
+        => SaveAtomically(index, path, static stream => stream, cancellationToken);
+
+    /// <summary>Writes <paramref name="index"/> to a stream on a thread-pool thread; see <see cref="Save(IVectorIndex, Stream, CancellationToken)"/>.</summary>
+    /// <param name="index">An index of a kind the library saves.</param>
+    /// <param name="destination">A writable stream; it is flushed, not closed.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>A task that completes when the index is written.</returns>
+    /// <exception cref="ArgumentNullException">An argument is null.</exception>
+    public static Task SaveAsync(IVectorIndex index, Stream destination, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        ArgumentNullException.ThrowIfNull(destination);
+        return Task.Run(() => Save(index, destination, cancellationToken), cancellationToken);
+    }
+
+    /// <summary>Writes <paramref name="index"/> to a file atomically, on a thread-pool thread; see <see cref="Save(IVectorIndex, string, CancellationToken)"/>.</summary>
+    /// <param name="index">An index of a kind the library saves.</param>
+    /// <param name="path">The file to create or replace.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks; a cancelled save leaves the previous file as it was.</param>
+    /// <returns>A task that completes when the file is in place.</returns>
+    /// <exception cref="ArgumentNullException">An argument is null.</exception>
+    public static Task SaveAsync(IVectorIndex index, string path, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        ArgumentNullException.ThrowIfNull(path);
+        return Task.Run(() => Save(index, path, cancellationToken), cancellationToken);
+    }
+
+    /// <summary>Reads an index of any kind from a stream, from its current position; reads no further than the index's last byte.</summary>
+    /// <param name="source">A readable stream. When it is seekable, every declared size is checked against its length before allocating.</param>
+    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>. Use <see cref="IndexLoadOptions.Untrusted"/> for files from elsewhere.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>The loaded index; the caller owns (and disposes) it. Its concrete type is given by the file (<see cref="ExactIndex"/>, <see cref="GraphIndex"/> or <see cref="InvertedFileIndex"/>).</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="source"/> is null.</exception>
+    /// <exception cref="IndexFileException">The data is not an index file, is damaged, truncated or inconsistent, exceeds a cap, or has an unsupported format version.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="IOException">The stream failed.</exception>
+    public static IVectorIndex Load(Stream source, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(source);
+        return LoadCore(source, options, null, requireEnd: false, cancellationToken);
+    }
+
+    /// <summary>Reads an index of any kind from a file; the file must hold exactly one index and nothing after it.</summary>
+    /// <param name="path">The file.</param>
+    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
+    /// <exception cref="IndexFileException">The file is not an index file, is damaged, truncated or inconsistent, exceeds a cap, or has an unsupported format version.</exception>
+    /// <exception cref="FileNotFoundException">The file does not exist.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="IOException">Reading failed.</exception>
+    public static IVectorIndex Load(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
+        => LoadFile(path, options, null, cancellationToken);
+
+    /// <summary>Reads an index of a known type from a stream; fails before reading the sections when the file holds another kind.</summary>
+    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/>, <see cref="InvertedFileIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
+    /// <param name="source">A readable stream.</param>
+    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="source"/> is null.</exception>
+    /// <exception cref="IndexFileException">The file holds another kind of index, or as for <see cref="Load(Stream, IndexLoadOptions?, CancellationToken)"/>.</exception>
+    public static TIndex Load<TIndex>(Stream source, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
+        where TIndex : class, IVectorIndex
+    {
+        ArgumentNullException.ThrowIfNull(source);
+        return (TIndex)LoadCore(source, options, typeof(TIndex), requireEnd: false, cancellationToken);
+    }
+
+    /// <summary>Reads an index of a known type from a file; fails before reading the sections when the file holds another kind.</summary>
+    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/>, <see cref="InvertedFileIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
+    /// <param name="path">The file.</param>
+    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
+    /// <exception cref="IndexFileException">The file holds another kind of index, or as for <see cref="Load(string, IndexLoadOptions?, CancellationToken)"/>.</exception>
+    public static TIndex Load<TIndex>(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
+        where TIndex : class, IVectorIndex
+        => (TIndex)LoadFile(path, options, typeof(TIndex), cancellationToken);
+
+    /// <summary>Reads an index from a stream on a thread-pool thread; see <see cref="Load(Stream, IndexLoadOptions?, CancellationToken)"/>.</summary>
+    /// <param name="source">A readable stream.</param>
+    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="source"/> is null.</exception>
+    public static Task<IVectorIndex> LoadAsync(Stream source, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(source);
+        return Task.Run(() => Load(source, options, cancellationToken), cancellationToken);
+    }
+
+    /// <summary>Reads an index from a file on a thread-pool thread; see <see cref="Load(string, IndexLoadOptions?, CancellationToken)"/>.</summary>
+    /// <param name="path">The file.</param>
+    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
+    public static Task<IVectorIndex> LoadAsync(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(path);
+        return Task.Run(() => Load(path, options, cancellationToken), cancellationToken);
+    }
+
+    /// <summary>Reads an index of a known type from a file on a thread-pool thread; see <see cref="Load{TIndex}(string, IndexLoadOptions?, CancellationToken)"/>.</summary>
+    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/>, <see cref="InvertedFileIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
+    /// <param name="path">The file.</param>
+    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
+    public static Task<TIndex> LoadAsync<TIndex>(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
+        where TIndex : class, IVectorIndex
+    {
+        ArgumentNullException.ThrowIfNull(path);
+        return Task.Run(() => Load<TIndex>(path, options, cancellationToken), cancellationToken);
+    }
+
+    /// <summary>Atomic save with a hook that wraps the file stream (tests inject failures through it).</summary>
+    internal static void SaveAtomically(IVectorIndex index, string path, Func<Stream, Stream> wrap, CancellationToken cancellationToken)
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        ArgumentException.ThrowIfNullOrEmpty(path);
+        CodecFor(index);
+        string target = Path.GetFullPath(path);
+        string folder = Path.GetDirectoryName(target) ?? ".";
+        string temporary = Path.Combine(folder, $".{Path.GetFileName(target)}.{Guid.NewGuid():N}.tmp");
+        try
+        {
+            using (var file = new FileStream(temporary, FileMode.CreateNew, FileAccess.Write, FileShare.None, bufferSize: 0))
+            {
+                Stream stream = wrap(file);
+                Save(index, stream, cancellationToken);
+                stream.Flush();
+                file.Flush(flushToDisk: true);
+            }
+
+            // A token cancelled while the last block was written still wins: the target is not replaced.
+            cancellationToken.ThrowIfCancellationRequested();
+
+            File.Move(temporary, target, overwrite: true);
+        }
+        catch
+        {
+            TryDelete(temporary);
+            throw;
+        }
+    }
+
+    private static IVectorIndex LoadFile(string path, IndexLoadOptions? options, Type? expected, CancellationToken cancellationToken)
+    {
+        ArgumentNullException.ThrowIfNull(path);
+        using var file = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.Read, bufferSize: 0, FileOptions.SequentialScan);
+        return LoadCore(file, options, expected, requireEnd: true, cancellationToken);
+    }
+
+    private static IVectorIndex LoadCore(Stream source, IndexLoadOptions? options, Type? expected, bool requireEnd, CancellationToken cancellationToken)
+    {
+        if (!source.CanRead)
+        {
+            ThrowHelper.ThrowArgument(nameof(source), "The source stream is not readable.");
+        }
+
+        CheckByteOrder();
+        var reader = new IndexFileReader(source, options ?? IndexLoadOptions.Default, cancellationToken);
+        try
+        {
+            IndexHeader header = reader.ReadHeader();
+            IndexCodec codec = IndexCodecs.ForKind(header.Kind)
+                ?? throw IndexHeader.Malformed($"the index kind is {(int)header.Kind}, which this library does not know (it knows {string.Join(", ", Enum.GetValues<IndexKind>().Select(k => $"{(int)k} = {k}"))})");
+            if (expected is not null && !expected.IsAssignableFrom(codec.IndexType))
+            {
+                throw new IndexFileException($"Index file holds {Article(codec.IndexType.Name)}; {Article(expected.Name)} was requested.", "header", FileLayout.PreambleBytes);
+            }
+
+            IVectorIndex index = codec.Load(header, reader);
+            try
+            {
+                reader.Finish(requireEnd);
+            }
+            catch
+            {
+                index.Dispose();
+                throw;
+            }
+
+            return index;
+        }
+        catch (OverflowException e)
+        {
+            throw new IndexFileException($"Index file declares sizes that overflow (in {reader.SectionName}, near byte {reader.Position}).", reader.SectionKey, reader.Position, e);
+        }
+    }
+
+    private static string Article(string name) => ("AEIOU".Contains(name[0], StringComparison.Ordinal) ? "an " : "a ") + name;
+
+    private static IndexCodec CodecFor(IVectorIndex index)
+    {
+        IndexCodec? codec = IndexCodecs.ForIndex(index);
+        if (codec is null)
+        {
+            ThrowHelper.ThrowArgument(nameof(index), $"An index of type {index.GetType().Name} cannot be saved; the library saves {IndexCodecs.SupportedTypes}.");
+        }
+
+        return codec;
+    }
+
+    // The sections are raw little-endian blocks copied straight to and from memory.
+    private static void CheckByteOrder()
+    {
+        if (!BitConverter.IsLittleEndian)
+        {
+            throw new PlatformNotSupportedException("Index files are read and written on little-endian processors only.");
+        }
+    }
+
+    private static void TryDelete(string path)
+    {
+        try
+        {
+            File.Delete(path);
+        }
+        catch (IOException)
+        {
+        }
+        catch (UnauthorizedAccessException)
+        {
+        }
+    }
+}

@@ -1,0 +1,297 @@
+using VectorKit.Indexes;
+using VectorKit.Indexes.InvertedFile;
+using VectorKit.Quantization;
+using VectorKit.Internal;
+
+namespace VectorKit.Persistence;
+
+/// <summary>
+/// The inverted-file index: its options and whether it is trained as header fields; sections centroids, the
+/// quantizer (product codebooks or scalar ranges, under compressed storage), list lengths, ids, list codes and the
+/// full vectors (when kept in memory), in that order; an index reading full vectors from an external source records
+/// that in the field <c>full-vector-location</c> and stores no vectors. Entries are stored in list order; an untrained index stores empty
+/// centroid and quantizer sections and no entries.
+/// </summary>
+internal sealed class InvertedFileIndexCodec : IndexCodec
+{
+    private const string ListCount = "list-count";
+    private const string ListsProbed = "lists-probed";
+    private const string Storage = "list-storage";
+    private const string ProductCodeBytes = "product-code-bytes";
+    private const string RescoreDepth = "rescore-depth";
+    private const string TrainingIterations = "training-iterations";
+    private const string TrainingSampleSize = "training-sample-size";
+    private const string Seed = "seed";
+    private const string TrainingParallelism = "training-parallelism";
+    private const string Trained = "trained";
+
+    // Optional (files written before rotations existed lack it): absent means no rotation.
+    private const string ProductRotation = "product-rotation";
+
+    public override IndexKind Kind => IndexKind.InvertedFile;
+
+    public override Type IndexType => typeof(InvertedFileIndex);
+
+    public override void Save(IVectorIndex index, IndexFileWriter writer)
+    {
+        var inverted = (InvertedFileIndex)index;
+        int codeBytes = inverted.CodeBytesPerVector;
+        inverted.ExportParts(parts =>
+        {
+            InvertedFileOptions options = parts.Options;
+            int d = parts.Dimension;
+            int count = parts.Count;
+            var header = new IndexHeader { Kind = Kind, Metric = parts.Metric, Dimension = d, Count = count, Rows = count };
+            header.Integers[ListCount] = options.ListCount;
+            header.Integers[ListsProbed] = options.ListsProbed;
+            header.Integers[Storage] = (int)options.Storage;
+            header.Integers[ProductCodeBytes] = options.ProductCodeBytes;
+            header.Integers[RescoreDepth] = options.RescoreDepth;
+            header.Integers[TrainingIterations] = options.TrainingIterations;
+            // 0 stands for "not set" (64 rows per list).
+            header.Integers[TrainingSampleSize] = options.TrainingSampleSize ?? 0;
+            header.Integers[Seed] = options.Seed;
+            header.Integers[TrainingParallelism] = options.TrainingParallelism;
+            header.Integers[Trained] = parts.Trained ? 1 : 0;
+            WriteFullVectorLocation(header, options.FullVectors);
+
+            if (options.ProductCodeRotation != SubspaceRotation.None)
+            {
+                // Written only when set, so files without a rotation stay byte-identical to (and loadable by) older readers.
+                header.Integers[ProductRotation] = (int)options.ProductCodeRotation;
+            }
+
+            bool rotated = options.Storage == ListStorage.ProductCodes && options.ProductCodeRotation != SubspaceRotation.None;
+            header.Sections.Add(new SectionEntry((uint)SectionId.Centroids, 0, checked((long)parts.Centroids.Length * sizeof(float))));
+            if (options.Storage == ListStorage.ProductCodes)
+            {
+                header.Sections.Add(new SectionEntry((uint)SectionId.ProductCodebooks, 0, checked((long)(parts.ProductCodewords?.Length ?? 0) * sizeof(float))));
+
+                // Not skippable: a reader that ignored the rotation would misread every code.
+                if (rotated)
+                {
+                    header.Sections.Add(new SectionEntry((uint)SectionId.ProductRotation, 0, checked((long)(parts.ProductRotation?.Length ?? 0) * sizeof(float))));
+                }
+            }
+            else if (options.Storage == ListStorage.Scalar8Bit)
+            {
+                header.Sections.Add(new SectionEntry((uint)SectionId.ScalarRanges, 0, checked((long)(parts.ScalarRanges?.Length ?? 0) * sizeof(float))));
+            }
+
+            header.Sections.Add(new SectionEntry((uint)SectionId.ListLengths, 0, checked((long)parts.ListLengths.Length * sizeof(int))));
+            header.Sections.Add(new SectionEntry((uint)SectionId.Ids, 0, checked((long)count * sizeof(long))));
+            header.Sections.Add(new SectionEntry((uint)SectionId.ListCodes, 0, checked((long)count * codeBytes)));
+            if (parts.FullVectors is not null)
+            {
+                header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, checked((long)count * d * sizeof(float))));
+            }
+
+            writer.WriteHeader(header);
+            writer.BeginSection(SectionId.Centroids);
+            writer.Write<float>(parts.Centroids);
+            writer.EndSection();
+            if (options.Storage == ListStorage.ProductCodes)
+            {
+                writer.BeginSection(SectionId.ProductCodebooks);
+                writer.Write<float>(parts.ProductCodewords);
+                writer.EndSection();
+                if (rotated)
+                {
+                    writer.BeginSection(SectionId.ProductRotation);
+                    writer.Write<float>(parts.ProductRotation);
+                    writer.EndSection();
+                }
+            }
+            else if (options.Storage == ListStorage.Scalar8Bit)
+            {
+                writer.BeginSection(SectionId.ScalarRanges);
+                writer.Write<float>(parts.ScalarRanges);
+                writer.EndSection();
+            }
+
+            writer.BeginSection(SectionId.ListLengths);
+            writer.Write<int>(parts.ListLengths);
+            writer.EndSection();
+            writer.BeginSection(SectionId.Ids);
+            writer.Write<long>(parts.Ids);
+            writer.EndSection();
+            writer.BeginSection(SectionId.ListCodes);
+            for (int list = 0; list < parts.ListLengths.Length; list++)
+            {
+                writer.Write(parts.ListCodes[list].AsSpan(0, checked(parts.ListLengths[list] * codeBytes)));
+            }
+
+            writer.EndSection();
+            if (parts.FullVectors is VectorBuffer full)
+            {
+                writer.BeginSection(SectionId.Vectors);
+                foreach (int row in parts.FullRowOrder!)
+                {
+                    writer.Write<float>(full.RowSpan(row));
+                }
+
+                writer.EndSection();
+            }
+
+            writer.Finish();
+            return 0;
+        });
+    }
+
+    public override IVectorIndex Load(IndexHeader header, IndexFileReader reader)
+    {
+        if (header.Count != header.Rows)
+        {
+            throw IndexHeader.Malformed($"an inverted file stores only live entries, but it declares {header.Count} items in {header.Rows} rows");
+        }
+
+        int d = header.Dimension;
+        int count = (int)header.Count;
+        int lists = (int)header.Integer(ListCount, 1, 1 << 20);
+        var storage = (ListStorage)header.Integer(Storage, (int)ListStorage.Float32, (int)ListStorage.Scalar8Bit);
+        int productCodeBytes = (int)header.Integer(ProductCodeBytes, 1, 4096);
+        int parallelism = (int)header.Integer(TrainingParallelism, -1, int.MaxValue);
+        if (parallelism == 0)
+        {
+            throw IndexHeader.Malformed($"the field '{TrainingParallelism}' is 0; expected -1 or a positive thread count");
+        }
+
+        int sampleSize = (int)header.Integer(TrainingSampleSize, 0, int.MaxValue);
+        FullVectorLocation location = ReadFullVectorLocation(header);
+        var rotation = header.Integers.ContainsKey(ProductRotation)
+            ? (SubspaceRotation)header.Integer(ProductRotation, (int)SubspaceRotation.None, (int)SubspaceRotation.VarianceBalanced)
+            : SubspaceRotation.None;
+        var options = new InvertedFileOptions
+        {
+            ListCount = lists,
+            ListsProbed = (int)header.Integer(ListsProbed, 1, int.MaxValue),
+            Storage = storage,
+            ProductCodeBytes = productCodeBytes,
+            RescoreDepth = (int)header.Integer(RescoreDepth, 0, int.MaxValue),
+            TrainingIterations = (int)header.Integer(TrainingIterations, 0, 10_000),
+            TrainingSampleSize = sampleSize == 0 ? null : sampleSize,
+            Seed = (int)header.Integer(Seed, int.MinValue, int.MaxValue),
+            TrainingParallelism = parallelism,
+            FullVectors = location,
+            ProductCodeRotation = rotation,
+        };
+        bool trained = header.Integer(Trained, 0, 1) == 1;
+        if (!trained && count != 0)
+        {
+            throw IndexHeader.Malformed($"an untrained inverted file holds no vectors, but it declares {count}");
+        }
+
+        if (storage == ListStorage.ProductCodes && d % productCodeBytes != 0)
+        {
+            throw IndexHeader.Malformed($"the field '{ProductCodeBytes}' is {productCodeBytes}, which does not divide the dimension {d}");
+        }
+
+        int codeBytes = storage switch
+        {
+            ListStorage.Float32 => checked(d * sizeof(float)),
+            ListStorage.ProductCodes => productCodeBytes,
+            _ => ScalarQuantizer.PaddedLength(d),
+        };
+        bool keepsFull = options.KeepsFullInMemory;
+
+        reader.OpenSection(SectionId.Centroids);
+        float[] centroids = reader.ReadArray<float>(trained ? checked(lists * d) : 0);
+        reader.CloseSection();
+        float[]? codewords = null;
+        float[]? rotationMatrix = null;
+        float[]? ranges = null;
+        if (storage == ListStorage.ProductCodes)
+        {
+            reader.OpenSection(SectionId.ProductCodebooks);
+            codewords = reader.ReadArray<float>(trained ? checked(d * ProductQuantizer.CodewordsPerSubspace) : 0);
+            reader.CloseSection();
+            if (rotation != SubspaceRotation.None)
+            {
+                reader.OpenSection(SectionId.ProductRotation);
+                rotationMatrix = reader.ReadArray<float>(trained ? checked(d * d) : 0);
+                reader.CloseSection();
+            }
+        }
+        else if (storage == ListStorage.Scalar8Bit)
+        {
+            reader.OpenSection(SectionId.ScalarRanges);
+            ranges = reader.ReadArray<float>(trained ? 2 * d : 0);
+            reader.CloseSection();
+        }
+
+        reader.OpenSection(SectionId.ListLengths);
+        int[] lengths = reader.ReadArray<int>(lists);
+        reader.CloseSection();
+
+        // The lengths decide every later allocation, so they are checked against the count before anything else.
+        long total = 0;
+        for (int list = 0; list < lists; list++)
+        {
+            if (lengths[list] < 0)
+            {
+                throw reader.SectionProblem($"list {list} has length {lengths[list]}");
+            }
+
+            total += lengths[list];
+        }
+
+        if (total != count)
+        {
+            throw reader.SectionProblem($"the list lengths add up to {total}, but the header declares {count} vectors");
+        }
+
+        reader.OpenSection(SectionId.Ids);
+        long[] ids = reader.ReadArray<long>(count);
+        reader.CloseSection();
+        reader.OpenSection(SectionId.ListCodes);
+        reader.ExpectPayload(checked((long)count * codeBytes));
+        var codes = new byte[lists][];
+        for (int list = 0; list < lists; list++)
+        {
+            codes[list] = lengths[list] == 0 ? [] : reader.ReadPart<byte>(checked(lengths[list] * codeBytes));
+        }
+
+        reader.CloseSection();
+        VectorBuffer? full = null;
+        if (keepsFull)
+        {
+            reader.OpenSection(SectionId.Vectors);
+            full = new VectorBuffer(d, 0);
+            try
+            {
+                reader.ReadRows(full, count);
+                reader.CloseSection();
+            }
+            catch
+            {
+                full.Dispose();
+                throw;
+            }
+        }
+
+        var parts = new InvertedFileIndexParts
+        {
+            Dimension = d,
+            Metric = header.Metric,
+            Options = options,
+            Trained = trained,
+            Count = count,
+            Centroids = centroids,
+            ProductCodewords = trained ? codewords : null,
+            ProductRotation = trained ? rotationMatrix : null,
+            ScalarRanges = trained ? ranges : null,
+            ListLengths = lengths,
+            ListCodes = codes,
+            Ids = ids,
+            FullVectors = full,
+        };
+        try
+        {
+            return InvertedFileIndex.FromParts(parts);
+        }
+        catch (InvalidDataException e)
+        {
+            throw new IndexFileException($"Index file holds an invalid inverted file: {e.Message}.", "inverted file", -1, e);
+        }
+    }
+}

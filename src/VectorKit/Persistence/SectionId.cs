@@ -1,0 +1,47 @@
+namespace VectorKit.Persistence;
+
+/// <summary>
+/// Identifies a bulk section in an index file. One numbering for every index kind: a new kind or a new section takes
+/// the next free number, and a retired number is never given to anything else (files of old versions keep it).
+/// </summary>
+internal enum SectionId : uint
+{
+    /// <summary>One 64-bit id per stored row (per slot for a graph, removed slots included).</summary>
+    Ids = 1,
+
+    /// <summary>The rows, <c>rows × dimension</c> float32 values, already unit length under cosine.</summary>
+    Vectors = 2,
+
+    /// <summary>Graph: one byte per slot, the node's top layer.</summary>
+    NodeLevels = 3,
+
+    /// <summary>Graph: one byte per slot, 1 when the slot's item was removed, else 0.</summary>
+    RemovedFlags = 4,
+
+    /// <summary>Graph: the bottom layer's link blocks, <c>slots × (bottom limit + 1)</c> int32 (count, then neighbours).</summary>
+    BottomLinks = 5,
+
+    /// <summary>Graph: the upper layers' link blocks of every node with a level ≥ 1, in slot order, layer 1 first.</summary>
+    UpperLinks = 6,
+
+    /// <summary>Inverted file: the list centroids, <c>lists × dimension</c> float32 (empty when untrained).</summary>
+    Centroids = 7,
+
+    /// <summary>Inverted file: the entries per list, <c>lists</c> int32.</summary>
+    ListLengths = 8,
+
+    /// <summary>Inverted file: every list's codes (float32 vectors or quantizer codes), list after list, entries in list order.</summary>
+    ListCodes = 9,
+
+    /// <summary>Inverted file under product codes: the codewords, <c>code bytes × 256 × (dimension / code bytes)</c> float32.</summary>
+    ProductCodebooks = 10,
+
+    /// <summary>Under 8-bit scalar codes (inverted file, exact index, graph): <c>dimension</c> minimums, then <c>dimension</c> steps, float32.</summary>
+    ScalarRanges = 11,
+
+    /// <summary>Exact index or graph under 8-bit scalar codes: one code per row (graph: per slot), in order, each <c>dimension</c> rounded up to 16 bytes (padding zero).</summary>
+    ScalarCodes = 12,
+
+    /// <summary>Inverted file under rotated product codes: the rotation, <c>dimension × dimension</c> float32, row-major (empty when untrained).</summary>
+    ProductRotation = 13,
+}
