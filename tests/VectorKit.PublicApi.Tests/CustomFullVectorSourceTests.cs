@@ -53,7 +53,7 @@ public class CustomFullVectorSourceTests
         InvertedFileOptions Options(FullVectorLocation location) => new()
         {
             ListCount = 5,
-            Storage = ListStorage.Scalar8Bit,
+            Encoding = VectorEncoding.Scalar8Bit,
             RescoreDepth = 30,
             FullVectors = location,
         };

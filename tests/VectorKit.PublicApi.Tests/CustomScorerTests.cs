@@ -62,7 +62,7 @@ public class CustomScorerTests
         var random = new Random(17);
         float[] vectors = Enumerable.Range(0, Items * Dimension).Select(_ => (float)(random.NextDouble() - 0.5)).ToArray();
         int[] depots = Enumerable.Range(0, Items).Select(_ => random.Next(8)).ToArray();
-        using var index = new GraphIndex(Dimension, DistanceMetric.InnerProduct, new GraphIndexOptions { BuildParallelism = 1 });
+        using var index = new GraphIndex(Dimension, DistanceMetric.InnerProduct, new GraphIndexOptions { MaxDegreeOfParallelism = 1 });
         index.AddRange(Enumerable.Range(0, Items).Select(i => (long)i).ToArray(), vectors);
         var scorer = new DepotAwareScorer(vectors, depots, Dimension);
         var calibration = new CalibrationOptions { TargetRecall = 0.9, FinalCount = 5, MaxUncertainty = 0.08, Seed = 4 };

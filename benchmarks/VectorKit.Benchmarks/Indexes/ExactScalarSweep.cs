@@ -79,7 +79,7 @@ public static class ExactScalarSweep
     private static ExactIndex Build(float[] data, long[] ids, int d, int depth, out double seconds)
     {
         var watch = Stopwatch.StartNew();
-        var index = new ExactIndex(d, DistanceMetric.SquaredEuclidean, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = depth });
+        var index = new ExactIndex(d, DistanceMetric.SquaredEuclidean, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = depth });
         index.Train(data);
         index.AddRange(ids, data);
         index.TrimExcess();

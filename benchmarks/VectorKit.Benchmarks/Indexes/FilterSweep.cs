@@ -29,9 +29,9 @@ public static class FilterSweep
         long[] ids = Enumerable.Range(0, n).Select(i => (long)i).ToArray();
         using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
         exact.AddRange(ids, train.Data);
-        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { BuildParallelism = 2 });
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 2 });
         graph.AddRange(ids, train.Data);
-        Console.WriteLine($"Fashion-MNIST: {n} × {d}, squared L2, {queryCount} queries, graph width {graph.Options.DefaultSearchWidth}, filter: id % m == 3");
+        Console.WriteLine($"Fashion-MNIST: {n} × {d}, squared L2, {queryCount} queries, graph width {graph.Options.SearchWidth}, filter: id % m == 3");
         Console.WriteLine("  pass  walk recall@10  walk q/s  scan q/s  walk ÷ scan  default: recall@10  q/s");
         foreach (int modulus in new[] { 500, 200, 100, 50, 20, 10, 5 })
         {

@@ -70,7 +70,7 @@ public static class GraphSweep
 
         long before = GC.GetTotalMemory(forceFullCollection: true);
         var watch = Stopwatch.StartNew();
-        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { BuildParallelism = 2 });
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 2 });
         graph.AddRange(ids, data);
         watch.Stop();
         Console.WriteLine(
@@ -109,8 +109,8 @@ public static class GraphSweep
         var watch = Stopwatch.StartNew();
         using var codes = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions
         {
-            BuildParallelism = 2,
-            Storage = VectorStorage.Scalar8Bit,
+            MaxDegreeOfParallelism = 2,
+            Encoding = VectorEncoding.Scalar8Bit,
             RescoreDepth = RescoreDepth,
             InitialCapacity = count,
         });

@@ -27,7 +27,7 @@ public class GraphUpdateBenchmarks
     public void Build()
     {
         _data = ClusteredData.Generate(Items, Dimension, Items / 100, 0.2f, seed: 101);
-        _graph = new GraphIndex(Dimension, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { BuildParallelism = 2 });
+        _graph = new GraphIndex(Dimension, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 2 });
         _graph.AddRange(Enumerable.Range(0, Items).Select(i => (long)i).ToArray(), _data);
     }
 

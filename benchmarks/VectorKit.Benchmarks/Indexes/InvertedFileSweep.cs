@@ -51,9 +51,9 @@ public static class InvertedFileSweep
         Console.WriteLine("|---|---:|---:|---:|---:|---:|---:|---:|---:|");
         int[] probes = [1, 2, 4, 8, 16, 32];
 
-        Sweep("IVF, float32 lists", new InvertedFileOptions { ListCount = lists, TrainingParallelism = 2 }, data, ids, queries, truth, exactQps, probes, [0]);
-        Sweep($"IVF + PQ {productBytes} B (+ re-scoring)", new InvertedFileOptions { ListCount = lists, TrainingParallelism = 2, Storage = ListStorage.ProductCodes, ProductCodeBytes = productBytes, RescoreDepth = 100 }, data, ids, queries, truth, exactQps, probes, [0, 50, 100]);
-        Sweep("IVF + 8-bit", new InvertedFileOptions { ListCount = lists, TrainingParallelism = 2, Storage = ListStorage.Scalar8Bit }, data, ids, queries, truth, exactQps, probes, [0]);
+        Sweep("IVF, float32 lists", new InvertedFileOptions { ListCount = lists, MaxDegreeOfParallelism = 2 }, data, ids, queries, truth, exactQps, probes, [0]);
+        Sweep($"IVF + PQ {productBytes} B (+ re-scoring)", new InvertedFileOptions { ListCount = lists, MaxDegreeOfParallelism = 2, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = productBytes, RescoreDepth = 100 }, data, ids, queries, truth, exactQps, probes, [0, 50, 100]);
+        Sweep("IVF + 8-bit", new InvertedFileOptions { ListCount = lists, MaxDegreeOfParallelism = 2, Encoding = VectorEncoding.Scalar8Bit }, data, ids, queries, truth, exactQps, probes, [0]);
         double exactAfter = SingleThreadQps(exact, exactQueries, d, null, timedPasses: 2, out _);
         Console.WriteLine($"exact index after the sweep: {exactAfter:F1} queries/s single thread (before: {exactBefore:F1}); the × exact column divides by the before figure");
         Console.WriteLine($"process peak working set {Process.GetCurrentProcess().PeakWorkingSet64 / 1048576.0:F0} MiB");

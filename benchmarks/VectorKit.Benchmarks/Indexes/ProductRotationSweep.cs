@@ -63,8 +63,8 @@ public static class ProductRotationSweep
                 var options = new InvertedFileOptions
                 {
                     ListCount = lists,
-                    TrainingParallelism = 2,
-                    Storage = ListStorage.ProductCodes,
+                    MaxDegreeOfParallelism = 2,
+                    Encoding = VectorEncoding.ProductCodes,
                     ProductCodeBytes = bytes,
                     RescoreDepth = 100,
                     ProductCodeRotation = rotation,

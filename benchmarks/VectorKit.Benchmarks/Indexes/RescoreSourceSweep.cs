@@ -46,8 +46,8 @@ public static class RescoreSourceSweep
         }
 
         using FileVectorSource file = FileVectorSource.OpenNpy(path);
-        var inMemory = new InvertedFileOptions { ListCount = lists, TrainingParallelism = 2, Storage = ListStorage.ProductCodes, ProductCodeBytes = productBytes, RescoreDepth = 100 };
-        var external = new InvertedFileOptions { ListCount = lists, TrainingParallelism = 2, Storage = ListStorage.ProductCodes, ProductCodeBytes = productBytes, RescoreDepth = 100, FullVectors = FullVectorLocation.ExternalSource };
+        var inMemory = new InvertedFileOptions { ListCount = lists, MaxDegreeOfParallelism = 2, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = productBytes, RescoreDepth = 100 };
+        var external = new InvertedFileOptions { ListCount = lists, MaxDegreeOfParallelism = 2, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = productBytes, RescoreDepth = 100, FullVectors = FullVectorLocation.ExternalSource };
         var watch = Stopwatch.StartNew();
         using var memoryIndex = new InvertedFileIndex(d, DistanceMetric.SquaredEuclidean, inMemory);
         memoryIndex.Train(data);

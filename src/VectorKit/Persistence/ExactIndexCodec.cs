@@ -28,7 +28,7 @@ internal sealed class ExactIndexCodec : IndexCodec
     public override void Save(IVectorIndex index, IndexFileWriter writer)
     {
         var exact = (ExactIndex)index;
-        if (exact.Storage == VectorStorage.Scalar8Bit)
+        if (exact.Options.Encoding == VectorEncoding.Scalar8Bit)
         {
             exact.ExportCodeParts(parts => SaveCodes(exact, parts, writer));
             return;
@@ -60,7 +60,7 @@ internal sealed class ExactIndexCodec : IndexCodec
         }
 
         // Files without the field are float32 (every file written before 8-bit storage existed).
-        if (header.Integers.ContainsKey(StorageField) && header.Integer(StorageField, (int)VectorStorage.Float32, (int)VectorStorage.Scalar8Bit) == (int)VectorStorage.Scalar8Bit)
+        if (header.Integers.ContainsKey(StorageField) && header.Integer(StorageField, (int)VectorEncoding.Float32, (int)VectorEncoding.Scalar8Bit) == (int)VectorEncoding.Scalar8Bit)
         {
             return LoadCodes(header, reader);
         }
@@ -101,10 +101,10 @@ internal sealed class ExactIndexCodec : IndexCodec
         int count = parts.Count;
         int codeBytes = parts.Codes.Dimension;
         var header = new IndexHeader { Kind = Kind, Metric = exact.Metric, Dimension = d, Count = count, Rows = count };
-        header.Integers[StorageField] = (int)VectorStorage.Scalar8Bit;
-        header.Integers[RescoreDepthField] = exact.RescoreDepth;
+        header.Integers[StorageField] = (int)VectorEncoding.Scalar8Bit;
+        header.Integers[RescoreDepthField] = exact.Options.RescoreDepth;
         header.Integers[TrainedField] = parts.Scalar is null ? 0 : 1;
-        WriteFullVectorLocation(header, exact.FullVectors);
+        WriteFullVectorLocation(header, exact.Options.FullVectors);
         int rangeValues = parts.Scalar is null ? 0 : 2 * d;
         header.Sections.Add(new SectionEntry((uint)SectionId.Ids, 0, checked((long)count * sizeof(long))));
         header.Sections.Add(new SectionEntry((uint)SectionId.ScalarRanges, 0, checked((long)rangeValues * sizeof(float))));

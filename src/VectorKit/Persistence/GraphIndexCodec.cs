@@ -18,9 +18,9 @@ internal sealed class GraphIndexCodec : IndexCodec
     private const string LinksPerNode = "links-per-node";
     private const string BottomLayerLinks = "bottom-layer-links";
     private const string BuildWidth = "build-width";
-    private const string DefaultSearchWidth = "default-search-width";
+    private const string SearchWidth = "default-search-width";
     private const string Seed = "seed";
-    private const string BuildParallelism = "build-parallelism";
+    private const string MaxDegreeOfParallelism = "build-parallelism";
     private const string FilteredExactScanFraction = "filtered-exact-scan-fraction";
     private const string EntrySlot = "entry-slot";
     private const string EntryLevel = "entry-level";
@@ -45,9 +45,9 @@ internal sealed class GraphIndexCodec : IndexCodec
             header.Integers[LinksPerNode] = options.LinksPerNode;
             header.Integers[BottomLayerLinks] = options.BottomLayerLinks ?? 0;
             header.Integers[BuildWidth] = options.BuildWidth;
-            header.Integers[DefaultSearchWidth] = options.DefaultSearchWidth;
+            header.Integers[SearchWidth] = options.SearchWidth;
             header.Integers[Seed] = options.Seed;
-            header.Integers[BuildParallelism] = options.BuildParallelism;
+            header.Integers[MaxDegreeOfParallelism] = options.MaxDegreeOfParallelism;
             // Absent means "chosen by the cost model" (the default).
             if (options.FilteredExactScanFraction is double fraction)
             {
@@ -55,10 +55,10 @@ internal sealed class GraphIndexCodec : IndexCodec
             }
             header.Integers[EntrySlot] = parts.EntrySlot;
             header.Integers[EntryLevel] = parts.EntryLevel;
-            bool codes = options.Storage == VectorStorage.Scalar8Bit;
+            bool codes = options.Encoding == VectorEncoding.Scalar8Bit;
             if (codes)
             {
-                header.Integers[VectorStorageField] = (int)options.Storage;
+                header.Integers[VectorStorageField] = (int)options.Encoding;
                 header.Integers[Trained] = parts.ScalarRanges is null ? 0 : 1;
 
                 // Only under codes (float32 rows are the full vectors), and only when external: other files keep their bytes.
@@ -135,14 +135,14 @@ internal sealed class GraphIndexCodec : IndexCodec
             throw IndexHeader.Malformed($"the field '{BottomLayerLinks}' is 1; expected 0 (the default) or 2 to {maxLinks}");
         }
 
-        int parallelism = (int)header.Integer(BuildParallelism, -1, int.MaxValue);
+        int parallelism = (int)header.Integer(MaxDegreeOfParallelism, -1, int.MaxValue);
 
         // Optional: absent in files written before 8-bit storage existed, and whenever they are at their defaults.
         var storage = header.Integers.ContainsKey(VectorStorageField)
-            ? (VectorStorage)header.Integer(VectorStorageField, (int)VectorStorage.Float32, (int)VectorStorage.Scalar8Bit)
-            : VectorStorage.Float32;
+            ? (VectorEncoding)header.Integer(VectorStorageField, (int)VectorEncoding.Float32, (int)VectorEncoding.Scalar8Bit)
+            : VectorEncoding.Float32;
         int rescoreDepth = header.Integers.ContainsKey(RescoreDepth) ? (int)header.Integer(RescoreDepth, 0, 100_000) : 0;
-        bool codes = storage == VectorStorage.Scalar8Bit;
+        bool codes = storage == VectorEncoding.Scalar8Bit;
         FullVectorLocation location = ReadFullVectorLocation(header);
         bool trained = !codes || header.Integer(Trained, 0, 1) == 1;
         if (!trained && (slots != 0 || header.Count != 0))
@@ -155,20 +155,20 @@ internal sealed class GraphIndexCodec : IndexCodec
             LinksPerNode = links,
             BottomLayerLinks = bottom == 0 ? null : bottom,
             BuildWidth = (int)header.Integer(BuildWidth, 1, 100_000),
-            DefaultSearchWidth = (int)header.Integer(DefaultSearchWidth, 1, 100_000),
+            SearchWidth = (int)header.Integer(SearchWidth, 1, 100_000),
             Seed = (int)header.Integer(Seed, int.MinValue, int.MaxValue),
-            BuildParallelism = parallelism == 0 ? -1 : parallelism,
+            MaxDegreeOfParallelism = parallelism == 0 ? -1 : parallelism,
             // Optional: absent means the options' default (a writer omits it when the option is left at its default).
             FilteredExactScanFraction = header.Reals.ContainsKey(FilteredExactScanFraction)
                 ? header.Real(FilteredExactScanFraction, 0, 1)
                 : null,
-            Storage = storage,
+            Encoding = storage,
             RescoreDepth = rescoreDepth,
             FullVectors = location,
         };
         if (parallelism == 0)
         {
-            throw IndexHeader.Malformed($"the field '{BuildParallelism}' is 0; expected -1 or a positive thread count");
+            throw IndexHeader.Malformed($"the field '{MaxDegreeOfParallelism}' is 0; expected -1 or a positive thread count");
         }
 
         if (options.EffectiveBottomLayerLinks > maxLinks)

@@ -15,14 +15,17 @@ namespace VectorKit.Persistence;
 internal sealed class InvertedFileIndexCodec : IndexCodec
 {
     private const string ListCount = "list-count";
-    private const string ListsProbed = "lists-probed";
+    private const string SearchWidth = "lists-probed";
     private const string Storage = "list-storage";
+
+    // The file's numbers for the list encodings (format version 1), fixed whatever the enum's order.
+    private static readonly VectorEncoding[] s_listEncodings = [VectorEncoding.Float32, VectorEncoding.ProductCodes, VectorEncoding.Scalar8Bit];
     private const string ProductCodeBytes = "product-code-bytes";
     private const string RescoreDepth = "rescore-depth";
-    private const string TrainingIterations = "training-iterations";
-    private const string TrainingSampleSize = "training-sample-size";
+    private const string MaxIterations = "training-iterations";
+    private const string SampleSize = "training-sample-size";
     private const string Seed = "seed";
-    private const string TrainingParallelism = "training-parallelism";
+    private const string MaxDegreeOfParallelism = "training-parallelism";
     private const string Trained = "trained";
 
     // Optional (files written before rotations existed lack it): absent means no rotation.
@@ -43,15 +46,15 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             int count = parts.Count;
             var header = new IndexHeader { Kind = Kind, Metric = parts.Metric, Dimension = d, Count = count, Rows = count };
             header.Integers[ListCount] = options.ListCount;
-            header.Integers[ListsProbed] = options.ListsProbed;
-            header.Integers[Storage] = (int)options.Storage;
+            header.Integers[SearchWidth] = options.SearchWidth;
+            header.Integers[Storage] = Array.IndexOf(s_listEncodings, options.Encoding);
             header.Integers[ProductCodeBytes] = options.ProductCodeBytes;
             header.Integers[RescoreDepth] = options.RescoreDepth;
-            header.Integers[TrainingIterations] = options.TrainingIterations;
+            header.Integers[MaxIterations] = options.MaxIterations;
             // 0 stands for "not set" (64 rows per list).
-            header.Integers[TrainingSampleSize] = options.TrainingSampleSize ?? 0;
+            header.Integers[SampleSize] = options.SampleSize ?? 0;
             header.Integers[Seed] = options.Seed;
-            header.Integers[TrainingParallelism] = options.TrainingParallelism;
+            header.Integers[MaxDegreeOfParallelism] = options.MaxDegreeOfParallelism;
             header.Integers[Trained] = parts.Trained ? 1 : 0;
             WriteFullVectorLocation(header, options.FullVectors);
 
@@ -61,9 +64,9 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
                 header.Integers[ProductRotation] = (int)options.ProductCodeRotation;
             }
 
-            bool rotated = options.Storage == ListStorage.ProductCodes && options.ProductCodeRotation != SubspaceRotation.None;
+            bool rotated = options.Encoding == VectorEncoding.ProductCodes && options.ProductCodeRotation != SubspaceRotation.None;
             header.Sections.Add(new SectionEntry((uint)SectionId.Centroids, 0, checked((long)parts.Centroids.Length * sizeof(float))));
-            if (options.Storage == ListStorage.ProductCodes)
+            if (options.Encoding == VectorEncoding.ProductCodes)
             {
                 header.Sections.Add(new SectionEntry((uint)SectionId.ProductCodebooks, 0, checked((long)(parts.ProductCodewords?.Length ?? 0) * sizeof(float))));
 
@@ -73,7 +76,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
                     header.Sections.Add(new SectionEntry((uint)SectionId.ProductRotation, 0, checked((long)(parts.ProductRotation?.Length ?? 0) * sizeof(float))));
                 }
             }
-            else if (options.Storage == ListStorage.Scalar8Bit)
+            else if (options.Encoding == VectorEncoding.Scalar8Bit)
             {
                 header.Sections.Add(new SectionEntry((uint)SectionId.ScalarRanges, 0, checked((long)(parts.ScalarRanges?.Length ?? 0) * sizeof(float))));
             }
@@ -90,7 +93,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             writer.BeginSection(SectionId.Centroids);
             writer.Write<float>(parts.Centroids);
             writer.EndSection();
-            if (options.Storage == ListStorage.ProductCodes)
+            if (options.Encoding == VectorEncoding.ProductCodes)
             {
                 writer.BeginSection(SectionId.ProductCodebooks);
                 writer.Write<float>(parts.ProductCodewords);
@@ -102,7 +105,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
                     writer.EndSection();
                 }
             }
-            else if (options.Storage == ListStorage.Scalar8Bit)
+            else if (options.Encoding == VectorEncoding.Scalar8Bit)
             {
                 writer.BeginSection(SectionId.ScalarRanges);
                 writer.Write<float>(parts.ScalarRanges);
@@ -148,15 +151,15 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         int d = header.Dimension;
         int count = (int)header.Count;
         int lists = (int)header.Integer(ListCount, 1, 1 << 20);
-        var storage = (ListStorage)header.Integer(Storage, (int)ListStorage.Float32, (int)ListStorage.Scalar8Bit);
+        VectorEncoding storage = s_listEncodings[(int)header.Integer(Storage, 0, s_listEncodings.Length - 1)];
         int productCodeBytes = (int)header.Integer(ProductCodeBytes, 1, 4096);
-        int parallelism = (int)header.Integer(TrainingParallelism, -1, int.MaxValue);
+        int parallelism = (int)header.Integer(MaxDegreeOfParallelism, -1, int.MaxValue);
         if (parallelism == 0)
         {
-            throw IndexHeader.Malformed($"the field '{TrainingParallelism}' is 0; expected -1 or a positive thread count");
+            throw IndexHeader.Malformed($"the field '{MaxDegreeOfParallelism}' is 0; expected -1 or a positive thread count");
         }
 
-        int sampleSize = (int)header.Integer(TrainingSampleSize, 0, int.MaxValue);
+        int sampleSize = (int)header.Integer(SampleSize, 0, int.MaxValue);
         FullVectorLocation location = ReadFullVectorLocation(header);
         var rotation = header.Integers.ContainsKey(ProductRotation)
             ? (SubspaceRotation)header.Integer(ProductRotation, (int)SubspaceRotation.None, (int)SubspaceRotation.VarianceBalanced)
@@ -164,14 +167,14 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         var options = new InvertedFileOptions
         {
             ListCount = lists,
-            ListsProbed = (int)header.Integer(ListsProbed, 1, int.MaxValue),
-            Storage = storage,
+            SearchWidth = (int)header.Integer(SearchWidth, 1, int.MaxValue),
+            Encoding = storage,
             ProductCodeBytes = productCodeBytes,
             RescoreDepth = (int)header.Integer(RescoreDepth, 0, int.MaxValue),
-            TrainingIterations = (int)header.Integer(TrainingIterations, 0, 10_000),
-            TrainingSampleSize = sampleSize == 0 ? null : sampleSize,
+            MaxIterations = (int)header.Integer(MaxIterations, 0, 10_000),
+            SampleSize = sampleSize == 0 ? null : sampleSize,
             Seed = (int)header.Integer(Seed, int.MinValue, int.MaxValue),
-            TrainingParallelism = parallelism,
+            MaxDegreeOfParallelism = parallelism,
             FullVectors = location,
             ProductCodeRotation = rotation,
         };
@@ -181,18 +184,18 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             throw IndexHeader.Malformed($"an untrained inverted file holds no vectors, but it declares {count}");
         }
 
-        if (storage == ListStorage.ProductCodes && d % productCodeBytes != 0)
+        if (storage == VectorEncoding.ProductCodes && d % productCodeBytes != 0)
         {
             throw IndexHeader.Malformed($"the field '{ProductCodeBytes}' is {productCodeBytes}, which does not divide the dimension {d}");
         }
 
         int codeBytes = storage switch
         {
-            ListStorage.Float32 => checked(d * sizeof(float)),
-            ListStorage.ProductCodes => productCodeBytes,
+            VectorEncoding.Float32 => checked(d * sizeof(float)),
+            VectorEncoding.ProductCodes => productCodeBytes,
             _ => ScalarQuantizer.PaddedLength(d),
         };
-        bool keepsFull = options.KeepsFullInMemory;
+        bool keepsFull = options.KeepsFullVectorsInMemory;
 
         reader.OpenSection(SectionId.Centroids);
         float[] centroids = reader.ReadArray<float>(trained ? checked(lists * d) : 0);
@@ -200,7 +203,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         float[]? codewords = null;
         float[]? rotationMatrix = null;
         float[]? ranges = null;
-        if (storage == ListStorage.ProductCodes)
+        if (storage == VectorEncoding.ProductCodes)
         {
             reader.OpenSection(SectionId.ProductCodebooks);
             codewords = reader.ReadArray<float>(trained ? checked(d * ProductQuantizer.CodewordsPerSubspace) : 0);
@@ -212,7 +215,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
                 reader.CloseSection();
             }
         }
-        else if (storage == ListStorage.Scalar8Bit)
+        else if (storage == VectorEncoding.Scalar8Bit)
         {
             reader.OpenSection(SectionId.ScalarRanges);
             ranges = reader.ReadArray<float>(trained ? 2 * d : 0);

@@ -53,7 +53,7 @@ public sealed class ExactIndexScalarFashionMnistFixture : IDisposable
             }
 
             Truth = GroundTruth.Compute(train.Data, default, Queries, d, 10, metric);
-            Index = new ExactIndex(d, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = Depth });
+            Index = new ExactIndex(d, metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = Depth });
             Index.Train(train.Data);
             Index.AddRange(Enumerable.Range(0, train.Count).Select(i => (long)i).ToArray(), train.Data);
         }

@@ -51,7 +51,7 @@ public sealed class ExternalSourceExactIndexTests : IDisposable
         Assert.False(external.KeepsFullVectors);
         Assert.True(external.ReadsFullVectorsExternally);
         Assert.False(memory.ReadsFullVectorsExternally);
-        Assert.Equal(FullVectorLocation.ExternalSource, external.FullVectors);
+        Assert.Equal(FullVectorLocation.ExternalSource, external.Options.FullVectors);
         Assert.Same(source, external.FullVectorSource);
         Assert.True(external.MemoryBytes <= memory.MemoryBytes - ((long)N * D * sizeof(float)), $"{external.MemoryBytes} bytes against {memory.MemoryBytes}");
 
@@ -157,7 +157,7 @@ public sealed class ExternalSourceExactIndexTests : IDisposable
     {
         float[] data = ClusteredData.Generate(N, D, 12, 0.4f, seed: 34);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
-        var externalOptions = new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = 10, FullVectors = FullVectorLocation.ExternalSource };
+        var externalOptions = new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 10, FullVectors = FullVectorLocation.ExternalSource };
         using var index = new ExactIndex(D, DistanceMetric.SquaredEuclidean, externalOptions);
         var wrongDimension = Assert.Throws<ArgumentException>(() => index.AttachFullVectors(new RowSource(new float[23], 23)));
         Assert.Equal("source", wrongDimension.ParamName);
@@ -168,8 +168,8 @@ public sealed class ExternalSourceExactIndexTests : IDisposable
         Assert.Null(index.FullVectorSource);
 
         // Indexes that do not read externally refuse a source: full vectors in memory, re-scoring off, float32 rows.
-        var inMemory = new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = 10 };
-        var noRescoring = new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, FullVectors = FullVectorLocation.ExternalSource };
+        var inMemory = new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 10 };
+        var noRescoring = new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, FullVectors = FullVectorLocation.ExternalSource };
         var float32 = new ExactIndexOptions { RescoreDepth = 10, FullVectors = FullVectorLocation.ExternalSource };
         foreach (ExactIndexOptions options in new[] { inMemory, noRescoring, float32 })
         {
@@ -183,7 +183,7 @@ public sealed class ExternalSourceExactIndexTests : IDisposable
         // Under float32 storage the option is ignored: the rows are the full vectors.
         using (var rows = new ExactIndex(D, DistanceMetric.SquaredEuclidean, float32))
         {
-            Assert.Equal(FullVectorLocation.InIndexMemory, rows.FullVectors);
+            Assert.Equal(FullVectorLocation.InIndexMemory, rows.Options.FullVectors);
             Assert.True(rows.KeepsFullVectors);
             rows.AddRange(ids, data);
             Assert.Equal(ids[4], rows.Search(data.AsSpan(4 * D, D), 1)[0].Id);
@@ -228,8 +228,8 @@ public sealed class ExternalSourceExactIndexTests : IDisposable
 
         externalFile.Position = 0;
         using ExactIndex loaded = IndexFile.Load<ExactIndex>(externalFile);
-        Assert.Equal(FullVectorLocation.ExternalSource, loaded.FullVectors);
-        Assert.Equal(40, loaded.RescoreDepth);
+        Assert.Equal(FullVectorLocation.ExternalSource, loaded.Options.FullVectors);
+        Assert.Equal(40, loaded.Options.RescoreDepth);
         Assert.True(loaded.ReadsFullVectorsExternally);
         Assert.False(loaded.KeepsFullVectors);
         Assert.Null(loaded.FullVectorSource);
@@ -264,14 +264,14 @@ public sealed class ExternalSourceExactIndexTests : IDisposable
         IndexFile.Save(off, offFile);
         offFile.Position = 0;
         using ExactIndex offLoaded = IndexFile.Load<ExactIndex>(offFile);
-        Assert.Equal(FullVectorLocation.ExternalSource, offLoaded.FullVectors);
+        Assert.Equal(FullVectorLocation.ExternalSource, offLoaded.Options.FullVectors);
         Assert.False(offLoaded.ReadsFullVectorsExternally);
         Assert.Equal(off.Search(queries.AsSpan(0, D), 10), offLoaded.Search(queries.AsSpan(0, D), 10));
     }
 
     private static ExactIndex Build(DistanceMetric metric, float[] data, long[] ids, FullVectorLocation location, IFullVectorSource? source, int rescoreDepth = 40)
     {
-        var options = new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = location };
+        var options = new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = location };
         ExactIndex index = source is null ? new ExactIndex(D, metric, options) : new ExactIndex(D, metric, options, source);
         index.Train(data);
         index.AddRange(ids, data);

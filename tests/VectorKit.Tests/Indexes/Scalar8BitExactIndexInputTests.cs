@@ -9,7 +9,7 @@ public class Scalar8BitExactIndexInputTests : VectorIndexInputTests
 {
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)
     {
-        var index = new ExactIndex(dimension, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = 2 });
+        var index = new ExactIndex(dimension, metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 2 });
         var sample = new float[2 * dimension * dimension];
         for (int i = 0; i < dimension; i++)
         {

@@ -229,7 +229,7 @@ public class Scalar8BitExactIndexTests
     {
         using var index = new ExactIndex(3, DistanceMetric.Cosine);
         Assert.True(index.IsTrained);
-        Assert.Equal((VectorStorage.Float32, 0, true), (index.Storage, index.RescoreDepth, index.KeepsFullVectors));
+        Assert.Equal((VectorEncoding.Float32, 0, true), (index.Options.Encoding, index.Options.RescoreDepth, index.KeepsFullVectors));
         index.Add(1, [1, 2, 3]);
         var progress = new SynchronousProgress<IndexTrainingProgress>();
         index.Train([1, 0, 0, 0, 1, 0], progress);
@@ -242,7 +242,7 @@ public class Scalar8BitExactIndexTests
     [Fact]
     public void BeforeTraining_AddsAndSearchesThrow_NamingWhatToCall()
     {
-        using var index = new ExactIndex(4, DistanceMetric.SquaredEuclidean, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit });
+        using var index = new ExactIndex(4, DistanceMetric.SquaredEuclidean, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit });
         Assert.False(index.IsTrained);
         string message = Assert.Throws<IndexNotTrainedException>(() => index.Add(1, [1, 2, 3, 4])).Message;
         Assert.Contains("call Train with a sample of at least 1 vector", message, StringComparison.Ordinal);
@@ -276,7 +276,7 @@ public class Scalar8BitExactIndexTests
     [Fact]
     public void BadSamples_AreRejectedWithClearMessages_AndLeaveTheIndexUntrained()
     {
-        using var index = new ExactIndex(3, DistanceMetric.Cosine, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = 4 });
+        using var index = new ExactIndex(3, DistanceMetric.Cosine, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 4 });
         var empty = Assert.Throws<ArgumentException>(() => index.Train([]));
         Assert.Equal("sample", empty.ParamName);
         Assert.Contains("sample has 0 components; training needs at least 1 row and a multiple of the index dimension 3.", empty.Message, StringComparison.Ordinal);
@@ -311,9 +311,9 @@ public class Scalar8BitExactIndexTests
     [Fact]
     public void Options_RejectUndefinedStorageAndNegativeDepth_NamingTheOption()
     {
-        Assert.Equal("Storage", Assert.Throws<ArgumentOutOfRangeException>(() => new ExactIndexOptions { Storage = (VectorStorage)7 }).ParamName);
+        Assert.Equal("Encoding", Assert.Throws<ArgumentOutOfRangeException>(() => new ExactIndexOptions { Encoding = (VectorEncoding)7 }).ParamName);
         Assert.Equal("RescoreDepth", Assert.Throws<ArgumentOutOfRangeException>(() => new ExactIndexOptions { RescoreDepth = -1 }).ParamName);
-        Assert.Equal((VectorStorage.Float32, 0), (ExactIndexOptions.Default.Storage, ExactIndexOptions.Default.RescoreDepth));
+        Assert.Equal((VectorEncoding.Float32, 0), (ExactIndexOptions.Default.Encoding, ExactIndexOptions.Default.RescoreDepth));
     }
 
     [Theory]
@@ -390,7 +390,7 @@ public class Scalar8BitExactIndexTests
     [Fact]
     public void ITrainableIndex_GenericTraining_Works()
     {
-        using var exact = new ExactIndex(2, DistanceMetric.SquaredEuclidean, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit });
+        using var exact = new ExactIndex(2, DistanceMetric.SquaredEuclidean, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit });
         IVectorIndex index = exact;
         if (index is ITrainableIndex { IsTrained: false } trainable)
         {
@@ -403,7 +403,7 @@ public class Scalar8BitExactIndexTests
 
     internal static ExactIndex Trained(int d, DistanceMetric metric, ReadOnlySpan<float> sample, int rescoreDepth = 0, KernelPath? path = null)
     {
-        var index = new ExactIndex(d, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth }, path ?? KernelDispatch.Widest);
+        var index = new ExactIndex(d, metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth }, path ?? KernelDispatch.Widest);
         index.Train(sample);
         return index;
     }

@@ -95,7 +95,7 @@ public class CraftedExactIndexTests
     private static string Reject(Action<byte[]> damage, int rescoreDepth = 0)
     {
         using ExactIndex index = PersistenceSamples.ExactScalar(rescoreDepth: rescoreDepth);
-        Assert.Equal(VectorStorage.Scalar8Bit, index.Storage);
+        Assert.Equal(VectorEncoding.Scalar8Bit, index.Options.Encoding);
         byte[] file = IndexFileBytes.Save(index);
         damage(file);
         IndexFileBytes.FixChecksums(file);

@@ -17,11 +17,11 @@ public class CraftedInvertedFileTests
     [Trait("Weakness", "CWE-130 length inconsistency")]
     public void AListLengthDisagreeingWithTheCount_IsRejectedBeforeTheCodesAreRead()
     {
-        string message = Reject(ListStorage.Float32, file => Edit(file, SectionId.ListLengths, (span) => Add32(span, 0, 1)));
+        string message = Reject(VectorEncoding.Float32, file => Edit(file, SectionId.ListLengths, (span) => Add32(span, 0, 1)));
         Assert.Contains("the list lengths add up to 29, but the header declares 28 vectors", message, StringComparison.Ordinal);
 
         // A negative length is refused even when the sum still matches.
-        Assert.Contains("list 1 has length -1", Reject(ListStorage.Float32, file => Edit(file, SectionId.ListLengths, span =>
+        Assert.Contains("list 1 has length -1", Reject(VectorEncoding.Float32, file => Edit(file, SectionId.ListLengths, span =>
         {
             int second = BinaryPrimitives.ReadInt32LittleEndian(span[4..]);
             Add32(span, 1, -1 - second);
@@ -33,7 +33,7 @@ public class CraftedInvertedFileTests
     [Trait("Weakness", "CWE-20 input validation")]
     public void AnIdRepeatedAcrossLists_IsRejected()
     {
-        using InvertedFileIndex index = PersistenceSamples.InvertedFile(ListStorage.ProductCodes, dimension: 2);
+        using InvertedFileIndex index = PersistenceSamples.InvertedFile(VectorEncoding.ProductCodes, dimension: 2);
         int[] lengths = index.ListLengths();
         Assert.True(lengths[0] > 0 && lengths[^1] > 0, "the sample should fill the first and last lists");
         byte[] file = IndexFileBytes.Save(index);
@@ -52,7 +52,7 @@ public class CraftedInvertedFileTests
     [Trait("Weakness", "CWE-130 length inconsistency")]
     public void ACodeSizeDisagreeingWithTheOptions_IsRejected()
     {
-        using InvertedFileIndex index = PersistenceSamples.InvertedFile(ListStorage.ProductCodes, count: 20, dimension: 2);
+        using InvertedFileIndex index = PersistenceSamples.InvertedFile(VectorEncoding.ProductCodes, count: 20, dimension: 2);
         byte[] file = IndexFileBytes.Save(index);
         IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
 
@@ -70,26 +70,26 @@ public class CraftedInvertedFileTests
     [Trait("Weakness", "CWE-20 input validation")]
     public void ScalarCodesWithNonZeroPadding_OrUnusableRanges_AreRejected()
     {
-        Assert.Contains("entry 0 has non-zero padding after its 3 code bytes", Reject(ListStorage.Scalar8Bit, file => Edit(file, SectionId.ListCodes, span => span[5] = 1)), StringComparison.Ordinal);
-        Assert.Contains("the scalar range of component 1 (minimum", Reject(ListStorage.Scalar8Bit, file => Edit(file, SectionId.ScalarRanges, span => BinaryPrimitives.WriteSingleLittleEndian(span[16..], -1f))), StringComparison.Ordinal);
-        Assert.Contains("the scalar range of component 0 (minimum", Reject(ListStorage.Scalar8Bit, file => Edit(file, SectionId.ScalarRanges, span => BinaryPrimitives.WriteSingleLittleEndian(span, float.PositiveInfinity))), StringComparison.Ordinal);
+        Assert.Contains("entry 0 has non-zero padding after its 3 code bytes", Reject(VectorEncoding.Scalar8Bit, file => Edit(file, SectionId.ListCodes, span => span[5] = 1)), StringComparison.Ordinal);
+        Assert.Contains("the scalar range of component 1 (minimum", Reject(VectorEncoding.Scalar8Bit, file => Edit(file, SectionId.ScalarRanges, span => BinaryPrimitives.WriteSingleLittleEndian(span[16..], -1f))), StringComparison.Ordinal);
+        Assert.Contains("the scalar range of component 0 (minimum", Reject(VectorEncoding.Scalar8Bit, file => Edit(file, SectionId.ScalarRanges, span => BinaryPrimitives.WriteSingleLittleEndian(span, float.PositiveInfinity))), StringComparison.Ordinal);
     }
 
     [Fact]
     [Trait("Weakness", "CWE-20 input validation")]
     public void NaNInACentroidOrACodebook_OrInAStoredVector_IsRejected()
     {
-        Assert.Contains("centroid 1, component 2 is NaN; centroids must be finite", Reject(ListStorage.Float32, file => Edit(file, SectionId.Centroids, span => BinaryPrimitives.WriteSingleLittleEndian(span[(4 * 5)..], float.NaN))), StringComparison.Ordinal);
-        Assert.Contains("codebook component 300 (sub-space 1, codeword 44) is NaN", Reject(ListStorage.ProductCodes, file => Edit(file, SectionId.ProductCodebooks, span => BinaryPrimitives.WriteSingleLittleEndian(span[(4 * 300)..], float.NaN))), StringComparison.Ordinal);
-        Assert.Contains("entry 0, component 1 is Infinity; vectors must be finite", Reject(ListStorage.Float32, file => Edit(file, SectionId.ListCodes, span => BinaryPrimitives.WriteSingleLittleEndian(span[4..], float.PositiveInfinity))), StringComparison.Ordinal);
-        Assert.Contains("non-finite vector component (NaN) at row 1, component 0", Reject(ListStorage.Scalar8Bit, file => Edit(file, SectionId.Vectors, span => BinaryPrimitives.WriteSingleLittleEndian(span[(4 * 3)..], float.NaN)), rescoreDepth: 2), StringComparison.Ordinal);
+        Assert.Contains("centroid 1, component 2 is NaN; centroids must be finite", Reject(VectorEncoding.Float32, file => Edit(file, SectionId.Centroids, span => BinaryPrimitives.WriteSingleLittleEndian(span[(4 * 5)..], float.NaN))), StringComparison.Ordinal);
+        Assert.Contains("codebook component 300 (sub-space 1, codeword 44) is NaN", Reject(VectorEncoding.ProductCodes, file => Edit(file, SectionId.ProductCodebooks, span => BinaryPrimitives.WriteSingleLittleEndian(span[(4 * 300)..], float.NaN))), StringComparison.Ordinal);
+        Assert.Contains("entry 0, component 1 is Infinity; vectors must be finite", Reject(VectorEncoding.Float32, file => Edit(file, SectionId.ListCodes, span => BinaryPrimitives.WriteSingleLittleEndian(span[4..], float.PositiveInfinity))), StringComparison.Ordinal);
+        Assert.Contains("non-finite vector component (NaN) at row 1, component 0", Reject(VectorEncoding.Scalar8Bit, file => Edit(file, SectionId.Vectors, span => BinaryPrimitives.WriteSingleLittleEndian(span[(4 * 3)..], float.NaN)), rescoreDepth: 2), StringComparison.Ordinal);
     }
 
     [Fact]
     [Trait("Weakness", "CWE-20 input validation")]
     public void AnUntrainedHeaderOverStoredVectors_AndAMissingQuantizer_AreRejected()
     {
-        using InvertedFileIndex index = PersistenceSamples.InvertedFile(ListStorage.Scalar8Bit);
+        using InvertedFileIndex index = PersistenceSamples.InvertedFile(VectorEncoding.Scalar8Bit);
         byte[] file = IndexFileBytes.Save(index);
         IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
         header.Integers["trained"] = 0;
@@ -97,7 +97,7 @@ public class CraftedInvertedFileTests
 
         // The storage switched to float32: the scalar ranges section stands where the list lengths belong.
         header.Integers["trained"] = 1;
-        header.Integers["list-storage"] = (int)ListStorage.Float32;
+        header.Integers["list-storage"] = (int)VectorEncoding.Float32;
         Assert.Contains("this index kind expects 'ListLengths' (id 8) there", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
     }
 
@@ -105,7 +105,7 @@ public class CraftedInvertedFileTests
     [Trait("Weakness", "CWE-20 input validation")]
     public void AFullVectorLocationThatDisagreesWithTheSections_IsRejected()
     {
-        using InvertedFileIndex external = PersistenceSamples.InvertedFile(ListStorage.Scalar8Bit, rescoreDepth: 3, fullVectors: FullVectorLocation.ExternalSource);
+        using InvertedFileIndex external = PersistenceSamples.InvertedFile(VectorEncoding.Scalar8Bit, rescoreDepth: 3, fullVectors: FullVectorLocation.ExternalSource);
         byte[] file = IndexFileBytes.Save(external);
         IndexHeader header = IndexFileBytes.CopyHeader(IndexFileBytes.Header(file));
         Assert.Equal(1, header.Integers["full-vector-location"]);
@@ -118,7 +118,7 @@ public class CraftedInvertedFileTests
         Assert.Contains("the field 'full-vector-location' is 2; expected a value in [0, 1]", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
 
         // Claimed external over a file that stores the vectors.
-        using InvertedFileIndex memory = PersistenceSamples.InvertedFile(ListStorage.Scalar8Bit, rescoreDepth: 3);
+        using InvertedFileIndex memory = PersistenceSamples.InvertedFile(VectorEncoding.Scalar8Bit, rescoreDepth: 3);
         byte[] withVectors = IndexFileBytes.Save(memory);
         IndexHeader memoryHeader = IndexFileBytes.CopyHeader(IndexFileBytes.Header(withVectors));
         Assert.False(memoryHeader.Integers.ContainsKey("full-vector-location"));
@@ -130,7 +130,7 @@ public class CraftedInvertedFileTests
     [Trait("Weakness", "CWE-20 input validation")]
     public void ABrokenOrMisplacedRotation_IsRejected()
     {
-        using InvertedFileIndex rotated = PersistenceSamples.InvertedFile(ListStorage.ProductCodes, dimension: 4, rotation: SubspaceRotation.VarianceBalanced);
+        using InvertedFileIndex rotated = PersistenceSamples.InvertedFile(VectorEncoding.ProductCodes, dimension: 4, rotation: SubspaceRotation.VarianceBalanced);
         byte[] file = IndexFileBytes.Save(rotated);
         using (var loaded = IndexFile.Load<InvertedFileIndex>(new MemoryStream(file), IndexLoadOptions.Untrusted))
         {
@@ -155,7 +155,7 @@ public class CraftedInvertedFileTests
         Assert.Contains("the field 'product-rotation' is 5; expected a value in [0, 1]", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
 
         // The field on a file without the section.
-        using InvertedFileIndex plain = PersistenceSamples.InvertedFile(ListStorage.ProductCodes, dimension: 4);
+        using InvertedFileIndex plain = PersistenceSamples.InvertedFile(VectorEncoding.ProductCodes, dimension: 4);
         byte[] plainFile = IndexFileBytes.Save(plain);
         IndexHeader plainHeader = IndexFileBytes.CopyHeader(IndexFileBytes.Header(plainFile));
         plainHeader.Integers["product-rotation"] = 1;
@@ -170,9 +170,9 @@ public class CraftedInvertedFileTests
         return Rejection.Assert(file).Message;
     }
 
-    private static string Reject(ListStorage storage, Action<byte[]> damage, int rescoreDepth = 0)
+    private static string Reject(VectorEncoding storage, Action<byte[]> damage, int rescoreDepth = 0)
     {
-        using InvertedFileIndex index = PersistenceSamples.InvertedFile(storage, DistanceMetric.SquaredEuclidean, dimension: storage == ListStorage.ProductCodes ? 2 : 3, rescoreDepth: rescoreDepth);
+        using InvertedFileIndex index = PersistenceSamples.InvertedFile(storage, DistanceMetric.SquaredEuclidean, dimension: storage == VectorEncoding.ProductCodes ? 2 : 3, rescoreDepth: rescoreDepth);
         byte[] file = IndexFileBytes.Save(index);
         damage(file);
         IndexFileBytes.FixChecksums(file);

@@ -48,7 +48,7 @@ public class GoldenFileTests
 
         using var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(fixture), IndexLoadOptions.Untrusted);
         Assert.Equal((7, 3, DistanceMetric.Cosine), (loaded.Count, loaded.Dimension, loaded.Metric));
-        Assert.Equal((VectorStorage.Scalar8Bit, 4, true, true), (loaded.Storage, loaded.RescoreDepth, loaded.KeepsFullVectors, loaded.IsTrained));
+        Assert.Equal((VectorEncoding.Scalar8Bit, 4, true, true), (loaded.Options.Encoding, loaded.Options.RescoreDepth, loaded.KeepsFullVectors, loaded.IsTrained));
 
         // The full vectors are the rows added, at unit length; the removed id is gone. Re-scoring every item gives the
         // answer of a float32 exact index over the same rows (an independent index's answer).
@@ -86,7 +86,7 @@ public class GoldenFileTests
 
         using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(fixture), IndexLoadOptions.Untrusted);
         Assert.Equal((22, 3, DistanceMetric.SquaredEuclidean), (loaded.Count, loaded.Dimension, loaded.Metric));
-        Assert.Equal((3, 16, 11, 1), (loaded.Options.LinksPerNode, loaded.Options.BuildWidth, loaded.Options.Seed, loaded.Options.BuildParallelism));
+        Assert.Equal((3, 16, 11, 1), (loaded.Options.LinksPerNode, loaded.Options.BuildWidth, loaded.Options.Seed, loaded.Options.MaxDegreeOfParallelism));
         float[] data = ClusteredData.Generate(24, 3, 4, 0.3f, 11);
         using var exact = new ExactIndex(3, DistanceMetric.SquaredEuclidean);
         var row = new float[3];
@@ -116,7 +116,7 @@ public class GoldenFileTests
     public void InvertedFileFixtureOfVersion1_LoadsToItsContents()
     {
         // 8-bit codes with full vectors kept: every part of the kind (centroids, ranges, lists, ids, vectors) is in it.
-        using InvertedFileIndex built = PersistenceSamples.InvertedFile(ListStorage.Scalar8Bit, count: 20, rescoreDepth: 6);
+        using InvertedFileIndex built = PersistenceSamples.InvertedFile(VectorEncoding.Scalar8Bit, count: 20, rescoreDepth: 6);
         byte[] fixture = Fixture("ivf-v1.vkx", IndexFileBytes.Save(built));
         Assert.Equal(1u, BinaryPrimitives.ReadUInt32LittleEndian(fixture.AsSpan(8)));
         Assert.Equal((uint)IndexKind.InvertedFile, (uint)IndexFileBytes.Header(fixture).Kind);
@@ -124,7 +124,7 @@ public class GoldenFileTests
         using var loaded = IndexFile.Load<InvertedFileIndex>(new MemoryStream(fixture), IndexLoadOptions.Untrusted);
         Assert.Equal((18, 3, DistanceMetric.SquaredEuclidean, true), (loaded.Count, loaded.Dimension, loaded.Metric, loaded.IsTrained));
         InvertedFileOptions options = loaded.Options;
-        Assert.Equal((4, 2, ListStorage.Scalar8Bit, 6, 3, 13, 1), (options.ListCount, options.ListsProbed, options.Storage, options.RescoreDepth, options.TrainingIterations, options.Seed, options.TrainingParallelism));
+        Assert.Equal((4, 2, VectorEncoding.Scalar8Bit, 6, 3, 13, 1), (options.ListCount, options.SearchWidth, options.Encoding, options.RescoreDepth, options.MaxIterations, options.Seed, options.MaxDegreeOfParallelism));
         Assert.True(loaded.KeepsFullVectors);
         Assert.Equal(18, loaded.ListLengths().Sum());
         Assert.Equal(12, loaded.Centroids.Length);

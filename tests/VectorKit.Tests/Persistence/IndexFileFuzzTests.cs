@@ -88,7 +88,7 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
             corpus.Add(IndexFileBytes.Save(empty));
         }
 
-        using (var untrained = new InvertedFileIndex(3, DistanceMetric.InnerProduct, new InvertedFileOptions { ListCount = 3, Storage = ListStorage.Scalar8Bit, RescoreDepth = 2 }))
+        using (var untrained = new InvertedFileIndex(3, DistanceMetric.InnerProduct, new InvertedFileOptions { ListCount = 3, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 2 }))
         {
             corpus.Add(IndexFileBytes.Save(untrained));
         }

@@ -46,7 +46,7 @@ public class IndexFileRoundTripTests
         float[] data = Data(components, n, d, seed);
         long[] ids = Enumerable.Range(0, n).Select(i => ((long)i * 7919) - 3000).ToArray();
         int depth = depthSeed % 3 == 0 ? 0 : 1 + (depthSeed % 17);
-        using var index = new ExactIndex(d, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = depth });
+        using var index = new ExactIndex(d, metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = depth });
 
         // Trained on rows of their own, so some data falls outside the ranges and is clamped.
         index.Train(Data([.. components, .. Enumerable.Range(0, 16 * d)], 16, d, seed ^ 77));
@@ -59,7 +59,7 @@ public class IndexFileRoundTripTests
 
         byte[] file = IndexFileBytes.Save(index);
         using var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(file));
-        Assert.Equal((VectorStorage.Scalar8Bit, depth, depth > 0, true), (loaded.Storage, loaded.RescoreDepth, loaded.KeepsFullVectors, loaded.IsTrained));
+        Assert.Equal((VectorEncoding.Scalar8Bit, depth, depth > 0, true), (loaded.Options.Encoding, loaded.Options.RescoreDepth, loaded.KeepsFullVectors, loaded.IsTrained));
         AssertSameContents(index, loaded, ids, seed);
         Assert.Equal(file, IndexFileBytes.Save(loaded));
 
@@ -84,11 +84,11 @@ public class IndexFileRoundTripTests
     [InlineData(DistanceMetric.Cosine, 4)]
     public void UntrainedExactIndexWith8BitStorage_RoundTrips_AndTrainsLikeTheOriginal(DistanceMetric metric, int rescoreDepth)
     {
-        using var index = new ExactIndex(4, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth });
+        using var index = new ExactIndex(4, metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth });
         byte[] file = IndexFileBytes.Save(index);
         using var loaded = IndexFile.Load<ExactIndex>(new MemoryStream(file), IndexLoadOptions.Untrusted);
         Assert.False(loaded.IsTrained);
-        Assert.Equal((0, 4, metric, VectorStorage.Scalar8Bit, rescoreDepth), (loaded.Count, loaded.Dimension, loaded.Metric, loaded.Storage, loaded.RescoreDepth));
+        Assert.Equal((0, 4, metric, VectorEncoding.Scalar8Bit, rescoreDepth), (loaded.Count, loaded.Dimension, loaded.Metric, loaded.Options.Encoding, loaded.Options.RescoreDepth));
         Assert.Throws<IndexNotTrainedException>(() => loaded.Search(new float[] { 1, 0, 0, 0 }, 1));
         Assert.Equal(file, IndexFileBytes.Save(loaded));
 
@@ -132,9 +132,9 @@ public class IndexFileRoundTripTests
             LinksPerNode = links,
             BottomLayerLinks = linksSeed % 2 == 0 ? null : links + (linksSeed % 11),
             BuildWidth = 8 + (linksSeed % 40),
-            DefaultSearchWidth = 5 + (seed & 31),
+            SearchWidth = 5 + (seed & 31),
             Seed = seed,
-            BuildParallelism = 1 + (linksSeed % 2),
+            MaxDegreeOfParallelism = 1 + (linksSeed % 2),
             FilteredExactScanFraction = (linksSeed % 5) / 10.0,
         };
         using var graph = new GraphIndex(d, metric, options);
@@ -151,8 +151,8 @@ public class IndexFileRoundTripTests
         AssertSameContents(graph, loaded, ids, seed);
         GraphIndexOptions back = loaded.Options;
         Assert.Equal(
-            (options.LinksPerNode, options.BottomLayerLinks, options.BuildWidth, options.DefaultSearchWidth, options.Seed, options.BuildParallelism, options.FilteredExactScanFraction),
-            (back.LinksPerNode, back.BottomLayerLinks, back.BuildWidth, back.DefaultSearchWidth, back.Seed, back.BuildParallelism, back.FilteredExactScanFraction));
+            (options.LinksPerNode, options.BottomLayerLinks, options.BuildWidth, options.SearchWidth, options.Seed, options.MaxDegreeOfParallelism, options.FilteredExactScanFraction),
+            (back.LinksPerNode, back.BottomLayerLinks, back.BuildWidth, back.SearchWidth, back.Seed, back.MaxDegreeOfParallelism, back.FilteredExactScanFraction));
         Assert.Equal(graph.CheckInvariants(), loaded.CheckInvariants());
         Assert.Equal(file, IndexFileBytes.Save(loaded));
 
@@ -177,7 +177,7 @@ public class IndexFileRoundTripTests
         float[] data = Data(components, n, d, seed);
         long[] ids = Enumerable.Range(0, n).Select(i => ((long)i * 7919) + 3).ToArray();
         int depth = depthSeed % 3 == 0 ? 0 : 1 + (depthSeed % 30);
-        var options = new GraphIndexOptions { LinksPerNode = 4, BuildWidth = 24, Seed = seed, BuildParallelism = 1, Storage = VectorStorage.Scalar8Bit, RescoreDepth = depth };
+        var options = new GraphIndexOptions { LinksPerNode = 4, BuildWidth = 24, Seed = seed, MaxDegreeOfParallelism = 1, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = depth };
         using var graph = new GraphIndex(d, metric, options);
         graph.Train(n > 0 ? data : Enumerable.Repeat(1f, d).ToArray());
         graph.AddRange(ids, data);
@@ -190,7 +190,7 @@ public class IndexFileRoundTripTests
         byte[] file = IndexFileBytes.Save(graph);
         using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(file), IndexLoadOptions.Untrusted);
         AssertSameContents(graph, loaded, ids, seed);
-        Assert.Equal((VectorStorage.Scalar8Bit, depth, graph.KeepsFullVectors), (loaded.Options.Storage, loaded.Options.RescoreDepth, loaded.KeepsFullVectors));
+        Assert.Equal((VectorEncoding.Scalar8Bit, depth, graph.KeepsFullVectors), (loaded.Options.Encoding, loaded.Options.RescoreDepth, loaded.KeepsFullVectors));
         Assert.Equal(graph.CheckInvariants(), loaded.CheckInvariants());
         Assert.Equal(file, IndexFileBytes.Save(loaded));
 
@@ -205,11 +205,11 @@ public class IndexFileRoundTripTests
     [InlineData(DistanceMetric.Cosine, 6)]
     public void UntrainedScalarGraph_RoundTrips_AndTrainsLikeTheOriginal(DistanceMetric metric, int rescoreDepth)
     {
-        var options = new GraphIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth, BuildParallelism = 1 };
+        var options = new GraphIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth, MaxDegreeOfParallelism = 1 };
         using var graph = new GraphIndex(4, metric, options);
         using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(IndexFileBytes.Save(graph)), IndexLoadOptions.Untrusted);
         Assert.False(loaded.IsTrained);
-        Assert.Equal((VectorStorage.Scalar8Bit, rescoreDepth), (loaded.Options.Storage, loaded.Options.RescoreDepth));
+        Assert.Equal((VectorEncoding.Scalar8Bit, rescoreDepth), (loaded.Options.Encoding, loaded.Options.RescoreDepth));
         Assert.Throws<IndexNotTrainedException>(() => loaded.Add(1, [1, 2, 3, 4]));
         float[] data = ClusteredData.Generate(30, 4, 3, 0.3f, 5);
         long[] ids = Enumerable.Range(0, 30).Select(i => (long)i).ToArray();
@@ -238,7 +238,7 @@ public class IndexFileRoundTripTests
     public void InvertedFileIndex_RoundTripsWithIdenticalSearchResults(int[] components, byte dimensionSeed, byte metricSeed, byte storageSeed, int seed, byte removeSeed)
     {
         DistanceMetric metric = (DistanceMetric)(metricSeed % 3);
-        var storage = (ListStorage)(storageSeed % 3);
+        var storage = (VectorEncoding)(storageSeed % 3);
         int d = 1 + (dimensionSeed % 8);
         int n = Math.Min(components.Length / d, 120);
         float[] data = Data(components, n, d, seed);
@@ -247,14 +247,14 @@ public class IndexFileRoundTripTests
         var options = new InvertedFileOptions
         {
             ListCount = 1 + (storageSeed % 5),
-            ListsProbed = 1 + (seed & 3),
-            Storage = storage,
+            SearchWidth = 1 + (seed & 3),
+            Encoding = storage,
             ProductCodeBytes = divisors[(storageSeed / 3) % divisors.Length],
             RescoreDepth = storageSeed % 2 == 0 ? 0 : 1 + (seed & 15),
-            TrainingIterations = 2,
-            TrainingSampleSize = (storageSeed & 4) == 0 ? null : 300,
+            MaxIterations = 2,
+            SampleSize = (storageSeed & 4) == 0 ? null : 300,
             Seed = seed,
-            TrainingParallelism = 1,
+            MaxDegreeOfParallelism = 1,
             ProductCodeRotation = (storageSeed & 8) == 0 ? SubspaceRotation.None : SubspaceRotation.VarianceBalanced,
         };
         using var index = new InvertedFileIndex(d, metric, options);
@@ -273,8 +273,8 @@ public class IndexFileRoundTripTests
         AssertSameContents(index, loaded, ids, seed);
         InvertedFileOptions back = loaded.Options;
         Assert.Equal(
-            (options.ListCount, options.ListsProbed, options.Storage, options.ProductCodeBytes, options.RescoreDepth, options.TrainingIterations, options.TrainingSampleSize, options.Seed, options.TrainingParallelism, options.ProductCodeRotation),
-            (back.ListCount, back.ListsProbed, back.Storage, back.ProductCodeBytes, back.RescoreDepth, back.TrainingIterations, back.TrainingSampleSize, back.Seed, back.TrainingParallelism, back.ProductCodeRotation));
+            (options.ListCount, options.SearchWidth, options.Encoding, options.ProductCodeBytes, options.RescoreDepth, options.MaxIterations, options.SampleSize, options.Seed, options.MaxDegreeOfParallelism, options.ProductCodeRotation),
+            (back.ListCount, back.SearchWidth, back.Encoding, back.ProductCodeBytes, back.RescoreDepth, back.MaxIterations, back.SampleSize, back.Seed, back.MaxDegreeOfParallelism, back.ProductCodeRotation));
         Assert.Equal(index.KeepsFullVectors, loaded.KeepsFullVectors);
         Assert.Equal(index.ListLengths(), loaded.ListLengths());
         Assert.Equal(index.Centroids.ToArray(), loaded.Centroids.ToArray());
@@ -304,18 +304,18 @@ public class IndexFileRoundTripTests
     }
 
     [Theory]
-    [InlineData(ListStorage.Float32, DistanceMetric.SquaredEuclidean, 0)]
-    [InlineData(ListStorage.ProductCodes, DistanceMetric.InnerProduct, 5)]
-    [InlineData(ListStorage.Scalar8Bit, DistanceMetric.Cosine, 5)]
-    [InlineData(ListStorage.Scalar8Bit, DistanceMetric.SquaredEuclidean, 0)]
-    public void UntrainedInvertedFile_RoundTrips_AndTrainsLikeTheOriginal(ListStorage storage, DistanceMetric metric, int rescoreDepth)
+    [InlineData(VectorEncoding.Float32, DistanceMetric.SquaredEuclidean, 0)]
+    [InlineData(VectorEncoding.ProductCodes, DistanceMetric.InnerProduct, 5)]
+    [InlineData(VectorEncoding.Scalar8Bit, DistanceMetric.Cosine, 5)]
+    [InlineData(VectorEncoding.Scalar8Bit, DistanceMetric.SquaredEuclidean, 0)]
+    public void UntrainedInvertedFile_RoundTrips_AndTrainsLikeTheOriginal(VectorEncoding storage, DistanceMetric metric, int rescoreDepth)
     {
-        var options = new InvertedFileOptions { ListCount = 3, Storage = storage, ProductCodeBytes = 2, RescoreDepth = rescoreDepth, TrainingIterations = 3, Seed = 9, TrainingParallelism = 1 };
+        var options = new InvertedFileOptions { ListCount = 3, Encoding = storage, ProductCodeBytes = 2, RescoreDepth = rescoreDepth, MaxIterations = 3, Seed = 9, MaxDegreeOfParallelism = 1 };
         using var index = new InvertedFileIndex(4, metric, options);
         byte[] file = IndexFileBytes.Save(index);
         using var loaded = IndexFile.Load<InvertedFileIndex>(new MemoryStream(file), IndexLoadOptions.Untrusted);
         Assert.False(loaded.IsTrained);
-        Assert.Equal((0, 4, metric, storage, rescoreDepth, index.KeepsFullVectors), (loaded.Count, loaded.Dimension, loaded.Metric, loaded.Options.Storage, loaded.Options.RescoreDepth, loaded.KeepsFullVectors));
+        Assert.Equal((0, 4, metric, storage, rescoreDepth, index.KeepsFullVectors), (loaded.Count, loaded.Dimension, loaded.Metric, loaded.Options.Encoding, loaded.Options.RescoreDepth, loaded.KeepsFullVectors));
         Assert.Throws<IndexNotTrainedException>(() => loaded.Search(new float[] { 1, 0, 0, 0 }, 1));
         Assert.Equal(file, IndexFileBytes.Save(loaded));
 
@@ -428,10 +428,10 @@ public class IndexFileRoundTripTests
     }
 
     [Theory]
-    [InlineData(ListStorage.Float32)]
-    [InlineData(ListStorage.ProductCodes)]
-    [InlineData(ListStorage.Scalar8Bit)]
-    public void InvertedFileFromANonSeekableTrickle_LoadsTheSameIndex(ListStorage storage)
+    [InlineData(VectorEncoding.Float32)]
+    [InlineData(VectorEncoding.ProductCodes)]
+    [InlineData(VectorEncoding.Scalar8Bit)]
+    public void InvertedFileFromANonSeekableTrickle_LoadsTheSameIndex(VectorEncoding storage)
     {
         // Per-list code arrays grow with the data when the stream's length is unknown.
         using InvertedFileIndex index = PersistenceSamples.InvertedFile(storage, DistanceMetric.InnerProduct, count: 200, dimension: 4, rescoreDepth: 7);

@@ -28,7 +28,7 @@ internal static class PersistenceSamples
         int seed = 7,
         FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory)
     {
-        var index = new ExactIndex(dimension, metric, new ExactIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = fullVectors });
+        var index = new ExactIndex(dimension, metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = fullVectors });
         float[] data = ClusteredData.Generate(count, dimension, 3, 0.3f, seed);
         index.Train(data);
         index.AddRange(Enumerable.Range(0, count).Select(i => 1000L + (i * 7)).ToArray(), data);
@@ -39,7 +39,7 @@ internal static class PersistenceSamples
     /// <summary>A small graph with upper layers (few links make levels ≥ 1 common) and two removed items.</summary>
     public static GraphIndex Graph(int count = 40, int dimension = 4, DistanceMetric metric = DistanceMetric.SquaredEuclidean, int seed = 11, bool remove = true)
     {
-        var graph = new GraphIndex(dimension, metric, new GraphIndexOptions { LinksPerNode = 3, BuildWidth = 16, Seed = seed, BuildParallelism = 1 });
+        var graph = new GraphIndex(dimension, metric, new GraphIndexOptions { LinksPerNode = 3, BuildWidth = 16, Seed = seed, MaxDegreeOfParallelism = 1 });
         float[] data = ClusteredData.Generate(count, dimension, 4, 0.3f, seed);
         graph.AddRange(Enumerable.Range(0, count).Select(i => 500L + (i * 3)).ToArray(), data);
         if (remove && count > 4)
@@ -62,7 +62,7 @@ internal static class PersistenceSamples
         int seed = 11,
         FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory)
     {
-        var graph = new GraphIndex(dimension, metric, new GraphIndexOptions { LinksPerNode = 3, BuildWidth = 16, Seed = seed, BuildParallelism = 1, Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = fullVectors });
+        var graph = new GraphIndex(dimension, metric, new GraphIndexOptions { LinksPerNode = 3, BuildWidth = 16, Seed = seed, MaxDegreeOfParallelism = 1, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = fullVectors });
         float[] data = ClusteredData.Generate(count, dimension, 4, 0.3f, seed);
         graph.Train(data);
         graph.AddRange(Enumerable.Range(0, count).Select(i => 500L + (i * 3)).ToArray(), data);
@@ -75,7 +75,7 @@ internal static class PersistenceSamples
     /// 256 rows of the same clusters under product codes (which need 256 training rows).
     /// </summary>
     public static InvertedFileIndex InvertedFile(
-        ListStorage storage,
+        VectorEncoding storage,
         DistanceMetric metric = DistanceMetric.SquaredEuclidean,
         int count = 30,
         int dimension = 3,
@@ -89,18 +89,18 @@ internal static class PersistenceSamples
         {
             ProductCodeRotation = rotation,
             ListCount = 4,
-            ListsProbed = 2,
-            Storage = storage,
+            SearchWidth = 2,
+            Encoding = storage,
             ProductCodeBytes = dimension,
             RescoreDepth = rescoreDepth,
-            TrainingIterations = 3,
+            MaxIterations = 3,
             Seed = seed,
-            TrainingParallelism = 1,
+            MaxDegreeOfParallelism = 1,
             FullVectors = fullVectors,
         };
         var index = new InvertedFileIndex(dimension, metric, options);
         float[] data = ClusteredData.Generate(count, dimension, 4, 0.3f, seed);
-        index.Train(storage == ListStorage.ProductCodes ? ClusteredData.Generate(256, dimension, 4, 0.3f, seed + 1) : data);
+        index.Train(storage == VectorEncoding.ProductCodes ? ClusteredData.Generate(256, dimension, 4, 0.3f, seed + 1) : data);
         index.AddRange(InvertedFileIds(count), data);
         if (remove && count > 4)
         {

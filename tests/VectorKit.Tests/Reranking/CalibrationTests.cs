@@ -121,7 +121,7 @@ public class CalibrationTests
     public void SearchWidths_AreTriedOnAGraphIndex_AndTheChosenOneIsReported()
     {
         var world = new LineWorld(3000, 20, seed: 61);
-        using var graph = new GraphIndex(2, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { Seed = 2, BuildParallelism = 1 });
+        using var graph = new GraphIndex(2, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { Seed = 2, MaxDegreeOfParallelism = 1 });
         graph.AddRange(Enumerable.Range(0, world.Count).Select(i => (long)i).ToArray(), world.Vectors);
         var options = new CalibrationOptions { TargetRecall = 0.9, FinalCount = K, MaxUncertainty = 0.08, SearchWidths = [16, 400], MaxDegreeOfParallelism = 1 };
         double[] sample = world.Queries(RerankingCalibration.RequiredSampleSize(options), seed: 62);

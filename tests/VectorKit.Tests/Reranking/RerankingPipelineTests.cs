@@ -22,7 +22,7 @@ public class RerankingPipelineTests
         float[] items = ClusteredData.Generate(n, Dimension, clusters: 40, spread: 0.3f, seed: 3);
         float[] queryData = ClusteredData.Generate(queryCount, Dimension, clusters: 40, spread: 0.3f, seed: 4);
         long[] ids = Enumerable.Range(0, n).Select(i => (long)i).ToArray();
-        using var graph = new GraphIndex(Dimension, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { LinksPerNode = 4, BuildWidth = 16, Seed = 1, BuildParallelism = 1 });
+        using var graph = new GraphIndex(Dimension, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { LinksPerNode = 4, BuildWidth = 16, Seed = 1, MaxDegreeOfParallelism = 1 });
         graph.AddRange(ids, items);
         using var exact = new ExactIndex(Dimension, DistanceMetric.SquaredEuclidean);
         exact.AddRange(ids, items);

@@ -21,7 +21,7 @@ public sealed partial class ExactIndex
     private float[] _unitScratch = [];
 
     /// <summary>
-    /// Under <see cref="VectorStorage.Scalar8Bit"/>, learns each component's code range (minimum and maximum) from
+    /// Under <see cref="VectorEncoding.Scalar8Bit"/>, learns each component's code range (minimum and maximum) from
     /// <paramref name="sample"/>; under float32 storage it only validates the sample, since nothing is learnt.
     /// </summary>
     /// <param name="sample">
@@ -152,7 +152,7 @@ public sealed partial class ExactIndex
 
         ScalarQuantizer scalar = _scalar!;
         int k = destination.Length;
-        int depth = _keepsVectors || _readsExternally ? options.RescoreDepth ?? _rescoreDepth : 0;
+        int depth = _keepsVectors || _readsExternally ? options.RescoreDepth ?? _options.RescoreDepth : 0;
         IFullVectorSource? source = _source;
         if (depth > 0 && !_keepsVectors && source is null)
         {
@@ -215,7 +215,7 @@ public sealed partial class ExactIndex
     private unsafe void SearchCodesBatch(ReadOnlySpan<float> queries, int queryCount, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int d = Dimension;
-        if (_readsExternally && _source is null && (options.RescoreDepth ?? _rescoreDepth) > 0)
+        if (_readsExternally && _source is null && (options.RescoreDepth ?? _options.RescoreDepth) > 0)
         {
             SourceRows.ThrowNoSource(); // here, not wrapped in the parallel loop's AggregateException
         }

@@ -17,6 +17,7 @@ public sealed partial class ExactIndex
     {
         Dimension = dimension;
         Metric = metric;
+        _options = ExactIndexOptions.Default;
         _kernelPath = KernelDispatch.Widest;
         _vectors = vectors;
         _ids = ids;
@@ -28,7 +29,7 @@ public sealed partial class ExactIndex
     internal static bool KeepsSquaredNorms(DistanceMetric metric) => metric != DistanceMetric.Cosine;
 
     // Only the float32 batch kernel uses the norms.
-    private static bool KeepsSquaredNorms(DistanceMetric metric, VectorStorage storage) => storage == VectorStorage.Float32 && KeepsSquaredNorms(metric);
+    private static bool KeepsSquaredNorms(DistanceMetric metric, VectorEncoding storage) => storage == VectorEncoding.Float32 && KeepsSquaredNorms(metric);
 
     /// <summary>
     /// The squared norms of rows [<paramref name="first"/>, first + <paramref name="count"/>), exactly as an add
@@ -121,11 +122,9 @@ public sealed partial class ExactIndex
         Dimension = dimension;
         Metric = metric;
         _kernelPath = KernelDispatch.Widest;
-        _storage = VectorStorage.Scalar8Bit;
-        _rescoreDepth = rescoreDepth;
-        _fullVectors = location;
-        _readsExternally = rescoreDepth > 0 && location == FullVectorLocation.ExternalSource;
-        _keepsVectors = rescoreDepth > 0 && !_readsExternally;
+        _options = new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = location };
+        _readsExternally = _options.ReadsFullVectorsExternally;
+        _keepsVectors = _options.KeepsFullVectorsInMemory;
         _scalar = scalar;
         _codes = codes;
         _vectors = full ?? new VectorBuffer(dimension, 0);

@@ -23,15 +23,15 @@ namespace VectorKit.Indexes.Exact;
 /// cannot be proven complete (data far from the origin, where ‖q‖² + ‖x‖² − 2 q·x cancels) is answered by a single-query
 /// scan instead. A batch therefore returns exactly what single searches would. The filter is checked per row before
 /// its distance is computed.</para>
-/// <para><b>8-bit storage.</b> With <see cref="ExactIndexOptions.Storage"/> set to <see cref="VectorStorage.Scalar8Bit"/>
+/// <para><b>8-bit storage.</b> With <see cref="VectorIndexOptions.Encoding"/> set to <see cref="VectorEncoding.Scalar8Bit"/>
 /// the rows are one-byte-per-component codes (<see cref="ScalarQuantizer"/>, ranges learnt by <see cref="Train"/>,
 /// which must run before the first add) in one contiguous native block, and a search streams the codes once through
 /// the SIMD byte-code kernel: distances are those of the query to the decoded codes. With a positive
-/// <see cref="ExactIndexOptions.RescoreDepth"/> the full vectors are kept as well and the best candidates are re-scored
+/// <see cref="VectorIndexOptions.RescoreDepth"/> the full vectors are kept as well and the best candidates are re-scored
 /// exactly (the same numbers as a float32 exact index). A batch under 8-bit storage runs the single-query scan for
 /// each query, queries in parallel: the tiled kernel and its completeness proof are for float32 rows.</para>
 /// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
-/// <see cref="ExactIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
+/// <see cref="VectorIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
 /// only the codes: re-scoring reads each candidate's vector from the <see cref="IFullVectorSource"/> given at
 /// construction or attached later with <see cref="AttachFullVectors"/> (a loaded index has none until then; a search
 /// that would re-score without one throws <see cref="InvalidOperationException"/>). Under cosine the rows read are
@@ -59,9 +59,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     // 8-bit storage: the codes (null under float32) and their quantizer once trained. _vectors holds the rows under
     // float32, the full vectors under 8-bit storage with re-scoring from memory, and nothing (capacity 0) otherwise;
     // re-scoring from an external source reads _source.
-    private readonly VectorStorage _storage;
-    private readonly int _rescoreDepth;
-    private readonly FullVectorLocation _fullVectors;
+    private readonly ExactIndexOptions _options;
     private readonly bool _keepsVectors = true;
     private readonly bool _readsExternally;
     private IFullVectorSource? _source;
@@ -86,7 +84,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     /// <summary>Creates an empty exact index under 8-bit storage that re-scores from <paramref name="fullVectors"/>.</summary>
     /// <param name="dimension">Components per vector, at least 1.</param>
     /// <param name="metric">The distance metric.</param>
-    /// <param name="options">Options with <see cref="VectorStorage.Scalar8Bit"/> storage, a positive <see cref="ExactIndexOptions.RescoreDepth"/> and <see cref="ExactIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
+    /// <param name="options">Options with <see cref="VectorEncoding.Scalar8Bit"/> storage, a positive <see cref="VectorIndexOptions.RescoreDepth"/> and <see cref="VectorIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
     /// <param name="fullVectors">The full vector of every id that will be added (not owned by the index).</param>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
     /// <exception cref="ArgumentException">The source's dimension differs from <paramref name="dimension"/>.</exception>
@@ -112,20 +110,18 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         Dimension = dimension;
         Metric = metric;
         _kernelPath = kernelPath;
-        _storage = options.Storage;
-        _rescoreDepth = options.RescoreDepth;
+        _options = options;
         int capacity = options.InitialCapacity;
-        if (_storage == VectorStorage.Scalar8Bit)
+        if (options.Encoding == VectorEncoding.Scalar8Bit)
         {
-            _fullVectors = options.FullVectors;
-            _readsExternally = _rescoreDepth > 0 && _fullVectors == FullVectorLocation.ExternalSource;
-            _keepsVectors = _rescoreDepth > 0 && !_readsExternally;
+            _readsExternally = options.ReadsFullVectorsExternally;
+            _keepsVectors = options.KeepsFullVectorsInMemory;
             _codes = new CodeBuffer(ScalarQuantizer.PaddedLength(dimension), capacity);
         }
 
         _vectors = new VectorBuffer(dimension, _keepsVectors ? capacity : 0);
         _ids = new long[capacity];
-        _squaredNorms = KeepsSquaredNorms(metric, _storage) ? new float[capacity] : [];
+        _squaredNorms = KeepsSquaredNorms(metric, options.Encoding) ? new float[capacity] : [];
     }
 
     /// <inheritdoc/>
@@ -137,11 +133,8 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     /// <inheritdoc/>
     public int Count => Volatile.Read(ref _count);
 
-    /// <summary>How the vectors are stored: float32 rows, or 8-bit codes.</summary>
-    public VectorStorage Storage => _storage;
-
-    /// <summary>The default number of candidates re-scored exactly under 8-bit storage with full vectors kept (0: off).</summary>
-    public int RescoreDepth => _rescoreDepth;
+    /// <summary>The options the index was built with.</summary>
+    public ExactIndexOptions Options => _options;
 
     /// <summary>
     /// Whether adds and searches may run: always under float32 storage; under 8-bit storage once <see cref="Train"/>
@@ -151,15 +144,9 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
 
     /// <summary>
     /// Whether full float32 vectors are held in the index: under float32 storage, or under 8-bit storage with a positive
-    /// <see cref="RescoreDepth"/> and <see cref="FullVectors"/> = <see cref="FullVectorLocation.InIndexMemory"/>.
+    /// <see cref="VectorIndexOptions.RescoreDepth"/> and <see cref="VectorIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.InIndexMemory"/>.
     /// </summary>
     public bool KeepsFullVectors => _keepsVectors;
-
-    /// <summary>
-    /// Where re-scoring reads full vectors, as set by <see cref="ExactIndexOptions.FullVectors"/> under 8-bit storage;
-    /// always <see cref="FullVectorLocation.InIndexMemory"/> under float32 storage, whose rows are the full vectors.
-    /// </summary>
-    public FullVectorLocation FullVectors => _fullVectors;
 
     /// <inheritdoc/>
     public bool ReadsFullVectorsExternally => _readsExternally;
@@ -378,7 +365,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     /// <inheritdoc/>
     /// <remarks>
     /// Under 8-bit storage with full vectors kept (in memory or in an attached source), <see cref="SearchOptions.RescoreDepth"/> (default
-    /// <see cref="RescoreDepth"/>) candidates by code distance are re-scored exactly and the returned distances are exact.
+    /// <see cref="VectorIndexOptions.RescoreDepth"/>) candidates by code distance are re-scored exactly and the returned distances are exact.
     /// </remarks>
     /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
     /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
@@ -627,7 +614,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         if (_ids.Length < capacity)
         {
             Array.Resize(ref _ids, capacity);
-            if (KeepsSquaredNorms(Metric, _storage))
+            if (KeepsSquaredNorms(Metric, _options.Encoding))
             {
                 Array.Resize(ref _squaredNorms, capacity);
             }

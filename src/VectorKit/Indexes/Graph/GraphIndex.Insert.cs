@@ -11,7 +11,7 @@ public sealed partial class GraphIndex
     {
         int completed = 0;
         int step = Math.Max(1, n / 100);
-        var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveBuildParallelism, CancellationToken = cancellationToken };
+        var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveParallelism, CancellationToken = cancellationToken };
         Parallel.For(0, n, parallel, i =>
         {
             Link(first + i);

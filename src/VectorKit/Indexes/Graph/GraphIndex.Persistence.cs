@@ -268,14 +268,14 @@ public sealed partial class GraphIndex
     private static void ValidateRows(GraphIndexParts parts)
     {
         GraphIndexOptions options = parts.Options;
-        bool codes = options.Storage == VectorStorage.Scalar8Bit;
+        bool codes = options.Encoding == VectorEncoding.Scalar8Bit;
         bool external = options.FullVectors == FullVectorLocation.ExternalSource;
         bool full = !codes || (options.RescoreDepth > 0 && !external);
         if (full != parts.Vectors is not null || (parts.Vectors is not null && (parts.Vectors.Dimension != parts.Dimension || parts.Vectors.Capacity < parts.Slots)))
         {
             throw new InvalidDataException(full
-                ? $"the {options.Storage} graph (re-score depth {options.RescoreDepth}) needs float vectors for its {parts.Slots} slots"
-                : $"the {options.Storage} graph {(options.RescoreDepth > 0 && external ? "re-scoring from an external source" : "without re-scoring")} keeps no float vectors, yet some are given");
+                ? $"the {options.Encoding} graph (re-score depth {options.RescoreDepth}) needs float vectors for its {parts.Slots} slots"
+                : $"the {options.Encoding} graph {(options.RescoreDepth > 0 && external ? "re-scoring from an external source" : "without re-scoring")} keeps no float vectors, yet some are given");
         }
 
         if (codes != parts.Codes is not null || (parts.Codes is not null && (parts.Codes.Dimension != ScalarQuantizer.PaddedLength(parts.Dimension) || parts.Codes.Capacity < parts.Slots)))
@@ -287,7 +287,7 @@ public sealed partial class GraphIndex
 
         if (parts.ScalarRanges is not null && (!codes || parts.ScalarRanges.Length != 2 * parts.Dimension))
         {
-            throw new InvalidDataException($"scalar ranges of {parts.ScalarRanges.Length} values do not fit a {options.Storage} graph of dimension {parts.Dimension}");
+            throw new InvalidDataException($"scalar ranges of {parts.ScalarRanges.Length} values do not fit a {options.Encoding} graph of dimension {parts.Dimension}");
         }
 
         if (codes && parts.ScalarRanges is null && parts.Slots > 0)

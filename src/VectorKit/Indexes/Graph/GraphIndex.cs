@@ -18,14 +18,14 @@ namespace VectorKit.Indexes.Graph;
 /// nearer to the new item than to every neighbour already kept. Links are bidirectional; a list that outgrows its
 /// limit is pruned by the same heuristic.</para>
 /// <para><b>Storage.</b> Vectors sit in one contiguous native block as in the exact index; links in flat int arrays
-/// (see <see cref="MemoryBytes"/>). Under <see cref="VectorStorage.Scalar8Bit"/> (<see cref="GraphIndexOptions.Storage"/>)
+/// (see <see cref="MemoryBytes"/>). Under <see cref="VectorEncoding.Scalar8Bit"/> (<see cref="VectorIndexOptions.Encoding"/>)
 /// the block holds one 8-bit code per vector instead (a quarter of the bytes; <see cref="Train"/> learns the ranges
 /// first), and every distance the graph computes (walks, neighbour selection, removal repair, re-linking, the
 /// filtered scan, <see cref="Compact()"/>) is computed on the codes: a query against a code on the SIMD byte-code
-/// kernel, a node against a node by decoding one of them. With a positive <see cref="GraphIndexOptions.RescoreDepth"/>
+/// kernel, a node against a node by decoding one of them. With a positive <see cref="VectorIndexOptions.RescoreDepth"/>
 /// the full vectors are kept beside the codes, and the best candidates of each search are re-scored on them.</para>
 /// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
-/// <see cref="GraphIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
+/// <see cref="VectorIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
 /// only the codes: re-scoring reads each candidate's vector from the <see cref="IFullVectorSource"/> given at
 /// construction or attached later with <see cref="AttachFullVectors"/> (a loaded index has none until then; a search
 /// that would re-score without one throws <see cref="InvalidOperationException"/>). Under cosine the rows read are
@@ -34,7 +34,7 @@ namespace VectorKit.Indexes.Graph;
 /// by the index. Under float32 storage the option is ignored: the rows are the full vectors.</para>
 /// <para><b>Results.</b> Under float32 storage, distances are those of the exact index (same kernels, bit for bit),
 /// best first, ties by id. A search keeps <c>max(k, width, depth)</c> candidates, width being
-/// <see cref="SearchOptions.SearchWidth"/> or <see cref="GraphIndexOptions.DefaultSearchWidth"/> and depth the re-score
+/// <see cref="SearchOptions.SearchWidth"/> or <see cref="GraphIndexOptions.SearchWidth"/> and depth the re-score
 /// depth when full vectors are kept (else 0); it may return fewer than k items when the graph walk reaches fewer
 /// (rare, on tiny or heavily filtered indexes). Under 8-bit codes, distances are to the decoded codes; with
 /// re-scoring, the best <c>max(k, depth)</c> candidates by code distance get the exact index's distances (bit for bit)
@@ -124,7 +124,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <param name="metric">The distance metric.</param>
     /// <param name="options">Graph options; <see langword="null"/> for <see cref="GraphIndexOptions.Default"/>.</param>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
-    /// <remarks>Under <see cref="VectorStorage.Scalar8Bit"/> the index must be trained (<see cref="Train"/>) before the first add or search.</remarks>
+    /// <remarks>Under <see cref="VectorEncoding.Scalar8Bit"/> the index must be trained (<see cref="Train"/>) before the first add or search.</remarks>
     public GraphIndex(int dimension, DistanceMetric metric, GraphIndexOptions? options = null)
     {
         if (dimension <= 0)
@@ -139,7 +139,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
         _path = KernelDispatch.For(dimension, KernelDispatch.Widest);
         _levelScale = 1.0 / Math.Log(_options.LinksPerNode);
         _levelRandom = new Random(_options.Seed);
-        if (_options.Storage == VectorStorage.Scalar8Bit)
+        if (_options.Encoding == VectorEncoding.Scalar8Bit)
         {
             _codes = new CodeBuffer(ScalarQuantizer.PaddedLength(dimension), _options.InitialCapacity);
             _readsExternally = _options.RescoreDepth > 0 && _options.FullVectors == FullVectorLocation.ExternalSource;
@@ -163,7 +163,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <summary>Creates an empty graph index under 8-bit storage that re-scores from <paramref name="fullVectors"/>.</summary>
     /// <param name="dimension">Components per vector, at least 1.</param>
     /// <param name="metric">The distance metric.</param>
-    /// <param name="options">Options with <see cref="VectorStorage.Scalar8Bit"/> storage, a positive <see cref="GraphIndexOptions.RescoreDepth"/> and <see cref="GraphIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
+    /// <param name="options">Options with <see cref="VectorEncoding.Scalar8Bit"/> storage, a positive <see cref="VectorIndexOptions.RescoreDepth"/> and <see cref="VectorIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
     /// <param name="fullVectors">The full vector of every id that will be added (not owned by the index).</param>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
     /// <exception cref="ArgumentException">The source's dimension differs from <paramref name="dimension"/>.</exception>
@@ -196,14 +196,14 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     public GraphIndexOptions Options => _options;
 
     /// <summary>
-    /// Whether the index can take vectors: always under <see cref="VectorStorage.Float32"/>; under
-    /// <see cref="VectorStorage.Scalar8Bit"/> once <see cref="Train"/> has run.
+    /// Whether the index can take vectors: always under <see cref="VectorEncoding.Float32"/>; under
+    /// <see cref="VectorEncoding.Scalar8Bit"/> once <see cref="Train"/> has run.
     /// </summary>
     public bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
 
     /// <summary>
     /// Whether the full float32 vectors are kept in memory beside the 8-bit codes for exact re-scoring (a positive
-    /// <see cref="GraphIndexOptions.RescoreDepth"/> with <see cref="GraphIndexOptions.FullVectors"/> =
+    /// <see cref="VectorIndexOptions.RescoreDepth"/> with <see cref="VectorIndexOptions.FullVectors"/> =
     /// <see cref="FullVectorLocation.InIndexMemory"/>).
     /// </summary>
     public bool KeepsFullVectors => _codes is not null && _options.RescoreDepth > 0 && !_readsExternally;
@@ -410,7 +410,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <inheritdoc/>
     public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors) => AddRange(ids, vectors, null, default);
 
-    /// <summary>Adds many vectors, linking them in parallel (<see cref="GraphIndexOptions.BuildParallelism"/> threads).</summary>
+    /// <summary>Adds many vectors, linking them in parallel (<see cref="GraphIndexOptions.MaxDegreeOfParallelism"/> threads).</summary>
     /// <param name="ids">One id per vector, none already present and no repeats.</param>
     /// <param name="vectors">The vectors, row after row: <c>ids.Length × Dimension</c> components.</param>
     /// <param name="progress">Optional; receives the number of vectors linked so far, from worker threads.</param>
@@ -695,7 +695,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
             SourceRows.ThrowNoSource();
         }
 
-        int width = Math.Max(Math.Max(destination.Length, depth), options.SearchWidth ?? _options.DefaultSearchWidth);
+        int width = Math.Max(Math.Max(destination.Length, depth), options.SearchWidth ?? _options.SearchWidth);
 
         // Codes are read in lanes of up to 16: the query gets zeros up to the code length, which meet zero scales.
         scoped Span<float> padded = default;

@@ -6,7 +6,7 @@ namespace VectorKit.Indexes.Graph;
 /// <see cref="ArgumentOutOfRangeException"/> whose message names the option and its allowed range.
 /// Instances are immutable once built and may be shared.
 /// </remarks>
-public sealed class GraphIndexOptions
+public sealed class GraphIndexOptions : VectorIndexOptions
 {
     /// <summary>The most links a node may keep on one layer: the upper bound of <see cref="LinksPerNode"/> and <see cref="BottomLayerLinks"/>.</summary>
     public const int MaxLinks = 512;
@@ -14,13 +14,10 @@ public sealed class GraphIndexOptions
     private readonly int _linksPerNode = 16;
     private readonly int? _bottomLayerLinks;
     private readonly int _buildWidth = 128;
-    private readonly int _defaultSearchWidth = 64;
+    private readonly int _searchWidth = 64;
     private readonly int _initialCapacity;
-    private readonly int _buildParallelism = -1;
+    private readonly int _maxDegreeOfParallelism = -1;
     private readonly double? _filteredExactScanFraction;
-    private readonly VectorStorage _storage = VectorStorage.Float32;
-    private readonly int _rescoreDepth;
-    private readonly FullVectorLocation _fullVectors = FullVectorLocation.InIndexMemory;
 
     /// <summary>The defaults: 16 links per node (32 on the bottom layer), build width 128, search width 64, seed 42, float32 vectors.</summary>
     public static GraphIndexOptions Default { get; } = new();
@@ -85,17 +82,17 @@ public sealed class GraphIndexOptions
     /// for k results always keeps at least k. Default 64.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 100000].</exception>
-    public int DefaultSearchWidth
+    public int SearchWidth
     {
-        get => _defaultSearchWidth;
+        get => _searchWidth;
         init
         {
             if (value < 1 || value > 100_000)
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(DefaultSearchWidth), value, "must be in [1, 100000]");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(SearchWidth), value, "must be in [1, 100000]");
             }
 
-            _defaultSearchWidth = value;
+            _searchWidth = value;
         }
     }
 
@@ -120,17 +117,17 @@ public sealed class GraphIndexOptions
 
     /// <summary>The most threads a batch insert (and <see cref="GraphIndex.Compact()"/>) uses; -1 (the default) means one per core.</summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
-    public int BuildParallelism
+    public int MaxDegreeOfParallelism
     {
-        get => _buildParallelism;
+        get => _maxDegreeOfParallelism;
         init
         {
             if (value == 0 || value < -1)
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(BuildParallelism), value, "must be -1 (all cores) or a positive thread count");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
             }
 
-            _buildParallelism = value;
+            _maxDegreeOfParallelism = value;
         }
     }
 
@@ -164,74 +161,8 @@ public sealed class GraphIndexOptions
         }
     }
 
-    /// <summary>
-    /// How the graph stores its vectors: <see cref="VectorStorage.Float32"/> (the default; exact distances) or
-    /// <see cref="VectorStorage.Scalar8Bit"/> (one byte per component, a quarter of the memory; the index must be
-    /// trained with <see cref="GraphIndex.Train"/> first, and every distance the graph computes is to decoded codes).
-    /// </summary>
-    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="VectorStorage"/>.</exception>
-    public VectorStorage Storage
-    {
-        get => _storage;
-        init
-        {
-            if (value is not (VectorStorage.Float32 or VectorStorage.Scalar8Bit))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(Storage), value, "must be Float32 or Scalar8Bit");
-            }
-
-            _storage = value;
-        }
-    }
-
-    /// <summary>
-    /// Under <see cref="VectorStorage.Scalar8Bit"/>: a positive value keeps every full float32 vector (in memory beside
-    /// its code, or in an external source: <see cref="FullVectors"/>), and each search re-scores that many of the walk's best candidates exactly on them (at least k; the walk
-    /// then keeps at least this many); <see cref="SearchOptions.RescoreDepth"/> overrides it per search. 0 (the default) keeps
-    /// no full vectors, so distances are the codes' approximations. Ignored under <see cref="VectorStorage.Float32"/>,
-    /// which is exact already.
-    /// </summary>
-    /// <exception cref="ArgumentOutOfRangeException">The value is negative or above 100000.</exception>
-    public int RescoreDepth
-    {
-        get => _rescoreDepth;
-        init
-        {
-            if (value < 0 || value > 100_000)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(RescoreDepth), value, "must be 0 (off) or in [1, 100000]");
-            }
-
-            _rescoreDepth = value;
-        }
-    }
-
-    /// <summary>
-    /// Where re-scoring (a positive <see cref="RescoreDepth"/> under <see cref="VectorStorage.Scalar8Bit"/>) reads full
-    /// vectors: a copy kept in the index's memory (the default), or an <see cref="Indexes.IFullVectorSource"/> attached
-    /// with <see cref="GraphIndex.AttachFullVectors"/>, such as a <c>VectorKit.IO.FileVectorSource</c> over the file the
-    /// vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's file,
-    /// at the cost of one read per re-scored candidate; the graph itself (walks, linking, removal repair,
-    /// <see cref="GraphIndex.Compact()"/>) works on the codes either way. Ignored when re-scoring is off, and under
-    /// <see cref="VectorStorage.Float32"/>, whose rows are the full vectors.
-    /// </summary>
-    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="FullVectorLocation"/>.</exception>
-    public FullVectorLocation FullVectors
-    {
-        get => _fullVectors;
-        init
-        {
-            if (value is not (FullVectorLocation.InIndexMemory or FullVectorLocation.ExternalSource))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(FullVectors), value, "must be InIndexMemory or ExternalSource");
-            }
-
-            _fullVectors = value;
-        }
-    }
-
     /// <summary>The bottom layer's link limit after applying the default.</summary>
     internal int EffectiveBottomLayerLinks => _bottomLayerLinks ?? Math.Min(MaxLinks, 2 * _linksPerNode);
 
-    internal int EffectiveBuildParallelism => _buildParallelism == -1 ? Environment.ProcessorCount : _buildParallelism;
+    internal int EffectiveParallelism => _maxDegreeOfParallelism == -1 ? Environment.ProcessorCount : _maxDegreeOfParallelism;
 }

@@ -111,7 +111,7 @@ public sealed partial class InvertedFileIndex
     {
         int lists = _options.ListCount;
         int count = parts.Count;
-        bool keepsFull = _options.KeepsFullInMemory;
+        bool keepsFull = _options.KeepsFullVectorsInMemory;
         if ((parts.FullVectors is not null) != keepsFull)
         {
             throw new InvalidDataException(keepsFull
@@ -219,11 +219,11 @@ public sealed partial class InvertedFileIndex
             }
         }
 
-        bool product = _options.Storage == ListStorage.ProductCodes;
-        bool scalar = _options.Storage == ListStorage.Scalar8Bit;
+        bool product = _options.Encoding == VectorEncoding.ProductCodes;
+        bool scalar = _options.Encoding == VectorEncoding.Scalar8Bit;
         if ((parts.ProductCodewords is not null) != product || (parts.ScalarRanges is not null) != scalar)
         {
-            throw new InvalidDataException($"the stored quantizer does not match the list storage {_options.Storage}");
+            throw new InvalidDataException($"the stored quantizer does not match the list storage {_options.Encoding}");
         }
 
         bool rotated = product && _options.ProductCodeRotation != SubspaceRotation.None;
@@ -257,7 +257,7 @@ public sealed partial class InvertedFileIndex
     // What a scan relies on beyond the lengths: float32 entries are finite; 8-bit codes keep the encoder's zero padding.
     private void CheckCodes(int list, byte[] codes, int length)
     {
-        if (_options.Storage == ListStorage.Float32)
+        if (_options.Encoding == VectorEncoding.Float32)
         {
             ReadOnlySpan<float> values = MemoryMarshal.Cast<byte, float>(codes);
             for (int i = 0; i < values.Length; i++)
@@ -268,7 +268,7 @@ public sealed partial class InvertedFileIndex
                 }
             }
         }
-        else if (_options.Storage == ListStorage.Scalar8Bit && _codeBytes > Dimension)
+        else if (_options.Encoding == VectorEncoding.Scalar8Bit && _codeBytes > Dimension)
         {
             for (int p = 0; p < length; p++)
             {

@@ -17,9 +17,9 @@ public sealed partial class InvertedFileIndex
 
     /// <inheritdoc/>
     /// <remarks>
-    /// Probes <see cref="SearchOptions.SearchWidth"/> lists (default <see cref="InvertedFileOptions.ListsProbed"/>) and,
+    /// Probes <see cref="SearchOptions.SearchWidth"/> lists (default <see cref="InvertedFileOptions.SearchWidth"/>) and,
     /// when full vectors are kept (in memory or in an attached source), re-scores <see cref="SearchOptions.RescoreDepth"/> candidates (default
-    /// <see cref="InvertedFileOptions.RescoreDepth"/>) exactly. Returns fewer than k hits only when the probed lists
+    /// <see cref="VectorIndexOptions.RescoreDepth"/>) exactly. Returns fewer than k hits only when the probed lists
     /// hold fewer than k (passing) vectors.
     /// </remarks>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
@@ -121,7 +121,7 @@ public sealed partial class InvertedFileIndex
 
         int k = destination.Length;
         int lists = _options.ListCount;
-        int probes = Math.Min(options.SearchWidth ?? _options.ListsProbed, lists);
+        int probes = Math.Min(options.SearchWidth ?? _options.SearchWidth, lists);
         int depth = _options.Rescores ? options.RescoreDepth ?? _options.RescoreDepth : 0;
         bool rescore = depth > 0;
         IFullVectorSource? source = _source;
@@ -209,7 +209,7 @@ public sealed partial class InvertedFileIndex
             _scalar.Pad(q, prepared);
         }
 
-        Span<float> residual = _options.Storage == ListStorage.Float32 ? default : scratch.Residual(Math.Max(d, _scalar?.CodeBytes ?? 0));
+        Span<float> residual = _options.Encoding == VectorEncoding.Float32 ? default : scratch.Residual(Math.Max(d, _scalar?.CodeBytes ?? 0));
         foreach (SearchHit probe in probes)
         {
             int list = (int)probe.Id;
@@ -226,7 +226,7 @@ public sealed partial class InvertedFileIndex
             // Compressed codes hold x − c (rotated: R·(x − c)): under squared L2 the query moves by −c (R·q by −R·c);
             // under a dot product q·c is added (R preserves dot products, so the table of R·q serves the rest).
             float offset = 0;
-            if (_options.Storage != ListStorage.Float32)
+            if (_options.Encoding != VectorEncoding.Float32)
             {
                 if (squared)
                 {
@@ -260,12 +260,12 @@ public sealed partial class InvertedFileIndex
             {
                 int n = Math.Min(ScanBlock, length - start);
                 ref byte first = ref Unsafe.Add(ref codes, (nint)start * size);
-                switch (_options.Storage)
+                switch (_options.Encoding)
                 {
-                    case ListStorage.Float32:
+                    case VectorEncoding.Float32:
                         ManyKernel.Compute<TStep>(_kernelPath, ref query, ref Unsafe.As<byte, float>(ref first), d, n, ref distances);
                         break;
-                    case ListStorage.ProductCodes:
+                    case VectorEncoding.ProductCodes:
                         _product!.Scan(ref MemoryMarshal.GetReference(table), ref first, n, ref distances);
                         break;
                     default:

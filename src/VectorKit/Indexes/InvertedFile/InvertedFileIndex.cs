@@ -11,7 +11,7 @@ namespace VectorKit.Indexes.InvertedFile;
 /// An inverted-file index: k-means splits the space into <see cref="InvertedFileOptions.ListCount"/> cells, each
 /// vector is stored in the list of its nearest centroid, and a search scans only the lists of the query's nearest
 /// centroids. Lists hold float32 vectors, product-quantization codes or 8-bit scalar codes
-/// (<see cref="InvertedFileOptions.Storage"/>), optionally with the full vectors kept for exact re-scoring.
+/// (<see cref="VectorIndexOptions.Encoding"/>), optionally with the full vectors kept for exact re-scoring.
 /// </summary>
 /// <remarks>
 /// <para><b>Training first.</b> <see cref="Train"/> learns the centroids (and the residual quantizer) from a sample;
@@ -27,7 +27,7 @@ namespace VectorKit.Indexes.InvertedFile;
 /// Compressed lists report the distance to the code's reconstruction, unless re-scoring is on, in which case the
 /// returned hits carry exact distances computed on the full vectors. A filter is checked during the scan of the probed
 /// lists, so fewer than k results come back when the probed lists hold fewer than k passing items.</para>
-/// <para><b>Full vectors from a source.</b> With <see cref="InvertedFileOptions.FullVectors"/> set to
+/// <para><b>Full vectors from a source.</b> With <see cref="VectorIndexOptions.FullVectors"/> set to
 /// <see cref="FullVectorLocation.ExternalSource"/>, the index keeps no full vectors: re-scoring reads each candidate's
 /// vector from the <see cref="IFullVectorSource"/> given at construction or attached later with
 /// <see cref="AttachFullVectors"/> (a loaded index has none until then; a search that would re-score without one
@@ -88,7 +88,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     /// <summary>Creates an empty, untrained inverted-file index that re-scores from <paramref name="fullVectors"/>.</summary>
     /// <param name="dimension">Components per vector, at least 1.</param>
     /// <param name="metric">The distance metric.</param>
-    /// <param name="options">Options with compressed storage, a positive <see cref="InvertedFileOptions.RescoreDepth"/> and <see cref="InvertedFileOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
+    /// <param name="options">Options with compressed storage, a positive <see cref="VectorIndexOptions.RescoreDepth"/> and <see cref="VectorIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.ExternalSource"/>.</param>
     /// <param name="fullVectors">The full vector of every id that will be added (not owned by the index).</param>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
     /// <exception cref="ArgumentException">The source's dimension differs, or the product code size does not divide the dimension.</exception>
@@ -97,7 +97,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     public InvertedFileIndex(int dimension, DistanceMetric metric, InvertedFileOptions options, IFullVectorSource fullVectors)
         : this(dimension, metric, options ?? throw new ArgumentNullException(nameof(options)), KernelDispatch.Widest)
     {
-        SourceRows.CheckAttach(fullVectors, dimension, _options.ReadsExternally);
+        SourceRows.CheckAttach(fullVectors, dimension, _options.ReadsFullVectorsExternally);
         _source = fullVectors;
     }
 
@@ -117,7 +117,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
         VectorChecks.CheckMetric(metric);
         options ??= InvertedFileOptions.Default;
-        if (options.Storage == ListStorage.ProductCodes)
+        if (options.Encoding == VectorEncoding.ProductCodes)
         {
             ProductQuantizer.CheckCodeBytes(options.ProductCodeBytes, dimension, nameof(options));
         }
@@ -126,10 +126,10 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         Metric = metric;
         _options = options;
         _kernelPath = kernelPath;
-        _codeBytes = options.Storage switch
+        _codeBytes = options.Encoding switch
         {
-            ListStorage.Float32 => checked(dimension * sizeof(float)),
-            ListStorage.ProductCodes => options.ProductCodeBytes,
+            VectorEncoding.Float32 => checked(dimension * sizeof(float)),
+            VectorEncoding.ProductCodes => options.ProductCodeBytes,
             _ => ScalarQuantizer.PaddedLength(dimension),
         };
         int lists = options.ListCount;
@@ -138,7 +138,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         _listCounts = new int[lists];
         Array.Fill(_listCodes, []);
         Array.Fill(_listSlots, []);
-        if (options.KeepsFullInMemory)
+        if (options.KeepsFullVectorsInMemory)
         {
             _full = loadedFull ?? new VectorBuffer(dimension, 0);
         }
@@ -156,11 +156,11 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     /// <summary>Whether <see cref="Train"/> has run; adds and searches need it.</summary>
     public bool IsTrained => Volatile.Read(ref _trained);
 
-    /// <summary>Whether the full float32 vectors are kept in the index's memory for exact re-scoring (compressed storage with a positive <see cref="InvertedFileOptions.RescoreDepth"/> and <see cref="FullVectorLocation.InIndexMemory"/>).</summary>
+    /// <summary>Whether the full float32 vectors are kept in the index's memory for exact re-scoring (compressed storage with a positive <see cref="VectorIndexOptions.RescoreDepth"/> and <see cref="FullVectorLocation.InIndexMemory"/>).</summary>
     public bool KeepsFullVectors => _full is not null;
 
     /// <inheritdoc/>
-    public bool ReadsFullVectorsExternally => _options.ReadsExternally;
+    public bool ReadsFullVectorsExternally => _options.ReadsFullVectorsExternally;
 
     /// <inheritdoc/>
     public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
@@ -168,7 +168,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     /// <inheritdoc/>
     public void AttachFullVectors(IFullVectorSource source)
     {
-        SourceRows.CheckAttach(source, Dimension, _options.ReadsExternally);
+        SourceRows.CheckAttach(source, Dimension, _options.ReadsFullVectorsExternally);
         _lock.EnterWriteLock();
         try
         {
@@ -229,7 +229,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     public ReadOnlySpan<float> Centroids => _centroids;
 
     /// <summary>
-    /// Learns the list centroids by k-means on <paramref name="sample"/> (at most <see cref="InvertedFileOptions.TrainingSampleSize"/>
+    /// Learns the list centroids by k-means on <paramref name="sample"/> (at most <see cref="InvertedFileOptions.SampleSize"/>
     /// rows of it), and under compressed storage the quantizer of the residuals from them.
     /// </summary>
     /// <param name="sample">Training rows, row after row: at least <see cref="InvertedFileOptions.ListCount"/> rows (and 256 under product codes) of finite components. They are not added to the index.</param>
@@ -249,7 +249,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
         int n = sample.Length / d;
         int lists = _options.ListCount;
-        int minimum = _options.Storage == ListStorage.ProductCodes ? Math.Max(lists, ProductQuantizer.CodewordsPerSubspace) : lists;
+        int minimum = _options.Encoding == VectorEncoding.ProductCodes ? Math.Max(lists, ProductQuantizer.CodewordsPerSubspace) : lists;
         if (n < minimum)
         {
             string why = minimum == lists ? $"an inverted file with {lists} lists" : $"product codes (256 codewords per sub-space) with {lists} lists";
@@ -274,8 +274,8 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
             var kmeansOptions = new KMeansOptions
             {
                 ClusterCount = lists,
-                MaxIterations = _options.TrainingIterations,
-                SampleSize = _options.EffectiveTrainingSampleSize,
+                MaxIterations = _options.MaxIterations,
+                SampleSize = _options.EffectiveSampleSize,
                 Seed = _options.Seed,
                 MaxDegreeOfParallelism = _options.EffectiveParallelism,
             };
@@ -283,15 +283,15 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
             KMeansResult coarse = KMeans.Train(sample, d, kmeansOptions, forward, cancellationToken, _kernelPath);
             ProductQuantizer? product = null;
             ScalarQuantizer? scalar = null;
-            if (_options.Storage != ListStorage.Float32)
+            if (_options.Encoding != VectorEncoding.Float32)
             {
                 float[] residuals = Residuals(sample, coarse, _options.Seed, cancellationToken);
-                if (_options.Storage == ListStorage.ProductCodes)
+                if (_options.Encoding == VectorEncoding.ProductCodes)
                 {
                     var productOptions = new ProductQuantizerOptions
                     {
                         CodeBytes = _options.ProductCodeBytes,
-                        MaxIterations = _options.TrainingIterations,
+                        MaxIterations = _options.MaxIterations,
                         Seed = _options.Seed,
                         MaxDegreeOfParallelism = _options.EffectiveParallelism,
                         Rotation = _options.ProductCodeRotation,
@@ -346,7 +346,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
             int d = Dimension;
             int list = _listOf[slot];
             ReadOnlySpan<byte> code = _listCodes[list].AsSpan(_positionOf[slot] * _codeBytes, _codeBytes);
-            if (_options.Storage == ListStorage.Float32)
+            if (_options.Encoding == VectorEncoding.Float32)
             {
                 MemoryMarshal.Cast<byte, float>(code).CopyTo(destination);
             }
@@ -591,7 +591,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     {
         int d = Dimension;
         int size = _codeBytes;
-        if (_options.Storage == ListStorage.Float32)
+        if (_options.Encoding == VectorEncoding.Float32)
         {
             MemoryMarshal.AsBytes(rows.AsSpan(0, n * d)).CopyTo(codes);
             return;
@@ -773,7 +773,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     {
         if (!_trained)
         {
-            int minimum = _options.Storage == ListStorage.ProductCodes ? Math.Max(_options.ListCount, ProductQuantizer.CodewordsPerSubspace) : _options.ListCount;
+            int minimum = _options.Encoding == VectorEncoding.ProductCodes ? Math.Max(_options.ListCount, ProductQuantizer.CodewordsPerSubspace) : _options.ListCount;
             throw new IndexNotTrainedException($"The inverted-file index is not trained: call Train with a sample of at least {minimum} vectors before adding or searching.");
         }
     }

@@ -8,17 +8,14 @@ namespace VectorKit.Indexes.InvertedFile;
 /// naming the option and its allowed range. (Whether <see cref="ProductCodeBytes"/> divides the dimension is checked
 /// by the index's constructor.) Instances are immutable once built and may be shared.
 /// </remarks>
-public sealed class InvertedFileOptions
+public sealed class InvertedFileOptions : VectorIndexOptions
 {
     private readonly int _listCount = 1024;
-    private readonly int _listsProbed = 16;
-    private readonly ListStorage _storage = ListStorage.Float32;
+    private readonly int _searchWidth = 16;
     private readonly int _productCodeBytes = 16;
-    private readonly int _rescoreDepth;
-    private readonly FullVectorLocation _fullVectors = FullVectorLocation.InIndexMemory;
-    private readonly int _trainingIterations = 20;
-    private readonly int? _trainingSampleSize;
-    private readonly int _trainingParallelism = -1;
+    private readonly int _maxIterations = 20;
+    private readonly int? _sampleSize;
+    private readonly int _maxDegreeOfParallelism = -1;
     private readonly SubspaceRotation _productCodeRotation = SubspaceRotation.None;
 
     /// <summary>The defaults: 1,024 lists, 16 probed per query, float32 lists, no re-scoring.</summary>
@@ -49,38 +46,22 @@ public sealed class InvertedFileOptions
     /// Values above <see cref="ListCount"/> probe every list. Default 16.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is not positive.</exception>
-    public int ListsProbed
+    public int SearchWidth
     {
-        get => _listsProbed;
+        get => _searchWidth;
         init
         {
             if (value < 1)
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(ListsProbed), value, "must be positive");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(SearchWidth), value, "must be positive");
             }
 
-            _listsProbed = value;
-        }
-    }
-
-    /// <summary>What the lists hold: float32 vectors, product-quantization codes, or 8-bit scalar codes. Default <see cref="ListStorage.Float32"/>.</summary>
-    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="ListStorage"/>.</exception>
-    public ListStorage Storage
-    {
-        get => _storage;
-        init
-        {
-            if (value is not (ListStorage.Float32 or ListStorage.ProductCodes or ListStorage.Scalar8Bit))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(Storage), value, "must be Float32, ProductCodes or Scalar8Bit");
-            }
-
-            _storage = value;
+            _searchWidth = value;
         }
     }
 
     /// <summary>
-    /// Bytes per product-quantization code (the number of sub-spaces) under <see cref="ListStorage.ProductCodes"/>;
+    /// Bytes per product-quantization code (the number of sub-spaces) under <see cref="VectorEncoding.ProductCodes"/>;
     /// it must divide the dimension (no padding). 8 to 64 is the usual range. Default 16.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 4096].</exception>
@@ -99,7 +80,7 @@ public sealed class InvertedFileOptions
     }
 
     /// <summary>
-    /// Under <see cref="ListStorage.ProductCodes"/>, an orthogonal rotation learnt with the product quantizer and applied
+    /// Under <see cref="VectorEncoding.ProductCodes"/>, an orthogonal rotation learnt with the product quantizer and applied
     /// to residuals before they are cut into sub-spaces (and to each query once per search). Ignored under the other
     /// storages. Default <see cref="SubspaceRotation.None"/>.
     /// </summary>
@@ -118,62 +99,19 @@ public sealed class InvertedFileOptions
         }
     }
 
-    /// <summary>
-    /// Under compressed storage, a positive value keeps every full float32 vector (in memory beside its code, or in an
-    /// external source: <see cref="FullVectors"/>) and, by default, re-scores this many best candidates (by code distance) exactly before returning the best k; a search
-    /// overrides the depth with <see cref="SearchOptions.RescoreDepth"/>. 0 (the default) keeps no full vectors, so
-    /// distances are the codes' approximations. Ignored under <see cref="ListStorage.Float32"/>, which is exact already.
-    /// </summary>
-    /// <exception cref="ArgumentOutOfRangeException">The value is negative.</exception>
-    public int RescoreDepth
-    {
-        get => _rescoreDepth;
-        init
-        {
-            if (value < 0)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(RescoreDepth), value, "must be 0 (off) or positive");
-            }
-
-            _rescoreDepth = value;
-        }
-    }
-
-    /// <summary>
-    /// Where re-scoring (a positive <see cref="RescoreDepth"/> under compressed storage) reads full vectors: a copy kept
-    /// in the index's memory (the default), or an <see cref="Indexes.IFullVectorSource"/> attached with
-    /// <see cref="InvertedFileIndex.AttachFullVectors"/>, such as a <c>VectorKit.IO.FileVectorSource</c> over the file the
-    /// vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's file,
-    /// at the cost of one read per re-scored candidate. Ignored when re-scoring is off.
-    /// </summary>
-    /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="Indexes.FullVectorLocation"/>.</exception>
-    public FullVectorLocation FullVectors
-    {
-        get => _fullVectors;
-        init
-        {
-            if (value is not (FullVectorLocation.InIndexMemory or FullVectorLocation.ExternalSource))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(FullVectors), value, "must be InIndexMemory or ExternalSource");
-            }
-
-            _fullVectors = value;
-        }
-    }
-
     /// <summary>The most k-means iterations for the centroids (and for each product-quantizer sub-space). Default 20.</summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [0, 10000].</exception>
-    public int TrainingIterations
+    public int MaxIterations
     {
-        get => _trainingIterations;
+        get => _maxIterations;
         init
         {
             if (value < 0 || value > 10_000)
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(TrainingIterations), value, "must be in [0, 10000]");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxIterations), value, "must be in [0, 10000]");
             }
 
-            _trainingIterations = value;
+            _maxIterations = value;
         }
     }
 
@@ -183,17 +121,17 @@ public sealed class InvertedFileOptions
     /// fast. The residual quantizer trains on at most 65,536 rows.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is not positive.</exception>
-    public int? TrainingSampleSize
+    public int? SampleSize
     {
-        get => _trainingSampleSize;
+        get => _sampleSize;
         init
         {
             if (value is <= 0)
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(TrainingSampleSize), value.Value, "must be positive");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(SampleSize), value.Value, "must be positive");
             }
 
-            _trainingSampleSize = value;
+            _sampleSize = value;
         }
     }
 
@@ -202,30 +140,25 @@ public sealed class InvertedFileOptions
 
     /// <summary>The most threads training and bulk adds use; -1 (the default) means one per core.</summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
-    public int TrainingParallelism
+    public int MaxDegreeOfParallelism
     {
-        get => _trainingParallelism;
+        get => _maxDegreeOfParallelism;
         init
         {
             if (value == 0 || value < -1)
             {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(TrainingParallelism), value, "must be -1 (all cores) or a positive thread count");
+                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
             }
 
-            _trainingParallelism = value;
+            _maxDegreeOfParallelism = value;
         }
     }
 
-    /// <summary>Whether the index re-scores: compressed storage and a positive depth.</summary>
-    internal bool Rescores => _storage != ListStorage.Float32 && _rescoreDepth > 0;
+    /// <inheritdoc/>
+    /// <remarks>The inverted-file index offers every encoding: float32, 8-bit and product codes.</remarks>
+    protected override bool IsOffered(VectorEncoding encoding) => true;
 
-    /// <summary>Whether the index keeps the full vectors itself.</summary>
-    internal bool KeepsFullInMemory => Rescores && _fullVectors == FullVectorLocation.InIndexMemory;
+    internal int EffectiveSampleSize => _sampleSize ?? (int)Math.Min(int.MaxValue, 64L * _listCount);
 
-    /// <summary>Whether re-scoring reads an attached source.</summary>
-    internal bool ReadsExternally => Rescores && _fullVectors == FullVectorLocation.ExternalSource;
-
-    internal int EffectiveTrainingSampleSize => _trainingSampleSize ?? (int)Math.Min(int.MaxValue, 64L * _listCount);
-
-    internal int EffectiveParallelism => _trainingParallelism == -1 ? Environment.ProcessorCount : _trainingParallelism;
+    internal int EffectiveParallelism => _maxDegreeOfParallelism == -1 ? Environment.ProcessorCount : _maxDegreeOfParallelism;
 }

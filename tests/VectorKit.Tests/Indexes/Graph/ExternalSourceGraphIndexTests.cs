@@ -317,7 +317,7 @@ public sealed class ExternalSourceGraphIndexTests : IDisposable
     }
 
     private static GraphIndexOptions Options(int rescoreDepth, FullVectorLocation location)
-        => new() { LinksPerNode = 8, BuildWidth = 48, Seed = 5, BuildParallelism = 1, Storage = VectorStorage.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = location };
+        => new() { LinksPerNode = 8, BuildWidth = 48, Seed = 5, MaxDegreeOfParallelism = 1, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = location };
 
     private static GraphIndex Build(DistanceMetric metric, float[] data, long[] ids, FullVectorLocation location, IFullVectorSource? source, int rescoreDepth = 40)
     {

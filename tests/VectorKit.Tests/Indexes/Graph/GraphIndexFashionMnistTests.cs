@@ -23,7 +23,7 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
     private static readonly Lazy<GraphIndex> s_graph = new(() =>
     {
         VectorSet train = FashionMnist.TrainImages;
-        var index = new GraphIndex(train.Dimension, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { BuildParallelism = 2 });
+        var index = new GraphIndex(train.Dimension, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 2 });
         index.AddRange(RowNumbers(train.Count), train.Data);
         return index;
     });
@@ -50,7 +50,7 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
         GraphIndex graph = s_graph.Value;
         double atDefault = Recall.AtK(s_truth.Value, graph.SearchBatch(s_queries.Value, K), K);
         double atWide = Recall.AtK(s_truth.Value, graph.SearchBatch(s_queries.Value, K, new SearchOptions { SearchWidth = 256 }), K);
-        output.WriteLine($"recall@10 at default width {graph.Options.DefaultSearchWidth}: {atDefault:F4}; at width 256: {atWide:F4}; {graph.MemoryBytes / (double)graph.Count:F0} bytes/vector");
+        output.WriteLine($"recall@10 at default width {graph.Options.SearchWidth}: {atDefault:F4}; at width 256: {atWide:F4}; {graph.MemoryBytes / (double)graph.Count:F0} bytes/vector");
         Assert.True(atDefault >= 0.95, $"recall@10 at the default width was {atDefault:F4}");
         Assert.True(atWide >= 0.99, $"recall@10 at width 256 was {atWide:F4}");
         // Every node reachable: pruning among Fashion-MNIST's many near-duplicates cuts some nodes off, and the
@@ -98,7 +98,7 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
         // items present, before and after removing 30 % of the training images one at a time (seeded choice).
         VectorSet train = FashionMnist.TrainImages;
         int n = train.Count, d = train.Dimension;
-        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { BuildParallelism = 2 });
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 2 });
         graph.AddRange(RowNumbers(n), train.Data);
         float[] queries = s_queries.Value.AsSpan(0, 1000 * d).ToArray();
         NeighborTable truth = GroundTruth.Compute(train.Data, default, queries, d, K, DistanceMetric.SquaredEuclidean);

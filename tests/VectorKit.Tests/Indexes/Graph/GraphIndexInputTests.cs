@@ -21,8 +21,8 @@ public class GraphIndexInputTests : VectorIndexInputTests
         Assert.Contains("LinksPerNode must be in [2, 512]; got 513", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { LinksPerNode = 513 }).Message);
         Assert.Contains("BottomLayerLinks must be in [2, 512]; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { BottomLayerLinks = 0 }).Message);
         Assert.Contains("BuildWidth must be in [1, 100000]; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { BuildWidth = 0 }).Message);
-        Assert.Contains("DefaultSearchWidth must be in [1, 100000]; got -5", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { DefaultSearchWidth = -5 }).Message);
-        Assert.Contains("BuildParallelism must be -1 (all cores) or a positive thread count; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { BuildParallelism = 0 }).Message);
+        Assert.Contains("SearchWidth must be in [1, 100000]; got -5", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { SearchWidth = -5 }).Message);
+        Assert.Contains("MaxDegreeOfParallelism must be -1 (all cores) or a positive thread count; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { MaxDegreeOfParallelism = 0 }).Message);
         Assert.Contains("FilteredExactScanFraction must be in [0, 1], or null for the cost model; got 1.5", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { FilteredExactScanFraction = 1.5 }).Message);
         Assert.Contains("FilteredExactScanFraction must be in [0, 1]", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { FilteredExactScanFraction = double.NaN }).Message);
         Assert.Equal(32, new GraphIndexOptions().EffectiveBottomLayerLinks);

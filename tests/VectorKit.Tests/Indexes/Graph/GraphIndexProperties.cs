@@ -106,7 +106,7 @@ public class GraphIndexProperties
         // without a bottom-layer in-link. The global pass then finishes with full reachability.
         const int d = 4;
         int links = 2 + (linksSeed % 6);
-        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { LinksPerNode = links, BuildWidth = 32, BuildParallelism = 1 });
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { LinksPerNode = links, BuildWidth = 32, MaxDegreeOfParallelism = 1 });
         graph.FullPassDivisor = 0;
         var live = new List<long>();
         int next = 0;

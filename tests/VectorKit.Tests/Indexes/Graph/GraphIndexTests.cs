@@ -13,7 +13,7 @@ namespace VectorKit.Tests.Indexes.Graph;
 public class GraphIndexTests(ITestOutputHelper output)
 {
     private const int K = 10;
-    private static readonly GraphIndexOptions TwoThreads = new() { BuildParallelism = 2 };
+    private static readonly GraphIndexOptions TwoThreads = new() { MaxDegreeOfParallelism = 2 };
 
     [Fact]
     public void RemovingTheEntryPointOnce_KeepsTheIndexSearchable()
@@ -55,7 +55,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         float[] queries = clustered ? ClusteredData.Generate(200, d, 50, 0.15f, seed: 8, normalise: metric != DistanceMetric.SquaredEuclidean) : ClusteredData.RandomUnit(200, d, seed: 8);
         // One build thread: the graph, and so the recall, is then the same on every run (a parallel build's
         // interleaving varies the links, and recall near the bound would make the test flaky).
-        using var graph = Build(metric, d, data, new GraphIndexOptions { BuildParallelism = 1 });
+        using var graph = Build(metric, d, data, new GraphIndexOptions { MaxDegreeOfParallelism = 1 });
         NeighborTable truth = GroundTruth.Compute(data, default, queries, d, K, metric);
         double atDefault = Recall.AtK(truth, graph.SearchBatch(queries, K), K);
         double recall = Recall.AtK(truth, graph.SearchBatch(queries, K, new SearchOptions { SearchWidth = 128 }), K);
@@ -84,7 +84,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         float[] queries = ClusteredData.Generate(500, d, 100, 0.2f, seed: 12);
 
         // One build thread: the graph, and so the measured drop, is the same on every run.
-        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { BuildParallelism = 1 });
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { MaxDegreeOfParallelism = 1 });
         var searchWidth = SearchOptions.Default;
         double before = Recall.AtK(GroundTruth.Compute(data, default, queries, d, K, DistanceMetric.SquaredEuclidean), graph.SearchBatch(queries, K, searchWidth), K);
 
@@ -132,7 +132,7 @@ public class GraphIndexTests(ITestOutputHelper output)
     {
         const int n = 300, d = 8;
         float[] data = ClusteredData.Generate(n, d, 5, 0.3f, seed: 21);
-        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 4, BuildParallelism = 2 });
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 4, MaxDegreeOfParallelism = 2 });
         float[] query = data.AsSpan(0, d).ToArray();
         for (int removed = 0; removed < n; removed++)
         {
@@ -167,7 +167,7 @@ public class GraphIndexTests(ITestOutputHelper output)
             distinct.AsSpan((i % points) * d, d).CopyTo(data.AsSpan(i * d, d));
         }
 
-        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 4, BuildParallelism = 1 });
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 4, MaxDegreeOfParallelism = 1 });
         output.WriteLine($"{graph.OrphansAttached} of {graph.Count} items attached by the reachability pass");
         Assert.True(graph.OrphansAttached > 0, "the data set no longer exercises the reachability pass");
         GraphChecks.AssertSound(graph);
@@ -320,7 +320,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         const int n = 20000, d = 32;
         float[] data = ClusteredData.Generate(n, d, 100, 0.2f, seed: 17);
         float[] queries = ClusteredData.Generate(300, d, 100, 0.2f, seed: 18);
-        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { BuildParallelism = 1 });
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { MaxDegreeOfParallelism = 1 });
         long passesAfterBuild = graph.FullPasses;
         var random = new Random(18);
         long[] removed = Ids(n).OrderBy(_ => random.Next()).Take(1000).ToArray();
@@ -355,7 +355,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         // pass must not touch the lists of whatever items now sit in those slots.
         const int n = 4000, d = 16;
         float[] data = ClusteredData.Generate(n, d, 40, 0.2f, seed: 29);
-        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { BuildParallelism = 1 });
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { MaxDegreeOfParallelism = 1 });
         graph.FullPassDivisor = 0;
         for (int id = 0; id < n; id += 3)
         {
@@ -382,7 +382,7 @@ public class GraphIndexTests(ITestOutputHelper output)
     {
         const int n = 8000, d = 16;
         float[] data = ClusteredData.Generate(n + 900, d, 40, 0.2f, seed: 19);
-        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data.AsSpan(0, n * d).ToArray(), new GraphIndexOptions { BuildParallelism = 1 });
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data.AsSpan(0, n * d).ToArray(), new GraphIndexOptions { MaxDegreeOfParallelism = 1 });
         Assert.Equal(1, graph.FullPasses);
 
         // 900 single adds: the pass is due after 1,000 changes (an eighth of 8,000), so it has not run again.
@@ -408,7 +408,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         // A new node picks LinksPerNode neighbours, but never more than the layer's own limit.
         const int n = 1500, d = 8;
         float[] data = ClusteredData.Generate(n, d, 15, 0.2f, seed: 23);
-        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 8, BottomLayerLinks = 4, BuildParallelism = 1 });
+        using var graph = Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { LinksPerNode = 8, BottomLayerLinks = 4, MaxDegreeOfParallelism = 1 });
         GraphChecks.AssertSound(graph);
         using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
         exact.AddRange(Ids(n), data);

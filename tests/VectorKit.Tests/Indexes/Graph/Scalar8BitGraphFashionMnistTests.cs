@@ -40,14 +40,14 @@ public class Scalar8BitGraphFashionMnistTests(ITestOutputHelper output)
         NeighborTable truth = GroundTruth.Compute(train.Data, default, queries, d, K, DistanceMetric.SquaredEuclidean);
 
         // Full vectors kept (depth 32), so one graph answers both with and without re-scoring.
-        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { BuildParallelism = 2, Storage = VectorStorage.Scalar8Bit, RescoreDepth = 32 });
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 2, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 32 });
         graph.Train(train.Data.AsSpan(0, 10_000 * d));
         graph.AddRange(Enumerable.Range(0, train.Count).Select(i => (long)i).ToArray(), train.Data);
         GraphChecks.AssertSound(graph);
 
         double plain = Recall.AtK(truth, graph.SearchBatch(queries, K, new SearchOptions { RescoreDepth = 0 }), K);
         double rescored = Recall.AtK(truth, graph.SearchBatch(queries, K), K);
-        output.WriteLine($"8-bit graph, default width {graph.Options.DefaultSearchWidth}: recall@10 {plain:F4} without re-scoring, {rescored:F4} re-scoring 32; {graph.CodeBytesPerVector} code bytes per vector");
+        output.WriteLine($"8-bit graph, default width {graph.Options.SearchWidth}: recall@10 {plain:F4} without re-scoring, {rescored:F4} re-scoring 32; {graph.CodeBytesPerVector} code bytes per vector");
 
         // Measured 0.9980 without and 0.9982 with re-scoring (the float32 graph: 0.9983 in the same test run, from
         // GraphIndexFashionMnistTests). Two build threads vary the graph a little between runs: the bounds keep a margin.

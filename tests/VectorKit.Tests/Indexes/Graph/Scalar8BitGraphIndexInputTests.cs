@@ -10,7 +10,7 @@ public class Scalar8BitGraphIndexInputTests : VectorIndexInputTests
 {
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)
     {
-        var graph = new GraphIndex(dimension, metric, new GraphIndexOptions { Storage = VectorStorage.Scalar8Bit, RescoreDepth = 4 });
+        var graph = new GraphIndex(dimension, metric, new GraphIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 4 });
         var random = new Random(dimension);
         graph.Train(Enumerable.Range(0, 4 * dimension).Select(_ => (float)((random.NextDouble() * 20) - 10)).ToArray());
         return graph;
@@ -19,7 +19,7 @@ public class Scalar8BitGraphIndexInputTests : VectorIndexInputTests
     [Fact]
     public void StorageAndDepthOptions_NameTheOptionAndTheAllowedRange()
     {
-        Assert.Contains("Storage must be Float32 or Scalar8Bit; got 7", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { Storage = (VectorStorage)7 }).Message);
+        Assert.Contains("Encoding must be one of Float32, Scalar8Bit for GraphIndexOptions; got 7", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { Encoding = (VectorEncoding)7 }).Message);
         Assert.Contains("RescoreDepth must be 0 (off) or in [1, 100000]; got -1", Assert.Throws<ArgumentOutOfRangeException>(() => new GraphIndexOptions { RescoreDepth = -1 }).Message);
     }
 }

@@ -18,12 +18,12 @@ public class Scalar8BitGraphIndexTests
 {
     private static GraphIndexOptions Codes(int depth = 0, int links = 6, int seed = 42) => new()
     {
-        Storage = VectorStorage.Scalar8Bit,
+        Encoding = VectorEncoding.Scalar8Bit,
         RescoreDepth = depth,
         LinksPerNode = links,
         BuildWidth = 48,
         Seed = seed,
-        BuildParallelism = 1,
+        MaxDegreeOfParallelism = 1,
     };
 
     [Fact]

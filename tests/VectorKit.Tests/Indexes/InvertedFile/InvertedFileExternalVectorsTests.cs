@@ -22,10 +22,10 @@ public sealed class InvertedFileExternalVectorsTests : IDisposable
     private const int D = 24, N = 700;
     private readonly string _directory = Directory.CreateTempSubdirectory("vk-external-").FullName;
 
-    public static TheoryData<ListStorage, DistanceMetric, FileVectorSourceTests.Layout> Cases()
+    public static TheoryData<VectorEncoding, DistanceMetric, FileVectorSourceTests.Layout> Cases()
     {
-        var data = new TheoryData<ListStorage, DistanceMetric, FileVectorSourceTests.Layout>();
-        foreach (ListStorage storage in new[] { ListStorage.ProductCodes, ListStorage.Scalar8Bit })
+        var data = new TheoryData<VectorEncoding, DistanceMetric, FileVectorSourceTests.Layout>();
+        foreach (VectorEncoding storage in new[] { VectorEncoding.ProductCodes, VectorEncoding.Scalar8Bit })
         {
             foreach (DistanceMetric metric in new[] { DistanceMetric.SquaredEuclidean, DistanceMetric.InnerProduct, DistanceMetric.Cosine })
             {
@@ -40,7 +40,7 @@ public sealed class InvertedFileExternalVectorsTests : IDisposable
 
     [Theory]
     [MemberData(nameof(Cases))]
-    public void RescoringFromAFile_EqualsRescoringFromMemory_BitForBit(ListStorage storage, DistanceMetric metric, FileVectorSourceTests.Layout layout)
+    public void RescoringFromAFile_EqualsRescoringFromMemory_BitForBit(VectorEncoding storage, DistanceMetric metric, FileVectorSourceTests.Layout layout)
     {
         float[] data = ClusteredData.Generate(N, D, 15, 0.4f, seed: 21);
         float[] queries = ClusteredData.Generate(30, D, 15, 0.4f, seed: 22);
@@ -99,7 +99,7 @@ public sealed class InvertedFileExternalVectorsTests : IDisposable
     {
         float[] data = ClusteredData.Generate(N, D, 15, 0.4f, seed: 23);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
-        using InvertedFileIndex index = Build(ListStorage.ProductCodes, DistanceMetric.SquaredEuclidean, data, ids, FullVectorLocation.ExternalSource, null);
+        using InvertedFileIndex index = Build(VectorEncoding.ProductCodes, DistanceMetric.SquaredEuclidean, data, ids, FullVectorLocation.ExternalSource, null);
         Assert.Null(index.FullVectorSource);
         var hits = new SearchHit[5];
         var e = Assert.Throws<InvalidOperationException>(() => index.Search(data.AsSpan(0, D), hits));
@@ -117,15 +117,15 @@ public sealed class InvertedFileExternalVectorsTests : IDisposable
     {
         float[] data = ClusteredData.Generate(N, D, 15, 0.4f, seed: 24);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
-        var external = new InvertedFileOptions { ListCount = 8, Storage = ListStorage.Scalar8Bit, RescoreDepth = 10, FullVectors = FullVectorLocation.ExternalSource };
+        var external = new InvertedFileOptions { ListCount = 8, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 10, FullVectors = FullVectorLocation.ExternalSource };
         using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, external);
         Assert.Contains("have 23 components; the index dimension is 24", Assert.Throws<ArgumentException>(() => index.AttachFullVectors(new ArraySource(new float[23], 23))).Message, StringComparison.Ordinal);
         Assert.Throws<ArgumentNullException>(() => index.AttachFullVectors(null!));
 
-        using var inMemory = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 8, Storage = ListStorage.Scalar8Bit, RescoreDepth = 10 });
+        using var inMemory = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 8, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 10 });
         Assert.Throws<InvalidOperationException>(() => inMemory.AttachFullVectors(new ArraySource(data, D)));
         Assert.False(inMemory.ReadsFullVectorsExternally);
-        Assert.Throws<InvalidOperationException>(() => new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { Storage = ListStorage.Scalar8Bit, FullVectors = FullVectorLocation.ExternalSource }, new ArraySource(data, D)));
+        Assert.Throws<InvalidOperationException>(() => new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { Encoding = VectorEncoding.Scalar8Bit, FullVectors = FullVectorLocation.ExternalSource }, new ArraySource(data, D)));
         Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { FullVectors = (FullVectorLocation)7 });
 
         // A source that lacks a candidate's vector is a clear error, not a wrong distance.
@@ -143,8 +143,8 @@ public sealed class InvertedFileExternalVectorsTests : IDisposable
         float[] queries = ClusteredData.Generate(20, D, 15, 0.4f, seed: 26);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
         using FileVectorSource file = FileVectorSource.OpenRaw(FileVectorSourceTests.WriteFile(_directory, FileVectorSourceTests.Layout.Raw, data, D), D);
-        using InvertedFileIndex memory = Build(ListStorage.ProductCodes, DistanceMetric.Cosine, data, ids, FullVectorLocation.InIndexMemory, null);
-        using InvertedFileIndex external = Build(ListStorage.ProductCodes, DistanceMetric.Cosine, data, ids, FullVectorLocation.ExternalSource, file);
+        using InvertedFileIndex memory = Build(VectorEncoding.ProductCodes, DistanceMetric.Cosine, data, ids, FullVectorLocation.InIndexMemory, null);
+        using InvertedFileIndex external = Build(VectorEncoding.ProductCodes, DistanceMetric.Cosine, data, ids, FullVectorLocation.ExternalSource, file);
         var memoryFile = new MemoryStream();
         var externalFile = new MemoryStream();
         IndexFile.Save(memory, memoryFile);
@@ -175,12 +175,12 @@ public sealed class InvertedFileExternalVectorsTests : IDisposable
         Assert.Equal(externalFile.ToArray(), again.ToArray());
     }
 
-    private static InvertedFileIndex Build(ListStorage storage, DistanceMetric metric, float[] data, long[] ids, FullVectorLocation location, IFullVectorSource? source)
+    private static InvertedFileIndex Build(VectorEncoding storage, DistanceMetric metric, float[] data, long[] ids, FullVectorLocation location, IFullVectorSource? source)
     {
         var options = new InvertedFileOptions
         {
             ListCount = 8,
-            Storage = storage,
+            Encoding = storage,
             ProductCodeBytes = D / 4,
             RescoreDepth = 40,
             FullVectors = location,

@@ -49,15 +49,15 @@ public sealed class InvertedFileFashionMnistFixture : IDisposable
 
             Truth = GroundTruth.Compute(train.Data, default, Queries, d, 100, DistanceMetric.SquaredEuclidean);
             long[] ids = Enumerable.Range(0, train.Count).Select(i => (long)i).ToArray();
-            Flat = Build(new InvertedFileOptions { ListCount = Lists, TrainingIterations = 10 }, train, ids);
-            Product = Build(new InvertedFileOptions { ListCount = Lists, TrainingIterations = 10, Storage = ListStorage.ProductCodes, ProductCodeBytes = ProductBytes, RescoreDepth = 100 }, train, ids);
-            Scalar = Build(new InvertedFileOptions { ListCount = Lists, TrainingIterations = 10, Storage = ListStorage.Scalar8Bit, RescoreDepth = 50 }, train, ids);
+            Flat = Build(new InvertedFileOptions { ListCount = Lists, MaxIterations = 10 }, train, ids);
+            Product = Build(new InvertedFileOptions { ListCount = Lists, MaxIterations = 10, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = ProductBytes, RescoreDepth = 100 }, train, ids);
+            Scalar = Build(new InvertedFileOptions { ListCount = Lists, MaxIterations = 10, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 50 }, train, ids);
 
             _directory = Directory.CreateTempSubdirectory("vk-fmnist-").FullName;
             string path = Path.Combine(_directory, "train-images.npy");
             NpyFile.Write(path, train);
             ImageFile = FileVectorSource.OpenNpy(path);
-            var fromFile = new InvertedFileOptions { ListCount = Lists, TrainingIterations = 10, Storage = ListStorage.ProductCodes, ProductCodeBytes = ProductBytes, RescoreDepth = 100, FullVectors = FullVectorLocation.ExternalSource };
+            var fromFile = new InvertedFileOptions { ListCount = Lists, MaxIterations = 10, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = ProductBytes, RescoreDepth = 100, FullVectors = FullVectorLocation.ExternalSource };
             ProductFromFile = new InvertedFileIndex(train.Dimension, DistanceMetric.SquaredEuclidean, fromFile, ImageFile);
             ProductFromFile.Train(train.Data);
             ProductFromFile.AddRange(ids, train.Data);

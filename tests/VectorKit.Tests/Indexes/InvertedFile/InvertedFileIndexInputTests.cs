@@ -10,7 +10,7 @@ namespace VectorKit.Tests.Indexes.InvertedFile;
 /// <summary>The shared bad-input checks on a trained inverted-file index with float32 lists, plus its own training checks.</summary>
 public class InvertedFileIndexInputTests : VectorIndexInputTests
 {
-    protected virtual InvertedFileOptions Options(int dimension) => new() { ListCount = 2, ListsProbed = 2 };
+    protected virtual InvertedFileOptions Options(int dimension) => new() { ListCount = 2, SearchWidth = 2 };
 
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)
     {
@@ -47,7 +47,7 @@ public class InvertedFileIndexInputTests : VectorIndexInputTests
         Assert.Equal("sample", e.ParamName);
         Assert.False(index.IsTrained);
 
-        using var product = new InvertedFileIndex(4, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 4, Storage = ListStorage.ProductCodes, ProductCodeBytes = 2 });
+        using var product = new InvertedFileIndex(4, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 4, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = 2 });
         var p = Assert.Throws<ArgumentException>(() => product.Train(Sample(200, 4)));
         Assert.Contains("needs at least 256 training rows", p.Message);
         Assert.False(product.IsTrained);
@@ -68,7 +68,7 @@ public class InvertedFileIndexInputTests : VectorIndexInputTests
     [Fact]
     public void CodeSizeThatDoesNotDivideTheDimension_IsRejected_ListingTheDivisors()
     {
-        var e = Assert.Throws<ArgumentException>(() => new InvertedFileIndex(784, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { Storage = ListStorage.ProductCodes, ProductCodeBytes = 32 }));
+        var e = Assert.Throws<ArgumentException>(() => new InvertedFileIndex(784, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = 32 }));
         Assert.Contains("A code of 32 bytes does not divide the dimension 784", e.Message);
         Assert.Contains("8, 14, 16, 28, 49, 56, 98, 112, 196", e.Message);
 
@@ -114,14 +114,14 @@ public class InvertedFileIndexInputTests : VectorIndexInputTests
     public void InvertedFileOptions_NameTheOptionAndTheAllowedRange()
     {
         Assert.Contains("ListCount must be in [1, 1048576]; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { ListCount = 0 }).Message);
-        Assert.Contains("ListsProbed must be positive; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { ListsProbed = 0 }).Message);
-        Assert.Contains("Storage must be Float32, ProductCodes or Scalar8Bit", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { Storage = (ListStorage)7 }).Message);
+        Assert.Contains("SearchWidth must be positive; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { SearchWidth = 0 }).Message);
+        Assert.Contains("Encoding must be one of Float32, Scalar8Bit, ProductCodes for InvertedFileOptions", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { Encoding = (VectorEncoding)7 }).Message);
         Assert.Contains("ProductCodeBytes must be in [1, 4096]; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { ProductCodeBytes = 0 }).Message);
         Assert.Contains("RescoreDepth must be 0 (off) or positive; got -1", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { RescoreDepth = -1 }).Message);
-        Assert.Contains("TrainingIterations must be in [0, 10000]", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { TrainingIterations = -1 }).Message);
-        Assert.Contains("TrainingSampleSize must be positive", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { TrainingSampleSize = 0 }).Message);
+        Assert.Contains("MaxIterations must be in [0, 10000]", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { MaxIterations = -1 }).Message);
+        Assert.Contains("SampleSize must be positive", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { SampleSize = 0 }).Message);
         Assert.Contains("ProductCodeRotation must be None or VarianceBalanced; got 9", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { ProductCodeRotation = (SubspaceRotation)9 }).Message);
-        Assert.Contains("TrainingParallelism must be -1", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { TrainingParallelism = -2 }).Message);
+        Assert.Contains("MaxDegreeOfParallelism must be -1", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { MaxDegreeOfParallelism = -2 }).Message);
         Assert.Contains("RescoreDepth must be 0 (off) or positive", Assert.Throws<ArgumentOutOfRangeException>(() => new SearchOptions { RescoreDepth = -3 }).Message);
     }
 }
@@ -130,12 +130,12 @@ public class InvertedFileIndexInputTests : VectorIndexInputTests
 public class InvertedFileProductCodeInputTests : InvertedFileIndexInputTests
 {
     protected override InvertedFileOptions Options(int dimension)
-        => new() { ListCount = 2, ListsProbed = 2, Storage = ListStorage.ProductCodes, ProductCodeBytes = Math.Max(1, dimension), RescoreDepth = 10 };
+        => new() { ListCount = 2, SearchWidth = 2, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = Math.Max(1, dimension), RescoreDepth = 10 };
 }
 
 /// <summary>The shared bad-input checks with 8-bit scalar codes and exact re-scoring.</summary>
 public class InvertedFileScalarCodeInputTests : InvertedFileIndexInputTests
 {
     protected override InvertedFileOptions Options(int dimension)
-        => new() { ListCount = 2, ListsProbed = 2, Storage = ListStorage.Scalar8Bit, RescoreDepth = 10 };
+        => new() { ListCount = 2, SearchWidth = 2, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 10 };
 }

@@ -20,10 +20,10 @@ namespace VectorKit.Tests.Indexes.InvertedFile;
 /// </summary>
 public class InvertedFileIndexTests
 {
-    public static TheoryData<ListStorage, DistanceMetric> StorageAndMetric()
+    public static TheoryData<VectorEncoding, DistanceMetric> StorageAndMetric()
     {
-        var data = new TheoryData<ListStorage, DistanceMetric>();
-        foreach (ListStorage storage in new[] { ListStorage.Float32, ListStorage.ProductCodes, ListStorage.Scalar8Bit })
+        var data = new TheoryData<VectorEncoding, DistanceMetric>();
+        foreach (VectorEncoding storage in new[] { VectorEncoding.Float32, VectorEncoding.ProductCodes, VectorEncoding.Scalar8Bit })
         {
             foreach (DistanceMetric metric in new[] { DistanceMetric.SquaredEuclidean, DistanceMetric.InnerProduct, DistanceMetric.Cosine })
             {
@@ -34,14 +34,14 @@ public class InvertedFileIndexTests
         return data;
     }
 
-    private static InvertedFileIndex Build(ListStorage storage, DistanceMetric metric, int d, float[] data, long[] ids, int lists = 8, int depth = 100_000, SubspaceRotation rotation = SubspaceRotation.None)
+    private static InvertedFileIndex Build(VectorEncoding storage, DistanceMetric metric, int d, float[] data, long[] ids, int lists = 8, int depth = 100_000, SubspaceRotation rotation = SubspaceRotation.None)
     {
         var index = new InvertedFileIndex(d, metric, new InvertedFileOptions
         {
             ListCount = lists,
-            Storage = storage,
+            Encoding = storage,
             ProductCodeBytes = d / 4,
-            RescoreDepth = storage == ListStorage.Float32 ? 0 : depth,
+            RescoreDepth = storage == VectorEncoding.Float32 ? 0 : depth,
             ProductCodeRotation = rotation,
         });
         index.Train(data);
@@ -59,7 +59,7 @@ public class InvertedFileIndexTests
         float[] data = ClusteredData.Generate(N, D, 12, 0.4f, seed: 4);
         float[] queries = ClusteredData.Generate(25, D, 12, 0.4f, seed: 5);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)((i * 7919) % 100_003)).ToArray();
-        using InvertedFileIndex index = Build(ListStorage.ProductCodes, metric, D, data, ids, rotation: SubspaceRotation.VarianceBalanced);
+        using InvertedFileIndex index = Build(VectorEncoding.ProductCodes, metric, D, data, ids, rotation: SubspaceRotation.VarianceBalanced);
         using var exact = new ExactIndex(D, metric);
         exact.AddRange(ids, data);
         var all = new SearchOptions { SearchWidth = 8 };
@@ -72,7 +72,7 @@ public class InvertedFileIndexTests
 
     [Theory]
     [MemberData(nameof(StorageAndMetric))]
-    public void EveryListProbed_WithEveryCandidateRescored_EqualsExactSearch(ListStorage storage, DistanceMetric metric)
+    public void EveryListProbed_WithEveryCandidateRescored_EqualsExactSearch(VectorEncoding storage, DistanceMetric metric)
     {
         const int D = 20, N = 600;
         float[] data = ClusteredData.Generate(N, D, 12, 0.4f, seed: 4);
@@ -94,7 +94,7 @@ public class InvertedFileIndexTests
 
     [Theory]
     [MemberData(nameof(StorageAndMetric))]
-    public void OneProbe_ReturnsOnlyItemsOfTheQuerysNearestList_AndRecallRisesWithProbes(ListStorage storage, DistanceMetric metric)
+    public void OneProbe_ReturnsOnlyItemsOfTheQuerysNearestList_AndRecallRisesWithProbes(VectorEncoding storage, DistanceMetric metric)
     {
         const int D = 16, N = 3000;
         float[] data = ClusteredData.Generate(N, D, 40, 0.3f, seed: 8);
@@ -144,7 +144,7 @@ public class InvertedFileIndexTests
         const int D = 12, N = 800;
         float[] data = ClusteredData.Generate(N, D, 6, 0.5f, seed: 12);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
-        using InvertedFileIndex index = Build(ListStorage.ProductCodes, metric, D, data, ids, lists: 4, depth: 0, rotation: rotation);
+        using InvertedFileIndex index = Build(VectorEncoding.ProductCodes, metric, D, data, ids, lists: 4, depth: 0, rotation: rotation);
         Assert.False(index.KeepsFullVectors);
         float[] query = ClusteredData.Generate(1, D, 6, 0.5f, seed: 13);
         var reconstruction = new float[D];
@@ -158,10 +158,10 @@ public class InvertedFileIndexTests
     }
 
     [Theory]
-    [InlineData(ListStorage.Float32)]
-    [InlineData(ListStorage.ProductCodes)]
-    [InlineData(ListStorage.Scalar8Bit)]
-    public void Filter_IsAppliedDuringTheScan_AndMatchesExactFilteredSearch(ListStorage storage)
+    [InlineData(VectorEncoding.Float32)]
+    [InlineData(VectorEncoding.ProductCodes)]
+    [InlineData(VectorEncoding.Scalar8Bit)]
+    public void Filter_IsAppliedDuringTheScan_AndMatchesExactFilteredSearch(VectorEncoding storage)
     {
         const int D = 8, N = 1000;
         float[] data = ClusteredData.Generate(N, D, 10, 0.4f, seed: 21);
@@ -178,8 +178,8 @@ public class InvertedFileIndexTests
     public void AddAndRemoveSequences_KeepListsConsistent_AndEqualExactSearch(int[] operations, bool compressed)
     {
         const int D = 6;
-        ListStorage storage = compressed ? ListStorage.Scalar8Bit : ListStorage.Float32;
-        using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 4, Storage = storage, RescoreDepth = compressed ? 1000 : 0 });
+        VectorEncoding storage = compressed ? VectorEncoding.Scalar8Bit : VectorEncoding.Float32;
+        using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 4, Encoding = storage, RescoreDepth = compressed ? 1000 : 0 });
         index.Train(ClusteredData.Generate(200, D, 5, 0.5f, seed: 3));
         using var exact = new ExactIndex(D, DistanceMetric.SquaredEuclidean);
         var live = new List<long>();
@@ -226,7 +226,7 @@ public class InvertedFileIndexTests
     public void TrainingProgress_CoversEveryStage()
     {
         var progress = new SynchronousProgress<IndexTrainingProgress>();
-        using var index = new InvertedFileIndex(8, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 64, Storage = ListStorage.ProductCodes, ProductCodeBytes = 4 });
+        using var index = new InvertedFileIndex(8, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 64, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = 4 });
         index.Train(ClusteredData.Generate(2000, 8, 20, 0.4f, seed: 6), progress);
         Assert.Contains(progress.Values, p => p.Stage == IndexTrainingStage.SeedingCentroids && p.Done == 64);
         Assert.Contains(progress.Values, p => p.Stage == IndexTrainingStage.RefiningCentroids && p.Done >= 1);
@@ -241,9 +241,9 @@ public class InvertedFileIndexTests
         const int D = 32, N = 2000;
         float[] data = ClusteredData.Generate(N, D, 10, 0.4f, seed: 30);
         long[] ids = Enumerable.Range(0, N).Select(i => (long)i).ToArray();
-        using InvertedFileIndex flat = Build(ListStorage.Float32, DistanceMetric.SquaredEuclidean, D, data, ids);
-        using InvertedFileIndex product = Build(ListStorage.ProductCodes, DistanceMetric.SquaredEuclidean, D, data, ids, depth: 0);
-        using InvertedFileIndex scalar = Build(ListStorage.Scalar8Bit, DistanceMetric.SquaredEuclidean, D, data, ids, depth: 0);
+        using InvertedFileIndex flat = Build(VectorEncoding.Float32, DistanceMetric.SquaredEuclidean, D, data, ids);
+        using InvertedFileIndex product = Build(VectorEncoding.ProductCodes, DistanceMetric.SquaredEuclidean, D, data, ids, depth: 0);
+        using InvertedFileIndex scalar = Build(VectorEncoding.Scalar8Bit, DistanceMetric.SquaredEuclidean, D, data, ids, depth: 0);
         Assert.Equal(128, flat.CodeBytesPerVector);
         Assert.Equal(8, product.CodeBytesPerVector);
         Assert.Equal(32, scalar.CodeBytesPerVector);
@@ -256,7 +256,7 @@ public class InvertedFileIndexTests
     public void ConcurrentSearchesDuringAddsAndRemoves_SeeConsistentStates()
     {
         const int D = 8;
-        using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 8, Storage = ListStorage.ProductCodes, ProductCodeBytes = 4, RescoreDepth = 20 });
+        using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 8, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = 4, RescoreDepth = 20 });
         index.Train(ClusteredData.Generate(600, D, 10, 0.4f, seed: 50));
         float[] query = ClusteredData.Generate(1, D, 10, 0.4f, seed: 51);
         using var stop = new CancellationTokenSource();
@@ -307,9 +307,9 @@ public class InvertedFileIndexTests
     }
 
     [Theory]
-    [InlineData(ListStorage.Float32)]
-    [InlineData(ListStorage.ProductCodes)]
-    public void TrimExcess_ReleasesSlack_AndKeepsEveryVector(ListStorage storage)
+    [InlineData(VectorEncoding.Float32)]
+    [InlineData(VectorEncoding.ProductCodes)]
+    public void TrimExcess_ReleasesSlack_AndKeepsEveryVector(VectorEncoding storage)
     {
         const int D = 16, N = 3000;
         float[] data = ClusteredData.Generate(N, D, 10, 0.4f, seed: 60);
@@ -339,7 +339,7 @@ public class InvertedFileIndexTests
         float[] data = ClusteredData.Generate(N, D, 20, 0.3f, seed: 40);
         float[] queries = ClusteredData.Generate(50, D, 20, 0.3f, seed: 41);
         NeighborTable truth = GroundTruth.Compute(data, default, queries, D, 10, DistanceMetric.SquaredEuclidean);
-        using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 16, Storage = ListStorage.Scalar8Bit, RescoreDepth = 40 });
+        using var index = new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 16, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 40 });
         index.Train(data);
         SearchQualityReport report = SearchQuality.Measure(index, default, data, queries, truth, new QualityMeasurementOptions { K = 10, Search = new SearchOptions { SearchWidth = 16 } });
         Assert.Equal(N, index.Count);
