@@ -64,13 +64,13 @@ int sampleSize = RerankingCalibration.RequiredSampleSize(options);
 RentalRequest[] sample = catalogue.Requests(sampleSize, seed: 3);
 Console.WriteLine();
 Console.WriteLine($"Calibrating on {sampleSize} sample requests (the fewest that give ±{options.MaxUncertainty} at {options.Confidence:P0} confidence)...");
-CalibrationPhase? shown = null;
+CalibrationStage? shown = null;
 var progress = new InlineProgress(p =>
 {
-    if (p.Phase != shown)
+    if (p.Stage != shown)
     {
-        shown = p.Phase;
-        Console.WriteLine($"  {p.Phase}...");
+        shown = p.Stage;
+        Console.WriteLine($"  {p.Stage}...");
     }
 });
 CalibrationReport report = RerankingCalibration.Calibrate(index, scorer, sample, options, progress);

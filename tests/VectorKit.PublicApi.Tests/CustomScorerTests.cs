@@ -94,7 +94,7 @@ public class CustomScorerTests
         RerankingException e = Assert.Throws<RerankingException>(() => pipeline.RerankBatch([0, 1, 2]));
         Assert.Equal(RerankingStage.PairwiseScoring, e.Stage);
         Assert.Equal(1, e.QueryIndex);
-        Assert.IsAssignableFrom<VectorKitException>(e);
+        Assert.IsAssignableFrom<InvalidOperationException>(e);
     }
 
     private sealed class BrokenScorer : PairwiseScorer<int>

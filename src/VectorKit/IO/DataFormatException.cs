@@ -2,7 +2,7 @@ namespace VectorKit.IO;
 
 /// <summary>A data file is malformed or truncated: its content does not follow the format it claims.</summary>
 /// <remarks>The message names the file format, what was expected and what was found, and the byte offset when known.</remarks>
-public sealed class DataFormatException : VectorKitException
+public sealed class DataFormatException : IOException
 {
     /// <summary>Creates an exception with a message.</summary>
     /// <param name="message">What is wrong with the data.</param>

@@ -50,7 +50,7 @@ public interface IVectorIndex : IDisposable
     /// </remarks>
     /// <exception cref="NotSupportedException">The index kind cannot list its ids.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    long[] GetIds() => throw new NotSupportedException($"{GetType().Name} cannot list its ids; pass the collection's ids explicitly.");
+    long[] GetIds();
 
     /// <summary>Adds one vector.</summary>
     /// <param name="id">A caller-chosen id not already in the index.</param>

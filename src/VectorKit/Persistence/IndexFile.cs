@@ -27,8 +27,9 @@ namespace VectorKit.Persistence;
 /// graph its options (except <see cref="GraphIndexOptions.InitialCapacity"/>, a build-time hint), links, levels,
 /// entry point and removed slots, and for an inverted file its options, training state, centroids, quantizer, lists
 /// and kept full vectors, so searches return exactly what the saved index returned.</para>
-/// <para><b>Async.</b> The async methods run the same work on a thread-pool thread (the stream is read or written
-/// synchronously in 1 MiB blocks, checksummed block by block) and check the token between blocks.</para>
+/// <para><b>Blocking I/O.</b> Saving and loading read or write the stream synchronously in 1 MiB blocks, checksummed
+/// block by block, and check the token between blocks; there are no async variants (a caller that must not block a
+/// thread runs the call on a worker of its own choosing).</para>
 /// <para><b>Thread safety.</b> All methods are thread-safe; several loads and saves may run at once.</para>
 /// </remarks>
 public static class IndexFile
@@ -78,32 +79,6 @@ public static class IndexFile
     /// <exception cref="UnauthorizedAccessException">The folder or the target is not writable.</exception>
     public static void Save(IVectorIndex index, string path, CancellationToken cancellationToken = default)
         => SaveAtomically(index, path, static stream => stream, cancellationToken);
-
-    /// <summary>Writes <paramref name="index"/> to a stream on a thread-pool thread; see <see cref="Save(IVectorIndex, Stream, CancellationToken)"/>.</summary>
-    /// <param name="index">An index of a kind the library saves.</param>
-    /// <param name="destination">A writable stream; it is flushed, not closed.</param>
-    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
-    /// <returns>A task that completes when the index is written.</returns>
-    /// <exception cref="ArgumentNullException">An argument is null.</exception>
-    public static Task SaveAsync(IVectorIndex index, Stream destination, CancellationToken cancellationToken = default)
-    {
-        ArgumentNullException.ThrowIfNull(index);
-        ArgumentNullException.ThrowIfNull(destination);
-        return Task.Run(() => Save(index, destination, cancellationToken), cancellationToken);
-    }
-
-    /// <summary>Writes <paramref name="index"/> to a file atomically, on a thread-pool thread; see <see cref="Save(IVectorIndex, string, CancellationToken)"/>.</summary>
-    /// <param name="index">An index of a kind the library saves.</param>
-    /// <param name="path">The file to create or replace.</param>
-    /// <param name="cancellationToken">Checked between 1 MiB blocks; a cancelled save leaves the previous file as it was.</param>
-    /// <returns>A task that completes when the file is in place.</returns>
-    /// <exception cref="ArgumentNullException">An argument is null.</exception>
-    public static Task SaveAsync(IVectorIndex index, string path, CancellationToken cancellationToken = default)
-    {
-        ArgumentNullException.ThrowIfNull(index);
-        ArgumentNullException.ThrowIfNull(path);
-        return Task.Run(() => Save(index, path, cancellationToken), cancellationToken);
-    }
 
     /// <summary>Reads an index of any kind from a stream, from its current position; reads no further than the index's last byte.</summary>
     /// <param name="source">A readable stream. When it is seekable, every declared size is checked against its length before allocating.</param>
@@ -159,44 +134,6 @@ public static class IndexFile
     public static TIndex Load<TIndex>(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
         where TIndex : class, IVectorIndex
         => (TIndex)LoadFile(path, options, typeof(TIndex), cancellationToken);
-
-    /// <summary>Reads an index from a stream on a thread-pool thread; see <see cref="Load(Stream, IndexLoadOptions?, CancellationToken)"/>.</summary>
-    /// <param name="source">A readable stream.</param>
-    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
-    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
-    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
-    /// <exception cref="ArgumentNullException"><paramref name="source"/> is null.</exception>
-    public static Task<IVectorIndex> LoadAsync(Stream source, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
-    {
-        ArgumentNullException.ThrowIfNull(source);
-        return Task.Run(() => Load(source, options, cancellationToken), cancellationToken);
-    }
-
-    /// <summary>Reads an index from a file on a thread-pool thread; see <see cref="Load(string, IndexLoadOptions?, CancellationToken)"/>.</summary>
-    /// <param name="path">The file.</param>
-    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
-    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
-    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
-    /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
-    public static Task<IVectorIndex> LoadAsync(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
-    {
-        ArgumentNullException.ThrowIfNull(path);
-        return Task.Run(() => Load(path, options, cancellationToken), cancellationToken);
-    }
-
-    /// <summary>Reads an index of a known type from a file on a thread-pool thread; see <see cref="Load{TIndex}(string, IndexLoadOptions?, CancellationToken)"/>.</summary>
-    /// <typeparam name="TIndex"><see cref="ExactIndex"/>, <see cref="GraphIndex"/>, <see cref="InvertedFileIndex"/> or <see cref="IVectorIndex"/>.</typeparam>
-    /// <param name="path">The file.</param>
-    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
-    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
-    /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
-    /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
-    public static Task<TIndex> LoadAsync<TIndex>(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
-        where TIndex : class, IVectorIndex
-    {
-        ArgumentNullException.ThrowIfNull(path);
-        return Task.Run(() => Load<TIndex>(path, options, cancellationToken), cancellationToken);
-    }
 
     /// <summary>Atomic save with a hook that wraps the file stream (tests inject failures through it).</summary>
     internal static void SaveAtomically(IVectorIndex index, string path, Func<Stream, Stream> wrap, CancellationToken cancellationToken)

@@ -8,7 +8,7 @@ namespace VectorKit.Persistence;
 /// and the expected and found values. <see cref="Section"/> and <see cref="Offset"/> carry the same location for
 /// programs. Loading never returns a partially loaded index: when this exception is thrown, nothing was kept.
 /// </remarks>
-public sealed class IndexFileException : VectorKitException
+public sealed class IndexFileException : IOException
 {
     /// <summary>Creates an exception with a message.</summary>
     /// <param name="message">What is wrong with the file.</param>

@@ -169,7 +169,7 @@ public static class RerankingCalibration
         Array.Sort(tuning);
 
         // (2) The scorer's true top k for every sample query.
-        var exhaustiveProgress = progress is null ? null : new InlineProgress<int>(done => progress.Report(new CalibrationProgress(CalibrationPhase.ExhaustiveScoring, done, n)));
+        var exhaustiveProgress = progress is null ? null : new InlineProgress<int>(done => progress.Report(new CalibrationProgress(CalibrationStage.ExhaustiveScoring, done, n)));
         long[][] truth = Exhaustive(scorer, sampleQueries, order, ids, k, options.ScoringBatchSize, options.MaxDegreeOfParallelism, exhaustiveProgress, cancellationToken, out long exhaustiveTicks);
         double secondsPerPair = exhaustiveTicks / (double)Stopwatch.Frequency / ((double)n * ids.Length);
 
@@ -178,7 +178,7 @@ public static class RerankingCalibration
         IReadOnlyList<int?> widths = options.SearchWidths is { } given ? given.Select(w => (int?)w).ToArray() : [null];
         int steps = widths.Count * (3 + (int)Math.Ceiling(Math.Log2(maxDepth + 1)));
         int stepsDone = 0;
-        void Step() => progress?.Report(new CalibrationProgress(CalibrationPhase.Tuning, Math.Min(++stepsDone, steps), steps));
+        void Step() => progress?.Report(new CalibrationProgress(CalibrationStage.Tuning, Math.Min(++stepsDone, steps), steps));
 
         Setting? best = null;
         Setting? fallback = null;
@@ -291,7 +291,7 @@ public static class RerankingCalibration
         int truthSize = run.TruthSize;
         var queries = new SubsetList<TQuery>(run.Queries, heldOut);
         var pipeline = new RerankingPipeline<TQuery>(run.Index, run.Scorer, settings, run.Options.FullVectors);
-        var verifyProgress = progress is null ? null : new InlineProgress<int>(done => progress.Report(new CalibrationProgress(CalibrationPhase.Verifying, done, heldOut.Length)));
+        var verifyProgress = progress is null ? null : new InlineProgress<int>(done => progress.Report(new CalibrationProgress(CalibrationStage.Verifying, done, heldOut.Length)));
         RerankingResults results = pipeline.RerankBatch(queries, verifyProgress, run.CancellationToken);
         int[] found = new int[heldOut.Length];
         for (int i = 0; i < heldOut.Length; i++)

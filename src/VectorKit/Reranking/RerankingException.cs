@@ -4,7 +4,7 @@ namespace VectorKit.Reranking;
 /// A re-ranking query failed: the scorer threw or returned an invalid result, or a stage could not run. Names the
 /// query (its position in the batch; 0 for a single query) and the stage.
 /// </summary>
-public sealed class RerankingException : VectorKitException
+public sealed class RerankingException : InvalidOperationException
 {
     /// <summary>Creates the exception.</summary>
     /// <param name="queryIndex">The failing query's position in its batch (0 for a single query).</param>

@@ -196,8 +196,8 @@ public class KMeansTests
         var progress = new SynchronousProgress<KMeansProgress>();
         KMeans.Train(data, 16, new KMeansOptions { ClusterCount = 128, MaxIterations = 3, Tolerance = 0 }, progress);
         IReadOnlyList<KMeansProgress> reports = progress.Values;
-        Assert.Contains(reports, r => r.Stage == KMeansStage.Seeding && r.Done == 128);
-        Assert.Contains(reports, r => r.Stage == KMeansStage.Iterating && r.Done == 1 && r.Objective > 0);
+        Assert.Contains(reports, r => r.Stage == KMeansStage.Seeding && r.Completed == 128);
+        Assert.Contains(reports, r => r.Stage == KMeansStage.Iterating && r.Completed == 1 && r.Objective > 0);
 
         using var cancelled = new CancellationTokenSource();
         cancelled.Cancel();

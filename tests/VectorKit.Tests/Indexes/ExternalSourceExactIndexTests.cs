@@ -183,7 +183,7 @@ public sealed class ExternalSourceExactIndexTests : IDisposable
         // Under float32 storage the option is ignored: the rows are the full vectors.
         using (var rows = new ExactIndex(D, DistanceMetric.SquaredEuclidean, float32))
         {
-            Assert.Equal(FullVectorLocation.InIndexMemory, rows.Options.FullVectors);
+            Assert.False(rows.ReadsFullVectorsExternally);
             Assert.True(rows.KeepsFullVectors);
             rows.AddRange(ids, data);
             Assert.Equal(ids[4], rows.Search(data.AsSpan(4 * D, D), 1)[0].Id);

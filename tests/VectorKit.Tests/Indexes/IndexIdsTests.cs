@@ -39,41 +39,4 @@ public class IndexIdsTests
                 return inverted;
         }
     }
-
-    [Fact]
-    public void GetIds_OfAnIndexThatCannotListThem_SaysWhatToDoInstead()
-    {
-        using IVectorIndex index = new WithoutIdList(new ExactIndex(2, DistanceMetric.SquaredEuclidean));
-        var e = Assert.Throws<NotSupportedException>(() => index.GetIds());
-        Assert.Contains("pass the collection's ids", e.Message);
-    }
-
-    // An index kind written before GetIds existed: it still compiles, and the default member explains itself.
-    private sealed class WithoutIdList(IVectorIndex inner) : IVectorIndex
-    {
-        public int Dimension => inner.Dimension;
-
-        public DistanceMetric Metric => inner.Metric;
-
-        public int Count => inner.Count;
-
-        public long MemoryBytes => inner.MemoryBytes;
-
-        public bool Contains(long id) => inner.Contains(id);
-
-        public bool TryGetVector(long id, Span<float> destination) => inner.TryGetVector(id, destination);
-
-        public void Add(long id, ReadOnlySpan<float> vector) => inner.Add(id, vector);
-
-        public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors) => inner.AddRange(ids, vectors);
-
-        public void Remove(long id) => inner.Remove(id);
-
-        public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null) => inner.Search(query, destination, options);
-
-        public BatchSearchResults SearchBatch(ReadOnlySpan<float> queries, int k, SearchOptions? options = null, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
-            => inner.SearchBatch(queries, k, options, progress, cancellationToken);
-
-        public void Dispose() => inner.Dispose();
-    }
 }

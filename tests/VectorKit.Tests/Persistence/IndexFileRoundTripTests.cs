@@ -364,7 +364,7 @@ public class IndexFileRoundTripTests
     }
 
     [Fact]
-    public async Task FilePath_SaveAndLoad_AndAsync()
+    public void FilePath_SaveAndLoad()
     {
         string folder = Directory.CreateTempSubdirectory("vk-storage-").FullName;
         try
@@ -379,16 +379,16 @@ public class IndexFileRoundTripTests
             }
 
             using ExactIndex exact = PersistenceSamples.Exact();
-            await IndexFile.SaveAsync(exact, path);
-            using (ExactIndex loaded = await IndexFile.LoadAsync<ExactIndex>(path, IndexLoadOptions.Untrusted))
+            IndexFile.Save(exact, path);
+            using (ExactIndex loaded = IndexFile.Load<ExactIndex>(path, IndexLoadOptions.Untrusted))
             {
                 Assert.Equal(exact.Search([0, 0, 0], 5), loaded.Search([0, 0, 0], 5));
             }
 
             var stream = new MemoryStream();
-            await IndexFile.SaveAsync(exact, stream);
+            IndexFile.Save(exact, stream);
             stream.Position = 0;
-            using (IVectorIndex loaded = await IndexFile.LoadAsync(stream))
+            using (IVectorIndex loaded = IndexFile.Load(stream))
             {
                 Assert.Equal(exact.Count, loaded.Count);
             }
@@ -593,6 +593,8 @@ public class IndexFileRoundTripTests
         public bool Contains(long id) => false;
 
         public bool TryGetVector(long id, Span<float> destination) => false;
+
+        public long[] GetIds() => [];
 
         public void Add(long id, ReadOnlySpan<float> vector) => throw new NotSupportedException();
 

@@ -42,10 +42,10 @@ public class CalibrationTests
         Assert.True(report.WithinSamplingError, report.ToTable());
         Assert.True(report.HeldOutRecallLow <= report.HeldOutRecall && report.HeldOutRecall <= report.HeldOutRecallHigh);
         Assert.True(report.HeldOutRecallHigh - report.HeldOutRecallLow <= 2 * options.MaxUncertainty + 1e-9, report.ToTable());
-        CalibrationPhase[] phases = progress.Values.Select(p => p.Phase).ToArray();
-        Assert.Equal(CalibrationPhase.Verifying, phases[^1]);
-        Assert.Contains(CalibrationPhase.ExhaustiveScoring, phases);
-        Assert.Contains(CalibrationPhase.Tuning, phases);
+        CalibrationStage[] phases = progress.Values.Select(p => p.Stage).ToArray();
+        Assert.Equal(CalibrationStage.Verifying, phases[^1]);
+        Assert.Contains(CalibrationStage.ExhaustiveScoring, phases);
+        Assert.Contains(CalibrationStage.Tuning, phases);
 
         // The scorer's top k of 2,000 fresh queries, in closed form: the calibrated pipeline keeps the target
         // recall there, within the stated uncertainty of the held-out estimate.

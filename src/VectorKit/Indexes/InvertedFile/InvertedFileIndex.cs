@@ -781,7 +781,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     private sealed class KMeansForward(IProgress<IndexTrainingProgress> target) : IProgress<KMeansProgress>
     {
         public void Report(KMeansProgress value)
-            => target.Report(new IndexTrainingProgress(value.Stage == KMeansStage.Seeding ? IndexTrainingStage.SeedingCentroids : IndexTrainingStage.RefiningCentroids, value.Done, value.Total));
+            => target.Report(new IndexTrainingProgress(value.Stage == KMeansStage.Seeding ? IndexTrainingStage.SeedingCentroids : IndexTrainingStage.RefiningCentroids, value.Completed, value.Total));
     }
 
     private sealed class SubspaceForward(IProgress<IndexTrainingProgress> target, int total) : IProgress<int>

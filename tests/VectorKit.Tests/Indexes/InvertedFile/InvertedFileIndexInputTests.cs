@@ -117,7 +117,7 @@ public class InvertedFileIndexInputTests : VectorIndexInputTests
         Assert.Contains("SearchWidth must be positive; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { SearchWidth = 0 }).Message);
         Assert.Contains("Encoding must be one of Float32, Scalar8Bit, ProductCodes for InvertedFileOptions", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { Encoding = (VectorEncoding)7 }).Message);
         Assert.Contains("ProductCodeBytes must be in [1, 4096]; got 0", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { ProductCodeBytes = 0 }).Message);
-        Assert.Contains("RescoreDepth must be 0 (off) or positive; got -1", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { RescoreDepth = -1 }).Message);
+        Assert.Contains("RescoreDepth must be 0 (off) or in [1, 100000]; got -1", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { RescoreDepth = -1 }).Message);
         Assert.Contains("MaxIterations must be in [0, 10000]", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { MaxIterations = -1 }).Message);
         Assert.Contains("SampleSize must be positive", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { SampleSize = 0 }).Message);
         Assert.Contains("ProductCodeRotation must be None or VarianceBalanced; got 9", Assert.Throws<ArgumentOutOfRangeException>(() => new InvertedFileOptions { ProductCodeRotation = (SubspaceRotation)9 }).Message);

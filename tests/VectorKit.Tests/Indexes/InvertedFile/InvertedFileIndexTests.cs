@@ -228,9 +228,9 @@ public class InvertedFileIndexTests
         var progress = new SynchronousProgress<IndexTrainingProgress>();
         using var index = new InvertedFileIndex(8, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 64, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = 4 });
         index.Train(ClusteredData.Generate(2000, 8, 20, 0.4f, seed: 6), progress);
-        Assert.Contains(progress.Values, p => p.Stage == IndexTrainingStage.SeedingCentroids && p.Done == 64);
-        Assert.Contains(progress.Values, p => p.Stage == IndexTrainingStage.RefiningCentroids && p.Done >= 1);
-        Assert.Contains(progress.Values, p => p.Stage == IndexTrainingStage.TrainingQuantizer && p.Done == 4 && p.Total == 4);
+        Assert.Contains(progress.Values, p => p.Stage == IndexTrainingStage.SeedingCentroids && p.Completed == 64);
+        Assert.Contains(progress.Values, p => p.Stage == IndexTrainingStage.RefiningCentroids && p.Completed >= 1);
+        Assert.Contains(progress.Values, p => p.Stage == IndexTrainingStage.TrainingQuantizer && p.Completed == 4 && p.Total == 4);
         Assert.True(index.IsTrained);
         Assert.Equal(4, index.CodeBytesPerVector);
     }
