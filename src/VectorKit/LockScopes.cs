@@ -12,9 +12,21 @@ internal static class LockScopes
         return new ReadScope(rwLock);
     }
 
+    public static WriteScope EnterWrite(this ReaderWriterLockSlim rwLock)
+    {
+        rwLock.EnterWriteLock();
+        return new WriteScope(rwLock);
+    }
+
     /// <summary>Leaves the read lock when disposed.</summary>
     public readonly struct ReadScope(ReaderWriterLockSlim rwLock) : IDisposable
     {
         public void Dispose() => rwLock.ExitReadLock();
+    }
+
+    /// <summary>Leaves the write lock when disposed.</summary>
+    public readonly struct WriteScope(ReaderWriterLockSlim rwLock) : IDisposable
+    {
+        public void Dispose() => rwLock.ExitWriteLock();
     }
 }

@@ -35,7 +35,7 @@ public static class ExactScalarSweep
         var watch = Stopwatch.StartNew();
         using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
         exact.AddRange(ids, data);
-        exact.TrimExcess();
+        exact.Compact();
         double exactBuild = watch.Elapsed.TotalSeconds;
         double exactBefore = SingleThreadQps(exact, queries, d, null, out long[][] truth);
         var rows = new List<(string Name, double Build, double Bytes, int Scanned, string Rescored, double Recall, double Qps)>
@@ -82,7 +82,7 @@ public static class ExactScalarSweep
         var index = new ExactIndex(d, DistanceMetric.SquaredEuclidean, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = depth });
         index.Train(data);
         index.AddRange(ids, data);
-        index.TrimExcess();
+        index.Compact();
         seconds = watch.Elapsed.TotalSeconds;
         return index;
     }

@@ -15,7 +15,7 @@ internal interface IFullRows
 }
 
 /// <summary>Full vectors kept in memory by the index, found through its id → slot map.</summary>
-internal readonly struct SlotRows(VectorBuffer full, Dictionary<long, int> slotOf) : IFullRows
+internal readonly struct SlotRows(VectorBuffer full, IdMap slotOf) : IFullRows
 {
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public ref float Row(long id) => ref full.Row(slotOf[id]);
@@ -93,24 +93,28 @@ internal static class ExactRescoring
     public static void Rescore<TRows>(DistanceMetric metric, KernelPath path, ref float query, int dimension, Span<SearchHit> candidates, TRows rows)
         where TRows : struct, IFullRows
     {
-        // distance = offset + sign · sum: squared L2 as is, inner product negated, cosine 1 − dot.
-        switch (metric)
-        {
-            case DistanceMetric.SquaredEuclidean: Rescore<SquaredDifferenceStep, TRows>(path, ref query, dimension, candidates, rows, 0f, 1f); break;
-            case DistanceMetric.InnerProduct: Rescore<DotStep, TRows>(path, ref query, dimension, candidates, rows, 0f, -1f); break;
-            default: Rescore<DotStep, TRows>(path, ref query, dimension, candidates, rows, 1f, -1f); break;
-        }
+        var action = new RescoreAction<TRows>(path, ref query, dimension, candidates, rows);
+        MetricDispatch.Run<RescoreAction<TRows>, bool>(metric, ref action);
     }
 
-    private static void Rescore<TStep, TRows>(KernelPath path, ref float query, int dimension, Span<SearchHit> candidates, TRows rows, float offset, float sign)
-        where TStep : struct, IAccumulateStep
+    private ref struct RescoreAction<TRows>(KernelPath path, ref float query, int dimension, Span<SearchHit> candidates, TRows rows) : IMetricAction<bool>
         where TRows : struct, IFullRows
     {
-        for (int i = 0; i < candidates.Length; i++)
+        private readonly ref float _query = ref query;
+        private readonly Span<SearchHit> _candidates = candidates;
+
+        public readonly bool Run<TStep, TFinish>()
+            where TStep : struct, IAccumulateStep
+            where TFinish : struct, IDistanceFinish
         {
-            long id = candidates[i].Id;
-            float sum = ManyKernel.One<TStep>(path, ref query, ref rows.Row(id), dimension);
-            candidates[i] = new SearchHit(id, offset + (sign * sum));
+            for (int i = 0; i < _candidates.Length; i++)
+            {
+                long id = _candidates[i].Id;
+                float sum = ManyKernel.One<TStep>(path, ref _query, ref rows.Row(id), dimension);
+                _candidates[i] = new SearchHit(id, TFinish.Apply(sum));
+            }
+
+            return true;
         }
     }
 }

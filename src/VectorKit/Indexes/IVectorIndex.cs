@@ -14,7 +14,9 @@ namespace VectorKit.Indexes;
 /// <para><b>Input checks.</b> Every vector must have exactly <see cref="Dimension"/> finite components. A failed
 /// add or remove leaves the index unchanged, even for a batch: it is validated whole before anything is written.</para>
 /// <para><b>Thread safety.</b> Implementations document their own guarantees; the built-in ones allow any number of
-/// concurrent searches, and serialise writes against searches.</para>
+/// concurrent searches, and serialize writes against searches: a search sees each write entirely or not at all.</para>
+/// <para><b>Disposal.</b> After <see cref="IDisposable.Dispose"/> every member but <see cref="Dimension"/>,
+/// <see cref="Metric"/>, <see cref="Options"/> and <c>Dispose</c> itself throws <see cref="ObjectDisposedException"/>.</para>
 /// </remarks>
 public interface IVectorIndex : IDisposable
 {
@@ -24,11 +26,23 @@ public interface IVectorIndex : IDisposable
     /// <summary>The metric distances are computed with.</summary>
     DistanceMetric Metric { get; }
 
+    /// <summary>The options the index was built with (or loaded with).</summary>
+    VectorIndexOptions Options { get; }
+
     /// <summary>The number of vectors currently in the index (removed ones excluded).</summary>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     int Count { get; }
 
     /// <summary>Bytes the index holds for vectors, ids and search structures (an estimate within a few percent).</summary>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     long MemoryBytes { get; }
+
+    /// <summary>
+    /// Bytes a search reads per stored vector: <c>4 × dimension</c> for float32, the code length for compressed
+    /// encodings. Full vectors kept for re-scoring are not counted (a search reads them only for re-scored candidates);
+    /// <see cref="MemoryBytes"/> counts them.
+    /// </summary>
+    int CodeBytesPerVector { get; }
 
     /// <summary>Whether a vector with this id is in the index.</summary>
     /// <param name="id">The id to look up.</param>
@@ -44,11 +58,6 @@ public interface IVectorIndex : IDisposable
 
     /// <summary>A snapshot of the ids currently in the index, in ascending order.</summary>
     /// <returns>A new array of <see cref="Count"/> ids, taken at one moment: a concurrent add or remove is either in it entirely or not at all.</returns>
-    /// <remarks>
-    /// Re-ranking calibration uses it to score a whole collection. The default implementation throws, so that an index
-    /// kind written before this member existed still compiles; the built-in indexes implement it.
-    /// </remarks>
-    /// <exception cref="NotSupportedException">The index kind cannot list its ids.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     long[] GetIds();
 
@@ -62,15 +71,56 @@ public interface IVectorIndex : IDisposable
     /// <summary>Adds many vectors at once; all or nothing.</summary>
     /// <param name="ids">One id per vector, none already present and no repeats.</param>
     /// <param name="vectors">The vectors, row after row: <c>ids.Length × Dimension</c> components.</param>
+    /// <param name="progress">Optional; receives the number of vectors added so far (from worker threads where the kind adds in parallel).</param>
+    /// <param name="cancellationToken">
+    /// Stops the batch. A cancelled batch leaves the index as it was: nothing of the batch stays in it (a concurrent
+    /// search may have seen some of its items while it ran). A token cancelled before the call adds nothing.
+    /// </param>
     /// <exception cref="ArgumentException">Lengths disagree, a component is not finite, a zero vector under cosine, or an id repeats or exists.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled; nothing was added.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors);
+    void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default);
+
+    /// <summary>Adds a vector, or replaces the vector of an id already present, as one atomic change.</summary>
+    /// <param name="id">Any id.</param>
+    /// <param name="vector">Exactly <see cref="Dimension"/> finite components.</param>
+    /// <returns><see langword="true"/> when the id was present and its vector replaced; <see langword="false"/> when it was added.</returns>
+    /// <remarks>A concurrent search sees the item with its old vector or with its new one, never without it.</remarks>
+    /// <exception cref="ArgumentException">Wrong length, a NaN or infinite component, or a zero vector under cosine.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    bool AddOrReplace(long id, ReadOnlySpan<float> vector);
+
+    /// <summary>Adds or replaces many vectors as one atomic change: all or nothing.</summary>
+    /// <param name="ids">One id per vector, no repeats; ids present have their vectors replaced, the others are added.</param>
+    /// <param name="vectors">The vectors, row after row: <c>ids.Length × Dimension</c> components.</param>
+    /// <param name="progress">Optional; receives the number of vectors written so far.</param>
+    /// <param name="cancellationToken">Stops the batch; a cancelled batch leaves the index as it was.</param>
+    /// <returns>How many of the ids were present and had their vectors replaced.</returns>
+    /// <remarks>A concurrent search sees the index entirely before or entirely after the batch.</remarks>
+    /// <exception cref="ArgumentException">Lengths disagree, a component is not finite, a zero vector under cosine, or an id repeats.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled; nothing changed.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default);
 
     /// <summary>Removes the vector with this id.</summary>
     /// <param name="id">An id in the index.</param>
     /// <exception cref="KeyNotFoundException">The id is not in the index.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     void Remove(long id);
+
+    /// <summary>Removes many vectors at once; all or nothing.</summary>
+    /// <param name="ids">Ids in the index, no repeats.</param>
+    /// <exception cref="ArgumentException">An id appears more than once; nothing was removed.</exception>
+    /// <exception cref="KeyNotFoundException">An id is not in the index; nothing was removed.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    void RemoveRange(ReadOnlySpan<long> ids);
+
+    /// <summary>Releases the space held by removed vectors and by growth slack, rebuilding search structures where the kind needs it.</summary>
+    /// <param name="progress">Optional; receives the number of items processed so far, where the kind rebuilds.</param>
+    /// <param name="cancellationToken">Abandons the compaction; the index is then as it was.</param>
+    /// <exception cref="OperationCanceledException">The token was cancelled; nothing changed.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default);
 
     /// <summary>Finds the stored vectors nearest to <paramref name="query"/> and writes them, best first, into <paramref name="destination"/>.</summary>
     /// <param name="query">Exactly <see cref="Dimension"/> finite components.</param>
@@ -83,7 +133,7 @@ public interface IVectorIndex : IDisposable
 
     /// <summary>Searches many queries, in parallel over the cores allowed by <see cref="SearchOptions.MaxDegreeOfParallelism"/>.</summary>
     /// <param name="queries">The queries, row after row: a multiple of <see cref="Dimension"/> components.</param>
-    /// <param name="k">Results wanted per query; more than <see cref="Count"/> returns everything.</param>
+    /// <param name="k">Results wanted per query; more than <see cref="Count"/> returns everything (slots are reserved for at most <see cref="Count"/>).</param>
     /// <param name="options">Filter, width and parallelism; <see langword="null"/> for <see cref="SearchOptions.Default"/>.</param>
     /// <param name="progress">Optional; receives the number of queries completed so far, from worker threads.</param>
     /// <param name="cancellationToken">Stops the batch between blocks of queries.</param>

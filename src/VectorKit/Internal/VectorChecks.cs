@@ -66,6 +66,25 @@ internal static class VectorChecks
     }
 
     /// <summary>
+    /// The query preparation every single search starts with: <paramref name="query"/> must have
+    /// <paramref name="dimension"/> finite components; under cosine it is scaled to unit length into
+    /// <paramref name="unitScratch"/> (at least <paramref name="dimension"/> long; a zero query is rejected).
+    /// </summary>
+    /// <returns>The query as the index searches it.</returns>
+    public static ReadOnlySpan<float> PrepareQuery(ReadOnlySpan<float> query, int dimension, DistanceMetric metric, Span<float> unitScratch)
+    {
+        CheckVector(query, dimension, nameof(query));
+        if (metric != DistanceMetric.Cosine)
+        {
+            return query;
+        }
+
+        Span<float> unit = unitScratch[..dimension];
+        Normalize(query, unit, nameof(query));
+        return unit;
+    }
+
+    /// <summary>
     /// The checks every batch search starts with: k positive, the queries a whole number of rows, every component
     /// finite. Returns the number of queries, and under cosine the queries normalised to unit length (a new array;
     /// a zero row is rejected), else <see langword="null"/>.

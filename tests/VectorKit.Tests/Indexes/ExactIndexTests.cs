@@ -236,7 +236,7 @@ public class ExactIndexTests
         float[] query = RandomFloats(random, 64);
         SearchHit[] before = index.Search(query, 10);
         long bytes = index.MemoryBytes;
-        index.TrimExcess();
+        index.Compact();
         Assert.True(index.MemoryBytes <= bytes);
         Assert.Equal(before, index.Search(query, 10));
     }

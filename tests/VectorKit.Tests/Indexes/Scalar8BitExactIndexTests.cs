@@ -328,8 +328,8 @@ public class Scalar8BitExactIndexTests
         using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
         codes.AddRange(ids, data);
         exact.AddRange(ids, data);
-        codes.TrimExcess();
-        exact.TrimExcess();
+        codes.Compact();
+        exact.Compact();
         long floatRows = (long)n * d * sizeof(float);
         long codeRows = (long)n * d;
         long overhead = exact.MemoryBytes - floatRows;

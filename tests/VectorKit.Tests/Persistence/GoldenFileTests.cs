@@ -127,7 +127,7 @@ public class GoldenFileTests
         Assert.Equal((4, 2, VectorEncoding.Scalar8Bit, 6, 3, 13, 1), (options.ListCount, options.SearchWidth, options.Encoding, options.RescoreDepth, options.MaxIterations, options.Seed, options.MaxDegreeOfParallelism));
         Assert.True(loaded.KeepsFullVectors);
         Assert.Equal(18, loaded.ListLengths().Sum());
-        Assert.Equal(12, loaded.Centroids.Length);
+        Assert.Equal(12, loaded.GetCentroids().Length);
 
         // The full vectors are the rows added; the two removed ids are gone.
         float[] data = ClusteredData.Generate(20, 3, 4, 0.3f, 13);

@@ -172,12 +172,8 @@ public sealed partial class ExactIndex
             // The query padded with zeros to the code length: padding meets decoded zeros and adds nothing.
             scalar.Pad(q, prepared);
             ref float query = ref MemoryMarshal.GetReference(prepared);
-            int found = Metric switch
-            {
-                DistanceMetric.SquaredEuclidean => Scan<SquaredDifferenceStep, KeepFinish, CodeScanRows>(ref query, heap, options.Filter, new(scalar, _codes!, _kernelPath)),
-                DistanceMetric.InnerProduct => Scan<DotStep, NegateFinish, CodeScanRows>(ref query, heap, options.Filter, new(scalar, _codes!, _kernelPath)),
-                _ => Scan<DotStep, OneMinusFinish, CodeScanRows>(ref query, heap, options.Filter, new(scalar, _codes!, _kernelPath)),
-            };
+            var scan = new ScanAction<CodeScanRows>(this, ref query, heap, options.Filter, new(scalar, _codes!, _kernelPath));
+            int found = MetricDispatch.Run<ScanAction<CodeScanRows>, int>(Metric, ref scan);
 
             if (depth > 0 && _keepsVectors)
             {
@@ -208,36 +204,6 @@ public sealed partial class ExactIndex
             {
                 ArrayPool<float>.Shared.Return(rentedQuery);
             }
-        }
-    }
-
-    // Caller holds the read lock for the whole batch; queries are validated (unit length under cosine).
-    private unsafe void SearchCodesBatch(ReadOnlySpan<float> queries, int queryCount, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
-    {
-        int d = Dimension;
-        if (_readsExternally && _source is null && (options.RescoreDepth ?? _options.RescoreDepth) > 0)
-        {
-            SourceRows.ThrowNoSource(); // here, not wrapped in the parallel loop's AggregateException
-        }
-
-        int blocks = (queryCount + CodeQueryBlock - 1) / CodeQueryBlock;
-        int completed = 0;
-        var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
-        fixed (float* pinned = queries)
-        {
-            nint address = (nint)pinned;
-            Parallel.For(0, blocks, parallel, b =>
-            {
-                int end = Math.Min(queryCount, (b + 1) * CodeQueryBlock);
-                for (int i = b * CodeQueryBlock; i < end; i++)
-                {
-                    var query = new ReadOnlySpan<float>((float*)address + ((nint)i * d), d);
-                    results.SetCount(i, SearchCodesLocked(query, results.Slots(i), options));
-                }
-
-                int done = Interlocked.Add(ref completed, end - (b * CodeQueryBlock));
-                progress?.Report(done);
-            });
         }
     }
 }

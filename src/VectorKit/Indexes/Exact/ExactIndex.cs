@@ -15,7 +15,7 @@ namespace VectorKit.Indexes.Exact;
 /// <para><b>Storage.</b> All vectors sit in one contiguous native block (N × d × 4 bytes), with one id per row and,
 /// except under cosine, one squared norm per row. Removing a vector moves the last row into its place, so the scan
 /// never meets holes. Memory beyond the vectors is about 40 bytes per vector (id, norm, id lookup), plus the
-/// growth slack left by one-at-a-time adds (up to half; <see cref="TrimExcess"/> releases it).</para>
+/// growth slack left by one-at-a-time adds (up to half; <see cref="Compact"/> releases it).</para>
 /// <para><b>Search.</b> A single query streams the block once through the one-against-many kernel and keeps the best
 /// k in a bounded heap. A batch is tiled: blocks of queries against cache-sized blocks of rows through a register-tiled
 /// dot-product kernel, in parallel across query blocks. Its candidates are re-scored with the single-query kernel, and a
@@ -53,7 +53,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
 
     private readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
     private readonly VectorBuffer _vectors;
-    private readonly Dictionary<long, int> _slotOf = new();
+    private readonly IdMap _slotOf = new();
     private readonly KernelPath _kernelPath;
 
     // 8-bit storage: the codes (null under float32) and their quantizer once trained. _vectors holds the rows under
@@ -131,10 +131,23 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     public DistanceMetric Metric { get; }
 
     /// <inheritdoc/>
-    public int Count => Volatile.Read(ref _count);
+    public int Count
+    {
+        get
+        {
+            ThrowIfDisposed();
+            return Volatile.Read(ref _count);
+        }
+    }
 
     /// <summary>The options the index was built with.</summary>
     public ExactIndexOptions Options => _options;
+
+    /// <inheritdoc/>
+    VectorIndexOptions IVectorIndex.Options => _options;
+
+    /// <inheritdoc/>
+    public int CodeBytesPerVector => _codes?.Dimension ?? Dimension * sizeof(float);
 
     /// <summary>
     /// Whether adds and searches may run: always under float32 storage; under 8-bit storage once <see cref="Train"/>
@@ -181,7 +194,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
             try
             {
                 return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
-                    + ((long)_slotOf.EnsureCapacity(0) * 28) + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
+                    + _slotOf.Bytes + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
             }
             finally
             {
@@ -231,79 +244,39 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
-    public void Add(long id, ReadOnlySpan<float> vector)
-    {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
-
-        _lock.EnterWriteLock();
-        try
-        {
-            ThrowIfDisposed();
-            ThrowIfNotTrained();
-            if (_slotOf.ContainsKey(id))
-            {
-                ThrowHelper.ThrowDuplicateId(nameof(id), id);
-            }
-
-            EnsureCapacity(_count + 1);
-            Store(_count, id, vector);
-            Volatile.Write(ref _count, _count + 1);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
-    }
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    public void Add(long id, ReadOnlySpan<float> vector) => AddRange([id], vector);
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
-    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors)
-    {
-        int n = ids.Length;
-        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
-
-        _lock.EnterWriteLock();
-        try
-        {
-            ThrowIfDisposed();
-            ThrowIfNotTrained();
-            foreach (long id in ids)
-            {
-                if (_slotOf.ContainsKey(id))
-                {
-                    ThrowHelper.ThrowDuplicateId(nameof(ids), id);
-                }
-            }
-
-            EnsureCapacity(checked(_count + n));
-            _slotOf.EnsureCapacity(_count + n);
-            for (int r = 0; r < n; r++)
-            {
-                Store(_count + r, ids[r], vectors.Slice(r * Dimension, Dimension));
-            }
-
-            Volatile.Write(ref _count, _count + n);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
-    }
+    /// <remarks>The rows are copied under the write lock in one step; the token is checked before it.</remarks>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+        => Write(ids, vectors, replace: false, progress, cancellationToken);
 
     /// <inheritdoc/>
-    public void Remove(long id)
-    {
-        _lock.EnterWriteLock();
-        try
-        {
-            ThrowIfDisposed();
-            if (!_slotOf.Remove(id, out int slot))
-            {
-                ThrowHelper.ThrowIdNotFound(id);
-            }
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    public bool AddOrReplace(long id, ReadOnlySpan<float> vector) => Write([id], vector, replace: true, null, default) == 1;
 
-            // Fill the hole with the last row so the scanned range stays dense.
+    /// <inheritdoc/>
+    /// <remarks>A replaced vector is overwritten in its row under the write lock; searches wait for the whole batch.</remarks>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    public int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+        => Write(ids, vectors, replace: true, progress, cancellationToken);
+
+    /// <inheritdoc/>
+    public void Remove(long id) => RemoveRange([id]);
+
+    /// <inheritdoc/>
+    /// <remarks>Each removed row is filled with the last row, so the scanned range stays dense.</remarks>
+    public void RemoveRange(ReadOnlySpan<long> ids)
+    {
+        VectorChecks.CheckUniqueIds(ids);
+        using var write = _lock.EnterWrite();
+        ThrowIfDisposed();
+        _slotOf.CheckPresent(ids);
+        foreach (long id in ids)
+        {
+            _slotOf.Remove(id, out int slot);
             int last = _count - 1;
             if (slot != last)
             {
@@ -325,172 +298,169 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
 
             Volatile.Write(ref _count, last);
         }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
     }
 
     /// <summary>Batch queries so far whose tiled candidates could not be proven complete and were scanned singly (for tests).</summary>
     internal int BatchFallbacks => Volatile.Read(ref _batchFallbacks);
 
-    /// <summary>Releases the storage reserved beyond <see cref="Count"/> vectors.</summary>
-    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void TrimExcess()
+    /// <inheritdoc/>
+    /// <remarks>Removed rows leave no holes in an exact index, so this only releases the storage reserved beyond <see cref="Count"/> vectors.</remarks>
+    public void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
-        _lock.EnterWriteLock();
-        try
+        using var write = _lock.EnterWrite();
+        ThrowIfDisposed();
+        cancellationToken.ThrowIfCancellationRequested();
+        if (_keepsVectors)
+        {
+            _vectors.Resize(_count);
+        }
+
+        _codes?.Resize(_count);
+        Array.Resize(ref _ids, _count);
+        if (_squaredNorms.Length > 0)
+        {
+            Array.Resize(ref _squaredNorms, _count);
+        }
+
+        _slotOf.TrimExcess();
+        progress?.Report(_count);
+    }
+
+    // Adds (and with `replace`, overwrites) a validated batch under the write lock, in one step: nothing is written
+    // unless every row and id passed. Returns how many ids were replaced.
+    private int Write(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
+    {
+        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
+        cancellationToken.ThrowIfCancellationRequested();
+        int replaced = 0;
+        using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
-            if (_keepsVectors)
+            ThrowIfNotTrained();
+            if (!replace)
             {
-                _vectors.Resize(_count);
+                _slotOf.CheckAbsent(ids, nameof(ids));
             }
 
-            _codes?.Resize(_count);
-            Array.Resize(ref _ids, _count);
-            if (_squaredNorms.Length > 0)
+            cancellationToken.ThrowIfCancellationRequested();
+            int added = 0;
+            foreach (long id in ids)
             {
-                Array.Resize(ref _squaredNorms, _count);
+                added += _slotOf.ContainsKey(id) ? 0 : 1;
             }
 
-            _slotOf.TrimExcess();
+            EnsureCapacity(checked(_count + added));
+            _slotOf.EnsureCapacity(_count + added);
+            for (int r = 0; r < ids.Length; r++)
+            {
+                ReadOnlySpan<float> row = vectors.Slice(r * Dimension, Dimension);
+                if (_slotOf.TryGetValue(ids[r], out int slot))
+                {
+                    Store(slot, row);
+                    replaced++;
+                }
+                else
+                {
+                    Store(_count, row);
+                    _ids[_count] = ids[r];
+                    _slotOf.Add(ids[r], _count);
+                    Volatile.Write(ref _count, _count + 1);
+                }
+            }
         }
-        finally
+
+        progress?.Report(ids.Length);
+        return replaced;
+    }
+
+
+    /// <inheritdoc/>
+    /// <remarks>
+    /// Under 8-bit encoding with full vectors kept (in memory or in an attached source), <see cref="SearchOptions.RescoreDepth"/> (default
+    /// <see cref="VectorIndexOptions.RescoreDepth"/>) candidates by code distance are re-scored exactly and the returned distances are exact.
+    /// </remarks>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
+    public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
+    {
+        VectorChecks.CheckResultDestination(destination);
+        using var unit = ScratchRental<float>.Rent(Metric == DistanceMetric.Cosine ? Dimension : 0);
+        ReadOnlySpan<float> q = VectorChecks.PrepareQuery(query, Dimension, Metric, unit.Span);
+        using (_lock.EnterRead())
         {
-            _lock.ExitWriteLock();
+            ThrowIfDisposed();
+            ThrowIfNotTrained();
+            return SearchPrepared(q, destination, options ?? SearchOptions.Default);
         }
     }
 
     /// <inheritdoc/>
     /// <remarks>
-    /// Under 8-bit storage with full vectors kept (in memory or in an attached source), <see cref="SearchOptions.RescoreDepth"/> (default
-    /// <see cref="VectorIndexOptions.RescoreDepth"/>) candidates by code distance are re-scored exactly and the returned distances are exact.
+    /// Under float32 encoding without a filter, blocks of queries are scored against cache-sized tiles of rows and the
+    /// result is proven equal to single searches (see the class remarks). Otherwise each query runs the single-query
+    /// scan (and re-scoring), queries in parallel.
     /// </remarks>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
     /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
-    {
-        VectorChecks.CheckResultDestination(destination);
-
-        VectorChecks.CheckVector(query, Dimension, nameof(query));
-        float[]? rented = null;
-        scoped ReadOnlySpan<float> q = query;
-        Span<float> unit = Metric == DistanceMetric.Cosine && Dimension <= 512 ? stackalloc float[Dimension] : default;
-        if (Metric == DistanceMetric.Cosine)
-        {
-            if (unit.IsEmpty)
-            {
-                rented = System.Buffers.ArrayPool<float>.Shared.Rent(Dimension);
-                unit = rented.AsSpan(0, Dimension);
-            }
-
-            VectorChecks.Normalize(query, unit, nameof(query));
-            q = unit;
-        }
-
-        try
-        {
-            _lock.EnterReadLock();
-            try
-            {
-                ThrowIfDisposed();
-                if (_codes is not null)
-                {
-                    ThrowIfNotTrained();
-                    return SearchCodesLocked(q, destination, options ?? SearchOptions.Default);
-                }
-
-                return SearchLocked(q, destination, options?.Filter);
-            }
-            finally
-            {
-                _lock.ExitReadLock();
-            }
-        }
-        finally
-        {
-            if (rented is not null)
-            {
-                System.Buffers.ArrayPool<float>.Shared.Return(rented);
-            }
-        }
-    }
-
-    /// <inheritdoc/>
-    /// <remarks>Under 8-bit storage each query runs the single-query code scan (and re-scoring), queries in parallel.</remarks>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
-    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public unsafe BatchSearchResults SearchBatch(
+    public BatchSearchResults SearchBatch(
         ReadOnlySpan<float> queries,
         int k,
         SearchOptions? options = null,
         IProgress<int>? progress = null,
         CancellationToken cancellationToken = default)
     {
-        int d = Dimension;
-        ReadOnlySpan<float> source = VectorChecks.CheckBatchQueries(queries, k, d, Metric, out int queryCount) ?? queries;
-
-        options ??= SearchOptions.Default;
-        _lock.EnterReadLock();
-        try
+        ReadOnlySpan<float> source = BatchSearch.Prepare(queries, k, Dimension, Metric, out int queryCount);
+        SearchOptions run = options ?? SearchOptions.Default;
+        using (_lock.EnterRead())
         {
             ThrowIfDisposed();
-            var results = new BatchSearchResults(queryCount, Math.Min(k, Math.Max(1, _count)));
             if (queryCount > 0)
             {
                 ThrowIfNotTrained();
             }
 
+            BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, _count);
             if (queryCount == 0 || _count == 0)
             {
                 return results;
             }
 
-            if (_codes is not null)
+            if (_codes is not null || run.Filter is not null)
             {
-                SearchCodesBatch(source, queryCount, results, options, progress, cancellationToken);
+                if (_readsExternally && _source is null && (run.RescoreDepth ?? _options.RescoreDepth) > 0)
+                {
+                    SourceRows.ThrowNoSource();
+                }
+
+                BatchSearch.RunQueries(source, Dimension, results, CodeQueryBlock, run, progress, cancellationToken, static () => 0, (q, slots, _) => SearchPrepared(q, slots, run));
                 return results;
             }
 
-            fixed (float* pinned = source)
-            {
-                var batch = new BatchRun(this, (nint)pinned, queryCount, results, options, progress, LargestSquaredNorm());
-                int blocks = (queryCount + QueryBlock - 1) / QueryBlock;
-                var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
-                Parallel.For(0, blocks, parallel, () => new BatchScratch(this, results.K), batch.RunBlock, static _ => { });
-            }
-
+            var tiled = new TiledBatch(this, results, LargestSquaredNorm());
+            BatchSearch.RunBlocks(source, queryCount, QueryBlock, run, progress, cancellationToken, () => new BatchScratch(this, results.K), tiled.Run);
             return results;
-        }
-        finally
-        {
-            _lock.ExitReadLock();
         }
     }
 
     /// <summary>Frees the vector storage. Further calls throw <see cref="ObjectDisposedException"/>.</summary>
     public void Dispose()
     {
-        _lock.EnterWriteLock();
-        try
+        using var write = _lock.EnterWrite();
+        if (_disposed)
         {
-            if (_disposed)
-            {
-                return;
-            }
+            return;
+        }
 
-            _disposed = true;
-            _vectors.Dispose();
-            _codes?.Dispose();
-            _slotOf.Clear();
-            _count = 0;
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
+        _disposed = true;
+        _vectors.Dispose();
+        _codes?.Dispose();
+        _slotOf.Clear();
+        _count = 0;
     }
+
+    // Caller holds the read lock and checked training; q is validated (and unit length under cosine).
+    private int SearchPrepared(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options)
+        => _codes is not null ? SearchCodesLocked(q, destination, options) : SearchLocked(q, destination, options.Filter);
 
     // Caller holds the read lock; q is validated (and unit length under cosine).
     private int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, Func<long, bool>? filter)
@@ -501,21 +471,29 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         }
 
         Span<SearchHit> heap = destination[..Math.Min(destination.Length, _count)];
-        ref float query = ref MemoryMarshal.GetReference(q);
-        int found = Metric switch
-        {
-            DistanceMetric.SquaredEuclidean => Scan<SquaredDifferenceStep, KeepFinish, FloatScanRows>(ref query, heap, filter, new(_vectors, _kernelPath)),
-            DistanceMetric.InnerProduct => Scan<DotStep, NegateFinish, FloatScanRows>(ref query, heap, filter, new(_vectors, _kernelPath)),
-            _ => Scan<DotStep, OneMinusFinish, FloatScanRows>(ref query, heap, filter, new(_vectors, _kernelPath)),
-        };
+        var scan = new ScanAction<FloatScanRows>(this, ref MemoryMarshal.GetReference(q), heap, filter, new(_vectors, _kernelPath));
+        int found = MetricDispatch.Run<ScanAction<FloatScanRows>, int>(Metric, ref scan);
         return TopK.SortBestFirst(heap, found);
+    }
+
+    /// <summary>One scan with the metric resolved.</summary>
+    private ref struct ScanAction<TRows>(ExactIndex index, ref float query, Span<SearchHit> heap, Func<long, bool>? filter, TRows rows) : IMetricAction<int>
+        where TRows : struct, IScanRows
+    {
+        private readonly ref float _query = ref query;
+        private readonly Span<SearchHit> _heap = heap;
+
+        public readonly int Run<TStep, TFinish>()
+            where TStep : struct, IAccumulateStep
+            where TFinish : struct, IDistanceFinish
+            => index.Scan<TStep, TFinish, TRows>(ref _query, _heap, filter, rows);
     }
 
     // One pass over the rows (float32 vectors or 8-bit codes): the kernel scores a block of rows at a time, the bounded
     // heap keeps the best.
     private int Scan<TStep, TFinish, TRows>(ref float query, Span<SearchHit> heap, Func<long, bool>? filter, TRows rows)
         where TStep : struct, IAccumulateStep
-        where TFinish : struct, IFinish
+        where TFinish : struct, IDistanceFinish
         where TRows : struct, IScanRows
     {
         int n = _count;
@@ -621,14 +599,13 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         }
     }
 
-    // Writes one validated vector into a slot, normalised under cosine; caller holds the write lock.
-    private void Store(int slot, long id, ReadOnlySpan<float> vector)
+    // Writes one validated vector into a slot's row (or code), normalised under cosine; caller holds the write lock
+    // and maintains the ids.
+    private void Store(int slot, ReadOnlySpan<float> vector)
     {
         if (_codes is not null)
         {
             StoreCode(slot, vector);
-            _ids[slot] = id;
-            _slotOf.Add(id, slot);
             return;
         }
 
@@ -636,19 +613,11 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         if (Metric == DistanceMetric.Cosine)
         {
             VectorChecks.Normalize(vector, row, nameof(vector));
-        }
-        else
-        {
-            vector.CopyTo(row);
+            return;
         }
 
-        if (Metric != DistanceMetric.Cosine)
-        {
-            _squaredNorms[slot] = PairKernel.Sum<DotStep>(_kernelPath, row, row);
-        }
-
-        _ids[slot] = id;
-        _slotOf.Add(id, slot);
+        vector.CopyTo(row);
+        _squaredNorms[slot] = PairKernel.Sum<DotStep>(_kernelPath, row, row);
     }
 
     private void ThrowIfDisposed()
@@ -658,61 +627,6 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
             ThrowHelper.ThrowObjectDisposed(this);
         }
     }
-
-    /// <summary>Turns a kernel's raw sum into the metric's distance.</summary>
-    private interface IFinish
-    {
-        static abstract float Apply(float raw);
-
-        /// <summary>The distance from a dot product, for the batch kernel (squared Euclidean expands ‖q‖² + ‖x‖² − 2 q·x).</summary>
-        static abstract float FromDot(float dot, float querySquaredNorm, float rowSquaredNorm);
-
-        /// <summary>
-        /// Twice the largest possible gap between a batch candidate's distance (<see cref="FromDot"/>) and the
-        /// single-query kernel's distance for the same row, given the per-sum relative error bound γ.
-        /// </summary>
-        /// <remarks>
-        /// A float sum of products errs by at most γ·Σ|terms| (γ ≈ terms-per-lane-chain × 2⁻²⁴; Higham, Accuracy and
-        /// Stability of Numerical Algorithms, ch. 3). Cauchy–Schwarz bounds Σ|q_i x_i| by ‖q‖‖x‖ and Σ(q_i − x_i)²
-        /// by 2(‖q‖² + ‖x‖²); the largest stored norm stands in for every row's.
-        /// </remarks>
-        static abstract float Margin(double gamma, float querySquaredNorm, float largestRowSquaredNorm);
-    }
-
-    private readonly struct KeepFinish : IFinish
-    {
-        public static float Apply(float raw) => raw;
-
-        public static float FromDot(float dot, float querySquaredNorm, float rowSquaredNorm) => querySquaredNorm + rowSquaredNorm - (2f * dot);
-
-        // Expansion: the three sums (γ each) and two additions (2⁻²⁴ each) over ≤ 2(‖q‖² + ‖x‖²); differences: γ over the same.
-        public static float Margin(double gamma, float querySquaredNorm, float largestRowSquaredNorm)
-            => (float)(2 * ((4 * gamma) + (4 * Unit)) * ((double)querySquaredNorm + largestRowSquaredNorm));
-    }
-
-    private readonly struct NegateFinish : IFinish
-    {
-        public static float Apply(float raw) => -raw;
-
-        public static float FromDot(float dot, float querySquaredNorm, float rowSquaredNorm) => -dot;
-
-        public static float Margin(double gamma, float querySquaredNorm, float largestRowSquaredNorm)
-            => (float)(2 * (2 * gamma) * Math.Sqrt((double)querySquaredNorm * largestRowSquaredNorm));
-    }
-
-    private readonly struct OneMinusFinish : IFinish
-    {
-        public static float Apply(float raw) => 1f - raw;
-
-        public static float FromDot(float dot, float querySquaredNorm, float rowSquaredNorm) => 1f - dot;
-
-        // Unit vectors (to within rounding, hence 1.01), plus the rounding of 1 − dot on each side.
-        public static float Margin(double gamma, float querySquaredNorm, float largestRowSquaredNorm)
-            => (float)(2 * ((2 * gamma * 1.01) + (4 * Unit)));
-    }
-
-    // The unit roundoff of float32.
-    private const double Unit = 1.0 / (1 << 24);
 
     /// <summary>One thread's buffers for a batch: row-tile distances, per-query candidate heaps, query norms.</summary>
     private sealed class BatchScratch
@@ -743,43 +657,29 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         public float[] QuerySquaredNorms { get; }
     }
 
-    /// <summary>The shared state of one batch search, and the work of one block of queries.</summary>
-    private sealed unsafe class BatchRun(ExactIndex index, nint queries, int queryCount, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, float largestSquaredNorm)
+    /// <summary>The shared state of one tiled batch search (float32 rows, no filter), and the work of one block of queries.</summary>
+    private sealed unsafe class TiledBatch(ExactIndex index, BatchSearchResults results, float largestSquaredNorm)
     {
-        private int _completed;
-
-        public BatchScratch RunBlock(int block, ParallelLoopState state, BatchScratch scratch)
+        public void Run(nint queries, int first, int count, BatchScratch scratch)
         {
-            int first = block * QueryBlock;
-            int count = Math.Min(QueryBlock, queryCount - first);
-            int d = index.Dimension;
-            float* q = (float*)queries + ((nint)first * d);
-            if (options.Filter is not null)
-            {
-                for (int i = 0; i < count; i++)
-                {
-                    var query = new ReadOnlySpan<float>(q + ((nint)i * d), d);
-                    results.SetCount(first + i, index.SearchLocked(query, results.Slots(first + i), options.Filter));
-                }
-            }
-            else
-            {
-                switch (index.Metric)
-                {
-                    case DistanceMetric.SquaredEuclidean: Tiled<SquaredDifferenceStep, KeepFinish>(first, count, q, scratch); break;
-                    case DistanceMetric.InnerProduct: Tiled<DotStep, NegateFinish>(first, count, q, scratch); break;
-                    default: Tiled<DotStep, OneMinusFinish>(first, count, q, scratch); break;
-                }
-            }
+            var action = new BlockAction(this, first, count, (float*)queries + ((nint)first * index.Dimension), scratch);
+            MetricDispatch.Run<BlockAction, bool>(index.Metric, ref action);
+        }
 
-            int done = Interlocked.Add(ref _completed, count);
-            progress?.Report(done);
-            return scratch;
+        private readonly struct BlockAction(TiledBatch batch, int first, int count, float* q, BatchScratch scratch) : IMetricAction<bool>
+        {
+            public bool Run<TStep, TFinish>()
+                where TStep : struct, IAccumulateStep
+                where TFinish : struct, IDistanceFinish
+            {
+                batch.Tiled<TStep, TFinish>(first, count, q, scratch);
+                return true;
+            }
         }
 
         private void Tiled<TStep, TFinish>(int first, int count, float* q, BatchScratch scratch)
             where TStep : struct, IAccumulateStep
-            where TFinish : struct, IFinish
+            where TFinish : struct, IDistanceFinish
         {
             int d = index.Dimension;
             int n = index._count;
@@ -867,7 +767,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
                 KernelPath.Vector128 => 4,
                 _ => 1,
             };
-            return 2.0 * ((dimension / width) + width + 6) * Unit;
+            return 2.0 * ((dimension / width) + width + 6) * Float32Rounding.Unit;
         }
     }
 }

@@ -36,37 +36,10 @@ internal interface IGraphDistance
     static abstract void Prefetch(GraphIndex index, int slot);
 }
 
-/// <summary>How a metric turns the kernel's step-sum into a distance.</summary>
-internal interface IGraphFinish
-{
-    static abstract float Apply(float sum);
-}
-
-/// <summary>Squared Euclidean distance: the sum as is.</summary>
-internal readonly struct KeepSum : IGraphFinish
-{
-    [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public static float Apply(float sum) => sum;
-}
-
-/// <summary>Inner product: the negated dot product.</summary>
-internal readonly struct NegateSum : IGraphFinish
-{
-    [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public static float Apply(float sum) => -sum;
-}
-
-/// <summary>Cosine: one minus the dot product of unit vectors.</summary>
-internal readonly struct OneMinusSum : IGraphFinish
-{
-    [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public static float Apply(float sum) => 1f - sum;
-}
-
 /// <summary>Float32 rows: the exact index's kernel, so distances equal its own bit for bit.</summary>
 internal readonly struct FloatGraphDistance<TStep, TFinish, TLane> : IGraphDistance
     where TStep : struct, IAccumulateStep
-    where TFinish : struct, IGraphFinish
+    where TFinish : struct, IDistanceFinish
     where TLane : struct, IVectorLane<TLane>
 {
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
@@ -87,7 +60,7 @@ internal readonly struct FloatGraphDistance<TStep, TFinish, TLane> : IGraphDista
 /// <summary>8-bit scalar codes: the float query against the decoded code, on the SIMD byte-code kernel.</summary>
 internal readonly struct CodeGraphDistance<TStep, TFinish, TLane> : IGraphDistance
     where TStep : struct, IAccumulateStep
-    where TFinish : struct, IGraphFinish
+    where TFinish : struct, IDistanceFinish
     where TLane : struct, IVectorLane<TLane>
 {
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
@@ -126,12 +99,8 @@ internal static class GraphDispatch
     public static TResult Run<TAction, TResult>(DistanceMetric metric, KernelPath path, bool codes, ref TAction action)
         where TAction : struct, IGraphAction<TResult>, allows ref struct
     {
-        return metric switch
-        {
-            DistanceMetric.SquaredEuclidean => ByPath<TAction, TResult, SquaredDifferenceStep, KeepSum>(path, codes, ref action),
-            DistanceMetric.InnerProduct => ByPath<TAction, TResult, DotStep, NegateSum>(path, codes, ref action),
-            _ => ByPath<TAction, TResult, DotStep, OneMinusSum>(path, codes, ref action),
-        };
+        var byMetric = new ByMetric<TAction, TResult>(action, path, codes);
+        return MetricDispatch.Run<ByMetric<TAction, TResult>, TResult>(metric, ref byMetric);
     }
 
     // Asks the cache for a row (one hint per 64-byte line); no effect where the hint is not available.
@@ -152,10 +121,22 @@ internal static class GraphDispatch
         }
     }
 
+    /// <summary>The metric resolved by <see cref="MetricDispatch"/>; the kernel width and the storage next.</summary>
+    private ref struct ByMetric<TAction, TResult>(TAction action, KernelPath path, bool codes) : IMetricAction<TResult>
+        where TAction : struct, IGraphAction<TResult>, allows ref struct
+    {
+        private TAction _action = action;
+
+        public TResult Run<TStep, TFinish>()
+            where TStep : struct, IAccumulateStep
+            where TFinish : struct, IDistanceFinish
+            => ByPath<TAction, TResult, TStep, TFinish>(path, codes, ref _action);
+    }
+
     private static TResult ByPath<TAction, TResult, TStep, TFinish>(KernelPath path, bool codes, ref TAction action)
         where TAction : struct, IGraphAction<TResult>, allows ref struct
         where TStep : struct, IAccumulateStep
-        where TFinish : struct, IGraphFinish
+        where TFinish : struct, IDistanceFinish
     {
         return path switch
         {
@@ -169,7 +150,7 @@ internal static class GraphDispatch
     private static TResult ByStorage<TAction, TResult, TStep, TFinish, TLane>(bool codes, ref TAction action)
         where TAction : struct, IGraphAction<TResult>, allows ref struct
         where TStep : struct, IAccumulateStep
-        where TFinish : struct, IGraphFinish
+        where TFinish : struct, IDistanceFinish
         where TLane : struct, IVectorLane<TLane>
         => codes
             ? action.Run<CodeGraphDistance<TStep, TFinish, TLane>>()

@@ -9,6 +9,6 @@ public sealed partial class GraphIndex
         // The id lookup holds exactly the live items (removed slots leave it at once).
         using LockScopes.ReadScope read = _lock.EnterRead();
         ThrowIfDisposed();
-        return IdLookup.SortedIds(_slotOf);
+        return _slotOf.SortedIds();
     }
 }

@@ -5,9 +5,9 @@ namespace VectorKit.Indexes.Graph;
 /// <summary>Linking new items into the graph (the published Algorithm 1), in parallel with per-node locks.</summary>
 public sealed partial class GraphIndex
 {
-    // Links slots [first, first + n) in parallel. Caller holds the read lock (adds) or the write lock (compaction);
-    // the vectors are stored and the levels drawn. Marks each slot in `linked` once its links are in place.
-    private void LinkAll(int first, int n, bool[] linked, IProgress<int>? progress, CancellationToken cancellationToken)
+    // Links slots [first, first + n) in parallel. Caller holds the read lock (adds) or the write lock (replacing,
+    // compaction); the vectors are stored and the levels drawn.
+    private void LinkAll(int first, int n, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int completed = 0;
         int step = Math.Max(1, n / 100);
@@ -15,7 +15,6 @@ public sealed partial class GraphIndex
         Parallel.For(0, n, parallel, i =>
         {
             Link(first + i);
-            linked[i] = true;
             int done = Interlocked.Increment(ref completed);
             if (progress is not null && (done % step == 0 || done == n))
             {
@@ -137,35 +136,6 @@ public sealed partial class GraphIndex
         {
             index.Link<TDistance>(slot);
             return true;
-        }
-    }
-
-    // After a cancelled batch: slots whose linking never started are unreachable; take them out of the index.
-    private void DropUnlinked(int first, bool[] linked)
-    {
-        _lock.EnterWriteLock();
-        try
-        {
-            if (_disposed)
-            {
-                return;
-            }
-
-            for (int i = 0; i < linked.Length; i++)
-            {
-                int slot = first + i;
-                if (!linked[i] && EntrySlot(Volatile.Read(ref _entry)) != slot)
-                {
-                    _slotOf.Remove(_ids[slot]);
-                    _removed[slot] = 1;
-                    _levelCounts[_links.Level(slot)]--;
-                    _count--;
-                }
-            }
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
         }
     }
 }

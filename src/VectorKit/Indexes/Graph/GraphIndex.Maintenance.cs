@@ -17,7 +17,7 @@ public sealed partial class GraphIndex
     /// chosen again by the neighbour-selection heuristic from its remaining links and the removed items' own links
     /// (and, through removed items, their links' links), so the graph stays navigable and no live node links to a
     /// removed one. A node left without any in-link on the bottom layer is linked again from a node near it. The
-    /// vectors keep their space until <see cref="Compact()"/>. Removing the entry point promotes a live node of the
+    /// vectors keep their space until <see cref="Compact"/>. Removing the entry point promotes a live node of the
     /// highest remaining level.</para>
     /// <para>Cost: local. The lists naming a removed item are found by walking near it until as many have been found
     /// as its in-degree says exist (a scan of that layer's lists is the fallback, rarely needed), so a removal costs a
@@ -53,18 +53,10 @@ public sealed partial class GraphIndex
             int[] slots = new int[ids.Length];
             for (int i = 0; i < ids.Length; i++)
             {
-                _slotOf.Remove(ids[i], out int slot);
-                _removed[slot] = 1;
-                _levelCounts[_links.Level(slot)]--;
-                _count--;
-                slots[i] = slot;
+                _slotOf.Remove(ids[i], out slots[i]);
             }
 
-            if (_removed[EntrySlot(_entry)] != 0)
-            {
-                ChooseNewEntry();
-            }
-
+            RetireLocked(slots);
             FinishLocked(slots, 0, 0, forceFullPass: false);
         }
         finally
@@ -73,13 +65,23 @@ public sealed partial class GraphIndex
         }
     }
 
-    /// <summary>
-    /// Rebuilds the graph from the live items only, in parallel, and shrinks every array to <see cref="Count"/> items:
-    /// the space of removed items is released.
-    /// </summary>
-    /// <remarks>As <see cref="Compact(IProgress{int}, CancellationToken)"/> without progress or cancellation.</remarks>
-    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void Compact() => Compact(null, default);
+    // Caller holds the write lock and has taken the slots' ids out of the map: hides the slots from results (their
+    // lists stay for the repair that follows) and moves the entry point off them.
+    private void RetireLocked(int[] slots)
+    {
+        foreach (int slot in slots)
+        {
+            _removed[slot] = 1;
+            _levelCounts[_links.Level(slot)]--;
+            _count--;
+        }
+
+        int entry = EntrySlot(_entry);
+        if (entry >= 0 && _removed[entry] != 0)
+        {
+            ChooseNewEntry();
+        }
+    }
 
     /// <summary>
     /// Rebuilds the graph from the live items only, in parallel, and shrinks every array to <see cref="Count"/> items:
@@ -95,7 +97,7 @@ public sealed partial class GraphIndex
     /// </remarks>
     /// <exception cref="OperationCanceledException">The token was cancelled; see <paramref name="cancellationToken"/>.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void Compact(IProgress<int>? progress, CancellationToken cancellationToken)
+    public void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         _lock.EnterWriteLock();
         try
@@ -109,7 +111,7 @@ public sealed partial class GraphIndex
                 rebuilt.StoreLiveRowsOf(this);
                 if (live > 0)
                 {
-                    rebuilt.LinkAll(0, live, new bool[live], progress, cancellationToken);
+                    rebuilt.LinkAll(0, live, progress, cancellationToken);
                     rebuilt.FinishLocked(null, 0, live, forceFullPass: true);
                 }
             }

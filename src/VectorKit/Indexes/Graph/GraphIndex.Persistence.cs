@@ -138,7 +138,7 @@ public sealed partial class GraphIndex
                 }
             }
 
-            var slotOf = new Dictionary<long, int>(parts.Count);
+            var slotOf = new IdMap(parts.Count);
             for (int slot = 0; slot < slots; slot++)
             {
                 if (parts.Removed[slot] == 0 && !slotOf.TryAdd(parts.Ids[slot], slot))

@@ -21,7 +21,7 @@ namespace VectorKit.Indexes.Graph;
 /// (see <see cref="MemoryBytes"/>). Under <see cref="VectorEncoding.Scalar8Bit"/> (<see cref="VectorIndexOptions.Encoding"/>)
 /// the block holds one 8-bit code per vector instead (a quarter of the bytes; <see cref="Train"/> learns the ranges
 /// first), and every distance the graph computes (walks, neighbour selection, removal repair, re-linking, the
-/// filtered scan, <see cref="Compact()"/>) is computed on the codes: a query against a code on the SIMD byte-code
+/// filtered scan, <see cref="Compact"/>) is computed on the codes: a query against a code on the SIMD byte-code
 /// kernel, a node against a node by decoding one of them. With a positive <see cref="VectorIndexOptions.RescoreDepth"/>
 /// the full vectors are kept beside the codes, and the best candidates of each search are re-scored on them.</para>
 /// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
@@ -45,7 +45,7 @@ namespace VectorKit.Indexes.Graph;
 /// at the default width, 2 % of 10⁶), the search scans the passing items exactly instead, faster and exact.</para>
 /// <para><b>Removal.</b> A removed item is never returned. Every list that linked to it is chosen again by the heuristic
 /// from its remaining links and the removed item's links, so no live node links to a removed one; the item's vector
-/// keeps its space until <see cref="Compact()"/> rebuilds the graph from the live items and releases it. Each list
+/// keeps its space until <see cref="Compact"/> rebuilds the graph from the live items and releases it. Each list
 /// keeps a count of the lists naming it (its in-degree), so the lists to repair are found by a short walk near the
 /// removed item rather than a scan: a removal costs the same on a large index as on a small one.</para>
 /// <para><b>Reachability.</b> Every live item stays reachable from the entry point on the bottom layer, kept at two
@@ -54,17 +54,17 @@ namespace VectorKit.Indexes.Graph;
 /// that cut it off. Globally, amortised: a group of nodes that only link to each other would still be cut off, so a
 /// pass walks the whole bottom layer from the entry point and links every unreached item; it runs once the adds and
 /// removals since the last pass reach an eighth of <see cref="Count"/> (so after every bulk build, and at least once
-/// per eighth of the index for single changes), and always after <see cref="Compact()"/>. Its cost,
+/// per eighth of the index for single changes), and always after <see cref="Compact"/>. Its cost,
 /// <c>O(items × bottom links)</c> reads, is thus spread over many changes, and each single add or removal costs a
 /// local amount of work. Between passes a cut-off group is possible in principle; the tests count how many the pass
 /// finds.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with the
-/// linking phase of <see cref="Add"/> and <see cref="AddRange(ReadOnlySpan{long}, ReadOnlySpan{float})"/>: an add
+/// linking phase of <see cref="Add"/> and <see cref="AddRange"/>: an add
 /// first waits for running searches while it stores the vectors (a short exclusive step), then links the new items
 /// while searches proceed; a concurrent search may or may not see an item being linked, and never sees a removed one.
 /// Several adds may link at once (per-node locks). The short repair step at the end of an add (attaching nodes left
 /// without in-links, and the global pass when it is due), <see cref="Remove"/>, <see cref="RemoveRange"/>,
-/// <see cref="Compact()"/> and <see cref="Dispose"/> are exclusive: they wait for running searches and adds.</para>
+/// <see cref="Compact"/> and <see cref="Dispose"/> are exclusive: they wait for running searches and adds.</para>
 /// </remarks>
 public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
 {
@@ -77,6 +77,9 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     private const int MaxLevel = 30;
     private const int LockStripes = 1024;
     private const int FilterSampleSize = 256;
+
+    // Queries of a batch handed to one worker at a time.
+    private const int QueryBlock = 16;
 
     // The cost model's constant for choosing between a filtered walk and an exact scan (fitted; see
     // GraphIndexOptions.FilteredExactScanFraction).
@@ -98,7 +101,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     private CodeBuffer? _codes;
     private ScalarQuantizer? _scalar;
     private GraphLinks _links;
-    private Dictionary<long, int> _slotOf = new();
+    private IdMap _slotOf = new();
     private readonly double _levelScale;
     private readonly KernelPath _path;
     private Random _levelRandom;
@@ -195,6 +198,9 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <summary>The options the index was built with.</summary>
     public GraphIndexOptions Options => _options;
 
+    /// <inheritdoc/>
+    VectorIndexOptions IVectorIndex.Options => _options;
+
     /// <summary>
     /// Whether the index can take vectors: always under <see cref="VectorEncoding.Float32"/>; under
     /// <see cref="VectorEncoding.Scalar8Bit"/> once <see cref="Train"/> has run.
@@ -248,7 +254,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <param name="cancellationToken">Checked before the ranges are stored; a cancelled training leaves the index as it was.</param>
     /// <remarks>Training again before any add replaces the ranges. Exclusive: waits for running searches.</remarks>
     /// <exception cref="ArgumentException">The sample is empty, not a multiple of the dimension, has a non-finite component, or a zero row under cosine.</exception>
-    /// <exception cref="InvalidOperationException">Under 8-bit storage, the index already stores vectors (removed ones count until <see cref="Compact()"/>): their codes depend on the current ranges.</exception>
+    /// <exception cref="InvalidOperationException">Under 8-bit storage, the index already stores vectors (removed ones count until <see cref="Compact"/>): their codes depend on the current ranges.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
@@ -302,14 +308,21 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     internal int DecodePlaces => KeptPlace + _links.MaxLimit + 1;
 
     /// <inheritdoc/>
-    public int Count => Volatile.Read(ref _count);
+    public int Count
+    {
+        get
+        {
+            ThrowIfDisposed();
+            return Volatile.Read(ref _count);
+        }
+    }
 
     /// <inheritdoc/>
     /// <remarks>
     /// Vectors (or 8-bit codes, plus the full vectors when kept in memory, plus the trained ranges) at their reserved capacity,
     /// ids, the link arrays (bottom layer: <c>4 × (bottom links + 1)</c> bytes per slot; upper layers only for nodes
     /// that have them), per-slot level and removal flags, and the id lookup (about 28 bytes per entry). Removed items
-    /// keep their space until <see cref="Compact()"/>. An attached external source is not counted (the index does not own it).
+    /// keep their space until <see cref="Compact"/>. An attached external source is not counted (the index does not own it).
     /// </remarks>
     public long MemoryBytes
     {
@@ -319,7 +332,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
             try
             {
                 long rows = (_vectors?.Bytes ?? 0) + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
-                return rows + _links.Bytes + ((long)_ids.Length * sizeof(long)) + _removed.Length + ((long)_slotOf.EnsureCapacity(0) * 28);
+                return rows + _links.Bytes + ((long)_ids.Length * sizeof(long)) + _removed.Length + _slotOf.Bytes;
             }
             finally
             {
@@ -371,103 +384,54 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    public void Add(long id, ReadOnlySpan<float> vector)
-    {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    public void Add(long id, ReadOnlySpan<float> vector) => AddRange([id], vector);
 
-        int slot;
-        _lock.EnterWriteLock();
-        try
-        {
-            ThrowIfDisposed();
-            ThrowIfNotTrained();
-            if (_slotOf.ContainsKey(id))
-            {
-                ThrowHelper.ThrowDuplicateId(nameof(id), id);
-            }
-
-            slot = StoreBatch([id], vector);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
-
-        _lock.EnterReadLock();
-        try
-        {
-            ThrowIfDisposed();
-            Link(slot);
-        }
-        finally
-        {
-            _lock.ExitReadLock();
-        }
-
-        FinishAdd(slot, 1);
-    }
-
-    /// <inheritdoc/>
-    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors) => AddRange(ids, vectors, null, default);
-
-    /// <summary>Adds many vectors, linking them in parallel (<see cref="GraphIndexOptions.MaxDegreeOfParallelism"/> threads).</summary>
+    /// <summary>Adds many vectors, linking them in parallel (<see cref="GraphIndexOptions.MaxDegreeOfParallelism"/> threads); all or nothing.</summary>
     /// <param name="ids">One id per vector, none already present and no repeats.</param>
     /// <param name="vectors">The vectors, row after row: <c>ids.Length × Dimension</c> components.</param>
     /// <param name="progress">Optional; receives the number of vectors linked so far, from worker threads.</param>
-    /// <param name="cancellationToken">Stops the linking; vectors linked before that stay in the index, the others are not added.</param>
-    /// <remarks>Validation is all or nothing, as for every index: nothing is written when any row or id is invalid.</remarks>
+    /// <param name="cancellationToken">
+    /// Stops the linking. The items of the batch are then taken out again (the lists that linked to them are repaired,
+    /// as by <see cref="RemoveRange"/>), so the index holds none of them and a retry of the same batch succeeds. A
+    /// token cancelled before the call adds nothing.
+    /// </param>
+    /// <remarks>
+    /// The vectors are stored in a short exclusive step, then linked while searches proceed: a concurrent search may see
+    /// some items of the batch before the batch completes (and, when it is cancelled, before they are taken out again).
+    /// </remarks>
     /// <exception cref="ArgumentException">Lengths disagree, a component is not finite, a zero vector under cosine, or an id repeats or exists.</exception>
-    /// <exception cref="OperationCanceledException">The token was cancelled; see <paramref name="cancellationToken"/>.</exception>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled; nothing of the batch remains.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress, CancellationToken cancellationToken)
+    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         int n = ids.Length;
         VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
-
+        cancellationToken.ThrowIfCancellationRequested();
         if (n == 0)
         {
             return;
         }
 
         int first;
-        _lock.EnterWriteLock();
-        try
+        using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
             ThrowIfNotTrained();
-            foreach (long id in ids)
-            {
-                if (_slotOf.ContainsKey(id))
-                {
-                    ThrowHelper.ThrowDuplicateId(nameof(ids), id);
-                }
-            }
-
-            first = StoreBatch(ids, vectors);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
+            _slotOf.CheckAbsent(ids, nameof(ids));
+            first = StoreBatch(ids, vectors, replacing: false);
         }
 
-        bool[] linked = new bool[n];
         try
         {
-            _lock.EnterReadLock();
-            try
-            {
-                ThrowIfDisposed();
-                LinkAll(first, n, linked, progress, cancellationToken);
-            }
-            finally
-            {
-                _lock.ExitReadLock();
-            }
+            using var read = _lock.EnterRead();
+            ThrowIfDisposed();
+            LinkAll(first, n, progress, cancellationToken);
         }
         catch (OperationCanceledException)
         {
-            DropUnlinked(first, linked);
-            FinishAdd(first, n);
+            RollBack(first, n);
             throw;
         }
 
@@ -475,53 +439,105 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    public bool AddOrReplace(long id, ReadOnlySpan<float> vector) => AddOrReplaceRange([id], vector) == 1;
+
+    /// <inheritdoc/>
+    /// <remarks>
+    /// Exclusive from start to end (searches wait): the new vectors are stored and linked as new nodes, then each replaced
+    /// id moves to its new node in one step and its old node is removed with repair, as by <see cref="RemoveRange"/>.
+    /// A cancelled batch takes its new nodes out again and leaves the old ones in place.
+    /// </remarks>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
+    public int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    {
+        int n = ids.Length;
+        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
+        cancellationToken.ThrowIfCancellationRequested();
+        if (n == 0)
+        {
+            return 0;
+        }
+
+        using var write = _lock.EnterWrite();
+        ThrowIfDisposed();
+        ThrowIfNotTrained();
+        int first = StoreBatch(ids, vectors, replacing: true);
+        try
+        {
+            LinkAll(first, n, progress, cancellationToken);
+        }
+        catch (OperationCanceledException)
+        {
+            RollBackLocked(first, n);
+            throw;
+        }
+
+        var retired = new List<int>();
+        for (int r = 0; r < n; r++)
+        {
+            int slot = first + r;
+            if (_slotOf.TryGetValue(ids[r], out int old) && old != slot)
+            {
+                retired.Add(old);
+                _slotOf[ids[r]] = slot;
+            }
+        }
+
+        int[] oldSlots = [.. retired];
+        RetireLocked(oldSlots);
+        FinishLocked(oldSlots, first, n, forceFullPass: false);
+        return oldSlots.Length;
+    }
+
+    // After a cancelled batch: takes every slot of it that is still live out of the index again, with repair.
+    private void RollBack(int first, int n)
+    {
+        using var write = _lock.EnterWrite();
+        if (!_disposed)
+        {
+            RollBackLocked(first, n);
+        }
+    }
+
+    // Caller holds the write lock. A slot of the batch owns its id's map entry unless that id is being replaced.
+    private void RollBackLocked(int first, int n)
+    {
+        var slots = new List<int>(n);
+        for (int slot = first; slot < first + n; slot++)
+        {
+            if (_removed[slot] == 0)
+            {
+                if (_slotOf.TryGetValue(_ids[slot], out int mapped) && mapped == slot)
+                {
+                    _slotOf.Remove(_ids[slot]);
+                }
+
+                slots.Add(slot);
+            }
+        }
+
+        int[] retired = [.. slots];
+        RetireLocked(retired);
+        FinishLocked(retired, first, n, forceFullPass: false);
+    }
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
     /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
         VectorChecks.CheckResultDestination(destination);
-
-        VectorChecks.CheckVector(query, Dimension, nameof(query));
-        float[]? rented = null;
-        scoped ReadOnlySpan<float> q = query;
-        Span<float> unit = Metric == DistanceMetric.Cosine && Dimension <= 512 ? stackalloc float[Dimension] : default;
-        if (Metric == DistanceMetric.Cosine)
-        {
-            if (unit.IsEmpty)
-            {
-                rented = System.Buffers.ArrayPool<float>.Shared.Rent(Dimension);
-                unit = rented.AsSpan(0, Dimension);
-            }
-
-            VectorChecks.Normalize(query, unit, nameof(query));
-            q = unit;
-        }
-
-        try
-        {
-            _lock.EnterReadLock();
-            try
-            {
-                ThrowIfDisposed();
-                ThrowIfNotTrained();
-                return SearchLocked(q, destination, options ?? SearchOptions.Default);
-            }
-            finally
-            {
-                _lock.ExitReadLock();
-            }
-        }
-        finally
-        {
-            if (rented is not null)
-            {
-                System.Buffers.ArrayPool<float>.Shared.Return(rented);
-            }
-        }
+        using var unit = ScratchRental<float>.Rent(Metric == DistanceMetric.Cosine ? Dimension : 0);
+        ReadOnlySpan<float> q = VectorChecks.PrepareQuery(query, Dimension, Metric, unit.Span);
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        ThrowIfNotTrained();
+        return SearchLocked(q, destination, options ?? SearchOptions.Default);
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit storage, <see cref="Train"/> has not run.</exception>
+    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
     /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
     public BatchSearchResults SearchBatch(
         ReadOnlySpan<float> queries,
@@ -530,47 +546,28 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
         IProgress<int>? progress = null,
         CancellationToken cancellationToken = default)
     {
-        int d = Dimension;
-        float[] source = VectorChecks.CheckBatchQueries(queries, k, d, Metric, out int queryCount) ?? queries.ToArray();
-
-        options ??= SearchOptions.Default;
-        _lock.EnterReadLock();
-        try
+        ReadOnlySpan<float> source = BatchSearch.Prepare(queries, k, Dimension, Metric, out int queryCount);
+        SearchOptions run = options ?? SearchOptions.Default;
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        if (queryCount > 0)
         {
-            ThrowIfDisposed();
             ThrowIfNotTrained();
-            var results = new BatchSearchResults(queryCount, Math.Min(k, Math.Max(1, _count)));
-            if (queryCount == 0 || _count == 0)
-            {
-                return results;
-            }
+        }
 
-            if (_readsExternally && _source is null && (options.RescoreDepth ?? _options.RescoreDepth) > 0)
-            {
-                SourceRows.ThrowNoSource(); // here, not wrapped in the parallel loop's AggregateException
-            }
-
-            const int block = 16;
-            int blocks = (queryCount + block - 1) / block;
-            int completed = 0;
-            var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
-            Parallel.For(0, blocks, parallel, b =>
-            {
-                int end = Math.Min(queryCount, (b + 1) * block);
-                for (int i = b * block; i < end; i++)
-                {
-                    results.SetCount(i, SearchLocked(source.AsSpan(i * d, d), results.Slots(i), options));
-                }
-
-                progress?.Report(Interlocked.Add(ref completed, end - (b * block)));
-            });
-
+        BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, _count);
+        if (queryCount == 0 || _count == 0)
+        {
             return results;
         }
-        finally
+
+        if (_readsExternally && _source is null && (run.RescoreDepth ?? _options.RescoreDepth) > 0)
         {
-            _lock.ExitReadLock();
+            SourceRows.ThrowNoSource();
         }
+
+        BatchSearch.RunQueries(source, Dimension, results, QueryBlock, run, progress, cancellationToken, static () => 0, (q, slots, _) => SearchLocked(q, slots, run));
+        return results;
     }
 
     /// <summary>Frees the vector storage. Further calls throw <see cref="ObjectDisposedException"/>.</summary>
@@ -601,7 +598,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     // Reserves slots for a validated batch, writes vectors (normalised under cosine; encoded under codes) and ids, and draws levels.
     // Caller holds the write lock. When the graph is empty the first new slot becomes the entry point at once, so
     // linking never races to create it. Returns the first slot.
-    private int StoreBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors)
+    private int StoreBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replacing)
     {
         int n = ids.Length;
         int first = _used;
@@ -643,7 +640,11 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
 
             _ids[slot] = ids[r];
             _removed[slot] = 0;
-            _slotOf.Add(ids[r], slot);
+            if (!replacing || !_slotOf.ContainsKey(ids[r]))
+            {
+                _slotOf.Add(ids[r], slot);
+            }
+
             InitNode(slot);
         }
 

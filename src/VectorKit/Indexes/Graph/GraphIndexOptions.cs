@@ -115,7 +115,7 @@ public sealed class GraphIndexOptions : VectorIndexOptions
         }
     }
 
-    /// <summary>The most threads a batch insert (and <see cref="GraphIndex.Compact()"/>) uses; -1 (the default) means one per core.</summary>
+    /// <summary>The most threads a batch insert (and <see cref="GraphIndex.Compact"/>) uses; -1 (the default) means one per core.</summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
     public int MaxDegreeOfParallelism
     {

@@ -7,6 +7,6 @@ public sealed partial class InvertedFileIndex
     {
         using LockScopes.ReadScope read = _lock.EnterRead();
         ThrowIfDisposed();
-        return IdLookup.SortedIds(_slotOf);
+        return _slotOf.SortedIds();
     }
 }

@@ -12,6 +12,9 @@ public sealed partial class InvertedFileIndex
     // Entries scored per kernel call; their distances live in the scratch block.
     private const int ScanBlock = 256;
 
+    // Queries of a batch handed to one worker at a time.
+    private const int QueryBlock = 16;
+
     [ThreadStatic]
     private static SearchScratch? t_scratch;
 
@@ -27,30 +30,14 @@ public sealed partial class InvertedFileIndex
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
         VectorChecks.CheckResultDestination(destination);
-
-        VectorChecks.CheckVector(query, Dimension, nameof(query));
         SearchScratch scratch = RentScratch();
         try
         {
-            ReadOnlySpan<float> q = query;
-            if (Metric == DistanceMetric.Cosine)
-            {
-                Span<float> unit = scratch.Unit(Dimension);
-                VectorChecks.Normalize(query, unit, nameof(query));
-                q = unit;
-            }
-
-            _lock.EnterReadLock();
-            try
-            {
-                ThrowIfDisposed();
-                ThrowIfNotTrained();
-                return SearchLocked(q, destination, options ?? SearchOptions.Default, scratch);
-            }
-            finally
-            {
-                _lock.ExitReadLock();
-            }
+            ReadOnlySpan<float> q = VectorChecks.PrepareQuery(query, Dimension, Metric, scratch.Unit(Dimension));
+            using var read = _lock.EnterRead();
+            ThrowIfDisposed();
+            ThrowIfNotTrained();
+            return SearchLocked(q, destination, options ?? SearchOptions.Default, scratch);
         }
         finally
         {
@@ -61,54 +48,35 @@ public sealed partial class InvertedFileIndex
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
     /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public unsafe BatchSearchResults SearchBatch(
+    public BatchSearchResults SearchBatch(
         ReadOnlySpan<float> queries,
         int k,
         SearchOptions? options = null,
         IProgress<int>? progress = null,
         CancellationToken cancellationToken = default)
     {
-        int d = Dimension;
-        float[] source = VectorChecks.CheckBatchQueries(queries, k, d, Metric, out int queryCount) ?? queries.ToArray();
-
-        options ??= SearchOptions.Default;
-        _lock.EnterReadLock();
-        try
+        ReadOnlySpan<float> source = BatchSearch.Prepare(queries, k, Dimension, Metric, out int queryCount);
+        SearchOptions run = options ?? SearchOptions.Default;
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        if (queryCount > 0)
         {
-            ThrowIfDisposed();
-            var results = new BatchSearchResults(queryCount, k);
-            if (queryCount == 0)
-            {
-                return results;
-            }
-
             ThrowIfNotTrained();
-            if (_options.Rescores && _full is null && _source is null && (options.RescoreDepth ?? _options.RescoreDepth) > 0)
-            {
-                SourceRows.ThrowNoSource(); // here, not wrapped in the parallel loop's AggregateException
-            }
+        }
 
-            int completed = 0;
-            const int Block = 16;
-            int blocks = (queryCount + Block - 1) / Block;
-            var parallel = new ParallelOptions { MaxDegreeOfParallelism = options.EffectiveParallelism, CancellationToken = cancellationToken };
-            Parallel.For(0, blocks, parallel, () => new SearchScratch(), (b, _, scratch) =>
-            {
-                int end = Math.Min(queryCount, (b + 1) * Block);
-                for (int i = b * Block; i < end; i++)
-                {
-                    results.SetCount(i, SearchLocked(source.AsSpan(i * d, d), results.Slots(i), options, scratch));
-                }
-
-                progress?.Report(Interlocked.Add(ref completed, end - (b * Block)));
-                return scratch;
-            }, static _ => { });
+        BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, _count);
+        if (queryCount == 0 || _count == 0)
+        {
             return results;
         }
-        finally
+
+        if (_options.Rescores && _full is null && _source is null && (run.RescoreDepth ?? _options.RescoreDepth) > 0)
         {
-            _lock.ExitReadLock();
+            SourceRows.ThrowNoSource();
         }
+
+        BatchSearch.RunQueries(source, Dimension, results, QueryBlock, run, progress, cancellationToken, static () => new SearchScratch(), (q, slots, scratch) => SearchLocked(q, slots, run, scratch));
+        return results;
     }
 
     // Caller holds the read lock; q is validated (unit length under cosine).
@@ -145,12 +113,8 @@ public sealed partial class InvertedFileIndex
 
         TopK.SortBestFirst(probeHeap, probeCount);
         Span<SearchHit> heap = scratch.Candidates(candidates);
-        int found = Metric switch
-        {
-            DistanceMetric.SquaredEuclidean => ScanProbed<SquaredDifferenceStep, KeepFinish>(q, probeHeap[..probeCount], heap, options.Filter, scratch),
-            DistanceMetric.InnerProduct => ScanProbed<DotStep, NegateFinish>(q, probeHeap[..probeCount], heap, options.Filter, scratch),
-            _ => ScanProbed<DotStep, OneMinusFinish>(q, probeHeap[..probeCount], heap, options.Filter, scratch),
-        };
+        var scan = new ScanAction(this, q, probeHeap[..probeCount], heap, options.Filter, scratch);
+        int found = MetricDispatch.Run<ScanAction, int>(Metric, ref scan);
 
         if (rescore)
         {
@@ -172,7 +136,7 @@ public sealed partial class InvertedFileIndex
 
     private int ScanProbed<TStep, TFinish>(ReadOnlySpan<float> q, ReadOnlySpan<SearchHit> probes, Span<SearchHit> heap, Func<long, bool>? filter, SearchScratch scratch)
         where TStep : struct, IAccumulateStep
-        where TFinish : struct, IFinish
+        where TFinish : struct, IDistanceFinish
     {
         int d = Dimension;
         int size = _codeBytes;
@@ -308,28 +272,17 @@ public sealed partial class InvertedFileIndex
 
     private static void ReturnScratch(SearchScratch scratch) => scratch.InUse = false;
 
-    /// <summary>Turns a kernel's raw sum into the metric's distance.</summary>
-    private interface IFinish
+    /// <summary>The scan of the probed lists with the metric resolved.</summary>
+    private readonly ref struct ScanAction(InvertedFileIndex index, ReadOnlySpan<float> q, ReadOnlySpan<SearchHit> probes, Span<SearchHit> heap, Func<long, bool>? filter, SearchScratch scratch) : IMetricAction<int>
     {
-        static abstract float Apply(float raw);
-    }
+        private readonly ReadOnlySpan<float> _q = q;
+        private readonly ReadOnlySpan<SearchHit> _probes = probes;
+        private readonly Span<SearchHit> _heap = heap;
 
-    private readonly struct KeepFinish : IFinish
-    {
-        [MethodImpl(MethodImplOptions.AggressiveInlining)]
-        public static float Apply(float raw) => raw;
-    }
-
-    private readonly struct NegateFinish : IFinish
-    {
-        [MethodImpl(MethodImplOptions.AggressiveInlining)]
-        public static float Apply(float raw) => -raw;
-    }
-
-    private readonly struct OneMinusFinish : IFinish
-    {
-        [MethodImpl(MethodImplOptions.AggressiveInlining)]
-        public static float Apply(float raw) => 1f - raw;
+        public int Run<TStep, TFinish>()
+            where TStep : struct, IAccumulateStep
+            where TFinish : struct, IDistanceFinish
+            => index.ScanProbed<TStep, TFinish>(_q, _probes, _heap, filter, scratch);
     }
 
     /// <summary>One thread's search buffers, grown on demand and reused, so a search allocates nothing in steady state.</summary>

@@ -47,7 +47,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     private readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
     private readonly InvertedFileOptions _options;
     private readonly KernelPath _kernelPath;
-    private readonly Dictionary<long, int> _slotOf = new();
+    private readonly IdMap _slotOf = new();
     private readonly int _codeBytes;
 
     // Trained state: centroids (ListCount × Dimension), and the residual quantizer under compressed storage.
@@ -189,7 +189,17 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     public int CodeBytesPerVector => _codeBytes;
 
     /// <inheritdoc/>
-    public int Count => Volatile.Read(ref _count);
+    public int Count
+    {
+        get
+        {
+            ThrowIfDisposed();
+            return Volatile.Read(ref _count);
+        }
+    }
+
+    /// <inheritdoc/>
+    VectorIndexOptions IVectorIndex.Options => _options;
 
     /// <inheritdoc/>
     /// <remarks>List codes and slot numbers at their reserved capacity, per-slot id, list and position, the full vectors
@@ -212,7 +222,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
                 bytes += _product is null ? 0 : ((2L * _product.Codewords.Length) + _product.Rotation.Length) * sizeof(float);
                 bytes += (long)_rotatedCentroids.Length * sizeof(float);
                 bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
-                bytes += (long)_slotOf.EnsureCapacity(0) * 28;
+                bytes += _slotOf.Bytes;
                 return bytes;
             }
             finally
@@ -222,11 +232,15 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         }
     }
 
-    /// <summary>Bytes the lists' codes occupy for the stored vectors: <see cref="Count"/> × <see cref="CodeBytesPerVector"/>.</summary>
-    public long CodeBytes => (long)Count * _codeBytes;
-
-    /// <summary>The list centroids, row after row (empty until trained).</summary>
-    public ReadOnlySpan<float> Centroids => _centroids;
+    /// <summary>A copy of the list centroids, row after row (empty until trained).</summary>
+    /// <returns>A new array of <see cref="InvertedFileOptions.ListCount"/> × <see cref="Dimension"/> components.</returns>
+    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
+    public float[] GetCentroids()
+    {
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        return (float[])_centroids.Clone();
+    }
 
     /// <summary>
     /// Learns the list centroids by k-means on <paramref name="sample"/> (at most <see cref="InvertedFileOptions.SampleSize"/>
@@ -386,91 +400,99 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public void Add(long id, ReadOnlySpan<float> vector)
+    public void Add(long id, ReadOnlySpan<float> vector) => AddRange([id], vector);
+
+    /// <inheritdoc/>
+    /// <remarks>
+    /// Rows are assigned to their lists (in parallel), then encoded and appended, all under the write lock; the token is
+    /// checked during the assignment, before anything is written.
+    /// </remarks>
+    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
+    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
-        AddValidated([id], vector, nameof(id));
+        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
+        Write(ids, vectors, replace: false, progress, cancellationToken);
     }
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors)
+    public bool AddOrReplace(long id, ReadOnlySpan<float> vector) => AddOrReplaceRange([id], vector) == 1;
+
+    /// <inheritdoc/>
+    /// <remarks>A replaced item leaves its old list and joins the list of its new vector's nearest centroid.</remarks>
+    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
+    public int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
-        AddValidated(ids, vectors, nameof(ids));
+        return Write(ids, vectors, replace: true, progress, cancellationToken);
     }
 
     /// <inheritdoc/>
-    public void Remove(long id)
+    public void Remove(long id) => RemoveRange([id]);
+
+    /// <inheritdoc/>
+    public void RemoveRange(ReadOnlySpan<long> ids)
     {
-        _lock.EnterWriteLock();
-        try
+        VectorChecks.CheckUniqueIds(ids);
+        using var write = _lock.EnterWrite();
+        ThrowIfDisposed();
+        _slotOf.CheckPresent(ids);
+        foreach (long id in ids)
         {
-            ThrowIfDisposed();
-            if (!_slotOf.Remove(id, out int slot))
-            {
-                ThrowHelper.ThrowIdNotFound(id);
-            }
-
-            // Close the hole in the list with the list's last entry.
-            int list = _listOf[slot];
-            int position = _positionOf[slot];
-            int lastPosition = _listCounts[list] - 1;
-            if (position != lastPosition)
-            {
-                int moved = _listSlots[list][lastPosition];
-                _listCodes[list].AsSpan(lastPosition * _codeBytes, _codeBytes).CopyTo(_listCodes[list].AsSpan(position * _codeBytes, _codeBytes));
-                _listSlots[list][position] = moved;
-                _positionOf[moved] = position;
-            }
-
-            _listCounts[list] = lastPosition;
-
-            // Close the hole in the slots with the last slot, so the per-slot arrays stay dense.
-            int lastSlot = _count - 1;
-            if (slot != lastSlot)
-            {
-                long movedId = _ids[lastSlot];
-                _ids[slot] = movedId;
-                _listOf[slot] = _listOf[lastSlot];
-                _positionOf[slot] = _positionOf[lastSlot];
-                _listSlots[_listOf[slot]][_positionOf[slot]] = slot;
-                _full?.CopyRow(lastSlot, slot);
-                _slotOf[movedId] = slot;
-            }
-
-            Volatile.Write(ref _count, lastSlot);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
+            RemoveLocked(id);
         }
     }
 
-    /// <summary>Releases the storage reserved beyond the vectors held (list growth slack, slot arrays, id lookup).</summary>
-    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void TrimExcess()
+    /// <inheritdoc/>
+    /// <remarks>Removed entries leave no holes in the lists, so this releases the storage reserved beyond the vectors held (list growth slack, slot arrays, id lookup).</remarks>
+    public void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
-        _lock.EnterWriteLock();
-        try
+        using var write = _lock.EnterWrite();
+        ThrowIfDisposed();
+        cancellationToken.ThrowIfCancellationRequested();
+        for (int list = 0; list < _listCounts.Length; list++)
         {
-            ThrowIfDisposed();
-            for (int list = 0; list < _listCounts.Length; list++)
-            {
-                Array.Resize(ref _listSlots[list], _listCounts[list]);
-                Array.Resize(ref _listCodes[list], _listCounts[list] * _codeBytes);
-            }
+            Array.Resize(ref _listSlots[list], _listCounts[list]);
+            Array.Resize(ref _listCodes[list], _listCounts[list] * _codeBytes);
+        }
 
-            Array.Resize(ref _ids, _count);
-            Array.Resize(ref _listOf, _count);
-            Array.Resize(ref _positionOf, _count);
-            _full?.Resize(_count);
-            _slotOf.TrimExcess();
-        }
-        finally
+        Array.Resize(ref _ids, _count);
+        Array.Resize(ref _listOf, _count);
+        Array.Resize(ref _positionOf, _count);
+        _full?.Resize(_count);
+        _slotOf.TrimExcess();
+        progress?.Report(_count);
+    }
+
+    // Caller holds the write lock; the id is present. Fills the holes it leaves with last entries, so lists and slots stay dense.
+    private void RemoveLocked(long id)
+    {
+        _slotOf.Remove(id, out int slot);
+        int list = _listOf[slot];
+        int position = _positionOf[slot];
+        int lastPosition = _listCounts[list] - 1;
+        if (position != lastPosition)
         {
-            _lock.ExitWriteLock();
+            int moved = _listSlots[list][lastPosition];
+            _listCodes[list].AsSpan(lastPosition * _codeBytes, _codeBytes).CopyTo(_listCodes[list].AsSpan(position * _codeBytes, _codeBytes));
+            _listSlots[list][position] = moved;
+            _positionOf[moved] = position;
         }
+
+        _listCounts[list] = lastPosition;
+        int lastSlot = _count - 1;
+        if (slot != lastSlot)
+        {
+            long movedId = _ids[lastSlot];
+            _ids[slot] = movedId;
+            _listOf[slot] = _listOf[lastSlot];
+            _positionOf[slot] = _positionOf[lastSlot];
+            _listSlots[_listOf[slot]][_positionOf[slot]] = slot;
+            _full?.CopyRow(lastSlot, slot);
+            _slotOf[movedId] = slot;
+        }
+
+        Volatile.Write(ref _count, lastSlot);
     }
 
     /// <summary>The number of vectors in each list (for diagnostics and tests).</summary>
@@ -517,20 +539,21 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         }
     }
 
-    private unsafe void AddValidated(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, string idsName)
+    // Adds (and with `replace`, replaces) a validated batch under the write lock. Cancellation is honoured only while
+    // rows are assigned to lists, before the first write, so a batch is all or nothing. Returns how many were replaced.
+    private unsafe int Write(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int d = Dimension;
+        cancellationToken.ThrowIfCancellationRequested();
+        int replaced = 0;
         _lock.EnterWriteLock();
         try
         {
             ThrowIfDisposed();
             ThrowIfNotTrained();
-            foreach (long id in ids)
+            if (!replace)
             {
-                if (_slotOf.ContainsKey(id))
-                {
-                    ThrowHelper.ThrowDuplicateId(idsName, id);
-                }
+                _slotOf.CheckAbsent(ids, nameof(ids));
             }
 
             int total = ids.Length;
@@ -550,7 +573,20 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
                 Prepare(vectors.Slice(start * d, n * d), rows);
                 fixed (float* pointer = rows)
                 {
-                    NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances, _options.EffectiveParallelism, CancellationToken.None);
+                    NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances, _options.EffectiveParallelism, cancellationToken);
+                }
+            }
+
+            // Nothing is written before this point, and nothing after it checks the token.
+            if (replace)
+            {
+                foreach (long id in ids)
+                {
+                    if (_slotOf.ContainsKey(id))
+                    {
+                        RemoveLocked(id);
+                        replaced++;
+                    }
                 }
             }
 
@@ -567,6 +603,9 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         {
             _lock.ExitWriteLock();
         }
+
+        progress?.Report(ids.Length);
+        return replaced;
     }
 
     // The rows as stored: copied, or scaled to unit length under cosine.

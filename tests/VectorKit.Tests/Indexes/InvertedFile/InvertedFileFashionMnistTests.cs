@@ -134,7 +134,7 @@ public class InvertedFileFashionMnistTests(InvertedFileFashionMnistFixture fixtu
         InvertedFileIndex product = fixture.Value.Product;
         int floatBytes = 784 * sizeof(float);
         Assert.True(product.CodeBytesPerVector * 8 <= floatBytes, $"{product.CodeBytesPerVector} code bytes vs {floatBytes} float32 bytes");
-        Assert.True(product.CodeBytes * 8 <= 60_000L * floatBytes);
+        Assert.True(((long)product.Count * product.CodeBytesPerVector) * 8 <= 60_000L * floatBytes);
         double recall = RecallAt(product, 10, Probes);
         output.WriteLine($"product codes ({product.CodeBytesPerVector} bytes), {Probes} probes, 100 re-scored: recall@10 {recall:F4}");
         Assert.True(recall >= 0.95, $"recall@10 with re-scoring was {recall:F4}");

@@ -82,10 +82,10 @@ public class InvertedFileIndexInputTests : VectorIndexInputTests
         using IVectorIndex created = Create(3, DistanceMetric.SquaredEuclidean);
         var index = (InvertedFileIndex)created;
         index.Add(1, [1f, 0, 0]);
-        float[] before = index.Centroids.ToArray();
+        float[] before = index.GetCentroids().ToArray();
         var e = Assert.Throws<InvalidOperationException>(() => index.Train(Sample(300, 3)));
         Assert.Contains("holds 1 vectors", e.Message);
-        Assert.Equal(before, index.Centroids.ToArray());
+        Assert.Equal(before, index.GetCentroids().ToArray());
         Assert.Equal(1, index.Count);
     }
 

@@ -247,7 +247,7 @@ public class InvertedFileIndexTests
         Assert.Equal(128, flat.CodeBytesPerVector);
         Assert.Equal(8, product.CodeBytesPerVector);
         Assert.Equal(32, scalar.CodeBytesPerVector);
-        Assert.Equal(N * 8L, product.CodeBytes);
+        Assert.Equal(N * 8L, ((long)product.Count * product.CodeBytesPerVector));
         Assert.True(flat.MemoryBytes > N * 128L);
         Assert.True(product.MemoryBytes < flat.MemoryBytes);
     }
@@ -324,7 +324,7 @@ public class InvertedFileIndexTests
         }
 
         long before = index.MemoryBytes;
-        index.TrimExcess();
+        index.Compact();
         Assert.True(index.MemoryBytes < before, $"{index.MemoryBytes} ≥ {before}");
         float[] query = ClusteredData.Generate(1, D, 10, 0.4f, seed: 61);
         Assert.Equal(exact.Search(query, 10), index.Search(query, 10, new SearchOptions { SearchWidth = 8 }));
@@ -350,7 +350,7 @@ public class InvertedFileIndexTests
     private static int NearestList(InvertedFileIndex index, ReadOnlySpan<float> vector)
     {
         int d = index.Dimension;
-        ReadOnlySpan<float> centroids = index.Centroids;
+        ReadOnlySpan<float> centroids = index.GetCentroids();
         int best = 0;
         double bestDistance = double.MaxValue;
         for (int l = 0; l < centroids.Length / d; l++)
