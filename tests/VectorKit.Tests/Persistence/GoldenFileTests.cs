@@ -15,7 +15,7 @@ namespace VectorKit.Tests.Storage;
 /// same contents. Regenerate only when adding the fixtures of a new version, with
 /// <c>VECTORKIT_WRITE_STORAGE_FIXTURES=1</c>; a version's fixture is never rewritten once committed.
 /// </summary>
-public class GoldenFileTests
+public partial class GoldenFileTests
 {
     [Fact]
     public void ExactIndexFixtureOfVersion1_LoadsToItsContents_AndTodaysWriterStillProducesItsBytes()
@@ -164,5 +164,70 @@ public class GoldenFileTests
         }
 
         return File.ReadAllBytes(Path.Combine(AppContext.BaseDirectory, "Persistence", "Fixtures", name));
+    }
+
+    // The sections of a file in order, read from its frames (IndexFileBytes re-implements the layout).
+    private static string[] SectionNames(byte[] file) => IndexFileBytes.Map(file).Select(s => s.Name).ToArray();
+
+    // One section's payload as little-endian float32 values.
+    private static float[] FloatSection(byte[] file, SectionId id)
+    {
+        byte[] payload = ByteSection(file, id);
+        var values = new float[payload.Length / sizeof(float)];
+        for (int i = 0; i < values.Length; i++)
+        {
+            values[i] = BinaryPrimitives.ReadSingleLittleEndian(payload.AsSpan(i * sizeof(float)));
+        }
+
+        return values;
+    }
+
+    private static byte[] ByteSection(byte[] file, SectionId id)
+    {
+        SectionSpan section = IndexFileBytes.Map(file).Single(s => s.Id == (uint)id);
+        return file.AsSpan((int)section.PayloadStart, (int)section.Length).ToArray();
+    }
+
+    private static long[] IdSection(byte[] file)
+    {
+        byte[] payload = ByteSection(file, SectionId.Ids);
+        var ids = new long[payload.Length / sizeof(long)];
+        for (int i = 0; i < ids.Length; i++)
+        {
+            ids[i] = BinaryPrimitives.ReadInt64LittleEndian(payload.AsSpan(i * sizeof(long)));
+        }
+
+        return ids;
+    }
+
+    // The k nearest of the rows by squared Euclidean distance in double precision, ties by ascending id.
+    private static (long Id, double Distance)[] NearestByLoop(IReadOnlyDictionary<long, double[]> rows, float[] query, int k)
+    {
+        var all = new List<(long Id, double Distance)>();
+        foreach ((long id, double[] row) in rows)
+        {
+            double sum = 0;
+            for (int j = 0; j < row.Length; j++)
+            {
+                double difference = query[j] - row[j];
+                sum += difference * difference;
+            }
+
+            all.Add((id, sum));
+        }
+
+        return all.OrderBy(h => h.Distance).ThenBy(h => h.Id).Take(k).ToArray();
+    }
+
+    // Same ids in the same order, distances equal up to float rounding of the index's own kernel.
+    private static void AssertSameHits((long Id, double Distance)[] expected, SearchHit[] actual)
+    {
+        Assert.Equal(expected.Select(h => h.Id), actual.Select(h => h.Id));
+        for (int i = 0; i < expected.Length; i++)
+        {
+            Assert.True(
+                Math.Abs(expected[i].Distance - actual[i].Distance) <= 1e-5 * (1 + expected[i].Distance),
+                $"hit {i} (id {expected[i].Id}): expected distance {expected[i].Distance}, found {actual[i].Distance}");
+        }
     }
 }

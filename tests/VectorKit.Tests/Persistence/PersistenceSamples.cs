@@ -72,7 +72,8 @@ internal static class PersistenceSamples
 
     /// <summary>
     /// A small trained inverted file (4 lists) with ids 200 + 5i and two removed items; trained on its own rows, or on
-    /// 256 rows of the same clusters under product codes (which need 256 training rows).
+    /// 256 rows of the same clusters under product codes (which need 256 training rows). Product codes have
+    /// <paramref name="productCodeBytes"/> sub-spaces (0: one per component).
     /// </summary>
     public static InvertedFileIndex InvertedFile(
         VectorEncoding storage,
@@ -83,7 +84,8 @@ internal static class PersistenceSamples
         int seed = 13,
         bool remove = true,
         FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory,
-        SubspaceRotation rotation = SubspaceRotation.None)
+        SubspaceRotation rotation = SubspaceRotation.None,
+        int productCodeBytes = 0)
     {
         var options = new InvertedFileOptions
         {
@@ -91,7 +93,7 @@ internal static class PersistenceSamples
             ListCount = 4,
             SearchWidth = 2,
             Encoding = storage,
-            ProductCodeBytes = dimension,
+            ProductCodeBytes = productCodeBytes == 0 ? dimension : productCodeBytes,
             RescoreDepth = rescoreDepth,
             MaxIterations = 3,
             Seed = seed,
