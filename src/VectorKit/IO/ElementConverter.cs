@@ -4,7 +4,7 @@ using System.Runtime.InteropServices;
 namespace VectorKit.IO;
 
 /// <summary>
-/// Converts raw element bytes from a file into float or int32 values. Byte order is always explicit: the file's
+/// Converts raw element bytes from a file into float, int32 or int64 values. Byte order is always explicit: the file's
 /// order is compared with <see cref="BitConverter.IsLittleEndian"/>, never assumed to match the machine.
 /// </summary>
 internal static class ElementConverter
@@ -145,5 +145,37 @@ internal static class ElementConverter
         }
 
         return -1;
+    }
+
+    /// <summary>Converts integer elements to int64; every integer kind fits.</summary>
+    public static void ToInt64(ReadOnlySpan<byte> source, ElementKind kind, bool bigEndian, Span<long> destination)
+    {
+        bool swap = bigEndian == BitConverter.IsLittleEndian;
+        if (kind == ElementKind.Int64)
+        {
+            source[..(destination.Length * 8)].CopyTo(MemoryMarshal.AsBytes(destination));
+            if (swap)
+            {
+                BinaryPrimitives.ReverseEndianness(destination, destination);
+            }
+
+            return;
+        }
+
+        // The narrower kinds go through int32, which holds each of them exactly; convert in stack-sized pieces.
+        Span<int> narrow = stackalloc int[256];
+        int size = SizeOf(kind);
+        while (!destination.IsEmpty)
+        {
+            int n = Math.Min(destination.Length, narrow.Length);
+            ToInt32(source[..(n * size)], kind, bigEndian, narrow[..n]);
+            for (int i = 0; i < n; i++)
+            {
+                destination[i] = narrow[i];
+            }
+
+            source = source[(n * size)..];
+            destination = destination[n..];
+        }
     }
 }

@@ -43,4 +43,29 @@ internal static class LittleEndianWriter
             ArrayPool<int>.Shared.Return(buffer);
         }
     }
+
+    public static void Write(Stream stream, ReadOnlySpan<long> values)
+    {
+        if (BitConverter.IsLittleEndian)
+        {
+            stream.Write(MemoryMarshal.AsBytes(values));
+            return;
+        }
+
+        long[] buffer = ArrayPool<long>.Shared.Rent(Math.Min(values.Length, ChunkValues));
+        try
+        {
+            while (!values.IsEmpty)
+            {
+                int n = Math.Min(values.Length, buffer.Length);
+                BinaryPrimitives.ReverseEndianness(values[..n], buffer.AsSpan(0, n));
+                stream.Write(MemoryMarshal.AsBytes(buffer.AsSpan(0, n)));
+                values = values[n..];
+            }
+        }
+        finally
+        {
+            ArrayPool<long>.Shared.Return(buffer);
+        }
+    }
 }

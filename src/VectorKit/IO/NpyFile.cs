@@ -6,11 +6,11 @@ namespace VectorKit.IO;
 
 /// <summary>Reads and writes whole NumPy .npy files of vectors; see <see cref="NpyReader"/> for what is accepted.</summary>
 /// <remarks>
-/// Writing produces format version 1.0, little-endian <c>&lt;f4</c> or <c>&lt;i4</c>, C order, shape (n, d), with the
+/// Writing produces format version 1.0, little-endian <c>&lt;f4</c>, <c>&lt;i4</c> or <c>&lt;i8</c>, C order, shape (n, d), with the
 /// header padded by spaces and a newline so the data starts at a multiple of 64 bytes. Methods taking a
 /// <see cref="Stream"/> leave it open.
 /// </remarks>
-public static class NpyFile
+public static partial class NpyFile
 {
     private const int DataAlignment = 64;
 

@@ -8,7 +8,7 @@ namespace VectorKit.IO;
 /// Methods taking a <see cref="Stream"/> leave it open. For files larger than memory use <see cref="VecsReader"/>.
 /// An empty file reads as a set with no rows and dimension 0; writing such a set writes nothing.
 /// </remarks>
-public static class VecsFile
+public static partial class VecsFile
 {
     /// <summary>Reads all vectors of a .fvecs stream.</summary>
     /// <param name="stream">The stream, positioned at the first row.</param>

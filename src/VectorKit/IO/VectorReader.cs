@@ -139,6 +139,10 @@ public abstract class VectorReader : IDisposable
     public IntVectorSet ReadToEndAsIntegers(CancellationToken cancellationToken = default)
         => new(ReadAll<int>(cancellationToken), Dimension);
 
+    /// <summary>Reads all remaining rows as int64 values, row-major (for neighbour ids, which may exceed int32).</summary>
+    internal long[] ReadToEndAsInt64(CancellationToken cancellationToken = default)
+        => ReadAll<long>(cancellationToken);
+
     /// <summary>Enumerates the remaining vectors in blocks of up to <paramref name="rowsPerBlock"/> rows, each in a new array.</summary>
     /// <param name="rowsPerBlock">The most rows per block, at least 1.</param>
     /// <param name="cancellationToken">Checked between chunks.</param>
@@ -380,7 +384,7 @@ public abstract class VectorReader : IDisposable
 
     private void CheckTarget<T>()
     {
-        if (typeof(T) == typeof(int) && Dimension > 0 && !IsIntegerData)
+        if ((typeof(T) == typeof(int) || typeof(T) == typeof(long)) && Dimension > 0 && !IsIntegerData)
         {
             DataFormatThrow.InvalidOperation($"{FormatName}: the file holds {_kind} values, which cannot be read as integers; read them as floats.");
         }
@@ -481,6 +485,10 @@ public abstract class VectorReader : IDisposable
             if (typeof(T) == typeof(float))
             {
                 ElementConverter.ToSingle(raw, _kind, _bigEndian, MemoryMarshal.Cast<T, float>(destination[..n]));
+            }
+            else if (typeof(T) == typeof(long))
+            {
+                ElementConverter.ToInt64(raw, _kind, _bigEndian, MemoryMarshal.Cast<T, long>(destination[..n]));
             }
             else
             {
