@@ -44,11 +44,16 @@ public sealed class ScalarQuantizer
     /// <summary>Learns each component's range from training rows.</summary>
     /// <param name="vectors">Row after row, a multiple of <paramref name="dimension"/> finite components; at least one row.</param>
     /// <param name="dimension">Components per row, at least 1.</param>
+    /// <param name="progress">Optional; receives the number of rows scanned so far, every 4,096 rows and at the end.</param>
+    /// <param name="cancellationToken">Checked every 4,096 rows.</param>
     /// <returns>The trained quantizer.</returns>
+    /// <remarks>One pass over the rows: the ranges are the per-component minimum and maximum, so there is nothing to tune.</remarks>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive.</exception>
     /// <exception cref="ArgumentException">No rows, a length that is not a multiple of the dimension, or a non-finite component.</exception>
-    public static ScalarQuantizer Train(ReadOnlySpan<float> vectors, int dimension)
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    public static ScalarQuantizer Train(ReadOnlySpan<float> vectors, int dimension, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
+        const int ReportRows = 4096;
         if (dimension <= 0)
         {
             ThrowHelper.ThrowArgumentOutOfRange(nameof(dimension), dimension, "must be positive");
@@ -65,9 +70,16 @@ public sealed class ScalarQuantizer
         var maximums = new float[dimension];
         vectors[..dimension].CopyTo(minimums);
         vectors[..dimension].CopyTo(maximums);
-        for (int start = dimension; start < vectors.Length; start += dimension)
+        int rows = vectors.Length / dimension;
+        for (int r = 1; r < rows; r++)
         {
-            ReadOnlySpan<float> row = vectors.Slice(start, dimension);
+            if (r % ReportRows == 0)
+            {
+                cancellationToken.ThrowIfCancellationRequested();
+                progress?.Report(r);
+            }
+
+            ReadOnlySpan<float> row = vectors.Slice(r * dimension, dimension);
             for (int j = 0; j < dimension; j++)
             {
                 minimums[j] = Math.Min(minimums[j], row[j]);
@@ -75,6 +87,7 @@ public sealed class ScalarQuantizer
             }
         }
 
+        progress?.Report(rows);
         var steps = new float[padded];
         for (int j = 0; j < dimension; j++)
         {

@@ -37,14 +37,6 @@ public sealed partial class ExactIndex
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
     {
-        int d = Dimension;
-        if (sample.Length % d != 0 || sample.Length == 0)
-        {
-            ThrowHelper.ThrowArgument(nameof(sample), $"sample has {sample.Length} components; training needs at least 1 row and a multiple of the index dimension {d}.");
-        }
-
-        VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
-        cancellationToken.ThrowIfCancellationRequested();
         using (_lock.EnterRead())
         {
             // Fail before the work when the answer is known already (checked again under the write lock).
@@ -55,16 +47,12 @@ public sealed partial class ExactIndex
             }
         }
 
-        // Under cosine the ranges are learnt on unit rows, as they will be encoded (and a zero row is rejected).
-        float[]? normalised = Metric == DistanceMetric.Cosine ? VectorChecks.NormalizedRows(sample, d, nameof(sample), cancellationToken) : null;
-        if (_codes is null)
+        ScalarQuantizer? scalar = ScalarCodeTraining.Learn(sample, Dimension, Metric, _codes is not null, cancellationToken);
+        if (scalar is null)
         {
             return;
         }
 
-        cancellationToken.ThrowIfCancellationRequested();
-        ScalarQuantizer scalar = ScalarQuantizer.Train(normalised ?? sample, d);
-        cancellationToken.ThrowIfCancellationRequested();
         _lock.EnterWriteLock();
         try
         {

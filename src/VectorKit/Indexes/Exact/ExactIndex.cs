@@ -245,7 +245,11 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public void Add(long id, ReadOnlySpan<float> vector) => AddRange([id], vector);
+    public void Add(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        AddRange([id], vector);
+    }
 
     /// <inheritdoc/>
     /// <remarks>The rows are copied under the write lock in one step; the token is checked before it.</remarks>
@@ -255,7 +259,11 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public bool AddOrReplace(long id, ReadOnlySpan<float> vector) => Write([id], vector, replace: true, null, default) == 1;
+    public bool AddOrReplace(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        return Write([id], vector, replace: true, null, default) == 1;
+    }
 
     /// <inheritdoc/>
     /// <remarks>A replaced vector is overwritten in its row under the write lock; searches wait for the whole batch.</remarks>

@@ -259,19 +259,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
     {
-        int d = Dimension;
-        if (sample.IsEmpty || sample.Length % d != 0)
-        {
-            ThrowHelper.ThrowArgument(nameof(sample), $"sample has {sample.Length} components; training needs at least one row and a multiple of the index dimension {d}.");
-        }
-
-        VectorChecks.CheckFinite(sample, nameof(sample), 0, d);
-        if (Metric == DistanceMetric.Cosine)
-        {
-            sample = VectorChecks.NormalizedRows(sample, d, nameof(sample), cancellationToken);
-        }
-
-        ScalarQuantizer? scalar = _codes is null ? null : ScalarQuantizer.Train(sample, d);
+        ScalarQuantizer? scalar = ScalarCodeTraining.Learn(sample, Dimension, Metric, _codes is not null, cancellationToken);
         _lock.EnterWriteLock();
         try
         {
@@ -385,7 +373,11 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public void Add(long id, ReadOnlySpan<float> vector) => AddRange([id], vector);
+    public void Add(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        AddRange([id], vector);
+    }
 
     /// <summary>Adds many vectors, linking them in parallel (<see cref="GraphIndexOptions.MaxDegreeOfParallelism"/> threads); all or nothing.</summary>
     /// <param name="ids">One id per vector, none already present and no repeats.</param>
@@ -440,7 +432,11 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public bool AddOrReplace(long id, ReadOnlySpan<float> vector) => AddOrReplaceRange([id], vector) == 1;
+    public bool AddOrReplace(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        return AddOrReplaceRange([id], vector) == 1;
+    }
 
     /// <inheritdoc/>
     /// <remarks>

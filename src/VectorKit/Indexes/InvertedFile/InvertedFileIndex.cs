@@ -400,7 +400,11 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public void Add(long id, ReadOnlySpan<float> vector) => AddRange([id], vector);
+    public void Add(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        AddRange([id], vector);
+    }
 
     /// <inheritdoc/>
     /// <remarks>
@@ -416,7 +420,11 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public bool AddOrReplace(long id, ReadOnlySpan<float> vector) => AddOrReplaceRange([id], vector) == 1;
+    public bool AddOrReplace(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        return AddOrReplaceRange([id], vector) == 1;
+    }
 
     /// <inheritdoc/>
     /// <remarks>A replaced item leaves its old list and joins the list of its new vector's nearest centroid.</remarks>

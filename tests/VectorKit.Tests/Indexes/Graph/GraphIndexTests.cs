@@ -254,11 +254,14 @@ public class GraphIndexTests(ITestOutputHelper output)
     }
 
     [Fact]
-    public void CancelledBatch_KeepsTheLinkedItems_AndDropsTheRest()
+    public void CancelledBatch_LeavesNothingOfIt_AndARetrySucceeds()
     {
         const int n = 4000, d = 16;
         float[] data = ClusteredData.Generate(n, d, 30, 0.2f, seed: 51);
+        float[] before = ClusteredData.Generate(500, d, 30, 0.2f, seed: 52);
+        long[] beforeIds = Enumerable.Range(0, 500).Select(i => 100_000L + i).ToArray();
         using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, TwoThreads);
+        graph.AddRange(beforeIds, before);
         using var cancel = new CancellationTokenSource();
         var progress = new SynchronousProgressForGraph(done =>
         {
@@ -268,10 +271,30 @@ public class GraphIndexTests(ITestOutputHelper output)
             }
         });
         Assert.ThrowsAny<OperationCanceledException>(() => graph.AddRange(Ids(n), data, progress, cancel.Token));
-        Assert.InRange(graph.Count, 1000, n - 1);
+
+        // All or nothing: the items linked before the cancellation were taken out again, with repair.
+        Assert.Equal(500, graph.Count);
+        Assert.Equal(beforeIds, graph.GetIds());
+        Assert.DoesNotContain(Ids(n), graph.Contains);
         GraphChecks.AssertSound(graph);
-        long[] kept = Ids(n).Where(graph.Contains).ToArray();
-        Assert.Equal(graph.Count, kept.Length);
+
+        graph.AddRange(Ids(n), data);
+        Assert.Equal(n + 500, graph.Count);
+        for (int i = 0; i < n; i += 97)
+        {
+            Assert.Equal(i, graph.Search(data.AsSpan(i * d, d), 1)[0].Id);
+        }
+    }
+
+    [Fact]
+    public void TokenCancelledBeforeTheCall_AddsNothing()
+    {
+        const int n = 200, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 30, 0.2f, seed: 53);
+        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, TwoThreads);
+        Assert.ThrowsAny<OperationCanceledException>(() => graph.AddRange(Ids(n), data, null, new CancellationToken(canceled: true)));
+        Assert.Equal(0, graph.Count);
+        Assert.Empty(graph.GetIds());
     }
 
     [Fact]

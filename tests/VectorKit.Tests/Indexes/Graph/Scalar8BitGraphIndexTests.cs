@@ -59,7 +59,7 @@ public class Scalar8BitGraphIndexTests
     public void BadSamples_AreRejectedWithTheReason_AndLeaveTheIndexUntrained()
     {
         using var graph = new GraphIndex(3, DistanceMetric.Cosine, Codes());
-        Assert.Contains("at least one row and a multiple of the index dimension 3", Assert.Throws<ArgumentException>(() => graph.Train([])).Message, StringComparison.Ordinal);
+        Assert.Contains("at least 1 row and a multiple of the index dimension 3", Assert.Throws<ArgumentException>(() => graph.Train([])).Message, StringComparison.Ordinal);
         Assert.Contains("sample has 4 components", Assert.Throws<ArgumentException>(() => graph.Train([1, 2, 3, 4])).Message, StringComparison.Ordinal);
         Assert.Equal("sample", Assert.Throws<ArgumentException>(() => graph.Train([1, float.NaN, 3])).ParamName);
         Assert.Throws<ArgumentException>(() => graph.Train([1, 1, 1, 0, 0, 0]));
