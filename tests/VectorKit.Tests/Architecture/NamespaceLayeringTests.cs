@@ -21,7 +21,8 @@ public class NamespaceLayeringTests
         ["VectorKit.Quantization"],
         ["VectorKit.Indexes"],
         ["VectorKit.Indexes.Exact", "VectorKit.Indexes.Graph", "VectorKit.Indexes.InvertedFile"],
-        ["VectorKit.IO", "VectorKit.Evaluation", "VectorKit.Persistence"],
+        ["VectorKit.Evaluation"],
+        ["VectorKit.IO", "VectorKit.Persistence"],
         ["VectorKit.Reranking"],
     ];
 

@@ -1,4 +1,6 @@
-namespace VectorKit.Distance.Kernels;
+using VectorKit.Distance.Kernels;
+
+namespace VectorKit.Distance;
 
 /// <summary>An operation written once, generic over a metric's accumulate step and finish.</summary>
 /// <typeparam name="TResult">What the operation returns.</typeparam>
