@@ -62,7 +62,8 @@ public class ExactIndexFashionMnistTests(ITestOutputHelper output)
         }
 
         output.WriteLine($"{identicalLists} of {sample.Length} top-10 lists identical to the MathNet reference, id for id.");
-        Assert.True(identicalLists >= 95, $"only {identicalLists} of 100 lists were identical");
+        // Measured 100 of 100 (this test, deterministic); floor = measured - 1 list, the smallest margin a count allows.
+        Assert.True(identicalLists >= 99, $"only {identicalLists} of 100 lists were identical");
     }
 
     [DataFact]

@@ -77,27 +77,26 @@ public class ExactIndexScalarFashionMnistTests(ExactIndexScalarFashionMnistFixtu
     public void SquaredEuclidean_RecallAtTen_WithoutAndWithRescoring()
     {
         // Pixels are integers 0..255: where a pixel's training range is the full [0, 255] the step is exactly 1 and its
-        // code is lossless, so recall is close to 1 even without re-scoring. Measured 1.0000 and 1.0000; floors 0.99.
+        // code is lossless, so recall is close to 1 even without re-scoring. Training and search are deterministic.
         ExactIndexScalarFashionMnistFixture.State state = fixture.Euclidean;
         double plain = state.RecallAtTen(0);
         double rescored = state.RecallAtTen(ExactIndexScalarFashionMnistFixture.Depth);
         output.WriteLine($"8-bit exact index, squared L2: recall@10 {plain:F4} without re-scoring, {rescored:F4} with {ExactIndexScalarFashionMnistFixture.Depth} re-scored");
         Assert.Equal(60_000, state.Index.Count);
-        Assert.True(plain >= 0.99, $"recall@10 without re-scoring was {plain:F4}");
-        Assert.True(rescored >= 0.99, $"recall@10 with re-scoring was {rescored:F4}");
+        Assert.True(plain >= 0.997, $"recall@10 without re-scoring was {plain:F4}"); // measured 1.0000 (this test, 2 runs); floor = measured - 0.003
+        Assert.True(rescored >= 0.997, $"recall@10 with re-scoring was {rescored:F4}"); // measured 1.0000 (this test, 2 runs); floor = measured - 0.003
     }
 
     [DataFact]
     public void Cosine_RecallAtTen_WithoutAndWithRescoring()
     {
-        // Unit-length images are real-valued: here the codes do lose information. Measured 0.9767 without re-scoring and
-        // 1.0000 with 50 re-scored; floors 0.95 and 0.99.
+        // Unit-length images are real-valued: here the codes do lose information. Deterministic.
         ExactIndexScalarFashionMnistFixture.State state = fixture.Cosine;
         double plain = state.RecallAtTen(0);
         double rescored = state.RecallAtTen(ExactIndexScalarFashionMnistFixture.Depth);
         output.WriteLine($"8-bit exact index, cosine: recall@10 {plain:F4} without re-scoring, {rescored:F4} with {ExactIndexScalarFashionMnistFixture.Depth} re-scored");
-        Assert.True(plain >= 0.95, $"recall@10 without re-scoring was {plain:F4}");
-        Assert.True(rescored >= 0.99, $"recall@10 with re-scoring was {rescored:F4}");
+        Assert.True(plain >= 0.9737, $"recall@10 without re-scoring was {plain:F4}"); // measured 0.9767 (this test, 2 runs); floor = measured - 0.003
+        Assert.True(rescored >= 0.997, $"recall@10 with re-scoring was {rescored:F4}"); // measured 1.0000 (this test, 2 runs); floor = measured - 0.003
         Assert.True(rescored > plain, "re-scoring should recover neighbours the codes misrank");
     }
 }

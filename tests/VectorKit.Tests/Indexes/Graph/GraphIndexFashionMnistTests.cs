@@ -45,14 +45,16 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
         GroundTruth.Compute(FashionMnist.TrainImages.Data, default, s_queries.Value, 784, K, DistanceMetric.SquaredEuclidean));
 
     [DataFact]
-    public void RecallAtTen_DefaultWidth_IsAtLeast095_AndWidth256_IsAtLeast099()
+    public void RecallAtTen_AtTheDefaultWidthAndWidth256_StaysAtTheMeasuredLevel()
     {
         GraphIndex graph = s_graph.Value;
         double atDefault = Recall.AtK(s_truth.Value, graph.SearchBatch(s_queries.Value, K), K);
         double atWide = Recall.AtK(s_truth.Value, graph.SearchBatch(s_queries.Value, K, new SearchOptions { SearchWidth = 256 }), K);
         output.WriteLine($"recall@10 at default width {graph.Options.SearchWidth}: {atDefault:F4}; at width 256: {atWide:F4}; {graph.MemoryBytes / (double)graph.Count:F0} bytes/vector");
-        Assert.True(atDefault >= 0.95, $"recall@10 at the default width was {atDefault:F4}");
-        Assert.True(atWide >= 0.99, $"recall@10 at width 256 was {atWide:F4}");
+        // Two build threads: the graph, and so recall, varies a little with thread timing. Floors are the lowest of 3 runs
+        // minus max(2 x the spread seen, 0.002).
+        Assert.True(atDefault >= 0.9962, $"recall@10 at the default width was {atDefault:F4}"); // measured 0.9982, 0.9984, 0.9982 (this test, 3 runs); floor = 0.9982 - 0.002
+        Assert.True(atWide >= 0.9977, $"recall@10 at width 256 was {atWide:F4}"); // measured 0.9998, 0.9998, 0.9997 (this test, 3 runs); floor = 0.9997 - 0.002
         // Every node reachable: pruning among Fashion-MNIST's many near-duplicates cuts some nodes off, and the
         // reachability pass at the end of the batch must have linked every one of them back.
         GraphChecks.AssertSound(graph);
@@ -60,7 +62,7 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
     }
 
     [DataFact]
-    public void FilterPassingTenPercent_RecallAgainstExactFilteredResults_IsAtLeast090()
+    public void FilterPassingTenPercent_RecallAgainstExactFilteredResults_StaysAtTheMeasuredLevel()
     {
         // Ids ending in 3: 10 % of the items, spread over all classes.
         static bool Filter(long id) => id % 10 == 3;
@@ -87,7 +89,9 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
                 }
             }
 
-            Assert.True(recall >= 0.90, $"filtered recall@10 was {recall:F4}");
+            // Measured 1.0000, 1.0000, 0.9999 for both choices (this test, 3 runs; the shared graph has two build
+            // threads); floor = 0.9999 - 0.002.
+            Assert.True(recall >= 0.9979, $"filtered recall@10 was {recall:F4}");
         }
     }
 
@@ -132,6 +136,11 @@ public class GraphIndexFashionMnistTests(ITestOutputHelper output)
         }
 
         Assert.True(before - afterRecall <= 0.02, $"recall fell from {before:F4} to {afterRecall:F4}");
+
+        // Two build threads and the global passes depend on thread timing: floors are the lowest of 3 runs minus
+        // max(2 x the spread seen, 0.002).
+        Assert.True(before >= 0.9967, $"recall@10 before the removals was {before:F4}"); // measured 0.9987, 0.9989, 0.9987 (this test, 3 runs); floor = 0.9987 - 0.002
+        Assert.True(afterRecall >= 0.9973, $"recall@10 after the removals was {afterRecall:F4}"); // measured 0.9993, 0.9994, 0.9994 (this test, 3 runs); floor = 0.9993 - 0.002
         GraphChecks.AssertSoundAfterSingleChanges(graph);
     }
 

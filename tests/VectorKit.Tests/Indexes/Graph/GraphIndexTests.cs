@@ -42,13 +42,15 @@ public class GraphIndexTests(ITestOutputHelper output)
         Assert.Empty(index.CheckInvariants());
     }
 
+    // Floors: recall@10 at width 128 measured on this test (seeds 7 and 8, one build thread: deterministic; the same on
+    // the 512-, 256-, 128-bit and scalar kernel paths scripts/test.sh runs), minus 0.003.
     [Theory]
-    [InlineData(DistanceMetric.Cosine, false)]
-    [InlineData(DistanceMetric.InnerProduct, false)]
-    [InlineData(DistanceMetric.Cosine, true)]
-    [InlineData(DistanceMetric.InnerProduct, true)]
-    [InlineData(DistanceMetric.SquaredEuclidean, true)]
-    public void RecallAtTen_OnNormalisedRandomAndClusteredData_AtWidth128_IsAtLeast095(DistanceMetric metric, bool clustered)
+    [InlineData(DistanceMetric.Cosine, false, 0.9965)] // measured 0.9995; floor = measured - 0.003
+    [InlineData(DistanceMetric.InnerProduct, false, 0.9965)] // measured 0.9995; floor = measured - 0.003
+    [InlineData(DistanceMetric.Cosine, true, 0.9740)] // measured 0.9770; floor = measured - 0.003
+    [InlineData(DistanceMetric.InnerProduct, true, 0.9740)] // measured 0.9770; floor = measured - 0.003
+    [InlineData(DistanceMetric.SquaredEuclidean, true, 0.9775)] // measured 0.9805; floor = measured - 0.003
+    public void RecallAtTen_OnNormalisedRandomAndClusteredData_AtWidth128_StaysAtTheMeasuredLevel(DistanceMetric metric, bool clustered, double floor)
     {
         const int n = 5000, d = 32;
         float[] data = clustered ? ClusteredData.Generate(n, d, 50, 0.15f, seed: 7, normalise: metric != DistanceMetric.SquaredEuclidean) : ClusteredData.RandomUnit(n, d, seed: 7);
@@ -61,7 +63,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         double recall = Recall.AtK(truth, graph.SearchBatch(queries, K, new SearchOptions { SearchWidth = 128 }), K);
         GraphChecks.AssertSound(graph);
         output.WriteLine($"{metric}, {(clustered ? "clustered" : "random unit")}: recall@10 {atDefault:F4} at the default width, {recall:F4} at width 128; {graph.OrphansAttached} nodes attached by the reachability pass");
-        Assert.True(recall >= 0.95, $"recall@10 at width 128 was {recall:F4}");
+        Assert.True(recall >= floor, $"recall@10 at width 128 was {recall:F4}, below {floor}");
     }
 
     [Fact]
@@ -112,6 +114,10 @@ public class GraphIndexTests(ITestOutputHelper output)
         }
 
         Assert.True(before - afterRecall <= 0.02, $"recall fell from {before:F4} to {afterRecall:F4}");
+
+        // Deterministic (one build thread; the same on every kernel path scripts/test.sh runs): floors = measured - 0.003.
+        Assert.True(before >= 0.8732, $"recall@10 before the removals was {before:F4}"); // measured 0.8762 (this test, seed 11)
+        Assert.True(afterRecall >= 0.8576, $"recall@10 after the removals was {afterRecall:F4}"); // measured 0.8606 (this test, seed 13)
         Assert.Equal(n - removed.Length, graph.Count);
         GraphChecks.AssertSoundAfterSingleChanges(graph);
 
@@ -121,6 +127,7 @@ public class GraphIndexTests(ITestOutputHelper output)
         double compacted = Recall.AtK(liveTruth, graph.SearchBatch(queries, K, searchWidth), K);
         output.WriteLine($"after compaction: recall@10 {compacted:F4}; {bytes} → {graph.MemoryBytes} bytes");
         Assert.True(compacted >= afterRecall - 0.01, $"recall after compaction was {compacted:F4}");
+        Assert.True(compacted >= 0.9298, $"recall@10 after compaction was {compacted:F4}"); // measured 0.9328 (this test); floor = measured - 0.003
         Assert.True(graph.MemoryBytes < bytes * 0.8);
         Assert.Equal(liveIds.Length, graph.Count);
         Assert.All(liveIds, id => Assert.True(graph.Contains(id)));

@@ -26,7 +26,7 @@ public class Scalar8BitGraphFashionMnistTests(ITestOutputHelper output)
     private const int K = 10;
 
     [DataFact]
-    public void RecallAtTen_DefaultWidth_IsAtLeast098WithoutReScoring_And0985WithIt()
+    public void RecallAtTen_DefaultWidth_WithoutAndWithReScoring_StaysAtTheMeasuredLevel()
     {
         VectorSet train = FashionMnist.TrainImages;
         VectorSet test = FashionMnist.TestImages;
@@ -49,9 +49,9 @@ public class Scalar8BitGraphFashionMnistTests(ITestOutputHelper output)
         double rescored = Recall.AtK(truth, graph.SearchBatch(queries, K), K);
         output.WriteLine($"8-bit graph, default width {graph.Options.SearchWidth}: recall@10 {plain:F4} without re-scoring, {rescored:F4} re-scoring 32; {graph.CodeBytesPerVector} code bytes per vector");
 
-        // Measured 0.9980 without and 0.9982 with re-scoring (the float32 graph: 0.9983 in the same test run, from
-        // GraphIndexFashionMnistTests). Two build threads vary the graph a little between runs: the bounds keep a margin.
-        Assert.True(plain >= 0.98, $"recall@10 without re-scoring was {plain:F4}");
-        Assert.True(rescored >= 0.985, $"recall@10 with re-scoring was {rescored:F4}");
+        // Two build threads vary the graph a little between runs: floors are the lowest of 3 runs minus
+        // max(2 x the spread seen, 0.002).
+        Assert.True(plain >= 0.9958, $"recall@10 without re-scoring was {plain:F4}"); // measured 0.9980, 0.9978, 0.9981 (this test, 3 runs); floor = 0.9978 - 0.002
+        Assert.True(rescored >= 0.9960, $"recall@10 with re-scoring was {rescored:F4}"); // measured 0.9982, 0.9980, 0.9983 (this test, 3 runs); floor = 0.9980 - 0.002
     }
 }

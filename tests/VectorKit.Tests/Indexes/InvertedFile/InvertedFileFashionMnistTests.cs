@@ -114,7 +114,7 @@ public class InvertedFileFashionMnistTests(InvertedFileFashionMnistFixture fixtu
     }
 
     [DataFact]
-    public void Float32Lists_RecallAtTen_IsAtLeast095_At16Probes()
+    public void Float32Lists_RecallAtTen_At16Probes_StaysAtTheMeasuredLevel()
     {
         InvertedFileIndex flat = fixture.Value.Flat;
         foreach (int probes in new[] { 1, 4, 8, 32 })
@@ -125,11 +125,11 @@ public class InvertedFileFashionMnistTests(InvertedFileFashionMnistFixture fixtu
         double recall = RecallAt(flat, 10, Probes);
         output.WriteLine($"float32 lists, {Probes} probes: recall@10 {recall:F4}; {flat.MemoryBytes / (double)flat.Count:F0} bytes/vector");
         Assert.Equal(60_000, flat.Count);
-        Assert.True(recall >= 0.95, $"recall@10 was {recall:F4}");
+        Assert.True(recall >= 0.9964, $"recall@10 was {recall:F4}"); // measured 0.9994 (this test, seeded k-means, 2 runs); floor = measured - 0.003
     }
 
     [DataFact]
-    public void ProductCodesWithRescoring_RecallAtTen_IsAtLeast095_WithCodesAnEighthOfFloat32OrLess()
+    public void ProductCodesWithRescoring_RecallAtTen_StaysAtTheMeasuredLevel_WithCodesAnEighthOfFloat32OrLess()
     {
         InvertedFileIndex product = fixture.Value.Product;
         int floatBytes = 784 * sizeof(float);
@@ -137,7 +137,7 @@ public class InvertedFileFashionMnistTests(InvertedFileFashionMnistFixture fixtu
         Assert.True(((long)product.Count * product.CodeBytesPerVector) * 8 <= 60_000L * floatBytes);
         double recall = RecallAt(product, 10, Probes);
         output.WriteLine($"product codes ({product.CodeBytesPerVector} bytes), {Probes} probes, 100 re-scored: recall@10 {recall:F4}");
-        Assert.True(recall >= 0.95, $"recall@10 with re-scoring was {recall:F4}");
+        Assert.True(recall >= 0.9961, $"recall@10 with re-scoring was {recall:F4}"); // measured 0.9991 (this test, seeded k-means, 2 runs); floor = measured - 0.003
     }
 
     [DataFact]
@@ -148,14 +148,14 @@ public class InvertedFileFashionMnistTests(InvertedFileFashionMnistFixture fixtu
         double at100 = RecallAt(product, 100, Probes, depth: 0);
         output.WriteLine($"product codes ({product.CodeBytesPerVector} bytes), {Probes} probes, no re-scoring: recall@10 {at10:F4}, recall@100 {at100:F4}");
 
-        // Codes alone rank well but not exactly (measured 0.74 and 0.81); the floors only catch a broken ADC.
-        Assert.True(at10 >= 0.6, $"recall@10 without re-scoring was {at10:F4}");
-        Assert.True(at100 >= 0.6, $"recall@100 without re-scoring was {at100:F4}");
+        // Codes alone rank well but not exactly.
+        Assert.True(at10 >= 0.7376, $"recall@10 without re-scoring was {at10:F4}"); // measured 0.7406 (this test, seeded k-means, 2 runs); floor = measured - 0.003
+        Assert.True(at100 >= 0.8069, $"recall@100 without re-scoring was {at100:F4}"); // measured 0.8099 (this test, seeded k-means, 2 runs); floor = measured - 0.003
         Assert.True(RecallAt(product, 10, Probes) > at10);
     }
 
     [DataFact]
-    public void ProductCodesRescoredFromAFile_EqualRescoringFromMemory_BitForBit_AtRecallAtLeast095()
+    public void ProductCodesRescoredFromAFile_EqualRescoringFromMemory_BitForBit_AtTheMeasuredRecall()
     {
         InvertedFileFashionMnistFixture.State state = fixture.Value;
         InvertedFileIndex memory = state.Product;
@@ -173,7 +173,7 @@ public class InvertedFileFashionMnistTests(InvertedFileFashionMnistFixture fixtu
 
         double recall = Recall.AtK(state.Truth, fromFile, 10);
         output.WriteLine($"product codes ({file.CodeBytesPerVector} bytes), {Probes} probes, 100 re-scored from a .npy file: recall@10 {recall:F4}; {file.MemoryBytes / (double)file.Count:F0} bytes/vector in memory vs {memory.MemoryBytes / (double)memory.Count:F0} keeping the vectors");
-        Assert.True(recall >= 0.95, $"recall@10 re-scored from the file was {recall:F4}");
+        Assert.True(recall >= 0.9961, $"recall@10 re-scored from the file was {recall:F4}"); // measured 0.9991 (this test, seeded k-means, 2 runs); floor = measured - 0.003
     }
 
     [DataFact]
@@ -184,7 +184,7 @@ public class InvertedFileFashionMnistTests(InvertedFileFashionMnistFixture fixtu
         double plain = RecallAt(scalar, 10, Probes, depth: 0);
         double rescored = RecallAt(scalar, 10, Probes);
         output.WriteLine($"8-bit codes, {Probes} probes: recall@10 {plain:F4} without re-scoring, {rescored:F4} with 50 re-scored");
-        Assert.True(plain >= 0.9, $"recall@10 without re-scoring was {plain:F4}");
-        Assert.True(rescored >= 0.95, $"recall@10 with re-scoring was {rescored:F4}");
+        Assert.True(plain >= 0.9918, $"recall@10 without re-scoring was {plain:F4}"); // measured 0.9948 (this test, seeded k-means, 2 runs); floor = measured - 0.003
+        Assert.True(rescored >= 0.9964, $"recall@10 with re-scoring was {rescored:F4}"); // measured 0.9994 (this test, seeded k-means, 2 runs); floor = measured - 0.003
     }
 }

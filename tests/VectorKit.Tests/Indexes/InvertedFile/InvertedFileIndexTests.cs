@@ -110,8 +110,11 @@ public class InvertedFileIndexTests
             previous = recall;
         }
 
-        // Every list probed with 50 candidates re-scored (or exact lists): nearly exact.
-        Assert.True(previous >= 0.97, $"recall with every list probed was {previous}");
+        // Every list probed with 50 candidates re-scored (or exact lists): nearly exact. Floors: measured on this test
+        // (seeds 8 and 9; the same on every kernel path scripts/test.sh runs) minus 0.003: float32 lists and 8-bit codes
+        // 1.0000 under every metric; product codes 0.9910 under cosine, 0.9980 under inner product and squared L2.
+        double floor = storage != VectorEncoding.ProductCodes ? 0.997 : metric == DistanceMetric.Cosine ? 0.988 : 0.995;
+        Assert.True(previous >= floor, $"recall with every list probed was {previous}, below {floor}");
 
         // With one probe every hit lies in the query's nearest list.
         var stored = new float[D];
@@ -343,7 +346,7 @@ public class InvertedFileIndexTests
         index.Train(data);
         SearchQualityReport report = SearchQuality.Measure(index, default, data, queries, truth, new QualityMeasurementOptions { K = 10, Search = new SearchOptions { SearchWidth = 16 } });
         Assert.Equal(N, index.Count);
-        Assert.True(report.Recall >= 0.99, $"recall {report.Recall}");
+        Assert.True(report.Recall >= 0.997, $"recall {report.Recall}"); // measured 1.0000 (this test, seeds 40 and 41); floor = measured - 0.003
         Assert.True(report.BytesPerVector > 16 + (D * 4));
     }
 
