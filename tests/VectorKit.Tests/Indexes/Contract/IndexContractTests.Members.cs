@@ -17,11 +17,12 @@ public abstract partial class IndexContractTests
         Assert.Equal(0, empty.Count);
         Assert.Empty(empty.GetIds());
         long emptyBytes = empty.MemoryBytes;
-        Assert.True(emptyBytes > 0, $"an empty trained index reports {emptyBytes} bytes");
+        Assert.True(emptyBytes >= 0, $"an empty index reports {emptyBytes} bytes");
 
         using Filled filled = Fill(metric, 700);
         IVectorIndex index = filled.Index;
         Assert.Equal(700, index.Count);
+        Assert.True(index.MemoryBytes > 0);
         Assert.True(index.MemoryBytes >= emptyBytes + (700L * index.CodeBytesPerVector), $"700 items take {index.MemoryBytes} bytes, the empty index {emptyBytes}, codes {index.CodeBytesPerVector} each");
 
         long[] ids = index.GetIds();
