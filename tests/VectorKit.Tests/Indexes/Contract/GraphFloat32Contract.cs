@@ -9,9 +9,9 @@ public sealed class GraphFloat32Contract : IndexContractTests
 {
     protected override bool IsExact => false;
 
-    // A beam of 256 over 2,000 clustered items walks most of the graph; measured 1.00. A graph that loses links or
-    // reachability drops well below.
-    protected override double RecallFloor => 0.98;
+    // A beam of 256 over 2,000 clustered items walks most of the graph: measured 1.000 under every metric. A graph that
+    // loses links or reachability falls below.
+    protected override double RecallFloor => 0.99;
 
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = 256 };
 

@@ -9,12 +9,16 @@ public sealed class GraphScalarContract : IndexContractTests
 {
     protected override bool IsExact => false;
 
-    // A wide beam over codes: code error reorders near neighbours, as in the exact 8-bit scan.
-    protected override double RecallFloor => 0.95;
+    // A beam of 256 over 2,000 items reaches nearly every node, so code error bounds the recall as in the exact 8-bit
+    // scan: measured 0.947 (cosine) to 0.975. Lost links or unreachable nodes fall below.
+    protected override double RecallFloor => 0.92;
 
     protected override bool ReportsExactDistances => false;
 
-    protected override double? StoredVectorTolerance => 0.015;
+    protected override bool DecodesStoredVectors => true;
+
+    private protected override void AssertDecoded(IVectorIndex index, double[] encoded, float[] decoded)
+        => CodeRanges.ForTraining(index.Dimension, index.Metric).AssertDecoded(encoded, decoded);
 
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = 256 };
 

@@ -9,8 +9,9 @@ public sealed class GraphScalarRescoredContract : IndexContractTests
 {
     protected override bool IsExact => false;
 
-    // A wide beam, then exact re-scoring of 50 candidates: the true top 10 are nearly always among them.
-    protected override double RecallFloor => 0.98;
+    // A wide beam, then exact re-scoring of the best 50 by code distance: measured 1.000 under every metric. A missing
+    // or wrong re-scoring step falls to the codes-only figure (about 0.95).
+    protected override double RecallFloor => 0.99;
 
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = 256 };
 

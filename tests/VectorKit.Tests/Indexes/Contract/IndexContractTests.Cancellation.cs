@@ -101,7 +101,7 @@ public abstract partial class IndexContractTests
             for (int r = 0; r < ids.Length; r += 11)
             {
                 Assert.True(filled.Index.TryGetVector(ids[r], stored));
-                AssertStoredVector(Row(rows, r), stored, DistanceMetric.SquaredEuclidean);
+                AssertStoredVector(filled.Index, Row(rows, r), stored);
             }
         }
     }

@@ -35,7 +35,7 @@ public abstract partial class IndexContractTests
         {
             Assert.True(index.Contains(id));
             Assert.True(index.TryGetVector(id, stored));
-            AssertStoredVector(filled.VectorOf(id), stored, metric);
+            AssertStoredVector(index, filled.VectorOf(id), stored);
         }
 
         foreach (long absent in new[] { long.MinValue, -15_001L, 1L << 40, long.MaxValue })
@@ -61,17 +61,22 @@ public abstract partial class IndexContractTests
         Assert.True(before < after50 && after50 < after1050, $"{before} → {after50} → {after1050} bytes");
     }
 
-    /// <summary>The stored vector: the one added (unit length under cosine), or within the code error of it.</summary>
-    protected void AssertStoredVector(float[] added, float[] stored, DistanceMetric metric)
+    /// <summary>The stored vector: the one added (unit length under cosine), or its decoded code (see <see cref="AssertDecoded"/>).</summary>
+    private protected void AssertStoredVector(IVectorIndex index, float[] added, float[] stored)
     {
-        double[] expected = Prepared(added, metric);
-        double tolerance = StoredVectorTolerance ?? 1e-6;
-        for (int j = 0; j < expected.Length; j++)
+        double[] expected = Prepared(added, index.Metric);
+        if (DecodesStoredVectors)
         {
-            Assert.True(Math.Abs(stored[j] - expected[j]) <= tolerance, $"component {j}: stored {stored[j]}, added {expected[j]} (tolerance {tolerance})");
+            AssertDecoded(index, expected, stored);
+            return;
         }
 
-        if (metric == DistanceMetric.Cosine && StoredVectorTolerance is null)
+        for (int j = 0; j < expected.Length; j++)
+        {
+            Assert.True(Math.Abs(stored[j] - expected[j]) <= 1e-6, $"component {j}: stored {stored[j]}, added {expected[j]}");
+        }
+
+        if (index.Metric == DistanceMetric.Cosine)
         {
             double norm = Math.Sqrt(stored.Sum(v => (double)v * v));
             Assert.True(Math.Abs(norm - 1) <= 1e-6, $"a stored vector under cosine has length {norm}");

@@ -122,7 +122,7 @@ public abstract partial class IndexContractTests
         foreach ((long id, float[] vector) in model)
         {
             Assert.True(index.TryGetVector(id, stored));
-            AssertStoredVector(vector, stored, DistanceMetric.SquaredEuclidean);
+            AssertStoredVector(index, vector, stored);
             SearchHit[] hits = index.Search(stored, K, WideSearch);
             Assert.Contains(hits, h => h.Id == id);
         }

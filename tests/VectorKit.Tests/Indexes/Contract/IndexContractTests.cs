@@ -42,10 +42,10 @@ public abstract partial class IndexContractTests
     protected virtual bool ReportsExactDistances => true;
 
     /// <summary>
-    /// <see langword="null"/> when <see cref="IVectorIndex.TryGetVector"/> returns the stored vector itself; otherwise the
-    /// largest difference per component allowed between it and the vector added (codes without full vectors).
+    /// Whether <see cref="IVectorIndex.TryGetVector"/> returns a decoded code (codes without full vectors) rather than the
+    /// vector added; <see cref="AssertDecoded"/> then says what the decoded vector must be.
     /// </summary>
-    protected virtual double? StoredVectorTolerance => null;
+    protected virtual bool DecodesStoredVectors => false;
 
     /// <summary>Search options that make the variant search (nearly) everything: every list, or a very wide beam.</summary>
     protected virtual SearchOptions WideSearch => SearchOptions.Default;
@@ -58,6 +58,10 @@ public abstract partial class IndexContractTests
 
     /// <summary>The documented <see cref="IVectorIndex.CodeBytesPerVector"/> of the variant.</summary>
     protected abstract int ExpectedCodeBytes(int dimension);
+
+    /// <summary>Checks a vector read back from codes against the vector encoded (unit length under cosine).</summary>
+    private protected virtual void AssertDecoded(IVectorIndex index, double[] encoded, float[] decoded)
+        => throw new InvalidOperationException("a variant that decodes its stored vectors says how");
 
     /// <summary>Records the options a factory hands its index, for the <see cref="IVectorIndex.Options"/> check.</summary>
     protected T Given<T>(T options)
@@ -158,6 +162,9 @@ public abstract partial class IndexContractTests
                 $"id {hit.Id}: distance {hit.Distance}, reference {expected} (tolerance {tolerance})");
         }
     }
+
+    /// <summary>The query as the reference measures it: in double, unit length under cosine.</summary>
+    internal static double[] PreparedRow(ReadOnlySpan<float> vector, DistanceMetric metric) => Prepared(vector, metric);
 
     /// <summary>The query as the reference measures it: in double, unit length under cosine.</summary>
     protected static double[] Prepared(ReadOnlySpan<float> vector, DistanceMetric metric)

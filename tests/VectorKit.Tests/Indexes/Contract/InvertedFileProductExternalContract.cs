@@ -9,8 +9,8 @@ public sealed class InvertedFileProductExternalContract : IndexContractTests
 {
     protected override bool IsExact => false;
 
-    // As re-scoring from memory: the source holds the same vectors.
-    protected override double RecallFloor => 0.97;
+    // As re-scoring from memory (the source holds the same vectors): measured 1.000.
+    protected override double RecallFloor => 0.99;
 
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = ContractInvertedFileOptions.Lists };
 
