@@ -20,6 +20,8 @@ public sealed class GraphScalarContract : IndexContractTests
     private protected override void AssertDecoded(IVectorIndex index, double[] encoded, float[] decoded)
         => CodeRanges.ForTraining(index.Dimension, index.Metric).AssertDecoded(encoded, decoded);
 
+    protected override bool CompactRebuilds => true;
+
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = 256 };
 
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)

@@ -12,6 +12,8 @@ public sealed class GraphScalarExternalContract : IndexContractTests
     // As re-scoring from memory (the source holds the same vectors): measured 1.000. Reading the wrong rows falls far below.
     protected override double RecallFloor => 0.99;
 
+    protected override bool CompactRebuilds => true;
+
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = 256 };
 
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)

@@ -13,6 +13,8 @@ public sealed class GraphScalarRescoredContract : IndexContractTests
     // or wrong re-scoring step falls to the codes-only figure (about 0.95).
     protected override double RecallFloor => 0.99;
 
+    protected override bool CompactRebuilds => true;
+
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = 256 };
 
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)

@@ -47,6 +47,9 @@ public abstract partial class IndexContractTests
     /// </summary>
     protected virtual bool DecodesStoredVectors => false;
 
+    /// <summary>Whether <see cref="IVectorIndex.Compact"/> rebuilds the search structure (so approximate answers may change).</summary>
+    protected virtual bool CompactRebuilds => false;
+
     /// <summary>Search options that make the variant search (nearly) everything: every list, or a very wide beam.</summary>
     protected virtual SearchOptions WideSearch => SearchOptions.Default;
 
