@@ -14,9 +14,11 @@ namespace VectorKit.Indexes;
 /// <para><b>Input checks.</b> Every vector must have exactly <see cref="Dimension"/> finite components. A failed
 /// add or remove leaves the index unchanged, even for a batch: it is validated whole before anything is written.</para>
 /// <para><b>Thread safety.</b> Implementations document their own guarantees; the built-in ones allow any number of
-/// concurrent searches, and serialize writes against searches: a search sees each write entirely or not at all.</para>
+/// concurrent searches, and serialize writes against searches: a search sees each write entirely or not at all, except
+/// where a kind documents a step it runs beside searches (the graph links a batch of new items while searches run).</para>
 /// <para><b>Disposal.</b> After <see cref="IDisposable.Dispose"/> every member but <see cref="Dimension"/>,
-/// <see cref="Metric"/>, <see cref="Options"/> and <c>Dispose</c> itself throws <see cref="ObjectDisposedException"/>.</para>
+/// <see cref="Metric"/>, <see cref="Options"/>, <see cref="CodeBytesPerVector"/> (fixed by the options) and <c>Dispose</c>
+/// itself throws <see cref="ObjectDisposedException"/>.</para>
 /// </remarks>
 public interface IVectorIndex : IDisposable
 {

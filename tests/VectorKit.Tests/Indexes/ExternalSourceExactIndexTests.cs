@@ -184,7 +184,7 @@ public sealed class ExternalSourceExactIndexTests : IDisposable
         using (var rows = new ExactIndex(D, DistanceMetric.SquaredEuclidean, float32))
         {
             Assert.False(rows.ReadsFullVectorsExternally);
-            Assert.True(rows.KeepsFullVectors);
+            Assert.False(rows.KeepsFullVectors); // float32 rows are the full vectors; nothing is kept beside them
             rows.AddRange(ids, data);
             Assert.Equal(ids[4], rows.Search(data.AsSpan(4 * D, D), 1)[0].Id);
         }

@@ -229,7 +229,7 @@ public class Scalar8BitExactIndexTests
     {
         using var index = new ExactIndex(3, DistanceMetric.Cosine);
         Assert.True(index.IsTrained);
-        Assert.Equal((VectorEncoding.Float32, 0, true), (index.Options.Encoding, index.Options.RescoreDepth, index.KeepsFullVectors));
+        Assert.Equal((VectorEncoding.Float32, 0, false), (index.Options.Encoding, index.Options.RescoreDepth, index.KeepsFullVectors));
         index.Add(1, [1, 2, 3]);
         var progress = new SynchronousProgress<IndexTrainingProgress>();
         index.Train([1, 0, 0, 0, 1, 0], progress);

@@ -35,7 +35,7 @@ public sealed partial class ExactIndex
     /// <exception cref="InvalidOperationException">Under 8-bit storage, the index already holds vectors, whose codes depend on the current ranges.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
+    public override void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
     {
         using (_lock.EnterRead())
         {
@@ -73,14 +73,6 @@ public sealed partial class ExactIndex
         if (_count > 0)
         {
             throw new InvalidOperationException($"The index holds {_count} vectors, whose 8-bit codes depend on the current ranges; train before adding, or build a new index.");
-        }
-    }
-
-    private void ThrowIfNotTrained()
-    {
-        if (_codes is not null && _scalar is null)
-        {
-            throw new IndexNotTrainedException("The exact index stores 8-bit codes and is not trained: call Train with a sample of at least 1 vector (ideally covering the data's range) before adding or searching.");
         }
     }
 

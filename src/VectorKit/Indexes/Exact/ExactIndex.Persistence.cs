@@ -14,9 +14,8 @@ namespace VectorKit.Indexes.Exact;
 public sealed partial class ExactIndex
 {
     private ExactIndex(int dimension, DistanceMetric metric, VectorBuffer vectors, long[] ids, int count, float[]? squaredNorms)
+        : base(dimension, metric)
     {
-        Dimension = dimension;
-        Metric = metric;
         _options = ExactIndexOptions.Default;
         _kernelPath = KernelDispatch.Widest;
         _vectors = vectors;
@@ -118,9 +117,8 @@ public sealed partial class ExactIndex
 
     // A loaded index under 8-bit storage; takes ownership of the buffers.
     private ExactIndex(int dimension, DistanceMetric metric, int rescoreDepth, FullVectorLocation location, ScalarQuantizer? scalar, CodeBuffer codes, VectorBuffer? full, long[] ids, int count)
+        : base(dimension, metric)
     {
-        Dimension = dimension;
-        Metric = metric;
         _kernelPath = KernelDispatch.Widest;
         _options = new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = rescoreDepth, FullVectors = location };
         _readsExternally = _options.ReadsFullVectorsExternally;

@@ -33,7 +33,7 @@ namespace VectorKit.Indexes.Exact;
 /// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
 /// <see cref="VectorIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
 /// only the codes: re-scoring reads each candidate's vector from the <see cref="IFullVectorSource"/> given at
-/// construction or attached later with <see cref="AttachFullVectors"/> (a loaded index has none until then; a search
+/// construction or attached later with <see cref="VectorIndex.AttachFullVectors"/> (a loaded index has none until then; a search
 /// that would re-score without one throws <see cref="InvalidOperationException"/>). Under cosine the rows read are
 /// normalised as the index normalises added vectors, so the results equal, bit for bit, those of the same index keeping
 /// the vectors in memory. The source is neither saved nor disposed by the index. Under float32 storage the option is
@@ -42,18 +42,16 @@ namespace VectorKit.Indexes.Exact;
 /// removes wait for running searches and block new ones until they finish, so a search sees the index entirely before
 /// or entirely after each write. A batch search holds the index for its whole duration.</para>
 /// </remarks>
-public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
+public sealed partial class ExactIndex : VectorIndex
 {
     // A batch works on this many queries at a time per thread, against row tiles of about TileBytes.
-    private const int QueryBlock = 64;
+    private const int TiledQueryBlock = 64;
     private const int TileBytes = 256 * 1024;
 
     // Rows scored per kernel call in a single-query scan: the distances of one block live on the stack.
     private const int ScanBlock = 256;
 
-    private readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
     private readonly VectorBuffer _vectors;
-    private readonly IdMap _slotOf = new();
     private readonly KernelPath _kernelPath;
 
     // 8-bit storage: the codes (null under float32) and their quantizer once trained. _vectors holds the rows under
@@ -62,14 +60,11 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     private readonly ExactIndexOptions _options;
     private readonly bool _keepsVectors = true;
     private readonly bool _readsExternally;
-    private IFullVectorSource? _source;
     private readonly CodeBuffer? _codes;
     private ScalarQuantizer? _scalar;
     private long[] _ids;
     private float[] _squaredNorms;
-    private int _count;
     private int _batchFallbacks;
-    private bool _disposed;
 
     /// <summary>Creates an empty exact index.</summary>
     /// <param name="dimension">Components per vector, at least 1.</param>
@@ -99,16 +94,9 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
 
     /// <summary>Creates an index whose kernels run no wider than <paramref name="kernelPath"/> (tests sweep every path).</summary>
     internal ExactIndex(int dimension, DistanceMetric metric, ExactIndexOptions? options, KernelPath kernelPath)
+        : base(dimension, metric)
     {
-        if (dimension <= 0)
-        {
-            ThrowHelper.ThrowArgumentOutOfRange(nameof(dimension), dimension, "must be positive");
-        }
-
-        VectorChecks.CheckMetric(metric);
         options ??= ExactIndexOptions.Default;
-        Dimension = dimension;
-        Metric = metric;
         _kernelPath = kernelPath;
         _options = options;
         int capacity = options.InitialCapacity;
@@ -124,75 +112,35 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         _squaredNorms = KeepsSquaredNorms(metric, options.Encoding) ? new float[capacity] : [];
     }
 
-    /// <inheritdoc/>
-    public int Dimension { get; }
-
-    /// <inheritdoc/>
-    public DistanceMetric Metric { get; }
-
-    /// <inheritdoc/>
-    public int Count
-    {
-        get
-        {
-            ThrowIfDisposed();
-            return Volatile.Read(ref _count);
-        }
-    }
-
     /// <summary>The options the index was built with.</summary>
     public ExactIndexOptions Options => _options;
 
     /// <inheritdoc/>
-    VectorIndexOptions IVectorIndex.Options => _options;
+    private protected override VectorIndexOptions SharedOptions => _options;
 
     /// <inheritdoc/>
-    public int CodeBytesPerVector => _codes?.Dimension ?? Dimension * sizeof(float);
+    private protected override string NotTrainedMessage => "The exact index stores 8-bit codes and is not trained: call Train with a sample of at least 1 vector (ideally covering the data's range) before adding or searching.";
+
+    /// <inheritdoc/>
+    public override int CodeBytesPerVector => _codes?.Dimension ?? Dimension * sizeof(float);
 
     /// <summary>
     /// Whether adds and searches may run: always under float32 storage; under 8-bit storage once <see cref="Train"/>
     /// has learnt the code ranges.
     /// </summary>
-    public bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
-
-    /// <summary>
-    /// Whether full float32 vectors are held in the index: under float32 storage, or under 8-bit storage with a positive
-    /// <see cref="VectorIndexOptions.RescoreDepth"/> and <see cref="VectorIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.InIndexMemory"/>.
-    /// </summary>
-    public bool KeepsFullVectors => _keepsVectors;
-
-    /// <inheritdoc/>
-    public bool ReadsFullVectorsExternally => _readsExternally;
-
-    /// <inheritdoc/>
-    public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
-
-    /// <inheritdoc/>
-    public void AttachFullVectors(IFullVectorSource source)
-    {
-        SourceRows.CheckAttach(source, Dimension, _readsExternally);
-        _lock.EnterWriteLock();
-        try
-        {
-            ThrowIfDisposed();
-            Volatile.Write(ref _source, source);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
-    }
+    public override bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
 
     /// <inheritdoc/>
     /// <remarks>Vectors (and 8-bit codes) at their reserved capacity, ids, norms, the code ranges, and the id lookup's
     /// entries (about 28 bytes each).</remarks>
-    public long MemoryBytes
+    public override long MemoryBytes
     {
         get
         {
             _lock.EnterReadLock();
             try
             {
+                ThrowIfDisposed();
                 return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
                     + _slotOf.Bytes + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
             }
@@ -204,21 +152,13 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    public bool Contains(long id)
-    {
-        using LockScopes.ReadScope read = _lock.EnterRead();
-        ThrowIfDisposed();
-        return _slotOf.ContainsKey(id);
-    }
-
-    /// <inheritdoc/>
     /// <remarks>
     /// Under 8-bit storage without full vectors this is the decoded code, an approximation of the vector added (each
     /// component within half a quantization step when inside the trained range, clamped to the range otherwise). With
     /// an attached external source it is the source's vector (unit length under cosine, as an index keeping it stores it).
     /// </remarks>
     /// <exception cref="InvalidOperationException">The attached source lacks the vector of an id the index holds.</exception>
-    public bool TryGetVector(long id, Span<float> destination)
+    public override bool TryGetVector(long id, Span<float> destination)
     {
         VectorChecks.CheckVectorDestination(destination, Dimension);
 
@@ -244,39 +184,20 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public void Add(long id, ReadOnlySpan<float> vector)
-    {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
-        AddRange([id], vector);
-    }
-
-    /// <inheritdoc/>
     /// <remarks>The rows are copied under the write lock in one step; the token is checked before it.</remarks>
     /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    public override void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
         => Write(ids, vectors, replace: false, progress, cancellationToken);
-
-    /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public bool AddOrReplace(long id, ReadOnlySpan<float> vector)
-    {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
-        return Write([id], vector, replace: true, null, default) == 1;
-    }
 
     /// <inheritdoc/>
     /// <remarks>A replaced vector is overwritten in its row under the write lock; searches wait for the whole batch.</remarks>
     /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    public override int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
         => Write(ids, vectors, replace: true, progress, cancellationToken);
 
     /// <inheritdoc/>
-    public void Remove(long id) => RemoveRange([id]);
-
-    /// <inheritdoc/>
     /// <remarks>Each removed row is filled with the last row, so the scanned range stays dense.</remarks>
-    public void RemoveRange(ReadOnlySpan<long> ids)
+    public override void RemoveRange(ReadOnlySpan<long> ids)
     {
         VectorChecks.CheckUniqueIds(ids);
         using var write = _lock.EnterWrite();
@@ -312,8 +233,8 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     internal int BatchFallbacks => Volatile.Read(ref _batchFallbacks);
 
     /// <inheritdoc/>
-    /// <remarks>Removed rows leave no holes in an exact index, so this only releases the storage reserved beyond <see cref="Count"/> vectors.</remarks>
-    public void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    /// <remarks>Removed rows leave no holes in an exact index, so this only releases the storage reserved beyond <see cref="VectorIndex.Count"/> vectors.</remarks>
+    public override void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         using var write = _lock.EnterWrite();
         ThrowIfDisposed();
@@ -382,96 +303,36 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
     }
 
 
-    /// <inheritdoc/>
-    /// <remarks>
-    /// Under 8-bit encoding with full vectors kept (in memory or in an attached source), <see cref="SearchOptions.RescoreDepth"/> (default
-    /// <see cref="VectorIndexOptions.RescoreDepth"/>) candidates by code distance are re-scored exactly and the returned distances are exact.
-    /// </remarks>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
-    {
-        VectorChecks.CheckResultDestination(destination);
-        using var unit = ScratchRental<float>.Rent(Metric == DistanceMetric.Cosine ? Dimension : 0);
-        ReadOnlySpan<float> q = VectorChecks.PrepareQuery(query, Dimension, Metric, unit.Span);
-        using (_lock.EnterRead())
-        {
-            ThrowIfDisposed();
-            ThrowIfNotTrained();
-            return SearchPrepared(q, destination, options ?? SearchOptions.Default);
-        }
-    }
-
-    /// <inheritdoc/>
-    /// <remarks>
+    /// <summary>
     /// Under float32 encoding without a filter, blocks of queries are scored against cache-sized tiles of rows and the
-    /// result is proven equal to single searches (see the class remarks). Otherwise each query runs the single-query
+    /// result is proven equal to single searches (see the class remarks); otherwise each query runs the single-query
     /// scan (and re-scoring), queries in parallel.
-    /// </remarks>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public BatchSearchResults SearchBatch(
-        ReadOnlySpan<float> queries,
-        int k,
-        SearchOptions? options = null,
-        IProgress<int>? progress = null,
-        CancellationToken cancellationToken = default)
+    /// </summary>
+    private protected override void SearchBatchLocked(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
     {
-        ReadOnlySpan<float> source = BatchSearch.Prepare(queries, k, Dimension, Metric, out int queryCount);
-        SearchOptions run = options ?? SearchOptions.Default;
-        using (_lock.EnterRead())
+        if (_codes is not null || options.Filter is not null)
         {
-            ThrowIfDisposed();
-            if (queryCount > 0)
-            {
-                ThrowIfNotTrained();
-            }
-
-            BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, _count);
-            if (queryCount == 0 || _count == 0)
-            {
-                return results;
-            }
-
-            if (_codes is not null || run.Filter is not null)
-            {
-                if (_readsExternally && _source is null && (run.RescoreDepth ?? _options.RescoreDepth) > 0)
-                {
-                    SourceRows.ThrowNoSource();
-                }
-
-                BatchSearch.RunQueries(source, Dimension, results, CodeQueryBlock, run, progress, cancellationToken, static () => 0, (q, slots, _) => SearchPrepared(q, slots, run));
-                return results;
-            }
-
-            var tiled = new TiledBatch(this, results, LargestSquaredNorm());
-            BatchSearch.RunBlocks(source, queryCount, QueryBlock, run, progress, cancellationToken, () => new BatchScratch(this, results.K), tiled.Run);
-            return results;
-        }
-    }
-
-    /// <summary>Frees the vector storage. Further calls throw <see cref="ObjectDisposedException"/>.</summary>
-    public void Dispose()
-    {
-        using var write = _lock.EnterWrite();
-        if (_disposed)
-        {
+            base.SearchBatchLocked(queries, results, options, progress, cancellationToken);
             return;
         }
 
-        _disposed = true;
-        _vectors.Dispose();
-        _codes?.Dispose();
-        _slotOf.Clear();
-        _count = 0;
+        var tiled = new TiledBatch(this, results, LargestSquaredNorm());
+        BatchSearch.RunBlocks(queries, results.QueryCount, TiledQueryBlock, options, progress, cancellationToken, () => new BatchScratch(this, results.K), tiled.Run);
     }
 
-    // Caller holds the read lock and checked training; q is validated (and unit length under cosine).
-    private int SearchPrepared(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options)
-        => _codes is not null ? SearchCodesLocked(q, destination, options) : SearchLocked(q, destination, options.Filter);
+    /// <inheritdoc/>
+    private protected override void ReleaseStorage()
+    {
+        _vectors.Dispose();
+        _codes?.Dispose();
+    }
+
+    /// <inheritdoc/>
+    private protected override int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options)
+        => _codes is not null ? SearchCodesLocked(q, destination, options) : ScanLocked(q, destination, options.Filter);
 
     // Caller holds the read lock; q is validated (and unit length under cosine).
-    private int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, Func<long, bool>? filter)
+    private int ScanLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, Func<long, bool>? filter)
     {
         if (_count == 0)
         {
@@ -628,14 +489,6 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
         _squaredNorms[slot] = PairKernel.Sum<DotStep>(_kernelPath, row, row);
     }
 
-    private void ThrowIfDisposed()
-    {
-        if (_disposed)
-        {
-            ThrowHelper.ThrowObjectDisposed(this);
-        }
-    }
-
     /// <summary>One thread's buffers for a batch: row-tile distances, per-query candidate heaps, query norms.</summary>
     private sealed class BatchScratch
     {
@@ -646,10 +499,10 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
             // Candidates are selected with the tiled dot-product kernel, whose rounding differs from the single-query
             // kernel's; extra candidates, re-scored exactly, leave room for the error bound to prove the top k complete.
             HeapSize = Math.Min(index._count, k + Math.Max(8, k / 2));
-            Dots = new float[QueryBlock * TileRows];
-            Heaps = new SearchHit[QueryBlock * HeapSize];
-            Counts = new int[QueryBlock];
-            QuerySquaredNorms = new float[QueryBlock];
+            Dots = new float[TiledQueryBlock * TileRows];
+            Heaps = new SearchHit[TiledQueryBlock * HeapSize];
+            Counts = new int[TiledQueryBlock];
+            QuerySquaredNorms = new float[TiledQueryBlock];
         }
 
         public int TileRows { get; }
@@ -745,7 +598,7 @@ public sealed partial class ExactIndex : ITrainableIndex, IExternalFullVectors
                 {
                     Interlocked.Increment(ref index._batchFallbacks);
                     var single = new ReadOnlySpan<float>(q + ((nint)i * d), d);
-                    results.SetCount(first + i, index.SearchLocked(single, results.Slots(first + i), null));
+                    results.SetCount(first + i, index.ScanLocked(single, results.Slots(first + i), null));
                     continue;
                 }
 

@@ -6,10 +6,6 @@ namespace VectorKit.Indexes.Graph;
 /// <summary>Removal with neighbour repair, compaction, and the structural checks tests use.</summary>
 public sealed partial class GraphIndex
 {
-    /// <inheritdoc/>
-    /// <remarks>As <see cref="RemoveRange"/> with one id; removing many at once is cheaper with that method.</remarks>
-    public void Remove(long id) => RemoveRange([id]);
-
     /// <summary>Removes many items at once.</summary>
     /// <param name="ids">Ids present in the index, no repeats.</param>
     /// <remarks>
@@ -29,7 +25,7 @@ public sealed partial class GraphIndex
     /// <exception cref="ArgumentException">An id appears more than once.</exception>
     /// <exception cref="KeyNotFoundException">An id is not in the index.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void RemoveRange(ReadOnlySpan<long> ids)
+    public override void RemoveRange(ReadOnlySpan<long> ids)
     {
         VectorChecks.CheckUniqueIds(ids);
 
@@ -84,7 +80,7 @@ public sealed partial class GraphIndex
     }
 
     /// <summary>
-    /// Rebuilds the graph from the live items only, in parallel, and shrinks every array to <see cref="Count"/> items:
+    /// Rebuilds the graph from the live items only, in parallel, and shrinks every array to <see cref="VectorIndex.Count"/> items:
     /// the space of removed items is released.
     /// </summary>
     /// <param name="progress">Optional; receives the number of items linked into the new graph so far, from worker threads.</param>
@@ -97,7 +93,7 @@ public sealed partial class GraphIndex
     /// </remarks>
     /// <exception cref="OperationCanceledException">The token was cancelled; see <paramref name="cancellationToken"/>.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    public override void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         _lock.EnterWriteLock();
         try

@@ -351,7 +351,7 @@ public sealed partial class GraphIndex
         _lock.EnterWriteLock();
         try
         {
-            if (!_disposed)
+            if (!IsDisposed)
             {
                 FinishLocked(null, first, added, forceFullPass: false);
             }

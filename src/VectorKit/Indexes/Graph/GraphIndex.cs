@@ -27,7 +27,7 @@ namespace VectorKit.Indexes.Graph;
 /// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
 /// <see cref="VectorIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
 /// only the codes: re-scoring reads each candidate's vector from the <see cref="IFullVectorSource"/> given at
-/// construction or attached later with <see cref="AttachFullVectors"/> (a loaded index has none until then; a search
+/// construction or attached later with <see cref="VectorIndex.AttachFullVectors"/> (a loaded index has none until then; a search
 /// that would re-score without one throws <see cref="InvalidOperationException"/>). Under cosine the rows read are
 /// normalised as the index normalises added vectors, and the graph is built on the codes either way, so the results
 /// equal, bit for bit, those of the same index keeping the vectors in memory. The source is neither saved nor disposed
@@ -53,20 +53,20 @@ namespace VectorKit.Indexes.Graph;
 /// do it readily), and a node left with none is linked again from a node near it at the end of the add or removal
 /// that cut it off. Globally, amortised: a group of nodes that only link to each other would still be cut off, so a
 /// pass walks the whole bottom layer from the entry point and links every unreached item; it runs once the adds and
-/// removals since the last pass reach an eighth of <see cref="Count"/> (so after every bulk build, and at least once
+/// removals since the last pass reach an eighth of <see cref="VectorIndex.Count"/> (so after every bulk build, and at least once
 /// per eighth of the index for single changes), and always after <see cref="Compact"/>. Its cost,
 /// <c>O(items × bottom links)</c> reads, is thus spread over many changes, and each single add or removal costs a
 /// local amount of work. Between passes a cut-off group is possible in principle; the tests count how many the pass
 /// finds.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with the
-/// linking phase of <see cref="Add"/> and <see cref="AddRange"/>: an add
+/// linking phase of <see cref="VectorIndex.Add"/> and <see cref="AddRange"/>: an add
 /// first waits for running searches while it stores the vectors (a short exclusive step), then links the new items
 /// while searches proceed; a concurrent search may or may not see an item being linked, and never sees a removed one.
 /// Several adds may link at once (per-node locks). The short repair step at the end of an add (attaching nodes left
-/// without in-links, and the global pass when it is due), <see cref="Remove"/>, <see cref="RemoveRange"/>,
-/// <see cref="Compact"/> and <see cref="Dispose"/> are exclusive: they wait for running searches and adds.</para>
+/// without in-links, and the global pass when it is due), <see cref="VectorIndex.Remove"/>, <see cref="RemoveRange"/>,
+/// <see cref="Compact"/> and <see cref="VectorIndex.Dispose"/> are exclusive: they wait for running searches and adds.</para>
 /// </remarks>
-public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
+public sealed partial class GraphIndex : VectorIndex
 {
     // Scratch places of rows decoded from codes (see IGraphDistance.NodeAsQuery): the node being linked or attached,
     // the owner of a list being pruned or re-linked, and from KeptPlace on the nodes neighbour selection has kept.
@@ -78,8 +78,6 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     private const int LockStripes = 1024;
     private const int FilterSampleSize = 256;
 
-    // Queries of a batch handed to one worker at a time.
-    private const int QueryBlock = 16;
 
     // The cost model's constant for choosing between a filtered walk and an exact scan (fitted; see
     // GraphIndexOptions.FilteredExactScanFraction).
@@ -89,7 +87,6 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     private const int InLinkSearchHops = 3;
     private const int InLinkSearchNodes = 4096;
 
-    private readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
     private readonly object[] _stripes = new object[LockStripes];
     private readonly object _entryLock = new();
     private readonly GraphIndexOptions _options;
@@ -97,19 +94,15 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     // re-scoring from an external source reads _source (set by the constructor or AttachFullVectors, under the write lock).
     private VectorBuffer? _vectors;
     private readonly bool _readsExternally;
-    private IFullVectorSource? _source;
     private CodeBuffer? _codes;
     private ScalarQuantizer? _scalar;
     private GraphLinks _links;
-    private IdMap _slotOf = new();
     private readonly double _levelScale;
     private readonly KernelPath _path;
     private Random _levelRandom;
     private long[] _ids;
     private byte[] _removed;
     private int _used;
-    private int _count;
-    private bool _disposed;
     private int[] _levelCounts = new int[MaxLevel + 1];
     private readonly List<int> _orphanNotes = [];
     private long _changesSinceFullPass;
@@ -129,16 +122,9 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is not positive, or <paramref name="metric"/> is not defined.</exception>
     /// <remarks>Under <see cref="VectorEncoding.Scalar8Bit"/> the index must be trained (<see cref="Train"/>) before the first add or search.</remarks>
     public GraphIndex(int dimension, DistanceMetric metric, GraphIndexOptions? options = null)
+        : base(dimension, metric)
     {
-        if (dimension <= 0)
-        {
-            ThrowHelper.ThrowArgumentOutOfRange(nameof(dimension), dimension, "must be positive");
-        }
-
-        VectorChecks.CheckMetric(metric);
         _options = options ?? GraphIndexOptions.Default;
-        Dimension = dimension;
-        Metric = metric;
         _path = KernelDispatch.For(dimension, KernelDispatch.Widest);
         _levelScale = 1.0 / Math.Log(_options.LinksPerNode);
         _levelRandom = new Random(_options.Seed);
@@ -189,59 +175,27 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
         _source = fullVectors;
     }
 
-    /// <inheritdoc/>
-    public int Dimension { get; }
-
-    /// <inheritdoc/>
-    public DistanceMetric Metric { get; }
-
     /// <summary>The options the index was built with.</summary>
     public GraphIndexOptions Options => _options;
 
     /// <inheritdoc/>
-    VectorIndexOptions IVectorIndex.Options => _options;
+    private protected override VectorIndexOptions SharedOptions => _options;
+
+    /// <inheritdoc/>
+    private protected override string NotTrainedMessage => "The graph index stores 8-bit codes and is not trained: call Train with a sample of at least one vector (a few thousand representative ones are plenty) before adding or searching.";
 
     /// <summary>
     /// Whether the index can take vectors: always under <see cref="VectorEncoding.Float32"/>; under
     /// <see cref="VectorEncoding.Scalar8Bit"/> once <see cref="Train"/> has run.
     /// </summary>
-    public bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
-
-    /// <summary>
-    /// Whether the full float32 vectors are kept in memory beside the 8-bit codes for exact re-scoring (a positive
-    /// <see cref="VectorIndexOptions.RescoreDepth"/> with <see cref="VectorIndexOptions.FullVectors"/> =
-    /// <see cref="FullVectorLocation.InIndexMemory"/>).
-    /// </summary>
-    public bool KeepsFullVectors => _codes is not null && _options.RescoreDepth > 0 && !_readsExternally;
-
-    /// <inheritdoc/>
-    public bool ReadsFullVectorsExternally => _readsExternally;
-
-    /// <inheritdoc/>
-    public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
-
-    /// <inheritdoc/>
-    public void AttachFullVectors(IFullVectorSource source)
-    {
-        SourceRows.CheckAttach(source, Dimension, _readsExternally);
-        _lock.EnterWriteLock();
-        try
-        {
-            ThrowIfDisposed();
-            Volatile.Write(ref _source, source);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
-    }
+    public override bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
 
     /// <summary>
     /// Bytes a graph walk reads per stored vector: <c>4 × dimension</c> for float32, the dimension rounded up to a
     /// multiple of 16 for 8-bit codes. Full vectors kept for re-scoring are not counted (a search reads them only for
     /// the re-scored candidates); <see cref="MemoryBytes"/> counts them.
     /// </summary>
-    public int CodeBytesPerVector => _codes?.Dimension ?? Dimension * sizeof(float);
+    public override int CodeBytesPerVector => _codes?.Dimension ?? Dimension * sizeof(float);
 
     /// <summary>
     /// Under 8-bit storage, learns the range of every component from <paramref name="sample"/> (under cosine the rows
@@ -257,7 +211,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <exception cref="InvalidOperationException">Under 8-bit storage, the index already stores vectors (removed ones count until <see cref="Compact"/>): their codes depend on the current ranges.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
+    public override void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
     {
         ScalarQuantizer? scalar = ScalarCodeTraining.Learn(sample, Dimension, Metric, _codes is not null, cancellationToken);
         _lock.EnterWriteLock();
@@ -296,29 +250,20 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     internal int DecodePlaces => KeptPlace + _links.MaxLimit + 1;
 
     /// <inheritdoc/>
-    public int Count
-    {
-        get
-        {
-            ThrowIfDisposed();
-            return Volatile.Read(ref _count);
-        }
-    }
-
-    /// <inheritdoc/>
     /// <remarks>
     /// Vectors (or 8-bit codes, plus the full vectors when kept in memory, plus the trained ranges) at their reserved capacity,
     /// ids, the link arrays (bottom layer: <c>4 × (bottom links + 1)</c> bytes per slot; upper layers only for nodes
     /// that have them), per-slot level and removal flags, and the id lookup (about 28 bytes per entry). Removed items
     /// keep their space until <see cref="Compact"/>. An attached external source is not counted (the index does not own it).
     /// </remarks>
-    public long MemoryBytes
+    public override long MemoryBytes
     {
         get
         {
             _lock.EnterReadLock();
             try
             {
+                ThrowIfDisposed();
                 long rows = (_vectors?.Bytes ?? 0) + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
                 return rows + _links.Bytes + ((long)_ids.Length * sizeof(long)) + _removed.Length + _slotOf.Bytes;
             }
@@ -330,14 +275,6 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    public bool Contains(long id)
-    {
-        using LockScopes.ReadScope read = _lock.EnterRead();
-        ThrowIfDisposed();
-        return _slotOf.ContainsKey(id);
-    }
-
-    /// <inheritdoc/>
     /// <remarks>
     /// Under cosine the stored vector is the unit-length one. Under 8-bit storage without full vectors this is the
     /// decoded code, an approximation (each component within half a quantization step of the vector added, when it
@@ -345,7 +282,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// as an index keeping it stores it).
     /// </remarks>
     /// <exception cref="InvalidOperationException">The attached source lacks the vector of an id the index holds.</exception>
-    public bool TryGetVector(long id, Span<float> destination)
+    public override bool TryGetVector(long id, Span<float> destination)
     {
         VectorChecks.CheckVectorDestination(destination, Dimension);
 
@@ -371,14 +308,6 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
         return true;
     }
 
-    /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public void Add(long id, ReadOnlySpan<float> vector)
-    {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
-        AddRange([id], vector);
-    }
-
     /// <summary>Adds many vectors, linking them in parallel (<see cref="GraphIndexOptions.MaxDegreeOfParallelism"/> threads); all or nothing.</summary>
     /// <param name="ids">One id per vector, none already present and no repeats.</param>
     /// <param name="vectors">The vectors, row after row: <c>ids.Length × Dimension</c> components.</param>
@@ -396,7 +325,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled; nothing of the batch remains.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    public override void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         int n = ids.Length;
         VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
@@ -431,21 +360,13 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public bool AddOrReplace(long id, ReadOnlySpan<float> vector)
-    {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
-        return AddOrReplaceRange([id], vector) == 1;
-    }
-
-    /// <inheritdoc/>
     /// <remarks>
     /// Exclusive from start to end (searches wait): the new vectors are stored and linked as new nodes, then each replaced
     /// id moves to its new node in one step and its old node is removed with repair, as by <see cref="RemoveRange"/>.
     /// A cancelled batch takes its new nodes out again and leaves the old ones in place.
     /// </remarks>
     /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    public override int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         int n = ids.Length;
         VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
@@ -490,7 +411,7 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     private void RollBack(int first, int n)
     {
         using var write = _lock.EnterWrite();
-        if (!_disposed)
+        if (!IsDisposed)
         {
             RollBackLocked(first, n);
         }
@@ -519,76 +440,12 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
+    private protected override void ReleaseStorage()
     {
-        VectorChecks.CheckResultDestination(destination);
-        using var unit = ScratchRental<float>.Rent(Metric == DistanceMetric.Cosine ? Dimension : 0);
-        ReadOnlySpan<float> q = VectorChecks.PrepareQuery(query, Dimension, Metric, unit.Span);
-        using var read = _lock.EnterRead();
-        ThrowIfDisposed();
-        ThrowIfNotTrained();
-        return SearchLocked(q, destination, options ?? SearchOptions.Default);
-    }
-
-    /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public BatchSearchResults SearchBatch(
-        ReadOnlySpan<float> queries,
-        int k,
-        SearchOptions? options = null,
-        IProgress<int>? progress = null,
-        CancellationToken cancellationToken = default)
-    {
-        ReadOnlySpan<float> source = BatchSearch.Prepare(queries, k, Dimension, Metric, out int queryCount);
-        SearchOptions run = options ?? SearchOptions.Default;
-        using var read = _lock.EnterRead();
-        ThrowIfDisposed();
-        if (queryCount > 0)
-        {
-            ThrowIfNotTrained();
-        }
-
-        BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, _count);
-        if (queryCount == 0 || _count == 0)
-        {
-            return results;
-        }
-
-        if (_readsExternally && _source is null && (run.RescoreDepth ?? _options.RescoreDepth) > 0)
-        {
-            SourceRows.ThrowNoSource();
-        }
-
-        BatchSearch.RunQueries(source, Dimension, results, QueryBlock, run, progress, cancellationToken, static () => 0, (q, slots, _) => SearchLocked(q, slots, run));
-        return results;
-    }
-
-    /// <summary>Frees the vector storage. Further calls throw <see cref="ObjectDisposedException"/>.</summary>
-    public void Dispose()
-    {
-        _lock.EnterWriteLock();
-        try
-        {
-            if (_disposed)
-            {
-                return;
-            }
-
-            _disposed = true;
-            _vectors?.Dispose();
-            _codes?.Dispose();
-            _slotOf.Clear();
-            _count = 0;
-            _used = 0;
-            Volatile.Write(ref _entry, -1L & 0xFFFFFFFFL);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
+        _vectors?.Dispose();
+        _codes?.Dispose();
+        _used = 0;
+        Volatile.Write(ref _entry, -1L & 0xFFFFFFFFL);
     }
 
     // Reserves slots for a validated batch, writes vectors (normalised under cosine; encoded under codes) and ids, and draws levels.
@@ -677,8 +534,8 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
         return (int)Math.Min(MaxLevel, Math.Floor(level));
     }
 
-    // Caller holds the read lock (or the write lock); q is validated and unit length under cosine.
-    private int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options)
+    /// <inheritdoc/>
+    private protected override int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options)
     {
         if (_count == 0)
         {
@@ -864,19 +721,4 @@ public sealed partial class GraphIndex : ITrainableIndex, IExternalFullVectors
 
     private object StripeOf(int slot) => _stripes[slot & (LockStripes - 1)];
 
-    private void ThrowIfNotTrained()
-    {
-        if (!IsTrained)
-        {
-            throw new IndexNotTrainedException("The graph index stores 8-bit codes and is not trained: call Train with a sample of at least one vector (a few thousand representative ones are plenty) before adding or searching.");
-        }
-    }
-
-    private void ThrowIfDisposed()
-    {
-        if (_disposed)
-        {
-            ThrowHelper.ThrowObjectDisposed(this);
-        }
-    }
 }

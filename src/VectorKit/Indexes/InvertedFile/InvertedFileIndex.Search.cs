@@ -12,32 +12,17 @@ public sealed partial class InvertedFileIndex
     // Entries scored per kernel call; their distances live in the scratch block.
     private const int ScanBlock = 256;
 
-    // Queries of a batch handed to one worker at a time.
-    private const int QueryBlock = 16;
 
     [ThreadStatic]
     private static SearchScratch? t_scratch;
 
     /// <inheritdoc/>
-    /// <remarks>
-    /// Probes <see cref="SearchOptions.SearchWidth"/> lists (default <see cref="InvertedFileOptions.SearchWidth"/>) and,
-    /// when full vectors are kept (in memory or in an attached source), re-scores <see cref="SearchOptions.RescoreDepth"/> candidates (default
-    /// <see cref="VectorIndexOptions.RescoreDepth"/>) exactly. Returns fewer than k hits only when the probed lists
-    /// hold fewer than k (passing) vectors.
-    /// </remarks>
-    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
+    private protected override int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options)
     {
-        VectorChecks.CheckResultDestination(destination);
         SearchScratch scratch = RentScratch();
         try
         {
-            ReadOnlySpan<float> q = VectorChecks.PrepareQuery(query, Dimension, Metric, scratch.Unit(Dimension));
-            using var read = _lock.EnterRead();
-            ThrowIfDisposed();
-            ThrowIfNotTrained();
-            return SearchLocked(q, destination, options ?? SearchOptions.Default, scratch);
+            return SearchLocked(q, destination, options, scratch);
         }
         finally
         {
@@ -46,38 +31,8 @@ public sealed partial class InvertedFileIndex
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
-    public BatchSearchResults SearchBatch(
-        ReadOnlySpan<float> queries,
-        int k,
-        SearchOptions? options = null,
-        IProgress<int>? progress = null,
-        CancellationToken cancellationToken = default)
-    {
-        ReadOnlySpan<float> source = BatchSearch.Prepare(queries, k, Dimension, Metric, out int queryCount);
-        SearchOptions run = options ?? SearchOptions.Default;
-        using var read = _lock.EnterRead();
-        ThrowIfDisposed();
-        if (queryCount > 0)
-        {
-            ThrowIfNotTrained();
-        }
-
-        BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, _count);
-        if (queryCount == 0 || _count == 0)
-        {
-            return results;
-        }
-
-        if (_options.Rescores && _full is null && _source is null && (run.RescoreDepth ?? _options.RescoreDepth) > 0)
-        {
-            SourceRows.ThrowNoSource();
-        }
-
-        BatchSearch.RunQueries(source, Dimension, results, QueryBlock, run, progress, cancellationToken, static () => new SearchScratch(), (q, slots, scratch) => SearchLocked(q, slots, run, scratch));
-        return results;
-    }
+    private protected override void SearchBatchLocked(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
+        => BatchSearch.RunQueries(queries, Dimension, results, QueryBlock, options, progress, cancellationToken, static () => new SearchScratch(), (q, slots, scratch) => SearchLocked(q, slots, options, scratch));
 
     // Caller holds the read lock; q is validated (unit length under cosine).
     private int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options, SearchScratch scratch)

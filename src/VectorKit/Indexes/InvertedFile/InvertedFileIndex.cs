@@ -30,7 +30,7 @@ namespace VectorKit.Indexes.InvertedFile;
 /// <para><b>Full vectors from a source.</b> With <see cref="VectorIndexOptions.FullVectors"/> set to
 /// <see cref="FullVectorLocation.ExternalSource"/>, the index keeps no full vectors: re-scoring reads each candidate's
 /// vector from the <see cref="IFullVectorSource"/> given at construction or attached later with
-/// <see cref="AttachFullVectors"/> (a loaded index has none until then; a search that would re-score without one
+/// <see cref="VectorIndex.AttachFullVectors"/> (a loaded index has none until then; a search that would re-score without one
 /// throws <see cref="InvalidOperationException"/>). Under cosine the rows read are normalised as the index normalises
 /// added vectors, so the results equal, bit for bit, those of the same index keeping the vectors in memory.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds
@@ -39,15 +39,13 @@ namespace VectorKit.Indexes.InvertedFile;
 /// centroids, the quantizer, the lists and the full vectors when kept in memory; an external source is neither saved
 /// nor disposed by the index: attach it again after loading).</para>
 /// </remarks>
-public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVectors
+public sealed partial class InvertedFileIndex : VectorIndex
 {
     // Bulk adds work in chunks so the temporary copies stay small next to the index.
     private const int AddChunk = 65_536;
 
-    private readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
     private readonly InvertedFileOptions _options;
     private readonly KernelPath _kernelPath;
-    private readonly IdMap _slotOf = new();
     private readonly int _codeBytes;
 
     // Trained state: centroids (ListCount × Dimension), and the residual quantizer under compressed storage.
@@ -70,9 +68,6 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     private int[] _listOf = [];
     private int[] _positionOf = [];
     private readonly VectorBuffer? _full;
-    private IFullVectorSource? _source;
-    private int _count;
-    private bool _disposed;
 
     /// <summary>Creates an empty, untrained inverted-file index.</summary>
     /// <param name="dimension">Components per vector, at least 1.</param>
@@ -109,21 +104,14 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
     // A loader hands over the full vectors it read (the buffer is then owned by the index).
     private InvertedFileIndex(int dimension, DistanceMetric metric, InvertedFileOptions? options, KernelPath kernelPath, VectorBuffer? loadedFull)
+        : base(dimension, metric)
     {
-        if (dimension <= 0)
-        {
-            ThrowHelper.ThrowArgumentOutOfRange(nameof(dimension), dimension, "must be positive");
-        }
-
-        VectorChecks.CheckMetric(metric);
         options ??= InvertedFileOptions.Default;
         if (options.Encoding == VectorEncoding.ProductCodes)
         {
             ProductQuantizer.CheckCodeBytes(options.ProductCodeBytes, dimension, nameof(options));
         }
 
-        Dimension = dimension;
-        Metric = metric;
         _options = options;
         _kernelPath = kernelPath;
         _codeBytes = options.Encoding switch
@@ -144,73 +132,37 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         }
     }
 
-    /// <inheritdoc/>
-    public int Dimension { get; }
-
-    /// <inheritdoc/>
-    public DistanceMetric Metric { get; }
-
     /// <summary>The options the index was created with.</summary>
     public InvertedFileOptions Options => _options;
 
+    /// <inheritdoc/>
+    private protected override VectorIndexOptions SharedOptions => _options;
+
+    /// <inheritdoc/>
+    private protected override string NotTrainedMessage
+        => $"The inverted-file index is not trained: call Train with a sample of at least {(_options.Encoding == VectorEncoding.ProductCodes ? Math.Max(_options.ListCount, ProductQuantizer.CodewordsPerSubspace) : _options.ListCount)} vectors before adding or searching.";
+
     /// <summary>Whether <see cref="Train"/> has run; adds and searches need it.</summary>
-    public bool IsTrained => Volatile.Read(ref _trained);
-
-    /// <summary>Whether the full float32 vectors are kept in the index's memory for exact re-scoring (compressed storage with a positive <see cref="VectorIndexOptions.RescoreDepth"/> and <see cref="FullVectorLocation.InIndexMemory"/>).</summary>
-    public bool KeepsFullVectors => _full is not null;
-
-    /// <inheritdoc/>
-    public bool ReadsFullVectorsExternally => _options.ReadsFullVectorsExternally;
-
-    /// <inheritdoc/>
-    public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
-
-    /// <inheritdoc/>
-    public void AttachFullVectors(IFullVectorSource source)
-    {
-        SourceRows.CheckAttach(source, Dimension, _options.ReadsFullVectorsExternally);
-        _lock.EnterWriteLock();
-        try
-        {
-            ThrowIfDisposed();
-            Volatile.Write(ref _source, source);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
-    }
+    public override bool IsTrained => Volatile.Read(ref _trained);
 
     /// <summary>
     /// Bytes a search reads per stored vector in the lists: 4 × dimension for float32, the code size for product
     /// codes, the dimension rounded up to 16 for 8-bit codes. Full vectors kept for re-scoring are not counted here
     /// (they are read only for the few candidates re-scored); <see cref="MemoryBytes"/> counts them.
     /// </summary>
-    public int CodeBytesPerVector => _codeBytes;
-
-    /// <inheritdoc/>
-    public int Count
-    {
-        get
-        {
-            ThrowIfDisposed();
-            return Volatile.Read(ref _count);
-        }
-    }
-
-    /// <inheritdoc/>
-    VectorIndexOptions IVectorIndex.Options => _options;
+    public override int CodeBytesPerVector => _codeBytes;
 
     /// <inheritdoc/>
     /// <remarks>List codes and slot numbers at their reserved capacity, per-slot id, list and position, the full vectors
     /// when kept, the centroids and codebooks (and a product-code rotation with the rotated centroids), and the id lookup's entries (about 28 bytes each).</remarks>
-    public long MemoryBytes
+    public override long MemoryBytes
     {
         get
         {
             _lock.EnterReadLock();
             try
             {
+                ThrowIfDisposed();
                 long bytes = (long)_centroids.Length * sizeof(float);
                 for (int l = 0; l < _listCodes.Length; l++)
                 {
@@ -233,7 +185,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     }
 
     /// <summary>A copy of the list centroids, row after row (empty until trained).</summary>
-    /// <returns>A new array of <see cref="InvertedFileOptions.ListCount"/> × <see cref="Dimension"/> components.</returns>
+    /// <returns>A new array of <see cref="InvertedFileOptions.ListCount"/> × <see cref="VectorIndex.Dimension"/> components.</returns>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public float[] GetCentroids()
     {
@@ -253,7 +205,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     /// <exception cref="InvalidOperationException">The index already holds vectors; their codes depend on the current training.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
+    public override void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
     {
         int d = Dimension;
         if (sample.Length % d != 0)
@@ -333,18 +285,10 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     }
 
     /// <inheritdoc/>
-    public bool Contains(long id)
-    {
-        using LockScopes.ReadScope read = _lock.EnterRead();
-        ThrowIfDisposed();
-        return _slotOf.ContainsKey(id);
-    }
-
-    /// <inheritdoc/>
     /// <remarks>Under compressed storage the full vector when the index keeps it or a source is attached (unit length under
     /// cosine), otherwise the reconstruction (centroid + decoded residual), not the vector added.</remarks>
     /// <exception cref="InvalidOperationException">An attached source has no vector for an id the index holds.</exception>
-    public bool TryGetVector(long id, Span<float> destination)
+    public override bool TryGetVector(long id, Span<float> destination)
     {
         VectorChecks.CheckVectorDestination(destination, Dimension);
 
@@ -399,47 +343,28 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public void Add(long id, ReadOnlySpan<float> vector)
-    {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
-        AddRange([id], vector);
-    }
-
-    /// <inheritdoc/>
     /// <remarks>
     /// Rows are assigned to their lists (in parallel), then encoded and appended, all under the write lock; the token is
     /// checked during the assignment, before anything is written.
     /// </remarks>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    public override void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
         Write(ids, vectors, replace: false, progress, cancellationToken);
     }
 
     /// <inheritdoc/>
-    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public bool AddOrReplace(long id, ReadOnlySpan<float> vector)
-    {
-        VectorChecks.CheckForAdd(vector, Dimension, Metric);
-        return AddOrReplaceRange([id], vector) == 1;
-    }
-
-    /// <inheritdoc/>
     /// <remarks>A replaced item leaves its old list and joins the list of its new vector's nearest centroid.</remarks>
     /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    public override int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
         return Write(ids, vectors, replace: true, progress, cancellationToken);
     }
 
     /// <inheritdoc/>
-    public void Remove(long id) => RemoveRange([id]);
-
-    /// <inheritdoc/>
-    public void RemoveRange(ReadOnlySpan<long> ids)
+    public override void RemoveRange(ReadOnlySpan<long> ids)
     {
         VectorChecks.CheckUniqueIds(ids);
         using var write = _lock.EnterWrite();
@@ -453,7 +378,7 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
 
     /// <inheritdoc/>
     /// <remarks>Removed entries leave no holes in the lists, so this releases the storage reserved beyond the vectors held (list growth slack, slot arrays, id lookup).</remarks>
-    public void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    public override void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         using var write = _lock.EnterWrite();
         ThrowIfDisposed();
@@ -518,32 +443,15 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         }
     }
 
-    /// <summary>Frees the storage. Further calls throw <see cref="ObjectDisposedException"/>.</summary>
-    public void Dispose()
+    /// <inheritdoc/>
+    private protected override void ReleaseStorage()
     {
-        _lock.EnterWriteLock();
-        try
+        _full?.Dispose();
+        for (int l = 0; l < _listCodes.Length; l++)
         {
-            if (_disposed)
-            {
-                return;
-            }
-
-            _disposed = true;
-            _full?.Dispose();
-            _slotOf.Clear();
-            for (int l = 0; l < _listCodes.Length; l++)
-            {
-                _listCodes[l] = [];
-                _listSlots[l] = [];
-                _listCounts[l] = 0;
-            }
-
-            _count = 0;
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
+            _listCodes[l] = [];
+            _listSlots[l] = [];
+            _listCounts[l] = 0;
         }
     }
 
@@ -808,22 +716,6 @@ public sealed partial class InvertedFileIndex : ITrainableIndex, IExternalFullVe
         return rotated;
     }
 
-    private void ThrowIfDisposed()
-    {
-        if (_disposed)
-        {
-            ThrowHelper.ThrowObjectDisposed(this);
-        }
-    }
-
-    private void ThrowIfNotTrained()
-    {
-        if (!_trained)
-        {
-            int minimum = _options.Encoding == VectorEncoding.ProductCodes ? Math.Max(_options.ListCount, ProductQuantizer.CodewordsPerSubspace) : _options.ListCount;
-            throw new IndexNotTrainedException($"The inverted-file index is not trained: call Train with a sample of at least {minimum} vectors before adding or searching.");
-        }
-    }
 
     private sealed class KMeansForward(IProgress<IndexTrainingProgress> target) : IProgress<KMeansProgress>
     {

@@ -40,7 +40,7 @@ internal sealed class InvertedFileIndexParts
     /// <summary>Per list its codes: at least <c>length × code bytes</c> bytes (exactly that many after a load).</summary>
     public required byte[][] ListCodes { get; init; }
 
-    /// <summary><see cref="Count"/> ids in list order.</summary>
+    /// <summary><see cref="VectorIndex.Count"/> ids in list order.</summary>
     public required long[] Ids { get; init; }
 
     /// <summary>The full vectors when kept (unit length under cosine), else <see langword="null"/>.</summary>

@@ -15,6 +15,8 @@ public sealed class GraphFloat32Contract : IndexContractTests
 
     protected override bool CompactRebuilds => true;
 
+    protected override bool CancelledWriteRestoresLinks => false;
+
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = 256 };
 
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)

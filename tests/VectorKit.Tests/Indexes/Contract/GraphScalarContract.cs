@@ -22,6 +22,8 @@ public sealed class GraphScalarContract : IndexContractTests
 
     protected override bool CompactRebuilds => true;
 
+    protected override bool CancelledWriteRestoresLinks => false;
+
     protected override SearchOptions WideSearch { get; } = new() { SearchWidth = 256 };
 
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)

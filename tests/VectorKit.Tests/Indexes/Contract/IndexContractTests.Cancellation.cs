@@ -67,7 +67,8 @@ public abstract partial class IndexContractTests
         {
             using Filled filled = Fill(DistanceMetric.SquaredEuclidean, Preloaded);
             float[] queries = Queries(3);
-            string before = Snapshot(filled.Index, queries);
+            float[] compared = CancelledWriteRestoresLinks ? queries : [];
+            string before = Snapshot(filled.Index, compared);
 
             // Every preloaded id gets a new vector, and a batch of new ids comes with them.
             (long[] newIds, float[] newRows) = Batch();
@@ -88,7 +89,7 @@ public abstract partial class IndexContractTests
             bool completed = TryWrite(() => replaced = AddOrReplaceRange(filled.Index, ids, rows, progress, cancel.Token));
             if (!completed)
             {
-                Assert.Equal(before, Snapshot(filled.Index, queries));
+                Assert.Equal(before, Snapshot(filled.Index, compared));
                 Assert.Equal(Preloaded, AddOrReplaceRange(filled.Index, ids, rows));
             }
             else

@@ -50,6 +50,13 @@ public abstract partial class IndexContractTests
     /// <summary>Whether <see cref="IVectorIndex.Compact"/> rebuilds the search structure (so approximate answers may change).</summary>
     protected virtual bool CompactRebuilds => false;
 
+    /// <summary>
+    /// Whether a cancelled write restores the search structure too, so approximate searches return what they returned
+    /// before. The graph links new items into existing lists and repairs them when it takes the items out again, so its
+    /// items and vectors are restored but its links (and thus an approximate search's answer) may differ.
+    /// </summary>
+    protected virtual bool CancelledWriteRestoresLinks => true;
+
     /// <summary>Search options that make the variant search (nearly) everything: every list, or a very wide beam.</summary>
     protected virtual SearchOptions WideSearch => SearchOptions.Default;
 

@@ -1,0 +1,246 @@
+using VectorKit.Distance;
+using VectorKit.Internal;
+
+namespace VectorKit.Indexes;
+
+/// <summary>
+/// The core every built-in index kind (exact, graph, inverted file) stands on: the lock, the id map, disposal, input
+/// checks and query preparation, the batch driver, and attaching an external full-vector source. A kind supplies its
+/// storage and its search; the members here behave the same on every kind.
+/// </summary>
+/// <remarks>
+/// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; writes take the
+/// index's write lock, so a search sees each write entirely or not at all (each kind documents any step it runs beside
+/// searches). A batch search holds the read lock for its duration.</para>
+/// <para><b>Disposal.</b> After <see cref="Dispose"/>, every member but <see cref="Dimension"/>, <see cref="Metric"/>,
+/// <see cref="IVectorIndex.Options"/>, <see cref="CodeBytesPerVector"/> and <see cref="Dispose"/> throws
+/// <see cref="ObjectDisposedException"/>.</para>
+/// <para>Only the library derives from this class.</para>
+/// </remarks>
+public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
+{
+    // Queries of a batch handed to one worker at a time, unless a kind batches otherwise.
+    private protected const int QueryBlock = 16;
+
+    private protected readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
+    private protected IdMap _slotOf = new();
+    private protected IFullVectorSource? _source;
+    private protected int _count;
+    private volatile bool _disposed;
+
+    private protected VectorIndex(int dimension, DistanceMetric metric)
+    {
+        if (dimension <= 0)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(nameof(dimension), dimension, "must be positive");
+        }
+
+        VectorChecks.CheckMetric(metric);
+        Dimension = dimension;
+        Metric = metric;
+    }
+
+    /// <inheritdoc/>
+    public int Dimension { get; }
+
+    /// <inheritdoc/>
+    public DistanceMetric Metric { get; }
+
+    /// <inheritdoc/>
+    VectorIndexOptions IVectorIndex.Options => SharedOptions;
+
+    /// <inheritdoc/>
+    public int Count
+    {
+        get
+        {
+            ThrowIfDisposed();
+            return Volatile.Read(ref _count);
+        }
+    }
+
+    /// <inheritdoc/>
+    public abstract long MemoryBytes { get; }
+
+    /// <inheritdoc/>
+    public abstract int CodeBytesPerVector { get; }
+
+    /// <inheritdoc/>
+    public abstract bool IsTrained { get; }
+
+    /// <summary>
+    /// Whether full float32 vectors are kept in the index's memory beside compressed codes for exact re-scoring (a
+    /// compressed <see cref="VectorIndexOptions.Encoding"/>, a positive <see cref="VectorIndexOptions.RescoreDepth"/> and
+    /// <see cref="VectorIndexOptions.FullVectors"/> = <see cref="FullVectorLocation.InIndexMemory"/>). Under float32 the
+    /// stored rows are the full vectors and this is <see langword="false"/>.
+    /// </summary>
+    public bool KeepsFullVectors => SharedOptions.KeepsFullVectorsInMemory;
+
+    /// <inheritdoc/>
+    public bool ReadsFullVectorsExternally => SharedOptions.ReadsFullVectorsExternally;
+
+    /// <inheritdoc/>
+    public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
+
+    /// <summary>The kind's options, for the shared members.</summary>
+    private protected abstract VectorIndexOptions SharedOptions { get; }
+
+    /// <summary>What a caller must do before adding to or searching an untrained index of this kind.</summary>
+    private protected abstract string NotTrainedMessage { get; }
+
+    /// <inheritdoc/>
+    public void AttachFullVectors(IFullVectorSource source)
+    {
+        SourceRows.CheckAttach(source, Dimension, ReadsFullVectorsExternally);
+        using var write = _lock.EnterWrite();
+        ThrowIfDisposed();
+        Volatile.Write(ref _source, source);
+    }
+
+    /// <inheritdoc/>
+    public abstract void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default);
+
+    /// <inheritdoc/>
+    public bool Contains(long id)
+    {
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        return _slotOf.ContainsKey(id);
+    }
+
+    /// <inheritdoc/>
+    public long[] GetIds()
+    {
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        return _slotOf.SortedIds();
+    }
+
+    /// <inheritdoc/>
+    public abstract bool TryGetVector(long id, Span<float> destination);
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    public void Add(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        AddRange([id], vector);
+    }
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    public abstract void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default);
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    public bool AddOrReplace(long id, ReadOnlySpan<float> vector)
+    {
+        VectorChecks.CheckForAdd(vector, Dimension, Metric);
+        return AddOrReplaceRange([id], vector) == 1;
+    }
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    public abstract int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default);
+
+    /// <inheritdoc/>
+    public void Remove(long id) => RemoveRange([id]);
+
+    /// <inheritdoc/>
+    public abstract void RemoveRange(ReadOnlySpan<long> ids);
+
+    /// <inheritdoc/>
+    public abstract void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default);
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
+    public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
+    {
+        VectorChecks.CheckResultDestination(destination);
+        using var unit = ScratchRental<float>.Rent(Metric == DistanceMetric.Cosine ? Dimension : 0);
+        ReadOnlySpan<float> q = VectorChecks.PrepareQuery(query, Dimension, Metric, unit.Span);
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        ThrowIfNotTrained();
+        return _count == 0 ? 0 : SearchLocked(q, destination, options ?? SearchOptions.Default);
+    }
+
+    /// <inheritdoc/>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
+    public BatchSearchResults SearchBatch(
+        ReadOnlySpan<float> queries,
+        int k,
+        SearchOptions? options = null,
+        IProgress<int>? progress = null,
+        CancellationToken cancellationToken = default)
+    {
+        ReadOnlySpan<float> prepared = BatchSearch.Prepare(queries, k, Dimension, Metric, out int queryCount);
+        SearchOptions run = options ?? SearchOptions.Default;
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        if (queryCount > 0)
+        {
+            ThrowIfNotTrained();
+        }
+
+        BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, _count);
+        if (queryCount == 0 || _count == 0)
+        {
+            return results;
+        }
+
+        if (ReadsFullVectorsExternally && _source is null && (run.RescoreDepth ?? SharedOptions.RescoreDepth) > 0)
+        {
+            SourceRows.ThrowNoSource();
+        }
+
+        SearchBatchLocked(prepared, results, run, progress, cancellationToken);
+        return results;
+    }
+
+    /// <summary>Frees the index's storage. Further calls throw <see cref="ObjectDisposedException"/>; a second call does nothing.</summary>
+    public void Dispose()
+    {
+        using var write = _lock.EnterWrite();
+        if (_disposed)
+        {
+            return;
+        }
+
+        _disposed = true;
+        ReleaseStorage();
+        _slotOf.Clear();
+        _count = 0;
+    }
+
+    /// <summary>One search; the caller holds the read lock, the index is trained and not empty, and q is prepared.</summary>
+    private protected abstract int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options);
+
+    /// <summary>A batch of prepared queries, under the read lock; by default each query runs <see cref="SearchLocked"/>, blocks of queries in parallel.</summary>
+    private protected virtual void SearchBatchLocked(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
+        => BatchSearch.RunQueries(queries, Dimension, results, QueryBlock, options, progress, cancellationToken, static () => 0, (q, slots, _) => SearchLocked(q, slots, options));
+
+    /// <summary>Frees the kind's storage; the caller holds the write lock, once.</summary>
+    private protected abstract void ReleaseStorage();
+
+    private protected void ThrowIfDisposed()
+    {
+        if (_disposed)
+        {
+            ThrowHelper.ThrowObjectDisposed(this);
+        }
+    }
+
+    private protected void ThrowIfNotTrained()
+    {
+        if (!IsTrained)
+        {
+            throw new IndexNotTrainedException(NotTrainedMessage);
+        }
+    }
+
+    /// <summary>Whether <see cref="Dispose"/> has run (for a kind's own steps that end quietly on a disposed index).</summary>
+    private protected bool IsDisposed => _disposed;
+}
