@@ -60,7 +60,15 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    public abstract long MemoryBytes { get; }
+    public long MemoryBytes
+    {
+        get
+        {
+            using var read = _lock.EnterRead();
+            ThrowIfDisposed();
+            return MemoryBytesLocked();
+        }
+    }
 
     /// <inheritdoc/>
     public abstract int CodeBytesPerVector { get; }
@@ -117,7 +125,34 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
-    public abstract bool TryGetVector(long id, Span<float> destination);
+    /// <remarks>
+    /// Under cosine the stored vector is the unit-length one. Under a compressed encoding without full vectors this is
+    /// the decoded code, an approximation of the vector added. With an attached external source it is the source's
+    /// vector (unit length under cosine, as an index keeping it stores it).
+    /// </remarks>
+    /// <exception cref="InvalidOperationException">The attached source lacks the vector of an id the index holds.</exception>
+    public bool TryGetVector(long id, Span<float> destination)
+    {
+        VectorChecks.CheckVectorDestination(destination, Dimension);
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        if (!_slotOf.TryGetValue(id, out int slot))
+        {
+            return false;
+        }
+
+        if (_source is { } source)
+        {
+            // Attached only when the full vectors live outside the index.
+            new SourceRows(source, Dimension, Metric == DistanceMetric.Cosine).CopyTo(id, destination);
+        }
+        else
+        {
+            CopyStoredLocked(slot, destination);
+        }
+
+        return true;
+    }
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
@@ -129,7 +164,15 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
-    public abstract void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default);
+    public void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    {
+        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
+        cancellationToken.ThrowIfCancellationRequested();
+        if (!ids.IsEmpty)
+        {
+            WriteBatch(ids, vectors, replace: false, progress, cancellationToken);
+        }
+    }
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
@@ -141,13 +184,30 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
 
     /// <inheritdoc/>
     /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
-    public abstract int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default);
+    public int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    {
+        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
+        cancellationToken.ThrowIfCancellationRequested();
+        return ids.IsEmpty ? 0 : WriteBatch(ids, vectors, replace: true, progress, cancellationToken);
+    }
 
     /// <inheritdoc/>
     public void Remove(long id) => RemoveRange([id]);
 
     /// <inheritdoc/>
-    public abstract void RemoveRange(ReadOnlySpan<long> ids);
+    public void RemoveRange(ReadOnlySpan<long> ids)
+    {
+        VectorChecks.CheckUniqueIds(ids);
+        if (ids.IsEmpty)
+        {
+            return;
+        }
+
+        using var write = _lock.EnterWrite();
+        ThrowIfDisposed();
+        _slotOf.CheckPresent(ids);
+        RemoveLocked(ids);
+    }
 
     /// <inheritdoc/>
     public abstract void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default);
@@ -214,6 +274,21 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         _slotOf.Clear();
         _count = 0;
     }
+
+    /// <summary>Bytes held (the kind's <see cref="MemoryBytes"/>), under the read lock.</summary>
+    private protected abstract long MemoryBytesLocked();
+
+    /// <summary>Copies the vector stored in <paramref name="slot"/> (no external source attached), under the read lock.</summary>
+    private protected abstract void CopyStoredLocked(int slot, Span<float> destination);
+
+    /// <summary>
+    /// Writes a validated, non-empty batch (with <paramref name="replace"/>, ids present get new vectors); all or
+    /// nothing, cancellable as the kind documents. Takes the lock itself. Returns how many ids were replaced.
+    /// </summary>
+    private protected abstract int WriteBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken);
+
+    /// <summary>Removes ids that are all present and distinct, under the write lock.</summary>
+    private protected abstract void RemoveLocked(ReadOnlySpan<long> ids);
 
     /// <summary>One search; the caller holds the read lock, the index is trained and not empty, and q is prepared.</summary>
     private protected abstract int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options);

@@ -130,79 +130,28 @@ public sealed partial class ExactIndex : VectorIndex
     /// </summary>
     public override bool IsTrained => _codes is null || Volatile.Read(ref _scalar) is not null;
 
-    /// <inheritdoc/>
-    /// <remarks>Vectors (and 8-bit codes) at their reserved capacity, ids, norms, the code ranges, and the id lookup's
-    /// entries (about 28 bytes each).</remarks>
-    public override long MemoryBytes
+    // Vectors (and 8-bit codes) at their reserved capacity, ids, norms, the code ranges, and the id lookup.
+    private protected override long MemoryBytesLocked()
+        => _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
+            + _slotOf.Bytes + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
+
+    // The row, or under 8-bit storage without full vectors the decoded code (each component within half a quantization
+    // step of the vector added when inside the trained range, clamped to the range otherwise).
+    private protected override void CopyStoredLocked(int slot, Span<float> destination)
     {
-        get
+        if (_keepsVectors)
         {
-            _lock.EnterReadLock();
-            try
-            {
-                ThrowIfDisposed();
-                return _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
-                    + _slotOf.Bytes + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
-            }
-            finally
-            {
-                _lock.ExitReadLock();
-            }
+            _vectors.RowSpan(slot).CopyTo(destination);
+        }
+        else
+        {
+            _scalar!.Decode(_codes!.RowSpan(slot), destination);
         }
     }
 
-    /// <inheritdoc/>
-    /// <remarks>
-    /// Under 8-bit storage without full vectors this is the decoded code, an approximation of the vector added (each
-    /// component within half a quantization step when inside the trained range, clamped to the range otherwise). With
-    /// an attached external source it is the source's vector (unit length under cosine, as an index keeping it stores it).
-    /// </remarks>
-    /// <exception cref="InvalidOperationException">The attached source lacks the vector of an id the index holds.</exception>
-    public override bool TryGetVector(long id, Span<float> destination)
+    // Each removed row is filled with the last row, so the scanned range stays dense.
+    private protected override void RemoveLocked(ReadOnlySpan<long> ids)
     {
-        VectorChecks.CheckVectorDestination(destination, Dimension);
-
-        using LockScopes.ReadScope read = _lock.EnterRead();
-        ThrowIfDisposed();
-        if (_source is { } source && !_keepsVectors)
-        {
-            if (!_slotOf.ContainsKey(id))
-            {
-                return false;
-            }
-
-            new SourceRows(source, Dimension, Metric == DistanceMetric.Cosine).CopyTo(id, destination);
-            return true;
-        }
-
-        if (!_keepsVectors)
-        {
-            return TryDecode(id, destination);
-        }
-
-        return IdLookup.TryCopyRow(_slotOf, _vectors, id, destination);
-    }
-
-    /// <inheritdoc/>
-    /// <remarks>The rows are copied under the write lock in one step; the token is checked before it.</remarks>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public override void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
-        => Write(ids, vectors, replace: false, progress, cancellationToken);
-
-    /// <inheritdoc/>
-    /// <remarks>A replaced vector is overwritten in its row under the write lock; searches wait for the whole batch.</remarks>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public override int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
-        => Write(ids, vectors, replace: true, progress, cancellationToken);
-
-    /// <inheritdoc/>
-    /// <remarks>Each removed row is filled with the last row, so the scanned range stays dense.</remarks>
-    public override void RemoveRange(ReadOnlySpan<long> ids)
-    {
-        VectorChecks.CheckUniqueIds(ids);
-        using var write = _lock.EnterWrite();
-        ThrowIfDisposed();
-        _slotOf.CheckPresent(ids);
         foreach (long id in ids)
         {
             _slotOf.Remove(id, out int slot);
@@ -255,12 +204,10 @@ public sealed partial class ExactIndex : VectorIndex
         progress?.Report(_count);
     }
 
-    // Adds (and with `replace`, overwrites) a validated batch under the write lock, in one step: nothing is written
-    // unless every row and id passed. Returns how many ids were replaced.
-    private int Write(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
+    // Adds (and with `replace`, overwrites in place) a batch under the write lock, in one step: the rows are copied
+    // after the token's last check, so the batch is all or nothing.
+    private protected override int WriteBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
     {
-        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
-        cancellationToken.ThrowIfCancellationRequested();
         int replaced = 0;
         using (_lock.EnterWrite())
         {

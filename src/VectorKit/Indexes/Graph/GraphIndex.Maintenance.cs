@@ -6,59 +6,18 @@ namespace VectorKit.Indexes.Graph;
 /// <summary>Removal with neighbour repair, compaction, and the structural checks tests use.</summary>
 public sealed partial class GraphIndex
 {
-    /// <summary>Removes many items at once.</summary>
-    /// <param name="ids">Ids present in the index, no repeats.</param>
-    /// <remarks>
-    /// <para>The items are hidden from results at once. Every list (on every layer) that linked to a removed item is
-    /// chosen again by the neighbour-selection heuristic from its remaining links and the removed items' own links
-    /// (and, through removed items, their links' links), so the graph stays navigable and no live node links to a
-    /// removed one. A node left without any in-link on the bottom layer is linked again from a node near it. The
-    /// vectors keep their space until <see cref="Compact"/>. Removing the entry point promotes a live node of the
-    /// highest remaining level.</para>
-    /// <para>Cost: local. The lists naming a removed item are found by walking near it until as many have been found
-    /// as its in-degree says exist (a scan of that layer's lists is the fallback, rarely needed), so a removal costs a
-    /// few thousand list reads and one neighbour selection per repaired list, whatever the size of the index. The
-    /// global reachability pass described on <see cref="GraphIndex"/> runs only when enough changes have accumulated.
-    /// Exclusive: waits for running searches and adds.</para>
-    /// <para>Validation is all or nothing: nothing is removed when an id is missing or repeated.</para>
-    /// </remarks>
-    /// <exception cref="ArgumentException">An id appears more than once.</exception>
-    /// <exception cref="KeyNotFoundException">An id is not in the index.</exception>
-    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public override void RemoveRange(ReadOnlySpan<long> ids)
+    // Hides the items at once, then re-chooses every list that linked to them (found by a short walk near each, bounded
+    // by its in-degree) from the remaining links and the removed items' own; see the class remarks, Removal.
+    private protected override void RemoveLocked(ReadOnlySpan<long> ids)
     {
-        VectorChecks.CheckUniqueIds(ids);
-
-        if (ids.IsEmpty)
+        int[] slots = new int[ids.Length];
+        for (int i = 0; i < ids.Length; i++)
         {
-            return;
+            _slotOf.Remove(ids[i], out slots[i]);
         }
 
-        _lock.EnterWriteLock();
-        try
-        {
-            ThrowIfDisposed();
-            foreach (long id in ids)
-            {
-                if (!_slotOf.ContainsKey(id))
-                {
-                    ThrowHelper.ThrowIdNotFound(id);
-                }
-            }
-
-            int[] slots = new int[ids.Length];
-            for (int i = 0; i < ids.Length; i++)
-            {
-                _slotOf.Remove(ids[i], out slots[i]);
-            }
-
-            RetireLocked(slots);
-            FinishLocked(slots, 0, 0, forceFullPass: false);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
+        RetireLocked(slots);
+        FinishLocked(slots, 0, 0, forceFullPass: false);
     }
 
     // Caller holds the write lock and has taken the slots' ids out of the map: hides the slots from results (their

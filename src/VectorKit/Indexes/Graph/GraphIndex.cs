@@ -18,7 +18,7 @@ namespace VectorKit.Indexes.Graph;
 /// nearer to the new item than to every neighbour already kept. Links are bidirectional; a list that outgrows its
 /// limit is pruned by the same heuristic.</para>
 /// <para><b>Storage.</b> Vectors sit in one contiguous native block as in the exact index; links in flat int arrays
-/// (see <see cref="MemoryBytes"/>). Under <see cref="VectorEncoding.Scalar8Bit"/> (<see cref="VectorIndexOptions.Encoding"/>)
+/// (see <see cref="VectorIndex.MemoryBytes"/>). Under <see cref="VectorEncoding.Scalar8Bit"/> (<see cref="VectorIndexOptions.Encoding"/>)
 /// the block holds one 8-bit code per vector instead (a quarter of the bytes; <see cref="Train"/> learns the ranges
 /// first), and every distance the graph computes (walks, neighbour selection, removal repair, re-linking, the
 /// filtered scan, <see cref="Compact"/>) is computed on the codes: a query against a code on the SIMD byte-code
@@ -58,12 +58,19 @@ namespace VectorKit.Indexes.Graph;
 /// <c>O(items × bottom links)</c> reads, is thus spread over many changes, and each single add or removal costs a
 /// local amount of work. Between passes a cut-off group is possible in principle; the tests count how many the pass
 /// finds.</para>
+/// <para><b>Writes.</b> <see cref="VectorIndex.AddRange"/> stores the new vectors in a short exclusive step, then links
+/// them in parallel (<see cref="GraphIndexOptions.MaxDegreeOfParallelism"/> threads) while searches proceed: a concurrent
+/// search may see some items of the batch before it completes. A cancelled batch takes its items out again (the lists
+/// that linked to them are repaired as by <see cref="VectorIndex.RemoveRange"/>), so none of it remains and a retry
+/// succeeds; the links of other items may differ from before. <see cref="VectorIndex.AddOrReplaceRange"/> is exclusive
+/// from start to end: new vectors are linked as new nodes, then each replaced id moves to its new node in one step and
+/// its old node is removed with repair, so a search sees the old vector or the new one.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with the
-/// linking phase of <see cref="VectorIndex.Add"/> and <see cref="AddRange"/>: an add
+/// linking phase of <see cref="VectorIndex.Add"/> and <see cref="VectorIndex.AddRange"/>: an add
 /// first waits for running searches while it stores the vectors (a short exclusive step), then links the new items
 /// while searches proceed; a concurrent search may or may not see an item being linked, and never sees a removed one.
 /// Several adds may link at once (per-node locks). The short repair step at the end of an add (attaching nodes left
-/// without in-links, and the global pass when it is due), <see cref="VectorIndex.Remove"/>, <see cref="RemoveRange"/>,
+/// without in-links, and the global pass when it is due), <see cref="VectorIndex.Remove"/>, <see cref="VectorIndex.RemoveRange"/>,
 /// <see cref="Compact"/> and <see cref="VectorIndex.Dispose"/> are exclusive: they wait for running searches and adds.</para>
 /// </remarks>
 public sealed partial class GraphIndex : VectorIndex
@@ -193,7 +200,7 @@ public sealed partial class GraphIndex : VectorIndex
     /// <summary>
     /// Bytes a graph walk reads per stored vector: <c>4 × dimension</c> for float32, the dimension rounded up to a
     /// multiple of 16 for 8-bit codes. Full vectors kept for re-scoring are not counted (a search reads them only for
-    /// the re-scored candidates); <see cref="MemoryBytes"/> counts them.
+    /// the re-scored candidates); <see cref="VectorIndex.MemoryBytes"/> counts them.
     /// </summary>
     public override int CodeBytesPerVector => _codes?.Dimension ?? Dimension * sizeof(float);
 
@@ -249,92 +256,34 @@ public sealed partial class GraphIndex : VectorIndex
     /// <summary>Decoded-row places an operation may use (see <see cref="GraphScratch.DecodePlace"/>).</summary>
     internal int DecodePlaces => KeptPlace + _links.MaxLimit + 1;
 
-    /// <inheritdoc/>
-    /// <remarks>
-    /// Vectors (or 8-bit codes, plus the full vectors when kept in memory, plus the trained ranges) at their reserved capacity,
-    /// ids, the link arrays (bottom layer: <c>4 × (bottom links + 1)</c> bytes per slot; upper layers only for nodes
-    /// that have them), per-slot level and removal flags, and the id lookup (about 28 bytes per entry). Removed items
-    /// keep their space until <see cref="Compact"/>. An attached external source is not counted (the index does not own it).
-    /// </remarks>
-    public override long MemoryBytes
-    {
-        get
-        {
-            _lock.EnterReadLock();
-            try
-            {
-                ThrowIfDisposed();
-                long rows = (_vectors?.Bytes ?? 0) + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
-                return rows + _links.Bytes + ((long)_ids.Length * sizeof(long)) + _removed.Length + _slotOf.Bytes;
-            }
-            finally
-            {
-                _lock.ExitReadLock();
-            }
-        }
-    }
+    // Vectors (or 8-bit codes, plus the full vectors when kept in memory, plus the trained ranges) at their reserved
+    // capacity, ids, the link arrays, per-slot level and removal flags, and the id lookup. Removed items keep their space
+    // until Compact; an attached external source is not counted (the index does not own it).
+    private protected override long MemoryBytesLocked()
+        => (_vectors?.Bytes ?? 0) + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float))
+            + _links.Bytes + ((long)_ids.Length * sizeof(long)) + _removed.Length + _slotOf.Bytes;
 
-    /// <inheritdoc/>
-    /// <remarks>
-    /// Under cosine the stored vector is the unit-length one. Under 8-bit storage without full vectors this is the
-    /// decoded code, an approximation (each component within half a quantization step of the vector added, when it
-    /// lay in the trained range). With an attached external source it is the source's vector (unit length under cosine,
-    /// as an index keeping it stores it).
-    /// </remarks>
-    /// <exception cref="InvalidOperationException">The attached source lacks the vector of an id the index holds.</exception>
-    public override bool TryGetVector(long id, Span<float> destination)
+    // The float row, or under 8-bit storage without full vectors the decoded code.
+    private protected override void CopyStoredLocked(int slot, Span<float> destination)
     {
-        VectorChecks.CheckVectorDestination(destination, Dimension);
-
-        using LockScopes.ReadScope read = _lock.EnterRead();
-        ThrowIfDisposed();
         if (_vectors is not null)
         {
-            return IdLookup.TryCopyRow(_slotOf, _vectors, id, destination);
+            _vectors.RowSpan(slot).CopyTo(destination);
         }
-
-        if (!_slotOf.TryGetValue(id, out int slot))
+        else
         {
-            return false;
+            _scalar!.Decode(_codes!.RowSpan(slot), destination);
         }
-
-        if (_source is { } source)
-        {
-            new SourceRows(source, Dimension, Metric == DistanceMetric.Cosine).CopyTo(id, destination);
-            return true;
-        }
-
-        _scalar!.Decode(_codes!.RowSpan(slot), destination);
-        return true;
     }
 
-    /// <summary>Adds many vectors, linking them in parallel (<see cref="GraphIndexOptions.MaxDegreeOfParallelism"/> threads); all or nothing.</summary>
-    /// <param name="ids">One id per vector, none already present and no repeats.</param>
-    /// <param name="vectors">The vectors, row after row: <c>ids.Length × Dimension</c> components.</param>
-    /// <param name="progress">Optional; receives the number of vectors linked so far, from worker threads.</param>
-    /// <param name="cancellationToken">
-    /// Stops the linking. The items of the batch are then taken out again (the lists that linked to them are repaired,
-    /// as by <see cref="RemoveRange"/>), so the index holds none of them and a retry of the same batch succeeds. A
-    /// token cancelled before the call adds nothing.
-    /// </param>
-    /// <remarks>
-    /// The vectors are stored in a short exclusive step, then linked while searches proceed: a concurrent search may see
-    /// some items of the batch before the batch completes (and, when it is cancelled, before they are taken out again).
-    /// </remarks>
-    /// <exception cref="ArgumentException">Lengths disagree, a component is not finite, a zero vector under cosine, or an id repeats or exists.</exception>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    /// <exception cref="OperationCanceledException">The token was cancelled; nothing of the batch remains.</exception>
-    /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
-    public override void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    // New ids are linked beside searches; a replace batch is exclusive (see the class remarks, Writes).
+    private protected override int WriteBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
+        => replace ? ReplaceBatch(ids, vectors, progress, cancellationToken) : AddBatch(ids, vectors, progress, cancellationToken);
+
+    // New ids only: stored in a short exclusive step, linked beside searches, taken out again when cancelled.
+    private int AddBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int n = ids.Length;
-        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
-        cancellationToken.ThrowIfCancellationRequested();
-        if (n == 0)
-        {
-            return;
-        }
-
         int first;
         using (_lock.EnterWrite())
         {
@@ -357,25 +306,14 @@ public sealed partial class GraphIndex : VectorIndex
         }
 
         FinishAdd(first, n);
+        return 0;
     }
 
-    /// <inheritdoc/>
-    /// <remarks>
-    /// Exclusive from start to end (searches wait): the new vectors are stored and linked as new nodes, then each replaced
-    /// id moves to its new node in one step and its old node is removed with repair, as by <see cref="RemoveRange"/>.
-    /// A cancelled batch takes its new nodes out again and leaves the old ones in place.
-    /// </remarks>
-    /// <exception cref="IndexNotTrainedException">Under 8-bit encoding, <see cref="Train"/> has not run.</exception>
-    public override int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    // Exclusive: the new vectors are stored and linked as new nodes, then each replaced id moves to its new node in one
+    // step and its old node is retired with repair; a cancelled batch takes the new nodes out again.
+    private int ReplaceBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int n = ids.Length;
-        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
-        cancellationToken.ThrowIfCancellationRequested();
-        if (n == 0)
-        {
-            return 0;
-        }
-
         using var write = _lock.EnterWrite();
         ThrowIfDisposed();
         ThrowIfNotTrained();

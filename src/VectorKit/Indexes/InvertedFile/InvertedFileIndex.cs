@@ -148,40 +148,27 @@ public sealed partial class InvertedFileIndex : VectorIndex
     /// <summary>
     /// Bytes a search reads per stored vector in the lists: 4 × dimension for float32, the code size for product
     /// codes, the dimension rounded up to 16 for 8-bit codes. Full vectors kept for re-scoring are not counted here
-    /// (they are read only for the few candidates re-scored); <see cref="MemoryBytes"/> counts them.
+    /// (they are read only for the few candidates re-scored); <see cref="VectorIndex.MemoryBytes"/> counts them.
     /// </summary>
     public override int CodeBytesPerVector => _codeBytes;
 
-    /// <inheritdoc/>
-    /// <remarks>List codes and slot numbers at their reserved capacity, per-slot id, list and position, the full vectors
-    /// when kept, the centroids and codebooks (and a product-code rotation with the rotated centroids), and the id lookup's entries (about 28 bytes each).</remarks>
-    public override long MemoryBytes
+    // List codes and slot numbers at their reserved capacity, per-slot id, list and position, the full vectors when
+    // kept, the centroids and codebooks (and a product-code rotation with the rotated centroids), and the id lookup.
+    private protected override long MemoryBytesLocked()
     {
-        get
+        long bytes = (long)_centroids.Length * sizeof(float);
+        for (int l = 0; l < _listCodes.Length; l++)
         {
-            _lock.EnterReadLock();
-            try
-            {
-                ThrowIfDisposed();
-                long bytes = (long)_centroids.Length * sizeof(float);
-                for (int l = 0; l < _listCodes.Length; l++)
-                {
-                    bytes += _listCodes[l].Length + ((long)_listSlots[l].Length * sizeof(int));
-                }
-
-                bytes += (long)_ids.Length * (sizeof(long) + sizeof(int) + sizeof(int));
-                bytes += _full?.Bytes ?? 0;
-                bytes += _product is null ? 0 : ((2L * _product.Codewords.Length) + _product.Rotation.Length) * sizeof(float);
-                bytes += (long)_rotatedCentroids.Length * sizeof(float);
-                bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
-                bytes += _slotOf.Bytes;
-                return bytes;
-            }
-            finally
-            {
-                _lock.ExitReadLock();
-            }
+            bytes += _listCodes[l].Length + ((long)_listSlots[l].Length * sizeof(int));
         }
+
+        bytes += (long)_ids.Length * (sizeof(long) + sizeof(int) + sizeof(int));
+        bytes += _full?.Bytes ?? 0;
+        bytes += _product is null ? 0 : ((2L * _product.Codewords.Length) + _product.Rotation.Length) * sizeof(float);
+        bytes += (long)_rotatedCentroids.Length * sizeof(float);
+        bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
+        bytes += _slotOf.Bytes;
+        return bytes;
     }
 
     /// <summary>A copy of the list centroids, row after row (empty until trained).</summary>
@@ -284,95 +271,45 @@ public sealed partial class InvertedFileIndex : VectorIndex
         }
     }
 
-    /// <inheritdoc/>
-    /// <remarks>Under compressed storage the full vector when the index keeps it or a source is attached (unit length under
-    /// cosine), otherwise the reconstruction (centroid + decoded residual), not the vector added.</remarks>
-    /// <exception cref="InvalidOperationException">An attached source has no vector for an id the index holds.</exception>
-    public override bool TryGetVector(long id, Span<float> destination)
+    // The list entry: float32 as stored, the kept full vector, or the decoded code plus its list's centroid.
+    private protected override void CopyStoredLocked(int slot, Span<float> destination)
     {
-        VectorChecks.CheckVectorDestination(destination, Dimension);
-
-        _lock.EnterReadLock();
-        try
+        int d = Dimension;
+        int list = _listOf[slot];
+        ReadOnlySpan<byte> code = _listCodes[list].AsSpan(_positionOf[slot] * _codeBytes, _codeBytes);
+        if (_options.Encoding == VectorEncoding.Float32)
         {
-            ThrowIfDisposed();
-            if (!_slotOf.TryGetValue(id, out int slot))
-            {
-                return false;
-            }
-
-            int d = Dimension;
-            int list = _listOf[slot];
-            ReadOnlySpan<byte> code = _listCodes[list].AsSpan(_positionOf[slot] * _codeBytes, _codeBytes);
-            if (_options.Encoding == VectorEncoding.Float32)
-            {
-                MemoryMarshal.Cast<byte, float>(code).CopyTo(destination);
-            }
-            else if (_full is not null)
-            {
-                _full.RowSpan(slot).CopyTo(destination);
-            }
-            else if (_source is not null)
-            {
-                new SourceRows(_source, d, Metric == DistanceMetric.Cosine).CopyTo(id, destination);
-            }
-            else
-            {
-                if (_product is not null)
-                {
-                    _product.Decode(code, destination);
-                }
-                else
-                {
-                    _scalar!.Decode(code, destination);
-                }
-
-                ReadOnlySpan<float> centroid = _centroids.AsSpan(list * d, d);
-                for (int j = 0; j < d; j++)
-                {
-                    destination[j] += centroid[j];
-                }
-            }
-
-            return true;
+            MemoryMarshal.Cast<byte, float>(code).CopyTo(destination);
+            return;
         }
-        finally
+
+        if (_full is not null)
         {
-            _lock.ExitReadLock();
+            _full.RowSpan(slot).CopyTo(destination);
+            return;
+        }
+
+        if (_product is not null)
+        {
+            _product.Decode(code, destination);
+        }
+        else
+        {
+            _scalar!.Decode(code, destination);
+        }
+
+        ReadOnlySpan<float> centroid = _centroids.AsSpan(list * d, d);
+        for (int j = 0; j < d; j++)
+        {
+            destination[j] += centroid[j];
         }
     }
 
-    /// <inheritdoc/>
-    /// <remarks>
-    /// Rows are assigned to their lists (in parallel), then encoded and appended, all under the write lock; the token is
-    /// checked during the assignment, before anything is written.
-    /// </remarks>
-    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public override void AddRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
+    private protected override void RemoveLocked(ReadOnlySpan<long> ids)
     {
-        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
-        Write(ids, vectors, replace: false, progress, cancellationToken);
-    }
-
-    /// <inheritdoc/>
-    /// <remarks>A replaced item leaves its old list and joins the list of its new vector's nearest centroid.</remarks>
-    /// <exception cref="IndexNotTrainedException">The index has not been trained.</exception>
-    public override int AddOrReplaceRange(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
-    {
-        VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
-        return Write(ids, vectors, replace: true, progress, cancellationToken);
-    }
-
-    /// <inheritdoc/>
-    public override void RemoveRange(ReadOnlySpan<long> ids)
-    {
-        VectorChecks.CheckUniqueIds(ids);
-        using var write = _lock.EnterWrite();
-        ThrowIfDisposed();
-        _slotOf.CheckPresent(ids);
         foreach (long id in ids)
         {
-            RemoveLocked(id);
+            RemoveOneLocked(id);
         }
     }
 
@@ -398,7 +335,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
     }
 
     // Caller holds the write lock; the id is present. Fills the holes it leaves with last entries, so lists and slots stay dense.
-    private void RemoveLocked(long id)
+    private void RemoveOneLocked(long id)
     {
         _slotOf.Remove(id, out int slot);
         int list = _listOf[slot];
@@ -457,10 +394,9 @@ public sealed partial class InvertedFileIndex : VectorIndex
 
     // Adds (and with `replace`, replaces) a validated batch under the write lock. Cancellation is honoured only while
     // rows are assigned to lists, before the first write, so a batch is all or nothing. Returns how many were replaced.
-    private unsafe int Write(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
+    private protected override unsafe int WriteBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int d = Dimension;
-        cancellationToken.ThrowIfCancellationRequested();
         int replaced = 0;
         _lock.EnterWriteLock();
         try
@@ -500,7 +436,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
                 {
                     if (_slotOf.ContainsKey(id))
                     {
-                        RemoveLocked(id);
+                        RemoveOneLocked(id);
                         replaced++;
                     }
                 }

@@ -24,7 +24,7 @@ namespace VectorKit.Tests.Indexes.Graph;
 /// smaller id, at distance 0 under squared L2), and a search for everything lists each live id once and no removed
 /// one.</para>
 /// <para>Under 8-bit codes without full vectors the distances are to the decoded codes, so the oracle is a
-/// double-precision loop over the rows <see cref="GraphIndex.TryGetVector"/> decodes, compared within a tolerance (equal
+/// double-precision loop over the rows <see cref="VectorIndex.TryGetVector"/> decodes, compared within a tolerance (equal
 /// codes make ties whose order float rounding may decide, so ids are matched through distances there).</para>
 /// </remarks>
 internal static class LiveItemChecks
