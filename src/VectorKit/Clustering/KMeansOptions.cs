@@ -1,3 +1,5 @@
+using VectorKit.Internal;
+
 namespace VectorKit.Clustering;
 
 /// <summary>Options for <see cref="KMeans"/>.Train.</summary>
@@ -37,15 +39,7 @@ public sealed class KMeansOptions
     public int MaxIterations
     {
         get => _maxIterations;
-        init
-        {
-            if (value < 0 || value > 10_000)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxIterations), value, "must be in [0, 10000]");
-            }
-
-            _maxIterations = value;
-        }
+        init => _maxIterations = OptionChecks.InRange(value, 0, 10_000, nameof(MaxIterations));
     }
 
     /// <summary>
@@ -95,15 +89,7 @@ public sealed class KMeansOptions
     public int MaxDegreeOfParallelism
     {
         get => _maxDegreeOfParallelism;
-        init
-        {
-            if (value == 0 || value < -1)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
-            }
-
-            _maxDegreeOfParallelism = value;
-        }
+        init => _maxDegreeOfParallelism = OptionChecks.Parallelism(value, nameof(MaxDegreeOfParallelism));
     }
 
     internal int EffectiveSampleSize => _sampleSize ?? (int)Math.Min(int.MaxValue, 256L * _clusterCount);

@@ -1,3 +1,5 @@
+using VectorKit.Internal;
+
 namespace VectorKit.Indexes;
 
 /// <summary>Per-call options for <see cref="IVectorIndex.Search"/> and <see cref="IVectorIndex.SearchBatch"/>.</summary>
@@ -29,15 +31,7 @@ public sealed class SearchOptions
     public int MaxDegreeOfParallelism
     {
         get => _maxDegreeOfParallelism;
-        init
-        {
-            if (value == 0 || value < -1)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
-            }
-
-            _maxDegreeOfParallelism = value;
-        }
+        init => _maxDegreeOfParallelism = OptionChecks.Parallelism(value, nameof(MaxDegreeOfParallelism));
     }
 
     /// <summary>

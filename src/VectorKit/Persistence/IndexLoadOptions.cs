@@ -1,3 +1,5 @@
+using VectorKit.Internal;
+
 namespace VectorKit.Persistence;
 
 /// <summary>
@@ -74,15 +76,7 @@ public sealed class IndexLoadOptions
     public int MaxLinksPerNode
     {
         get => _maxLinksPerNode;
-        init
-        {
-            if (value < 2 || value > Indexes.Graph.GraphIndexOptions.MaxLinks)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxLinksPerNode), value, $"must be in [2, {Indexes.Graph.GraphIndexOptions.MaxLinks}]");
-            }
-
-            _maxLinksPerNode = value;
-        }
+        init => _maxLinksPerNode = OptionChecks.InRange(value, 2, Indexes.Graph.GraphIndexOptions.MaxLinks, nameof(MaxLinksPerNode));
     }
 
     /// <summary>The largest single section, in bytes. Default unlimited (<see cref="long.MaxValue"/>).</summary>

@@ -1,3 +1,5 @@
+using VectorKit.Internal;
+
 namespace VectorKit.Quantization;
 
 /// <summary>Options for training a <see cref="ProductQuantizer"/>.</summary>
@@ -22,15 +24,7 @@ public sealed class ProductQuantizerOptions
     public int CodeBytes
     {
         get => _codeBytes;
-        init
-        {
-            if (value < 1 || value > 4096)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(CodeBytes), value, "must be in [1, 4096]");
-            }
-
-            _codeBytes = value;
-        }
+        init => _codeBytes = OptionChecks.InRange(value, 1, 4096, nameof(CodeBytes));
     }
 
     /// <summary>The most k-means iterations per sub-space codebook. Default 20.</summary>
@@ -38,15 +32,7 @@ public sealed class ProductQuantizerOptions
     public int MaxIterations
     {
         get => _maxIterations;
-        init
-        {
-            if (value < 0 || value > 10_000)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxIterations), value, "must be in [0, 10000]");
-            }
-
-            _maxIterations = value;
-        }
+        init => _maxIterations = OptionChecks.InRange(value, 0, 10_000, nameof(MaxIterations));
     }
 
     /// <summary>The most training rows used (sampled uniformly when there are more). Default 65,536 (256 per codeword, common practice).</summary>
@@ -92,15 +78,7 @@ public sealed class ProductQuantizerOptions
     public int MaxDegreeOfParallelism
     {
         get => _maxDegreeOfParallelism;
-        init
-        {
-            if (value == 0 || value < -1)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
-            }
-
-            _maxDegreeOfParallelism = value;
-        }
+        init => _maxDegreeOfParallelism = OptionChecks.Parallelism(value, nameof(MaxDegreeOfParallelism));
     }
 
     internal int EffectiveParallelism => _maxDegreeOfParallelism == -1 ? Environment.ProcessorCount : _maxDegreeOfParallelism;

@@ -141,6 +141,15 @@ public sealed class ScalarQuantizer
     /// <exception cref="ArgumentException">Wrong lengths.</exception>
     public float Dot(ReadOnlySpan<float> query, ReadOnlySpan<byte> code) => Single<DotStep>(query, code);
 
+    /// <summary>The ranges as a file stores them: the minimums, then the steps (the inverse of <see cref="FromRanges"/>).</summary>
+    internal float[] ToRanges()
+    {
+        var ranges = new float[2 * Dimension];
+        Minimums.CopyTo(ranges);
+        Steps.CopyTo(ranges.AsSpan(Dimension));
+        return ranges;
+    }
+
     /// <summary>
     /// Rebuilds a quantizer from stored ranges (<paramref name="minimums"/> and <paramref name="steps"/>, each
     /// <paramref name="dimension"/> values), checking what decoding relies on: finite minimums, finite non-negative

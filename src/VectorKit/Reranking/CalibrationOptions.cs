@@ -1,3 +1,4 @@
+using VectorKit.Internal;
 using VectorKit.Indexes;
 namespace VectorKit.Reranking;
 
@@ -182,15 +183,7 @@ public sealed class CalibrationOptions
     public int MaxDegreeOfParallelism
     {
         get => _maxDegreeOfParallelism;
-        init
-        {
-            if (value == 0 || value < -1)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
-            }
-
-            _maxDegreeOfParallelism = value;
-        }
+        init => _maxDegreeOfParallelism = OptionChecks.Parallelism(value, nameof(MaxDegreeOfParallelism));
     }
 
     private static int Positive(int value, string name)

@@ -3,7 +3,7 @@ using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
 using VectorKit.Persistence;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>A save that fails or is cancelled part-way leaves the previous file loadable and unchanged, and no temporary file.</summary>
 public sealed class AtomicSaveTests : IDisposable

@@ -4,7 +4,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Persistence;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>
 /// Exact-index files under 8-bit storage with valid checksums but a broken structure, as someone could craft them: each

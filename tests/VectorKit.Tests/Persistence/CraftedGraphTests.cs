@@ -3,7 +3,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Graph;
 using VectorKit.Persistence;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>
 /// Graph files with valid checksums but a broken structure, as someone could craft them (the checksums are not a

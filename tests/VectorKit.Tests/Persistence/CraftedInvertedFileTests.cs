@@ -5,7 +5,7 @@ using VectorKit.Indexes.InvertedFile;
 using VectorKit.Quantization;
 using VectorKit.Persistence;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>
 /// Inverted-file files with valid checksums but a broken structure, as someone could craft them: each must be rejected

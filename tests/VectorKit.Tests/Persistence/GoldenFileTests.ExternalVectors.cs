@@ -7,7 +7,7 @@ using VectorKit.Indexes.InvertedFile;
 using VectorKit.Persistence;
 using VectorKit.Tests.TestData;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>
 /// Compressed indexes whose full vectors live outside them (<see cref="FullVectorLocation.ExternalSource"/>): the file

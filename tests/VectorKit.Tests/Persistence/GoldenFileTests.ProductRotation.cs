@@ -6,7 +6,7 @@ using VectorKit.Persistence;
 using VectorKit.Quantization;
 using VectorKit.Tests.TestData;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>The inverted file under product codes with the variance-balancing rotation.</summary>
 public partial class GoldenFileTests

@@ -6,7 +6,7 @@ using VectorKit.Indexes.Graph;
 using VectorKit.Persistence;
 using VectorKit.Tests.TestData;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>The graph index under 8-bit codes, with the full vectors in the file and without them.</summary>
 public partial class GoldenFileTests

@@ -8,7 +8,7 @@ using VectorKit.Indexes.InvertedFile;
 using VectorKit.Persistence;
 using VectorKit.Tests.TestData;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>
 /// Files of format version 1 kept as fixtures (Persistence/Fixtures): every later library must still load them to the

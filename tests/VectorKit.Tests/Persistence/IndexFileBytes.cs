@@ -3,7 +3,7 @@ using System.IO.Hashing;
 using VectorKit.Indexes;
 using VectorKit.Persistence;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>
 /// The index file layout re-implemented independently of the library's writer and reader (from docs/index-file-format.md),

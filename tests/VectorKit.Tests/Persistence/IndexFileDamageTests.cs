@@ -7,7 +7,7 @@ using VectorKit.Indexes.InvertedFile;
 using VectorKit.Persistence;
 using VectorKit.Tests.IO;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>
 /// Damaged and hostile files: each must raise <see cref="IndexFileException"/> with a message naming the problem and

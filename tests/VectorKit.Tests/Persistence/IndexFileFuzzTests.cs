@@ -7,7 +7,7 @@ using VectorKit.Indexes.InvertedFile;
 using VectorKit.Persistence;
 using Xunit.Abstractions;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>
 /// A seeded mutation fuzzer for the loader: valid files of every kind are damaged (bit flips, random and boundary

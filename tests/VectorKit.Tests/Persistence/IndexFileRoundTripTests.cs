@@ -10,7 +10,7 @@ using VectorKit.Tests.Indexes.Graph;
 using VectorKit.Tests.IO;
 using VectorKit.Tests.TestData;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>Save → load gives the same index: counts, ids, vectors, options and search results; and the same bytes again.</summary>
 public class IndexFileRoundTripTests

@@ -6,7 +6,7 @@ using VectorKit.Indexes.InvertedFile;
 using VectorKit.Quantization;
 using VectorKit.Tests.TestData;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>Small deterministic indexes for the storage tests.</summary>
 internal static class PersistenceSamples

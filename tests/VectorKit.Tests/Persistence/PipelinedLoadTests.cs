@@ -5,7 +5,7 @@ using VectorKit.Indexes.Exact;
 using VectorKit.Persistence;
 using VectorKit.Tests.TestData;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>Sections larger than two 1 MiB blocks take the pipelined path (read block i + 1 while block i is checked).</summary>
 public class PipelinedLoadTests

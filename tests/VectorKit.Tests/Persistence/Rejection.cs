@@ -1,7 +1,7 @@
 using VectorKit.Indexes;
 using VectorKit.Persistence;
 
-namespace VectorKit.Tests.Storage;
+namespace VectorKit.Tests.Persistence;
 
 /// <summary>Asserts that loading bytes fails with the library's exception, promptly and without allocating much beyond the input.</summary>
 internal static class Rejection

@@ -1,3 +1,5 @@
+using VectorKit.Internal;
+
 namespace VectorKit.Indexes.Exact;
 
 /// <summary>Options for building an <see cref="ExactIndex"/>.</summary>
@@ -17,15 +19,7 @@ public sealed class ExactIndexOptions : VectorIndexOptions
     public int InitialCapacity
     {
         get => _initialCapacity;
-        init
-        {
-            if (value < 0)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(InitialCapacity), value, "must be zero or positive");
-            }
-
-            _initialCapacity = value;
-        }
+        init => _initialCapacity = OptionChecks.NonNegative(value, nameof(InitialCapacity));
     }
 
 }

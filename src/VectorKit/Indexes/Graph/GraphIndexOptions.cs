@@ -1,3 +1,5 @@
+using VectorKit.Internal;
+
 namespace VectorKit.Indexes.Graph;
 
 /// <summary>Options for building a <see cref="GraphIndex"/>.</summary>
@@ -31,15 +33,7 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     public int LinksPerNode
     {
         get => _linksPerNode;
-        init
-        {
-            if (value < 2 || value > MaxLinks)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(LinksPerNode), value, $"must be in [2, {MaxLinks}]");
-            }
-
-            _linksPerNode = value;
-        }
+        init => _linksPerNode = OptionChecks.InRange(value, 2, MaxLinks, nameof(LinksPerNode));
     }
 
     /// <summary>
@@ -66,15 +60,7 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     public int BuildWidth
     {
         get => _buildWidth;
-        init
-        {
-            if (value < 1 || value > 100_000)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(BuildWidth), value, "must be in [1, 100000]");
-            }
-
-            _buildWidth = value;
-        }
+        init => _buildWidth = OptionChecks.InRange(value, 1, 100_000, nameof(BuildWidth));
     }
 
     /// <summary>
@@ -85,15 +71,7 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     public int SearchWidth
     {
         get => _searchWidth;
-        init
-        {
-            if (value < 1 || value > 100_000)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(SearchWidth), value, "must be in [1, 100000]");
-            }
-
-            _searchWidth = value;
-        }
+        init => _searchWidth = OptionChecks.InRange(value, 1, 100_000, nameof(SearchWidth));
     }
 
     /// <summary>Seed of the level draws: the same seed and the same insertion order give the same levels. Default 42.</summary>
@@ -104,15 +82,7 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     public int InitialCapacity
     {
         get => _initialCapacity;
-        init
-        {
-            if (value < 0)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(InitialCapacity), value, "must be zero or positive");
-            }
-
-            _initialCapacity = value;
-        }
+        init => _initialCapacity = OptionChecks.NonNegative(value, nameof(InitialCapacity));
     }
 
     /// <summary>The most threads a batch insert (and <see cref="GraphIndex.Compact"/>) uses; -1 (the default) means one per core.</summary>
@@ -120,15 +90,7 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     public int MaxDegreeOfParallelism
     {
         get => _maxDegreeOfParallelism;
-        init
-        {
-            if (value == 0 || value < -1)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
-            }
-
-            _maxDegreeOfParallelism = value;
-        }
+        init => _maxDegreeOfParallelism = OptionChecks.Parallelism(value, nameof(MaxDegreeOfParallelism));
     }
 
     /// <summary>

@@ -40,13 +40,7 @@ public sealed partial class InvertedFileIndex
                 }
             }
 
-            float[]? ranges = null;
-            if (_scalar is not null)
-            {
-                ranges = new float[2 * Dimension];
-                _scalar.Minimums.CopyTo(ranges);
-                _scalar.Steps.CopyTo(ranges.AsSpan(Dimension));
-            }
+            float[]? ranges = _scalar?.ToRanges();
 
             var parts = new InvertedFileIndexParts
             {

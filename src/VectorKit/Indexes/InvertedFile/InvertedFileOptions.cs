@@ -1,3 +1,4 @@
+using VectorKit.Internal;
 using VectorKit.Quantization;
 
 namespace VectorKit.Indexes.InvertedFile;
@@ -49,15 +50,7 @@ public sealed class InvertedFileOptions : VectorIndexOptions
     public int SearchWidth
     {
         get => _searchWidth;
-        init
-        {
-            if (value < 1)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(SearchWidth), value, "must be positive");
-            }
-
-            _searchWidth = value;
-        }
+        init => _searchWidth = OptionChecks.Positive(value, nameof(SearchWidth));
     }
 
     /// <summary>
@@ -68,15 +61,7 @@ public sealed class InvertedFileOptions : VectorIndexOptions
     public int ProductCodeBytes
     {
         get => _productCodeBytes;
-        init
-        {
-            if (value < 1 || value > 4096)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(ProductCodeBytes), value, "must be in [1, 4096]");
-            }
-
-            _productCodeBytes = value;
-        }
+        init => _productCodeBytes = OptionChecks.InRange(value, 1, 4096, nameof(ProductCodeBytes));
     }
 
     /// <summary>
@@ -104,15 +89,7 @@ public sealed class InvertedFileOptions : VectorIndexOptions
     public int MaxIterations
     {
         get => _maxIterations;
-        init
-        {
-            if (value < 0 || value > 10_000)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxIterations), value, "must be in [0, 10000]");
-            }
-
-            _maxIterations = value;
-        }
+        init => _maxIterations = OptionChecks.InRange(value, 0, 10_000, nameof(MaxIterations));
     }
 
     /// <summary>
@@ -143,15 +120,7 @@ public sealed class InvertedFileOptions : VectorIndexOptions
     public int MaxDegreeOfParallelism
     {
         get => _maxDegreeOfParallelism;
-        init
-        {
-            if (value == 0 || value < -1)
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(MaxDegreeOfParallelism), value, "must be -1 (all cores) or a positive thread count");
-            }
-
-            _maxDegreeOfParallelism = value;
-        }
+        init => _maxDegreeOfParallelism = OptionChecks.Parallelism(value, nameof(MaxDegreeOfParallelism));
     }
 
     /// <inheritdoc/>

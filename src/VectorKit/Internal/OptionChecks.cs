@@ -1,0 +1,52 @@
+namespace VectorKit.Internal;
+
+/// <summary>
+/// The checks options classes run in their <c>init</c> accessors: one place for each rule and its message, so the
+/// same kind of option is validated alike everywhere.
+/// </summary>
+internal static class OptionChecks
+{
+    /// <summary>A thread count: -1 for one per core, or positive.</summary>
+    public static int Parallelism(int value, string name)
+    {
+        if (value == 0 || value < -1)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(name, value, "must be -1 (all cores) or a positive thread count");
+        }
+
+        return value;
+    }
+
+    /// <summary>A value in [<paramref name="minimum"/>, <paramref name="maximum"/>].</summary>
+    public static int InRange(int value, int minimum, int maximum, string name)
+    {
+        if (value < minimum || value > maximum)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(name, value, $"must be in [{minimum}, {maximum}]");
+        }
+
+        return value;
+    }
+
+    /// <summary>A value of 0 or more.</summary>
+    public static int NonNegative(int value, string name)
+    {
+        if (value < 0)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(name, value, "must be zero or positive");
+        }
+
+        return value;
+    }
+
+    /// <summary>A value of 1 or more.</summary>
+    public static int Positive(int value, string name)
+    {
+        if (value < 1)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(name, value, "must be positive");
+        }
+
+        return value;
+    }
+}
