@@ -1,4 +1,5 @@
 using VectorKit.Distance;
+using VectorKit.Distance.Kernels;
 using VectorKit.Internal;
 
 namespace VectorKit.Indexes;
@@ -296,6 +297,39 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     /// <summary>A batch of prepared queries, under the read lock; by default each query runs <see cref="SearchLocked"/>, blocks of queries in parallel.</summary>
     private protected virtual void SearchBatchLocked(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
         => BatchSearch.RunQueries(queries, Dimension, results, QueryBlock, options, progress, cancellationToken, static () => 0, (q, slots, _) => SearchLocked(q, slots, options));
+
+    /// <summary>
+    /// How many candidates a search re-scores on the full vectors: the call's <see cref="SearchOptions.RescoreDepth"/>
+    /// or the index's, when the index keeps full vectors (in memory or in a source); otherwise 0. Throws when the depth is
+    /// positive and the source it needs is not attached.
+    /// </summary>
+    private protected int RescoreDepthFor(SearchOptions options)
+    {
+        int depth = SharedOptions.Rescores ? options.RescoreDepth ?? SharedOptions.RescoreDepth : 0;
+        if (depth > 0 && ReadsFullVectorsExternally && _source is null)
+        {
+            SourceRows.ThrowNoSource();
+        }
+
+        return depth;
+    }
+
+    /// <summary>
+    /// Replaces the candidates' code distances with exact ones, from the full vectors kept in memory
+    /// (<paramref name="fullRows"/>, by slot) or from the attached source; the caller holds the read lock and sorts after.
+    /// </summary>
+    private protected void RescoreLocked(KernelPath path, ref float query, Span<SearchHit> candidates, VectorBuffer? fullRows)
+    {
+        // The source cannot change during a search: attaching takes the write lock.
+        if (fullRows is not null)
+        {
+            ExactRescoring.Rescore(Metric, path, ref query, Dimension, candidates, new SlotRows(fullRows, _slotOf));
+        }
+        else
+        {
+            ExactRescoring.Rescore(Metric, path, ref query, Dimension, candidates, new SourceRows(_source!, Dimension, Metric == DistanceMetric.Cosine));
+        }
+    }
 
     /// <summary>Frees the kind's storage; the caller holds the write lock, once.</summary>
     private protected abstract void ReleaseStorage();

@@ -1,4 +1,3 @@
-using System.Buffers;
 using System.Numerics;
 using System.Numerics.Tensors;
 using System.Runtime.CompilerServices;
@@ -206,22 +205,15 @@ public sealed class ProductQuantizer
     {
         VectorChecks.CheckVector(vector, Dimension, nameof(vector));
         CheckCode(code.Length, nameof(code));
-        float[] table = ArrayPool<float>.Shared.Rent(TableLength + (_rotation is null ? 0 : Dimension));
-        try
+        using var table = ScratchRental<float>.Rent(TableLength + (_rotation is null ? 0 : Dimension));
+        if (_rotation is not null)
         {
-            if (_rotation is not null)
-            {
-                Span<float> rotated = table.AsSpan(TableLength, Dimension);
-                Rotate(vector, rotated);
-                vector = rotated;
-            }
+            Span<float> rotated = table.Span.Slice(TableLength, Dimension);
+            Rotate(vector, rotated);
+            vector = rotated;
+        }
 
-            EncodeUnchecked(vector, code, table);
-        }
-        finally
-        {
-            ArrayPool<float>.Shared.Return(table);
-        }
+        EncodeUnchecked(vector, code, table.Span);
     }
 
     /// <summary>Writes the reconstruction of a code: its codewords side by side (rotated back by <c>Rᵀ</c> when <see cref="IsRotated"/>).</summary>
@@ -242,16 +234,9 @@ public sealed class ProductQuantizer
             return;
         }
 
-        float[] rotated = ArrayPool<float>.Shared.Rent(Dimension);
-        try
-        {
-            DecodeUnrotated(code, rotated);
-            BalancedRotation.RotateBack(_rotation, rotated.AsSpan(0, Dimension), vector);
-        }
-        finally
-        {
-            ArrayPool<float>.Shared.Return(rotated);
-        }
+        using var rotated = ScratchRental<float>.Rent(Dimension);
+        DecodeUnrotated(code, rotated.Span);
+        BalancedRotation.RotateBack(_rotation, rotated.Span, vector);
     }
 
     /// <summary>Fills the squared-distance lookup table: <c>table[m × 256 + j] = ‖query_m − codeword_{m,j}‖²</c>.</summary>
@@ -413,16 +398,9 @@ public sealed class ProductQuantizer
             return;
         }
 
-        float[] rotated = ArrayPool<float>.Shared.Rent(Dimension);
-        try
-        {
-            Rotate(query, rotated.AsSpan(0, Dimension));
-            FillTable(rotated.AsSpan(0, Dimension), table, squared);
-        }
-        finally
-        {
-            ArrayPool<float>.Shared.Return(rotated);
-        }
+        using var rotated = ScratchRental<float>.Rent(Dimension);
+        Rotate(query, rotated.Span);
+        FillTable(rotated.Span, table, squared);
     }
 
     private void DecodeUnrotated(ReadOnlySpan<byte> code, Span<float> vector)

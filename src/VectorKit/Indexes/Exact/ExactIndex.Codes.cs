@@ -1,4 +1,3 @@
-using System.Buffers;
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
@@ -132,58 +131,32 @@ public sealed partial class ExactIndex
 
         ScalarQuantizer scalar = _scalar!;
         int k = destination.Length;
-        int depth = _keepsVectors || _readsExternally ? options.RescoreDepth ?? _options.RescoreDepth : 0;
-        IFullVectorSource? source = _source;
-        if (depth > 0 && !_keepsVectors && source is null)
-        {
-            SourceRows.ThrowNoSource();
-        }
-
+        int depth = RescoreDepthFor(options);
         int candidates = Math.Min(Math.Max(k, depth), _count);
 
         // The candidates live in the destination unless re-scoring needs more of them than it holds.
-        SearchHit[]? rentedHits = candidates > k ? ArrayPool<SearchHit>.Shared.Rent(candidates) : null;
-        Span<SearchHit> heap = rentedHits is null ? destination[..candidates] : rentedHits.AsSpan(0, candidates);
+        using var hits = ScratchRental<SearchHit>.Rent(candidates > k ? candidates : 0);
+        Span<SearchHit> heap = candidates > k ? hits.Span : destination[..candidates];
         int padded = scalar.CodeBytes;
-        float[]? rentedQuery = padded > StackQueryFloats ? ArrayPool<float>.Shared.Rent(padded) : null;
-        Span<float> prepared = rentedQuery is null ? stackalloc float[padded] : rentedQuery.AsSpan(0, padded);
-        try
+        using var paddedQuery = ScratchRental<float>.Rent(padded > StackQueryFloats ? padded : 0);
+        Span<float> prepared = padded > StackQueryFloats ? paddedQuery.Span : stackalloc float[padded];
+
+        // The query padded with zeros to the code length: padding meets decoded zeros and adds nothing.
+        scalar.Pad(q, prepared);
+        var scan = new ScanAction<CodeScanRows>(this, ref MemoryMarshal.GetReference(prepared), heap, options.Filter, new(scalar, _codes!, _kernelPath));
+        int found = MetricDispatch.Run<ScanAction<CodeScanRows>, int>(Metric, ref scan);
+        if (depth > 0)
         {
-            // The query padded with zeros to the code length: padding meets decoded zeros and adds nothing.
-            scalar.Pad(q, prepared);
-            ref float query = ref MemoryMarshal.GetReference(prepared);
-            var scan = new ScanAction<CodeScanRows>(this, ref query, heap, options.Filter, new(scalar, _codes!, _kernelPath));
-            int found = MetricDispatch.Run<ScanAction<CodeScanRows>, int>(Metric, ref scan);
-
-            if (depth > 0 && _keepsVectors)
-            {
-                ExactRescoring.Rescore(Metric, _kernelPath, ref MemoryMarshal.GetReference(q), Dimension, heap[..found], new SlotRows(_vectors, _slotOf));
-            }
-            else if (depth > 0)
-            {
-                ExactRescoring.Rescore(Metric, _kernelPath, ref MemoryMarshal.GetReference(q), Dimension, heap[..found], new SourceRows(source!, Dimension, Metric == DistanceMetric.Cosine));
-            }
-
-            TopK.SortBestFirst(heap, found);
-            int keep = Math.Min(k, found);
-            if (rentedHits is not null)
-            {
-                heap[..keep].CopyTo(destination);
-            }
-
-            return keep;
+            RescoreLocked(_kernelPath, ref MemoryMarshal.GetReference(q), heap[..found], _keepsVectors ? _vectors : null);
         }
-        finally
+
+        TopK.SortBestFirst(heap, found);
+        int keep = Math.Min(k, found);
+        if (candidates > k)
         {
-            if (rentedHits is not null)
-            {
-                ArrayPool<SearchHit>.Shared.Return(rentedHits);
-            }
-
-            if (rentedQuery is not null)
-            {
-                ArrayPool<float>.Shared.Return(rentedQuery);
-            }
+            heap[..keep].CopyTo(destination);
         }
+
+        return keep;
     }
 }

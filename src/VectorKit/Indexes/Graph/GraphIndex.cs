@@ -481,46 +481,27 @@ public sealed partial class GraphIndex : VectorIndex
         }
 
         Func<long, bool>? filter = options.Filter;
-        int depth = KeepsFullVectors || _readsExternally ? options.RescoreDepth ?? _options.RescoreDepth : 0;
-        if (depth > 0 && _readsExternally && _source is null)
-        {
-            SourceRows.ThrowNoSource();
-        }
+        int depth = RescoreDepthFor(options);
 
         int width = Math.Max(Math.Max(destination.Length, depth), options.SearchWidth ?? _options.SearchWidth);
 
         // Codes are read in lanes of up to 16: the query gets zeros up to the code length, which meet zero scales.
-        scoped Span<float> padded = default;
-        float[]? rented = null;
-        if (_codes is not null)
+        int length = _codes?.Dimension ?? 0;
+        using var paddedRental = ScratchRental<float>.Rent(length > 1024 ? length : 0);
+        Span<float> padded = length > 1024 ? paddedRental.Span : stackalloc float[length];
+        _scalar?.Pad(q, padded);
+        var action = new SearchAction
         {
-            int length = _codes.Dimension;
-            padded = length <= 1024 ? stackalloc float[length] : (rented = System.Buffers.ArrayPool<float>.Shared.Rent(length)).AsSpan(0, length);
-            _scalar!.Pad(q, padded);
-        }
-
-        try
-        {
-            var action = new SearchAction
-            {
-                Index = this,
-                Query = q,
-                Prepared = _codes is null ? q : padded,
-                Destination = destination,
-                Width = width,
-                Depth = depth,
-                Filter = filter,
-                Scan = filter is not null && PrefersExactScan(filter, width),
-            };
-            return Dispatch<SearchAction, int>(ref action);
-        }
-        finally
-        {
-            if (rented is not null)
-            {
-                System.Buffers.ArrayPool<float>.Shared.Return(rented);
-            }
-        }
+            Index = this,
+            Query = q,
+            Prepared = _codes is null ? q : padded,
+            Destination = destination,
+            Width = width,
+            Depth = depth,
+            Filter = filter,
+            Scan = filter is not null && PrefersExactScan(filter, width),
+        };
+        return Dispatch<SearchAction, int>(ref action);
     }
 
     // Runs an operation with the distance of this index's storage, metric and kernel width.
@@ -539,15 +520,7 @@ public sealed partial class GraphIndex : VectorIndex
         }
 
         Span<SearchHit> rescored = hits[..Math.Min(Math.Max(k, depth), hits.Length)];
-        if (_readsExternally)
-        {
-            // The source cannot change during a search: attaching takes the write lock.
-            ExactRescoring.Rescore(Metric, _path, ref query, Dimension, rescored, new SourceRows(_source!, Dimension, Metric == DistanceMetric.Cosine));
-        }
-        else
-        {
-            ExactRescoring.Rescore(Metric, _path, ref query, Dimension, rescored, new SlotRows(_vectors!, _slotOf));
-        }
+        RescoreLocked(_path, ref query, rescored, _readsExternally ? null : _vectors);
 
         rescored.Sort();
         return rescored.Length;
@@ -590,38 +563,29 @@ public sealed partial class GraphIndex : VectorIndex
     private int ScanFiltered<TDistance>(ref float query, ref float prepared, Span<SearchHit> destination, int depth, Func<long, bool> filter)
         where TDistance : struct, IGraphDistance
     {
-        SearchHit[]? rented = null;
         int size = Math.Min(Math.Max(destination.Length, depth), _count);
-        Span<SearchHit> heap = size <= destination.Length ? destination[..size] : (rented = System.Buffers.ArrayPool<SearchHit>.Shared.Rent(size)).AsSpan(0, size);
-        try
+        bool rents = size > destination.Length;
+        using var rental = ScratchRental<SearchHit>.Rent(rents ? size : 0);
+        Span<SearchHit> heap = rents ? rental.Span : destination[..size];
+        int count = 0;
+        int used = _used;
+        for (int slot = 0; slot < used; slot++)
         {
-            int count = 0;
-            int used = _used;
-            for (int slot = 0; slot < used; slot++)
+            if (_removed[slot] == 0 && filter(_ids[slot]))
             {
-                if (_removed[slot] == 0 && filter(_ids[slot]))
-                {
-                    TopK.Offer(heap, ref count, TDistance.ToNode(this, ref prepared, slot), _ids[slot]);
-                }
-            }
-
-            count = TopK.SortBestFirst(heap, count);
-            count = Rescore(ref query, heap[..count], destination.Length, depth);
-            int written = Math.Min(destination.Length, count);
-            if (rented is not null)
-            {
-                heap[..written].CopyTo(destination);
-            }
-
-            return written;
-        }
-        finally
-        {
-            if (rented is not null)
-            {
-                System.Buffers.ArrayPool<SearchHit>.Shared.Return(rented);
+                TopK.Offer(heap, ref count, TDistance.ToNode(this, ref prepared, slot), _ids[slot]);
             }
         }
+
+        count = TopK.SortBestFirst(heap, count);
+        count = Rescore(ref query, heap[..count], destination.Length, depth);
+        int written = Math.Min(destination.Length, count);
+        if (rents)
+        {
+            heap[..written].CopyTo(destination);
+        }
+
+        return written;
     }
 
     /// <summary>One search with its distance resolved: a filtered exact scan or a graph walk.</summary>

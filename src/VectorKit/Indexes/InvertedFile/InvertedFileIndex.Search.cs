@@ -45,15 +45,8 @@ public sealed partial class InvertedFileIndex
         int k = destination.Length;
         int lists = _options.ListCount;
         int probes = Math.Min(options.SearchWidth ?? _options.SearchWidth, lists);
-        int depth = _options.Rescores ? options.RescoreDepth ?? _options.RescoreDepth : 0;
-        bool rescore = depth > 0;
-        IFullVectorSource? source = _source;
-        if (rescore && _full is null && source is null)
-        {
-            SourceRows.ThrowNoSource();
-        }
-
-        int candidates = Math.Min(rescore ? Math.Max(k, depth) : k, _count);
+        int depth = RescoreDepthFor(options);
+        int candidates = Math.Min(Math.Max(k, depth), _count);
 
         // The lists of the nearest centroids, nearest first so the candidate bound tightens early.
         Span<float> centroidDistances = scratch.CentroidDistances(lists);
@@ -71,16 +64,9 @@ public sealed partial class InvertedFileIndex
         var scan = new ScanAction(this, q, probeHeap[..probeCount], heap, options.Filter, scratch);
         int found = MetricDispatch.Run<ScanAction, int>(Metric, ref scan);
 
-        if (rescore)
+        if (depth > 0)
         {
-            if (_full is not null)
-            {
-                ExactRescoring.Rescore(Metric, _kernelPath, ref query, Dimension, heap[..found], new SlotRows(_full, _slotOf));
-            }
-            else
-            {
-                ExactRescoring.Rescore(Metric, _kernelPath, ref query, Dimension, heap[..found], new SourceRows(source!, Dimension, Metric == DistanceMetric.Cosine));
-            }
+            RescoreLocked(_kernelPath, ref query, heap[..found], _full);
         }
 
         TopK.SortBestFirst(heap, found);
