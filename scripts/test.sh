@@ -30,7 +30,7 @@ run() { # label, then environment assignments, then test arguments
 }
 
 run all dotnet test VectorKit.sln -c Release "$@"
-filter="Category=Kernels|FullyQualifiedName~ExactIndexTests|FullyQualifiedName~GraphIndexTests|FullyQualifiedName~InvertedFileIndexTests|FullyQualifiedName~AdcDistance"
+filter="Category=Kernels|FullyQualifiedName~ExactIndexTests|FullyQualifiedName~GraphIndexTests|FullyQualifiedName~InvertedFileIndexTests|FullyQualifiedName~AdcDistance|FullyQualifiedName~Contract"
 run avx2 DOTNET_EnableAVX512=0 VECTORKIT_EXPECT_PATH=Vector256 dotnet test tests/VectorKit.Tests -c Release --no-build --filter "$filter" "$@"
 run sse DOTNET_EnableAVX2=0 VECTORKIT_EXPECT_PATH=Vector128 dotnet test tests/VectorKit.Tests -c Release --no-build --filter "$filter" "$@"
 run scalar DOTNET_EnableHWIntrinsic=0 VECTORKIT_EXPECT_PATH=Scalar dotnet test tests/VectorKit.Tests -c Release --no-build --filter "$filter" "$@"
