@@ -1,7 +1,7 @@
 using System.Globalization;
 using BenchmarkDotNet.Running;
 using VectorKit.Benchmarks.Indexes;
-using VectorKit.Benchmarks.Storage;
+using VectorKit.Benchmarks.Persistence;
 
 namespace VectorKit.Benchmarks;
 

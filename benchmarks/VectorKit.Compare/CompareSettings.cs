@@ -10,7 +10,7 @@ internal sealed class CompareSettings
         usage: VectorKit.Compare [run] [--label NAME] [--round N] [--data DIR] [--kinds exact,inverted-file,graph]
                                  [--items N] [--reps N] [--batch-reps N] [--build-reps N] [--graph-build-reps N] [--graph-build-items N]
                                  [--single-queries N] [--exact-single-queries N] [--batch-queries N] [--check-queries N]
-                                 [--k N] [--lists N] [--lists-probed N] [--graph-width N]
+                                 [--k N] [--lists N] [--inverted-file-width N] [--graph-width N]
                VectorKit.Compare summarize [--base NAME] [--test NAME] FILE...
         """;
 
@@ -61,7 +61,7 @@ internal sealed class CompareSettings
 
     public int Lists { get; private set; } = 256;
 
-    public int ListsProbed { get; private set; } = 16;
+    public int InvertedFileWidth { get; private set; } = 16;
 
     public int GraphWidth { get; private set; } = 64;
 
@@ -94,7 +94,7 @@ internal sealed class CompareSettings
                 case "--check-queries": settings.CheckQueries = Positive(args[i], value); break;
                 case "--k": settings.K = Positive(args[i], value); break;
                 case "--lists": settings.Lists = Positive(args[i], value); break;
-                case "--lists-probed": settings.ListsProbed = Positive(args[i], value); break;
+                case "--inverted-file-width": settings.InvertedFileWidth = Positive(args[i], value); break;
                 case "--graph-width": settings.GraphWidth = Positive(args[i], value); break;
                 default: throw new ArgumentException($"unknown option '{args[i]}'");
             }

@@ -44,7 +44,7 @@ internal static class Harness
 
         if (settings.Kinds.Contains("inverted-file"))
         {
-            MeasureKind(settings, "inverted-file", new SearchOptions { SearchWidth = settings.ListsProbed }, data, truth, output, () =>
+            MeasureKind(settings, "inverted-file", new SearchOptions { SearchWidth = settings.InvertedFileWidth }, data, truth, output, () =>
             {
                 var index = new InvertedFileIndex(FashionData.Dimension, Metric, new InvertedFileOptions { ListCount = settings.Lists });
                 return index;

@@ -7,7 +7,7 @@ using VectorKit.Indexes.Graph;
 using VectorKit.Persistence;
 using VectorKit.Tests.TestData;
 
-namespace VectorKit.Benchmarks.Storage;
+namespace VectorKit.Benchmarks.Persistence;
 
 /// <summary>
 /// A console harness for load speed: saves an exact index (default 1,000,000 × 128) and a graph index (default
