@@ -101,10 +101,14 @@ public class GraphIndexProperties
 
     [Property(MaxTest = 100)]
     public void WithoutTheGlobalPass_EveryChangeKeepsInDegreesExact_AndEveryLiveNodeLinkedFromSomewhere(int[] operations, byte linksSeed)
+        => ReplayWithoutTheGlobalPass(operations, linksSeed);
+
+    // The local invariants, checked after every single change with the amortised global pass turned off: each
+    // in-degree count equals the number of lists naming the node, and no live node but the entry point is left
+    // without a bottom-layer in-link. The global pass then finishes with full reachability. An operation divisible by
+    // 3 removes a live id (chosen by the rest of it), any other adds 1 to 4 vectors derived from its bits.
+    private static void ReplayWithoutTheGlobalPass(int[] operations, byte linksSeed)
     {
-        // The local invariants, checked after every single change with the amortised global pass turned off: each
-        // in-degree count equals the number of lists naming the node, and no live node but the entry point is left
-        // without a bottom-layer in-link. The global pass then finishes with full reachability.
         const int d = 4;
         int links = 2 + (linksSeed % 6);
         using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { LinksPerNode = links, BuildWidth = 32, MaxDegreeOfParallelism = 1 });
