@@ -40,11 +40,16 @@ public sealed partial class GraphIndex
     {
         if (Interlocked.Decrement(ref _links.InDegree(to, layer)) == 0 && layer == 0)
         {
-            // Noted now, checked later under the write lock: a concurrent insert may link it again meanwhile.
-            lock (_orphanNotes)
-            {
-                _orphanNotes.Add(to);
-            }
+            NoteOrphan(to);
+        }
+    }
+
+    // Noted now, checked later under the write lock (AttachNotedOrphans): a concurrent insert may link it again meanwhile.
+    private void NoteOrphan(int slot)
+    {
+        lock (_orphanNotes)
+        {
+            _orphanNotes.Add(slot);
         }
     }
 
