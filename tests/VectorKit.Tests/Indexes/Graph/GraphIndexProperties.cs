@@ -114,6 +114,12 @@ public class GraphIndexProperties
     public void WithoutTheGlobalPass_AnEntryPointCutOffByTheRemovalThatPromotedIt_IsLinkedAgainWhenAHigherNodeTakesOver()
         => ReplayWithoutTheGlobalPass([0, 0, 0, 1, 0, 0, 7, 0, 0, 2, 0, 0, -1, 0, 0, 1, 1, 0, 1], 0);
 
+    // Another shrunk failure: two groups, each linked from outside only by one full list, whose members link to each
+    // other. The global pass must link both back rather than cut one off to attach the other, round after round.
+    [Fact]
+    public void TheGlobalPass_TwoGroupsBehindOneFullList_BothEndReachable()
+        => ReplayWithoutTheGlobalPass([1, 0, 2, 0, 2, -2, 0, -2, -1, -2, -2, 1, -1, 0, 1, 2], 0);
+
     // The local invariants, checked after every single change with the amortised global pass turned off: each
     // in-degree count equals the number of lists naming the node, and no live node but the entry point is left
     // without a bottom-layer in-link. The global pass then finishes with full reachability. An operation divisible by
