@@ -83,9 +83,13 @@ public sealed partial class GraphIndex
         {
             lock (_entryLock)
             {
-                if (level > EntryLevel(Volatile.Read(ref _entry)))
+                long previous = Volatile.Read(ref _entry);
+                if (level > EntryLevel(previous))
                 {
                     Volatile.Write(ref _entry, Pack(slot, level));
+
+                    // The entry point needs no in-link, so its orphan notes were skipped: once demoted it may have none.
+                    NoteOrphan(EntrySlot(previous));
                 }
             }
         }

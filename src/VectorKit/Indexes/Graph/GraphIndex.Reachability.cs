@@ -40,11 +40,16 @@ public sealed partial class GraphIndex
     {
         if (Interlocked.Decrement(ref _links.InDegree(to, layer)) == 0 && layer == 0)
         {
-            // Noted now, checked later under the write lock: a concurrent insert may link it again meanwhile.
-            lock (_orphanNotes)
-            {
-                _orphanNotes.Add(to);
-            }
+            NoteOrphan(to);
+        }
+    }
+
+    // Noted now, checked later under the write lock (AttachNotedOrphans): a concurrent insert may link it again meanwhile.
+    private void NoteOrphan(int slot)
+    {
+        lock (_orphanNotes)
+        {
+            _orphanNotes.Add(slot);
         }
     }
 
@@ -232,7 +237,7 @@ public sealed partial class GraphIndex
         int limit = _links.BottomLimit;
         Span<int> own = _links.Block(orphan, 0);
         int host = -1, victim = -1, fallback = -1;
-        for (int i = 0; i < found && host < 0; i++)
+        for (int i = 0; i < found; i++)
         {
             int candidate = scratch.SortedSlots[i];
             if (!IsAnchor(candidate, orphan, entry, reached))
@@ -243,12 +248,15 @@ public sealed partial class GraphIndex
             Span<int> list = _links.Block(candidate, 0);
             if (list[0] < limit)
             {
+                // Room further out beats a spare link nearer: a target's other in-links may all come from its own
+                // group, so giving the link up can cut that group off, and two groups then trade places every round.
                 host = candidate;
+                victim = -1;
                 break;
             }
 
             fallback = fallback < 0 ? candidate : fallback;
-            int spare = SpareLink(list, own);
+            int spare = victim < 0 ? SpareLink(list, own) : 0;
             if (spare > 0)
             {
                 host = candidate;

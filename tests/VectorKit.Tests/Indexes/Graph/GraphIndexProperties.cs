@@ -101,10 +101,31 @@ public class GraphIndexProperties
 
     [Property(MaxTest = 100)]
     public void WithoutTheGlobalPass_EveryChangeKeepsInDegreesExact_AndEveryLiveNodeLinkedFromSomewhere(int[] operations, byte linksSeed)
+        => ReplayWithoutTheGlobalPass(operations, linksSeed);
+
+    // Shrunk failures of the property above. In both, the entry point loses its last bottom-layer in-link (which it
+    // does not need), then a later add with a higher level takes over as entry point: the old one must then be linked
+    // again before that add ends.
+    [Fact]
+    public void WithoutTheGlobalPass_AnEntryPointCutOffByPruning_IsLinkedAgainWhenAHigherNodeTakesOver()
+        => ReplayWithoutTheGlobalPass([0, 1, 0, 4, 1, 1, 1], 0);
+
+    [Fact]
+    public void WithoutTheGlobalPass_AnEntryPointCutOffByTheRemovalThatPromotedIt_IsLinkedAgainWhenAHigherNodeTakesOver()
+        => ReplayWithoutTheGlobalPass([0, 0, 0, 1, 0, 0, 7, 0, 0, 2, 0, 0, -1, 0, 0, 1, 1, 0, 1], 0);
+
+    // Another shrunk failure: two groups, each linked from outside only by one full list, whose members link to each
+    // other. The global pass must link both back rather than cut one off to attach the other, round after round.
+    [Fact]
+    public void TheGlobalPass_TwoGroupsBehindOneFullList_BothEndReachable()
+        => ReplayWithoutTheGlobalPass([1, 0, 2, 0, 2, -2, 0, -2, -1, -2, -2, 1, -1, 0, 1, 2], 0);
+
+    // The local invariants, checked after every single change with the amortised global pass turned off: each
+    // in-degree count equals the number of lists naming the node, and no live node but the entry point is left
+    // without a bottom-layer in-link. The global pass then finishes with full reachability. An operation divisible by
+    // 3 removes a live id (chosen by the rest of it), any other adds 1 to 4 vectors derived from its bits.
+    private static void ReplayWithoutTheGlobalPass(int[] operations, byte linksSeed)
     {
-        // The local invariants, checked after every single change with the amortised global pass turned off: each
-        // in-degree count equals the number of lists naming the node, and no live node but the entry point is left
-        // without a bottom-layer in-link. The global pass then finishes with full reachability.
         const int d = 4;
         int links = 2 + (linksSeed % 6);
         using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { LinksPerNode = links, BuildWidth = 32, MaxDegreeOfParallelism = 1 });
