@@ -213,36 +213,42 @@ public sealed partial class ExactIndex : VectorIndex
         {
             ThrowIfDisposed();
             ThrowIfNotTrained();
-            if (!replace)
+            int added = ids.Length;
+            if (replace)
+            {
+                foreach (long id in ids)
+                {
+                    added -= _slotOf.ContainsKey(id) ? 1 : 0;
+                }
+            }
+            else
             {
                 _slotOf.CheckAbsent(ids, nameof(ids));
             }
 
             cancellationToken.ThrowIfCancellationRequested();
-            int added = 0;
-            foreach (long id in ids)
-            {
-                added += _slotOf.ContainsKey(id) ? 0 : 1;
-            }
-
-            EnsureCapacity(checked(_count + added));
-            _slotOf.EnsureCapacity(_count + added);
+            int count = _count;
+            EnsureCapacity(checked(count + added));
+            _slotOf.EnsureCapacity(count + added);
             for (int r = 0; r < ids.Length; r++)
             {
                 ReadOnlySpan<float> row = vectors.Slice(r * Dimension, Dimension);
-                if (_slotOf.TryGetValue(ids[r], out int slot))
+                if (replace && _slotOf.TryGetValue(ids[r], out int slot))
                 {
                     Store(slot, row);
                     replaced++;
                 }
                 else
                 {
-                    Store(_count, row);
-                    _ids[_count] = ids[r];
-                    _slotOf.Add(ids[r], _count);
-                    Volatile.Write(ref _count, _count + 1);
+                    Store(count, row);
+                    _ids[count] = ids[r];
+                    _slotOf.Add(ids[r], count);
+                    count++;
                 }
             }
+
+            // Searches wait for the write lock, so the new rows become visible all at once.
+            Volatile.Write(ref _count, count);
         }
 
         progress?.Report(ids.Length);
