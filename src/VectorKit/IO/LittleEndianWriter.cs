@@ -1,13 +1,14 @@
-using System.Buffers;
 using System.Buffers.Binary;
+using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
+using VectorKit.Internal;
 
 namespace VectorKit.IO;
 
 /// <summary>Writes values in little-endian byte order whatever the machine's order.</summary>
 internal static class LittleEndianWriter
 {
-    private const int ChunkValues = 1 << 14;
+    private const int ChunkBytes = 1 << 16;
 
     public static void WriteInt32(Stream stream, int value)
     {
@@ -16,56 +17,36 @@ internal static class LittleEndianWriter
         stream.Write(bytes);
     }
 
-    public static void Write(Stream stream, ReadOnlySpan<float> values)
-        => Write(stream, MemoryMarshal.Cast<float, int>(values));
+    public static void Write(Stream stream, ReadOnlySpan<float> values) => Write<float>(stream, values);
 
-    public static void Write(Stream stream, ReadOnlySpan<int> values)
+    public static void Write(Stream stream, ReadOnlySpan<int> values) => Write<int>(stream, values);
+
+    public static void Write(Stream stream, ReadOnlySpan<long> values) => Write<long>(stream, values);
+
+    // On a big-endian machine each element's bytes are reversed in a pooled chunk before they are written.
+    private static void Write<T>(Stream stream, ReadOnlySpan<T> values)
+        where T : unmanaged
     {
+        ReadOnlySpan<byte> bytes = MemoryMarshal.AsBytes(values);
         if (BitConverter.IsLittleEndian)
         {
-            stream.Write(MemoryMarshal.AsBytes(values));
+            stream.Write(bytes);
             return;
         }
 
-        int[] buffer = ArrayPool<int>.Shared.Rent(Math.Min(values.Length, ChunkValues));
-        try
+        int size = Unsafe.SizeOf<T>();
+        using var chunk = ScratchRental<byte>.Rent(Math.Min(bytes.Length, ChunkBytes / size * size));
+        while (!bytes.IsEmpty)
         {
-            while (!values.IsEmpty)
+            Span<byte> part = chunk.Span[..Math.Min(bytes.Length, chunk.Span.Length)];
+            bytes[..part.Length].CopyTo(part);
+            for (int i = 0; i < part.Length; i += size)
             {
-                int n = Math.Min(values.Length, buffer.Length);
-                BinaryPrimitives.ReverseEndianness(values[..n], buffer.AsSpan(0, n));
-                stream.Write(MemoryMarshal.AsBytes(buffer.AsSpan(0, n)));
-                values = values[n..];
+                part.Slice(i, size).Reverse();
             }
-        }
-        finally
-        {
-            ArrayPool<int>.Shared.Return(buffer);
-        }
-    }
 
-    public static void Write(Stream stream, ReadOnlySpan<long> values)
-    {
-        if (BitConverter.IsLittleEndian)
-        {
-            stream.Write(MemoryMarshal.AsBytes(values));
-            return;
-        }
-
-        long[] buffer = ArrayPool<long>.Shared.Rent(Math.Min(values.Length, ChunkValues));
-        try
-        {
-            while (!values.IsEmpty)
-            {
-                int n = Math.Min(values.Length, buffer.Length);
-                BinaryPrimitives.ReverseEndianness(values[..n], buffer.AsSpan(0, n));
-                stream.Write(MemoryMarshal.AsBytes(buffer.AsSpan(0, n)));
-                values = values[n..];
-            }
-        }
-        finally
-        {
-            ArrayPool<long>.Shared.Return(buffer);
+            stream.Write(part);
+            bytes = bytes[part.Length..];
         }
     }
 }

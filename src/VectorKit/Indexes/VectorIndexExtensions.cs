@@ -1,4 +1,4 @@
-using System.Buffers;
+using VectorKit.Internal;
 
 namespace VectorKit.Indexes;
 
@@ -58,20 +58,7 @@ public static class VectorIndexExtensions
     /// </exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public static void AddRange(this IVectorIndex index, ReadOnlySpan<long> ids, IReadOnlyList<ReadOnlyMemory<float>> vectors)
-    {
-        ArgumentNullException.ThrowIfNull(index);
-        ArgumentNullException.ThrowIfNull(vectors);
-        CheckRowCount(ids.Length, vectors.Count);
-        float[] flat = Flatten(vectors, index.Dimension, nameof(vectors), out int length);
-        try
-        {
-            index.AddRange(ids, flat.AsSpan(0, length));
-        }
-        finally
-        {
-            ArrayPool<float>.Shared.Return(flat);
-        }
-    }
+        => AddRows<ReadOnlyMemory<float>, MemoryRow>(index, ids, vectors);
 
     /// <summary>Adds many vectors at once, one array per vector; all or nothing.</summary>
     /// <param name="index">The index to add to.</param>
@@ -85,20 +72,7 @@ public static class VectorIndexExtensions
     /// </exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public static void AddRange(this IVectorIndex index, ReadOnlySpan<long> ids, IReadOnlyList<float[]> vectors)
-    {
-        ArgumentNullException.ThrowIfNull(index);
-        ArgumentNullException.ThrowIfNull(vectors);
-        CheckRowCount(ids.Length, vectors.Count);
-        float[] flat = Flatten(vectors, index.Dimension, nameof(vectors), out int length);
-        try
-        {
-            index.AddRange(ids, flat.AsSpan(0, length));
-        }
-        finally
-        {
-            ArrayPool<float>.Shared.Return(flat);
-        }
-    }
+        => AddRows<float[], ArrayRow>(index, ids, vectors);
 
     /// <summary>Searches many queries, given one memory block per query; see <see cref="IVectorIndex.SearchBatch"/>.</summary>
     /// <param name="index">The index to search.</param>
@@ -123,20 +97,7 @@ public static class VectorIndexExtensions
         SearchOptions? options = null,
         IProgress<int>? progress = null,
         CancellationToken cancellationToken = default)
-    {
-        ArgumentNullException.ThrowIfNull(index);
-        ArgumentNullException.ThrowIfNull(queries);
-        CheckK(k);
-        float[] flat = Flatten(queries, index.Dimension, nameof(queries), out int length);
-        try
-        {
-            return index.SearchBatch(flat.AsSpan(0, length), k, options, progress, cancellationToken);
-        }
-        finally
-        {
-            ArrayPool<float>.Shared.Return(flat);
-        }
-    }
+        => SearchRows<ReadOnlyMemory<float>, MemoryRow>(index, queries, k, options, progress, cancellationToken);
 
     /// <summary>Searches many queries, given one array per query; see <see cref="IVectorIndex.SearchBatch"/>.</summary>
     /// <param name="index">The index to search.</param>
@@ -161,20 +122,7 @@ public static class VectorIndexExtensions
         SearchOptions? options = null,
         IProgress<int>? progress = null,
         CancellationToken cancellationToken = default)
-    {
-        ArgumentNullException.ThrowIfNull(index);
-        ArgumentNullException.ThrowIfNull(queries);
-        CheckK(k);
-        float[] flat = Flatten(queries, index.Dimension, nameof(queries), out int length);
-        try
-        {
-            return index.SearchBatch(flat.AsSpan(0, length), k, options, progress, cancellationToken);
-        }
-        finally
-        {
-            ArrayPool<float>.Shared.Return(flat);
-        }
-    }
+        => SearchRows<float[], ArrayRow>(index, queries, k, options, progress, cancellationToken);
 
     private static void CheckK(int k)
     {
@@ -193,13 +141,27 @@ public static class VectorIndexExtensions
     }
 
     // Both list shapes share one copy loop; the row accessor is a struct so the loop has no delegate or interface call per row.
-    private static float[] Flatten(IReadOnlyList<ReadOnlyMemory<float>> rows, int dimension, string paramName, out int length)
-        => Flatten<ReadOnlyMemory<float>, MemoryRow>(rows, dimension, paramName, out length);
+    private static void AddRows<TRow, TAccess>(IVectorIndex index, ReadOnlySpan<long> ids, IReadOnlyList<TRow> vectors)
+        where TAccess : struct, IRowAccess<TRow>
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        ArgumentNullException.ThrowIfNull(vectors);
+        CheckRowCount(ids.Length, vectors.Count);
+        using ScratchRental<float> flat = Flatten<TRow, TAccess>(vectors, index.Dimension, nameof(vectors));
+        index.AddRange(ids, flat.Span);
+    }
 
-    private static float[] Flatten(IReadOnlyList<float[]> rows, int dimension, string paramName, out int length)
-        => Flatten<float[], ArrayRow>(rows, dimension, paramName, out length);
+    private static BatchSearchResults SearchRows<TRow, TAccess>(IVectorIndex index, IReadOnlyList<TRow> queries, int k, SearchOptions? options, IProgress<int>? progress, CancellationToken cancellationToken)
+        where TAccess : struct, IRowAccess<TRow>
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        ArgumentNullException.ThrowIfNull(queries);
+        CheckK(k);
+        using ScratchRental<float> flat = Flatten<TRow, TAccess>(queries, index.Dimension, nameof(queries));
+        return index.SearchBatch(flat.Span, k, options, progress, cancellationToken);
+    }
 
-    private static float[] Flatten<TRow, TAccess>(IReadOnlyList<TRow> rows, int dimension, string paramName, out int length)
+    private static ScratchRental<float> Flatten<TRow, TAccess>(IReadOnlyList<TRow> rows, int dimension, string paramName)
         where TAccess : struct, IRowAccess<TRow>
     {
         int count = rows.Count;
@@ -209,8 +171,7 @@ public static class VectorIndexExtensions
             ThrowHelper.ThrowArgument(paramName, $"{paramName} has {count} rows of dimension {dimension}, {total} components in all; one batch holds at most {Array.MaxLength}. Split it.");
         }
 
-        length = (int)total;
-        float[] flat = ArrayPool<float>.Shared.Rent(Math.Max(1, length));
+        ScratchRental<float> flat = ScratchRental<float>.Rent((int)total);
 
         // One pass that reads each row once: checking first and copying later would read the list twice, and a list
         // changed in between could leave stale pooled values in the buffer.
@@ -230,12 +191,12 @@ public static class VectorIndexExtensions
                     ThrowHelper.ThrowArgument(paramName, $"{paramName}[{r}] has {values.Length} components; the index dimension is {dimension}.");
                 }
 
-                values.CopyTo(flat.AsSpan(r * dimension, dimension));
+                values.CopyTo(flat.Span.Slice(r * dimension, dimension));
             }
         }
         catch
         {
-            ArrayPool<float>.Shared.Return(flat);
+            flat.Dispose();
             throw;
         }
 
