@@ -30,10 +30,13 @@ int quartersShown = 0;
 index.AddRange(ids, catalogue.Vectors, new InlineProgress(done =>
 {
     int quarter = done * 4 / ItemCount;
-    int shown = Volatile.Read(ref quartersShown);
-    if (quarter > shown && Interlocked.CompareExchange(ref quartersShown, quarter, shown) == shown)
+    for (int shown = Volatile.Read(ref quartersShown); quarter > shown; shown = Volatile.Read(ref quartersShown))
     {
-        Console.WriteLine($"  linked {done,6:#,0} of {ItemCount:#,0} items");
+        if (Interlocked.CompareExchange(ref quartersShown, quarter, shown) == shown)
+        {
+            Console.WriteLine($"  linked {done,6:#,0} of {ItemCount:#,0} items");
+            break;
+        }
     }
 }));
 Console.WriteLine($"Graph index (default options) built: {index.Count:#,0} items in {catalogue.CategoryCount} categories, {Dimension}-d cosine, {clock.Elapsed.TotalSeconds:0.0} s, {index.MemoryBytes / 1e6:0.0} MB");
