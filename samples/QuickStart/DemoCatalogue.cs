@@ -86,7 +86,8 @@ internal sealed class DemoCatalogue
             string tag = Tags[random.Next(Tags.Length)];
             string kindName = Sections[section].Kinds[kind];
             string name = $"{FirstWords[random.Next(FirstWords.Length)]} {SecondWords[random.Next(SecondWords.Length)]}{(tag.Length > 0 ? " " + tag : "")} {kindName}";
-            items[i] = new GearItem(i, name, Sections[section].Category, kindName, Seasons[season], Builds[build]);
+            bool inStock = random.NextDouble() < 0.7;
+            items[i] = new GearItem(i, name, Sections[section].Category, kindName, Seasons[season], Builds[build], inStock);
 
             Span<float> row = vectors.AsSpan(i * dimension, dimension);
             Compose(row, centroids[section], kinds[KindSlot(section, kind)], seasons[season], builds[build]);
@@ -110,6 +111,27 @@ internal sealed class DemoCatalogue
         Compose(query, _centroids[section], _kindDirections[KindSlot(section, kindIndex)], _seasonDirections[Array.IndexOf(Seasons, season)], _buildDirections[Array.IndexOf(Builds, build)]);
         Normalize(query);
         return query;
+    }
+
+    /// <summary>
+    /// An embedding for an item that is not in the generated catalogue (a new arrival, or an existing item refitted).
+    /// Such an item has no rental history yet, so its embedding is its description's direction with only a little
+    /// noise (generated items carry six times as much); unit length.
+    /// </summary>
+    public float[] EmbedNew(GearItem item, int seed)
+    {
+        var random = new Random(seed);
+        int section = Array.FindIndex(Sections, s => s.Category == item.Category);
+        int kindIndex = Array.IndexOf(Sections[section].Kinds, item.Kind);
+        var row = new float[Dimension];
+        Compose(row, _centroids[section], _kindDirections[KindSlot(section, kindIndex)], _seasonDirections[Array.IndexOf(Seasons, item.Season)], _buildDirections[Array.IndexOf(Builds, item.Build)]);
+        for (int c = 0; c < Dimension; c++)
+        {
+            row[c] += 0.05f * Gaussian(random);
+        }
+
+        Normalize(row);
+        return row;
     }
 
     /// <summary>Queries that look like "members browsing near an item": an item's embedding plus a little noise.</summary>

@@ -7,4 +7,5 @@ namespace QuickStart;
 /// <param name="Kind">The kind of gear, e.g. "touring kayak".</param>
 /// <param name="Season">"summer", "3-season" or "winter".</param>
 /// <param name="Build">"ultralight", "standard" or "expedition".</param>
-internal sealed record GearItem(long Id, string Name, string Category, string Kind, string Season, string Build);
+/// <param name="InStock">Whether a unit is on the shelf for the coming weekend.</param>
+internal sealed record GearItem(long Id, string Name, string Category, string Kind, string Season, string Build, bool InStock);
