@@ -14,8 +14,10 @@ public sealed class SearchOptions
     public static SearchOptions Default { get; } = new();
 
     /// <summary>
-    /// Restricts results to ids for which the predicate returns <see langword="true"/>. The filter is evaluated
-    /// <em>during</em> the search, so a search for k results returns k passing items whenever that many exist.
+    /// Restricts results to ids for which the predicate returns <see langword="true"/>. Default
+    /// <see langword="null"/>: no filter. The filter is evaluated <em>during</em> the search, so a search for k results
+    /// returns k passing items whenever that many exist (an approximate index may reach fewer). A selective filter
+    /// makes an approximate search walk or probe further before it finds k passing items.
     /// </summary>
     /// <remarks>
     /// The predicate may be called concurrently from several threads during a batch search and must be thread-safe.
@@ -24,8 +26,9 @@ public sealed class SearchOptions
     public Func<long, bool>? Filter { get; init; }
 
     /// <summary>
-    /// The most threads a batch search uses; -1 (the default) means one per core.
-    /// Single-query searches always run on the calling thread.
+    /// The most threads a batch search uses. Default -1, meaning one per core; otherwise 1 or more. Fewer threads
+    /// leave cores to concurrent work and make a batch take longer. Single-query searches always run on the calling
+    /// thread.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
     public int MaxDegreeOfParallelism
@@ -36,7 +39,7 @@ public sealed class SearchOptions
 
     /// <summary>
     /// How widely an approximate index searches; larger is slower and finds more of the true nearest items.
-    /// <see langword="null"/> uses the index's own default. For the graph index it is the number of candidates kept
+    /// <see langword="null"/> (the default) uses the index's own default; otherwise 1 or more. For the graph index it is the number of candidates kept
     /// during the walk (the beam width); for the inverted-file index it is the number of lists probed per query. The
     /// exact index ignores it.
     /// </summary>
@@ -58,7 +61,9 @@ public sealed class SearchOptions
     /// <summary>
     /// For an index that searches compressed codes and keeps the full vectors: how many of the best candidates by
     /// code distance are re-scored exactly on the full vectors before the best k are returned. 0 turns re-scoring off
-    /// for this call; <see langword="null"/> uses the index's own default. Indexes without full vectors ignore it.
+    /// for this call; <see langword="null"/> (the default) uses the index's own default; otherwise 1 or more. Deeper
+    /// recovers more misranked neighbours at one full-vector distance per candidate. Indexes without full vectors
+    /// ignore it.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is negative.</exception>
     public int? RescoreDepth

@@ -26,7 +26,8 @@ public abstract class VectorIndexOptions
     /// <summary>
     /// How the vectors are held and searched: <see cref="VectorEncoding.Float32"/> (the default: exact distances, no
     /// training), or a compressed encoding that the index must learn with <see cref="ITrainableIndex.Train"/> before
-    /// the first add. Each index kind names the encodings it offers.
+    /// the first add. Each index kind names the encodings it offers. A compressed encoding makes the index smaller and
+    /// its scans read fewer bytes, at the cost of approximate distances (see <see cref="RescoreDepth"/>).
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is not an encoding this index kind offers.</exception>
     public VectorEncoding Encoding
@@ -49,7 +50,9 @@ public abstract class VectorIndexOptions
     /// memory or in an external source: <see cref="FullVectors"/>) and, by default, re-scores this many best candidates
     /// (by code distance) exactly before the best k are returned; a search overrides the depth with
     /// <see cref="SearchOptions.RescoreDepth"/>. 0 (the default) keeps no full vectors, so distances are the codes'
-    /// approximations. Ignored under <see cref="VectorEncoding.Float32"/>, which is exact already.
+    /// approximations; allowed 0 to <see cref="MaxRescoreDepth"/>. A deeper re-score recovers more of the neighbours
+    /// the codes misrank and costs one full-vector distance per candidate. Ignored under
+    /// <see cref="VectorEncoding.Float32"/>, which is exact already.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [0, <see cref="MaxRescoreDepth"/>].</exception>
     public int RescoreDepth
@@ -70,8 +73,9 @@ public abstract class VectorIndexOptions
     /// Where re-scoring (a positive <see cref="RescoreDepth"/> under a compressed <see cref="Encoding"/>) reads full
     /// vectors: a copy kept in the index's memory (the default), or an <see cref="IFullVectorSource"/> attached with
     /// <see cref="IExternalFullVectors.AttachFullVectors"/>, such as a <c>VectorKit.IO.FileVectorSource</c> over the
-    /// file the vectors came from. The external choice saves 4 × dimension bytes per vector of memory and of the index's
-    /// file, at the cost of one read per re-scored candidate. Ignored when re-scoring is off.
+    /// file the vectors came from. Default <see cref="FullVectorLocation.InIndexMemory"/>. The external choice saves
+    /// 4 × dimension bytes per vector of memory and of the index's file, at the cost of one read per re-scored
+    /// candidate. Ignored when re-scoring is off.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="FullVectorLocation"/>.</exception>
     public FullVectorLocation FullVectors

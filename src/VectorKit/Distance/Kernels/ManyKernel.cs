@@ -43,8 +43,8 @@ internal static class ManyKernel
     }
 
     // Never inlined: inlined into a large caller at tier 1 (the dispatcher, and through it the caller's loop) the
-    // lane structs were no longer kept in registers and the kernel ran several times slower (measured 5x on the
-    // one-against-many benchmark). A call per block of rows costs nothing measurable.
+    // lane structs were no longer kept in registers and the kernel ran several times slower on the one-against-many
+    // benchmark. A call per block of rows costs nothing measurable.
     [MethodImpl(MethodImplOptions.NoInlining | MethodImplOptions.AggressiveOptimization)]
     private static void Compute<TStep, TLane>(ref float query, ref float rows, int dimension, int rowCount, ref float results)
         where TStep : struct, IAccumulateStep

@@ -85,8 +85,8 @@ internal static class PairKernel
     }
 
     // Never inlined: inlined into a large caller at tier 1 (the dispatcher, and through it the caller's loop) the
-    // lane structs were no longer kept in registers and the kernel ran several times slower (measured 5x on the
-    // one-against-many benchmark). A call per block of rows costs nothing measurable.
+    // lane structs were no longer kept in registers and the kernel ran several times slower on the one-against-many
+    // benchmark. A call per block of rows costs nothing measurable.
     [MethodImpl(MethodImplOptions.NoInlining | MethodImplOptions.AggressiveOptimization)]
     private static void CosineParts<TLane>(ref float a, ref float b, int length, out float dot, out float aa, out float bb)
         where TLane : struct, IVectorLane<TLane>

@@ -9,38 +9,25 @@ namespace VectorKit.Indexes.Exact;
 
 /// <summary>
 /// Exact (brute-force) k-nearest-neighbour search: every query is compared with every stored vector. It is the
-/// ground truth approximate indexes are measured against, and the right choice up to about 10⁵ vectors.
+/// ground truth approximate indexes are measured against, and the right choice while a full scan is fast enough.
 /// </summary>
 /// <remarks>
-/// <para><b>Storage.</b> All vectors sit in one contiguous native block (N × d × 4 bytes), with one id per row and,
-/// except under cosine, one squared norm per row. Removing a vector moves the last row into its place, so the scan
-/// never meets holes. Memory beyond the vectors is about 40 bytes per vector (id, norm, id lookup), plus the
-/// growth slack left by one-at-a-time adds (up to half; <see cref="Compact"/> releases it).</para>
-/// <para><b>Search.</b> A single query streams the block once through the one-against-many kernel and keeps the best
-/// k in a bounded heap. A batch is tiled: blocks of queries against cache-sized blocks of rows through a register-tiled
-/// dot-product kernel, in parallel across query blocks. Its candidates are re-scored with the single-query kernel, and a
-/// rounding-error bound proves per query that no result of the single search was missed; a query whose candidates
-/// cannot be proven complete (data far from the origin, where ‖q‖² + ‖x‖² − 2 q·x cancels) is answered by a single-query
-/// scan instead. A batch therefore returns exactly what single searches would. The filter is checked per row before
-/// its distance is computed.</para>
-/// <para><b>8-bit storage.</b> With <see cref="VectorIndexOptions.Encoding"/> set to <see cref="VectorEncoding.Scalar8Bit"/>
-/// the rows are one-byte-per-component codes (<see cref="ScalarQuantizer"/>, ranges learnt by <see cref="Train"/>,
-/// which must run before the first add) in one contiguous native block, and a search streams the codes once through
-/// the SIMD byte-code kernel: distances are those of the query to the decoded codes. With a positive
-/// <see cref="VectorIndexOptions.RescoreDepth"/> the full vectors are kept as well and the best candidates are re-scored
-/// exactly (the same numbers as a float32 exact index). A batch under 8-bit storage runs the single-query scan for
-/// each query, queries in parallel: the tiled kernel and its completeness proof are for float32 rows.</para>
-/// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
-/// <see cref="VectorIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
-/// only the codes: re-scoring reads each candidate's vector from the <see cref="IFullVectorSource"/> given at
-/// construction or attached later with <see cref="VectorIndex.AttachFullVectors"/> (a loaded index has none until then; a search
-/// that would re-score without one throws <see cref="InvalidOperationException"/>). Under cosine the rows read are
-/// normalised as the index normalises added vectors, so the results equal, bit for bit, those of the same index keeping
-/// the vectors in memory. The source is neither saved nor disposed by the index. Under float32 storage the option is
-/// ignored: the rows are the full vectors.</para>
+/// <para><b>Storage.</b> All vectors sit in one contiguous native block with one id per row (and, except under cosine,
+/// one squared norm). Removing a vector moves the last row into its place, so the scan never meets holes;
+/// <see cref="Compact"/> releases growth slack. Under <see cref="VectorEncoding.Scalar8Bit"/> the rows are one-byte
+/// codes learnt by <see cref="Train"/>, which must run before the first add.</para>
+/// <para><b>Cost.</b> A search reads every stored row once, so its cost grows linearly with the count and the
+/// dimension; a filter is checked per row before its distance is computed. A batch search is tiled across queries and
+/// rows and runs in parallel.</para>
+/// <para><b>Results.</b> Best first, ties by id. A batch returns exactly what single searches would: its candidates are
+/// re-scored with the single-query kernel, and a query whose completeness cannot be proven is scanned singly. Under
+/// 8-bit storage distances are to the decoded codes, unless re-scoring (<see cref="VectorIndexOptions.RescoreDepth"/>)
+/// replaces the best candidates' distances with exact ones, read from memory or from an <see cref="IFullVectorSource"/>
+/// (<see cref="VectorIndexOptions.FullVectors"/>).</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds and
-/// removes wait for running searches and block new ones until they finish, so a search sees the index entirely before
-/// or entirely after each write. A batch search holds the index for its whole duration.</para>
+/// removes are exclusive, so a search sees the index entirely before or entirely after each write. A batch search holds
+/// the index for its whole duration.</para>
+/// <para>See docs/choosing-an-index.md in the repository for when an exact scan is the right choice.</para>
 /// </remarks>
 public sealed partial class ExactIndex : VectorIndex
 {

@@ -14,7 +14,10 @@ public sealed class ExactIndexOptions : VectorIndexOptions
     /// <summary>The defaults: no space reserved up front, float32 encoding, no re-scoring.</summary>
     public static ExactIndexOptions Default { get; } = new();
 
-    /// <summary>Vectors to reserve space for up front, to avoid moving the storage while adding one at a time.</summary>
+    /// <summary>
+    /// Vectors to reserve space for up front. Default 0; allowed 0 or more. Reserving the expected count avoids
+    /// growing (and copying) the storage while adding one at a time, at the cost of holding that memory from the start.
+    /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is negative.</exception>
     public int InitialCapacity
     {

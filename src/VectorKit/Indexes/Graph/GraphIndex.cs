@@ -7,71 +7,31 @@ using VectorKit.Internal;
 namespace VectorKit.Indexes.Graph;
 
 /// <summary>
-/// Approximate k-nearest-neighbour search over a hierarchical navigable small-world graph (HNSW; Malkov &amp; Yashunin,
-/// IEEE TPAMI 2020, arXiv:1603.09320): a layered proximity graph searched by greedy descent through the upper layers
-/// and a beam search on the bottom layer. From about 10⁵ items it answers at a small fraction of a full scan's cost.
+/// Approximate k-nearest-neighbour search over a hierarchical navigable small-world graph (HNSW). On large indexes a
+/// search reads a small fraction of the items, so it costs far less than a full scan, at the price of occasionally
+/// missing a true neighbour.
 /// </summary>
 /// <remarks>
-/// <para><b>Structure.</b> Each item gets a level drawn from <c>⌊−ln(U) / ln(M)⌋</c> (U uniform, M =
-/// <see cref="GraphIndexOptions.LinksPerNode"/>, a seeded generator, in insertion order), and is linked on every layer
-/// up to its level to neighbours chosen by the published heuristic (its Algorithm 4): a candidate is kept only if it is
-/// nearer to the new item than to every neighbour already kept. Links are bidirectional; a list that outgrows its
-/// limit is pruned by the same heuristic.</para>
-/// <para><b>Storage.</b> Vectors sit in one contiguous native block as in the exact index; links in flat int arrays
-/// (see <see cref="VectorIndex.MemoryBytes"/>). Under <see cref="VectorEncoding.Scalar8Bit"/> (<see cref="VectorIndexOptions.Encoding"/>)
-/// the block holds one 8-bit code per vector instead (a quarter of the bytes; <see cref="Train"/> learns the ranges
-/// first), and every distance the graph computes (walks, neighbour selection, removal repair, re-linking, the
-/// filtered scan, <see cref="Compact"/>) is computed on the codes: a query against a code on the SIMD byte-code
-/// kernel, a node against a node by decoding one of them. With a positive <see cref="VectorIndexOptions.RescoreDepth"/>
-/// the full vectors are kept beside the codes, and the best candidates of each search are re-scored on them.</para>
-/// <para><b>Full vectors from a source.</b> Under 8-bit storage with re-scoring on and
-/// <see cref="VectorIndexOptions.FullVectors"/> set to <see cref="FullVectorLocation.ExternalSource"/>, the index keeps
-/// only the codes: re-scoring reads each candidate's vector from the <see cref="IFullVectorSource"/> given at
-/// construction or attached later with <see cref="VectorIndex.AttachFullVectors"/> (a loaded index has none until then; a search
-/// that would re-score without one throws <see cref="InvalidOperationException"/>). Under cosine the rows read are
-/// normalised as the index normalises added vectors, and the graph is built on the codes either way, so the results
-/// equal, bit for bit, those of the same index keeping the vectors in memory. The source is neither saved nor disposed
-/// by the index. Under float32 storage the option is ignored: the rows are the full vectors.</para>
-/// <para><b>Results.</b> Under float32 storage, distances are those of the exact index (same kernels, bit for bit),
-/// best first, ties by id. A search keeps <c>max(k, width, depth)</c> candidates, width being
-/// <see cref="SearchOptions.SearchWidth"/> or <see cref="GraphIndexOptions.SearchWidth"/> and depth the re-score
-/// depth when full vectors are kept (else 0); it may return fewer than k items when the graph walk reaches fewer
-/// (rare, on tiny or heavily filtered indexes). Under 8-bit codes, distances are to the decoded codes; with
-/// re-scoring, the best <c>max(k, depth)</c> candidates by code distance get the exact index's distances (bit for bit)
-/// and the k results are the best k of them, so every distance returned is exact.</para>
-/// <para><b>Filters.</b> <see cref="SearchOptions.Filter"/> is evaluated during the walk: items it rejects still lead the
-/// walk on but are never returned. When a fixed sample of 256 items suggests that fewer pass than a measured cost
-/// model says a walk can afford (<see cref="GraphIndexOptions.FilteredExactScanFraction"/>: about 8 % of 60,000 items
-/// at the default width, 2 % of 10⁶), the search scans the passing items exactly instead, faster and exact.</para>
-/// <para><b>Removal.</b> A removed item is never returned. Every list that linked to it is chosen again by the heuristic
-/// from its remaining links and the removed item's links, so no live node links to a removed one; the item's vector
-/// keeps its space until <see cref="Compact"/> rebuilds the graph from the live items and releases it. Each list
-/// keeps a count of the lists naming it (its in-degree), so the lists to repair are found by a short walk near the
-/// removed item rather than a scan: a removal costs the same on a large index as on a small one.</para>
-/// <para><b>Reachability.</b> Every live item stays reachable from the entry point on the bottom layer, kept at two
-/// levels. Locally, at once: pruning a full list can take the last in-link of a node (clusters of exact duplicates
-/// do it readily), and a node left with none is linked again from a node near it at the end of the add or removal
-/// that cut it off. Globally, amortised: a group of nodes that only link to each other would still be cut off, so a
-/// pass walks the whole bottom layer from the entry point and links every unreached item; it runs once the adds and
-/// removals since the last pass reach an eighth of <see cref="VectorIndex.Count"/> (so after every bulk build, and at least once
-/// per eighth of the index for single changes), and always after <see cref="Compact"/>. Its cost,
-/// <c>O(items × bottom links)</c> reads, is thus spread over many changes, and each single add or removal costs a
-/// local amount of work. Between passes a cut-off group is possible in principle; the tests count how many the pass
-/// finds.</para>
-/// <para><b>Writes.</b> <see cref="VectorIndex.AddRange"/> stores the new vectors in a short exclusive step, then links
-/// them in parallel (<see cref="GraphIndexOptions.MaxDegreeOfParallelism"/> threads) while searches proceed: a concurrent
-/// search may see some items of the batch before it completes. A cancelled batch takes its items out again (the lists
-/// that linked to them are repaired as by <see cref="VectorIndex.RemoveRange"/>), so none of it remains and a retry
-/// succeeds; the links of other items may differ from before. <see cref="VectorIndex.AddOrReplaceRange"/> is exclusive
-/// from start to end: new vectors are linked as new nodes, then each replaced id moves to its new node in one step and
-/// its old node is removed with repair, so a search sees the old vector or the new one.</para>
+/// <para><b>Structure.</b> A layered proximity graph as published by Malkov &amp; Yashunin (IEEE TPAMI 2020,
+/// arXiv:1603.09320): each item gets a random level (<c>⌊−ln(U) / ln(M)⌋</c>, M = <see cref="GraphIndexOptions.LinksPerNode"/>)
+/// and bidirectional links chosen by the paper's neighbour-selection heuristic; a search descends greedily through the
+/// upper layers and runs a beam search on the bottom one.</para>
+/// <para><b>Results.</b> Best first, ties by id. Under float32 storage each distance equals the exact index's, bit for
+/// bit; under <see cref="VectorEncoding.Scalar8Bit"/> distances are to the decoded codes, unless re-scoring
+/// (<see cref="VectorIndexOptions.RescoreDepth"/>) replaces them with exact ones. A search may return fewer than k items
+/// when the walk reaches fewer (tiny or heavily filtered indexes).</para>
+/// <para><b>Filters.</b> <see cref="SearchOptions.Filter"/> is applied during the walk; when a sample suggests that too
+/// few items pass for a walk to pay off (<see cref="GraphIndexOptions.FilteredExactScanFraction"/>), the passing items
+/// are scanned exactly instead.</para>
+/// <para><b>Writes.</b> <see cref="VectorIndex.AddRange"/> links new items in parallel while searches proceed; a
+/// cancelled batch is taken out again. A removed item is never returned, and the lists that linked to it are repaired
+/// at once, at a cost that does not grow with the index; its space is released by <see cref="Compact"/>. Every live item is kept reachable from the entry point: a
+/// node cut off by pruning is re-linked at once, and a full reachability pass runs after enough changes.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with the
-/// linking phase of <see cref="VectorIndex.Add"/> and <see cref="VectorIndex.AddRange"/>: an add
-/// first waits for running searches while it stores the vectors (a short exclusive step), then links the new items
-/// while searches proceed; a concurrent search may or may not see an item being linked, and never sees a removed one.
-/// Several adds may link at once (per-node locks). The short repair step at the end of an add (attaching nodes left
-/// without in-links, and the global pass when it is due), <see cref="VectorIndex.Remove"/>, <see cref="VectorIndex.RemoveRange"/>,
-/// <see cref="Compact"/> and <see cref="VectorIndex.Dispose"/> are exclusive: they wait for running searches and adds.</para>
+/// linking phase of adds, and may or may not see an item being linked. Removal, <see cref="Compact"/>,
+/// <see cref="VectorIndex.Dispose"/> and the short store and repair steps of an add are exclusive.</para>
+/// <para>See docs/choosing-an-index.md, docs/live-updates.md and docs/filters.md in the repository for when to use
+/// this index, how updates behave, and how filters are evaluated.</para>
 /// </remarks>
 public sealed partial class GraphIndex : VectorIndex
 {

@@ -27,7 +27,8 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     /// <summary>
     /// Links each node keeps on the upper layers, and the number of neighbours chosen for a new node on every layer
     /// (the published method's M). It also sets the level distribution: a node reaches level ℓ with probability
-    /// <c>LinksPerNode^-ℓ</c>. More links give higher recall and cost memory and build time. Default 16.
+    /// <c>LinksPerNode^-ℓ</c>. Default 16; allowed 2 to <see cref="MaxLinks"/>. More links give higher recall at the
+    /// cost of memory, build time and a slower walk per step; fewer links make a smaller, faster graph that misses more.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [2, <see cref="MaxLinks"/>].</exception>
     public int LinksPerNode
@@ -37,8 +38,9 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     }
 
     /// <summary>
-    /// Links each node may keep on the bottom layer, which holds every node; <see langword="null"/> (the default)
-    /// means twice <see cref="LinksPerNode"/> (capped at <see cref="MaxLinks"/>).
+    /// Links each node may keep on the bottom layer, which holds every node and where most of a search's work happens.
+    /// <see langword="null"/> (the default) means twice <see cref="LinksPerNode"/>, capped at <see cref="MaxLinks"/>;
+    /// allowed 2 to <see cref="MaxLinks"/>. More links raise recall and cost memory and build time.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [2, <see cref="MaxLinks"/>].</exception>
     public int? BottomLayerLinks
@@ -55,7 +57,11 @@ public sealed class GraphIndexOptions : VectorIndexOptions
         }
     }
 
-    /// <summary>Candidates kept by the beam search that finds a new node's neighbours; larger builds a better graph, slower. Default 128.</summary>
+    /// <summary>
+    /// Candidates kept by the beam search that finds a new node's neighbours. Default 128; allowed 1 to 100,000.
+    /// Larger builds a better graph (higher recall at any search width) and makes adds slower; it does not change
+    /// memory or search cost.
+    /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 100000].</exception>
     public int BuildWidth
     {
@@ -65,7 +71,8 @@ public sealed class GraphIndexOptions : VectorIndexOptions
 
     /// <summary>
     /// Candidates kept by a query's beam search when <see cref="SearchOptions.SearchWidth"/> is not given; a search
-    /// for k results always keeps at least k. Default 64.
+    /// for k results always keeps at least k. Default 64; allowed 1 to 100,000. Wider finds more of the true nearest
+    /// items and makes each search slower, roughly in proportion.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 100000].</exception>
     public int SearchWidth
@@ -74,10 +81,16 @@ public sealed class GraphIndexOptions : VectorIndexOptions
         init => _searchWidth = OptionChecks.InRange(value, 1, 100_000, nameof(SearchWidth));
     }
 
-    /// <summary>Seed of the level draws: the same seed and the same insertion order give the same levels. Default 42.</summary>
+    /// <summary>
+    /// Seed of the level draws: the same seed and the same insertion order give the same levels. Default 42; any value.
+    /// It changes which graph is built, not its expected quality.
+    /// </summary>
     public int Seed { get; init; } = 42;
 
-    /// <summary>Vectors to reserve space for up front. Default 0.</summary>
+    /// <summary>
+    /// Vectors to reserve space for up front. Default 0; allowed 0 or more. Reserving the expected count avoids
+    /// growing (and copying) the storage while adding, at the cost of holding that memory from the start.
+    /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is negative.</exception>
     public int InitialCapacity
     {
@@ -85,7 +98,10 @@ public sealed class GraphIndexOptions : VectorIndexOptions
         init => _initialCapacity = OptionChecks.NonNegative(value, nameof(InitialCapacity));
     }
 
-    /// <summary>The most threads a batch insert (and <see cref="GraphIndex.Compact"/>) uses; -1 (the default) means one per core.</summary>
+    /// <summary>
+    /// The most threads a batch insert (and <see cref="GraphIndex.Compact"/>) uses. Default -1, meaning one per core;
+    /// otherwise 1 or more. Fewer threads leave cores to concurrent work and make bulk builds slower.
+    /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
     public int MaxDegreeOfParallelism
     {
@@ -96,17 +112,15 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     /// <summary>
     /// When a search filter passes less than this fraction of the items (estimated from a fixed sample of 256 items),
     /// the search scans the passing items exactly instead of walking the graph. <see langword="null"/> (the default)
-    /// chooses the fraction per search from a measured cost model; 0 never scans; 1 always scans.
+    /// chooses the fraction per search from a cost model; 0 never scans; 1 always scans; allowed 0 to 1. A higher
+    /// fraction scans more often: exact results, but a cost that grows with the index.
     /// </summary>
     /// <remarks>
-    /// <para>The cost model. A filtered walk keeps going until its beam holds <c>width</c> passing items, so its cost
-    /// grows as <c>1 / p</c> for a pass rate <c>p</c>; the scan computes <c>p × Count</c> distances. The two meet at
-    /// <c>p* = √(0.2 × width × bottom links / Count)</c>, the constant fitted to two runs of the <c>filter-sweep</c>
-    /// benchmark on Fashion-MNIST (60,000 × 784, width 64, 32 bottom links: the walk is 2.5–3 times slower than the
-    /// scan at 5 %, 1.4–1.7 times faster at 10 %; crossover near 8 %; see benchmarks/RESULTS.md). Below <c>p*</c>
-    /// the scan is both faster and exact. For 10⁶ items at the defaults <c>p*</c> is about 2 %; for 10⁴ items about
-    /// 20 %. One data set fitted the constant: treat it as a starting point and set a fixed fraction when a
-    /// measurement on your own data says otherwise.</para>
+    /// The cost model: a filtered walk keeps going until its beam holds <c>width</c> passing items, so its cost grows
+    /// as <c>1 / p</c> for a pass rate <c>p</c>, while the scan computes <c>p × Count</c> distances. The two meet at
+    /// <c>p* = √(0.2 × width × bottom links / Count)</c>, so the threshold falls as the index grows. The constant was
+    /// fitted on one data set (the filter-sweep benchmark; see benchmarks/RESULTS.md): set a fixed fraction when your
+    /// own data says otherwise.
     /// </remarks>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [0, 1] or is NaN.</exception>
     public double? FilteredExactScanFraction

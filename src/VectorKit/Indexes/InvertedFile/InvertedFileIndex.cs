@@ -15,29 +15,21 @@ namespace VectorKit.Indexes.InvertedFile;
 /// </summary>
 /// <remarks>
 /// <para><b>Training first.</b> <see cref="Train"/> learns the centroids (and the residual quantizer) from a sample;
-/// adding or searching before that throws <see cref="IndexNotTrainedException"/>. Vectors are assigned to lists by
-/// squared Euclidean distance under every metric (under cosine they are unit vectors, where that ranks like the
-/// cosine), and a query probes the lists of its nearest centroids by the same distance.</para>
-/// <para><b>Storage.</b> Each list keeps its codes in one contiguous array (a list's vectors are scanned front to
-/// back) and a parallel array of slot numbers; per slot the index keeps the id, list and position in flat arrays, and
-/// the full vectors (when kept) in one native block. Compressed codes encode the residual <c>x − centroid</c> (product
-/// codes with <see cref="InvertedFileOptions.ProductCodeRotation"/>: <c>R·(x − centroid)</c>).
-/// Removing a vector moves the last entry of its list into its place, so lists never hold holes.</para>
-/// <para><b>Distances.</b> Float32 lists report exact distances (the same numbers as <see cref="Exact.ExactIndex"/>).
-/// Compressed lists report the distance to the code's reconstruction, unless re-scoring is on, in which case the
-/// returned hits carry exact distances computed on the full vectors. A filter is checked during the scan of the probed
-/// lists, so fewer than k results come back when the probed lists hold fewer than k passing items.</para>
-/// <para><b>Full vectors from a source.</b> With <see cref="VectorIndexOptions.FullVectors"/> set to
-/// <see cref="FullVectorLocation.ExternalSource"/>, the index keeps no full vectors: re-scoring reads each candidate's
-/// vector from the <see cref="IFullVectorSource"/> given at construction or attached later with
-/// <see cref="VectorIndex.AttachFullVectors"/> (a loaded index has none until then; a search that would re-score without one
-/// throws <see cref="InvalidOperationException"/>). Under cosine the rows read are normalised as the index normalises
-/// added vectors, so the results equal, bit for bit, those of the same index keeping the vectors in memory.</para>
+/// adding or searching before that throws <see cref="IndexNotTrainedException"/>. Lists are assigned and probed by
+/// squared Euclidean distance under every metric (under cosine the vectors are unit length, where that ranks like the
+/// cosine). Compressed codes encode the residual <c>x − centroid</c>.</para>
+/// <para><b>Cost.</b> A search compares the query with every centroid, then scans only the lists of the
+/// <see cref="InvertedFileOptions.SearchWidth"/> nearest ones: more probes find more true neighbours and cost
+/// proportionally more. Removing a vector moves the last entry of its list into its place, so lists never hold holes.</para>
+/// <para><b>Results.</b> Best first, ties by id. Float32 lists report the same distances as <see cref="Exact.ExactIndex"/>;
+/// compressed lists report the distance to the code's reconstruction, unless re-scoring
+/// (<see cref="VectorIndexOptions.RescoreDepth"/>) replaces them with exact ones, read from memory or from an
+/// <see cref="IFullVectorSource"/> (<see cref="VectorIndexOptions.FullVectors"/>). A filter is checked while the probed
+/// lists are scanned, so fewer than k results come back when they hold fewer than k passing items.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds
-/// and removes wait for running searches and block new ones. A batch search holds the index for its duration.</para>
-/// <para><b>Persistence.</b> <c>VectorKit.Persistence.IndexFile</c> saves and loads the index, trained or not (options,
-/// centroids, the quantizer, the lists and the full vectors when kept in memory; an external source is neither saved
-/// nor disposed by the index: attach it again after loading).</para>
+/// and removes are exclusive. A batch search holds the index for its duration.</para>
+/// <para><b>Persistence.</b> <c>VectorKit.Persistence.IndexFile</c> saves and loads the index, trained or not; an
+/// external full-vector source is neither saved nor disposed: attach it again after loading.</para>
 /// </remarks>
 public sealed partial class InvertedFileIndex : VectorIndex
 {

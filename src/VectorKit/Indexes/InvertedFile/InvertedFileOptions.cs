@@ -23,8 +23,9 @@ public sealed class InvertedFileOptions : VectorIndexOptions
     public static InvertedFileOptions Default { get; } = new();
 
     /// <summary>
-    /// The number of lists, each around one centroid learnt by k-means. More lists make each list shorter (a probe
-    /// reads less) and the centroid search longer; about √N to 4√N for N vectors is common practice. Default 1,024.
+    /// The number of lists, each around one centroid learnt by k-means. Default 1,024; allowed 1 to 1,048,576. More
+    /// lists make each list shorter (a probe reads less) and the centroid search and training longer; about √N to 4√N
+    /// for N vectors is common practice.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 1048576].</exception>
     public int ListCount
@@ -42,9 +43,9 @@ public sealed class InvertedFileOptions : VectorIndexOptions
     }
 
     /// <summary>
-    /// Lists probed per query by default: the query's nearest centroids' lists are scanned. More probes find more of
-    /// the true neighbours and cost time in proportion. A search overrides it with <see cref="SearchOptions.SearchWidth"/>.
-    /// Values above <see cref="ListCount"/> probe every list. Default 16.
+    /// Lists probed per query by default: the query's nearest centroids' lists are scanned. Default 16; allowed 1 or
+    /// more, and values above <see cref="ListCount"/> probe every list. More probes find more of the true neighbours
+    /// and cost time in proportion. A search overrides it with <see cref="SearchOptions.SearchWidth"/>.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is not positive.</exception>
     public int SearchWidth
@@ -55,7 +56,8 @@ public sealed class InvertedFileOptions : VectorIndexOptions
 
     /// <summary>
     /// Bytes per product-quantization code (the number of sub-spaces) under <see cref="VectorEncoding.ProductCodes"/>;
-    /// it must divide the dimension (no padding). 8 to 64 is the usual range. Default 16.
+    /// it must divide the dimension (no padding). Default 16; allowed 1 to 4,096, 8 to 64 being the usual range. More
+    /// bytes give closer distances and cost memory and scan time in proportion. Ignored under the other storages.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [1, 4096].</exception>
     public int ProductCodeBytes
@@ -66,8 +68,11 @@ public sealed class InvertedFileOptions : VectorIndexOptions
 
     /// <summary>
     /// Under <see cref="VectorEncoding.ProductCodes"/>, an orthogonal rotation learnt with the product quantizer and applied
-    /// to residuals before they are cut into sub-spaces (and to each query once per search). Ignored under the other
-    /// storages. Default <see cref="SubspaceRotation.None"/>.
+    /// to residuals before they are cut into sub-spaces (and to each query once per search). Default
+    /// <see cref="SubspaceRotation.None"/>; allowed <see cref="SubspaceRotation.None"/> or
+    /// <see cref="SubspaceRotation.VarianceBalanced"/>. A rotation spreads the variance evenly over the sub-spaces,
+    /// which usually makes codes more accurate, at the cost of longer training and one rotation per query. Ignored under
+    /// the other storages.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is not a defined <see cref="SubspaceRotation"/>.</exception>
     public SubspaceRotation ProductCodeRotation
@@ -84,7 +89,11 @@ public sealed class InvertedFileOptions : VectorIndexOptions
         }
     }
 
-    /// <summary>The most k-means iterations for the centroids (and for each product-quantizer sub-space). Default 20.</summary>
+    /// <summary>
+    /// The most k-means iterations for the centroids (and for each product-quantizer sub-space). Default 20; allowed 0
+    /// to 10,000. More iterations can place centroids better and make training slower; k-means stops earlier once
+    /// the centroids settle.
+    /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [0, 10000].</exception>
     public int MaxIterations
     {
@@ -95,7 +104,8 @@ public sealed class InvertedFileOptions : VectorIndexOptions
     /// <summary>
     /// The most training rows k-means uses for the centroids (a uniform sample of what <see cref="InvertedFileIndex.Train"/>
     /// receives); <see langword="null"/> (the default) means 64 per list, a common-practice size that keeps training
-    /// fast. The residual quantizer trains on at most 65,536 rows.
+    /// fast; otherwise 1 or more. A larger sample places centroids more faithfully and makes training slower. The
+    /// residual quantizer trains on at most 65,536 rows.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is not positive.</exception>
     public int? SampleSize
@@ -112,10 +122,16 @@ public sealed class InvertedFileOptions : VectorIndexOptions
         }
     }
 
-    /// <summary>The seed of every random choice in training: the same sample and seed give the same index. Default 42.</summary>
+    /// <summary>
+    /// The seed of every random choice in training: the same sample and seed give the same index. Default 42; any
+    /// value. It changes which centroids are found, not their expected quality.
+    /// </summary>
     public int Seed { get; init; } = 42;
 
-    /// <summary>The most threads training and bulk adds use; -1 (the default) means one per core.</summary>
+    /// <summary>
+    /// The most threads training and bulk adds use. Default -1, meaning one per core; otherwise 1 or more. Fewer
+    /// threads leave cores to concurrent work and make training and bulk adds slower.
+    /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is 0 or less than -1.</exception>
     public int MaxDegreeOfParallelism
     {
