@@ -26,7 +26,7 @@ internal sealed class DemoCatalogue
     private static readonly string[] FirstWords =
     [
         "Alpine", "Tarn", "Scree", "Juniper", "Basalt", "Fjord", "Heron", "Lichen", "Moraine", "Talus",
-        "Cedar", "Granite", "Larch", "Marmot", "Cirque", "Fern", "Osprey", "Kestrel", "Bramble", "Glacier",
+        "Cedar", "Granite", "Larch", "Ptarmigan", "Cirque", "Fern", "Plover", "Kestrel", "Bramble", "Glacier",
     ];
 
     private static readonly string[] SecondWords =
