@@ -46,7 +46,7 @@ public static class IndexGuide
         Measure(rows, "exact, 8-bit", () => new ExactIndex(d, DistanceMetric.SquaredEuclidean, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 0 }), train: true,
             "Exact-scan simplicity in about a quarter of the memory, recall just under 1.", data, ids, queries, ref truth);
         Measure(rows, "graph, float32", () => new GraphIndex(d, DistanceMetric.SquaredEuclidean), train: false,
-            "Fastest queries at high recall; vectors plus links in memory, slowest build.", data, ids, queries, ref truth);
+            "Fastest single queries at high recall; holds the vectors plus graph links.", data, ids, queries, ref truth);
         Measure(rows, "graph, 8-bit", () => new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { Encoding = VectorEncoding.Scalar8Bit }), train: true,
             "Graph recall in under a third of the memory; slower walks than float32 under default runtime settings.", data, ids, queries, ref truth);
         Measure(rows, "inverted file, float32, 256 lists", () => new InvertedFileIndex(d, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 256 }), train: true,
