@@ -14,7 +14,8 @@ namespace VectorKit.Benchmarks;
 /// <c>rescore-source [count] [dimension] [lists] [product code bytes]</c>; the 8-bit exact index harness,
 /// <c>exact-scalar-sweep [count] [dimension]</c>; product codes with and without the
 /// variance-balancing rotation: <c>product-rotation-sweep [clustered count] [dimension]</c>; and the load-speed harness:
-/// <c>storage-load [exact count] [graph count] [dimension]</c>.
+/// <c>storage-load [exact count] [graph count] [dimension]</c>; and every index kind side by side at default options on
+/// Fashion-MNIST: <c>index-guide [without-default-lists]</c>.
 /// </summary>
 public static class Program
 {
@@ -91,6 +92,12 @@ public static class Program
             int graphCount = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 200_000;
             int dimension = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 128;
             StorageLoad.Run(exactCount, graphCount, dimension);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "index-guide")
+        {
+            IndexGuide.Run(withDefaultLists: !args.Contains("without-default-lists"));
             return;
         }
 
