@@ -90,7 +90,7 @@ public class ProductQuantizerTests(ITestOutputHelper output)
     {
         // Trained on 6,000 Fashion-MNIST training images, measured on 1,000 test images (Debian dataset-fashion-mnist):
         // pixel variance is high in the middle of the image and near zero at the borders, so consecutive pixels make
-        // very unequal sub-spaces. Measured (see benchmarks/RESULTS.md): the rotation raises the error at 8 and 16
+        // very unequal sub-spaces. Measured (see the git history of benchmarks/RESULTS.md): the rotation raises the error at 8 and 16
         // bytes and lowers it at 56, so only what holds either way is asserted; the figures are reported.
         float[] train = FashionMnist.TrainImages.Data.AsSpan(0, 6000 * 784).ToArray();
         float[] test = FashionMnist.TestImages.Data.AsSpan(0, 1000 * 784).ToArray();

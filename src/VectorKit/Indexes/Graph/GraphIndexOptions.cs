@@ -119,7 +119,7 @@ public sealed class GraphIndexOptions : VectorIndexOptions
     /// The cost model: a filtered walk keeps going until its beam holds <c>width</c> passing items, so its cost grows
     /// as <c>1 / p</c> for a pass rate <c>p</c>, while the scan computes <c>p × Count</c> distances. The two meet at
     /// <c>p* = √(0.2 × width × bottom links / Count)</c>, so the threshold falls as the index grows. The constant was
-    /// fitted on one data set (the filter-sweep benchmark; see benchmarks/RESULTS.md): set a fixed fraction when your
+    /// fitted on one data set (the filter-sweep benchmark; see benchmarks/README.md): set a fixed fraction when your
     /// own data says otherwise.
     /// </remarks>
     /// <exception cref="ArgumentOutOfRangeException">The value is outside [0, 1] or is NaN.</exception>
