@@ -33,20 +33,7 @@ public partial class GoldenFileTests
         Assert.Equal((true, true, false), (loaded.IsTrained, loaded.KeepsFullVectors, loaded.ReadsFullVectorsExternally));
 
         // The full vectors are the rows added; the two removed ids are gone.
-        float[] data = ClusteredData.Generate(24, 3, 4, 0.3f, 11);
-        using var exact = new ExactIndex(3, DistanceMetric.SquaredEuclidean);
-        var row = new float[3];
-        for (int i = 0; i < 24; i++)
-        {
-            long id = 500 + (i * 3);
-            bool removed = id is 500 or 509;
-            Assert.Equal(!removed, loaded.TryGetVector(id, row));
-            if (!removed)
-            {
-                Assert.Equal(data.AsSpan(i * 3, 3).ToArray(), row);
-                exact.Add(id, row);
-            }
-        }
+        using ExactIndex exact = ExactOverGraphSample(loaded, out float[] data);
 
         // The codes in the file are the rows quantized to the trained ranges.
         Dictionary<long, double[]> decoded = DecodeGraphCodes(fixture, 3);

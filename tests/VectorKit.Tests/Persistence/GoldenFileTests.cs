@@ -87,20 +87,7 @@ public partial class GoldenFileTests
         using var loaded = IndexFile.Load<GraphIndex>(new MemoryStream(fixture), IndexLoadOptions.Untrusted);
         Assert.Equal((22, 3, DistanceMetric.SquaredEuclidean), (loaded.Count, loaded.Dimension, loaded.Metric));
         Assert.Equal((3, 16, 11, 1), (loaded.Options.LinksPerNode, loaded.Options.BuildWidth, loaded.Options.Seed, loaded.Options.MaxDegreeOfParallelism));
-        float[] data = ClusteredData.Generate(24, 3, 4, 0.3f, 11);
-        using var exact = new ExactIndex(3, DistanceMetric.SquaredEuclidean);
-        var row = new float[3];
-        for (int i = 0; i < 24; i++)
-        {
-            long id = 500 + (i * 3);
-            bool removed = id is 500 or 509;
-            Assert.Equal(!removed, loaded.TryGetVector(id, row));
-            if (!removed)
-            {
-                Assert.Equal(data.AsSpan(i * 3, 3).ToArray(), row);
-                exact.Add(id, row);
-            }
-        }
+        using ExactIndex exact = ExactOverGraphSample(loaded, out _);
 
         // A width covering the graph finds the exact neighbours: the stored links reach every item.
         var wide = new SearchOptions { SearchWidth = 64 };
@@ -229,5 +216,29 @@ public partial class GoldenFileTests
                 Math.Abs(expected[i].Distance - actual[i].Distance) <= 1e-5 * (1 + expected[i].Distance),
                 $"hit {i} (id {expected[i].Id}): expected distance {expected[i].Distance}, found {actual[i].Distance}");
         }
+    }
+
+    /// <summary>
+    /// Checks that a loaded graph fixture built from <see cref="PersistenceSamples.Graph"/> (24 rows, ids 500 + 3i, ids
+    /// 500 and 509 removed) holds the sample's rows, and returns an exact index over the live ones as the reference.
+    /// </summary>
+    private static ExactIndex ExactOverGraphSample(GraphIndex loaded, out float[] data)
+    {
+        data = ClusteredData.Generate(24, 3, 4, 0.3f, 11);
+        var exact = new ExactIndex(3, DistanceMetric.SquaredEuclidean);
+        var row = new float[3];
+        for (int i = 0; i < 24; i++)
+        {
+            long id = 500 + (i * 3);
+            bool removed = id is 500 or 509;
+            Assert.Equal(!removed, loaded.TryGetVector(id, row));
+            if (!removed)
+            {
+                Assert.Equal(data.AsSpan(i * 3, 3).ToArray(), row);
+                exact.Add(id, row);
+            }
+        }
+
+        return exact;
     }
 }
