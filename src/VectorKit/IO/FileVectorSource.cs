@@ -2,6 +2,7 @@ using System.Buffers.Binary;
 using System.Runtime.InteropServices;
 using Microsoft.Win32.SafeHandles;
 using VectorKit.Indexes;
+using VectorKit.Internal;
 
 namespace VectorKit.IO;
 
@@ -56,7 +57,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
                 DataFormatThrow.Argument(nameof(rowIds), $"rowIds has {rowIds.Length} ids, but the file '{path}' holds {count} rows; pass one id per row.");
             }
 
-            _rowOf = new Dictionary<long, int>(rowIds.Length);
+            _rowOf = new Dictionary<long, int>(rowIds.Length, KeyedIdComparer.Instance);
             for (int r = 0; r < rowIds.Length; r++)
             {
                 if (!_rowOf.TryAdd(rowIds[r], r))

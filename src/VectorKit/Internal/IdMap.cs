@@ -2,7 +2,8 @@ namespace VectorKit.Internal;
 
 /// <summary>
 /// The id → slot map every index kind keeps: one implementation, so how ids are hashed, listed and counted in memory is
-/// decided in one place.
+/// decided in one place. Ids are hashed with a per-process key (<see cref="KeyedIdComparer"/>), so ids read from an
+/// untrusted file cannot be chosen to collide.
 /// </summary>
 /// <remarks>Not thread-safe on its own: the owning index serializes writers against readers.</remarks>
 internal sealed class IdMap
@@ -12,7 +13,7 @@ internal sealed class IdMap
 
     private readonly Dictionary<long, int> _slots;
 
-    public IdMap(int capacity = 0) => _slots = new Dictionary<long, int>(capacity);
+    public IdMap(int capacity = 0) => _slots = new Dictionary<long, int>(capacity, KeyedIdComparer.Instance);
 
     public int Count => _slots.Count;
 

@@ -44,7 +44,7 @@ internal static class VectorChecks
     /// <summary>Throws on the first id that appears twice in <paramref name="ids"/>.</summary>
     public static void CheckUniqueIds(ReadOnlySpan<long> ids)
     {
-        var seen = new HashSet<long>(ids.Length);
+        var seen = new HashSet<long>(ids.Length, KeyedIdComparer.Instance);
         foreach (long id in ids)
         {
             if (!seen.Add(id))

@@ -1,5 +1,6 @@
 using System.Diagnostics;
 using VectorKit.Indexes;
+using VectorKit.Internal;
 
 namespace VectorKit.Reranking;
 
@@ -446,7 +447,7 @@ public static class RerankingCalibration
 
     private static void CheckDistinct(long[] ids)
     {
-        var seen = new HashSet<long>(ids.Length);
+        var seen = new HashSet<long>(ids.Length, KeyedIdComparer.Instance);
         foreach (long id in ids)
         {
             if (!seen.Add(id))

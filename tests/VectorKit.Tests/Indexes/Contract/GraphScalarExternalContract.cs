@@ -9,8 +9,9 @@ public sealed class GraphScalarExternalContract : IndexContractTests
 {
     protected override bool IsExact => false;
 
-    // As re-scoring from memory (the source holds the same vectors): measured 1.000. Reading the wrong rows falls far below.
-    protected override double RecallFloor => 0.99;
+    // As re-scoring from memory (the source holds the same vectors): measured 1.000, but the graph under it can miss a
+    // few items under inner product (see the float32 variant). Reading the wrong rows falls far below.
+    protected override double RecallFloor => 0.95;
 
     protected override bool CompactRebuilds => true;
 
