@@ -7,7 +7,7 @@ namespace VectorKit.Persistence;
 /// <summary>
 /// The metadata block of an index file, encoded as one MessagePack map with string keys. Written and read with the
 /// low-level MessagePack writer and reader: only numbers and strings are decoded, into fixed fields; no type
-/// information is taken from the file, and nesting depth is bounded by <see cref="MessagePackSecurity.UntrustedData"/>.
+/// information is taken from the file, and nesting depth is bounded by <see cref="MaxDepth"/>.
 /// </summary>
 /// <remarks>
 /// Keys: <c>kind</c>, <c>metric</c>, <c>dimension</c>, <c>count</c> (live items), <c>rows</c> (stored rows, removed graph
@@ -92,7 +92,7 @@ internal sealed class IndexHeader
             }
 
             int entries = reader.ReadMapHeader();
-            MessagePackSecurity.UntrustedData.DepthStep(ref reader);
+            DepthStep(ref reader);
             for (int i = 0; i < entries; i++)
             {
                 key = ReadKey(ref reader);
@@ -203,7 +203,7 @@ internal sealed class IndexHeader
     private static void ReadFields(ref MessagePackReader reader, IndexHeader header)
     {
         int entries = reader.ReadMapHeader();
-        MessagePackSecurity.UntrustedData.DepthStep(ref reader);
+        DepthStep(ref reader);
         for (int i = 0; i < entries; i++)
         {
             string name = ReadKey(ref reader);
@@ -231,7 +231,7 @@ internal sealed class IndexHeader
             throw Malformed($"it lists {count} sections; at most {FileLayout.MaxSections} are allowed");
         }
 
-        MessagePackSecurity.UntrustedData.DepthStep(ref reader);
+        DepthStep(ref reader);
         for (int i = 0; i < count; i++)
         {
             int parts = reader.ReadArrayHeader();
@@ -254,7 +254,13 @@ internal sealed class IndexHeader
         reader.Depth--;
     }
 
-    // MessagePackReader.Skip recurses without a depth limit; this one counts depth against the untrusted-data preset.
+    /// <summary>
+    /// The deepest nesting a header may have: the limit of MessagePack's untrusted-data preset, checked here because
+    /// touching <c>MessagePackSecurity</c> pulls its reflection-based comparers into trimmed and native AOT apps.
+    /// </summary>
+    internal const int MaxDepth = 500;
+
+    // MessagePackReader.Skip recurses without a depth limit; this one counts depth against MaxDepth.
     private static void SkipValue(ref MessagePackReader reader)
     {
         switch (reader.NextMessagePackType)
@@ -262,7 +268,7 @@ internal sealed class IndexHeader
             case MessagePackType.Array:
             {
                 int n = reader.ReadArrayHeader();
-                MessagePackSecurity.UntrustedData.DepthStep(ref reader);
+                DepthStep(ref reader);
                 for (int i = 0; i < n; i++)
                 {
                     SkipValue(ref reader);
@@ -275,7 +281,7 @@ internal sealed class IndexHeader
             case MessagePackType.Map:
             {
                 int n = reader.ReadMapHeader();
-                MessagePackSecurity.UntrustedData.DepthStep(ref reader);
+                DepthStep(ref reader);
                 for (int i = 0; i < n; i++)
                 {
                     SkipValue(ref reader);
@@ -290,5 +296,16 @@ internal sealed class IndexHeader
                 reader.Skip();
                 break;
         }
+    }
+
+    // Same contract as MessagePackSecurity.DepthStep: throws InsufficientExecutionStackException at the limit.
+    private static void DepthStep(ref MessagePackReader reader)
+    {
+        if (reader.Depth >= MaxDepth)
+        {
+            throw new InsufficientExecutionStackException($"the header nests deeper than {MaxDepth} levels");
+        }
+
+        reader.Depth++;
     }
 }
