@@ -271,8 +271,8 @@ public static class IndexFile
             ? " Nothing was written; the previous file, if any, is unchanged."
             : removed
                 ? " The previous file, if any, is unchanged; the temporary file was deleted."
-                : $" The previous file, if any, is unchanged; the temporary file '{temporary}' could not be deleted ({nameof(DeleteTemporaryFiles)} removes it later).";
-        string message = $"Cannot save the index to '{target}': {what}{after}";
+                : $" The previous file, if any, is unchanged; the temporary file '{temporary}' could not be deleted (IndexFile.{nameof(DeleteTemporaryFiles)} removes it).";
+        string message = $"Cannot save the index to '{target}': {what}{(what.EndsWith('.') ? "" : ".")}{after}";
         Exception wrapped = e switch
         {
             DirectoryNotFoundException => new DirectoryNotFoundException(message, e),

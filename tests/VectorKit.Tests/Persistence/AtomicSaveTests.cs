@@ -25,7 +25,7 @@ public sealed class AtomicSaveTests : IDisposable
         {
             var e = Assert.Throws<IOException>(() => IndexFile.SaveAtomically(replacement, path, stream => new FailingStream(stream, failAfter, null), default));
             Assert.Equal(
-                $"Cannot save the index to '{path}': writing the temporary file failed: injected failure after {failAfter} bytes The previous file, if any, is unchanged; the temporary file was deleted.",
+                $"Cannot save the index to '{path}': writing the temporary file failed: injected failure after {failAfter} bytes. The previous file, if any, is unchanged; the temporary file was deleted.",
                 e.Message);
             Assert.Equal($"injected failure after {failAfter} bytes", e.InnerException?.Message);
             Assert.Equal(e.InnerException!.HResult, e.HResult);

@@ -27,7 +27,7 @@ internal sealed class ChildSave : IDisposable
     public static ChildSave Start(string mode, string target, int count, int dimension, ulong seed, long pauseAt = 0)
     {
         string child = typeof(CrashSample).Assembly.Location;
-        var start = new ProcessStartInfo(Environment.GetEnvironmentVariable("DOTNET_HOST_PATH") ?? "dotnet")
+        var start = new ProcessStartInfo(Host())
         {
             RedirectStandardOutput = true,
             RedirectStandardError = true,
@@ -39,6 +39,20 @@ internal sealed class ChildSave : IDisposable
         }
 
         return new ChildSave(Process.Start(start) ?? throw new InvalidOperationException("the save child did not start"));
+    }
+
+    /// <summary>The dotnet host that runs the tests (the test host may itself be an apphost), else the one on the PATH.</summary>
+    private static string Host()
+    {
+        if (Path.GetFileNameWithoutExtension(Environment.ProcessPath) == "dotnet")
+        {
+            return Environment.ProcessPath!;
+        }
+
+        // The runtime lives in <root>/shared/Microsoft.NETCore.App/<version>/, the host in <root>.
+        string root = Path.GetFullPath(Path.Combine(System.Runtime.InteropServices.RuntimeEnvironment.GetRuntimeDirectory(), "..", "..", ".."));
+        string beside = Path.Combine(root, OperatingSystem.IsWindows() ? "dotnet.exe" : "dotnet");
+        return File.Exists(beside) ? beside : Environment.GetEnvironmentVariable("DOTNET_HOST_PATH") ?? "dotnet";
     }
 
     /// <summary>Waits for the child's next line on standard output and checks it.</summary>

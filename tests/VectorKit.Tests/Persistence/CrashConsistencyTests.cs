@@ -176,6 +176,7 @@ public sealed class CrashConsistencyTests : IDisposable
                     return;
                 }
 
+                Thread.Yield();
                 continue;
             }
 
@@ -191,6 +192,8 @@ public sealed class CrashConsistencyTests : IDisposable
             {
                 return;
             }
+
+            Thread.Yield();
         }
 
         Assert.Fail($"the child's temporary file did not reach {bytes} bytes");
