@@ -25,6 +25,30 @@ internal static class DataFiles
         return new FileStream(path, FileMode.Create, FileAccess.Write, FileShare.None, FileBufferBytes);
     }
 
+    /// <summary>
+    /// Creates a neighbour file's id file and, when <paramref name="distancesPath"/> is given, its distance file. When
+    /// the second cannot be created, the first (just created, so empty) is closed and deleted: a failure leaves neither.
+    /// </summary>
+    public static (FileStream Ids, FileStream? Distances) CreatePair(string idsPath, string? distancesPath)
+    {
+        FileStream ids = Create(idsPath);
+        if (distancesPath is null)
+        {
+            return (ids, null);
+        }
+
+        try
+        {
+            return (ids, Create(distancesPath));
+        }
+        catch
+        {
+            ids.Dispose();
+            File.Delete(idsPath);
+            throw;
+        }
+    }
+
     public static void CheckWritable(Stream stream)
     {
         if (stream is null)

@@ -62,7 +62,10 @@ public static partial class NpyFile
     /// <param name="idsPath">The path of the id array.</param>
     /// <param name="distancesPath">The path of the distance array, or <see langword="null"/> to write ids only.</param>
     /// <param name="results">The results to write.</param>
-    /// <remarks>The ids are checked before either file is created, so a rejected batch leaves no files behind.</remarks>
+    /// <remarks>
+    /// The ids are checked before either file is created, so a rejected batch leaves no files behind; when the distance
+    /// file cannot be created (its folder is missing, say), the id file just created (or emptied) is deleted again.
+    /// </remarks>
     /// <exception cref="ArgumentNullException"><paramref name="idsPath"/> or <paramref name="results"/> is <see langword="null"/>.</exception>
     /// <exception cref="ArgumentException">An id is −1 (the message names the query and the rank).</exception>
     /// <exception cref="IOException">A file cannot be created.</exception>
@@ -79,9 +82,12 @@ public static partial class NpyFile
         }
 
         NeighborFiles.CheckIds(results, int32Ids: false, ".npy");
-        using FileStream idStream = DataFiles.Create(idsPath);
-        using FileStream? distanceStream = distancesPath is null ? null : DataFiles.Create(distancesPath);
-        WriteNeighborArrays(idStream, distanceStream, results);
+        (FileStream idStream, FileStream? distanceStream) = DataFiles.CreatePair(idsPath, distancesPath);
+        using (idStream)
+        using (distanceStream)
+        {
+            WriteNeighborArrays(idStream, distanceStream, results);
+        }
     }
 
     /// <summary>

@@ -49,7 +49,10 @@ public static partial class VecsFile
     /// <param name="idsPath">The .ivecs file path.</param>
     /// <param name="distancesPath">The .fvecs file path, or <see langword="null"/> to write ids only.</param>
     /// <param name="results">The results to write.</param>
-    /// <remarks>The ids are checked before either file is created, so a rejected batch leaves no files behind.</remarks>
+    /// <remarks>
+    /// The ids are checked before either file is created, so a rejected batch leaves no files behind; when the distance
+    /// file cannot be created (its folder is missing, say), the id file just created (or emptied) is deleted again.
+    /// </remarks>
     /// <exception cref="ArgumentNullException"><paramref name="idsPath"/> or <paramref name="results"/> is <see langword="null"/>.</exception>
     /// <exception cref="ArgumentException">An id is outside the int32 range or is −1 (the message names the query, the rank and the id).</exception>
     /// <exception cref="IOException">A file cannot be created.</exception>
@@ -66,9 +69,12 @@ public static partial class VecsFile
         }
 
         NeighborFiles.CheckIds(results, int32Ids: true, ".ivecs");
-        using FileStream idStream = DataFiles.Create(idsPath);
-        using FileStream? distanceStream = distancesPath is null ? null : DataFiles.Create(distancesPath);
-        WriteNeighborRows(idStream, distanceStream, results);
+        (FileStream idStream, FileStream? distanceStream) = DataFiles.CreatePair(idsPath, distancesPath);
+        using (idStream)
+        using (distanceStream)
+        {
+            WriteNeighborRows(idStream, distanceStream, results);
+        }
     }
 
     /// <summary>Reads an .ivecs file of neighbour ids (ground truth, or results written by <see cref="WriteNeighbors(Stream, Stream?, BatchSearchResults)"/>) as 64-bit ids.</summary>

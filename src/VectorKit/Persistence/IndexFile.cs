@@ -69,14 +69,16 @@ public static class IndexFile
     /// The data goes to a hidden temporary file beside <paramref name="path"/>, which is flushed to the disk and then
     /// renamed over <paramref name="path"/> (a single rename, atomic on the same volume). On failure the temporary
     /// file is deleted. The folder entry itself is not flushed: after a power cut right after the rename, either the
-    /// old or the new file is found, never a mix.
+    /// old or the new file is found, never a mix. A process killed part-way cannot delete its temporary file;
+    /// <see cref="DeleteTemporaryFiles(string)"/> removes such leftovers.
     /// </remarks>
     /// <exception cref="ArgumentNullException">An argument is null.</exception>
-    /// <exception cref="ArgumentException">The index is of a type this library cannot save, or the path is empty.</exception>
+    /// <exception cref="ArgumentException">The index is of a type this library cannot save, or the path is empty or names a folder.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
-    /// <exception cref="IOException">Writing or renaming failed.</exception>
-    /// <exception cref="UnauthorizedAccessException">The folder or the target is not writable.</exception>
+    /// <exception cref="DirectoryNotFoundException">The folder of <paramref name="path"/> does not exist; the message names <paramref name="path"/> and the folder.</exception>
+    /// <exception cref="IOException">Creating, writing (for example on a full disk) or renaming the temporary file failed; the message names <paramref name="path"/> and the failing step, the inner exception is the system's own, and the HResult is kept.</exception>
+    /// <exception cref="UnauthorizedAccessException">The folder or the target is not writable; the message names <paramref name="path"/>.</exception>
     public static void Save(IVectorIndex index, string path, CancellationToken cancellationToken = default)
         => SaveAtomically(index, path, static stream => stream, cancellationToken);
 
@@ -135,6 +137,78 @@ public static class IndexFile
         where TIndex : class, IVectorIndex
         => (TIndex)LoadFile(path, options, typeof(TIndex), cancellationToken);
 
+    /// <summary>
+    /// Deletes the temporary files that interrupted saves to <paramref name="path"/> left beside it (a save killed
+    /// with its process, or cut off by a power loss, cannot remove its own). Leaves the file itself, and every other
+    /// file, untouched.
+    /// </summary>
+    /// <param name="path">The index file whose saves left the temporaries; it need not exist.</param>
+    /// <returns>The full paths of the files deleted, in ordinal order; empty when there were none or the folder does not exist.</returns>
+    /// <remarks>
+    /// A save to <c>name</c> writes <c>.name.</c><i>32 hexadecimal digits</i><c>.tmp</c> in the same folder; only
+    /// names of exactly that shape are deleted. Call it when no save to <paramref name="path"/> is running (at start-up,
+    /// for example): a save whose temporary file is deleted under it fails at the rename and leaves the previous file
+    /// as it was. A leftover temporary is never needed to recover an index: the previous file at
+    /// <paramref name="path"/> is complete. A temporary cut short fails to load as truncated.
+    /// </remarks>
+    /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
+    /// <exception cref="ArgumentException"><paramref name="path"/> is empty.</exception>
+    /// <exception cref="IOException">A temporary file could not be deleted.</exception>
+    /// <exception cref="UnauthorizedAccessException">The folder or a temporary file may not be changed.</exception>
+    public static IReadOnlyList<string> DeleteTemporaryFiles(string path)
+    {
+        ArgumentException.ThrowIfNullOrEmpty(path);
+        string target = Path.GetFullPath(path);
+        string folder = Path.GetDirectoryName(target) ?? ".";
+        string name = Path.GetFileName(target);
+        if (name.Length == 0 || !Directory.Exists(folder))
+        {
+            return [];
+        }
+
+        var deleted = new List<string>();
+        foreach (string file in Directory.EnumerateFiles(folder, $".{name}.*.tmp", SearchOption.TopDirectoryOnly))
+        {
+            if (IsTemporaryFor(Path.GetFileName(file), name))
+            {
+                File.Delete(file);
+                deleted.Add(file);
+            }
+        }
+
+        deleted.Sort(StringComparer.Ordinal);
+        return deleted;
+    }
+
+    /// <summary>Whether <paramref name="fileName"/> has the exact shape of a temporary file of a save to <paramref name="targetName"/>.</summary>
+    internal static bool IsTemporaryFor(string fileName, string targetName)
+    {
+        // "." + target + "." + 32 hex digits + ".tmp"; the pattern given to the enumeration also matches looser names.
+        int expected = 1 + targetName.Length + 1 + 32 + 4;
+        if (fileName.Length != expected
+            || fileName[0] != '.'
+            || !fileName.AsSpan(1, targetName.Length).SequenceEqual(targetName)
+            || fileName[1 + targetName.Length] != '.'
+            || !fileName.EndsWith(".tmp", StringComparison.Ordinal))
+        {
+            return false;
+        }
+
+        foreach (char c in fileName.AsSpan(targetName.Length + 2, 32))
+        {
+            if (!char.IsAsciiHexDigitLower(c) && !char.IsAsciiDigit(c))
+            {
+                return false;
+            }
+        }
+
+        return true;
+    }
+
+    /// <summary>The name of a new temporary file for a save to <paramref name="target"/> (a full path), in the same folder.</summary>
+    internal static string TemporaryPathFor(string target)
+        => Path.Combine(Path.GetDirectoryName(target) ?? ".", $".{Path.GetFileName(target)}.{Guid.NewGuid():N}.tmp");
+
     /// <summary>Atomic save with a hook that wraps the file stream (tests inject failures through it).</summary>
     internal static void SaveAtomically(IVectorIndex index, string path, Func<Stream, Stream> wrap, CancellationToken cancellationToken)
     {
@@ -142,12 +216,18 @@ public static class IndexFile
         ArgumentException.ThrowIfNullOrEmpty(path);
         CodecFor(index);
         string target = Path.GetFullPath(path);
-        string folder = Path.GetDirectoryName(target) ?? ".";
-        string temporary = Path.Combine(folder, $".{Path.GetFileName(target)}.{Guid.NewGuid():N}.tmp");
+        if (Path.GetFileName(target).Length == 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(path), $"The path '{path}' names a folder, not a file.");
+        }
+
+        string temporary = TemporaryPathFor(target);
+        var stage = SaveStage.Create;
         try
         {
             using (var file = new FileStream(temporary, FileMode.CreateNew, FileAccess.Write, FileShare.None, bufferSize: 0))
             {
+                stage = SaveStage.Write;
                 Stream stream = wrap(file);
                 Save(index, stream, cancellationToken);
                 stream.Flush();
@@ -157,13 +237,51 @@ public static class IndexFile
             // A token cancelled while the last block was written still wins: the target is not replaced.
             cancellationToken.ThrowIfCancellationRequested();
 
+            stage = SaveStage.Rename;
             File.Move(temporary, target, overwrite: true);
+        }
+        catch (Exception e) when (e is IOException or UnauthorizedAccessException)
+        {
+            bool removed = stage == SaveStage.Create || TryDelete(temporary);
+            throw SaveFailed(e, stage, target, temporary, removed);
         }
         catch
         {
             TryDelete(temporary);
             throw;
         }
+    }
+
+    /// <summary>
+    /// The file system's exception for a failed save, re-issued with a message that names the target first (the
+    /// system's own names only the temporary file), of the same type where that type is a common one, with the same
+    /// HResult, and with the original as the inner exception.
+    /// </summary>
+    private static Exception SaveFailed(Exception e, SaveStage stage, string target, string temporary, bool removed)
+    {
+        string folder = Path.GetDirectoryName(target) ?? ".";
+        string what = stage switch
+        {
+            SaveStage.Create when e is DirectoryNotFoundException && !Directory.Exists(folder) => $"its folder '{folder}' does not exist.",
+            SaveStage.Create => $"the temporary file could not be created in '{folder}': {e.Message}",
+            SaveStage.Write => $"writing the temporary file failed: {e.Message}",
+            _ => $"renaming the complete temporary file over it failed: {e.Message}",
+        };
+        string after = stage == SaveStage.Create
+            ? " Nothing was written; the previous file, if any, is unchanged."
+            : removed
+                ? " The previous file, if any, is unchanged; the temporary file was deleted."
+                : $" The previous file, if any, is unchanged; the temporary file '{temporary}' could not be deleted (IndexFile.{nameof(DeleteTemporaryFiles)} removes it).";
+        string message = $"Cannot save the index to '{target}': {what}{(what.EndsWith('.') ? "" : ".")}{after}";
+        Exception wrapped = e switch
+        {
+            DirectoryNotFoundException => new DirectoryNotFoundException(message, e),
+            PathTooLongException => new PathTooLongException(message, e),
+            UnauthorizedAccessException => new UnauthorizedAccessException(message, e),
+            _ => new IOException(message, e),
+        };
+        wrapped.HResult = e.HResult;
+        return wrapped;
     }
 
     private static IVectorIndex LoadFile(string path, IndexLoadOptions? options, Type? expected, CancellationToken cancellationToken)
@@ -233,17 +351,27 @@ public static class IndexFile
         }
     }
 
-    private static void TryDelete(string path)
+    private static bool TryDelete(string path)
     {
         try
         {
             File.Delete(path);
+            return true;
         }
         catch (IOException)
         {
+            return false;
         }
         catch (UnauthorizedAccessException)
         {
+            return false;
         }
+    }
+
+    private enum SaveStage
+    {
+        Create,
+        Write,
+        Rename,
     }
 }

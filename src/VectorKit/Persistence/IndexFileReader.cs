@@ -31,6 +31,9 @@ internal sealed class IndexFileReader
     private long _sectionStart;
     private long _position;
 
+    // The length the header declares for the whole index (0 until the header is read), for truncation messages.
+    private long _declaredEnd;
+
     public IndexFileReader(Stream stream, IndexLoadOptions options, CancellationToken cancellationToken)
     {
         _stream = stream;
@@ -59,6 +62,14 @@ internal sealed class IndexFileReader
     {
         Span<byte> preamble = stackalloc byte[FileLayout.PreambleBytes];
         int got = ReadUpTo(preamble);
+        if (got is > 0 and < 8 && preamble[..got].SequenceEqual(FileLayout.Magic[..got]))
+        {
+            throw new IndexFileException(
+                $"Index file is truncated: it has only {got} bytes, the start of the 8-byte magic number; a whole index file has at least {FileLayout.PreambleBytes + FileLayout.ChecksumBytes + 1}.",
+                "header",
+                0);
+        }
+
         if (got < 8 || !preamble[..8].SequenceEqual(FileLayout.Magic))
         {
             throw new IndexFileException(
@@ -413,7 +424,8 @@ internal sealed class IndexFileReader
         }
 
         // The whole file, as declared, must fit in what the stream holds: nothing is allocated before this holds.
-        long end = _position;
+        long headerEnd = _position;
+        long end = headerEnd;
         foreach (SectionEntry section in header.Sections)
         {
             if (section.Length > Options.MaxSectionBytes)
@@ -433,9 +445,14 @@ internal sealed class IndexFileReader
             }
         }
 
+        _declaredEnd = end;
         if (LengthKnown && end > _available)
         {
-            throw IndexHeader.Malformed($"its sections need {end} bytes in all, but the file has only {_available}");
+            (string where, string key) = WhereDataStops(header, headerEnd, _available);
+            throw new IndexFileException(
+                $"Index file is truncated: its header declares {end} bytes in all, but the file has only {_available} ({end - _available} missing); it stops in {where}.",
+                key,
+                _available);
         }
     }
 
@@ -520,6 +537,33 @@ internal sealed class IndexFileReader
         return total;
     }
 
-    private static IndexFileException Truncated(string where, string key, long offset, long needed, long got)
-        => new($"Index file is truncated in {where}: {needed} bytes were needed from byte {offset}, only {Math.Max(0, got)} remain.", key, offset);
+    /// <summary>
+    /// The data ran out: says so, with the length expected (the whole index as the header declares it, once read;
+    /// before that, what the header needs) and the length found.
+    /// </summary>
+    private IndexFileException Truncated(string where, string key, long offset, long needed, long got)
+    {
+        long end = offset + Math.Max(0, got);
+        string message = _declaredEnd > 0
+            ? $"Index file is truncated: its header declares {_declaredEnd} bytes in all, but the data stops after {end}, in {where} ({needed} bytes were needed from byte {offset})."
+            : $"Index file is truncated in {where}: it needs at least {offset + needed} bytes, but the data stops after {end}.";
+        return new IndexFileException(message, key, offset);
+    }
+
+    /// <summary>The part of the layout that byte <paramref name="stop"/> falls in, for truncation messages.</summary>
+    private static (string Where, string Key) WhereDataStops(IndexHeader header, long headerEnd, long stop)
+    {
+        long at = headerEnd;
+        foreach (SectionEntry section in header.Sections)
+        {
+            at += FileLayout.SectionFrameBytes;
+            at += FileLayout.PaddingAfter(at) + section.Length + FileLayout.ChecksumBytes;
+            if (stop < at)
+            {
+                return ($"section {FileLayout.SectionName(section.Id)}, which should end at byte {at}", FileLayout.SectionKey(section.Id));
+            }
+        }
+
+        return ("the header", "header");
+    }
 }

@@ -24,7 +24,11 @@ public sealed class AtomicSaveTests : IDisposable
         foreach (long failAfter in new[] { 0L, 1, 16, 100, 1000, full / 2, full - 9, full - 1 })
         {
             var e = Assert.Throws<IOException>(() => IndexFile.SaveAtomically(replacement, path, stream => new FailingStream(stream, failAfter, null), default));
-            Assert.Equal($"injected failure after {failAfter} bytes", e.Message);
+            Assert.Equal(
+                $"Cannot save the index to '{path}': writing the temporary file failed: injected failure after {failAfter} bytes. The previous file, if any, is unchanged; the temporary file was deleted.",
+                e.Message);
+            Assert.Equal($"injected failure after {failAfter} bytes", e.InnerException?.Message);
+            Assert.Equal(e.InnerException!.HResult, e.HResult);
             Assert.Equal(before, File.ReadAllBytes(path));
             using var loaded = IndexFile.Load<ExactIndex>(path);
             Assert.Equal(previous.Search([0, 0, 0], 10), loaded.Search([0, 0, 0], 10));
@@ -52,11 +56,93 @@ public sealed class AtomicSaveTests : IDisposable
     }
 
     [Fact]
-    public void SavingIntoAMissingFolder_FailsAndCreatesNothing()
+    public void SavingIntoAMissingFolder_NamesTheTargetAndTheFolder_NotTheTemporaryFile()
     {
         using ExactIndex index = PersistenceSamples.Exact();
-        Assert.Throws<DirectoryNotFoundException>(() => IndexFile.Save(index, Path.Combine(_folder, "missing", "index.vkx")));
+        string folder = Path.Combine(_folder, "missing");
+        string path = Path.Combine(folder, "index.vkx");
+        var e = Assert.Throws<DirectoryNotFoundException>(() => IndexFile.Save(index, path));
+        Assert.Equal($"Cannot save the index to '{path}': its folder '{folder}' does not exist. Nothing was written; the previous file, if any, is unchanged.", e.Message);
+        Assert.IsType<DirectoryNotFoundException>(e.InnerException);
         Assert.Empty(Directory.GetFileSystemEntries(_folder));
+    }
+
+    [Fact]
+    public void ARenameThatFails_NamesTheTargetAndTheStep_AndRemovesTheTemporaryFile()
+    {
+        // The target is a non-empty folder: everything is written, then the rename over it fails.
+        string path = Path.Combine(_folder, "index.vkx");
+        Directory.CreateDirectory(Path.Combine(path, "inside"));
+        using ExactIndex index = PersistenceSamples.Exact();
+        var e = Assert.ThrowsAny<IOException>(() => IndexFile.Save(index, path));
+        Assert.StartsWith($"Cannot save the index to '{path}': renaming the complete temporary file over it failed: ", e.Message, StringComparison.Ordinal);
+        Assert.EndsWith("The previous file, if any, is unchanged; the temporary file was deleted.", e.Message, StringComparison.Ordinal);
+        Assert.NotNull(e.InnerException);
+        Assert.Equal([path], Directory.GetFileSystemEntries(_folder));
+        Assert.True(Directory.Exists(Path.Combine(path, "inside")));
+    }
+
+    [Fact]
+    public void APathNamingAFolder_IsRejectedBeforeAnythingIsWritten()
+    {
+        using ExactIndex index = PersistenceSamples.Exact();
+        var e = Assert.Throws<ArgumentException>(() => IndexFile.Save(index, _folder + Path.DirectorySeparatorChar));
+        Assert.Equal("path", e.ParamName);
+        Assert.Contains("names a folder, not a file", e.Message, StringComparison.Ordinal);
+        Assert.Empty(Directory.GetFileSystemEntries(_folder));
+    }
+
+    [Fact]
+    public void AStreamThatFailsPartWay_ReachesTheCallerAsItself_AfterAPrefixThatLoadsAsTruncated()
+    {
+        using GraphIndex index = PersistenceSamples.Graph(count: 300);
+        byte[] full = IndexFileBytes.Save(index);
+        foreach (int failAfter in new[] { 0, 5, 16, 100, full.Length / 2, full.Length - 1 })
+        {
+            var written = new MemoryStream();
+            var e = Assert.Throws<IOException>(() => IndexFile.Save(index, new FailingStream(written, failAfter, null)));
+            Assert.Equal($"injected failure after {failAfter} bytes", e.Message);
+            Assert.Null(e.InnerException);
+            byte[] prefix = written.ToArray();
+            Assert.Equal(full[..failAfter], prefix);
+            IndexFileException rejected = Rejection.Assert(prefix);
+            Assert.Contains(failAfter == 0 ? "it has 0 bytes" : "truncated", rejected.Message, StringComparison.Ordinal);
+        }
+    }
+
+    [Fact]
+    public void DeleteTemporaryFiles_RemovesOnlyTheTemporariesOfThatTarget()
+    {
+        string path = Path.Combine(_folder, "index.vkx");
+        using ExactIndex index = PersistenceSamples.Exact();
+        IndexFile.Save(index, path);
+        string hex = new('a', 16);
+        string[] temporaries = [$".index.vkx.{hex}{new string('0', 16)}.tmp", $".index.vkx.0123456789abcdef{hex}.tmp"];
+        string[] others =
+        [
+            $".other.vkx.{hex}{hex}.tmp",               // another target's
+            $".index.vkx.{hex}.tmp",                     // too few digits
+            $".index.vkx.{hex}{hex}0.tmp",               // too many
+            $".index.vkx.{hex.ToUpperInvariant()}{hex}.tmp", // not as the library writes them
+            $".index.vkx.{hex}{hex}.tmp.keep",
+            $"index.vkx.{hex}{hex}.tmp",
+            "notes.txt",
+        ];
+        foreach (string name in temporaries.Concat(others))
+        {
+            File.WriteAllBytes(Path.Combine(_folder, name), [1, 2, 3]);
+        }
+
+        IReadOnlyList<string> deleted = IndexFile.DeleteTemporaryFiles(path);
+        Assert.Equal(temporaries.Select(t => Path.Combine(_folder, t)).Order(StringComparer.Ordinal), deleted);
+        Assert.Equal(
+            others.Append("index.vkx").Order(StringComparer.Ordinal),
+            Directory.GetFiles(_folder).Select(f => Path.GetFileName(f)!).Order(StringComparer.Ordinal));
+        using ExactIndex loaded = IndexFile.Load<ExactIndex>(path);
+        Assert.Equal(index.Count, loaded.Count);
+
+        Assert.Empty(IndexFile.DeleteTemporaryFiles(path));
+        Assert.Empty(IndexFile.DeleteTemporaryFiles(Path.Combine(_folder, "missing", "index.vkx")));
     }
 
     /// <summary>Passes writes through until a byte budget is spent, then throws (or cancels a token at a given byte count).</summary>

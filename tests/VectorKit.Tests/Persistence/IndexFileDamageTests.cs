@@ -146,7 +146,9 @@ public class IndexFileDamageTests
         header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, 4L << 40));
         byte[] hostile = IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file));
         IndexFileException e = Rejection.Assert(hostile);
-        Assert.Matches("its sections need \\d+ bytes in all, but the file has only \\d+", e.Message);
+        System.Text.RegularExpressions.Match said = System.Text.RegularExpressions.Regex.Match(e.Message, $"^Index file is truncated: its header declares (\\d+) bytes in all, but the file has only {hostile.Length} ");
+        Assert.True(said.Success, e.Message);
+        Assert.True(long.Parse(said.Groups[1].Value, System.Globalization.CultureInfo.InvariantCulture) > (4L << 40) + (8L << 20), e.Message);
 
         // On a stream of unknown length the loader cannot check up front: it must grow only as data arrives.
         IndexFileException streamed = Rejection.Assert(hostile, open: bytes => new TrickleStream(bytes, 4096));
