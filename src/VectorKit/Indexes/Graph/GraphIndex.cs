@@ -50,6 +50,11 @@ public sealed partial class GraphIndex : VectorIndex
     // GraphIndexOptions.FilteredExactScanFraction).
     private const double WalkCostConstant = 0.2;
 
+    // Changes the global pass makes per hold of the write lock: lists chosen again, or orphans attached (each a walk of
+    // the build width). Small, so a search waits for a few of them at most.
+    private const int PassRelinkStep = 16;
+    private const int PassAttachStep = 2;
+
     // Bounds of the walk that finds the lists naming a removed node (see FindInLinks).
     private const int InLinkSearchHops = 3;
     private const int InLinkSearchNodes = 4096;
@@ -73,6 +78,8 @@ public sealed partial class GraphIndex : VectorIndex
     private int[] _levelCounts = new int[MaxLevel + 1];
     private readonly List<int> _orphanNotes = [];
     private long _changesSinceFullPass;
+    // Set under the write lock when the global pass is due; the write that set it runs the pass on its way out.
+    private bool _fullPassDue;
     private long _orphansAttached;
     private long _orphansAttachedLocally;
     private long _fullPasses;
@@ -181,6 +188,7 @@ public sealed partial class GraphIndex : VectorIndex
     public override void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
     {
         ScalarQuantizer? scalar = ScalarCodeTraining.Learn(sample, Dimension, Metric, _codes is not null, cancellationToken);
+        using var gate = _writerGate.EnterRead();
         _lock.EnterWriteLock();
         try
         {
