@@ -26,10 +26,15 @@ namespace VectorKit.Indexes.Graph;
 /// <para><b>Writes.</b> <see cref="VectorIndex.AddRange"/> links new items in parallel while searches proceed; a
 /// cancelled batch is taken out again. A removed item is never returned, and the lists that linked to it are repaired
 /// at once, at a cost that does not grow with the index; its space is released by <see cref="Compact"/>. Every live item is kept reachable from the entry point: a
-/// node cut off by pruning is re-linked at once, and a full reachability pass runs after enough changes.</para>
-/// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with the
-/// linking phase of adds, and may or may not see an item being linked. Removal, <see cref="Compact"/>,
-/// <see cref="VectorIndex.Dispose"/> and the short store and repair steps of an add are exclusive.</para>
+/// node cut off by pruning is re-linked at once, and a full reachability pass runs after enough changes. That pass runs
+/// at the end of the write that made it due, after the write itself is visible: its traversals run beside searches and
+/// its changes are made a few lists at a time, so searches wait for a few list repairs at most; other writes wait for
+/// the whole pass.</para>
+/// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other, with the
+/// linking phase of adds, with the rebuild of <see cref="Compact"/> (they see the old graph until the swap), with
+/// saving and with the traversals of the global pass; they may or may not see an item being linked. Removal,
+/// replacement, <see cref="VectorIndex.Dispose"/>, the swap of a compaction, the steps of the global pass and the
+/// short store and repair steps of an add are exclusive.</para>
 /// <para>See docs/choosing-an-index.md, docs/live-updates.md and docs/filters.md in the repository for when to use
 /// this index, how updates behave, and how filters are evaluated.</para>
 /// </remarks>
