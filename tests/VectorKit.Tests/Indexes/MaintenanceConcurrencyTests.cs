@@ -167,6 +167,11 @@ public sealed class MaintenanceConcurrencyTests
         graph.BetweenPassSteps = () =>
         {
             // Another thread, as a caller's search would be: it must not wait for the pass to end.
+            if (blocked)
+            {
+                return;
+            }
+
             long id = 1 + (3 * (steps % 1000));
             steps++;
             var search = new Background(() => graph.Search(data.AsSpan((int)id * d, d), 1, wide));
