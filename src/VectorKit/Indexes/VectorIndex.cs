@@ -182,6 +182,7 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         cancellationToken.ThrowIfCancellationRequested();
         if (!ids.IsEmpty)
         {
+            ReserveRows(ids.Length);
             try
             {
                 using var gate = _writerGate.EnterRead();
@@ -214,6 +215,7 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
             return 0;
         }
 
+        ReserveRows(ids.Length);
         try
         {
             using var gate = _writerGate.EnterRead();
@@ -362,6 +364,16 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         }
 
         return new LockScopes.ReadScope(_lock);
+    }
+
+    /// <summary>
+    /// Called before a batch of <paramref name="added"/> rows (at most) is written, outside both locks: a kind whose
+    /// storage would have to grow copies it into larger storage beside searches (holding the writer gate) and swaps it
+    /// in under a short write lock, instead of growing in place under the write lock. Only a hint: a concurrent write
+    /// may use the room first, and the write then grows under the lock as before.
+    /// </summary>
+    private protected virtual void ReserveRows(int added)
+    {
     }
 
     /// <summary>

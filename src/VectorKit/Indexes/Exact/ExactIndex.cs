@@ -431,6 +431,77 @@ public sealed partial class ExactIndex : VectorIndex
         return largest;
     }
 
+    /// <inheritdoc/>
+    private protected override void ReserveRows(int added)
+    {
+        int capacity = _codes?.Capacity ?? _vectors.Capacity;
+        if ((long)Volatile.Read(ref _count) + added <= capacity)
+        {
+            return;
+        }
+
+        using var gate = _writerGate.EnterWrite();
+        if (IsDisposed)
+        {
+            return;
+        }
+
+        int count = _count;
+        capacity = _codes?.Capacity ?? _vectors.Capacity;
+        long required = (long)count + added;
+        if (required <= capacity || required > Array.MaxLength)
+        {
+            return;
+        }
+
+        // The growth rule of RowBuffer.EnsureCapacity, so the buffers stay the size growing in place would give.
+        int grown = (int)Math.Min(Array.MaxLength, Math.Max(required, capacity + ((long)capacity / 2)));
+        VectorBuffer? vectors = _keepsVectors ? new VectorBuffer(Dimension, grown) : null;
+        CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, grown);
+        try
+        {
+            if (vectors is not null)
+            {
+                _vectors.CopyRowsTo(vectors, count);
+            }
+
+            if (codes is not null)
+            {
+                _codes!.CopyRowsTo(codes, count);
+            }
+
+            var ids = new long[grown];
+            _ids.AsSpan(0, count).CopyTo(ids);
+            float[] norms = _squaredNorms;
+            if (KeepsSquaredNorms(Metric, _options.Encoding))
+            {
+                norms = new float[grown];
+                _squaredNorms.AsSpan(0, count).CopyTo(norms);
+            }
+
+            using (_lock.EnterWrite())
+            {
+                if (vectors is not null)
+                {
+                    _vectors.Adopt(vectors);
+                }
+
+                if (codes is not null)
+                {
+                    _codes!.Adopt(codes);
+                }
+
+                _ids = ids;
+                _squaredNorms = norms;
+            }
+        }
+        finally
+        {
+            vectors?.Dispose();
+            codes?.Dispose();
+        }
+    }
+
     private void EnsureCapacity(int required)
     {
         if (_keepsVectors)

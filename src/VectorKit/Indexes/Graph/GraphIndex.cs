@@ -359,6 +359,67 @@ public sealed partial class GraphIndex : VectorIndex
         Volatile.Write(ref _entry, -1L & 0xFFFFFFFFL);
     }
 
+    /// <inheritdoc/>
+    private protected override void ReserveRows(int added)
+    {
+        if ((long)Volatile.Read(ref _used) + added <= _links.Capacity)
+        {
+            return;
+        }
+
+        // Holding the gate exclusively keeps out linking adds, the only writers outside the write lock.
+        using var gate = _writerGate.EnterWrite();
+        if (IsDisposed)
+        {
+            return;
+        }
+
+        int used = _used;
+        int capacity = _vectors?.Capacity ?? _codes!.Capacity;
+        long required = (long)used + added;
+        int cap = Array.MaxLength / (_links.BottomLimit + 1);
+        if (required <= capacity || required > cap)
+        {
+            return;
+        }
+
+        // The growth rule of RowBuffer.EnsureCapacity and GraphLinks.EnsureCapacity.
+        int grown = (int)Math.Min(cap, Math.Max(required, capacity + ((long)capacity / 2)));
+        VectorBuffer? vectors = _vectors is null ? null : new VectorBuffer(Dimension, grown);
+        CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, grown);
+        try
+        {
+            _vectors?.CopyRowsTo(vectors!, used);
+            _codes?.CopyRowsTo(codes!, used);
+            GraphLinks links = _links.GrownCopy(grown);
+            var ids = new long[grown];
+            _ids.AsSpan(0, used).CopyTo(ids);
+            var removed = new byte[grown];
+            _removed.AsSpan(0, used).CopyTo(removed);
+            using (_lock.EnterWrite())
+            {
+                if (vectors is not null)
+                {
+                    _vectors!.Adopt(vectors);
+                }
+
+                if (codes is not null)
+                {
+                    _codes!.Adopt(codes);
+                }
+
+                _links = links;
+                _ids = ids;
+                _removed = removed;
+            }
+        }
+        finally
+        {
+            vectors?.Dispose();
+            codes?.Dispose();
+        }
+    }
+
     // Reserves slots for a validated batch, writes vectors (normalised under cosine; encoded under codes) and ids, and draws levels.
     // Caller holds the write lock. When the graph is empty the first new slot becomes the entry point at once, so
     // linking never races to create it. Returns the first slot.
