@@ -15,7 +15,8 @@ namespace VectorKit.Benchmarks;
 /// <c>exact-scalar-sweep [count] [dimension]</c>; product codes with and without the
 /// variance-balancing rotation: <c>product-rotation-sweep [clustered count] [dimension]</c>; and the load-speed harness:
 /// <c>storage-load [exact count] [graph count] [dimension]</c>; and every index kind side by side at default options on
-/// Fashion-MNIST: <c>index-guide [without-default-lists]</c>.
+/// Fashion-MNIST: <c>index-guide [without-default-lists]</c>; search latency during removals, the graph's global pass,
+/// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>.
 /// </summary>
 public static class Program
 {
@@ -98,6 +99,16 @@ public static class Program
         if (args.Length > 0 && args[0] == "index-guide")
         {
             IndexGuide.Run(withDefaultLists: !args.Contains("without-default-lists"));
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "maintenance-latency")
+        {
+            int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
+            int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
+            double seconds = args.Length > 3 ? double.Parse(args[3], CultureInfo.InvariantCulture) : 5;
+            string[] kinds = args.Length > 4 ? args[4].Split(',') : ["exact", "graph", "inverted-file"];
+            MaintenanceLatency.Run(count, dimension, seconds, kinds);
             return;
         }
 

@@ -12,8 +12,9 @@ internal delegate void BlockSearch<TScratch>(nint queries, int first, int count,
 
 /// <summary>
 /// The batch driver every index kind runs its <see cref="IVectorIndex.SearchBatch"/> through: input checks, k capped at
-/// the item count, blocks of queries in parallel with one scratch per worker, progress, cancellation between blocks,
-/// and a failure inside a block rethrown as itself rather than wrapped.
+/// the item count, blocks of queries in parallel with one scratch per worker, each block under the index's read lock
+/// (released between blocks, so a writer waits for one block rather than the whole batch), progress outside the lock,
+/// cancellation between blocks, and a failure inside a block rethrown as itself rather than wrapped.
 /// </summary>
 internal static unsafe class BatchSearch
 {
@@ -34,6 +35,7 @@ internal static unsafe class BatchSearch
 
     /// <summary>Runs <paramref name="search"/> for every query, blocks of <paramref name="blockSize"/> queries in parallel.</summary>
     public static void RunQueries<TScratch>(
+        VectorIndex index,
         ReadOnlySpan<float> queries,
         int dimension,
         BatchSearchResults results,
@@ -44,7 +46,7 @@ internal static unsafe class BatchSearch
         Func<TScratch> createScratch,
         QuerySearch<TScratch> search)
     {
-        RunBlocks(queries, results.QueryCount, blockSize, options, progress, cancellationToken, createScratch, (address, first, count, scratch) =>
+        RunBlocks(index, queries, results.QueryCount, blockSize, options, progress, cancellationToken, createScratch, (address, first, count, scratch) =>
         {
             for (int i = first; i < first + count; i++)
             {
@@ -54,8 +56,12 @@ internal static unsafe class BatchSearch
         });
     }
 
-    /// <summary>Runs <paramref name="search"/> over blocks of queries in parallel, the queries pinned for the whole run.</summary>
+    /// <summary>
+    /// Runs <paramref name="search"/> over blocks of queries in parallel, the queries pinned for the whole run; each block
+    /// runs under <paramref name="index"/>'s read lock, taken and released by the worker that runs it.
+    /// </summary>
     public static void RunBlocks<TScratch>(
+        VectorIndex index,
         ReadOnlySpan<float> queries,
         int queryCount,
         int blockSize,
@@ -83,7 +89,11 @@ internal static unsafe class BatchSearch
                 {
                     int first = b * blockSize;
                     int count = Math.Min(blockSize, queryCount - first);
-                    search(address, first, count, scratch);
+                    using (index.EnterSearchBlock())
+                    {
+                        search(address, first, count, scratch);
+                    }
+
                     progress?.Report(Interlocked.Add(ref completed, count));
                     return scratch;
                 }, static _ => { });

@@ -12,7 +12,11 @@ namespace VectorKit.Indexes;
 /// <remarks>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; writes take the
 /// index's write lock, so a search sees each write entirely or not at all (each kind documents any step it runs beside
-/// searches). A batch search holds the read lock for its duration.</para>
+/// searches). A batch search takes the read lock once per block of queries, not for its whole run: each query sees one
+/// consistent state of the index, but different queries of one batch may see different states when a write lands
+/// between their blocks, and a writer waits for at most the blocks in flight. Saving and the long read-only phases of
+/// maintenance (a compaction's rebuild, the graph's global reachability pass) hold only the writer gate: searches run
+/// beside them, writes wait for them.</para>
 /// <para><b>Disposal.</b> After <see cref="Dispose"/>, every member but <see cref="Dimension"/>, <see cref="Metric"/>,
 /// <see cref="IVectorIndex.Options"/>, <see cref="CodeBytesPerVector"/> and <see cref="Dispose"/> throws
 /// <see cref="ObjectDisposedException"/>.</para>
@@ -24,6 +28,12 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     private protected const int QueryBlock = 16;
 
     private protected readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
+
+    // Taken before _lock, never after it. Every write passes it shared (writers still exclude one another through
+    // _lock as before); a save and the long read-only phases of maintenance hold it exclusively, so the state they read
+    // stays still without _lock. Searches never touch it, so none queues behind them (a writer waiting on _lock would
+    // hold back new readers, which is why such phases must not sit on _lock while writers can arrive).
+    private protected readonly ReaderWriterLockSlim _writerGate = new(LockRecursionPolicy.NoRecursion);
     private protected IdMap _slotOf = new();
     private protected IFullVectorSource? _source;
     private protected int _count;
@@ -101,6 +111,7 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     public void AttachFullVectors(IFullVectorSource source)
     {
         SourceRows.CheckAttach(source, Dimension, ReadsFullVectorsExternally);
+        using var gate = _writerGate.EnterRead();
         using var write = _lock.EnterWrite();
         ThrowIfDisposed();
         Volatile.Write(ref _source, source);
@@ -171,7 +182,17 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         cancellationToken.ThrowIfCancellationRequested();
         if (!ids.IsEmpty)
         {
-            WriteBatch(ids, vectors, replace: false, progress, cancellationToken);
+            ReserveRows(ids.Length);
+            try
+            {
+                using var gate = _writerGate.EnterRead();
+                WriteBatch(ids, vectors, replace: false, progress, cancellationToken);
+            }
+            finally
+            {
+                // A cancelled add's roll-back can make maintenance due too.
+                AfterWrite();
+            }
         }
     }
 
@@ -189,7 +210,21 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     {
         VectorChecks.CheckBatchForAdd(ids, vectors, Dimension, Metric);
         cancellationToken.ThrowIfCancellationRequested();
-        return ids.IsEmpty ? 0 : WriteBatch(ids, vectors, replace: true, progress, cancellationToken);
+        if (ids.IsEmpty)
+        {
+            return 0;
+        }
+
+        ReserveRows(ids.Length);
+        try
+        {
+            using var gate = _writerGate.EnterRead();
+            return WriteBatch(ids, vectors, replace: true, progress, cancellationToken);
+        }
+        finally
+        {
+            AfterWrite();
+        }
     }
 
     /// <inheritdoc/>
@@ -204,10 +239,15 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
             return;
         }
 
-        using var write = _lock.EnterWrite();
-        ThrowIfDisposed();
-        _slotOf.CheckPresent(ids);
-        RemoveLocked(ids);
+        using (_writerGate.EnterRead())
+        using (_lock.EnterWrite())
+        {
+            ThrowIfDisposed();
+            _slotOf.CheckPresent(ids);
+            RemoveLocked(ids);
+        }
+
+        AfterWrite();
     }
 
     /// <inheritdoc/>
@@ -228,8 +268,15 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <inheritdoc/>
+    /// <remarks>
+    /// Blocks of queries run in parallel, each block under the read lock, which is released between blocks: a write
+    /// waits for at most the blocks in flight, never for the whole batch. Each query therefore sees one consistent state
+    /// of the index, but two queries of one batch may see different states when a write lands between their blocks (k
+    /// is capped at the item count when the batch starts). <paramref name="progress"/> is called outside the lock.
+    /// </remarks>
     /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
     /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>
+    /// <exception cref="ObjectDisposedException">The index was disposed, before or during the batch.</exception>
     public BatchSearchResults SearchBatch(
         ReadOnlySpan<float> queries,
         int k,
@@ -239,31 +286,36 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     {
         ReadOnlySpan<float> prepared = BatchSearch.Prepare(queries, k, Dimension, Metric, out int queryCount);
         SearchOptions run = options ?? SearchOptions.Default;
-        using var read = _lock.EnterRead();
-        ThrowIfDisposed();
-        if (queryCount > 0)
+        BatchSearchResults results;
+        using (_lock.EnterRead())
         {
-            ThrowIfNotTrained();
+            // Checked once: training and an attached source are never undone, so later blocks need not check again.
+            ThrowIfDisposed();
+            if (queryCount > 0)
+            {
+                ThrowIfNotTrained();
+            }
+
+            results = BatchSearch.CreateResults(queryCount, k, _count);
+            if (queryCount == 0 || _count == 0)
+            {
+                return results;
+            }
+
+            if (ReadsFullVectorsExternally && _source is null && (run.RescoreDepth ?? SharedOptions.RescoreDepth) > 0)
+            {
+                SourceRows.ThrowNoSource();
+            }
         }
 
-        BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, _count);
-        if (queryCount == 0 || _count == 0)
-        {
-            return results;
-        }
-
-        if (ReadsFullVectorsExternally && _source is null && (run.RescoreDepth ?? SharedOptions.RescoreDepth) > 0)
-        {
-            SourceRows.ThrowNoSource();
-        }
-
-        SearchBatchLocked(prepared, results, run, progress, cancellationToken);
+        SearchBatchBlocks(prepared, results, run, progress, cancellationToken);
         return results;
     }
 
     /// <summary>Frees the index's storage. Further calls throw <see cref="ObjectDisposedException"/>; a second call does nothing.</summary>
     public void Dispose()
     {
+        using var gate = _writerGate.EnterRead();
         using var write = _lock.EnterWrite();
         if (_disposed)
         {
@@ -294,9 +346,43 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     /// <summary>One search; the caller holds the read lock, the index is trained and not empty, and q is prepared.</summary>
     private protected abstract int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options);
 
-    /// <summary>A batch of prepared queries, under the read lock; by default each query runs <see cref="SearchLocked"/>, blocks of queries in parallel.</summary>
-    private protected virtual void SearchBatchLocked(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
-        => BatchSearch.RunQueries(queries, Dimension, results, QueryBlock, options, progress, cancellationToken, static () => 0, (q, slots, _) => SearchLocked(q, slots, options));
+    /// <summary>
+    /// A batch of prepared queries, blocks of queries in parallel, each block under the read lock (taken by
+    /// <see cref="BatchSearch"/> through <see cref="EnterSearchBlock"/>); by default each query runs <see cref="SearchLocked"/>.
+    /// </summary>
+    private protected virtual void SearchBatchBlocks(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
+        => BatchSearch.RunQueries(this, queries, Dimension, results, QueryBlock, options, progress, cancellationToken, static () => 0, (q, slots, _) => SearchLocked(q, slots, options));
+
+    /// <summary>Enters the read lock for one block of a batch search; throws when the index was disposed meanwhile.</summary>
+    internal LockScopes.ReadScope EnterSearchBlock()
+    {
+        _lock.EnterReadLock();
+        if (_disposed)
+        {
+            _lock.ExitReadLock();
+            ThrowHelper.ThrowObjectDisposed(this);
+        }
+
+        return new LockScopes.ReadScope(_lock);
+    }
+
+    /// <summary>
+    /// Called before a batch of <paramref name="added"/> rows (at most) is written, outside both locks: a kind whose
+    /// storage would have to grow copies it into larger storage beside searches (holding the writer gate) and swaps it
+    /// in under a short write lock, instead of growing in place under the write lock. Only a hint: a concurrent write
+    /// may use the room first, and the write then grows under the lock as before.
+    /// </summary>
+    private protected virtual void ReserveRows(int added)
+    {
+    }
+
+    /// <summary>
+    /// Runs after every write has left both locks: a kind finishes deferred maintenance here (the graph's global
+    /// reachability pass), under the writer gate and in short steps of the write lock.
+    /// </summary>
+    private protected virtual void AfterWrite()
+    {
+    }
 
     /// <summary>
     /// How many candidates a search re-scores on the full vectors: the call's <see cref="SearchOptions.RescoreDepth"/>
@@ -349,6 +435,9 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
             throw new IndexNotTrainedException(NotTrainedMessage);
         }
     }
+
+    /// <summary>Threads waiting to write: on the write lock, or at the writer gate (for tests).</summary>
+    internal int WaitingWriters => _lock.WaitingWriteCount + _writerGate.WaitingReadCount + _writerGate.WaitingWriteCount;
 
     /// <summary>Whether <see cref="Dispose"/> has run (for a kind's own steps that end quietly on a disposed index).</summary>
     private protected bool IsDisposed => _disposed;

@@ -85,6 +85,31 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
 
     public void CopyRow(int from, int to) => RowSpan(from).CopyTo(RowSpan(to));
 
+    /// <summary>Copies rows [0, <paramref name="count"/>) into <paramref name="destination"/> (same width, room for them).</summary>
+    public void CopyRowsTo(RowBuffer<T> destination, int count)
+    {
+        // Row by row: the whole block may exceed a span's 2³¹ elements.
+        for (int slot = 0; slot < count; slot++)
+        {
+            RowSpan(slot).CopyTo(destination.RowSpan(slot));
+        }
+    }
+
+    /// <summary>
+    /// Frees this buffer's block and takes over <paramref name="other"/>'s (same width), leaving that one empty: a
+    /// compaction copies rows into a new buffer beside readers, then swaps blocks in a short exclusive step.
+    /// </summary>
+    public void Adopt(RowBuffer<T> other)
+    {
+        Free();
+        _rows = other._rows;
+        Capacity = other.Capacity;
+
+        // The memory pressure other added moves with its block.
+        other._rows = null;
+        other.Capacity = 0;
+    }
+
     public void Dispose()
     {
         Free();

@@ -16,9 +16,8 @@ namespace VectorKit.Persistence;
 /// <para><b>Atomic saving.</b> <see cref="Save(IVectorIndex, string, CancellationToken)"/> writes a temporary file in
 /// the target's folder, flushes it to the disk, then renames it over the target: an exception, a cancellation or a
 /// crash part-way leaves the previous file as it was.</para>
-/// <para><b>Consistency.</b> A save sees one consistent state of the index. An exact index lets searches run during
-/// the save and holds writes back (so does an inverted file); a graph index holds searches and writes back for the duration (its adds link
-/// under the shared lock, so nothing weaker gives a consistent graph).</para>
+/// <para><b>Consistency.</b> A save sees one consistent state of the index. On every kind, searches run during the
+/// save and never wait for it; writes wait until it ends.</para>
 /// <para><b>Safe loading.</b> Loading verifies the magic number, the format version, every checksum, every size
 /// against <see cref="IndexLoadOptions"/> and against the bytes that remain, and the structure of what it loads;
 /// any failure raises <see cref="IndexFileException"/> naming the problem and where it is, and nothing is kept.

@@ -52,6 +52,7 @@ public sealed partial class ExactIndex
             return;
         }
 
+        using var gate = _writerGate.EnterRead();
         _lock.EnterWriteLock();
         try
         {

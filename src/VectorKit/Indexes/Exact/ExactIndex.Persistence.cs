@@ -44,22 +44,16 @@ public sealed partial class ExactIndex
     }
 
     /// <summary>
-    /// Runs <paramref name="export"/> on the live rows while holding the read lock, so it sees one consistent state:
-    /// the row count, the ids array (first <c>count</c> entries valid) and the vector storage (first <c>count</c> rows).
-    /// Writes wait until it returns; searches proceed.
+    /// Runs <paramref name="export"/> on the live rows while holding the writer gate exclusively, so it sees one
+    /// consistent state: the row count, the ids array (first <c>count</c> entries valid) and the vector storage (first
+    /// <c>count</c> rows). Writes wait until it returns; searches proceed and never queue behind it (it does not hold
+    /// the read lock, behind which a waiting writer would hold back new searches).
     /// </summary>
     internal T ExportParts<T>(Func<int, long[], VectorBuffer, T> export)
     {
-        _lock.EnterReadLock();
-        try
-        {
-            ThrowIfDisposed();
-            return export(_count, _ids, _vectors);
-        }
-        finally
-        {
-            _lock.ExitReadLock();
-        }
+        using var gate = _writerGate.EnterWrite();
+        ThrowIfDisposed();
+        return export(_count, _ids, _vectors);
     }
 
     /// <summary>
@@ -140,21 +134,14 @@ public sealed partial class ExactIndex
     internal readonly record struct CodeParts(int Count, long[] Ids, ScalarQuantizer? Scalar, CodeBuffer Codes, VectorBuffer? FullVectors);
 
     /// <summary>
-    /// Under 8-bit storage, runs <paramref name="export"/> on the live state while holding the read lock (writes wait,
-    /// searches proceed), so it sees one consistent state.
+    /// Under 8-bit storage, runs <paramref name="export"/> on the live state while holding the writer gate exclusively
+    /// (writes wait, searches proceed), so it sees one consistent state.
     /// </summary>
     internal T ExportCodeParts<T>(Func<CodeParts, T> export)
     {
-        _lock.EnterReadLock();
-        try
-        {
-            ThrowIfDisposed();
-            return export(new CodeParts(_count, _ids, _scalar, _codes!, _keepsVectors ? _vectors : null));
-        }
-        finally
-        {
-            _lock.ExitReadLock();
-        }
+        using var gate = _writerGate.EnterWrite();
+        ThrowIfDisposed();
+        return export(new CodeParts(_count, _ids, _scalar, _codes!, _keepsVectors ? _vectors : null));
     }
 
     /// <summary>

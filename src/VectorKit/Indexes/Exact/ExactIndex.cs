@@ -26,7 +26,8 @@ namespace VectorKit.Indexes.Exact;
 /// (<see cref="VectorIndexOptions.FullVectors"/>).</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds and
 /// removes are exclusive, so a search sees the index entirely before or entirely after each write. A batch search holds
-/// the index for its whole duration.</para>
+/// the read lock one block of queries at a time (see <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and
+/// saving run beside searches, and writes wait for them.</para>
 /// <para>See docs/choosing-an-index.md in the repository for when an exact scan is the right choice.</para>
 /// </remarks>
 public sealed partial class ExactIndex : VectorIndex
@@ -169,26 +170,67 @@ public sealed partial class ExactIndex : VectorIndex
     internal int BatchFallbacks => Volatile.Read(ref _batchFallbacks);
 
     /// <inheritdoc/>
-    /// <remarks>Removed rows leave no holes in an exact index, so this only releases the storage reserved beyond <see cref="VectorIndex.Count"/> vectors.</remarks>
+    /// <remarks>
+    /// Removed rows leave no holes in an exact index, so this only releases the storage reserved beyond
+    /// <see cref="VectorIndex.Count"/> vectors. The trimmed copies are made beside searches (writes wait) and swapped in
+    /// a short exclusive step; a cancelled call changes nothing.
+    /// </remarks>
     public override void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
-        using var write = _lock.EnterWrite();
+        // The writer gate, held exclusively, keeps every write out, so the rows stay still while they are copied
+        // without the write lock; only the swap takes that.
+        using var gate = _writerGate.EnterWrite();
         ThrowIfDisposed();
         cancellationToken.ThrowIfCancellationRequested();
-        if (_keepsVectors)
+        int count = _count;
+        VectorBuffer? vectors = _keepsVectors ? new VectorBuffer(Dimension, count) : null;
+        CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, count);
+        try
         {
-            _vectors.Resize(_count);
+            if (vectors is not null)
+            {
+                _vectors.CopyRowsTo(vectors, count);
+            }
+
+            if (codes is not null)
+            {
+                _codes!.CopyRowsTo(codes, count);
+            }
+
+            long[] ids = _ids.AsSpan(0, count).ToArray();
+            float[] norms = _squaredNorms.Length > 0 ? _squaredNorms.AsSpan(0, count).ToArray() : _squaredNorms;
+            var slotOf = new IdMap(count);
+            for (int slot = 0; slot < count; slot++)
+            {
+                slotOf.Add(ids[slot], slot);
+            }
+
+            cancellationToken.ThrowIfCancellationRequested();
+            using (_lock.EnterWrite())
+            {
+                if (vectors is not null)
+                {
+                    _vectors.Adopt(vectors);
+                }
+
+                if (codes is not null)
+                {
+                    _codes!.Adopt(codes);
+                }
+
+                _ids = ids;
+                _squaredNorms = norms;
+                _slotOf = slotOf;
+            }
+        }
+        finally
+        {
+            // Empty after a swap; the unused copies after a cancellation.
+            vectors?.Dispose();
+            codes?.Dispose();
         }
 
-        _codes?.Resize(_count);
-        Array.Resize(ref _ids, _count);
-        if (_squaredNorms.Length > 0)
-        {
-            Array.Resize(ref _squaredNorms, _count);
-        }
-
-        _slotOf.TrimExcess();
-        progress?.Report(_count);
+        progress?.Report(count);
     }
 
     // Adds (and with `replace`, overwrites in place) a batch under the write lock, in one step: the rows are copied
@@ -246,18 +288,19 @@ public sealed partial class ExactIndex : VectorIndex
     /// <summary>
     /// Under float32 encoding without a filter, blocks of queries are scored against cache-sized tiles of rows and the
     /// result is proven equal to single searches (see the class remarks); otherwise each query runs the single-query
-    /// scan (and re-scoring), queries in parallel.
+    /// scan (and re-scoring), queries in parallel. Either way each block holds the read lock only while it runs, and
+    /// reads the row count and the largest norm again under it.
     /// </summary>
-    private protected override void SearchBatchLocked(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
+    private protected override void SearchBatchBlocks(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         if (_codes is not null || options.Filter is not null)
         {
-            base.SearchBatchLocked(queries, results, options, progress, cancellationToken);
+            base.SearchBatchBlocks(queries, results, options, progress, cancellationToken);
             return;
         }
 
-        var tiled = new TiledBatch(this, results, LargestSquaredNorm());
-        BatchSearch.RunBlocks(queries, results.QueryCount, TiledQueryBlock, options, progress, cancellationToken, () => new BatchScratch(this, results.K), tiled.Run);
+        var tiled = new TiledBatch(this, results);
+        BatchSearch.RunBlocks(this, queries, results.QueryCount, TiledQueryBlock, options, progress, cancellationToken, () => new BatchScratch(this, results.K), tiled.Run);
     }
 
     /// <inheritdoc/>
@@ -388,6 +431,77 @@ public sealed partial class ExactIndex : VectorIndex
         return largest;
     }
 
+    /// <inheritdoc/>
+    private protected override void ReserveRows(int added)
+    {
+        int capacity = _codes?.Capacity ?? _vectors.Capacity;
+        if ((long)Volatile.Read(ref _count) + added <= capacity)
+        {
+            return;
+        }
+
+        using var gate = _writerGate.EnterWrite();
+        if (IsDisposed)
+        {
+            return;
+        }
+
+        int count = _count;
+        capacity = _codes?.Capacity ?? _vectors.Capacity;
+        long required = (long)count + added;
+        if (required <= capacity || required > Array.MaxLength)
+        {
+            return;
+        }
+
+        // The growth rule of RowBuffer.EnsureCapacity, so the buffers stay the size growing in place would give.
+        int grown = (int)Math.Min(Array.MaxLength, Math.Max(required, capacity + ((long)capacity / 2)));
+        VectorBuffer? vectors = _keepsVectors ? new VectorBuffer(Dimension, grown) : null;
+        CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, grown);
+        try
+        {
+            if (vectors is not null)
+            {
+                _vectors.CopyRowsTo(vectors, count);
+            }
+
+            if (codes is not null)
+            {
+                _codes!.CopyRowsTo(codes, count);
+            }
+
+            var ids = new long[grown];
+            _ids.AsSpan(0, count).CopyTo(ids);
+            float[] norms = _squaredNorms;
+            if (KeepsSquaredNorms(Metric, _options.Encoding))
+            {
+                norms = new float[grown];
+                _squaredNorms.AsSpan(0, count).CopyTo(norms);
+            }
+
+            using (_lock.EnterWrite())
+            {
+                if (vectors is not null)
+                {
+                    _vectors.Adopt(vectors);
+                }
+
+                if (codes is not null)
+                {
+                    _codes!.Adopt(codes);
+                }
+
+                _ids = ids;
+                _squaredNorms = norms;
+            }
+        }
+        finally
+        {
+            vectors?.Dispose();
+            codes?.Dispose();
+        }
+    }
+
     private void EnsureCapacity(int required)
     {
         if (_keepsVectors)
@@ -438,7 +552,8 @@ public sealed partial class ExactIndex : VectorIndex
 
             // Candidates are selected with the tiled dot-product kernel, whose rounding differs from the single-query
             // kernel's; extra candidates, re-scored exactly, leave room for the error bound to prove the top k complete.
-            HeapSize = Math.Min(index._count, k + Math.Max(8, k / 2));
+            // A block uses at most the rows there are when it runs (see Tiled).
+            HeapSize = k + Math.Max(8, k / 2);
             Dots = new float[TiledQueryBlock * TileRows];
             Heaps = new SearchHit[TiledQueryBlock * HeapSize];
             Counts = new int[TiledQueryBlock];
@@ -459,7 +574,7 @@ public sealed partial class ExactIndex : VectorIndex
     }
 
     /// <summary>The shared state of one tiled batch search (float32 rows, no filter), and the work of one block of queries.</summary>
-    private sealed unsafe class TiledBatch(ExactIndex index, BatchSearchResults results, float largestSquaredNorm)
+    private sealed unsafe class TiledBatch(ExactIndex index, BatchSearchResults results)
     {
         public void Run(nint queries, int first, int count, BatchScratch scratch)
         {
@@ -483,8 +598,10 @@ public sealed partial class ExactIndex : VectorIndex
             where TFinish : struct, IDistanceFinish
         {
             int d = index.Dimension;
+            // The block holds the read lock; rows may have changed since the previous block.
             int n = index._count;
-            int heapSize = scratch.HeapSize;
+            int heapSize = Math.Min(n, scratch.HeapSize);
+            float largestSquaredNorm = index.LargestSquaredNorm();
             int tileRows = scratch.TileRows;
             long[] ids = index._ids;
             float[] rowNorms = index._squaredNorms;

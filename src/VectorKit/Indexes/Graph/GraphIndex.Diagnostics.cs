@@ -9,6 +9,9 @@ public sealed partial class GraphIndex
     /// </summary>
     internal int FullPassDivisor { get; set; } = 8;
 
+    /// <summary>Called by the global pass each time it has released the write lock after a step of changes (for tests).</summary>
+    internal Action? BetweenPassSteps { get; set; }
+
     /// <summary>Replaces the options' filtered-scan fraction (0: always walk, 1: always scan); for tests and benchmarks.</summary>
     internal double? FilteredScanFractionOverride { get; set; }
 
@@ -44,16 +47,14 @@ public sealed partial class GraphIndex
     /// <summary>Runs the global reachability pass now and returns how many nodes it attached (for tests).</summary>
     internal int RunFullPass()
     {
-        _lock.EnterWriteLock();
-        try
+        using (_writerGate.EnterRead())
+        using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
-            return FinishLocked(null, 0, 0, forceFullPass: true);
+            FinishLocked(null, 0, 0, forceFullPass: true);
         }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
+
+        return RunDueFullPass();
     }
 
     private long ReadCounter(ref long counter)

@@ -48,34 +48,41 @@ public sealed partial class GraphIndex
     /// The new graph is built beside the old one and replaces it at the end, so a cancelled compaction changes nothing;
     /// the price is memory: until the swap, the live vectors and links exist twice. Costs about as much as building the
     /// index anew. Levels are drawn again from <see cref="GraphIndexOptions.Seed"/>, so the result does not depend on
-    /// the history of adds and removes. Exclusive: waits for running searches and blocks new ones until it finishes.
+    /// the history of adds and removes. Searches run beside the rebuild, on the old graph, and wait only for the short
+    /// swap at the end; writes (and saves) wait for the whole compaction.
     /// </remarks>
     /// <exception cref="OperationCanceledException">The token was cancelled; see <paramref name="cancellationToken"/>.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public override void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
+        // The writer gate, held exclusively, keeps every write out, so the old graph stays still while it is read
+        // without the write lock; only the swap takes that.
+        using var gate = _writerGate.EnterWrite();
+        ThrowIfDisposed();
+        cancellationToken.ThrowIfCancellationRequested();
+        var rebuilt = new GraphIndex(Dimension, Metric, _options) { _scalar = _scalar };
+        int live = _count;
+        try
+        {
+            rebuilt.StoreLiveRowsOf(this);
+            if (live > 0)
+            {
+                rebuilt.LinkAll(0, live, progress, cancellationToken);
+                rebuilt.FinishLocked(null, 0, live, forceFullPass: true);
+                rebuilt.RunDueFullPass();
+            }
+
+            cancellationToken.ThrowIfCancellationRequested();
+        }
+        catch
+        {
+            rebuilt.Dispose();
+            throw;
+        }
+
         _lock.EnterWriteLock();
         try
         {
-            ThrowIfDisposed();
-            cancellationToken.ThrowIfCancellationRequested();
-            var rebuilt = new GraphIndex(Dimension, Metric, _options) { _scalar = _scalar };
-            int live = _count;
-            try
-            {
-                rebuilt.StoreLiveRowsOf(this);
-                if (live > 0)
-                {
-                    rebuilt.LinkAll(0, live, progress, cancellationToken);
-                    rebuilt.FinishLocked(null, 0, live, forceFullPass: true);
-                }
-            }
-            catch
-            {
-                rebuilt.Dispose();
-                throw;
-            }
-
             // The rebuilt index hands its storage over; it is dropped without disposing what now belongs to this one.
             _vectors?.Dispose();
             _codes?.Dispose();
@@ -90,6 +97,7 @@ public sealed partial class GraphIndex
             _count = rebuilt._count;
             _levelCounts = rebuilt._levelCounts;
             _changesSinceFullPass = 0;
+            _fullPassDue = false;
 
             // Waypoints and noted orphans name slots of the old graph; the rebuilt one has neither.
             _waypoints.Clear();
@@ -196,7 +204,9 @@ public sealed partial class GraphIndex
     }
 
     // Part of the global pass: every live list still naming a removed waypoint is chosen again, then the waypoints
-    // lose their lists. Caller holds the write lock.
+    // lose their lists. Caller holds the writer gate exclusively and not the write lock: the lists to repair are
+    // found without it (nothing else changes the graph), and repaired under it a few at a time; the waypoints keep
+    // their lists until no live list names them, so walks between the steps still pass through them.
     private void RetireWaypoints<TDistance>()
         where TDistance : struct, IGraphDistance
     {
@@ -205,9 +215,7 @@ public sealed partial class GraphIndex
             return;
         }
 
-        using GraphScratch.Rental rental = GraphScratch.Rent();
-        GraphScratch scratch = rental.Scratch;
-        scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
+        var lists = new List<long>();
         for (int slot = 0; slot < _used; slot++)
         {
             if (_removed[slot] != 0)
@@ -222,19 +230,38 @@ public sealed partial class GraphIndex
                 {
                     if (_removed[block[i]] != 0)
                     {
-                        Relink<TDistance>(scratch, slot, layer);
+                        lists.Add(((long)slot << 8) | (uint)layer);
                         break;
                     }
                 }
             }
         }
 
-        foreach (int slot in _waypoints)
+        using GraphScratch.Rental rental = GraphScratch.Rent();
+        GraphScratch scratch = rental.Scratch;
+        scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
+        var step = new WriteSteps(_lock, PassRelinkStep, BetweenPassSteps);
+        try
         {
-            ClearLists(slot);
-        }
+            foreach (long list in lists)
+            {
+                step.Enter();
+                Relink<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF));
+                step.Done();
+            }
 
-        _waypoints.Clear();
+            step.Enter();
+            foreach (int slot in _waypoints)
+            {
+                ClearLists(slot);
+            }
+
+            _waypoints.Clear();
+        }
+        finally
+        {
+            step.Leave();
+        }
     }
 
     // Adds to `affected` (keyed slot << 8 | layer) the live nodes whose list on `layer` names `removed`, and says

@@ -5,7 +5,7 @@ using VectorKit.Internal;
 namespace VectorKit.Indexes.Graph;
 
 /// <summary>
-/// The graph's primary state for persistence (<see cref="GraphIndexParts"/>): exported under the exclusive lock, and
+/// The graph's primary state for persistence (<see cref="GraphIndexParts"/>): exported under the writer gate, and
 /// rebuilt into a working index by <see cref="FromParts"/>, the one place where derived structures are recomputed
 /// after a load. Every structural invariant a walk relies on is verified there, so a crafted file cannot send a walk
 /// outside its arrays.
@@ -16,13 +16,14 @@ public sealed partial class GraphIndex
     internal static int MaxNodeLevel => MaxLevel;
 
     /// <summary>
-    /// Runs <paramref name="export"/> on a consistent copy of the primary state. Holds the exclusive lock for the whole
-    /// call (adds link under the shared lock, so nothing less gives a consistent graph): searches and writes wait.
-    /// The link arrays are copies; ids, flags and vectors are the live storage and must not be modified.
+    /// Runs <paramref name="export"/> on a consistent copy of the primary state. Holds the writer gate exclusively for
+    /// the whole call: every write, including the linking phase of an add, passes the gate, so nothing changes, while
+    /// searches (which never touch the gate) proceed. The link arrays are copies; ids, flags and vectors are the live
+    /// storage and must not be modified.
     /// </summary>
     internal T ExportParts<T>(Func<GraphIndexParts, T> export)
     {
-        _lock.EnterWriteLock();
+        _writerGate.EnterWriteLock();
         try
         {
             ThrowIfDisposed();
@@ -76,7 +77,7 @@ public sealed partial class GraphIndex
         }
         finally
         {
-            _lock.ExitWriteLock();
+            _writerGate.ExitWriteLock();
         }
     }
 

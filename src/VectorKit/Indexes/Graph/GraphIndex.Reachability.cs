@@ -54,17 +54,17 @@ public sealed partial class GraphIndex
     }
 
     // The last step of every add, removal and compaction; caller holds the write lock. Links the noted nodes (and the
-    // new slots [first, first + added)) that still have no in-link on the bottom layer, then runs the global pass when
-    // it is due: once the changes since the last one reach 1/FullPassDivisor of the items, so its O(items × links)
-    // cost is spread over at least that many changes.
-    private int FinishChanges<TDistance>(int first, int added, int changes, bool forceFullPass)
+    // new slots [first, first + added)) that still have no in-link on the bottom layer, then marks the global pass due
+    // once the changes since the last one reach 1/FullPassDivisor of the items, so its O(items × links) cost is spread
+    // over at least that many changes. The pass itself runs when the write has left the write lock (RunDueFullPass).
+    private void FinishChanges<TDistance>(int first, int added, int changes, bool forceFullPass)
         where TDistance : struct, IGraphDistance
     {
         int entry = EntrySlot(_entry);
         if (_count == 0 || entry < 0)
         {
             _orphanNotes.Clear();
-            return 0;
+            return;
         }
 
         for (int slot = first; slot < first + added; slot++)
@@ -80,12 +80,36 @@ public sealed partial class GraphIndex
         if (forceFullPass || overflow || (FullPassDivisor > 0 && _changesSinceFullPass * FullPassDivisor >= _count))
         {
             _changesSinceFullPass = 0;
-            _fullPasses++;
-            return RepairReachability<TDistance>();
+            _fullPassDue = true;
+        }
+    }
+
+    // Runs the global pass when one is due, after a write has left both locks. It holds the writer gate exclusively,
+    // so no other write (nor a save) starts meanwhile and the graph changes only through the pass itself: the
+    // traversals read it without the write lock, beside searches, and every change is made under the write lock in
+    // steps of a few lists. Each step leaves a state a finished write could have left (a removed node still named by
+    // a list keeps its own lists, so walks pass through it), so a search between steps sees a sound graph.
+    // Returns the number of nodes attached.
+    private int RunDueFullPass()
+    {
+        if (!Volatile.Read(ref _fullPassDue))
+        {
+            return 0;
         }
 
-        return 0;
+        using var gate = _writerGate.EnterWrite();
+        if (IsDisposed || !_fullPassDue)
+        {
+            return 0;
+        }
+
+        _fullPassDue = false;
+        var action = new FullPassAction(this);
+        return Dispatch<FullPassAction, int>(ref action);
     }
+
+    /// <inheritdoc/>
+    private protected override void AfterWrite() => RunDueFullPass();
 
     // Attaches every noted node that is live, not the entry point and without a bottom-layer in-link. Attaching can
     // take a link from a full list and orphan another node, which is noted and handled in the next round; returns
@@ -132,13 +156,17 @@ public sealed partial class GraphIndex
     // in-link). Then the safety net behind "every live node is reachable from the entry point on the bottom layer":
     // in-degrees catch a node that lost its last in-link at once, but not a group of nodes that only link to each
     // other; a traversal from the entry point finds those and links each from a reached node near it.
-    // Caller holds the write lock. Returns the number of nodes attached.
+    // Caller holds the writer gate exclusively and not the write lock (see RunDueFullPass); the pass takes the write
+    // lock for each step of changes. Returns the number of nodes attached.
     private int RepairReachability<TDistance>()
         where TDistance : struct, IGraphDistance
     {
         int entry = EntrySlot(_entry);
         if (_count == 0 || entry < 0)
         {
+            using var empty = _lock.EnterWrite();
+            _fullPasses++;
+            _orphanNotes.Clear();
             return 0;
         }
 
@@ -151,36 +179,93 @@ public sealed partial class GraphIndex
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         scratch.EnsureSizes(_options.BuildWidth, _links.MaxLimit);
-
-        // Attaching replaces a link only when the reached node's list is full; a node cut off that way is found by
-        // the next round. Rounds beyond the first are rare; the bound only guards against a pathological cycle.
-        for (int round = 0; round < 8; round++)
+        var step = new WriteSteps(_lock, PassAttachStep, BetweenPassSteps);
+        try
         {
-            bool any = false;
-            for (int slot = 0; slot < used; slot++)
+            // Attaching replaces a link only when the reached node's list is full; a node cut off that way is found by
+            // the next round. Rounds beyond the first are rare; the bound only guards against a pathological cycle.
+            for (int round = 0; round < 8; round++)
             {
-                if (_removed[slot] == 0 && !reached[slot])
+                bool any = false;
+                for (int slot = 0; slot < used; slot++)
                 {
-                    any = true;
-                    Attach<TDistance>(scratch, slot, reached);
-                    attached++;
-                    Spread(slot, reached, stack);
+                    if (_removed[slot] == 0 && !reached[slot])
+                    {
+                        any = true;
+                        step.Enter();
+                        Attach<TDistance>(scratch, slot, reached);
+                        attached++;
+                        Spread(slot, reached, stack);
+                        step.Done();
+                    }
                 }
+
+                if (!any)
+                {
+                    break;
+                }
+
+                // The traversal again from the entry point reads the graph only: outside the write lock.
+                step.Leave();
+                Array.Clear(reached);
+                Spread(entry, reached, stack);
             }
 
-            if (!any)
-            {
-                break;
-            }
-
-            Array.Clear(reached);
-            Spread(entry, reached, stack);
+            // Attaching can leave a node without in-links that the pass then reached some other way: none is kept noted.
+            step.Enter();
+            _orphanNotes.Clear();
+            _orphansAttached += attached;
+            _fullPasses++;
+        }
+        finally
+        {
+            step.Leave();
         }
 
-        // Attaching can leave a node without in-links that the pass then reached some other way: none is kept noted.
-        _orphanNotes.Clear();
-        _orphansAttached += attached;
         return attached;
+    }
+
+    /// <summary>
+    /// The write lock taken for a bounded number of changes at a time, for a pass that holds the writer gate: entered
+    /// before a change, released after <c>limit</c> of them or on <see cref="Leave"/>, so searches run in between.
+    /// </summary>
+    private struct WriteSteps(ReaderWriterLockSlim rwLock, int limit, Action? hook)
+    {
+        private int _done;
+
+        public readonly void Enter()
+        {
+            if (!rwLock.IsWriteLockHeld)
+            {
+                rwLock.EnterWriteLock();
+            }
+        }
+
+        public void Done()
+        {
+            if (++_done >= limit)
+            {
+                Leave();
+            }
+        }
+
+        public void Leave()
+        {
+            _done = 0;
+            if (rwLock.IsWriteLockHeld)
+            {
+                rwLock.ExitWriteLock();
+                hook?.Invoke();
+            }
+        }
+    }
+
+    /// <summary>Runs the global pass with the index's distance.</summary>
+    private readonly struct FullPassAction(GraphIndex index) : IGraphAction<int>
+    {
+        public int Run<TDistance>()
+            where TDistance : struct, IGraphDistance
+            => index.RepairReachability<TDistance>();
     }
 
     // Marks every node reachable on the bottom layer from `start`.
@@ -330,9 +415,9 @@ public sealed partial class GraphIndex
     }
 
     /// <summary>Runs the last step of an add, removal or compaction with the index's distance.</summary>
-    private readonly struct FinishAction(GraphIndex index, int[]? removed, int first, int added, bool forceFullPass) : IGraphAction<int>
+    private readonly struct FinishAction(GraphIndex index, int[]? removed, int first, int added, bool forceFullPass) : IGraphAction<bool>
     {
-        public int Run<TDistance>()
+        public bool Run<TDistance>()
             where TDistance : struct, IGraphDistance
         {
             int changes = added;
@@ -342,15 +427,16 @@ public sealed partial class GraphIndex
                 changes += removed.Length;
             }
 
-            return index.FinishChanges<TDistance>(first, added, changes, forceFullPass);
+            index.FinishChanges<TDistance>(first, added, changes, forceFullPass);
+            return true;
         }
     }
 
-    // Caller holds the write lock.
-    private int FinishLocked(int[]? removed, int first, int added, bool forceFullPass)
+    // Caller holds the write lock; a global pass found due runs later, from AfterWrite.
+    private void FinishLocked(int[]? removed, int first, int added, bool forceFullPass)
     {
         var action = new FinishAction(this, removed, first, added, forceFullPass);
-        return Dispatch<FinishAction, int>(ref action);
+        Dispatch<FinishAction, bool>(ref action);
     }
 
     // Runs under the write lock after an add batch (a short exclusive step after the shared linking phase).

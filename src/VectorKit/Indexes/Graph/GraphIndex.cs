@@ -26,10 +26,15 @@ namespace VectorKit.Indexes.Graph;
 /// <para><b>Writes.</b> <see cref="VectorIndex.AddRange"/> links new items in parallel while searches proceed; a
 /// cancelled batch is taken out again. A removed item is never returned, and the lists that linked to it are repaired
 /// at once, at a cost that does not grow with the index; its space is released by <see cref="Compact"/>. Every live item is kept reachable from the entry point: a
-/// node cut off by pruning is re-linked at once, and a full reachability pass runs after enough changes.</para>
-/// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with the
-/// linking phase of adds, and may or may not see an item being linked. Removal, <see cref="Compact"/>,
-/// <see cref="VectorIndex.Dispose"/> and the short store and repair steps of an add are exclusive.</para>
+/// node cut off by pruning is re-linked at once, and a full reachability pass runs after enough changes. That pass runs
+/// at the end of the write that made it due, after the write itself is visible: its traversals run beside searches and
+/// its changes are made a few lists at a time, so searches wait for a few list repairs at most; other writes wait for
+/// the whole pass.</para>
+/// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other, with the
+/// linking phase of adds, with the rebuild of <see cref="Compact"/> (they see the old graph until the swap), with
+/// saving and with the traversals of the global pass; they may or may not see an item being linked. Removal,
+/// replacement, <see cref="VectorIndex.Dispose"/>, the swap of a compaction, the steps of the global pass and the
+/// short store and repair steps of an add are exclusive.</para>
 /// <para>See docs/choosing-an-index.md, docs/live-updates.md and docs/filters.md in the repository for when to use
 /// this index, how updates behave, and how filters are evaluated.</para>
 /// </remarks>
@@ -49,6 +54,11 @@ public sealed partial class GraphIndex : VectorIndex
     // The cost model's constant for choosing between a filtered walk and an exact scan (fitted; see
     // GraphIndexOptions.FilteredExactScanFraction).
     private const double WalkCostConstant = 0.2;
+
+    // Changes the global pass makes per hold of the write lock: lists chosen again, or orphans attached (each a walk of
+    // the build width). Small, so a search waits for a few of them at most.
+    private const int PassRelinkStep = 16;
+    private const int PassAttachStep = 2;
 
     // Bounds of the walk that finds the lists naming a removed node (see FindInLinks).
     private const int InLinkSearchHops = 3;
@@ -73,6 +83,8 @@ public sealed partial class GraphIndex : VectorIndex
     private int[] _levelCounts = new int[MaxLevel + 1];
     private readonly List<int> _orphanNotes = [];
     private long _changesSinceFullPass;
+    // Set under the write lock when the global pass is due; the write that set it runs the pass on its way out.
+    private bool _fullPassDue;
     private long _orphansAttached;
     private long _orphansAttachedLocally;
     private long _fullPasses;
@@ -181,6 +193,7 @@ public sealed partial class GraphIndex : VectorIndex
     public override void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
     {
         ScalarQuantizer? scalar = ScalarCodeTraining.Learn(sample, Dimension, Metric, _codes is not null, cancellationToken);
+        using var gate = _writerGate.EnterRead();
         _lock.EnterWriteLock();
         try
         {
@@ -344,6 +357,67 @@ public sealed partial class GraphIndex : VectorIndex
         _codes?.Dispose();
         _used = 0;
         Volatile.Write(ref _entry, -1L & 0xFFFFFFFFL);
+    }
+
+    /// <inheritdoc/>
+    private protected override void ReserveRows(int added)
+    {
+        if ((long)Volatile.Read(ref _used) + added <= _links.Capacity)
+        {
+            return;
+        }
+
+        // Holding the gate exclusively keeps out linking adds, the only writers outside the write lock.
+        using var gate = _writerGate.EnterWrite();
+        if (IsDisposed)
+        {
+            return;
+        }
+
+        int used = _used;
+        int capacity = _vectors?.Capacity ?? _codes!.Capacity;
+        long required = (long)used + added;
+        int cap = Array.MaxLength / (_links.BottomLimit + 1);
+        if (required <= capacity || required > cap)
+        {
+            return;
+        }
+
+        // The growth rule of RowBuffer.EnsureCapacity and GraphLinks.EnsureCapacity.
+        int grown = (int)Math.Min(cap, Math.Max(required, capacity + ((long)capacity / 2)));
+        VectorBuffer? vectors = _vectors is null ? null : new VectorBuffer(Dimension, grown);
+        CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, grown);
+        try
+        {
+            _vectors?.CopyRowsTo(vectors!, used);
+            _codes?.CopyRowsTo(codes!, used);
+            GraphLinks links = _links.GrownCopy(grown);
+            var ids = new long[grown];
+            _ids.AsSpan(0, used).CopyTo(ids);
+            var removed = new byte[grown];
+            _removed.AsSpan(0, used).CopyTo(removed);
+            using (_lock.EnterWrite())
+            {
+                if (vectors is not null)
+                {
+                    _vectors!.Adopt(vectors);
+                }
+
+                if (codes is not null)
+                {
+                    _codes!.Adopt(codes);
+                }
+
+                _links = links;
+                _ids = ids;
+                _removed = removed;
+            }
+        }
+        finally
+        {
+            vectors?.Dispose();
+            codes?.Dispose();
+        }
     }
 
     // Reserves slots for a validated batch, writes vectors (normalised under cosine; encoded under codes) and ids, and draws levels.

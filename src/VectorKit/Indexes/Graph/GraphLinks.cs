@@ -67,6 +67,29 @@ internal sealed class GraphLinks
         Array.Resize(ref _inBottom, grown);
     }
 
+    /// <summary>
+    /// A copy with every per-node array grown to <paramref name="capacity"/> nodes, links, levels and in-degrees kept,
+    /// for growth beside readers (they keep reading this one until the owner swaps); caller excludes every writer.
+    /// </summary>
+    public GraphLinks GrownCopy(int capacity)
+    {
+        var copy = new GraphLinks(UpperLimit, BottomLimit)
+        {
+            _bottom = new int[checked(capacity * (BottomLimit + 1))],
+            _upperStart = new int[capacity],
+            _levels = new byte[capacity],
+            _inBottom = new int[capacity],
+            _upper = (int[])_upper.Clone(),
+            _inUpper = (int[])_inUpper.Clone(),
+            _upperUsed = _upperUsed,
+        };
+        _bottom.CopyTo(copy._bottom, 0);
+        _upperStart.CopyTo(copy._upperStart, 0);
+        _levels.CopyTo(copy._levels, 0);
+        _inBottom.CopyTo(copy._inBottom, 0);
+        return copy;
+    }
+
     /// <summary>Shrinks to exactly <paramref name="capacity"/> nodes and forgets every link; caller excludes all other users.</summary>
     public void Reset(int capacity)
     {

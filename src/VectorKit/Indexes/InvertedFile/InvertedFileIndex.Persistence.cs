@@ -6,18 +6,19 @@ namespace VectorKit.Indexes.InvertedFile;
 
 /// <summary>
 /// The inverted file's primary state for persistence (<see cref="InvertedFileIndexParts"/>): exported under the
-/// shared lock (every change takes the exclusive one, so that state is consistent), and rebuilt into a working index
+/// writer gate (every change passes it, so that state is consistent; searches do not), and rebuilt into a working index
 /// by <see cref="FromParts"/>, which verifies everything a search relies on and derives slots and the id lookup.
 /// </summary>
 public sealed partial class InvertedFileIndex
 {
     /// <summary>
-    /// Runs <paramref name="export"/> on the primary state while holding the shared lock: searches proceed, changes
-    /// wait. Ids and list lengths are copies; list codes and full vectors are the live storage and must not be modified.
+    /// Runs <paramref name="export"/> on the primary state while holding the writer gate exclusively: searches proceed
+    /// (and never queue behind it), changes wait. Ids and list lengths are copies; list codes and full vectors are the
+    /// live storage and must not be modified.
     /// </summary>
     internal T ExportParts<T>(Func<InvertedFileIndexParts, T> export)
     {
-        _lock.EnterReadLock();
+        _writerGate.EnterWriteLock();
         try
         {
             ThrowIfDisposed();
@@ -63,7 +64,7 @@ public sealed partial class InvertedFileIndex
         }
         finally
         {
-            _lock.ExitReadLock();
+            _writerGate.ExitWriteLock();
         }
     }
 

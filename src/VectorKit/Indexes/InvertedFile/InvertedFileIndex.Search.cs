@@ -31,8 +31,8 @@ public sealed partial class InvertedFileIndex
     }
 
     /// <inheritdoc/>
-    private protected override void SearchBatchLocked(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
-        => BatchSearch.RunQueries(queries, Dimension, results, QueryBlock, options, progress, cancellationToken, static () => new SearchScratch(), (q, slots, scratch) => SearchLocked(q, slots, options, scratch));
+    private protected override void SearchBatchBlocks(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
+        => BatchSearch.RunQueries(this, queries, Dimension, results, QueryBlock, options, progress, cancellationToken, static () => new SearchScratch(), (q, slots, scratch) => SearchLocked(q, slots, options, scratch));
 
     // Caller holds the read lock; q is validated (unit length under cosine).
     private int SearchLocked(ReadOnlySpan<float> q, Span<SearchHit> destination, SearchOptions options, SearchScratch scratch)

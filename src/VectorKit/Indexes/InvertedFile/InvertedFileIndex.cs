@@ -27,7 +27,8 @@ namespace VectorKit.Indexes.InvertedFile;
 /// <see cref="IFullVectorSource"/> (<see cref="VectorIndexOptions.FullVectors"/>). A filter is checked while the probed
 /// lists are scanned, so fewer than k results come back when they hold fewer than k passing items.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds
-/// and removes are exclusive. A batch search holds the index for its duration.</para>
+/// and removes are exclusive. A batch search holds the read lock one block of queries at a time (see
+/// <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and saving run beside searches, and writes wait for them.</para>
 /// <para><b>Persistence.</b> <c>VectorKit.Persistence.IndexFile</c> saves and loads the index, trained or not; an
 /// external full-vector source is neither saved nor disposed: attach it again after loading.</para>
 /// </remarks>
@@ -207,6 +208,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
             sample = VectorChecks.NormalizedRows(sample, d, nameof(sample), cancellationToken);
         }
 
+        using var gate = _writerGate.EnterRead();
         _lock.EnterWriteLock();
         try
         {
@@ -306,24 +308,67 @@ public sealed partial class InvertedFileIndex : VectorIndex
     }
 
     /// <inheritdoc/>
-    /// <remarks>Removed entries leave no holes in the lists, so this releases the storage reserved beyond the vectors held (list growth slack, slot arrays, id lookup).</remarks>
+    /// <remarks>
+    /// Removed entries leave no holes in the lists, so this releases the storage reserved beyond the vectors held (list
+    /// growth slack, slot arrays, id lookup). The trimmed copies are made beside searches (writes wait) and swapped in a
+    /// short exclusive step; a cancelled call changes nothing.
+    /// </remarks>
     public override void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
-        using var write = _lock.EnterWrite();
+        // The writer gate, held exclusively, keeps every write out, so the lists stay still while they are copied
+        // without the write lock; only the swap takes that.
+        using var gate = _writerGate.EnterWrite();
         ThrowIfDisposed();
         cancellationToken.ThrowIfCancellationRequested();
-        for (int list = 0; list < _listCounts.Length; list++)
+        int lists = _listCounts.Length;
+        int count = _count;
+        var slots = new int[lists][];
+        var codes = new byte[lists][];
+        for (int list = 0; list < lists; list++)
         {
-            Array.Resize(ref _listSlots[list], _listCounts[list]);
-            Array.Resize(ref _listCodes[list], _listCounts[list] * _codeBytes);
+            slots[list] = _listSlots[list].AsSpan(0, _listCounts[list]).ToArray();
+            codes[list] = _listCodes[list].AsSpan(0, _listCounts[list] * _codeBytes).ToArray();
         }
 
-        Array.Resize(ref _ids, _count);
-        Array.Resize(ref _listOf, _count);
-        Array.Resize(ref _positionOf, _count);
-        _full?.Resize(_count);
-        _slotOf.TrimExcess();
-        progress?.Report(_count);
+        long[] ids = _ids.AsSpan(0, count).ToArray();
+        int[] listOf = _listOf.AsSpan(0, count).ToArray();
+        int[] positionOf = _positionOf.AsSpan(0, count).ToArray();
+        var slotOf = new IdMap(count);
+        for (int slot = 0; slot < count; slot++)
+        {
+            slotOf.Add(ids[slot], slot);
+        }
+
+        VectorBuffer? full = _full is null ? null : new VectorBuffer(Dimension, count);
+        try
+        {
+            _full?.CopyRowsTo(full!, count);
+            cancellationToken.ThrowIfCancellationRequested();
+            using (_lock.EnterWrite())
+            {
+                for (int list = 0; list < lists; list++)
+                {
+                    _listSlots[list] = slots[list];
+                    _listCodes[list] = codes[list];
+                }
+
+                _ids = ids;
+                _listOf = listOf;
+                _positionOf = positionOf;
+                _slotOf = slotOf;
+                if (full is not null)
+                {
+                    _full!.Adopt(full);
+                }
+            }
+        }
+        finally
+        {
+            // Empty after a swap; the unused copy after a cancellation.
+            full?.Dispose();
+        }
+
+        progress?.Report(count);
     }
 
     // Caller holds the write lock; the id is present. Fills the holes it leaves with last entries, so lists and slots stay dense.

@@ -1,0 +1,249 @@
+using System.Diagnostics;
+using System.Globalization;
+using VectorKit.Distance;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
+using VectorKit.Persistence;
+using VectorKit.Tests.TestData;
+
+namespace VectorKit.Benchmarks.Indexes;
+
+/// <summary>
+/// Search latency while the index is maintained: one thread searches back to back (single queries, k = 10, default
+/// options) and records every latency; a second thread writes steadily, one write (a remove or an add, alternating)
+/// per 100 searches; the main thread runs one maintenance step at a time: nothing (writes only), the graph's global
+/// reachability pass, <c>Compact</c>, a save to a temporary file, and a batch search of 2,000 queries. Each phase
+/// reports p50 / p99 / p99.9 / max search latency and the max over the p99 of the same index measured with no writes
+/// at the start of the same run. Each maintenance step is repeated until the phase has lasted the given seconds. The
+/// batch phase also reports the slowest write against the slowest batch (a write that waited for a whole batch would
+/// take about as long as the batch).
+/// </summary>
+/// <remarks>
+/// The graph's amortised pass is turned off during the write phases and run on its own phase, so the pass is measured
+/// once per run rather than when 1/8 of the index has changed.
+/// </remarks>
+public static class MaintenanceLatency
+{
+    private const int K = 10;
+    private const int QueryCount = 1_000;
+    private const int SearchesPerWrite = 100;
+    private const int BatchQueries = 2_000;
+
+    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra);
+
+    /// <summary>Runs the harness on <paramref name="count"/> × <paramref name="dimension"/> clustered rows for the kinds named (exact, graph, inverted-file).</summary>
+    public static void Run(int count, int dimension, double baselineSeconds, IReadOnlyList<string> kinds)
+    {
+        int d = dimension;
+        int clusters = Math.Max(1, count / 100);
+        Console.WriteLine($"clustered synthetic: {count:N0} × {d}, {clusters:N0} clusters, spread 0.2, squared L2; {QueryCount} queries, k = {K}; {Environment.ProcessorCount} cores; 1 searching thread, 1 writing thread (1 write per {SearchesPerWrite} searches)");
+        float[] all = ClusteredData.Generate(count + QueryCount, d, clusters, 0.2f, seed: 101);
+        float[] data = all.AsSpan(0, count * d).ToArray();
+        float[] queries = all.AsSpan(count * d, QueryCount * d).ToArray();
+        all = [];
+        var phases = new List<Phase>();
+        foreach (string kind in kinds)
+        {
+            RunKind(kind, data, queries, count, d, baselineSeconds, phases);
+        }
+
+        Console.WriteLine();
+        Console.WriteLine("| index | phase | runs | phase s | searches | p50 ms | p99 ms | p99.9 ms | max ms | max / no-write p99 | max / no-write max | writes | slowest write ms |");
+        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|");
+        foreach (Phase p in phases)
+        {
+            LatencySummary baseline = phases.First(b => b.Kind == p.Kind).Searches;
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+                $"| {p.Kind} | {p.Name} | {p.Runs} | {p.Seconds:F1} | {p.Searches.Count:N0} | {p.Searches.P50:F2} | {p.Searches.P99:F2} | {p.Searches.P999:F2} | {p.Searches.Max:F2} | {p.Searches.Max / baseline.P99:F1} | {p.Searches.Max / baseline.Max:F2} | {p.Writes:N0} | {(p.Writes > 0 ? p.SlowestWriteMs.ToString("F1", CultureInfo.InvariantCulture) : "–")} |"));
+        }
+
+        Console.WriteLine();
+        foreach (Phase p in phases.Where(p => p.Name.StartsWith("batch", StringComparison.Ordinal)))
+        {
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{p.Kind}: the slowest batch search of {BatchQueries:N0} queries took {p.Extra:F0} ms; the slowest write during the batches {p.SlowestWriteMs:F1} ms"));
+        }
+    }
+
+    private static void RunKind(string kind, float[] data, float[] queries, int count, int d, double baselineSeconds, List<Phase> phases)
+    {
+        long[] ids = Enumerable.Range(0, count).Select(i => (long)i).ToArray();
+        var build = Stopwatch.StartNew();
+        using VectorIndex index = kind switch
+        {
+            "exact" => new ExactIndex(d, DistanceMetric.SquaredEuclidean),
+            "graph" => new GraphIndex(d, DistanceMetric.SquaredEuclidean),
+            "inverted-file" => new InvertedFileIndex(d, DistanceMetric.SquaredEuclidean),
+            _ => throw new ArgumentException($"unknown kind '{kind}'; expected exact, graph or inverted-file", nameof(kind)),
+        };
+        index.Train(data.AsSpan(0, Math.Min(count, 100_000) * d));
+        index.AddRange(ids, data);
+        Console.WriteLine($"{kind}: built in {build.Elapsed.TotalSeconds:F1} s");
+        var graph = index as GraphIndex;
+
+        // Warm-up, then the reference: searches with no writes.
+        Measure(index, queries, d, TimeSpan.FromSeconds(1), writes: null, static () => { });
+        phases.Add(Measure(kind, "no writes", index, queries, d, baselineSeconds, null, () => Thread.Sleep(TimeSpan.FromSeconds(baselineSeconds))));
+
+        var writer = new SteadyWriter(index, data, count, d);
+        if (graph is not null)
+        {
+            graph.FullPassDivisor = 0;
+        }
+
+        phases.Add(Measure(kind, "removes + adds", index, queries, d, baselineSeconds, writer, () => Thread.Sleep(TimeSpan.FromSeconds(baselineSeconds))));
+        if (graph is not null)
+        {
+            phases.Add(Measure(kind, "global pass", index, queries, d, baselineSeconds, writer, () => graph.RunFullPass()));
+        }
+
+        phases.Add(Measure(kind, "compact", index, queries, d, baselineSeconds, writer, () => index.Compact()));
+        string path = Path.Combine(Path.GetTempPath(), $"maintenance-latency-{Environment.ProcessId}.vki");
+        try
+        {
+            phases.Add(Measure(kind, "save (file)", index, queries, d, baselineSeconds, writer, () => IndexFile.Save(index, path)));
+        }
+        finally
+        {
+            File.Delete(path);
+        }
+
+        double batchMs = 0;
+        float[] batch = new float[BatchQueries * d];
+        for (int i = 0; i < BatchQueries; i++)
+        {
+            queries.AsSpan((i % QueryCount) * d, d).CopyTo(batch.AsSpan(i * d, d));
+        }
+
+        Phase batchPhase = Measure(kind, "batch search", index, queries, d, baselineSeconds, writer, () =>
+        {
+            var watch = Stopwatch.StartNew();
+            index.SearchBatch(batch, K);
+            batchMs = Math.Max(batchMs, watch.Elapsed.TotalMilliseconds);
+        });
+        phases.Add(batchPhase with { Extra = batchMs });
+    }
+
+    // One phase: the searcher runs while `maintenance` runs, again and again until `seconds` have passed (at least
+    // once), the writer beside it when given.
+    private static Phase Measure(string kind, string name, VectorIndex index, float[] queries, int d, double seconds, SteadyWriter? writer, Action maintenance)
+    {
+        var watch = Stopwatch.StartNew();
+        int runs = 0;
+        (LatencySummary summary, int writes, double slowest) = Measure(index, queries, d, null, writer, () =>
+        {
+            do
+            {
+                maintenance();
+                runs++;
+            }
+            while (watch.Elapsed.TotalSeconds < seconds);
+        });
+        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0);
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}, {name}: {phase.Seconds:F1} s, {summary.Count:N0} searches, p99 {summary.P99:F2} ms, max {summary.Max:F2} ms, {writes} writes (slowest {slowest:F1} ms)"));
+        return phase;
+    }
+
+    private static (LatencySummary Summary, int Writes, double SlowestWriteMs) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
+    {
+        // Room for every sample up front: growing the list mid-phase would allocate (and collect) beside the searches.
+        var latencies = new List<double>(1 << 22);
+        int searches = 0;
+        bool stop = false;
+        var searcher = new Thread(() =>
+        {
+            var hits = new SearchHit[K];
+            int q = 0;
+            while (!Volatile.Read(ref stop))
+            {
+                long start = Stopwatch.GetTimestamp();
+                index.Search(queries.AsSpan(q * d, d), hits);
+                latencies.Add(Stopwatch.GetElapsedTime(start).TotalMilliseconds);
+                Interlocked.Increment(ref searches);
+                q = (q + 1) % QueryCount;
+            }
+        });
+        Thread? writer = writes is null ? null : new Thread(() => writes.Run(() => Volatile.Read(ref searches), () => Volatile.Read(ref stop)));
+        writes?.Reset();
+        searcher.Start();
+        writer?.Start();
+        if (duration is TimeSpan span)
+        {
+            Thread.Sleep(span);
+        }
+
+        maintenance();
+        Volatile.Write(ref stop, true);
+        searcher.Join();
+        writer?.Join();
+        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0);
+    }
+
+    /// <summary>One write per <see cref="SearchesPerWrite"/> searches: removes a random live item, then adds a new one, in turn.</summary>
+    private sealed class SteadyWriter(VectorIndex index, float[] data, int count, int d)
+    {
+        private readonly List<long> _live = Enumerable.Range(0, count).Select(i => (long)i).ToList();
+        private readonly Random _random = new(7);
+        private long _nextId = count;
+        private int _done;
+
+        public int Count { get; private set; }
+
+        public double SlowestMs { get; private set; }
+
+        public void Reset()
+        {
+            Count = 0;
+            SlowestMs = 0;
+        }
+
+        public void Run(Func<int> searches, Func<bool> stop)
+        {
+            int start = searches();
+            while (!stop())
+            {
+                if (searches() - start < (Count + 1) * SearchesPerWrite)
+                {
+                    Thread.Sleep(1);
+                    continue;
+                }
+
+                long begin = Stopwatch.GetTimestamp();
+                if ((_done++ & 1) == 0)
+                {
+                    int at = _random.Next(_live.Count);
+                    long id = _live[at];
+                    _live[at] = _live[^1];
+                    _live.RemoveAt(_live.Count - 1);
+                    index.Remove(id);
+                }
+                else
+                {
+                    long id = _nextId++;
+                    index.Add(id, data.AsSpan((int)(id % count) * d, d));
+                    _live.Add(id);
+                }
+
+                SlowestMs = Math.Max(SlowestMs, Stopwatch.GetElapsedTime(begin).TotalMilliseconds);
+                Count++;
+            }
+        }
+    }
+
+    /// <summary>Latency percentiles of one phase, in milliseconds (nearest rank).</summary>
+    private sealed record LatencySummary(int Count, double P50, double P99, double P999, double Max)
+    {
+        public static LatencySummary Of(List<double> values)
+        {
+            if (values.Count == 0)
+            {
+                return new LatencySummary(0, double.NaN, double.NaN, double.NaN, double.NaN);
+            }
+
+            values.Sort();
+            double At(double p) => values[Math.Min(values.Count - 1, (int)Math.Ceiling(p * values.Count) - 1)];
+            return new LatencySummary(values.Count, At(0.50), At(0.99), At(0.999), values[^1]);
+        }
+    }
+}
