@@ -29,7 +29,7 @@ internal sealed partial class StressRun
             SearchHit[] hits = _index.Search(query, K, options);
             long end = _model.Tick();
             Interlocked.Increment(ref Counters.Searches);
-            CheckHits(query, hits, options, start, end);
+            CheckHits(query, hits, options, start, end, batch: false);
         }
         else if (kind < 6)
         {
@@ -43,7 +43,7 @@ internal sealed partial class StressRun
             Expect(results.QueryCount == count, $"a batch of {count} queries has {results.QueryCount} results");
             for (int q = 0; q < count; q++)
             {
-                CheckHits(Query(first + q), results[q].ToArray(), options, start, end);
+                CheckHits(Query(first + q), results[q].ToArray(), options, start, end, batch: true);
             }
         }
         else
@@ -64,7 +64,7 @@ internal sealed partial class StressRun
     /// to one such vector; and a search that measures every item misses none that held throughout the call and beats
     /// its last hit.
     /// </summary>
-    private void CheckHits(float[] query, SearchHit[] hits, SearchOptions options, long start, long end)
+    private void CheckHits(float[] query, SearchHit[] hits, SearchOptions options, long start, long end, bool batch)
     {
         AssertBestFirst(hits);
         bool scansAll = _variant.IsExact || (_variant.WideSearchScansAll && ReferenceEquals(options, _variant.WideSearch));
@@ -114,8 +114,9 @@ internal sealed partial class StressRun
                     double d = Distance(query, x);
                     Expect(
                         hits.Length == K && d >= hits[^1].Distance - Tolerance(query, x, _variant.ReportsExactDistances),
-                        $"an exhaustive search missed id {id} at {d}, present throughout, better than its last hit "
-                        + (hits.Length == K ? $"({hits[^1].Id} at {hits[^1].Distance})" : $"(it returned {hits.Length} of {K})"));
+                        $"an exhaustive {(batch ? "batch " : "")}search missed id {id} at {d}, present throughout, better than its last hit "
+                        + (hits.Length == K ? $"({hits[^1].Id} at {hits[^1].Distance})" : $"(it returned {hits.Length} of {K})")
+                        + $"; search window [{start}, {end}], the id's writes {Stamps(versions)}; hits {string.Join(' ', hits.Select(h => h.Id))}");
                 }
             }
 
@@ -127,6 +128,9 @@ internal sealed partial class StressRun
 
     /// <summary>The vector the variant's distances are to: the vector written, or the decoded code (null while unknown).</summary>
     private float[]? Measured(StressVersion v) => _variant.ReportsExactDistances ? v.Vector : v.Stored;
+
+    private static string Stamps(List<StressVersion> versions)
+        => string.Join(", ", versions.Select(v => $"{(v.Vector is null ? "absent" : "vector")} called {v.Called} returned {v.Returned}"));
 
     private bool DistanceMatches(float[] query, float distance, StressVersion v)
     {

@@ -142,6 +142,3 @@ internal sealed class StressVariant
         return index;
     }
 }
-
-/// <summary>A check of the stress run that failed.</summary>
-internal sealed class StressFailure(string message) : Exception(message);
