@@ -28,10 +28,22 @@ public static class VectorIndexExtensions
             ThrowHelper.ThrowArgumentOutOfRange(nameof(k), k, "must be positive");
         }
 
-        // Never allocate more than the index could return: k may be int.MaxValue meaning "everything".
-        var buffer = new SearchHit[Math.Max(1, Math.Min(k, index.Count))];
-        int written = index.Search(query, buffer, options);
-        return written == buffer.Length ? buffer : buffer.AsSpan(0, written).ToArray();
+        // Never allocate more than the index could return: k may be int.MaxValue meaning "everything". Count is read
+        // before the search takes the index's lock, so items added meanwhile can make a full buffer cut the answer
+        // short; the search then runs again with room for them (each answer still comes from one search).
+        int size = Math.Max(1, Math.Min(k, index.Count));
+        while (true)
+        {
+            var buffer = new SearchHit[size];
+            int written = index.Search(query, buffer, options);
+            int count = index.Count;
+            if (written < size || size == k || count <= size)
+            {
+                return written == size ? buffer : buffer.AsSpan(0, written).ToArray();
+            }
+
+            size = Math.Min(k, count);
+        }
     }
 
     /// <summary>Finds the <paramref name="k"/> stored vectors nearest to <paramref name="query"/>, best first.</summary>
