@@ -266,6 +266,7 @@ public sealed partial class GraphIndex : VectorIndex
             first = StoreBatch(ids, vectors, replacing: false);
         }
 
+        AfterBatchStored?.Invoke();
         try
         {
             using var read = _lock.EnterRead();
