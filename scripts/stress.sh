@@ -3,26 +3,23 @@
 # larger counts. Writers, readers and saves run together on every index kind and encoding and are checked against a
 # sequential model (docs/live-updates.md, "Concurrent stress").
 #
-#   scripts/stress.sh [--minutes N | --operations N] [--seed S] [--graph-compact-race]
+#   scripts/stress.sh [--minutes N | --operations N] [--seed S]
 #
 # --minutes N     rounds of 20,000 operations repeat, each with the next seed, until every variant has had N/8 minutes
 #                 (the default: 10 minutes in all)
 # --operations N  one round of about N operations per variant
 # --seed S        the first round's seed (default 20261202); a failure names the seed of its round
-# --graph-compact-race  let graph compactions overlap other writes (a known bug: see the report in the docs)
 # Runs at nice 10; the summary lines (operations, checks, failures per variant) are printed at the end.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
 minutes="" operations="" seed=""
-export VECTORKIT_STRESS_GRAPH_COMPACT_RACE=0
 while [ $# -gt 0 ]; do
   case "$1" in
     --minutes) minutes="$2"; shift 2 ;;
     --operations) operations="$2"; shift 2 ;;
     --seed) seed="$2"; shift 2 ;;
-    --graph-compact-race) VECTORKIT_STRESS_GRAPH_COMPACT_RACE=1; shift ;;
-    *) echo "usage: $0 [--minutes N | --operations N] [--seed S] [--graph-compact-race]" >&2; exit 2 ;;
+    *) echo "usage: $0 [--minutes N | --operations N] [--seed S]" >&2; exit 2 ;;
   esac
 done
 if [ -n "$minutes" ] && [ -n "$operations" ]; then

@@ -267,6 +267,25 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         return _count == 0 ? 0 : SearchLocked(q, destination, options ?? SearchOptions.Default);
     }
 
+    // The array form of Search: sized by the count under the same read lock as the search, so it holds every hit the
+    // search can return and never more than the index holds.
+    internal SearchHit[] SearchToArray(ReadOnlySpan<float> query, int k, SearchOptions? options)
+    {
+        using var unit = ScratchRental<float>.Rent(Metric == DistanceMetric.Cosine ? Dimension : 0);
+        ReadOnlySpan<float> q = VectorChecks.PrepareQuery(query, Dimension, Metric, unit.Span);
+        using var read = _lock.EnterRead();
+        ThrowIfDisposed();
+        ThrowIfNotTrained();
+        if (_count == 0)
+        {
+            return [];
+        }
+
+        var hits = new SearchHit[Math.Min(k, _count)];
+        int written = SearchLocked(q, hits, options ?? SearchOptions.Default);
+        return written == hits.Length ? hits : hits.AsSpan(0, written).ToArray();
+    }
+
     /// <inheritdoc/>
     /// <remarks>
     /// Blocks of queries run in parallel, each block under the read lock, which is released between blocks: a write

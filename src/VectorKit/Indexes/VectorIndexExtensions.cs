@@ -28,6 +28,11 @@ public static class VectorIndexExtensions
             ThrowHelper.ThrowArgumentOutOfRange(nameof(k), k, "must be positive");
         }
 
+        if (index is VectorIndex own)
+        {
+            return own.SearchToArray(query, k, options);
+        }
+
         // Never allocate more than the index could return: k may be int.MaxValue meaning "everything". Count is read
         // before the search takes the index's lock, so items added meanwhile can make a full buffer cut the answer
         // short; the search then runs again with room for them (each answer still comes from one search).

@@ -25,43 +25,17 @@ internal sealed partial class StressRun
         int choice = random.Next(100);
         if (writer == 0 && choice < 2)
         {
-            // Beside readers and saves always; beside other writes only where that is known to work (see _writeGate).
-            bool alone = _variant.IsGraph && !_settings.GraphCompactBesideWrites;
-            if (alone)
-            {
-                _writeGate.EnterWriteLock();
-            }
-
-            try
-            {
-                _index.Compact();
-            }
-            finally
-            {
-                if (alone)
-                {
-                    _writeGate.ExitWriteLock();
-                }
-            }
-
+            // Beside readers, saves and the other writer's writes.
+            _index.Compact();
             Interlocked.Increment(ref Counters.Compacts);
             return;
         }
 
-        _writeGate.EnterReadLock();
-        try
-        {
-            WriteItems(writer, random, present, fill);
-        }
-        finally
-        {
-            _writeGate.ExitReadLock();
-        }
+        WriteItems(writer, random, present, fill);
     }
 
     private void WriteItems(int writer, Random random, bool[] present, double fill)
     {
-
         // Six kinds of write; adds give way to removals when the writer's ids are mostly present, and the reverse.
         int kind = random.Next(6);
         if (kind <= 1 && fill > 0.75)

@@ -29,12 +29,6 @@ internal sealed partial class StressRun
     private readonly long[][] _ids;
     private readonly bool[][] _present;
     private readonly string _folder;
-    // Known bug, reported, not fixed here: a graph Compact that runs between AddRange's store step and its linking (or
-    // between the linking and its finishing step) leaves the batch working on stale slot numbers (links out of range,
-    // IndexOutOfRangeException). Until the graph's write locking is reworked, graph compactions take this gate
-    // exclusively so they never overlap another write (they still run beside readers and saves);
-    // VECTORKIT_STRESS_GRAPH_COMPACT_RACE=1 lifts it to expose the bug.
-    private readonly ReaderWriterLockSlim _writeGate = new();
     private IVectorIndex _index = null!;
     private long _writesThisPhase;
     private volatile bool _stop;

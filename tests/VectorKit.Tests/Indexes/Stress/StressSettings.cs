@@ -13,9 +13,6 @@ internal sealed record StressSettings(int Seed, int WriterOperations, int Reader
     public const int Writers = 2;
     public const int Readers = 2;
 
-    /// <summary>Lets graph compactions overlap other writes, which a known bug breaks (see <see cref="StressRun"/>).</summary>
-    public bool GraphCompactBesideWrites { get; init; } = Environment.GetEnvironmentVariable("VECTORKIT_STRESS_GRAPH_COMPACT_RACE") == "1";
-
     /// <summary>The normal test run's round: a few seconds per variant on two shared cores.</summary>
     public static StressSettings Short(int seed) => new(seed, WriterOperations: 240, ReaderOperations: 240, SavesPerPhase: 2, Phases: 3, IdsPerWriter: 240);
 
