@@ -54,6 +54,12 @@ public sealed class VecsReader : VectorReader
             long rowBytes = 4 + ((long)dimension * ElementConverter.SizeOf(kind));
             long all = remaining + 4;
 
+            // Less than one row: truncated, said before a row's buffer (up to MaxDimension elements) is allocated.
+            if (all < rowBytes)
+            {
+                DataFormatThrow.Truncated(FormatName, "the values of row 0", 4, rowBytes - 4, remaining);
+            }
+
             // A length that is not a whole number of rows leaves the count unknown; reading then reports
             // exactly which row is ragged or truncated.
             if (all % rowBytes == 0)

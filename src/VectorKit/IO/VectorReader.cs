@@ -313,14 +313,37 @@ public abstract class VectorReader : IDisposable
                 yield break;
             }
 
-            var block = new float[rowsPerBlock * Dimension];
+            // Never allocate for rows the header says are not there, nor (when their presence is unchecked) far ahead of
+            // the data: a hostile header must not turn a tiny file into rowsPerBlock × MaxDimension elements.
+            long left = Count >= 0 ? Count - RowsRead : long.MaxValue;
+            if (left <= 0)
+            {
+                yield break;
+            }
+
+            int wanted = (int)Math.Min(rowsPerBlock, left);
+            int capacity = _lengthVerified ? wanted : (int)Math.Min(wanted, Math.Max(1, UnverifiedInitialElements / Dimension));
+            var block = new float[capacity * Dimension];
             int rows = ReadRows<float>(block, cancellationToken);
+            while (rows == capacity && capacity < wanted)
+            {
+                capacity = (int)Math.Min(wanted, 2L * capacity);
+                Array.Resize(ref block, capacity * Dimension);
+                int more = ReadRows(block.AsSpan(rows * Dimension), cancellationToken);
+                if (more == 0)
+                {
+                    break;
+                }
+
+                rows += more;
+            }
+
             if (rows == 0)
             {
                 yield break;
             }
 
-            if (rows < rowsPerBlock)
+            if (rows < capacity)
             {
                 Array.Resize(ref block, rows * Dimension);
             }

@@ -196,6 +196,45 @@ public sealed class MalformedInputTests
         Assert.Contains("at byte offset 32", e.Message, StringComparison.Ordinal);
     }
 
+    // Found with the fuzz harness's allocation measure (fuzz/corpus/npy/regression-zero-rows-wide): ReadBlocks
+    // allocated rowsPerBlock × dimension elements before reading, 448 MiB for these 128 bytes with 7-row blocks.
+    [Theory]
+    [Trait("CWE", "CWE-789")]
+    [InlineData(true)]
+    [InlineData(false)]
+    public void Reading_blocks_allocates_only_for_rows_the_file_holds(bool seekable)
+    {
+        byte[] file = NpyFileTests.Npy("<f4", "(0, 16777216)", []);
+        using var reader = new NpyReader(seekable ? new MemoryStream(file) : new TrickleStream(file, 4096));
+        long before = GC.GetAllocatedBytesForCurrentThread();
+        Assert.Empty(reader.ReadBlocks(64));
+        Assert.True(GC.GetAllocatedBytesForCurrentThread() - before < 1 << 20, "a file with no rows allocated a block");
+
+        // With rows, blocks still come whole and in order (the block grows as rows arrive when nothing checked them).
+        float[] data = [.. Enumerable.Range(0, 5 * 3).Select(i => (float)i)];
+        var stream = new MemoryStream();
+        NpyFile.Write(stream, data, 3);
+        byte[] five = stream.ToArray();
+        using var rows = new NpyReader(seekable ? new MemoryStream(five) : new TrickleStream(five, 7));
+        List<VectorSet> blocks = [.. rows.ReadBlocks(2)];
+        Assert.Equal([2, 2, 1], blocks.Select(b => b.Count));
+        Assert.Equal(data, blocks.SelectMany(b => b.Data));
+    }
+
+    // Found with the fuzz harness's allocation measure (fuzz/corpus/fvecs/regression-wide-truncated): a 20-byte .fvecs
+    // whose first row claims 2^24 components had a 64 MiB row allocated before the truncation was noticed, although
+    // the length was known.
+    [Fact]
+    [Trait("CWE", "CWE-789")]
+    public void Fvecs_shorter_than_its_first_row_is_rejected_before_allocating_the_row()
+    {
+        byte[] file = [.. BitConverter.GetBytes(1 << 24), .. new byte[16]];
+        long before = GC.GetAllocatedBytesForCurrentThread();
+        DataFormatException e = Assert.Throws<DataFormatException>(() => VecsFile.ReadFvecs(new MemoryStream(file)));
+        Assert.True(GC.GetAllocatedBytesForCurrentThread() - before < 1 << 20, "the row was allocated before the truncation was reported");
+        Assert.Contains("fvecs: the data is truncated while reading the values of row 0 at byte offset 4: expected 67108864 bytes, found 16", e.Message, StringComparison.Ordinal);
+    }
+
     [Theory]
     [Trait("CWE", "CWE-20")]
     [InlineData(2, "the dimension of row 0")]
