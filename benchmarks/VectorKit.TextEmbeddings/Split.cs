@@ -1,3 +1,4 @@
+using System.Buffers.Binary;
 using System.Security.Cryptography;
 using System.Text;
 
@@ -18,7 +19,7 @@ internal static class Split
         for (int i = 0; i < texts.Count; i++)
         {
             byte[] hash = SHA256.HashData(Encoding.UTF8.GetBytes($"{seed}/{texts[i].Package}"));
-            keyed[i] = (BitConverter.ToUInt64(hash, 0), texts[i]);
+            keyed[i] = (BinaryPrimitives.ReadUInt64LittleEndian(hash), texts[i]);
         }
 
         Array.Sort(keyed, (a, b) => a.Key != b.Key ? a.Key.CompareTo(b.Key) : string.CompareOrdinal(a.Text.Package, b.Text.Package));
