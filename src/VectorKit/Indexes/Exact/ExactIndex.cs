@@ -183,20 +183,9 @@ public sealed partial class ExactIndex : VectorIndex
         ThrowIfDisposed();
         cancellationToken.ThrowIfCancellationRequested();
         int count = _count;
-        VectorBuffer? vectors = _keepsVectors ? new VectorBuffer(Dimension, count) : null;
-        CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, count);
+        (VectorBuffer? vectors, CodeBuffer? codes) = CopyRows(count, count);
         try
         {
-            if (vectors is not null)
-            {
-                _vectors.CopyRowsTo(vectors, count);
-            }
-
-            if (codes is not null)
-            {
-                _codes!.CopyRowsTo(codes, count);
-            }
-
             long[] ids = _ids.AsSpan(0, count).ToArray();
             float[] norms = _squaredNorms.Length > 0 ? _squaredNorms.AsSpan(0, count).ToArray() : _squaredNorms;
             var slotOf = new IdMap(count);
@@ -206,22 +195,7 @@ public sealed partial class ExactIndex : VectorIndex
             }
 
             cancellationToken.ThrowIfCancellationRequested();
-            using (_lock.EnterWrite())
-            {
-                if (vectors is not null)
-                {
-                    _vectors.Adopt(vectors);
-                }
-
-                if (codes is not null)
-                {
-                    _codes!.Adopt(codes);
-                }
-
-                _ids = ids;
-                _squaredNorms = norms;
-                _slotOf = slotOf;
-            }
+            SwapIn(vectors, codes, ids, norms, slotOf);
         }
         finally
         {
@@ -456,20 +430,9 @@ public sealed partial class ExactIndex : VectorIndex
 
         // The growth rule of RowBuffer.EnsureCapacity, so the buffers stay the size growing in place would give.
         int grown = (int)Math.Min(Array.MaxLength, Math.Max(required, capacity + ((long)capacity / 2)));
-        VectorBuffer? vectors = _keepsVectors ? new VectorBuffer(Dimension, grown) : null;
-        CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, grown);
+        (VectorBuffer? vectors, CodeBuffer? codes) = CopyRows(count, grown);
         try
         {
-            if (vectors is not null)
-            {
-                _vectors.CopyRowsTo(vectors, count);
-            }
-
-            if (codes is not null)
-            {
-                _codes!.CopyRowsTo(codes, count);
-            }
-
             var ids = new long[grown];
             _ids.AsSpan(0, count).CopyTo(ids);
             float[] norms = _squaredNorms;
@@ -479,26 +442,65 @@ public sealed partial class ExactIndex : VectorIndex
                 _squaredNorms.AsSpan(0, count).CopyTo(norms);
             }
 
-            using (_lock.EnterWrite())
-            {
-                if (vectors is not null)
-                {
-                    _vectors.Adopt(vectors);
-                }
-
-                if (codes is not null)
-                {
-                    _codes!.Adopt(codes);
-                }
-
-                _ids = ids;
-                _squaredNorms = norms;
-            }
+            SwapIn(vectors, codes, ids, norms, slotOf: null);
         }
         finally
         {
             vectors?.Dispose();
             codes?.Dispose();
+        }
+    }
+
+    // New buffers of the given capacity holding the first count rows, made beside searches while the writer gate keeps
+    // the rows still. Both or neither: a failed second allocation frees the first.
+    private (VectorBuffer? Vectors, CodeBuffer? Codes) CopyRows(int count, int capacity)
+    {
+        VectorBuffer? vectors = null;
+        CodeBuffer? codes = null;
+        try
+        {
+            if (_keepsVectors)
+            {
+                vectors = new VectorBuffer(Dimension, capacity);
+                _vectors.CopyRowsTo(vectors, count);
+            }
+
+            if (_codes is not null)
+            {
+                codes = new CodeBuffer(_codes.Dimension, capacity);
+                _codes.CopyRowsTo(codes, count);
+            }
+
+            return (vectors, codes);
+        }
+        catch
+        {
+            vectors?.Dispose();
+            codes?.Dispose();
+            throw;
+        }
+    }
+
+    // The short exclusive step after CopyRows: the buffers adopt the copies' memory (leaving the copies empty) and the
+    // arrays are replaced, so a search sees the old storage or the new, never a mix.
+    private void SwapIn(VectorBuffer? vectors, CodeBuffer? codes, long[] ids, float[] norms, IdMap? slotOf)
+    {
+        using var write = _lock.EnterWrite();
+        if (vectors is not null)
+        {
+            _vectors.Adopt(vectors);
+        }
+
+        if (codes is not null)
+        {
+            _codes!.Adopt(codes);
+        }
+
+        _ids = ids;
+        _squaredNorms = norms;
+        if (slotOf is not null)
+        {
+            _slotOf = slotOf;
         }
     }
 
