@@ -18,6 +18,12 @@ internal static class LockScopes
         return new WriteScope(rwLock);
     }
 
+    public static SemaphoreScope EnterScope(this SemaphoreSlim semaphore, CancellationToken cancellationToken)
+    {
+        semaphore.Wait(cancellationToken);
+        return new SemaphoreScope(semaphore);
+    }
+
     /// <summary>Leaves the read lock when disposed.</summary>
     public readonly struct ReadScope(ReaderWriterLockSlim rwLock) : IDisposable
     {
@@ -28,5 +34,11 @@ internal static class LockScopes
     public readonly struct WriteScope(ReaderWriterLockSlim rwLock) : IDisposable
     {
         public void Dispose() => rwLock.ExitWriteLock();
+    }
+
+    /// <summary>Releases the semaphore when disposed.</summary>
+    public readonly struct SemaphoreScope(SemaphoreSlim semaphore) : IDisposable
+    {
+        public void Dispose() => semaphore.Release();
     }
 }

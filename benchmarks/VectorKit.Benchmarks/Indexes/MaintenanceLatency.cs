@@ -31,7 +31,21 @@ public static class MaintenanceLatency
     private const int SearchesPerWrite = 100;
     private const int BatchQueries = 2_000;
 
-    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra);
+    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc);
+
+    /// <summary>
+    /// The runtime's collections during a phase (every collection pauses the searcher too), and the bytes the searching
+    /// thread allocated per search (0 means its pauses come from the other threads' allocations).
+    /// </summary>
+    private readonly record struct Collections(int Gen0, int Gen1, int Gen2, double PauseMs, double SearchBytes)
+    {
+        public static Collections Since(int gen0, int gen1, int gen2, TimeSpan pause, long searchBytes, int searches) => new(
+            GC.CollectionCount(0) - gen0,
+            GC.CollectionCount(1) - gen1,
+            GC.CollectionCount(2) - gen2,
+            (GC.GetTotalPauseDuration() - pause).TotalMilliseconds,
+            searches == 0 ? 0 : (double)searchBytes / searches);
+    }
 
     /// <summary>Runs the harness on <paramref name="count"/> × <paramref name="dimension"/> clustered rows for the kinds named (exact, graph, inverted-file).</summary>
     public static void Run(int count, int dimension, double baselineSeconds, IReadOnlyList<string> kinds)
@@ -50,13 +64,13 @@ public static class MaintenanceLatency
         }
 
         Console.WriteLine();
-        Console.WriteLine("| index | phase | runs | phase s | searches | p50 ms | p99 ms | p99.9 ms | max ms | max / no-write p99 | max / no-write max | writes | slowest write ms |");
-        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|");
+        Console.WriteLine("| index | phase | runs | phase s | searches | p50 ms | p99 ms | p99.9 ms | max ms | max / no-write p99 | max / no-write max | writes | slowest write ms | collections (gen 0/1/2) | GC pauses, total ms | bytes / search |");
+        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|");
         foreach (Phase p in phases)
         {
             LatencySummary baseline = phases.First(b => b.Kind == p.Kind).Searches;
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                $"| {p.Kind} | {p.Name} | {p.Runs} | {p.Seconds:F1} | {p.Searches.Count:N0} | {p.Searches.P50:F2} | {p.Searches.P99:F2} | {p.Searches.P999:F2} | {p.Searches.Max:F2} | {p.Searches.Max / baseline.P99:F1} | {p.Searches.Max / baseline.Max:F2} | {p.Writes:N0} | {(p.Writes > 0 ? p.SlowestWriteMs.ToString("F1", CultureInfo.InvariantCulture) : "–")} |"));
+                $"| {p.Kind} | {p.Name} | {p.Runs} | {p.Seconds:F1} | {p.Searches.Count:N0} | {p.Searches.P50:F2} | {p.Searches.P99:F2} | {p.Searches.P999:F2} | {p.Searches.Max:F2} | {p.Searches.Max / baseline.P99:F1} | {p.Searches.Max / baseline.Max:F2} | {p.Writes:N0} | {(p.Writes > 0 ? p.SlowestWriteMs.ToString("F1", CultureInfo.InvariantCulture) : "–")} | {p.Gc.Gen0}/{p.Gc.Gen1}/{p.Gc.Gen2} | {p.Gc.PauseMs:F0} | {p.Gc.SearchBytes:F0} |"));
         }
 
         Console.WriteLine();
@@ -131,7 +145,7 @@ public static class MaintenanceLatency
     {
         var watch = Stopwatch.StartNew();
         int runs = 0;
-        (LatencySummary summary, int writes, double slowest) = Measure(index, queries, d, null, writer, () =>
+        (LatencySummary summary, int writes, double slowest, Collections gc) = Measure(index, queries, d, null, writer, () =>
         {
             do
             {
@@ -140,21 +154,23 @@ public static class MaintenanceLatency
             }
             while (watch.Elapsed.TotalSeconds < seconds);
         });
-        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0);
-        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}, {name}: {phase.Seconds:F1} s, {summary.Count:N0} searches, p99 {summary.P99:F2} ms, max {summary.Max:F2} ms, {writes} writes (slowest {slowest:F1} ms)"));
+        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc);
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}, {name}: {phase.Seconds:F1} s, {summary.Count:N0} searches, p99 {summary.P99:F2} ms, max {summary.Max:F2} ms, {writes} writes (slowest {slowest:F1} ms), collections {gc.Gen0}/{gc.Gen1}/{gc.Gen2}, GC pauses {gc.PauseMs:F0} ms in all"));
         return phase;
     }
 
-    private static (LatencySummary Summary, int Writes, double SlowestWriteMs) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
+    private static (LatencySummary Summary, int Writes, double SlowestWriteMs, Collections Gc) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
     {
         // Room for every sample up front: growing the list mid-phase would allocate (and collect) beside the searches.
         var latencies = new List<double>(1 << 22);
         int searches = 0;
+        long searchBytes = 0;
         bool stop = false;
         var searcher = new Thread(() =>
         {
             var hits = new SearchHit[K];
             int q = 0;
+            long allocated = GC.GetAllocatedBytesForCurrentThread();
             while (!Volatile.Read(ref stop))
             {
                 long start = Stopwatch.GetTimestamp();
@@ -163,9 +179,13 @@ public static class MaintenanceLatency
                 Interlocked.Increment(ref searches);
                 q = (q + 1) % QueryCount;
             }
+
+            // Less the latency list's own growth: it is sized up front for every sample a phase is expected to take.
+            searchBytes = GC.GetAllocatedBytesForCurrentThread() - allocated;
         });
         Thread? writer = writes is null ? null : new Thread(() => writes.Run(() => Volatile.Read(ref searches), () => Volatile.Read(ref stop)));
         writes?.Reset();
+        (int gen0, int gen1, int gen2, TimeSpan pause) = (GC.CollectionCount(0), GC.CollectionCount(1), GC.CollectionCount(2), GC.GetTotalPauseDuration());
         searcher.Start();
         writer?.Start();
         if (duration is TimeSpan span)
@@ -177,7 +197,8 @@ public static class MaintenanceLatency
         Volatile.Write(ref stop, true);
         searcher.Join();
         writer?.Join();
-        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0);
+        Collections gc = Collections.Since(gen0, gen1, gen2, pause, searchBytes, searches);
+        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc);
     }
 
     /// <summary>One write per <see cref="SearchesPerWrite"/> searches: removes a random live item, then adds a new one, in turn.</summary>

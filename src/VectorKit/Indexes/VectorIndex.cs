@@ -15,8 +15,8 @@ namespace VectorKit.Indexes;
 /// searches). A batch search takes the read lock once per block of queries, not for its whole run: each query sees one
 /// consistent state of the index, but different queries of one batch may see different states when a write lands
 /// between their blocks, and a writer waits for at most the blocks in flight. Saving and the long read-only phases of
-/// maintenance (a compaction's rebuild, the graph's global reachability pass) hold only the writer gate: searches run
-/// beside them, writes wait for them.</para>
+/// maintenance (a compaction's copy, the graph's global reachability pass) hold only the writer gate: searches run
+/// beside them, writes wait for them. The graph's compaction rebuilds beside writes as well (see its documentation).</para>
 /// <para><b>Disposal.</b> After <see cref="Dispose"/>, every member but <see cref="Dimension"/>, <see cref="Metric"/>,
 /// <see cref="IVectorIndex.Options"/>, <see cref="CodeBytesPerVector"/> and <see cref="Dispose"/> throws
 /// <see cref="ObjectDisposedException"/>.</para>
@@ -37,6 +37,10 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     private protected IdMap _slotOf = new();
     private protected IFullVectorSource? _source;
     private protected int _count;
+
+    // Set while a compaction rebuilds a copy beside writes: every write is recorded here, under the write lock, at the
+    // point it becomes visible, for the copy to replay before the swap.
+    private protected ChangeLog? _changeLog;
     private volatile bool _disposed;
 
     private protected VectorIndex(int dimension, DistanceMetric metric)
@@ -244,6 +248,7 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         {
             ThrowIfDisposed();
             _slotOf.CheckPresent(ids);
+            _changeLog?.RecordRemove(ids);
             RemoveLocked(ids);
         }
 

@@ -39,32 +39,52 @@ public sealed partial class GraphIndex
     }
 
     /// <summary>
-    /// Rebuilds the graph from the live items only, in parallel, and shrinks every array to <see cref="VectorIndex.Count"/> items:
-    /// the space of removed items is released.
+    /// Rebuilds the graph from the live items only, in parallel, and shrinks every array to about
+    /// <see cref="VectorIndex.Count"/> items: the space of removed items is released.
     /// </summary>
     /// <param name="progress">Optional; receives the number of items linked into the new graph so far, from worker threads.</param>
-    /// <param name="cancellationToken">Abandons the rebuild; the index is then exactly as it was before the call.</param>
+    /// <param name="cancellationToken">Abandons the rebuild; the index is then exactly as it was before the call, with every write made meanwhile.</param>
     /// <remarks>
-    /// The new graph is built beside the old one and replaces it at the end, so a cancelled compaction changes nothing;
-    /// the price is memory: until the swap, the live vectors and links exist twice. Costs about as much as building the
-    /// index anew. Levels are drawn again from <see cref="GraphIndexOptions.Seed"/>, so the result does not depend on
-    /// the history of adds and removes. Searches run beside the rebuild, on the old graph, and wait only for the short
-    /// swap at the end; writes (and saves) wait for the whole compaction.
+    /// The live items are copied in one short step that writes wait for; the new graph is then built from the copy
+    /// beside searches and writes, which are recorded as they land. The new graph replays them, round after round, until
+    /// few are left; the last round (writes wait for it) and the swap end the call. Searches run on the old graph all
+    /// along and wait only for the swap. The price is memory: until the swap, the live vectors and links exist twice.
+    /// Costs about as much as building the index anew. Levels are drawn again from <see cref="GraphIndexOptions.Seed"/>,
+    /// so the result does not depend on the history of adds and removes. One compaction runs at a time; a second call
+    /// waits for the first, and so does <see cref="Train"/>.
     /// </remarks>
     /// <exception cref="OperationCanceledException">The token was cancelled; see <paramref name="cancellationToken"/>.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public override void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
-        // The writer gate, held exclusively, keeps every write out, so the old graph stays still while it is read
-        // without the write lock; only the swap takes that.
-        using var gate = _writerGate.EnterWrite();
-        ThrowIfDisposed();
-        cancellationToken.ThrowIfCancellationRequested();
-        var rebuilt = new GraphIndex(Dimension, Metric, _options) { _scalar = _scalar };
-        int live = _count;
+        using var compaction = _compaction.EnterScope(cancellationToken);
+        GraphIndex rebuilt;
+        ChangeLog log = new();
+        int live;
+
+        // With the writer gate held exclusively no write is in flight, so the copy and the start of the log agree.
+        using (_writerGate.EnterWrite())
+        {
+            ThrowIfDisposed();
+            cancellationToken.ThrowIfCancellationRequested();
+            rebuilt = new GraphIndex(Dimension, Metric, _options) { _scalar = _scalar };
+            live = _count;
+            try
+            {
+                rebuilt.StoreLiveRowsOf(this);
+            }
+            catch
+            {
+                rebuilt.Dispose();
+                throw;
+            }
+
+            _changeLog = log;
+        }
+
         try
         {
-            rebuilt.StoreLiveRowsOf(this);
+            DuringCompactionRebuild?.Invoke();
             if (live > 0)
             {
                 rebuilt.LinkAll(0, live, progress, cancellationToken);
@@ -72,45 +92,63 @@ public sealed partial class GraphIndex
                 rebuilt.RunDueFullPass();
             }
 
+            // Catch up beside writes while they outpace nothing; each round replays what gathered during the last.
+            for (int round = 0; round < CatchUpRounds && log.PendingIds > CatchUpTail; round++)
+            {
+                cancellationToken.ThrowIfCancellationRequested();
+                ChangeLog.Replay(log.Take(), rebuilt);
+            }
+
             cancellationToken.ThrowIfCancellationRequested();
+            using (_writerGate.EnterWrite())
+            {
+                ThrowIfDisposed();
+                ChangeLog.Replay(log.Take(), rebuilt);
+                using (_lock.EnterWrite())
+                {
+                    AdoptGraphOf(rebuilt);
+                    _changeLog = null;
+                }
+            }
         }
         catch
         {
+            // Writes keep landing on this index, which stays complete; the log is dropped with the copy.
+            Interlocked.CompareExchange(ref _changeLog, null, log);
             rebuilt.Dispose();
             throw;
         }
+    }
 
-        _lock.EnterWriteLock();
-        try
-        {
-            // The rebuilt index hands its storage over; it is dropped without disposing what now belongs to this one.
-            _vectors?.Dispose();
-            _codes?.Dispose();
-            _vectors = rebuilt._vectors;
-            _codes = rebuilt._codes;
-            _links = rebuilt._links;
-            _ids = rebuilt._ids;
-            _removed = rebuilt._removed;
-            _slotOf = rebuilt._slotOf;
-            _levelRandom = rebuilt._levelRandom;
-            _used = rebuilt._used;
-            _count = rebuilt._count;
-            _levelCounts = rebuilt._levelCounts;
-            _changesSinceFullPass = 0;
-            _fullPassDue = false;
+    // Caller holds the write lock; `rebuilt` is private to the caller and is dropped afterwards without being disposed,
+    // its storage now belonging to this index.
+    private void AdoptGraphOf(GraphIndex rebuilt)
+    {
+        _vectors?.Dispose();
+        _codes?.Dispose();
+        _vectors = rebuilt._vectors;
+        _codes = rebuilt._codes;
+        _links = rebuilt._links;
+        _ids = rebuilt._ids;
+        _removed = rebuilt._removed;
+        _slotOf = rebuilt._slotOf;
+        _levelRandom = rebuilt._levelRandom;
+        _used = rebuilt._used;
+        _count = rebuilt._count;
+        _levelCounts = rebuilt._levelCounts;
+        _changesSinceFullPass = rebuilt._changesSinceFullPass;
+        _fullPassDue = rebuilt._fullPassDue;
 
-            // Waypoints and noted orphans name slots of the old graph; the rebuilt one has neither.
-            _waypoints.Clear();
-            _orphanNotes.Clear();
-            _orphansAttached += rebuilt._orphansAttached;
-            _orphansAttachedLocally += rebuilt._orphansAttachedLocally;
-            _fullPasses += rebuilt._fullPasses;
-            Volatile.Write(ref _entry, rebuilt._entry);
-        }
-        finally
-        {
-            _lock.ExitWriteLock();
-        }
+        // Waypoints and noted orphans name slots, so only the rebuilt graph's own (from the replayed writes) carry over.
+        _waypoints.Clear();
+        _waypoints.AddRange(rebuilt._waypoints);
+        _orphanNotes.Clear();
+        _orphanNotes.AddRange(rebuilt._orphanNotes);
+        _orphansAttached += rebuilt._orphansAttached;
+        _orphansAttachedLocally += rebuilt._orphansAttachedLocally;
+        _fullPasses += rebuilt._fullPasses;
+        _incompleteRemovals += rebuilt._incompleteRemovals;
+        Volatile.Write(ref _entry, rebuilt._entry);
     }
 
     // Copies the live rows (already normalised under cosine; codes as they are, the ranges being the same), ids and nothing else of `source` into this empty index,

@@ -32,9 +32,10 @@ namespace VectorKit.Indexes.Graph;
 /// the whole pass.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other, with the
 /// linking phase of adds, with the rebuild of <see cref="Compact"/> (they see the old graph until the swap), with
-/// saving and with the traversals of the global pass; they may or may not see an item being linked. Removal,
-/// replacement, <see cref="VectorIndex.Dispose"/>, the swap of a compaction, the steps of the global pass and the
-/// short store and repair steps of an add are exclusive.</para>
+/// saving and with the traversals of the global pass; they may or may not see an item being linked. Writes run beside
+/// the rebuild of <see cref="Compact"/> too, which replays them before its swap. Removal, replacement,
+/// <see cref="VectorIndex.Dispose"/>, the swap of a compaction, the steps of the global pass and the short store and
+/// repair steps of an add are exclusive.</para>
 /// <para>See docs/choosing-an-index.md, docs/live-updates.md and docs/filters.md in the repository for when to use
 /// this index, how updates behave, and how filters are evaluated.</para>
 /// </remarks>
@@ -64,7 +65,15 @@ public sealed partial class GraphIndex : VectorIndex
     private const int InLinkSearchHops = 3;
     private const int InLinkSearchNodes = 4096;
 
+    // A compaction replays the writes that landed during its rebuild in rounds beside new writes until at most this
+    // many ids are pending, then the rest while writes wait; the rounds are capped for writers that outpace the replay.
+    private const int CatchUpTail = 64;
+    private const int CatchUpRounds = 16;
+
     private readonly object[] _stripes = new object[LockStripes];
+
+    // One compaction at a time; training waits for it too (the rebuilt graph encodes with the ranges it started with).
+    private readonly SemaphoreSlim _compaction = new(1, 1);
     private readonly object _entryLock = new();
     private readonly GraphIndexOptions _options;
     // Float rows: the storage under float32, the full vectors kept in memory for re-scoring under codes, else null;
@@ -193,6 +202,7 @@ public sealed partial class GraphIndex : VectorIndex
     public override void Train(ReadOnlySpan<float> sample, IProgress<IndexTrainingProgress>? progress = null, CancellationToken cancellationToken = default)
     {
         ScalarQuantizer? scalar = ScalarCodeTraining.Learn(sample, Dimension, Metric, _codes is not null, cancellationToken);
+        using var compaction = _compaction.EnterScope(cancellationToken);
         using var gate = _writerGate.EnterRead();
         _lock.EnterWriteLock();
         try
@@ -264,6 +274,7 @@ public sealed partial class GraphIndex : VectorIndex
             ThrowIfNotTrained();
             _slotOf.CheckAbsent(ids, nameof(ids));
             first = StoreBatch(ids, vectors, replacing: false);
+            _changeLog?.RecordWrite(ids, vectors);
         }
 
         AfterBatchStored?.Invoke();
@@ -298,7 +309,7 @@ public sealed partial class GraphIndex : VectorIndex
         }
         catch (OperationCanceledException)
         {
-            RollBackLocked(first, n);
+            RollBackLocked(first, n, log: null);
             throw;
         }
 
@@ -316,6 +327,7 @@ public sealed partial class GraphIndex : VectorIndex
         int[] oldSlots = [.. retired];
         RetireLocked(oldSlots);
         FinishLocked(oldSlots, first, n, forceFullPass: false);
+        _changeLog?.RecordWrite(ids, vectors);
         return oldSlots.Length;
     }
 
@@ -325,14 +337,16 @@ public sealed partial class GraphIndex : VectorIndex
         using var write = _lock.EnterWrite();
         if (!IsDisposed)
         {
-            RollBackLocked(first, n);
+            RollBackLocked(first, n, _changeLog);
         }
     }
 
-    // Caller holds the write lock. A slot of the batch owns its id's map entry unless that id is being replaced.
-    private void RollBackLocked(int first, int n)
+    // Caller holds the write lock. A slot of the batch owns its id's map entry unless that id is being replaced. The
+    // ids taken out of the map are recorded as removals in `log`, when an add batch recorded them as written.
+    private void RollBackLocked(int first, int n, ChangeLog? log)
     {
         var slots = new List<int>(n);
+        var unmapped = log is null ? null : new List<long>(n);
         for (int slot = first; slot < first + n; slot++)
         {
             if (_removed[slot] == 0)
@@ -340,10 +354,16 @@ public sealed partial class GraphIndex : VectorIndex
                 if (_slotOf.TryGetValue(_ids[slot], out int mapped) && mapped == slot)
                 {
                     _slotOf.Remove(_ids[slot]);
+                    unmapped?.Add(_ids[slot]);
                 }
 
                 slots.Add(slot);
             }
+        }
+
+        if (unmapped is { Count: > 0 })
+        {
+            log!.RecordRemove(unmapped.ToArray());
         }
 
         int[] retired = [.. slots];

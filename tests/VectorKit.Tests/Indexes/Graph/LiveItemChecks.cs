@@ -70,7 +70,9 @@ internal static class LiveItemChecks
         SearchHit[] all = Find(graph, probe, n + removed.Count + 1, cover);
         Assert.Equal(ids, all.Select(h => h.Id).Order());
 
-        float[][] queries = [probe, new float[d], .. ids.Take(12).Select(id => stored[id])];
+        // The origin as a query too, except under cosine, where a zero vector has no direction.
+        float[][] origin = graph.Metric == DistanceMetric.Cosine ? [] : [new float[d]];
+        float[][] queries = [probe, .. origin, .. ids.Take(12).Select(id => stored[id])];
         if (codesOnly)
         {
             AssertAgainstDecodedCodes(graph, stored, ids, queries, cover);
