@@ -138,7 +138,7 @@ public static class CsvVectors
     public static VectorSet Read(string path, CsvVectorOptions? options = null, DataReadLimits? limits = null, CancellationToken cancellationToken = default)
     {
         using var reader = new StreamReader(DataFiles.OpenRead(path));
-        return Read(reader, options, limits, cancellationToken);
+        return DataFiles.Named(path, () => Read(reader, options, limits, cancellationToken));
     }
 
     /// <summary>Writes row-major vectors as CSV, one line per vector.</summary>

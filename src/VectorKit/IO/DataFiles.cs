@@ -28,6 +28,33 @@ internal static class DataFiles
     public static DurableFile BeginReplace(string path, string paramName)
         => DurableFile.Begin(path, paramName, "write", FileBufferBytes);
 
+    /// <summary>
+    /// Runs a read of the file at <paramref name="path"/>; a <see cref="DataFormatException"/> leaves it naming the
+    /// file (the same exception object, so its stack and inner exception stay).
+    /// </summary>
+    public static T Named<T>(string? path, Func<T> read)
+    {
+        try
+        {
+            return read();
+        }
+        catch (DataFormatException e) when (NameFile(e, path))
+        {
+            throw; // not reached: the filter names the file and lets the exception pass
+        }
+    }
+
+    /// <summary>An exception filter: attaches the full path of <paramref name="path"/> and returns false.</summary>
+    public static bool NameFile(DataFormatException e, string? path)
+    {
+        if (path is not null)
+        {
+            e.AttachFilePath(Path.GetFullPath(path));
+        }
+
+        return false;
+    }
+
     public static void CheckWritable(Stream stream)
     {
         if (stream is null)

@@ -126,7 +126,11 @@ public sealed class IdxReader : VectorReader
         FileStream stream = DataFiles.OpenRead(path);
         try
         {
-            return new IdxReader(stream, leaveOpen: false, limits);
+            return new IdxReader(stream, leaveOpen: false, limits) { SourcePath = stream.Name };
+        }
+        catch (DataFormatException e) when (DataFiles.NameFile(e, stream.Name))
+        {
+            throw; // not reached: the filter names the file and lets the exception pass
         }
         catch
         {

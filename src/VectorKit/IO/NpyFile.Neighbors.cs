@@ -127,7 +127,7 @@ public static partial class NpyFile
     public static NeighborTable ReadNeighbors(string path, DataReadLimits? limits = null)
     {
         using NpyReader reader = NpyReader.Open(path, limits);
-        return NeighborFiles.ToTable(reader.ReadToEndAsInt64(), reader.Dimension);
+        return DataFiles.Named(path, () => NeighborFiles.ToTable(reader.ReadToEndAsInt64(), reader.Dimension));
     }
 
     private static void WriteNeighborArrays(Stream? ids, Stream? distances, BatchSearchResults results)

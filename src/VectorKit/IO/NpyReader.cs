@@ -145,7 +145,11 @@ public sealed class NpyReader : VectorReader
         FileStream stream = DataFiles.OpenRead(path);
         try
         {
-            return new NpyReader(stream, leaveOpen: false, limits);
+            return new NpyReader(stream, leaveOpen: false, limits) { SourcePath = stream.Name };
+        }
+        catch (DataFormatException e) when (DataFiles.NameFile(e, stream.Name))
+        {
+            throw; // not reached: the filter names the file and lets the exception pass
         }
         catch
         {

@@ -111,7 +111,7 @@ public static partial class VecsFile
     public static NeighborTable ReadNeighbors(string path, DataReadLimits? limits = null)
     {
         using VecsReader reader = VecsReader.Open(path, VecsElementType.Int32, limits);
-        return NeighborFiles.ToTable(reader.ReadToEndAsInt64(), reader.Dimension);
+        return DataFiles.Named(path, () => NeighborFiles.ToTable(reader.ReadToEndAsInt64(), reader.Dimension));
     }
 
     private static void CheckWritableDistances(Stream distances)

@@ -87,7 +87,11 @@ public sealed class VecsReader : VectorReader
         FileStream stream = DataFiles.OpenRead(path);
         try
         {
-            return new VecsReader(stream, elementType, leaveOpen: false, limits);
+            return new VecsReader(stream, elementType, leaveOpen: false, limits) { SourcePath = stream.Name };
+        }
+        catch (DataFormatException e) when (DataFiles.NameFile(e, stream.Name))
+        {
+            throw; // not reached: the filter names the file and lets the exception pass
         }
         catch
         {

@@ -105,7 +105,7 @@ public static class IndexFile
     /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
     /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
-    /// <exception cref="IndexFileException">The file is not an index file, is damaged, truncated or inconsistent, exceeds a cap, or has an unsupported format version.</exception>
+    /// <exception cref="IndexFileException">The file is not an index file, is damaged, truncated or inconsistent, exceeds a cap, or has an unsupported format version; the message names the file, and <see cref="IndexFileException.FilePath"/> holds its full path.</exception>
     /// <exception cref="FileNotFoundException">The file does not exist.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     /// <exception cref="IOException">Reading failed.</exception>
@@ -134,7 +134,7 @@ public static class IndexFile
     /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
     /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
-    /// <exception cref="IndexFileException">The file holds another kind of index, or as for <see cref="Load(string, IndexLoadOptions?, CancellationToken)"/>.</exception>
+    /// <exception cref="IndexFileException">The file holds another kind of index, or as for <see cref="Load(string, IndexLoadOptions?, CancellationToken)"/>; the message names the file, and <see cref="IndexFileException.FilePath"/> holds its full path.</exception>
     public static TIndex Load<TIndex>(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
         where TIndex : class, IVectorIndex
         => (TIndex)LoadFile(path, options, typeof(TIndex), cancellationToken);
@@ -202,7 +202,16 @@ public static class IndexFile
     {
         ArgumentNullException.ThrowIfNull(path);
         using var file = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.Read, bufferSize: 0, FileOptions.SequentialScan);
-        return LoadCore(file, options, expected, requireEnd: true, cancellationToken);
+        try
+        {
+            return LoadCore(file, options, expected, requireEnd: true, cancellationToken);
+        }
+        catch (IndexFileException e)
+        {
+            // Same exception object, so its section, offset, inner exception and stack stay as they were.
+            e.AttachFilePath(file.Name);
+            throw;
+        }
     }
 
     private static IVectorIndex LoadCore(Stream source, IndexLoadOptions? options, Type? expected, bool requireEnd, CancellationToken cancellationToken)
