@@ -1,4 +1,5 @@
 using System.Globalization;
+using System.Text;
 
 namespace VectorKit.IO;
 
@@ -137,7 +138,7 @@ public static class CsvVectors
     public static VectorSet Read(string path, CsvVectorOptions? options = null, DataReadLimits? limits = null, CancellationToken cancellationToken = default)
     {
         using var reader = new StreamReader(DataFiles.OpenRead(path));
-        return Read(reader, options, limits, cancellationToken);
+        return DataFiles.Named(path, () => Read(reader, options, limits, cancellationToken));
     }
 
     /// <summary>Writes row-major vectors as CSV, one line per vector.</summary>
@@ -219,17 +220,26 @@ public static class CsvVectors
         Write(writer, vectors.Data, vectors.Dimension, options);
     }
 
-    /// <summary>Writes a vector set to a CSV file (UTF-8, no byte-order mark), replacing any existing file.</summary>
+    /// <summary>Writes a vector set to a CSV file (UTF-8, no byte-order mark), creating or replacing it atomically.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="vectors">The vectors.</param>
     /// <param name="options">Separator and header; <see langword="null"/> for <see cref="CsvVectorOptions.Default"/>.</param>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> or <paramref name="vectors"/> is <see langword="null"/>.</exception>
-    /// <exception cref="IOException">The file cannot be created.</exception>
+    /// <remarks>
+    /// The data goes to a hidden temporary file beside <paramref name="path"/>, which is flushed to the disk and renamed
+    /// over it: the file at <paramref name="path"/> is the previous one or the complete new one, never a part. On
+    /// failure the temporary file is deleted and the previous file is left as it was.
+    /// </remarks>
+    /// <exception cref="ArgumentException"><paramref name="path"/> is empty or names a folder.</exception>
+    /// <exception cref="IOException">Creating, writing (on a full disk, say) or renaming the temporary file failed; the message names <paramref name="path"/> and the step.</exception>
     public static void Write(string path, VectorSet vectors, CsvVectorOptions? options = null)
     {
         ArgumentNullException.ThrowIfNull(vectors);
-        using var writer = new StreamWriter(DataFiles.Create(path));
-        Write(writer, vectors, options);
+        DataFiles.Replace(path, stream =>
+        {
+            using var writer = new StreamWriter(stream, new UTF8Encoding(encoderShouldEmitUTF8Identifier: false), bufferSize: -1, leaveOpen: true);
+            Write(writer, vectors, options);
+        });
     }
 
     private static string Shorten(ReadOnlySpan<char> field) => field.Length <= 32 ? field.ToString() : string.Concat(field[..32], "...");

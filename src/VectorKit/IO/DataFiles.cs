@@ -1,9 +1,11 @@
+using VectorKit.Internal;
+
 namespace VectorKit.IO;
 
 /// <summary>File and stream plumbing shared by the format classes.</summary>
 internal static class DataFiles
 {
-    private const int FileBufferBytes = 1 << 16;
+    public const int FileBufferBytes = 1 << 16;
 
     public static FileStream OpenRead(string path)
     {
@@ -15,38 +17,42 @@ internal static class DataFiles
         return new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.Read, FileBufferBytes, FileOptions.SequentialScan);
     }
 
-    public static FileStream Create(string path)
-    {
-        if (path is null)
-        {
-            DataFormatThrow.ArgumentNull(nameof(path));
-        }
+    /// <summary>
+    /// Creates or replaces <paramref name="path"/> with what <paramref name="write"/> writes, through a temporary file
+    /// beside it (<see cref="DurableFile"/>): the file appears only complete, and a failure leaves the previous one.
+    /// </summary>
+    public static void Replace(string path, Action<Stream> write)
+        => DurableFile.Replace(path, nameof(path), "write", FileBufferBytes, write);
 
-        return new FileStream(path, FileMode.Create, FileAccess.Write, FileShare.None, FileBufferBytes);
-    }
+    /// <summary>Starts replacing <paramref name="path"/> through a temporary file (<see cref="DurableFile"/>).</summary>
+    public static DurableFile BeginReplace(string path, string paramName)
+        => DurableFile.Begin(path, paramName, "write", FileBufferBytes);
 
     /// <summary>
-    /// Creates a neighbour file's id file and, when <paramref name="distancesPath"/> is given, its distance file. When
-    /// the second cannot be created, the first (just created, so empty) is closed and deleted: a failure leaves neither.
+    /// Runs a read of the file at <paramref name="path"/>; a <see cref="DataFormatException"/> leaves it naming the
+    /// file (the same exception object, so its stack and inner exception stay).
     /// </summary>
-    public static (FileStream Ids, FileStream? Distances) CreatePair(string idsPath, string? distancesPath)
+    public static T Named<T>(string? path, Func<T> read)
     {
-        FileStream ids = Create(idsPath);
-        if (distancesPath is null)
-        {
-            return (ids, null);
-        }
-
         try
         {
-            return (ids, Create(distancesPath));
+            return read();
         }
-        catch
+        catch (DataFormatException e) when (NameFile(e, path))
         {
-            ids.Dispose();
-            File.Delete(idsPath);
-            throw;
+            throw; // not reached: the filter names the file and lets the exception pass
         }
+    }
+
+    /// <summary>An exception filter: attaches the full path of <paramref name="path"/> and returns false.</summary>
+    public static bool NameFile(DataFormatException e, string? path)
+    {
+        if (path is not null)
+        {
+            e.AttachFilePath(Path.GetFullPath(path));
+        }
+
+        return false;
     }
 
     public static void CheckWritable(Stream stream)

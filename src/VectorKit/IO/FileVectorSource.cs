@@ -90,6 +90,9 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     /// or the file is shorter than the shape requires.
     /// </exception>
     public static FileVectorSource OpenNpy(string path, long[]? rowIds = null, DataReadLimits? limits = null)
+        => DataFiles.Named(path, () => OpenNpyCore(path, rowIds, limits));
+
+    private static FileVectorSource OpenNpyCore(string path, long[]? rowIds, DataReadLimits? limits)
     {
         long dataStart;
         long count;
@@ -129,6 +132,9 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     /// dimension (a truncated or ragged file). Each row's own dimension prefix is checked when the row is read.
     /// </exception>
     public static FileVectorSource OpenFvecs(string path, long[]? rowIds = null, DataReadLimits? limits = null)
+        => DataFiles.Named(path, () => OpenFvecsCore(path, rowIds, limits));
+
+    private static FileVectorSource OpenFvecsCore(string path, long[]? rowIds, DataReadLimits? limits)
     {
         long count;
         int dimension;
@@ -169,6 +175,9 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     /// <exception cref="IOException">The file cannot be opened.</exception>
     /// <exception cref="DataFormatException">The file length is not a whole number of rows, or the row count exceeds the limit.</exception>
     public static FileVectorSource OpenRaw(string path, int dimension, long[]? rowIds = null, DataReadLimits? limits = null)
+        => DataFiles.Named(path, () => OpenRawCore(path, dimension, rowIds, limits));
+
+    private static FileVectorSource OpenRawCore(string path, int dimension, long[]? rowIds, DataReadLimits? limits)
     {
         limits ??= DataReadLimits.Default;
         if (dimension < 1 || dimension > limits.MaxDimension)

@@ -57,7 +57,7 @@ public static class IdxFile
     public static int[] ReadLabels(string path, DataReadLimits? limits = null)
     {
         using IdxReader reader = IdxReader.Open(path, limits);
-        return ReadLabels(reader);
+        return DataFiles.Named(path, () => ReadLabels(reader));
     }
 
     private static int[] ReadLabels(IdxReader reader)

@@ -1,6 +1,7 @@
 using System.Buffers;
 using VectorKit.Evaluation;
 using VectorKit.Indexes;
+using VectorKit.Internal;
 
 namespace VectorKit.IO;
 
@@ -57,18 +58,20 @@ public static partial class NpyFile
 
     /// <summary>
     /// Writes batch search results to a .npy file of int64 ids and, optionally, a .npy file of float32 distances,
-    /// replacing existing files; see <see cref="WriteNeighbors(Stream, Stream?, BatchSearchResults)"/>.
+    /// creating or replacing them atomically; see <see cref="WriteNeighbors(Stream, Stream?, BatchSearchResults)"/>.
     /// </summary>
     /// <param name="idsPath">The path of the id array.</param>
     /// <param name="distancesPath">The path of the distance array, or <see langword="null"/> to write ids only.</param>
     /// <param name="results">The results to write.</param>
     /// <remarks>
-    /// The ids are checked before either file is created, so a rejected batch leaves no files behind; when the distance
-    /// file cannot be created (its folder is missing, say), the id file just created (or emptied) is deleted again.
+    /// The ids are checked before anything is written. Each file is written to a hidden temporary file beside it; both
+    /// are flushed to the disk, then renamed over their targets, ids first. A failure before the renames (a missing
+    /// folder, a full disk) deletes the temporaries and leaves any previous files as they were; a crash between the two
+    /// renames can leave the new id file beside the previous distance file.
     /// </remarks>
     /// <exception cref="ArgumentNullException"><paramref name="idsPath"/> or <paramref name="results"/> is <see langword="null"/>.</exception>
-    /// <exception cref="ArgumentException">An id is −1 (the message names the query and the rank).</exception>
-    /// <exception cref="IOException">A file cannot be created.</exception>
+    /// <exception cref="ArgumentException">An id is −1 (the message names the query and the rank), or a path is empty or names a folder.</exception>
+    /// <exception cref="IOException">Creating, writing or renaming a temporary file failed; the message names the target file and the step.</exception>
     public static void WriteNeighbors(string idsPath, string? distancesPath, BatchSearchResults results)
     {
         if (idsPath is null)
@@ -82,12 +85,16 @@ public static partial class NpyFile
         }
 
         NeighborFiles.CheckIds(results, int32Ids: false, ".npy");
-        (FileStream idStream, FileStream? distanceStream) = DataFiles.CreatePair(idsPath, distancesPath);
-        using (idStream)
-        using (distanceStream)
-        {
-            WriteNeighborArrays(idStream, distanceStream, results);
-        }
+        using DurableFile idFile = DataFiles.BeginReplace(idsPath, nameof(idsPath));
+        using DurableFile? distanceFile = distancesPath is null ? null : DataFiles.BeginReplace(distancesPath, nameof(distancesPath));
+
+        // One file at a time, so a failure names the file it happened in; both reach the disk before either is renamed.
+        idFile.Write(stream => WriteNeighborArrays(stream, null, results));
+        distanceFile?.Write(stream => WriteNeighborArrays(null, stream, results));
+        idFile.FlushToDisk();
+        distanceFile?.FlushToDisk();
+        idFile.Commit();
+        distanceFile?.Commit();
     }
 
     /// <summary>
@@ -120,14 +127,18 @@ public static partial class NpyFile
     public static NeighborTable ReadNeighbors(string path, DataReadLimits? limits = null)
     {
         using NpyReader reader = NpyReader.Open(path, limits);
-        return NeighborFiles.ToTable(reader.ReadToEndAsInt64(), reader.Dimension);
+        return DataFiles.Named(path, () => NeighborFiles.ToTable(reader.ReadToEndAsInt64(), reader.Dimension));
     }
 
-    private static void WriteNeighborArrays(Stream ids, Stream? distances, BatchSearchResults results)
+    private static void WriteNeighborArrays(Stream? ids, Stream? distances, BatchSearchResults results)
     {
         int k = results.K;
         string shape = $"({results.QueryCount}, {k})";
-        WriteHeader(ids, "<i8", shape);
+        if (ids is not null)
+        {
+            WriteHeader(ids, "<i8", shape);
+        }
+
         if (distances is not null)
         {
             WriteHeader(distances, "<f4", shape);
@@ -149,7 +160,11 @@ public static partial class NpyFile
                     NeighborFiles.FillDistances(hits, distanceChunk.AsSpan(r * k, k));
                 }
 
-                LittleEndianWriter.Write(ids, idChunk.AsSpan(0, rows * k));
+                if (ids is not null)
+                {
+                    LittleEndianWriter.Write(ids, idChunk.AsSpan(0, rows * k));
+                }
+
                 if (distances is not null)
                 {
                     LittleEndianWriter.Write(distances, distanceChunk.AsSpan(0, rows * k));

@@ -106,16 +106,21 @@ public static partial class NpyFile
         Write(stream, vectors.Data, vectors.Dimension);
     }
 
-    /// <summary>Writes a vector set to a .npy file, replacing any existing file.</summary>
+    /// <summary>Writes a vector set to a .npy file, creating or replacing it atomically.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="vectors">The vectors.</param>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> or <paramref name="vectors"/> is <see langword="null"/>.</exception>
-    /// <exception cref="IOException">The file cannot be created.</exception>
+    /// <remarks>
+    /// The data goes to a hidden temporary file beside <paramref name="path"/>, which is flushed to the disk and renamed
+    /// over it: the file at <paramref name="path"/> is the previous one or the complete new one, never a part. On
+    /// failure the temporary file is deleted and the previous file is left as it was.
+    /// </remarks>
+    /// <exception cref="ArgumentException"><paramref name="path"/> is empty or names a folder.</exception>
+    /// <exception cref="IOException">Creating, writing (on a full disk, say) or renaming the temporary file failed; the message names <paramref name="path"/> and the step.</exception>
     public static void Write(string path, VectorSet vectors)
     {
         ArgumentNullException.ThrowIfNull(vectors);
-        using FileStream stream = DataFiles.Create(path);
-        Write(stream, vectors);
+        DataFiles.Replace(path, stream => Write(stream, vectors));
     }
 
     /// <summary>Writes row-major int32 rows as a (rows, <paramref name="dimension"/>) <c>&lt;i4</c> array.</summary>
@@ -152,16 +157,21 @@ public static partial class NpyFile
         Write(stream, rows.Data, rows.Dimension);
     }
 
-    /// <summary>Writes an int32 set to a .npy file, replacing any existing file.</summary>
+    /// <summary>Writes an int32 set to a .npy file, creating or replacing it atomically.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="rows">The rows.</param>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> or <paramref name="rows"/> is <see langword="null"/>.</exception>
-    /// <exception cref="IOException">The file cannot be created.</exception>
+    /// <remarks>
+    /// The data goes to a hidden temporary file beside <paramref name="path"/>, which is flushed to the disk and renamed
+    /// over it: the file at <paramref name="path"/> is the previous one or the complete new one, never a part. On
+    /// failure the temporary file is deleted and the previous file is left as it was.
+    /// </remarks>
+    /// <exception cref="ArgumentException"><paramref name="path"/> is empty or names a folder.</exception>
+    /// <exception cref="IOException">Creating, writing (on a full disk, say) or renaming the temporary file failed; the message names <paramref name="path"/> and the step.</exception>
     public static void Write(string path, IntVectorSet rows)
     {
         ArgumentNullException.ThrowIfNull(rows);
-        using FileStream stream = DataFiles.Create(path);
-        Write(stream, rows);
+        DataFiles.Replace(path, stream => Write(stream, rows));
     }
 
     private static void WriteHeader(Stream stream, string descr, string shape)

@@ -136,7 +136,7 @@ public sealed class NpyReader : VectorReader
     /// <summary>Opens a .npy file for streaming.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>
-    /// <returns>A reader that owns the file handle.</returns>
+    /// <returns>A reader that owns the file handle; its <see cref="DataFormatException"/>s, here and in later reads, name the file (<see cref="DataFormatException.FilePath"/>).</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
     /// <exception cref="IOException">The file cannot be opened.</exception>
     /// <exception cref="DataFormatException">The header is malformed or unsupported, or the data is too short.</exception>
@@ -145,7 +145,11 @@ public sealed class NpyReader : VectorReader
         FileStream stream = DataFiles.OpenRead(path);
         try
         {
-            return new NpyReader(stream, leaveOpen: false, limits);
+            return new NpyReader(stream, leaveOpen: false, limits) { SourcePath = stream.Name };
+        }
+        catch (DataFormatException e) when (DataFiles.NameFile(e, stream.Name))
+        {
+            throw; // not reached: the filter names the file and lets the exception pass
         }
         catch
         {

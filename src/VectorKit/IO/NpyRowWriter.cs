@@ -1,30 +1,38 @@
 using System.Buffers.Binary;
 using System.Globalization;
 using System.Text;
+using VectorKit.Internal;
 
 namespace VectorKit.IO;
 
 /// <summary>
 /// Writes float32 rows to a .npy file as they arrive (for example the batches given to an index's
 /// <c>AddRange</c>), so a collection larger than memory can be kept on disk for a <see cref="FileVectorSource"/>.
-/// The row count is written into the header by <see cref="Complete"/>.
+/// The row count is written into the header by <see cref="Complete"/>, which also puts the file in place.
 /// </summary>
 /// <remarks>
-/// The file is format version 1.0, <c>&lt;f4</c>, C order, shape (rows, dimension), with a fixed 128-byte header so
-/// the data starts at byte 128 (a multiple of 64) and the final count fits in place. Until <see cref="Complete"/> the
-/// header says 0 rows: a writer disposed without completing leaves a valid, empty array rather than a file whose
-/// header promises rows that may be missing. Not thread-safe.
+/// <para>The file is format version 1.0, <c>&lt;f4</c>, C order, shape (rows, dimension), with a fixed 128-byte header
+/// so the data starts at byte 128 (a multiple of 64) and the final count fits in place.</para>
+/// <para>The rows go to a hidden temporary file beside the target; <see cref="Complete"/> flushes it to the disk and
+/// renames it over the target, so the file at the path is either the previous one or the complete new one. A writer
+/// disposed without <see cref="Complete"/> (or whose write failed) deletes its temporary file and leaves any
+/// previous file at the path untouched; it creates no file. (Earlier versions created the file at once and left an
+/// empty array behind.)</para>
+/// <para>Not thread-safe.</para>
 /// </remarks>
 public sealed class NpyRowWriter : IDisposable
 {
     private const int HeaderBytes = 128;
-    private readonly FileStream _stream;
+    private readonly DurableFile _output;
+    private readonly Stream _stream;
     private bool _completed;
+    private bool _failed;
     private bool _disposed;
 
-    private NpyRowWriter(FileStream stream, int dimension)
+    private NpyRowWriter(DurableFile output, int dimension)
     {
-        _stream = stream;
+        _output = output;
+        _stream = output.Stream;
         Dimension = dimension;
     }
 
@@ -34,13 +42,14 @@ public sealed class NpyRowWriter : IDisposable
     /// <summary>Rows appended so far.</summary>
     public long RowsWritten { get; private set; }
 
-    /// <summary>Creates (or replaces) a .npy file and writes its provisional header.</summary>
+    /// <summary>Starts a .npy file that <see cref="Complete"/> creates (or replaces) at <paramref name="path"/>; until then the rows go to a temporary file beside it.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="dimension">Components per row, at least 1.</param>
-    /// <returns>A writer that owns the file.</returns>
+    /// <returns>A writer that owns the temporary file.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
+    /// <exception cref="ArgumentException"><paramref name="path"/> is empty or names a folder.</exception>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is less than 1.</exception>
-    /// <exception cref="IOException">The file cannot be created.</exception>
+    /// <exception cref="IOException">The temporary file cannot be created (the message names <paramref name="path"/>).</exception>
     public static NpyRowWriter Create(string path, int dimension)
     {
         if (dimension < 1)
@@ -48,16 +57,16 @@ public sealed class NpyRowWriter : IDisposable
             DataFormatThrow.ArgumentOutOfRange(nameof(dimension), dimension, "must be at least 1");
         }
 
-        FileStream stream = DataFiles.Create(path);
+        DurableFile output = DataFiles.BeginReplace(path, nameof(path));
         try
         {
-            var writer = new NpyRowWriter(stream, dimension);
-            writer.WriteHeader(0);
+            var writer = new NpyRowWriter(output, dimension);
+            output.Write(stream => writer.WriteHeader(0));
             return writer;
         }
         catch
         {
-            stream.Dispose();
+            output.Dispose();
             throw;
         }
     }
@@ -65,8 +74,9 @@ public sealed class NpyRowWriter : IDisposable
     /// <summary>Appends whole rows.</summary>
     /// <param name="rows">Rows, one after another: a multiple of <see cref="Dimension"/> values.</param>
     /// <exception cref="ArgumentException">The length of <paramref name="rows"/> is not a multiple of <see cref="Dimension"/>.</exception>
-    /// <exception cref="InvalidOperationException">The file was completed.</exception>
+    /// <exception cref="InvalidOperationException">The file was completed, or an earlier write failed.</exception>
     /// <exception cref="ObjectDisposedException">The writer was disposed.</exception>
+    /// <exception cref="IOException">Writing failed (a full disk, say); the message names the target, the temporary file is deleted and the previous file is left as it was.</exception>
     public void Append(ReadOnlySpan<float> rows)
     {
         ThrowIfDone();
@@ -75,28 +85,46 @@ public sealed class NpyRowWriter : IDisposable
             DataFormatThrow.NotMultipleOfDimension(nameof(rows), rows.Length, Dimension);
         }
 
-        LittleEndianWriter.Write(_stream, rows);
+        try
+        {
+            LittleEndianWriter.Write(_stream, rows);
+        }
+        catch (Exception e) when (e is IOException or UnauthorizedAccessException)
+        {
+            _failed = true;
+            throw _output.Failed(e);
+        }
+
         RowsWritten += rows.Length / Dimension;
     }
 
-    /// <summary>Writes the row count into the header and flushes the file to disk; no rows can follow.</summary>
-    /// <exception cref="InvalidOperationException">The file was completed already.</exception>
+    /// <summary>
+    /// Writes the row count into the header, flushes the temporary file to the disk and renames it over the target
+    /// (then flushes the folder, except on Windows); no rows can follow.
+    /// </summary>
+    /// <exception cref="InvalidOperationException">The file was completed already, or an earlier write failed.</exception>
     /// <exception cref="ObjectDisposedException">The writer was disposed.</exception>
+    /// <exception cref="IOException">Writing, flushing or renaming failed; the message names the target and the step. The previous file is left as it was unless the message says the new file replaced it.</exception>
     public void Complete()
     {
         ThrowIfDone();
-        _stream.Flush();
-        _stream.Position = 0;
-        WriteHeader(RowsWritten);
-        _stream.Flush(flushToDisk: true);
+        _failed = true;
+        _output.Write(stream =>
+        {
+            stream.Flush();
+            stream.Position = 0;
+            WriteHeader(RowsWritten);
+        });
+        _output.Commit();
+        _failed = false;
         _completed = true;
     }
 
-    /// <summary>Closes the file (a file not completed keeps its header of 0 rows).</summary>
+    /// <summary>Closes the writer. Without <see cref="Complete"/>, deletes the temporary file: the target is left as it was (absent, or the previous file).</summary>
     public void Dispose()
     {
         _disposed = true;
-        _stream.Dispose();
+        _output.Dispose();
     }
 
     private void WriteHeader(long rows)
@@ -119,6 +147,11 @@ public sealed class NpyRowWriter : IDisposable
         if (_disposed)
         {
             DataFormatThrow.Disposed(this);
+        }
+
+        if (_failed)
+        {
+            DataFormatThrow.InvalidOperation("An earlier write to the .npy file failed; its temporary file was deleted and no rows can follow.");
         }
 
         if (_completed)

@@ -1,6 +1,7 @@
 using System.Buffers;
 using VectorKit.Evaluation;
 using VectorKit.Indexes;
+using VectorKit.Internal;
 
 namespace VectorKit.IO;
 
@@ -43,19 +44,21 @@ public static partial class VecsFile
     }
 
     /// <summary>
-    /// Writes batch search results to an .ivecs file of ids and, optionally, an .fvecs file of distances, replacing
-    /// existing files; see <see cref="WriteNeighbors(Stream, Stream?, BatchSearchResults)"/> for the layout and padding.
+    /// Writes batch search results to an .ivecs file of ids and, optionally, an .fvecs file of distances, creating or
+    /// replacing them atomically; see <see cref="WriteNeighbors(Stream, Stream?, BatchSearchResults)"/> for the layout and padding.
     /// </summary>
     /// <param name="idsPath">The .ivecs file path.</param>
     /// <param name="distancesPath">The .fvecs file path, or <see langword="null"/> to write ids only.</param>
     /// <param name="results">The results to write.</param>
     /// <remarks>
-    /// The ids are checked before either file is created, so a rejected batch leaves no files behind; when the distance
-    /// file cannot be created (its folder is missing, say), the id file just created (or emptied) is deleted again.
+    /// The ids are checked before anything is written. Each file is written to a hidden temporary file beside it; both
+    /// are flushed to the disk, then renamed over their targets, ids first. A failure before the renames (a missing
+    /// folder, a full disk) deletes the temporaries and leaves any previous files as they were; a crash between the two
+    /// renames can leave the new id file beside the previous distance file.
     /// </remarks>
     /// <exception cref="ArgumentNullException"><paramref name="idsPath"/> or <paramref name="results"/> is <see langword="null"/>.</exception>
-    /// <exception cref="ArgumentException">An id is outside the int32 range or is −1 (the message names the query, the rank and the id).</exception>
-    /// <exception cref="IOException">A file cannot be created.</exception>
+    /// <exception cref="ArgumentException">An id is outside the int32 range or is −1 (the message names the query, the rank and the id), or a path is empty or names a folder.</exception>
+    /// <exception cref="IOException">Creating, writing or renaming a temporary file failed; the message names the target file and the step.</exception>
     public static void WriteNeighbors(string idsPath, string? distancesPath, BatchSearchResults results)
     {
         if (idsPath is null)
@@ -69,12 +72,16 @@ public static partial class VecsFile
         }
 
         NeighborFiles.CheckIds(results, int32Ids: true, ".ivecs");
-        (FileStream idStream, FileStream? distanceStream) = DataFiles.CreatePair(idsPath, distancesPath);
-        using (idStream)
-        using (distanceStream)
-        {
-            WriteNeighborRows(idStream, distanceStream, results);
-        }
+        using DurableFile idFile = DataFiles.BeginReplace(idsPath, nameof(idsPath));
+        using DurableFile? distanceFile = distancesPath is null ? null : DataFiles.BeginReplace(distancesPath, nameof(distancesPath));
+
+        // One file at a time, so a failure names the file it happened in; both reach the disk before either is renamed.
+        idFile.Write(stream => WriteNeighborRows(stream, null, results));
+        distanceFile?.Write(stream => WriteNeighborRows(null, stream, results));
+        idFile.FlushToDisk();
+        distanceFile?.FlushToDisk();
+        idFile.Commit();
+        distanceFile?.Commit();
     }
 
     /// <summary>Reads an .ivecs file of neighbour ids (ground truth, or results written by <see cref="WriteNeighbors(Stream, Stream?, BatchSearchResults)"/>) as 64-bit ids.</summary>
@@ -104,7 +111,7 @@ public static partial class VecsFile
     public static NeighborTable ReadNeighbors(string path, DataReadLimits? limits = null)
     {
         using VecsReader reader = VecsReader.Open(path, VecsElementType.Int32, limits);
-        return NeighborFiles.ToTable(reader.ReadToEndAsInt64(), reader.Dimension);
+        return DataFiles.Named(path, () => NeighborFiles.ToTable(reader.ReadToEndAsInt64(), reader.Dimension));
     }
 
     private static void CheckWritableDistances(Stream distances)
@@ -115,7 +122,7 @@ public static partial class VecsFile
         }
     }
 
-    private static void WriteNeighborRows(Stream ids, Stream? distances, BatchSearchResults results)
+    private static void WriteNeighborRows(Stream? ids, Stream? distances, BatchSearchResults results)
     {
         int k = results.K;
         int[] idRow = ArrayPool<int>.Shared.Rent(k);
@@ -125,9 +132,13 @@ public static partial class VecsFile
             for (int q = 0; q < results.QueryCount; q++)
             {
                 ReadOnlySpan<SearchHit> hits = results[q];
-                NeighborFiles.FillIds(hits, idRow.AsSpan(0, k));
-                LittleEndianWriter.WriteInt32(ids, k);
-                LittleEndianWriter.Write(ids, idRow.AsSpan(0, k));
+                if (ids is not null)
+                {
+                    NeighborFiles.FillIds(hits, idRow.AsSpan(0, k));
+                    LittleEndianWriter.WriteInt32(ids, k);
+                    LittleEndianWriter.Write(ids, idRow.AsSpan(0, k));
+                }
+
                 if (distances is not null)
                 {
                     NeighborFiles.FillDistances(hits, distanceRow.AsSpan(0, k));

@@ -122,16 +122,21 @@ public static partial class VecsFile
         }
     }
 
-    /// <summary>Writes a vector set to a .fvecs file, replacing any existing file.</summary>
+    /// <summary>Writes a vector set to a .fvecs file, creating or replacing it atomically.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="vectors">The vectors.</param>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> or <paramref name="vectors"/> is <see langword="null"/>.</exception>
-    /// <exception cref="IOException">The file cannot be created.</exception>
+    /// <remarks>
+    /// The data goes to a hidden temporary file beside <paramref name="path"/>, which is flushed to the disk and renamed
+    /// over it: the file at <paramref name="path"/> is the previous one or the complete new one, never a part. On
+    /// failure the temporary file is deleted and the previous file is left as it was.
+    /// </remarks>
+    /// <exception cref="ArgumentException"><paramref name="path"/> is empty or names a folder.</exception>
+    /// <exception cref="IOException">Creating, writing (on a full disk, say) or renaming the temporary file failed; the message names <paramref name="path"/> and the step.</exception>
     public static void WriteFvecs(string path, VectorSet vectors)
     {
         ArgumentNullException.ThrowIfNull(vectors);
-        using FileStream stream = DataFiles.Create(path);
-        WriteFvecs(stream, vectors);
+        DataFiles.Replace(path, stream => WriteFvecs(stream, vectors));
     }
 
     /// <summary>Writes row-major int32 rows as .ivecs.</summary>
@@ -171,16 +176,21 @@ public static partial class VecsFile
         }
     }
 
-    /// <summary>Writes an int32 set to an .ivecs file, replacing any existing file.</summary>
+    /// <summary>Writes an int32 set to an .ivecs file, creating or replacing it atomically.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="rows">The rows.</param>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> or <paramref name="rows"/> is <see langword="null"/>.</exception>
-    /// <exception cref="IOException">The file cannot be created.</exception>
+    /// <remarks>
+    /// The data goes to a hidden temporary file beside <paramref name="path"/>, which is flushed to the disk and renamed
+    /// over it: the file at <paramref name="path"/> is the previous one or the complete new one, never a part. On
+    /// failure the temporary file is deleted and the previous file is left as it was.
+    /// </remarks>
+    /// <exception cref="ArgumentException"><paramref name="path"/> is empty or names a folder.</exception>
+    /// <exception cref="IOException">Creating, writing (on a full disk, say) or renaming the temporary file failed; the message names <paramref name="path"/> and the step.</exception>
     public static void WriteIvecs(string path, IntVectorSet rows)
     {
         ArgumentNullException.ThrowIfNull(rows);
-        using FileStream stream = DataFiles.Create(path);
-        WriteIvecs(stream, rows);
+        DataFiles.Replace(path, stream => WriteIvecs(stream, rows));
     }
 
     /// <summary>Writes row-major byte vectors as .bvecs.</summary>

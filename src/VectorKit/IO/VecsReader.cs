@@ -78,7 +78,7 @@ public sealed class VecsReader : VectorReader
     /// <param name="path">The file path.</param>
     /// <param name="elementType">The element type (.fvecs, .ivecs or .bvecs).</param>
     /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>
-    /// <returns>A reader that owns the file handle.</returns>
+    /// <returns>A reader that owns the file handle; its <see cref="DataFormatException"/>s, here and in later reads, name the file (<see cref="DataFormatException.FilePath"/>).</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
     /// <exception cref="IOException">The file cannot be opened.</exception>
     /// <exception cref="DataFormatException">The first dimension is out of range or the data is truncated.</exception>
@@ -87,7 +87,11 @@ public sealed class VecsReader : VectorReader
         FileStream stream = DataFiles.OpenRead(path);
         try
         {
-            return new VecsReader(stream, elementType, leaveOpen: false, limits);
+            return new VecsReader(stream, elementType, leaveOpen: false, limits) { SourcePath = stream.Name };
+        }
+        catch (DataFormatException e) when (DataFiles.NameFile(e, stream.Name))
+        {
+            throw; // not reached: the filter names the file and lets the exception pass
         }
         catch
         {

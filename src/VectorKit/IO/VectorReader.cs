@@ -86,6 +86,9 @@ public abstract class VectorReader : IDisposable
 
     private protected string FormatName { get; }
 
+    /// <summary>The file the reader opened itself (through <c>Open(path)</c>), named in its read errors; null for a caller's stream.</summary>
+    internal string? SourcePath { get; set; }
+
     private protected DataReadLimits Limits { get; }
 
     /// <summary>The offset of the next byte to read, from where the reader started (in decompressed data for gzip).</summary>
@@ -414,6 +417,19 @@ public abstract class VectorReader : IDisposable
     }
 
     private int ReadRows<T>(Span<T> destination, CancellationToken cancellationToken)
+        where T : unmanaged
+    {
+        try
+        {
+            return ReadRowsCore(destination, cancellationToken);
+        }
+        catch (DataFormatException e) when (DataFiles.NameFile(e, SourcePath))
+        {
+            throw; // not reached: the filter names the file and lets the exception pass
+        }
+    }
+
+    private int ReadRowsCore<T>(Span<T> destination, CancellationToken cancellationToken)
         where T : unmanaged
     {
         ThrowIfDisposed();

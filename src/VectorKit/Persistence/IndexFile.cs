@@ -3,6 +3,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
 using VectorKit.Indexes.InvertedFile;
+using VectorKit.Internal;
 
 namespace VectorKit.Persistence;
 
@@ -14,8 +15,9 @@ namespace VectorKit.Persistence;
 /// </summary>
 /// <remarks>
 /// <para><b>Atomic saving.</b> <see cref="Save(IVectorIndex, string, CancellationToken)"/> writes a temporary file in
-/// the target's folder, flushes it to the disk, then renames it over the target: an exception, a cancellation or a
-/// crash part-way leaves the previous file as it was.</para>
+/// the target's folder, flushes it to the disk, renames it over the target and flushes the folder: an exception, a
+/// cancellation or a crash part-way leaves the previous file as it was, and a completed save survives a power loss
+/// (on Windows the folder is not flushed).</para>
 /// <para><b>Consistency.</b> A save sees one consistent state of the index. On every kind, searches run during the
 /// save and never wait for it; writes wait until it ends.</para>
 /// <para><b>Safe loading.</b> Loading verifies the magic number, the format version, every checksum, every size
@@ -66,9 +68,10 @@ public static class IndexFile
     /// <param name="cancellationToken">Checked between 1 MiB blocks; a cancelled save leaves the previous file as it was.</param>
     /// <remarks>
     /// The data goes to a hidden temporary file beside <paramref name="path"/>, which is flushed to the disk and then
-    /// renamed over <paramref name="path"/> (a single rename, atomic on the same volume). On failure the temporary
-    /// file is deleted. The folder entry itself is not flushed: after a power cut right after the rename, either the
-    /// old or the new file is found, never a mix. A process killed part-way cannot delete its temporary file;
+    /// renamed over <paramref name="path"/> (a single rename, atomic on the same volume); on Linux and macOS the folder
+    /// is then flushed too, so the rename survives a power loss (on Windows it is not: a power cut right after the
+    /// rename may bring back the previous file, never a mix). On failure the temporary file is deleted. A process
+    /// killed part-way cannot delete its temporary file;
     /// <see cref="DeleteTemporaryFiles(string)"/> removes such leftovers.
     /// </remarks>
     /// <exception cref="ArgumentNullException">An argument is null.</exception>
@@ -76,7 +79,7 @@ public static class IndexFile
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     /// <exception cref="DirectoryNotFoundException">The folder of <paramref name="path"/> does not exist; the message names <paramref name="path"/> and the folder.</exception>
-    /// <exception cref="IOException">Creating, writing (for example on a full disk) or renaming the temporary file failed; the message names <paramref name="path"/> and the failing step, the inner exception is the system's own, and the HResult is kept.</exception>
+    /// <exception cref="IOException">Creating, writing (for example on a full disk) or renaming the temporary file, or flushing the folder after the rename, failed; the message names <paramref name="path"/> and the failing step, the inner exception is the system's own, and the HResult is kept.</exception>
     /// <exception cref="UnauthorizedAccessException">The folder or the target is not writable; the message names <paramref name="path"/>.</exception>
     public static void Save(IVectorIndex index, string path, CancellationToken cancellationToken = default)
         => SaveAtomically(index, path, static stream => stream, cancellationToken);
@@ -102,7 +105,7 @@ public static class IndexFile
     /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
     /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
-    /// <exception cref="IndexFileException">The file is not an index file, is damaged, truncated or inconsistent, exceeds a cap, or has an unsupported format version.</exception>
+    /// <exception cref="IndexFileException">The file is not an index file, is damaged, truncated or inconsistent, exceeds a cap, or has an unsupported format version; the message names the file, and <see cref="IndexFileException.FilePath"/> holds its full path.</exception>
     /// <exception cref="FileNotFoundException">The file does not exist.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
     /// <exception cref="IOException">Reading failed.</exception>
@@ -131,7 +134,7 @@ public static class IndexFile
     /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
     /// <returns>The loaded index; the caller owns (and disposes) it.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
-    /// <exception cref="IndexFileException">The file holds another kind of index, or as for <see cref="Load(string, IndexLoadOptions?, CancellationToken)"/>.</exception>
+    /// <exception cref="IndexFileException">The file holds another kind of index, or as for <see cref="Load(string, IndexLoadOptions?, CancellationToken)"/>; the message names the file, and <see cref="IndexFileException.FilePath"/> holds its full path.</exception>
     public static TIndex Load<TIndex>(string path, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
         where TIndex : class, IVectorIndex
         => (TIndex)LoadFile(path, options, typeof(TIndex), cancellationToken);
@@ -180,33 +183,7 @@ public static class IndexFile
     }
 
     /// <summary>Whether <paramref name="fileName"/> has the exact shape of a temporary file of a save to <paramref name="targetName"/>.</summary>
-    internal static bool IsTemporaryFor(string fileName, string targetName)
-    {
-        // "." + target + "." + 32 hex digits + ".tmp"; the pattern given to the enumeration also matches looser names.
-        int expected = 1 + targetName.Length + 1 + 32 + 4;
-        if (fileName.Length != expected
-            || fileName[0] != '.'
-            || !fileName.AsSpan(1, targetName.Length).SequenceEqual(targetName)
-            || fileName[1 + targetName.Length] != '.'
-            || !fileName.EndsWith(".tmp", StringComparison.Ordinal))
-        {
-            return false;
-        }
-
-        foreach (char c in fileName.AsSpan(targetName.Length + 2, 32))
-        {
-            if (!char.IsAsciiHexDigitLower(c) && !char.IsAsciiDigit(c))
-            {
-                return false;
-            }
-        }
-
-        return true;
-    }
-
-    /// <summary>The name of a new temporary file for a save to <paramref name="target"/> (a full path), in the same folder.</summary>
-    internal static string TemporaryPathFor(string target)
-        => Path.Combine(Path.GetDirectoryName(target) ?? ".", $".{Path.GetFileName(target)}.{Guid.NewGuid():N}.tmp");
+    internal static bool IsTemporaryFor(string fileName, string targetName) => DurableFile.IsTemporaryFor(fileName, targetName);
 
     /// <summary>Atomic save with a hook that wraps the file stream (tests inject failures through it).</summary>
     internal static void SaveAtomically(IVectorIndex index, string path, Func<Stream, Stream> wrap, CancellationToken cancellationToken)
@@ -214,80 +191,27 @@ public static class IndexFile
         ArgumentNullException.ThrowIfNull(index);
         ArgumentException.ThrowIfNullOrEmpty(path);
         CodecFor(index);
-        string target = Path.GetFullPath(path);
-        if (Path.GetFileName(target).Length == 0)
-        {
-            ThrowHelper.ThrowArgument(nameof(path), $"The path '{path}' names a folder, not a file.");
-        }
+        using DurableFile file = DurableFile.Begin(path, nameof(path), "save the index to", bufferSize: 0, wrap);
+        file.Write(stream => Save(index, stream, cancellationToken));
 
-        string temporary = TemporaryPathFor(target);
-        var stage = SaveStage.Create;
-        try
-        {
-            using (var file = new FileStream(temporary, FileMode.CreateNew, FileAccess.Write, FileShare.None, bufferSize: 0))
-            {
-                stage = SaveStage.Write;
-                Stream stream = wrap(file);
-                Save(index, stream, cancellationToken);
-                stream.Flush();
-                file.Flush(flushToDisk: true);
-            }
-
-            // A token cancelled while the last block was written still wins: the target is not replaced.
-            cancellationToken.ThrowIfCancellationRequested();
-
-            stage = SaveStage.Rename;
-            File.Move(temporary, target, overwrite: true);
-        }
-        catch (Exception e) when (e is IOException or UnauthorizedAccessException)
-        {
-            bool removed = stage == SaveStage.Create || TryDelete(temporary);
-            throw SaveFailed(e, stage, target, temporary, removed);
-        }
-        catch
-        {
-            TryDelete(temporary);
-            throw;
-        }
-    }
-
-    /// <summary>
-    /// The file system's exception for a failed save, re-issued with a message that names the target first (the
-    /// system's own names only the temporary file), of the same type where that type is a common one, with the same
-    /// HResult, and with the original as the inner exception.
-    /// </summary>
-    private static Exception SaveFailed(Exception e, SaveStage stage, string target, string temporary, bool removed)
-    {
-        string folder = Path.GetDirectoryName(target) ?? ".";
-        string what = stage switch
-        {
-            SaveStage.Create when e is DirectoryNotFoundException && !Directory.Exists(folder) => $"its folder '{folder}' does not exist.",
-            SaveStage.Create => $"the temporary file could not be created in '{folder}': {e.Message}",
-            SaveStage.Write => $"writing the temporary file failed: {e.Message}",
-            _ => $"renaming the complete temporary file over it failed: {e.Message}",
-        };
-        string after = stage == SaveStage.Create
-            ? " Nothing was written; the previous file, if any, is unchanged."
-            : removed
-                ? " The previous file, if any, is unchanged; the temporary file was deleted."
-                : $" The previous file, if any, is unchanged; the temporary file '{temporary}' could not be deleted (IndexFile.{nameof(DeleteTemporaryFiles)} removes it).";
-        string message = $"Cannot save the index to '{target}': {what}{(what.EndsWith('.') ? "" : ".")}{after}";
-        Exception wrapped = e switch
-        {
-            DirectoryNotFoundException => new DirectoryNotFoundException(message, e),
-            PathTooLongException => new PathTooLongException(message, e),
-            UnauthorizedAccessException => new UnauthorizedAccessException(message, e),
-            _ => new IOException(message, e),
-        };
-        wrapped.HResult = e.HResult;
-        return wrapped;
+        // A token cancelled while the last block was written still wins: the target is not replaced.
+        file.Commit(cancellationToken);
     }
 
     private static IVectorIndex LoadFile(string path, IndexLoadOptions? options, Type? expected, CancellationToken cancellationToken)
     {
         ArgumentNullException.ThrowIfNull(path);
         using var file = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.Read, bufferSize: 0, FileOptions.SequentialScan);
-        return LoadCore(file, options, expected, requireEnd: true, cancellationToken);
+        try
+        {
+            return LoadCore(file, options, expected, requireEnd: true, cancellationToken);
+        }
+        catch (IndexFileException e)
+        {
+            // Same exception object, so its section, offset, inner exception and stack stay as they were.
+            e.AttachFilePath(file.Name);
+            throw;
+        }
     }
 
     private static IVectorIndex LoadCore(Stream source, IndexLoadOptions? options, Type? expected, bool requireEnd, CancellationToken cancellationToken)
@@ -348,29 +272,5 @@ public static class IndexFile
         {
             throw new PlatformNotSupportedException("Index files are read and written on little-endian processors only.");
         }
-    }
-
-    private static bool TryDelete(string path)
-    {
-        try
-        {
-            File.Delete(path);
-            return true;
-        }
-        catch (IOException)
-        {
-            return false;
-        }
-        catch (UnauthorizedAccessException)
-        {
-            return false;
-        }
-    }
-
-    private enum SaveStage
-    {
-        Create,
-        Write,
-        Rename,
     }
 }

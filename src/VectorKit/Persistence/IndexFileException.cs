@@ -42,4 +42,19 @@ public sealed class IndexFileException : IOException
 
     /// <summary>The byte offset, from the start of the index data, where the problem was found; -1 when unknown.</summary>
     public long Offset { get; } = -1;
+
+    /// <summary>The full path of the file that failed to load; <see langword="null"/> when the index was read from a stream.</summary>
+    public string? FilePath { get; private set; }
+
+    /// <inheritdoc/>
+    public override string Message => FilePath is null ? base.Message : NameFile(base.Message, FilePath);
+
+    /// <summary>Names the file this exception came from (once; the loader calls it before rethrowing).</summary>
+    internal void AttachFilePath(string fullPath) => FilePath ??= fullPath;
+
+    // Messages start "Index file ..."; the path goes right after those words.
+    private static string NameFile(string message, string path)
+        => message.StartsWith("Index file ", StringComparison.Ordinal)
+            ? $"Index file '{path}' {message["Index file ".Length..]}"
+            : $"Index file '{path}': {message}";
 }

@@ -47,7 +47,7 @@ public sealed class NpyRowWriterTests : IDisposable
     }
 
     [Fact]
-    public void AWriterNotCompleted_LeavesAValidEmptyArray_AndArgumentsAreChecked()
+    public void AWriterNotCompleted_LeavesNoFile_AndArgumentsAreChecked()
     {
         string path = Path.Combine(_directory, "partial.npy");
         using (NpyRowWriter writer = NpyRowWriter.Create(path, 3))
@@ -56,8 +56,8 @@ public sealed class NpyRowWriterTests : IDisposable
             Assert.Equal("rows", Assert.Throws<ArgumentException>(() => writer.Append([1f, 2f])).ParamName);
         }
 
-        VectorSet read = NpyFile.ReadVectors(path);
-        Assert.Equal(0, read.Count);
+        Assert.False(File.Exists(path));
+        Assert.Empty(Directory.GetFileSystemEntries(_directory));
         Assert.Equal("dimension", Assert.Throws<ArgumentOutOfRangeException>(() => NpyRowWriter.Create(path, 0)).ParamName);
         NpyRowWriter disposed = NpyRowWriter.Create(path, 2);
         disposed.Dispose();

@@ -7,7 +7,7 @@ namespace VectorKit.Tests.IO;
 
 /// <summary>
 /// Every data-set writer that takes a path, pointed into a missing folder: the exception names the file asked for
-/// (these writers create it directly, with no temporary file in between), and nothing is left behind.
+/// (not the temporary file these writers create beside it), and nothing is left behind.
 /// </summary>
 public sealed class WriterTargetMessageTests : IDisposable
 {
@@ -30,14 +30,15 @@ public sealed class WriterTargetMessageTests : IDisposable
     [Theory]
     [InlineData("npy-neighbors")]
     [InlineData("vecs-neighbors")]
-    public void ANeighborDistanceFileIntoAMissingFolder_NamesIt_AndLeavesNoIdFile(string writer)
+    public void ANeighborDistanceFileIntoAMissingFolder_NamesIt_AndLeavesThePreviousIdFile(string writer)
     {
         string ids = Path.Combine(_folder, "ids.dat");
         File.WriteAllBytes(ids, [1, 2, 3]);
         string distances = Path.Combine(_folder, "missing", "distances.dat");
         var e = Assert.Throws<DirectoryNotFoundException>(() => Write(writer, ids, distances));
         Assert.Contains($"'{distances}'", e.Message, StringComparison.Ordinal);
-        Assert.Empty(Directory.GetFileSystemEntries(_folder));
+        Assert.Equal(new byte[] { 1, 2, 3 }, File.ReadAllBytes(ids));
+        Assert.Equal([ids], Directory.GetFileSystemEntries(_folder));
     }
 
     private static void Write(string writer, string path, string? distancesPath)

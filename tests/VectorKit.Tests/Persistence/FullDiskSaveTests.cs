@@ -1,4 +1,3 @@
-using System.Diagnostics;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Persistence;
@@ -13,25 +12,16 @@ namespace VectorKit.Tests.Persistence;
 /// </summary>
 public sealed class FullDiskSaveTests : IDisposable
 {
-    private readonly string _mount = Directory.CreateTempSubdirectory("vk-full-").FullName;
-    private bool _mounted;
+    private readonly SmallTmpfs _disk = new();
 
-    public void Dispose()
-    {
-        if (_mounted && Run("umount", _mount) != 0)
-        {
-            Run("umount", "-l", _mount);
-        }
-
-        Directory.Delete(_mount, recursive: true);
-    }
+    public void Dispose() => _disk.Dispose();
 
     [RootFact]
     public void ASaveOntoAFullDisk_LeavesThePreviousFile_RemovesTheTemporary_AndSaysWhy()
     {
-        Assert.True(Run("mount", "-t", "tmpfs", "-o", "size=1m,mode=0700", "vectorkit-full", _mount) == 0, "mounting a tmpfs failed");
-        _mounted = true;
-        string path = Path.Combine(_mount, "catalogue.vkx");
+        _disk.Mount("1m");
+        string mount = _disk.Folder;
+        string path = Path.Combine(mount, "catalogue.vkx");
         using ExactIndex previous = CrashSample.Build(1_000, 32, 5);
         IndexFile.Save(previous, path);
         byte[] before = File.ReadAllBytes(path);
@@ -43,7 +33,7 @@ public sealed class FullDiskSaveTests : IDisposable
         Assert.EndsWith("The previous file, if any, is unchanged; the temporary file was deleted.", e.Message, StringComparison.Ordinal);
         Assert.Equal(e.InnerException!.HResult, e.HResult);
         Assert.Equal(before, File.ReadAllBytes(path));
-        Assert.Equal([path], Directory.GetFiles(_mount));
+        Assert.Equal([path], Directory.GetFiles(mount));
         using (ExactIndex loaded = IndexFile.Load<ExactIndex>(path))
         {
             float[] query = CrashSample.Vectors(1, 32, 9);
@@ -59,7 +49,7 @@ public sealed class FullDiskSaveTests : IDisposable
         }
 
         // Saving to a caller's stream on the full disk: the system's exception, unchanged, and a prefix that loads as truncated.
-        string streamed = Path.Combine(_mount, "streamed.vkx");
+        string streamed = Path.Combine(mount, "streamed.vkx");
         using (var file = new FileStream(streamed, FileMode.CreateNew, FileAccess.Write))
         {
             var direct = Assert.ThrowsAny<IOException>(() => IndexFile.Save(larger, file));
@@ -68,24 +58,5 @@ public sealed class FullDiskSaveTests : IDisposable
 
         var rejected = Assert.Throws<IndexFileException>(() => IndexFile.Load(streamed).Dispose());
         Assert.Contains("truncated", rejected.Message, StringComparison.Ordinal);
-    }
-
-    private static int Run(string program, params string[] arguments)
-    {
-        var start = new ProcessStartInfo(program) { RedirectStandardError = true, UseShellExecute = false };
-        foreach (string argument in arguments)
-        {
-            start.ArgumentList.Add(argument);
-        }
-
-        using Process process = Process.Start(start)!;
-        string errors = process.StandardError.ReadToEnd();
-        process.WaitForExit();
-        if (process.ExitCode != 0)
-        {
-            Console.Error.WriteLine($"{program} {string.Join(' ', arguments)}: {errors}");
-        }
-
-        return process.ExitCode;
     }
 }

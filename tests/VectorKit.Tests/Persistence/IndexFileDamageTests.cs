@@ -264,7 +264,7 @@ public class IndexFileDamageTests
         {
             File.WriteAllBytes(path, [.. Sample("exact"), 0, 0, 0]);
             var e = Assert.Throws<IndexFileException>(() => IndexFile.Load(path));
-            Assert.StartsWith("Index file has 3 unexpected bytes after its last section", e.Message, StringComparison.Ordinal);
+            Assert.StartsWith($"Index file '{path}' has 3 unexpected bytes after its last section", e.Message, StringComparison.Ordinal);
         }
         finally
         {
