@@ -8,7 +8,7 @@ namespace VectorKit.VectorData;
 /// The abstraction's names map as follows: <c>Flat</c> (the default) to VectorKit's exact index; <c>Hnsw</c> to the
 /// graph index; <c>IvfFlat</c> to the inverted-file index with float32 lists; <c>QuantizedFlat</c> to the exact index
 /// under 8-bit codes with exact re-scoring; <c>Dynamic</c> to an exact index that becomes a graph index once the
-/// collection holds <see cref="VectorKitStoreOptions.TrainingThreshold"/> vectors. <c>DiskAnn</c> is not offered.
+/// collection holds <see cref="VectorKitStoreOptions.TrainingThreshold"/> vectors. The abstraction's disk-based kind is not offered (VectorKit keeps indexes in memory).
 /// </remarks>
 public static class VectorKitIndexKind
 {
