@@ -380,6 +380,11 @@ public sealed class VectorKitCollection<TKey, TRecord> : VectorStoreCollection<T
                     keyProperty.SetValueAsObject(batch[i], keys[i]);
                 }
             }
+
+            foreach (VectorPropertyModel vector in _model.VectorProperties)
+            {
+                state.Slots[vector.StorageName].SwitchWhenReady();
+            }
         }
         finally
         {

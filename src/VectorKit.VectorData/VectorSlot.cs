@@ -20,6 +20,9 @@ internal sealed class VectorSlot : IDisposable
     internal const string SupportedDistanceFunctions =
         "CosineSimilarity, CosineDistance, DotProductSimilarity, NegativeDotProductSimilarity, EuclideanDistance, EuclideanSquaredDistance";
 
+    /// <summary>Candidates re-scored on full vectors under compressed codes (common practice: a few times the usual top).</summary>
+    private const int RescoreDepth = 100;
+
     private readonly int _trainingThreshold;
     private IVectorIndex _index;
 
@@ -117,16 +120,24 @@ internal sealed class VectorSlot : IDisposable
     /// <summary>Whether a score passes a threshold: at least it for similarities, at most it for distances.</summary>
     public bool Passes(double score, double? threshold) => threshold is not double t || (HigherIsBetter ? score >= t : score <= t);
 
-    /// <summary>Adds or replaces vectors (all of one batch); switches a deferred slot to its target index at the threshold.</summary>
+    /// <summary>Adds or replaces vectors (all of one batch, or none of it).</summary>
     public void Upsert(long[] ids, float[] flatVectors)
     {
-        if (ids.Length == 0)
+        if (ids.Length > 0)
         {
-            return;
+            _index.AddOrReplaceRange(ids, flatVectors);
         }
+    }
 
-        _index.AddOrReplaceRange(ids, flatVectors);
-        if (Deferred && !Switched && _index.Count >= _trainingThreshold)
+    /// <summary>
+    /// Switches a deferred slot to its target index once it holds enough vectors: the training threshold, and for
+    /// product codes at least 256 (one per codeword). Called after a write is complete, so a failure here leaves the
+    /// exact index, which holds every vector, in place.
+    /// </summary>
+    public void SwitchWhenReady()
+    {
+        int needed = IndexKind == VectorKitIndexKind.InvertedFileProductCodes ? Math.Max(_trainingThreshold, 256) : _trainingThreshold;
+        if (Deferred && !Switched && _index.Count >= needed)
         {
             SwitchToTarget();
         }
@@ -205,14 +216,15 @@ internal sealed class VectorSlot : IDisposable
         {
             Microsoft.Extensions.VectorData.IndexKind.Flat => new ExactIndex(dimension, Metric),
             Microsoft.Extensions.VectorData.IndexKind.Hnsw or Microsoft.Extensions.VectorData.IndexKind.Dynamic => new GraphIndex(dimension, Metric),
-            Microsoft.Extensions.VectorData.IndexKind.QuantizedFlat => new ExactIndex(dimension, Metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit }),
+            Microsoft.Extensions.VectorData.IndexKind.QuantizedFlat => new ExactIndex(dimension, Metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = RescoreDepth }),
             Microsoft.Extensions.VectorData.IndexKind.IvfFlat => new InvertedFileIndex(dimension, Metric, new InvertedFileOptions { ListCount = lists }),
             VectorKitIndexKind.InvertedFileScalar8Bit =>
-                new InvertedFileIndex(dimension, Metric, new InvertedFileOptions { ListCount = lists, Encoding = VectorEncoding.Scalar8Bit }),
+                new InvertedFileIndex(dimension, Metric, new InvertedFileOptions { ListCount = lists, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = RescoreDepth }),
             _ => new InvertedFileIndex(dimension, Metric, new InvertedFileOptions
             {
                 ListCount = lists,
                 Encoding = VectorEncoding.ProductCodes,
+                RescoreDepth = RescoreDepth,
                 ProductCodeBytes = ProductCodeBytesFor(dimension),
             }),
         };
