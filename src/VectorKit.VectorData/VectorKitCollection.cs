@@ -235,10 +235,10 @@ public sealed class VectorKitCollection<TKey, TRecord> : VectorStoreCollection<T
         try
         {
             ThrowIfDeleted(state, "Delete");
-            var ids = new List<long>(wanted.Count);
+            var ids = new HashSet<long>();
             foreach (object key in wanted)
             {
-                if (state.Ids.TryGetValue(key, out long id) && !ids.Contains(id))
+                if (state.Ids.TryGetValue(key, out long id))
                 {
                     ids.Add(id);
                 }
