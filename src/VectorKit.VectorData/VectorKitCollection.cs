@@ -117,7 +117,7 @@ public sealed class VectorKitCollection<TKey, TRecord> : VectorStoreCollection<T
         cancellationToken.ThrowIfCancellationRequested();
         bool includeVectors = CheckIncludeVectors(options?.IncludeVectors ?? false);
         CollectionState state = RequireState("Get");
-        using (ReadLock(state))
+        using (ReadLock(state, "Get"))
         {
             return Task.FromResult(state.Ids.TryGetValue(CheckKey(key, nameof(key)), out long id) ? Materialize(state.Records[id], includeVectors) : null);
         }
@@ -131,7 +131,7 @@ public sealed class VectorKitCollection<TKey, TRecord> : VectorStoreCollection<T
         bool includeVectors = CheckIncludeVectors(options?.IncludeVectors ?? false);
         CollectionState state = RequireState("Get");
         var found = new List<TRecord>();
-        using (ReadLock(state))
+        using (ReadLock(state, "Get"))
         {
             foreach (TKey key in keys)
             {
@@ -175,7 +175,7 @@ public sealed class VectorKitCollection<TKey, TRecord> : VectorStoreCollection<T
 
         CollectionState state = RequireState("Get");
         List<TRecord> result;
-        using (ReadLock(state))
+        using (ReadLock(state, "Get"))
         {
             var matching = new List<StoredRecord>();
             foreach (StoredRecord record in state.Records.Values)
@@ -414,7 +414,7 @@ public sealed class VectorKitCollection<TKey, TRecord> : VectorStoreCollection<T
         cancellationToken.ThrowIfCancellationRequested();
 
         var results = new List<VectorSearchResult<TRecord>>();
-        using (ReadLock(state))
+        using (ReadLock(state, "Search"))
         {
             VectorSlot slot = state.Slots[property.StorageName];
             SearchHit[] hits = slot.Search(query, checked(top + options.Skip), IdFilter(state, predicate));
@@ -467,7 +467,7 @@ public sealed class VectorKitCollection<TKey, TRecord> : VectorStoreCollection<T
         VectorKitStoreOptions settings = _store.Options;
         int depth = Math.Max(settings.FusionDepth, checked(top + options.Skip));
         var results = new List<VectorSearchResult<TRecord>>();
-        using (ReadLock(state))
+        using (ReadLock(state, "HybridSearch"))
         {
             Func<long, bool>? filter = IdFilter(state, predicate);
             SearchHit[] vectorHits = state.Slots[property.StorageName].Search(query, depth, filter);
@@ -646,9 +646,15 @@ public sealed class VectorKitCollection<TKey, TRecord> : VectorStoreCollection<T
         return includeVectors;
     }
 
-    private static ReadLockScope ReadLock(CollectionState state)
+    private ReadLockScope ReadLock(CollectionState state, string operation)
     {
         state.Lock.EnterReadLock();
+        if (state.Deleted)
+        {
+            state.Lock.ExitReadLock();
+            ThrowIfDeleted(state, operation);
+        }
+
         return new ReadLockScope(state.Lock);
     }
 
