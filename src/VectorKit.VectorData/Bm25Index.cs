@@ -15,6 +15,9 @@ internal sealed class Bm25Index
 {
     private readonly Dictionary<string, Dictionary<long, int>> _postings = new(StringComparer.Ordinal);
     private readonly Dictionary<long, int> _lengths = [];
+
+    // Each document's distinct terms, so that removing it touches only its own postings.
+    private readonly Dictionary<long, string[]> _terms = [];
     private long _totalLength;
 
     public int DocumentCount => _lengths.Count;
@@ -29,6 +32,7 @@ internal sealed class Bm25Index
 
         List<string> terms = Tokenize(text);
         _lengths[id] = terms.Count;
+        _terms[id] = [.. new HashSet<string>(terms, StringComparer.Ordinal)];
         _totalLength += terms.Count;
         foreach (string term in terms)
         {
@@ -50,18 +54,12 @@ internal sealed class Bm25Index
         }
 
         _totalLength -= length;
-        List<string>? empty = null;
-        foreach ((string term, Dictionary<long, int> posting) in _postings)
+        _terms.Remove(id, out string[]? terms);
+        foreach (string term in terms!)
         {
-            if (posting.Remove(id) && posting.Count == 0)
-            {
-                (empty ??= []).Add(term);
-            }
-        }
-
-        if (empty is not null)
-        {
-            foreach (string term in empty)
+            Dictionary<long, int> posting = _postings[term];
+            posting.Remove(id);
+            if (posting.Count == 0)
             {
                 _postings.Remove(term);
             }
@@ -81,7 +79,11 @@ internal sealed class Bm25Index
         var scores = new Dictionary<long, double>();
         int n = _lengths.Count;
         double averageLength = n == 0 ? 0 : (double)_totalLength / n;
-        foreach (string term in terms)
+
+        // Terms in ordinal order: a string set's order changes between processes, and so would the last bits of each sum.
+        string[] ordered = [.. terms];
+        Array.Sort(ordered, StringComparer.Ordinal);
+        foreach (string term in ordered)
         {
             cancellationToken.ThrowIfCancellationRequested();
             if (!_postings.TryGetValue(term, out Dictionary<long, int>? posting))
