@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Runs both samples (QuickStart and Reranking) in Release and checks their output for the lines that show each
+# Runs the samples (QuickStart, Reranking and RentalSearch) in Release and checks their output for the lines that show each
 # sample did its job: results printed, numbers in their expected ranges, the loaded index answering as the saved
 # one, live updates visible, one-based ranks, readable stage names. Prints every problem found and exits non-zero
 # when there is one. Takes no arguments and no input.
@@ -99,8 +99,40 @@ within "calibrated recall on the evaluation requests" \
   "$(value '^Calibrated settings on the 200 evaluation requests: recall ([0-9.]+) with .*')" 0.9 1.0
 need "the settings as JSON" '^  "RetrievalDepth": [0-9]+,$'
 
+run RentalSearch samples/RentalSearch
+need "the build summary" '^Larchpass Outdoor Co-op rental search \(invented data\): 3,456 items embedded with all-MiniLM-L6-v2'
+# Result lines: "  <score>  #<id> <rate>/day  <stock>  <description>".
+rental_hits() {
+  awk -v header="$1" '
+    found && /^ +-?[0-9]+\.[0-9]+ +#[0-9]+ / { print; next }
+    found { exit }
+    index($0, header) == 1 { found = 1 }' "$log"
+}
+[ "$(rental_hits 'Semantic search "a light I can wear on my head"' | grep -c ' headlamp in ')" = 5 ] \
+  || fail "the head-light query did not return 5 headlamps"
+[ "$(rental_hits 'Semantic search "something warm to sleep in' | grep -c ' winter sleeping bag in ')" = 5 ] \
+  || fail "the warm-sleep query did not return 5 winter sleeping bags"
+filtered="$(rental_hits 'Semantic search "shelter for a family trip in the mountains", only in stock')"
+[ "$(printf '%s\n' "$filtered" | grep -c .)" = 5 ] || fail "the filtered search did not print 5 results"
+if printf '%s\n' "$filtered" | grep -q 'rented out'; then fail "the filtered search returned an item not in stock"; fi
+if printf '%s\n' "$filtered" | grep -Ev ' winter ' | grep -q .; then fail "the filtered search returned an item not tagged winter"; fi
+printf '%s\n' "$filtered" | awk '{ split($3, r, "/"); if (r[1] + 0 >= 20) bad = 1 } END { exit bad }' \
+  || fail "the filtered search returned an item at 20.00 a day or more"
+code="$(value '^Hybrid search "([A-Z]{2}-[0-9]{4}) .*')"
+[ -n "$code" ] && rental_hits 'Hybrid search "' | head -n1 | grep -q "Model $code\.$" \
+  || fail "hybrid search did not put the item with model code ${code:-?} first"
+within "desk-note paraphrases ranked first (%)" "$(value '^Desk-note paraphrases: .* \(([0-9.]+) %\)$')" 80 100
+within "catalogue paraphrases with the right category first (%)" "$(value '^Catalogue paraphrases .*right category for [0-9]+ \(([0-9.]+) %\).*')" 60 100
+vector_first="$(value '^  vector search +[0-9]+ \( *([0-9.]+) %\).*')"
+hybrid_first="$(value '^  hybrid, every query word a keyword +[0-9]+ \( *([0-9.]+) %\).*')"
+code_first="$(value '^  hybrid, the code as the keyword +[0-9]+ \( *([0-9.]+) %\).*')"
+within "model codes: vector search first (%)" "$vector_first" 0 30
+within "model codes: hybrid search first (%)" "$hybrid_first" 35 100
+within "model codes: hybrid search with the code as keyword first (%)" "$code_first" 60 100
+need "the reopened store answering as the saved one" '^Saved and reopened the store directory .*: 3,456 items; same answers for 3 queries: yes$'
+
 if [ "$problems" -gt 0 ]; then
   echo "check-samples: $problems problem(s) found" >&2
   exit 1
 fi
-echo "check-samples: both samples ran and printed what they should"
+echo "check-samples: every sample ran and printed what it should"
