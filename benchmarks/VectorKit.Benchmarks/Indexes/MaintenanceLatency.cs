@@ -31,7 +31,14 @@ public static class MaintenanceLatency
     private const int SearchesPerWrite = 100;
     private const int BatchQueries = 2_000;
 
-    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc);
+    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc, Waits Waits);
+
+    /// <summary>
+    /// Searches split by what the thread's context-switch counts say happened during them (Linux, per thread): a search
+    /// with a voluntary switch slept (a lock wait, a collection's suspension, a page read); one with only involuntary
+    /// switches was pre-empted by the scheduler for other runnable threads, which no index design can prevent.
+    /// </summary>
+    private readonly record struct Waits(int Slept, double SleptMaxMs, int Preempted, double PreemptedMaxMs, double NeitherMaxMs);
 
     /// <summary>
     /// The runtime's collections during a phase (every collection pauses the searcher too), and the bytes the searching
@@ -64,13 +71,13 @@ public static class MaintenanceLatency
         }
 
         Console.WriteLine();
-        Console.WriteLine("| index | phase | runs | phase s | searches | p50 ms | p99 ms | p99.9 ms | max ms | max / no-write p99 | max / no-write max | writes | slowest write ms | collections (gen 0/1/2) | GC pauses, total ms | bytes / search |");
-        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|");
+        Console.WriteLine("| index | phase | runs | phase s | searches | p50 ms | p99 ms | p99.9 ms | max ms | max / no-write p99 | max / no-write max | writes | slowest write ms | collections (gen 0/1/2) | GC pauses, total ms | bytes / search | slept: searches, max ms | pre-empted only: searches, max ms | neither: max ms |");
+        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|");
         foreach (Phase p in phases)
         {
             LatencySummary baseline = phases.First(b => b.Kind == p.Kind).Searches;
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                $"| {p.Kind} | {p.Name} | {p.Runs} | {p.Seconds:F1} | {p.Searches.Count:N0} | {p.Searches.P50:F2} | {p.Searches.P99:F2} | {p.Searches.P999:F2} | {p.Searches.Max:F2} | {p.Searches.Max / baseline.P99:F1} | {p.Searches.Max / baseline.Max:F2} | {p.Writes:N0} | {(p.Writes > 0 ? p.SlowestWriteMs.ToString("F1", CultureInfo.InvariantCulture) : "–")} | {p.Gc.Gen0}/{p.Gc.Gen1}/{p.Gc.Gen2} | {p.Gc.PauseMs:F0} | {p.Gc.SearchBytes:F0} |"));
+                $"| {p.Kind} | {p.Name} | {p.Runs} | {p.Seconds:F1} | {p.Searches.Count:N0} | {p.Searches.P50:F2} | {p.Searches.P99:F2} | {p.Searches.P999:F2} | {p.Searches.Max:F2} | {p.Searches.Max / baseline.P99:F1} | {p.Searches.Max / baseline.Max:F2} | {p.Writes:N0} | {(p.Writes > 0 ? p.SlowestWriteMs.ToString("F1", CultureInfo.InvariantCulture) : "–")} | {p.Gc.Gen0}/{p.Gc.Gen1}/{p.Gc.Gen2} | {p.Gc.PauseMs:F0} | {p.Gc.SearchBytes:F0} | {p.Waits.Slept:N0}, {p.Waits.SleptMaxMs:F2} | {p.Waits.Preempted:N0}, {p.Waits.PreemptedMaxMs:F2} | {p.Waits.NeitherMaxMs:F2} |"));
         }
 
         Console.WriteLine();
@@ -145,7 +152,7 @@ public static class MaintenanceLatency
     {
         var watch = Stopwatch.StartNew();
         int runs = 0;
-        (LatencySummary summary, int writes, double slowest, Collections gc) = Measure(index, queries, d, null, writer, () =>
+        (LatencySummary summary, int writes, double slowest, Collections gc, Waits waits) = Measure(index, queries, d, null, writer, () =>
         {
             do
             {
@@ -154,28 +161,49 @@ public static class MaintenanceLatency
             }
             while (watch.Elapsed.TotalSeconds < seconds);
         });
-        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc);
-        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}, {name}: {phase.Seconds:F1} s, {summary.Count:N0} searches, p99 {summary.P99:F2} ms, max {summary.Max:F2} ms, {writes} writes (slowest {slowest:F1} ms), collections {gc.Gen0}/{gc.Gen1}/{gc.Gen2}, GC pauses {gc.PauseMs:F0} ms in all"));
+        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc, waits);
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}, {name}: {phase.Seconds:F1} s, {summary.Count:N0} searches, p99 {summary.P99:F2} ms, max {summary.Max:F2} ms, {writes} writes (slowest {slowest:F1} ms), collections {gc.Gen0}/{gc.Gen1}/{gc.Gen2}, GC pauses {gc.PauseMs:F0} ms in all; slept {waits.Slept} (max {waits.SleptMaxMs:F2} ms), pre-empted only {waits.Preempted} (max {waits.PreemptedMaxMs:F2} ms), neither max {waits.NeitherMaxMs:F2} ms"));
         return phase;
     }
 
-    private static (LatencySummary Summary, int Writes, double SlowestWriteMs, Collections Gc) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
+    private static (LatencySummary Summary, int Writes, double SlowestWriteMs, Collections Gc, Waits Waits) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
     {
         // Room for every sample up front: growing the list mid-phase would allocate (and collect) beside the searches.
         var latencies = new List<double>(1 << 22);
         int searches = 0;
         long searchBytes = 0;
+        var waits = default(Waits);
         bool stop = false;
         var searcher = new Thread(() =>
         {
             var hits = new SearchHit[K];
             int q = 0;
+
+            // One untimed search first: a thread's first search allocates its scratch (the graph's visited set is sized
+            // to the index), which is not a per-search cost.
+            index.Search(queries.AsSpan(0, d), hits);
             long allocated = GC.GetAllocatedBytesForCurrentThread();
             while (!Volatile.Read(ref stop))
             {
+                ThreadSwitches before = ThreadSwitches.Read();
                 long start = Stopwatch.GetTimestamp();
                 index.Search(queries.AsSpan(q * d, d), hits);
-                latencies.Add(Stopwatch.GetElapsedTime(start).TotalMilliseconds);
+                double ms = Stopwatch.GetElapsedTime(start).TotalMilliseconds;
+                ThreadSwitches after = ThreadSwitches.Read();
+                latencies.Add(ms);
+                if (after.Voluntary > before.Voluntary)
+                {
+                    waits = waits with { Slept = waits.Slept + 1, SleptMaxMs = Math.Max(waits.SleptMaxMs, ms) };
+                }
+                else if (after.Involuntary > before.Involuntary)
+                {
+                    waits = waits with { Preempted = waits.Preempted + 1, PreemptedMaxMs = Math.Max(waits.PreemptedMaxMs, ms) };
+                }
+                else
+                {
+                    waits = waits with { NeitherMaxMs = Math.Max(waits.NeitherMaxMs, ms) };
+                }
+
                 Interlocked.Increment(ref searches);
                 q = (q + 1) % QueryCount;
             }
@@ -198,7 +226,7 @@ public static class MaintenanceLatency
         searcher.Join();
         writer?.Join();
         Collections gc = Collections.Since(gen0, gen1, gen2, pause, searchBytes, searches);
-        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc);
+        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc, waits);
     }
 
     /// <summary>One write per <see cref="SearchesPerWrite"/> searches: removes a random live item, then adds a new one, in turn.</summary>
@@ -265,6 +293,34 @@ public static class MaintenanceLatency
             values.Sort();
             double At(double p) => values[Math.Min(values.Count - 1, (int)Math.Ceiling(p * values.Count) - 1)];
             return new LatencySummary(values.Count, At(0.50), At(0.99), At(0.999), values[^1]);
+        }
+    }
+
+    /// <summary>The calling thread's context switches so far (Linux <c>getrusage(RUSAGE_THREAD)</c>; zeros elsewhere).</summary>
+    private readonly record struct ThreadSwitches(long Voluntary, long Involuntary)
+    {
+        private const int RusageThread = 1;
+
+        public static ThreadSwitches Read()
+        {
+            if (!OperatingSystem.IsLinux() || GetResourceUsage(RusageThread, out ResourceUsage usage) != 0)
+            {
+                return default;
+            }
+
+            return new ThreadSwitches(usage.VoluntarySwitches, usage.InvoluntarySwitches);
+        }
+
+        [System.Runtime.InteropServices.DllImport("libc", EntryPoint = "getrusage")]
+        private static extern int GetResourceUsage(int who, out ResourceUsage usage);
+
+        // struct rusage on 64-bit Linux: two timevals, then fourteen longs, the last two the switch counts.
+        [System.Runtime.InteropServices.StructLayout(System.Runtime.InteropServices.LayoutKind.Sequential)]
+        private struct ResourceUsage
+        {
+            public long UserSeconds, UserMicroseconds, SystemSeconds, SystemMicroseconds;
+            public long MaxResident, SharedText, UnsharedData, UnsharedStack, MinorFaults, MajorFaults, Swaps, BlockInputs, BlockOutputs, MessagesSent, MessagesReceived, Signals;
+            public long VoluntarySwitches, InvoluntarySwitches;
         }
     }
 }

@@ -58,6 +58,7 @@ internal sealed class StressVariant
     public static IReadOnlyList<string> Names { get; } =
     [
         "ExactFloat32", "ExactScalar", "ExactScalarRescored", "GraphFloat32", "GraphScalar", "GraphScalarRescored", "InvertedFileFloat32", "InvertedFileScalar",
+        "InvertedFileProductRescored",
     ];
 
     public static StressVariant Get(string name)
@@ -94,6 +95,10 @@ internal sealed class StressVariant
             "InvertedFileScalar" => new(name, () => Trained(new InvertedFileIndex(Dimension, Metric, ContractInvertedFileOptions.For(VectorEncoding.Scalar8Bit, Dimension))))
             {
                 WideSearchScansAll = true, ReportsExactDistances = false, Decodes = true, RecallFloor = 0.96, WideSearch = allLists,
+            },
+            "InvertedFileProductRescored" => new(name, () => Trained(new InvertedFileIndex(Dimension, Metric, ContractInvertedFileOptions.For(VectorEncoding.ProductCodes, Dimension, rescoreDepth: 50))))
+            {
+                WideSearchScansAll = true, RanksByReportedDistance = false, RecallFloor = 0.99, WideSearch = allLists,
             },
             _ => throw new ArgumentException($"no stress variant '{name}'", nameof(name)),
         };
