@@ -53,17 +53,18 @@ internal static class BuildCommand
         return command;
     }
 
-    public static BuildReport Run(CommandContext context, ParseResult parsed, IndexSpec spec, string dataPath, DataFormat format, string? idsPath, string outputPath, int? trainingRows, int rowsPerBlock)
+    public static BuildReport Run(CommandContext context, ParseResult parsed, IndexSpec spec, string dataPath, DataFormat format, string? idsPath, string outputPath, int? trainingRows, int rowsPerBlock, long? maxRows = null)
     {
         CancellationToken stop = context.Stop;
         (int dimension, long count) = VectorFiles.Shape(dataPath, format, stop);
+        count = Math.Min(count, maxRows ?? count);
         if (count > int.MaxValue)
         {
             throw new InputFileException(dataPath, $"it holds {count:N0} rows; an index holds at most {int.MaxValue:N0}");
         }
 
         long[]? ids = idsPath is null ? null : VectorFiles.ReadIds(idsPath, stop);
-        if (ids is not null && ids.Length != count)
+        if (ids is not null && ids.Length < count)
         {
             throw new InputFileException(idsPath!, $"it holds {ids.Length:N0} ids; the data file '{dataPath}' has {count:N0} rows");
         }

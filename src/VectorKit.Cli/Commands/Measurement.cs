@@ -45,7 +45,7 @@ internal sealed class Measurement : IDisposable
             Shared.TopK(),
             Shared.Threads());
 
-    public static Measurement Open(CommandContext context, ParseResult parsed, string indexPath, string queriesPath, string? truthPath, string? dataPath, string? idsPath, long? queryCount, DataFormat format, int k)
+    public static Measurement Open(CommandContext context, ParseResult parsed, string indexPath, string queriesPath, string? truthPath, string? dataPath, string? idsPath, long? queryCount, DataFormat format, int k, long? maxDataRows = null)
     {
         CancellationToken stop = context.Stop;
         if ((truthPath is null) == (dataPath is null))
@@ -95,7 +95,7 @@ internal sealed class Measurement : IDisposable
             }
             else
             {
-                using Indexes.Exact.ExactIndex exact = SearchCommand.LoadExact(context, parsed, dataPath!, format, idsPath, index.Metric, stop);
+                using Indexes.Exact.ExactIndex exact = SearchCommand.LoadExact(context, parsed, dataPath!, format, idsPath, index.Metric, stop, maxDataRows);
                 Shared.CheckDimension(queriesPath, dimension, exact, $"the data file '{dataPath}'");
                 using ProgressLine progress = context.Progress(parsed, "exact search", "queries", queries.Count);
                 truth = GroundTruth.Compute(exact, queries.Data, k, new Progress<int>(_ => { }), stop);

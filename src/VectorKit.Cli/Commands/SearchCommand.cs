@@ -113,11 +113,12 @@ internal static class SearchCommand
     }
 
     /// <summary>The data file in an exact index (the tool's reference search).</summary>
-    public static ExactIndex LoadExact(CommandContext context, ParseResult parsed, string dataPath, DataFormat format, string? idsPath, Distance.DistanceMetric metric, CancellationToken stop)
+    public static ExactIndex LoadExact(CommandContext context, ParseResult parsed, string dataPath, DataFormat format, string? idsPath, Distance.DistanceMetric metric, CancellationToken stop, long? maxRows = null)
     {
         (int dimension, long count) = VectorFiles.Shape(dataPath, format, stop);
+        count = Math.Min(count, maxRows ?? count);
         long[]? ids = idsPath is null ? null : VectorFiles.ReadIds(idsPath, stop);
-        if (ids is not null && ids.Length != count)
+        if (ids is not null && ids.Length < count)
         {
             throw new InputFileException(idsPath!, $"it holds {ids.Length:N0} ids; the data file '{dataPath}' has {count:N0} rows");
         }
