@@ -74,7 +74,20 @@ internal static class VectorFiles
         return Guard(path, () =>
         {
             using VectorReader reader = OpenReader(path, actual);
-            return (reader.Dimension, reader.Count);
+            if (reader.Count >= 0)
+            {
+                return (reader.Dimension, reader.Count);
+            }
+
+            // The length does not say the count (a compressed stream, or a length that is not a whole number of
+            // rows): read through once; a truncated or ragged file fails here with the row and the byte offset.
+            long rows = 0;
+            foreach (VectorSet block in reader.ReadBlocks(8192, cancellationToken))
+            {
+                rows += block.Count;
+            }
+
+            return (reader.Dimension, rows);
         });
     }
 

@@ -56,6 +56,12 @@ internal static class BuildCommand
     public static BuildReport Run(CommandContext context, ParseResult parsed, IndexSpec spec, string dataPath, DataFormat format, string? idsPath, string outputPath, int? trainingRows, int rowsPerBlock, long? maxRows = null)
     {
         CancellationToken stop = context.Stop;
+        string outputFolder = Path.GetDirectoryName(Path.GetFullPath(outputPath)) ?? ".";
+        if (!Directory.Exists(outputFolder))
+        {
+            throw new OutputFileException(Path.GetFullPath(outputPath), $"its folder '{outputFolder}' does not exist");
+        }
+
         (int dimension, long count) = VectorFiles.Shape(dataPath, format, stop);
         count = Math.Min(count, maxRows ?? count);
         if (count > int.MaxValue)

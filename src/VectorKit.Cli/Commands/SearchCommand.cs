@@ -65,6 +65,13 @@ internal static class SearchCommand
             throw new UsageException("--first-query and --query-count must not be negative");
         }
 
+        string outputFolder = Path.GetDirectoryName(Path.GetFullPath(job.OutputPath)) ?? ".";
+        if (!Directory.Exists(outputFolder))
+        {
+            // Checked before any work, so a long load does not end in this failure.
+            throw new OutputFileException(Path.GetFullPath(job.OutputPath), $"its folder '{outputFolder}' does not exist");
+        }
+
         Func<long, bool>? filter = Filter(job.OnlyIdsPath, job.IdRange, stop);
         SearchOptions options = Shared.SearchOptions(job.SearchWidth, job.RescoreDepth, job.Threads, filter);
         (int queryDimension, long queryRows) = VectorFiles.Shape(job.QueriesPath, job.Format, stop);
