@@ -26,10 +26,11 @@ internal static class BuildCommand
         var codeBytes = new Option<int?>("--code-bytes") { Description = "Product codes: bytes per vector (must divide the dimension)." };
         var rescore = Shared.RescoreDepth();
         var seed = new Option<int?>("--seed") { Description = "Random seed for graph levels and k-means." };
+        var dataRows = Shared.DataRows();
         var block = new Option<int>("--rows-per-block") { Description = "Rows read and added at a time.", DefaultValueFactory = _ => 8192 };
         var command = new Command("build", "Build an index from a vector file and save it.")
         {
-            data, output, format, kind, storage, metric, ids, sample, links, buildWidth, width, lists, codeBytes, rescore, seed, block,
+            data, output, format, kind, storage, metric, ids, sample, links, buildWidth, width, lists, codeBytes, rescore, seed, dataRows, block,
         };
         command.SetAction(parsed =>
         {
@@ -46,7 +47,8 @@ internal static class BuildCommand
                 parsed.GetValue(seed));
             BuildReport report = Run(
                 context, parsed, spec, parsed.GetValue(data)!, Shared.ParseFormat(parsed.GetValue(format)!), parsed.GetValue(ids),
-                parsed.GetValue(output)!, parsed.GetValue(sample), Shared.Positive(parsed.GetValue(block), "--rows-per-block"));
+                parsed.GetValue(output)!, parsed.GetValue(sample), Shared.Positive(parsed.GetValue(block), "--rows-per-block"),
+                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"));
             context.Output.WriteLine($"built {report.Label} index of {report.Count:N0} vectors × {report.Dimension} in {Shared.Seconds(report.BuildTime)}; saved to {report.IndexPath} ({report.FileBytes:N0} bytes)");
             return ExitCodes.Success;
         });

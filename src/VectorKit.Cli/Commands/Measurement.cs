@@ -34,13 +34,14 @@ internal sealed class Measurement : IDisposable
 
     public int K { get; }
 
-    public static (Option<string> Index, Option<string> Queries, Option<string?> Truth, Option<string?> Data, Option<string?> Ids, Option<long?> Count, Option<string> Format, Option<int> K, Option<int> Threads) Options()
+    public static (Option<string> Index, Option<string> Queries, Option<string?> Truth, Option<string?> Data, Option<string?> Ids, Option<long?> Count, Option<long?> DataRows, Option<string> Format, Option<int> K, Option<int> Threads) Options()
         => (new Option<string>("--index") { Description = "The saved index to evaluate.", Required = true },
             new Option<string>("--queries", "-q") { Description = "The query vectors.", Required = true },
             new Option<string?>("--ground-truth") { Description = "The true neighbours of every query (.ivecs or integer .npy), at least k per query." },
             new Option<string?>("--data") { Description = "Instead of --ground-truth: the indexed vectors; the tool computes the true neighbours by exact search." },
             new Option<string?>("--ids") { Description = "With --data: item ids, one per data row (as given to build). Default: row numbers." },
             new Option<long?>("--query-count") { Description = "Use only the first N queries (exact ground truth costs queries × items distances)." },
+            Shared.DataRows(),
             Shared.DataFormatOption(),
             Shared.TopK(),
             Shared.Threads());

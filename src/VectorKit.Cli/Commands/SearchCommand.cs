@@ -19,6 +19,7 @@ internal static class SearchCommand
         var data = new Option<string?>("--data") { Description = "Instead of --index: search this vector file exactly (no index file needed)." };
         var ids = new Option<string?>("--ids") { Description = "With --data: item ids, one per data row. Default: row numbers." };
         var metric = new Option<string>("--metric") { Description = "With --data: squared-euclidean, inner-product or cosine.", DefaultValueFactory = _ => "squared-euclidean" };
+        var dataRows = Shared.DataRows();
         var queries = new Option<string>("--queries", "-q") { Description = "The query vectors.", Required = true };
         var output = new Option<string>("--output", "-o") { Description = "Results: name.ivecs (+ name.fvecs distances), name.npy (+ name.distances.npy), name.csv or name.jsonl.", Required = true };
         var outputFormat = new Option<string?>("--output-format") { Description = "ivecs, npy, csv or jsonl, when the output name does not say it." };
@@ -34,7 +35,7 @@ internal static class SearchCommand
         var block = new Option<int>("--queries-per-block") { Description = "Queries searched (in parallel) and written at a time.", DefaultValueFactory = _ => 4096 };
         var command = new Command("search", "Search the top-k neighbours of every query and write them to a file.")
         {
-            index, data, ids, metric, queries, output, outputFormat, format, k, width, rescore, threads, onlyIds, idRange, first, queryCount, block,
+            index, data, ids, metric, dataRows, queries, output, outputFormat, format, k, width, rescore, threads, onlyIds, idRange, first, queryCount, block,
         };
         command.SetAction(parsed =>
         {
@@ -43,7 +44,8 @@ internal static class SearchCommand
                 NeighborWriter.Detect(parsed.GetValue(output)!, parsed.GetValue(outputFormat)), Shared.ParseFormat(parsed.GetValue(format)!),
                 Shared.Positive(parsed.GetValue(k), "--k"), parsed.GetValue(width), parsed.GetValue(rescore), parsed.GetValue(threads),
                 parsed.GetValue(onlyIds), parsed.GetValue(idRange), parsed.GetValue(first), parsed.GetValue(queryCount),
-                Shared.Positive(parsed.GetValue(block), "--queries-per-block"));
+                Shared.Positive(parsed.GetValue(block), "--queries-per-block"),
+                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"));
             SearchSummary summary = Run(context, parsed, job);
             context.Output.WriteLine(string.Create(CultureInfo.InvariantCulture,
                 $"searched {summary.Queries:N0} queries (top {job.K}) in {summary.SearchTime.TotalSeconds:F2} s, {summary.Queries / Math.Max(summary.SearchTime.TotalSeconds, 1e-9):N0} queries/s; wrote {string.Join(", ", summary.Files)}"));
@@ -77,7 +79,7 @@ internal static class SearchCommand
         (int queryDimension, long queryRows) = VectorFiles.Shape(job.QueriesPath, job.Format, stop);
         using IVectorIndex index = job.IndexPath is not null
             ? VectorFiles.LoadIndex(job.IndexPath, stop)
-            : LoadExact(context, parsed, job.DataPath!, job.Format, job.IdsPath, job.Metric, stop);
+            : LoadExact(context, parsed, job.DataPath!, job.Format, job.IdsPath, job.Metric, stop, job.DataRows);
         Shared.CheckDimension(job.QueriesPath, queryDimension, index, job.IndexPath is not null ? $"the index '{job.IndexPath}'" : $"the data file '{job.DataPath}'");
         long first = Math.Min(job.FirstQuery, queryRows);
         long count = Math.Min(job.QueryCount ?? long.MaxValue, queryRows - first);
@@ -209,7 +211,8 @@ internal sealed record SearchJob(
     string? IdRange,
     long FirstQuery,
     long? QueryCount,
-    int QueriesPerBlock);
+    int QueriesPerBlock,
+    long? DataRows = null);
 
 /// <summary>What a <c>search</c> run did: queries answered, time spent inside the library's batch search, files written.</summary>
 internal sealed record SearchSummary(long Queries, TimeSpan SearchTime, IReadOnlyList<string> Files);

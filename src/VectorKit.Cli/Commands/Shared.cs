@@ -13,6 +13,14 @@ internal static class Shared
         DefaultValueFactory = _ => "auto",
     };
 
+    public static Option<long?> DataRows() => new("--data-rows")
+    {
+        Description = "Use only the first N rows of the data file (and of the --ids file).",
+    };
+
+    public static long? PositiveOrNull(long? value, string option)
+        => value is null or > 0 ? value : throw new UsageException($"{option} must be at least 1; got {value}");
+
     public static Option<int> TopK() => new("--k", "-k")
     {
         Description = "Neighbours per query (top-k).",
