@@ -61,6 +61,8 @@ internal static class Tool
     }
 
     /// <summary>The dotnet host that runs the tests, else the one on the PATH.</summary>
+    public static string HostPath => Host();
+
     private static string Host()
     {
         if (Path.GetFileNameWithoutExtension(Environment.ProcessPath) == "dotnet")
