@@ -12,11 +12,18 @@ internal static class CliApp
 
     public static readonly Option<bool> Verbose = new("--verbose") { Description = "Print stack traces of unexpected errors.", Recursive = true };
 
+    public static readonly Option<bool> UntrustedIndex = new("--untrusted-index")
+    {
+        Description = "Load index files with the library's caps for files from elsewhere (dimension, count, links, 2 GiB per section).",
+        Recursive = true,
+    };
+
     public static RootCommand BuildRoot(TextWriter output, TextWriter error)
     {
         var root = new RootCommand("vectorkit: offline batch nearest-neighbour jobs with VectorKit (build, search, evaluate, tune, inspect, plot).");
         root.Options.Add(Quiet);
         root.Options.Add(Verbose);
+        root.Options.Add(UntrustedIndex);
         var context = new CommandContext(output, error);
         root.Subcommands.Add(BuildCommand.Create(context));
         root.Subcommands.Add(SearchCommand.Create(context));

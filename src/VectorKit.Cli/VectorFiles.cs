@@ -204,8 +204,12 @@ internal static class VectorFiles
     }
 
     /// <summary>Loads a saved index; a damaged or foreign file becomes an <see cref="InputFileException"/> with the byte offset.</summary>
-    public static Indexes.IVectorIndex LoadIndex(string path, CancellationToken cancellationToken)
-        => Guard(path, () => IndexFile.Load(path, IndexLoadOptions.Untrusted, cancellationToken));
+    /// <remarks>
+    /// Checksums and structure are always verified; <paramref name="untrusted"/> adds the library's caps for files from
+    /// elsewhere, which also refuse legitimate indexes with sections over 2 GiB, so they are opt-in.
+    /// </remarks>
+    public static Indexes.IVectorIndex LoadIndex(string path, bool untrusted, CancellationToken cancellationToken)
+        => Guard(path, () => IndexFile.Load(path, untrusted ? IndexLoadOptions.Untrusted : IndexLoadOptions.Default, cancellationToken));
 
     /// <summary>Runs <paramref name="read"/>, turning read failures into <see cref="InputFileException"/>.</summary>
     public static T Guard<T>(string path, Func<T> read)

@@ -22,7 +22,7 @@ internal static class InspectCommand
         {
             string path = parsed.GetValue(file)!;
             bool check = parsed.GetValue(verify);
-            IndexFileSummary summary = VectorFiles.Guard(path, () => IndexFile.Inspect(path, check, IndexLoadOptions.Untrusted, context.Stop));
+            IndexFileSummary summary = VectorFiles.Guard(path, () => IndexFile.Inspect(path, check, parsed.GetValue(CliApp.UntrustedIndex) ? IndexLoadOptions.Untrusted : IndexLoadOptions.Default, context.Stop));
             string storage = Storage(summary);
             string checksums = summary.SectionsVerified ? "header and every section verified" : "header verified; sections not read (use --verify)";
             if (parsed.GetValue(json))

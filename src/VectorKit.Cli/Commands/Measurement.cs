@@ -59,7 +59,7 @@ internal sealed class Measurement : IDisposable
             throw new UsageException($"--query-count must be at least 1; got {queryCount}");
         }
 
-        IVectorIndex index = VectorFiles.LoadIndex(indexPath, stop);
+        IVectorIndex index = VectorFiles.LoadIndex(indexPath, parsed.GetValue(CliApp.UntrustedIndex), stop);
         try
         {
             (int dimension, long rows) = VectorFiles.Shape(queriesPath, format, stop);

@@ -78,7 +78,7 @@ internal static class SearchCommand
         SearchOptions options = Shared.SearchOptions(job.SearchWidth, job.RescoreDepth, job.Threads, filter);
         (int queryDimension, long queryRows) = VectorFiles.Shape(job.QueriesPath, job.Format, stop);
         using IVectorIndex index = job.IndexPath is not null
-            ? VectorFiles.LoadIndex(job.IndexPath, stop)
+            ? VectorFiles.LoadIndex(job.IndexPath, parsed.GetValue(CliApp.UntrustedIndex), stop)
             : LoadExact(context, parsed, job.DataPath!, job.Format, job.IdsPath, job.Metric, stop, job.DataRows);
         Shared.CheckDimension(job.QueriesPath, queryDimension, index, job.IndexPath is not null ? $"the index '{job.IndexPath}'" : $"the data file '{job.DataPath}'");
         long first = Math.Min(job.FirstQuery, queryRows);
