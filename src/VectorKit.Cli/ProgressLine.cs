@@ -56,9 +56,33 @@ internal sealed class ProgressLine : IDisposable
         }
     }
 
-    public void Advance(long count)
+    public void Advance(long count) => Show(Interlocked.Add(ref _done, count));
+
+    /// <summary>
+    /// A progress sink for one library call that reports "done so far" from worker threads (values may arrive out of
+    /// order): the line shows <paramref name="before"/> plus the largest value seen.
+    /// </summary>
+    public IProgress<int> Within(long before) => new Sink(this, before);
+
+    /// <summary>Moves the count to <paramref name="done"/> if that is further than it is.</summary>
+    public void AtLeast(long done)
     {
-        long done = Interlocked.Add(ref _done, count);
+        long seen = Interlocked.Read(ref _done);
+        while (done > seen)
+        {
+            long was = Interlocked.CompareExchange(ref _done, done, seen);
+            if (was == seen)
+            {
+                Show(done);
+                return;
+            }
+
+            seen = was;
+        }
+    }
+
+    private void Show(long done)
+    {
         if (_task is not null)
         {
             _task.Value = done;
@@ -93,6 +117,11 @@ internal sealed class ProgressLine : IDisposable
 
     private static string FormatSeconds(double seconds)
         => double.IsNaN(seconds) ? "?" : TimeSpan.FromSeconds(Math.Round(seconds)).ToString(seconds >= 3600 ? @"h\:mm\:ss" : @"m\:ss", CultureInfo.InvariantCulture);
+
+    private sealed class Sink(ProgressLine line, long before) : IProgress<int>
+    {
+        public void Report(int value) => line.AtLeast(before + value);
+    }
 
     /// <summary>Items per second since the step started.</summary>
     private sealed class RateColumn(string unit) : ProgressColumn

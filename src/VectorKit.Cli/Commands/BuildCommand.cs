@@ -119,7 +119,7 @@ internal static class BuildCommand
 
                 try
                 {
-                    index.AddRange(blockIds.AsSpan(0, blockSet.Count), blockSet.Data.AsSpan(0, blockSet.Count * dimension), cancellationToken: stop);
+                    index.AddRange(blockIds.AsSpan(0, blockSet.Count), blockSet.Data.AsSpan(0, blockSet.Count * dimension), progress.Within(row), stop);
                 }
                 catch (ArgumentException e)
                 {
@@ -127,7 +127,7 @@ internal static class BuildCommand
                 }
 
                 row += blockSet.Count;
-                progress.Advance(blockSet.Count);
+                progress.AtLeast(row);
             }
         }
 

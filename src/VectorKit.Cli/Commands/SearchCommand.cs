@@ -93,10 +93,10 @@ internal static class SearchCommand
                 foreach (VectorSet block in VectorFiles.ReadBlocks(job.QueriesPath, job.Format, first, count, job.QueriesPerBlock, stop))
                 {
                     clock.Start();
-                    BatchSearchResults results = index.SearchBatch(block.Data.AsSpan(0, block.Count * block.Dimension), job.K, options, cancellationToken: stop);
+                    BatchSearchResults results = index.SearchBatch(block.Data.AsSpan(0, block.Count * block.Dimension), job.K, options, progress.Within(writer.RowsWritten), stop);
                     clock.Stop();
                     writer.Write(results);
-                    progress.Advance(block.Count);
+                    progress.AtLeast(writer.RowsWritten);
                 }
             }
 
