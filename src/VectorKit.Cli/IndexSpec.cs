@@ -25,7 +25,8 @@ internal sealed record IndexSpec(
     int? Lists = null,
     int? CodeBytes = null,
     int? RescoreDepth = null,
-    int? Seed = null)
+    int? Seed = null,
+    bool ExternalFullVectors = false)
 {
     /// <summary>Whether the index must be trained on a sample before items are added.</summary>
     public bool NeedsTraining => Kind == IndexKindName.InvertedFile || Storage != VectorEncoding.Float32;
@@ -74,10 +75,39 @@ internal sealed record IndexSpec(
     public static string Label(IVectorIndex index) => $"{KindName(index)}, {StorageName(StorageOf(index))}";
 
     /// <summary>Creates the empty index; the library validates every setting (an invalid one becomes a usage error).</summary>
-    public VectorIndex Create(int dimension)
+    public VectorIndex Create(int dimension, IFullVectorSource? fullVectors = null)
     {
+        FullVectorLocation location = ExternalFullVectors ? FullVectorLocation.ExternalSource : FullVectorLocation.InIndexMemory;
         try
         {
+            if (fullVectors is not null)
+            {
+                return Kind switch
+                {
+                    IndexKindName.Exact => new ExactIndex(dimension, Metric, new ExactIndexOptions { Encoding = Storage, FullVectors = location, RescoreDepth = RescoreDepth ?? ExactIndexOptions.Default.RescoreDepth }, fullVectors),
+                    IndexKindName.Graph => new GraphIndex(dimension, Metric, new GraphIndexOptions
+                    {
+                        Encoding = Storage,
+                        FullVectors = location,
+                        RescoreDepth = RescoreDepth ?? GraphIndexOptions.Default.RescoreDepth,
+                        LinksPerNode = LinksPerNode ?? GraphIndexOptions.Default.LinksPerNode,
+                        BuildWidth = BuildWidth ?? GraphIndexOptions.Default.BuildWidth,
+                        SearchWidth = SearchWidth ?? GraphIndexOptions.Default.SearchWidth,
+                        Seed = Seed ?? GraphIndexOptions.Default.Seed,
+                    }, fullVectors),
+                    _ => new InvertedFileIndex(dimension, Metric, new InvertedFileOptions
+                    {
+                        Encoding = Storage,
+                        FullVectors = location,
+                        RescoreDepth = RescoreDepth ?? InvertedFileOptions.Default.RescoreDepth,
+                        ListCount = Lists ?? InvertedFileOptions.Default.ListCount,
+                        ProductCodeBytes = CodeBytes ?? InvertedFileOptions.Default.ProductCodeBytes,
+                        SearchWidth = SearchWidth ?? InvertedFileOptions.Default.SearchWidth,
+                        Seed = Seed ?? InvertedFileOptions.Default.Seed,
+                    }, fullVectors),
+                };
+            }
+
             return Kind switch
             {
                 IndexKindName.Exact => new ExactIndex(dimension, Metric, new ExactIndexOptions

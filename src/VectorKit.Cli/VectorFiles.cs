@@ -211,6 +211,57 @@ internal static class VectorFiles
     public static Indexes.IVectorIndex LoadIndex(string path, bool untrusted, CancellationToken cancellationToken)
         => Guard(path, () => IndexFile.Load(path, untrusted ? IndexLoadOptions.Untrusted : IndexLoadOptions.Default, cancellationToken));
 
+    /// <summary>A data file (.fvecs or float32 .npy) as the full-vector source of a compressed index that re-scores from a file.</summary>
+    public static FileVectorSource OpenFullVectors(string path, long[]? ids)
+    {
+        string name = path.ToLowerInvariant();
+        if (!name.EndsWith(".fvecs", StringComparison.Ordinal) && !name.EndsWith(".npy", StringComparison.Ordinal))
+        {
+            throw new UsageException($"full vectors are read from .fvecs or float32 .npy files; '{path}' is neither");
+        }
+
+        return Guard(path, () =>
+        {
+            try
+            {
+                return name.EndsWith(".npy", StringComparison.Ordinal) ? FileVectorSource.OpenNpy(path, ids) : FileVectorSource.OpenFvecs(path, ids);
+            }
+            catch (ArgumentException e)
+            {
+                throw new InputFileException(path, e.Message, e);
+            }
+        });
+    }
+
+    /// <summary>
+    /// Attaches <paramref name="fullVectorsPath"/> to an index saved with its full vectors in an external file; returns
+    /// the source (the caller disposes it after the index), or null when the index does not need one.
+    /// </summary>
+    public static FileVectorSource? AttachFullVectors(Indexes.IVectorIndex index, string indexPath, string? fullVectorsPath, long[]? ids)
+    {
+        if (index is not Indexes.IExternalFullVectors { ReadsFullVectorsExternally: true } external)
+        {
+            return fullVectorsPath is null ? null : throw new UsageException($"the index '{indexPath}' keeps its own full vectors; --full-vectors is not needed");
+        }
+
+        if (fullVectorsPath is null)
+        {
+            throw new UsageException($"the index '{indexPath}' re-scores with full vectors from an external file; give that file with --full-vectors");
+        }
+
+        FileVectorSource source = OpenFullVectors(fullVectorsPath, ids);
+        try
+        {
+            external.AttachFullVectors(source);
+            return source;
+        }
+        catch (ArgumentException e)
+        {
+            source.Dispose();
+            throw new InputFileException(fullVectorsPath, e.Message, e);
+        }
+    }
+
     /// <summary>Runs <paramref name="read"/>, turning read failures into <see cref="InputFileException"/>.</summary>
     public static T Guard<T>(string path, Func<T> read)
     {

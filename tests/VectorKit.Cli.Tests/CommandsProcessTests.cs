@@ -91,6 +91,23 @@ public sealed class CommandsProcessTests : IDisposable
         Assert.True(new FileInfo(Path.Combine(_folder, "histogram.png")).Length > 5_000);
     }
 
+    [Fact]
+    public void FullVectorsInTheDataFile_ReScoreLikeFullVectorsInTheIndex()
+    {
+        string[] common = ["--kind", "inverted-file", "--lists", "8", "--storage", "product-codes", "--code-bytes", "4", "--rescore-depth", "40"];
+        Run(["build", "--data", "data.fvecs", "-o", "kept.vkx", .. common]);
+        Run(["build", "--data", "data.fvecs", "-o", "external.vkx", "--full-vectors-in-data-file", .. common]);
+        Assert.True(new FileInfo(Path.Combine(_folder, "external.vkx")).Length < new FileInfo(Path.Combine(_folder, "kept.vkx")).Length);
+
+        Tool.Outcome missing = Tool.Run(_folder, "--quiet", "search", "--index", "external.vkx", "-q", "queries.fvecs", "-o", "none.ivecs");
+        Assert.Equal(2, missing.ExitCode);
+        Assert.Contains("--full-vectors", missing.Error, StringComparison.Ordinal);
+
+        Run("search", "--index", "kept.vkx", "-q", "queries.fvecs", "-o", "kept.ivecs");
+        Run("search", "--index", "external.vkx", "-q", "queries.fvecs", "-o", "external.ivecs", "--full-vectors", "data.fvecs");
+        Assert.Equal(TestFiles.ReadIvecs(Path.Combine(_folder, "kept.ivecs")), TestFiles.ReadIvecs(Path.Combine(_folder, "external.ivecs")));
+    }
+
     private Tool.Outcome Run(params string[] arguments)
     {
         Tool.Outcome o = Tool.Run(_folder, ["--quiet", .. arguments]);

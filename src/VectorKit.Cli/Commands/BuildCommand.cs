@@ -26,11 +26,12 @@ internal static class BuildCommand
         var codeBytes = new Option<int?>("--code-bytes") { Description = "Product codes: bytes per vector (must divide the dimension)." };
         var rescore = Shared.RescoreDepth();
         var seed = new Option<int?>("--seed") { Description = "Random seed for graph levels and k-means." };
+        var external = new Option<bool>("--full-vectors-in-data-file") { Description = "8-bit or product-code storage: keep no full vectors in the index; re-score from the data file (.fvecs or .npy), given again to search with --full-vectors." };
         var dataRows = Shared.DataRows();
         var block = new Option<int>("--rows-per-block") { Description = "Rows read and added at a time.", DefaultValueFactory = _ => 8192 };
         var command = new Command("build", "Build an index from a vector file and save it.")
         {
-            data, output, format, kind, storage, metric, ids, sample, links, buildWidth, width, lists, codeBytes, rescore, seed, dataRows, block,
+            data, output, format, kind, storage, metric, ids, sample, links, buildWidth, width, lists, codeBytes, rescore, seed, external, dataRows, block,
         };
         command.SetAction(parsed =>
         {
@@ -44,7 +45,8 @@ internal static class BuildCommand
                 parsed.GetValue(lists),
                 parsed.GetValue(codeBytes),
                 parsed.GetValue(rescore),
-                parsed.GetValue(seed));
+                parsed.GetValue(seed),
+                parsed.GetValue(external));
             BuildReport report = Run(
                 context, parsed, spec, parsed.GetValue(data)!, Shared.ParseFormat(parsed.GetValue(format)!), parsed.GetValue(ids),
                 parsed.GetValue(output)!, parsed.GetValue(sample), Shared.Positive(parsed.GetValue(block), "--rows-per-block"),
@@ -82,8 +84,14 @@ internal static class BuildCommand
             throw new UsageException($"--training-rows must be at least 1; got {trainingRows}");
         }
 
+        if (spec.ExternalFullVectors && maxRows is not null)
+        {
+            throw new UsageException("--full-vectors-in-data-file reads rows by their place in the whole data file; it does not go with --data-rows");
+        }
+
         var clock = Stopwatch.StartNew();
-        using VectorIndex index = spec.Create(dimension);
+        using FileVectorSource? fullVectors = spec.ExternalFullVectors ? VectorFiles.OpenFullVectors(dataPath, ids) : null;
+        using VectorIndex index = spec.Create(dimension, fullVectors);
         if (spec.NeedsTraining)
         {
             int rows = (int)Math.Min(count, trainingRows ?? 100_000);

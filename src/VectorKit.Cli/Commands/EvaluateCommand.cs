@@ -11,19 +11,21 @@ internal static class EvaluateCommand
     public static Command Create(CommandContext context)
     {
         var (index, queries, truth, data, ids, count, dataRows, format, k, threads) = Measurement.Options();
+        var fullVectors = Measurement.FullVectorsOption();
         var width = Shared.SearchWidth();
         var json = new Option<bool>("--json") { Description = "Print the report as JSON (for scripts) instead of a table." };
         var report = new Option<string?>("--report") { Description = "Also write the JSON report to this file (input of 'plot recall-histogram')." };
         var command = new Command("evaluate", "Measure recall@k, its distribution over queries, queries/s, memory and build time of a saved index.")
         {
-            index, queries, truth, data, ids, count, dataRows, format, k, threads, width, json, report,
+            index, queries, truth, data, ids, count, dataRows, format, k, threads, fullVectors, width, json, report,
         };
         command.SetAction(parsed =>
         {
             using Measurement measurement = Measurement.Open(
                 context, parsed, parsed.GetValue(index)!, parsed.GetValue(queries)!, parsed.GetValue(truth), parsed.GetValue(data), parsed.GetValue(ids),
                 parsed.GetValue(count), Shared.ParseFormat(parsed.GetValue(format)!), Shared.Positive(parsed.GetValue(k), "--k"),
-                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"));
+                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"),
+                parsed.GetValue(fullVectors));
             MeasuredPoint point = measurement.Measure(parsed.GetValue(width), parsed.GetValue(threads), context.Stop);
             TimeSpan? build = BuildReport.TryReadBuildTime(Path.GetFullPath(measurement.IndexPath));
             byte[] document = Json(measurement, point, build);

@@ -24,6 +24,8 @@ internal sealed class Measurement : IDisposable
         K = k;
     }
 
+    private FileVectorSource? _source;
+
     public string IndexPath { get; }
 
     public IVectorIndex Index { get; }
@@ -46,7 +48,9 @@ internal sealed class Measurement : IDisposable
             Shared.TopK(),
             Shared.Threads());
 
-    public static Measurement Open(CommandContext context, ParseResult parsed, string indexPath, string queriesPath, string? truthPath, string? dataPath, string? idsPath, long? queryCount, DataFormat format, int k, long? maxDataRows = null)
+    public static Option<string?> FullVectorsOption() => new("--full-vectors") { Description = "The data file an index built with --full-vectors-in-data-file re-scores from (ids from --ids)." };
+
+    public static Measurement Open(CommandContext context, ParseResult parsed, string indexPath, string queriesPath, string? truthPath, string? dataPath, string? idsPath, long? queryCount, DataFormat format, int k, long? maxDataRows = null, string? fullVectorsPath = null)
     {
         CancellationToken stop = context.Stop;
         if ((truthPath is null) == (dataPath is null))
@@ -60,8 +64,10 @@ internal sealed class Measurement : IDisposable
         }
 
         IVectorIndex index = VectorFiles.LoadIndex(indexPath, parsed.GetValue(CliApp.UntrustedIndex), stop);
+        FileVectorSource? source = null;
         try
         {
+            source = VectorFiles.AttachFullVectors(index, indexPath, fullVectorsPath, idsPath is null ? null : VectorFiles.ReadIds(idsPath, stop));
             (int dimension, long rows) = VectorFiles.Shape(queriesPath, format, stop);
             Shared.CheckDimension(queriesPath, dimension, index, $"the index '{indexPath}'");
             long take = Math.Min(rows, queryCount ?? rows);
@@ -103,11 +109,12 @@ internal sealed class Measurement : IDisposable
                 progress.Advance(queries.Count);
             }
 
-            return new Measurement(indexPath, index, queries, truth, k);
+            return new Measurement(indexPath, index, queries, truth, k) { _source = source };
         }
         catch
         {
             index.Dispose();
+            source?.Dispose();
             throw;
         }
     }
@@ -136,5 +143,9 @@ internal sealed class Measurement : IDisposable
         return new MeasuredPoint(IndexSpec.Label(Index), width, K, Queries.Count, recall, perQuery, clock.Elapsed, threads == -1 ? Environment.ProcessorCount : threads);
     }
 
-    public void Dispose() => Index.Dispose();
+    public void Dispose()
+    {
+        Index.Dispose();
+        _source?.Dispose();
+    }
 }

@@ -17,7 +17,8 @@ internal static class SearchCommand
     {
         var index = new Option<string?>("--index") { Description = "A saved index to search." };
         var data = new Option<string?>("--data") { Description = "Instead of --index: search this vector file exactly (no index file needed)." };
-        var ids = new Option<string?>("--ids") { Description = "With --data: item ids, one per data row. Default: row numbers." };
+        var ids = new Option<string?>("--ids") { Description = "With --data or --full-vectors: item ids, one per row of that file. Default: row numbers." };
+        var fullVectors = new Option<string?>("--full-vectors") { Description = "The data file an index built with --full-vectors-in-data-file re-scores from." };
         var metric = new Option<string>("--metric") { Description = "With --data: squared-euclidean, inner-product or cosine.", DefaultValueFactory = _ => "squared-euclidean" };
         var dataRows = Shared.DataRows();
         var queries = new Option<string>("--queries", "-q") { Description = "The query vectors.", Required = true };
@@ -35,7 +36,7 @@ internal static class SearchCommand
         var block = new Option<int>("--queries-per-block") { Description = "Queries searched (in parallel) and written at a time.", DefaultValueFactory = _ => 4096 };
         var command = new Command("search", "Search the top-k neighbours of every query and write them to a file.")
         {
-            index, data, ids, metric, dataRows, queries, output, outputFormat, format, k, width, rescore, threads, onlyIds, idRange, first, queryCount, block,
+            index, data, ids, fullVectors, metric, dataRows, queries, output, outputFormat, format, k, width, rescore, threads, onlyIds, idRange, first, queryCount, block,
         };
         command.SetAction(parsed =>
         {
@@ -45,7 +46,8 @@ internal static class SearchCommand
                 Shared.Positive(parsed.GetValue(k), "--k"), parsed.GetValue(width), parsed.GetValue(rescore), parsed.GetValue(threads),
                 parsed.GetValue(onlyIds), parsed.GetValue(idRange), parsed.GetValue(first), parsed.GetValue(queryCount),
                 Shared.Positive(parsed.GetValue(block), "--queries-per-block"),
-                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"));
+                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"),
+                parsed.GetValue(fullVectors));
             SearchSummary summary = Run(context, parsed, job);
             context.Output.WriteLine(string.Create(CultureInfo.InvariantCulture,
                 $"searched {summary.Queries:N0} queries (top {job.K}) in {summary.SearchTime.TotalSeconds:F2} s, {summary.Queries / Math.Max(summary.SearchTime.TotalSeconds, 1e-9):N0} queries/s; wrote {string.Join(", ", summary.Files)}"));
@@ -80,6 +82,8 @@ internal static class SearchCommand
         using IVectorIndex index = job.IndexPath is not null
             ? VectorFiles.LoadIndex(job.IndexPath, parsed.GetValue(CliApp.UntrustedIndex), stop)
             : LoadExact(context, parsed, job.DataPath!, job.Format, job.IdsPath, job.Metric, stop, job.DataRows);
+        using IO.FileVectorSource? source = job.IndexPath is null ? null
+            : VectorFiles.AttachFullVectors(index, job.IndexPath, job.FullVectorsPath, job.IdsPath is null ? null : VectorFiles.ReadIds(job.IdsPath, stop));
         Shared.CheckDimension(job.QueriesPath, queryDimension, index, job.IndexPath is not null ? $"the index '{job.IndexPath}'" : $"the data file '{job.DataPath}'");
         long first = Math.Min(job.FirstQuery, queryRows);
         long count = Math.Min(job.QueryCount ?? long.MaxValue, queryRows - first);
@@ -212,7 +216,8 @@ internal sealed record SearchJob(
     long FirstQuery,
     long? QueryCount,
     int QueriesPerBlock,
-    long? DataRows = null);
+    long? DataRows = null,
+    string? FullVectorsPath = null);
 
 /// <summary>What a <c>search</c> run did: queries answered, time spent inside the library's batch search, files written.</summary>
 internal sealed record SearchSummary(long Queries, TimeSpan SearchTime, IReadOnlyList<string> Files);

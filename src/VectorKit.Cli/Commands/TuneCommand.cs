@@ -17,13 +17,14 @@ internal static class TuneCommand
     public static Command Create(CommandContext context)
     {
         var (index, queries, truth, data, ids, count, dataRows, format, k, threads) = Measurement.Options();
+        var fullVectors = Measurement.FullVectorsOption();
         var target = new Option<double>("--target-recall") { Description = "The recall@k to reach (0 to 1).", DefaultValueFactory = _ => 0.95 };
         var widths = new Option<string?>("--widths") { Description = "Comma-separated search widths to try, in increasing order. Default: a ladder suited to the kind." };
         var all = new Option<bool>("--whole-ladder") { Description = "Measure every width of the ladder (for plots) instead of stopping at the first that meets the target." };
         var report = new Option<string?>("--report") { Description = "Write every measured point as JSON to this file (input of 'plot recall-curves')." };
         var command = new Command("tune", "Sweep the search width of a saved index and pick the smallest that reaches a recall target (not stored in the index: pass it to search --search-width).")
         {
-            index, queries, truth, data, ids, count, dataRows, format, k, threads, target, widths, all, report,
+            index, queries, truth, data, ids, count, dataRows, format, k, threads, fullVectors, target, widths, all, report,
         };
         command.SetAction(parsed =>
         {
@@ -36,7 +37,8 @@ internal static class TuneCommand
             using Measurement m = Measurement.Open(
                 context, parsed, parsed.GetValue(index)!, parsed.GetValue(queries)!, parsed.GetValue(truth), parsed.GetValue(data), parsed.GetValue(ids),
                 parsed.GetValue(count), Shared.ParseFormat(parsed.GetValue(format)!), Shared.Positive(parsed.GetValue(k), "--k"),
-                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"));
+                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"),
+                parsed.GetValue(fullVectors));
             int[] ladder = Ladder(m, parsed.GetValue(widths));
             var points = new List<MeasuredPoint>();
             MeasuredPoint? chosen = null;
