@@ -18,7 +18,8 @@ internal static class BuildCommand
         var storage = new Option<string>("--storage") { Description = "float32, 8bit or product-codes (inverted file only).", DefaultValueFactory = _ => "float32" };
         var metric = new Option<string>("--metric") { Description = "squared-euclidean, inner-product or cosine.", DefaultValueFactory = _ => "squared-euclidean" };
         var ids = new Option<string?>("--ids") { Description = "Item ids, one per data row (.ivecs or .npy with one column, or text with one id per line). Default: row numbers from 0." };
-        var sample = new Option<int?>("--training-rows") { Description = "Rows used to train inverted-file lists and 8-bit or product codes: the first N rows of the file. Default: min(rows, 100,000)." };
+        var sample = new Option<int?>("--training-rows") { Description = "Rows used to train inverted-file lists and 8-bit or product codes. Default: min(rows, 100,000)." };
+        var spread = new Option<string>("--training-pick") { Description = "Which rows train: 'first' (the first N; no extra read) or 'spread' (every (rows/N)-th row; one extra pass over the file, for files sorted by category).", DefaultValueFactory = _ => "first" };
         var links = new Option<int?>("--links-per-node") { Description = "Graph: links per node." };
         var buildWidth = new Option<int?>("--build-width") { Description = "Graph: candidates kept while linking a new node." };
         var width = new Option<int?>("--search-width") { Description = "Default search width stored in the index (graph: candidates kept; inverted file: lists probed)." };
@@ -31,7 +32,7 @@ internal static class BuildCommand
         var block = new Option<int>("--rows-per-block") { Description = "Rows read and added at a time.", DefaultValueFactory = _ => 8192 };
         var command = new Command("build", "Build an index from a vector file and save it.")
         {
-            data, output, format, kind, storage, metric, ids, sample, links, buildWidth, width, lists, codeBytes, rescore, seed, external, dataRows, block,
+            data, output, format, kind, storage, metric, ids, sample, spread, links, buildWidth, width, lists, codeBytes, rescore, seed, external, dataRows, block,
         };
         command.SetAction(parsed =>
         {
@@ -50,14 +51,20 @@ internal static class BuildCommand
             BuildReport report = Run(
                 context, parsed, spec, parsed.GetValue(data)!, Shared.ParseFormat(parsed.GetValue(format)!), parsed.GetValue(ids),
                 parsed.GetValue(output)!, parsed.GetValue(sample), Shared.Positive(parsed.GetValue(block), "--rows-per-block"),
-                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"));
+                Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"),
+                parsed.GetValue(spread) switch
+                {
+                    "first" => false,
+                    "spread" => true,
+                    var other => throw new UsageException($"--training-pick is '{other}'; expected first or spread"),
+                });
             context.Output.WriteLine($"built {report.Label} index of {report.Count:N0} vectors × {report.Dimension} in {Shared.Seconds(report.BuildTime)}; saved to {report.IndexPath} ({report.FileBytes:N0} bytes)");
             return ExitCodes.Success;
         });
         return command;
     }
 
-    public static BuildReport Run(CommandContext context, ParseResult parsed, IndexSpec spec, string dataPath, DataFormat format, string? idsPath, string outputPath, int? trainingRows, int rowsPerBlock, long? maxRows = null)
+    public static BuildReport Run(CommandContext context, ParseResult parsed, IndexSpec spec, string dataPath, DataFormat format, string? idsPath, string outputPath, int? trainingRows, int rowsPerBlock, long? maxRows = null, bool spreadSample = false)
     {
         CancellationToken stop = context.Stop;
         string outputFolder = Path.GetDirectoryName(Path.GetFullPath(outputPath)) ?? ".";
@@ -95,13 +102,31 @@ internal static class BuildCommand
         if (spec.NeedsTraining)
         {
             int rows = (int)Math.Min(count, trainingRows ?? 100_000);
-            context.Error.WriteLine($"training on the first {rows:N0} rows...");
+            // 'spread' takes rows 0, stride, 2·stride, ... so a file sorted by category still trains on every part of it.
+            long stride = spreadSample ? Math.Max(1, count / rows) : 1;
+            if (!parsed.GetValue(CliApp.Quiet))
+            {
+                context.Error.WriteLine(spreadSample ? $"training on {rows:N0} rows, one in every {stride:N0}..." : $"training on the first {rows:N0} rows...");
+            }
+
             var sample = new float[(long)rows * dimension];
             int filled = 0;
-            foreach (VectorSet blockSet in VectorFiles.ReadBlocks(dataPath, format, 0, rows, rowsPerBlock, stop))
+            long at = 0;
+            foreach (VectorSet blockSet in VectorFiles.ReadBlocks(dataPath, format, 0, spreadSample ? count : rows, rowsPerBlock, stop))
             {
-                blockSet.Data.AsSpan(0, blockSet.Count * dimension).CopyTo(sample.AsSpan(filled * dimension));
-                filled += blockSet.Count;
+                for (int i = 0; i < blockSet.Count && filled < rows; i++, at++)
+                {
+                    if (at % stride == 0)
+                    {
+                        blockSet.Row(i).CopyTo(sample.AsSpan(filled * dimension));
+                        filled++;
+                    }
+                }
+
+                if (filled == rows)
+                {
+                    break;
+                }
             }
 
             try

@@ -76,6 +76,7 @@ internal static class EvaluateCommand
         table.AddRow($"queries/s (batch, {p.Threads} threads)", F(p.QueriesPerSecond, "N0"));
         table.AddRow("search time", Shared.Seconds(p.SearchTime));
         table.AddRow("index memory", $"{m.Index.MemoryBytes:N0} bytes ({F((double)m.Index.MemoryBytes / Math.Max(1, m.Index.Count), "N0")} per vector)");
+        table.AddRow("process peak memory", $"{PeakBytes():N0} bytes");
         table.AddRow("build time", build is { } b ? Shared.Seconds(b) : "unknown (no .build.json beside the index)");
         context.Tables().Write(table);
     }
@@ -121,6 +122,7 @@ internal static class EvaluateCommand
             json.WriteNumber("searchSeconds", Math.Round(p.SearchTime.TotalSeconds, 4));
             json.WriteNumber("threads", p.Threads);
             json.WriteNumber("memoryBytes", m.Index.MemoryBytes);
+            json.WriteNumber("processPeakBytes", PeakBytes());
             if (build is { } b)
             {
                 json.WriteNumber("buildSeconds", Math.Round(b.TotalSeconds, 3));
@@ -134,6 +136,12 @@ internal static class EvaluateCommand
         }
 
         return buffer.ToArray();
+    }
+
+    private static long PeakBytes()
+    {
+        using var self = System.Diagnostics.Process.GetCurrentProcess();
+        return self.PeakWorkingSet64;
     }
 
     private static string F(double value, string format) => value.ToString(format, CultureInfo.InvariantCulture);
