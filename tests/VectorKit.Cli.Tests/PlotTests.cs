@@ -51,6 +51,34 @@ public sealed class PlotTests : IDisposable
         Assert.True(bar > 5_000, $"only {bar} bar pixels");
     }
 
+    [Fact]
+    public void RerankStages_FromACalibrationReportsJson_AreDrawnThroughTheProcess()
+    {
+        // A real calibration report: a graph index and a scorer that re-weighs the dimensions, calibrated by the library.
+        const int dimension = 8, items = 2_000;
+        var random = new Random(5);
+        float[] vectors = [.. Enumerable.Range(0, items * dimension).Select(_ => (float)(random.NextDouble() - 0.5))];
+        using var index = new VectorKit.Indexes.Graph.GraphIndex(dimension, VectorKit.Distance.DistanceMetric.InnerProduct);
+        index.AddRange([.. Enumerable.Range(0, items).Select(i => (long)i)], vectors);
+        var options = new VectorKit.Reranking.CalibrationOptions { TargetRecall = 0.9, FinalCount = 5, MaxUncertainty = 0.1, Seed = 2 };
+        float[][] sample = [.. Enumerable.Range(0, VectorKit.Reranking.RerankingCalibration.RequiredSampleSize(options))
+            .Select(_ => Enumerable.Range(0, dimension).Select(_ => (float)(random.NextDouble() - 0.5)).ToArray())];
+        VectorKit.Reranking.CalibrationReport report = VectorKit.Reranking.RerankingCalibration.Calibrate(index, new WeighedScorer(vectors, dimension), sample, options);
+        File.WriteAllText(Path.Combine(_folder, "calibration.json"), report.ToJson());
+        Tool.Outcome o = Tool.Run(_folder, "--quiet", "plot", "rerank-stages", "calibration.json", "-o", "stages.png");
+        Assert.True(o.ExitCode == 0, o.Error);
+        using SKBitmap image = Decode(Path.Combine(_folder, "stages.png"));
+        Assert.Equal(1000, image.Width);
+
+        // One bar per stage on a 0–1.1 axis; each stage's recall is well above zero, so the bars fill much of the plot.
+        Assert.True(report.Stages.Count >= 2);
+        Assert.True(CountNear(image, new SKColor(0x1F, 0x77, 0xB4)) > 10_000 * report.Stages.Count);
+        File.WriteAllText(Path.Combine(_folder, "broken.json"), "{\"Stages\": 3}");
+        Tool.Outcome broken = Tool.Run(_folder, "--quiet", "plot", "rerank-stages", "broken.json", "-o", "broken.png");
+        Assert.Equal(3, broken.ExitCode);
+        Assert.False(File.Exists(Path.Combine(_folder, "broken.png")));
+    }
+
     private static SKBitmap Decode(string path)
     {
         Assert.True(File.Exists(path));
@@ -74,5 +102,27 @@ public sealed class PlotTests : IDisposable
         }
 
         return count;
+    }
+
+    /// <summary>A pairwise score that weighs the second half of the dimensions three times as much as the first.</summary>
+    private sealed class WeighedScorer(float[] items, int dimension) : VectorKit.Reranking.PairwiseScorer<float[]>
+    {
+        public override void WriteRetrievalVector(float[] query, Span<float> destination) => query.CopyTo(destination);
+
+        public override int Score(float[] query, ReadOnlySpan<long> candidateIds, Span<float> scores)
+        {
+            for (int i = 0; i < candidateIds.Length; i++)
+            {
+                float sum = 0;
+                for (int j = 0; j < dimension; j++)
+                {
+                    sum += query[j] * items[((int)candidateIds[i] * dimension) + j] * (j < dimension / 2 ? 1f : 3f);
+                }
+
+                scores[i] = sum;
+            }
+
+            return candidateIds.Length;
+        }
     }
 }

@@ -31,8 +31,19 @@ internal static class PlotCommand
             context.Output.WriteLine($"wrote {path}");
             return ExitCodes.Success;
         });
+        var calibration = new Argument<string>("report") { Description = "A calibration report saved from CalibrationReport.ToJson()." };
+        var stagesOutput = new Option<string>("--output", "-o") { Description = "The PNG file to write.", Required = true };
+        var stages = new Command("rerank-stages", "Recall after each stage of a re-ranking calibration report, with its confidence interval and the loss at each stage.") { calibration, stagesOutput };
+        stages.SetAction(parsed =>
+        {
+            string path = parsed.GetValue(stagesOutput)!;
+            DrawStages(ReadStages(parsed.GetValue(calibration)!), path);
+            context.Output.WriteLine($"wrote {path}");
+            return ExitCodes.Success;
+        });
         command.Subcommands.Add(curves);
         command.Subcommands.Add(histogram);
+        command.Subcommands.Add(stages);
         return command;
     }
 
@@ -81,6 +92,74 @@ internal static class PlotCommand
         plot.YLabel("queries");
         plot.Axes.Margins(bottom: 0);
         Save(plot, path);
+    }
+
+    public sealed record Stage(string Name, int Depth, double Recall, double RecallLow, double RecallHigh);
+
+    /// <summary>One bar per stage at its recall, a vertical line over its confidence interval, and the loss from the stage before written above it.</summary>
+    public static void DrawStages(IReadOnlyList<Stage> stages, string path)
+    {
+        var plot = new ScottPlot.Plot();
+        double[] positions = [.. Enumerable.Range(0, stages.Count).Select(i => (double)i)];
+        var bars = plot.Add.Bars(positions, [.. stages.Select(s => s.Recall)]);
+        foreach (var bar in bars.Bars)
+        {
+            bar.Size = 0.6;
+        }
+
+        for (int i = 0; i < stages.Count; i++)
+        {
+            var interval = plot.Add.Line(i, stages[i].RecallLow, i, stages[i].RecallHigh);
+            interval.LineWidth = 3;
+            interval.LineColor = ScottPlot.Colors.Black;
+            string loss = i == 0 ? "" : $"\nloss {(stages[i - 1].Recall - stages[i].Recall).ToString("F4", CultureInfo.InvariantCulture)}";
+            var label = plot.Add.Text($"{stages[i].Recall.ToString("F4", CultureInfo.InvariantCulture)}{loss}", i, stages[i].RecallHigh);
+            label.LabelAlignment = ScottPlot.Alignment.LowerCenter;
+        }
+
+        plot.Axes.Bottom.SetTicks(positions, [.. stages.Select(s => $"{s.Name}\n(depth {s.Depth})")]);
+        plot.Title("Recall after each re-ranking stage (bars: held-out estimate; lines: confidence interval)");
+        plot.YLabel("recall");
+        plot.Axes.SetLimitsY(0, 1.1);
+        Save(plot, path);
+    }
+
+    private static IReadOnlyList<Stage> ReadStages(string path) => VectorFiles.Guard<IReadOnlyList<Stage>>(path, () =>
+    {
+        string[] names = ["Retrieval", "ExactRescoring", "PairwiseScoring", "ExhaustiveScoring"];
+        try
+        {
+            using JsonDocument document = JsonDocument.Parse(File.ReadAllBytes(path));
+            JsonElement[] stages = [.. Property(document.RootElement, "Stages").EnumerateArray()];
+            if (stages.Length == 0)
+            {
+                throw new InputFileException(path, "the calibration report has no stages");
+            }
+
+            return [.. stages.Select(s =>
+            {
+                JsonElement stage = Property(s, "Stage");
+                string name = stage.ValueKind == JsonValueKind.Number && stage.GetInt32() is int n && n >= 0 && n < names.Length ? names[n] : stage.ToString();
+                return new Stage(name, Property(s, "Depth").GetInt32(), Property(s, "Recall").GetDouble(), Property(s, "RecallLow").GetDouble(), Property(s, "RecallHigh").GetDouble());
+            })];
+        }
+        catch (Exception e) when (e is JsonException or KeyNotFoundException or InvalidOperationException or FormatException)
+        {
+            throw new InputFileException(path, $"not a calibration report (CalibrationReport.ToJson): {e.Message}", e);
+        }
+    });
+
+    private static JsonElement Property(JsonElement element, string name)
+    {
+        foreach (JsonProperty property in element.EnumerateObject())
+        {
+            if (string.Equals(property.Name, name, StringComparison.OrdinalIgnoreCase))
+            {
+                return property.Value;
+            }
+        }
+
+        throw new KeyNotFoundException($"the field '{name}' is missing");
     }
 
     private static void Save(ScottPlot.Plot plot, string path)
