@@ -16,7 +16,8 @@ namespace VectorKit.Benchmarks;
 /// variance-balancing rotation: <c>product-rotation-sweep [clustered count] [dimension]</c>; and the load-speed harness:
 /// <c>storage-load [exact count] [graph count] [dimension]</c>; and every index kind side by side at default options on
 /// Fashion-MNIST: <c>index-guide [without-default-lists]</c>; search latency during removals, the graph's global pass,
-/// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>.
+/// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>; the
+/// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>.
 /// </summary>
 public static class Program
 {
@@ -109,6 +110,12 @@ public static class Program
             double seconds = args.Length > 3 ? double.Parse(args[3], CultureInfo.InvariantCulture) : 5;
             string[] kinds = args.Length > 4 ? args[4].Split(',') : ["exact", "graph", "inverted-file"];
             MaintenanceLatency.Run(count, dimension, seconds, kinds);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "tool-overhead")
+        {
+            ToolOverhead.Run(args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 3);
             return;
         }
 

@@ -140,6 +140,69 @@ public static class IndexFile
         => (TIndex)LoadFile(path, options, typeof(TIndex), cancellationToken);
 
     /// <summary>
+    /// Reads what a saved index file holds (kind, metric, dimension, counts, stored settings, sections and their
+    /// sizes) from its header, without loading the index; optionally verifies every section's checksum as well.
+    /// </summary>
+    /// <param name="path">The index file.</param>
+    /// <param name="verifySections">
+    /// <see langword="true"/> to read every section through its checksum (the whole file is read, one 1 MiB block at a
+    /// time, nothing is kept); <see langword="false"/> to read the header only (its own checksum is always verified).
+    /// </param>
+    /// <param name="options">Caps; <see langword="null"/> for <see cref="IndexLoadOptions.Default"/>.</param>
+    /// <param name="cancellationToken">Checked between 1 MiB blocks.</param>
+    /// <returns>The summary; <see cref="IndexFileSummary.SectionsVerified"/> says whether the sections were checked.</returns>
+    /// <remarks>
+    /// A file that inspects cleanly with <paramref name="verifySections"/> can still fail to load when a section's
+    /// content is structurally invalid (a link out of range, a non-finite vector): only loading checks the content.
+    /// </remarks>
+    /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
+    /// <exception cref="IndexFileException">The header is damaged, truncated or malformed, exceeds a cap or has an unsupported version; or, when verifying, a section is damaged or truncated, or bytes follow the last section.</exception>
+    /// <exception cref="FileNotFoundException">The file does not exist.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    /// <exception cref="IOException">Reading failed.</exception>
+    public static IndexFileSummary Inspect(string path, bool verifySections = false, IndexLoadOptions? options = null, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(path);
+        CheckByteOrder();
+        using var file = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.Read, bufferSize: 0, FileOptions.SequentialScan);
+        var reader = new IndexFileReader(file, options ?? IndexLoadOptions.Default, cancellationToken);
+        try
+        {
+            IndexHeader header = reader.ReadHeader();
+            if (verifySections)
+            {
+                reader.VerifyAllSections();
+            }
+
+            var settings = new SortedDictionary<string, double>(StringComparer.Ordinal);
+            foreach ((string key, long value) in header.Integers)
+            {
+                settings[key] = value;
+            }
+
+            foreach ((string key, double value) in header.Reals)
+            {
+                settings[key] = value;
+            }
+
+            var sections = new IndexFileSection[header.Sections.Count];
+            for (int i = 0; i < sections.Length; i++)
+            {
+                SectionEntry entry = header.Sections[i];
+                sections[i] = new IndexFileSection(checked((int)entry.Id), FileLayout.SectionKey(entry.Id), entry.Length);
+            }
+
+            return new IndexFileSummary(
+                header.Kind, header.Metric, header.Dimension, header.Count, header.Rows, reader.FormatVersion,
+                settings.AsReadOnly(), sections, file.Length, verifySections);
+        }
+        catch (OverflowException e)
+        {
+            throw new IndexFileException($"Index file declares sizes that overflow (in {reader.SectionName}, near byte {reader.Position}).", reader.SectionKey, reader.Position, e);
+        }
+    }
+
+    /// <summary>
     /// Deletes the temporary files that interrupted saves to <paramref name="path"/> left beside it (a save killed
     /// with its process, or cut off by a power loss, cannot remove its own). Leaves the file itself, and every other
     /// file, untouched.

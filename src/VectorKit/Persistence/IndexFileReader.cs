@@ -52,6 +52,9 @@ internal sealed class IndexFileReader
 
     public long Position => _position;
 
+    /// <summary>The format version from the preamble (0 until the header is read).</summary>
+    public int FormatVersion { get; private set; }
+
     /// <summary>The name and id of the open section, for messages.</summary>
     public string SectionName => _inSection ? FileLayout.SectionName(_open.Id) : "header";
 
@@ -95,6 +98,7 @@ internal sealed class IndexFileReader
                 8);
         }
 
+        FormatVersion = (int)version;
         int headerLength = BinaryPrimitives.ReadInt32LittleEndian(preamble[12..]);
         if (headerLength < 1 || headerLength > Options.MaxHeaderBytes)
         {
@@ -399,6 +403,23 @@ internal sealed class IndexFileReader
             throw new IndexFileException(
                 $"Index file has {_available - _position} unexpected bytes after its last section (which ends at byte {_position}).", "end", _position);
         }
+    }
+
+    /// <summary>
+    /// Reads every section after the header through its checksum without keeping the bytes (one block of scratch),
+    /// whatever its id, then checks that nothing follows when the length is known. Used to verify a file without loading it.
+    /// </summary>
+    public void VerifyAllSections()
+    {
+        IndexHeader header = _header!;
+        while (_nextSection < header.Sections.Count)
+        {
+            OpenFrame(header.Sections[_nextSection]);
+            SkipPayload();
+            CloseSection();
+        }
+
+        Finish(requireEnd: true);
     }
 
     private void CheckCommon(IndexHeader header)

@@ -1,0 +1,112 @@
+using System.Diagnostics;
+using System.Globalization;
+using VectorKit.Indexes;
+using VectorKit.IO;
+using VectorKit.Persistence;
+
+namespace VectorKit.Benchmarks.Indexes;
+
+/// <summary>
+/// The command-line tool's cost over the library on the batch job: <c>vectorkit search</c> of the 10,000 Fashion-MNIST
+/// test images (top 10) against a graph index of the 60,000 training images, as a separate process (wall time from
+/// start to exit: runtime start, index load, query read, search, writing .ivecs/.fvecs), against the library's
+/// <c>SearchBatch</c> of the same queries on the same index file in this process. Library and tool alternate each
+/// round; medians are reported. The tool must be built first (<c>dotnet build src/VectorKit.Cli -c Release</c>).
+/// </summary>
+public static class ToolOverhead
+{
+    public static void Run(int rounds)
+    {
+        string dll = ToolDll();
+        string folder = Path.GetFullPath(Path.Combine("BenchmarkDotNet.Artifacts", "tool-overhead"));
+        Directory.CreateDirectory(folder);
+        string index = Path.Combine(folder, "fashion-graph.vkx");
+        if (!File.Exists(index))
+        {
+            Console.WriteLine("building the graph index of the 60,000 training images with the tool (cached for later runs)...");
+            RunTool(dll, folder, "--quiet", "build", "--data", TestData.FashionTrainImages, "--kind", "graph", "-o", index);
+        }
+
+        VectorSet queries = IdxFile.ReadVectors(TestData.FashionTestImages);
+        using IVectorIndex loaded = IndexFile.Load(index);
+        loaded.SearchBatch(queries.Data.AsSpan(0, 100 * queries.Dimension), 10); // JIT warm-up of the library side
+
+        var library = new List<double>();
+        var toolWall = new List<double>();
+        var toolSearch = new List<double>();
+        var loads = new List<double>();
+        for (int round = 0; round < rounds; round++)
+        {
+            // What a library program pays besides the search too: loading the index file and reading the queries.
+            var clock = Stopwatch.StartNew();
+            using (IndexFile.Load(index))
+            {
+                IdxFile.ReadVectors(TestData.FashionTestImages);
+            }
+
+            loads.Add(clock.Elapsed.TotalSeconds);
+            clock.Restart();
+            loaded.SearchBatch(queries.Data, 10);
+            library.Add(clock.Elapsed.TotalSeconds);
+
+            clock.Restart();
+            string output = RunTool(dll, folder, "--quiet", "search", "--index", index, "-q", TestData.FashionTestImages, "-o", Path.Combine(folder, "neighbours.ivecs"));
+            toolWall.Add(clock.Elapsed.TotalSeconds);
+
+            // "searched N queries (top 10) in X s, ..." : the time the tool spent inside the library's batch searches.
+            string seconds = output.Split(" in ", 2)[1].Split(' ', 2)[0];
+            toolSearch.Add(double.Parse(seconds, CultureInfo.InvariantCulture));
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+                $"round {round + 1}: library load + read queries {loads[^1]:F3} s, SearchBatch {library[^1]:F3} s; tool process {toolWall[^1]:F3} s wall, of which searching {toolSearch[^1]:F3} s"));
+        }
+
+        double lib = Median(library), wall = Median(toolWall), search = Median(toolSearch), load = Median(loads);
+        Console.WriteLine();
+        Console.WriteLine($"| measure ({rounds} rounds, medians; 10,000 queries, k = 10, all cores) | seconds | vs library search |");
+        Console.WriteLine("|---|---:|---:|");
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"| library `SearchBatch` in process | {lib:F3} | 1.00 |"));
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"| library: load the index file and read the queries, in process | {load:F3} | {load / lib:F2} |"));
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"| tool: time inside the library's batch searches (blocks of 4,096 queries) | {search:F3} | {search / lib:F2} |"));
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"| tool: whole process (start, load index, read queries, search, write) | {wall:F3} | {wall / lib:F2} |"));
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"tool process beyond its search: {wall - search:F3} s ({100 * (wall - search) / lib:F1} % of the library's search time); beyond its search, the load and the read: {wall - search - load:F3} s ({100 * (wall - search - load) / lib:F1} %); search in blocks vs one batch: {100 * (search - lib) / lib:F1} %"));
+    }
+
+    private static double Median(List<double> values)
+    {
+        double[] sorted = [.. values.Order()];
+        return sorted.Length % 2 == 1 ? sorted[sorted.Length / 2] : (sorted[(sorted.Length / 2) - 1] + sorted[sorted.Length / 2]) / 2;
+    }
+
+    private static string RunTool(string dll, string folder, params string[] arguments)
+    {
+        var start = new ProcessStartInfo("dotnet") { RedirectStandardOutput = true, RedirectStandardError = true, UseShellExecute = false, WorkingDirectory = folder };
+        start.ArgumentList.Add(dll);
+        foreach (string argument in arguments)
+        {
+            start.ArgumentList.Add(argument);
+        }
+
+        using Process process = Process.Start(start) ?? throw new InvalidOperationException("the tool did not start");
+        Task<string> error = process.StandardError.ReadToEndAsync();
+        string output = process.StandardOutput.ReadToEnd();
+        process.WaitForExit();
+        if (process.ExitCode != 0)
+        {
+            throw new InvalidOperationException($"vectorkit {string.Join(' ', arguments)} exited {process.ExitCode}: {error.Result}");
+        }
+
+        return output;
+    }
+
+    private static string ToolDll()
+    {
+        var folder = new DirectoryInfo(AppContext.BaseDirectory);
+        while (folder is not null && !File.Exists(Path.Combine(folder.FullName, "VectorKit.sln")))
+        {
+            folder = folder.Parent;
+        }
+
+        string dll = Path.Combine(folder?.FullName ?? ".", "src", "VectorKit.Cli", "bin", "Release", "net10.0", "VectorKit.Cli.dll");
+        return File.Exists(dll) ? dll : throw new FileNotFoundException($"build the tool first: dotnet build src/VectorKit.Cli -c Release (looked for {dll})");
+    }
+}
