@@ -2,7 +2,8 @@
 # Package smoke test: packs the library into a temporary feed, creates a fresh console app outside the repository,
 # installs the package from that feed (its dependencies restore from the machine's usual package sources), then
 # builds an exact and a graph index over invented vectors, searches, saves, loads back and searches again. The
-# package readme's example is compiled and run in the same app. Prints "package ok: ..." and exits non-zero on any
+# package readme's example is compiled and run in the same app, and so is a small use of the vector-store connector
+# package (VectorKit.VectorData), packed into the same feed. Prints "package ok: ..." and exits non-zero on any
 # failure; removes its temporary directories either way. Extra arguments go to `dotnet pack`.
 set -euo pipefail
 repo="$(cd "$(dirname "$0")/.." && pwd)"
@@ -21,11 +22,14 @@ export DOTNET_CLI_TELEMETRY_OPTOUT=1 DOTNET_NOLOGO=1 DOTNET_SKIP_FIRST_TIME_EXPE
 
 echo "== pack"
 dotnet pack "$repo/src/VectorKit" -c Release -o "$feed" --nologo -v quiet "$@"
+dotnet pack "$repo/src/VectorKit.VectorData" -c Release -o "$feed/connector" --nologo -v quiet "$@"
+mv "$feed"/connector/*.nupkg "$feed"/connector/*.snupkg "$feed"/ && rmdir "$feed/connector"
 shopt -s nullglob
-packages=("$feed"/VectorKit.*.nupkg)
-symbols=("$feed"/VectorKit.*.snupkg)
+packages=("$feed"/VectorKit.[0-9]*.nupkg)
+symbols=("$feed"/VectorKit.[0-9]*.snupkg)
+connector=("$feed"/VectorKit.VectorData.[0-9]*.nupkg)
 shopt -u nullglob
-if [ "${#packages[@]}" -ne 1 ] || [ "${#symbols[@]}" -ne 1 ]; then
+if [ "${#packages[@]}" -ne 1 ] || [ "${#symbols[@]}" -ne 1 ] || [ "${#connector[@]}" -ne 1 ]; then
   echo "check-package: expected one .nupkg and one .snupkg in the feed, found: $(ls "$feed")" >&2
   exit 1
 fi
@@ -60,6 +64,7 @@ cat > nuget.config <<EOF
 </configuration>
 EOF
 dotnet add package VectorKit --version "$version" >/dev/null
+dotnet add package VectorKit.VectorData --version "$version" >/dev/null
 
 # The readme's example, unchanged, as a method: its using lines go on top, the rest into the body.
 example="$(awk '/^```csharp$/ { inside = 1; next } /^```$/ { if (inside) exit } inside' "$repo/src/VectorKit/PACKAGE.md")"
@@ -74,6 +79,43 @@ example="$(awk '/^```csharp$/ { inside = 1; next } /^```$/ { if (inside) exit } 
   echo '    }'
   echo '}'
 } > ReadmeExample.cs
+
+# The vector-store connector, installed from the same feed: a typed collection, a filtered search, a save.
+cat > StoreCheck.cs <<'EOF'
+using Microsoft.Extensions.VectorData;
+using VectorKit.VectorData;
+
+public sealed class GearItem
+{
+    [VectorStoreKey] public int Id { get; set; }
+    [VectorStoreData] public string Name { get; set; } = string.Empty;
+    [VectorStoreData] public bool InStock { get; set; }
+    [VectorStoreVector(3)] public ReadOnlyMemory<float> Embedding { get; set; }
+}
+
+static class StoreCheck
+{
+    public static async Task<string> RunAsync(string directory)
+    {
+        var store = new VectorKitStore(new VectorKitStoreOptions { Directory = directory });
+        var items = store.GetCollection<int, GearItem>("gear");
+        await items.EnsureCollectionExistsAsync();
+        await items.UpsertAsync(new GearItem[]
+        {
+            new() { Id = 1, Name = "two-person tent", InStock = true, Embedding = new float[] { 1, 0, 0 } },
+            new() { Id = 2, Name = "winter sleeping bag", InStock = false, Embedding = new float[] { 0.9f, 0.1f, 0 } },
+            new() { Id = 3, Name = "touring kayak", InStock = true, Embedding = new float[] { 0, 0, 1 } },
+        });
+        var names = new List<string>();
+        await foreach (var hit in items.SearchAsync(new ReadOnlyMemory<float>(new float[] { 0.95f, 0.05f, 0 }), 2, new() { Filter = r => r.InStock }))
+            names.Add(hit.Record.Name);
+        if (names.Count != 2 || names[0] != "two-person tent" || names[1] != "touring kayak")
+            throw new InvalidOperationException("connector search returned: " + string.Join(", ", names));
+        await store.SaveAsync();
+        return string.Join(", ", names);
+    }
+}
+EOF
 
 cat > Program.cs <<'EOF'
 using VectorKit.Distance;
@@ -125,7 +167,8 @@ double recall = (double)agreed / results;
 Check(recall >= 0.9, $"graph recall@{K} {recall:0.000} is below 0.9");
 
 ReadmeExample.Run();
-Console.WriteLine($"package ok: {results} results, graph recall@{K} {recall:0.000}, save and load round trip equal");
+string connector = StoreCheck.RunAsync(Path.Combine(directory, "store")).GetAwaiter().GetResult();
+Console.WriteLine($"package ok: {results} results, graph recall@{K} {recall:0.000}, save and load round trip equal; connector: {connector}");
 
 static void Check(bool condition, string message)
 {
