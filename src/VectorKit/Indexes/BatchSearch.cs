@@ -12,9 +12,10 @@ internal delegate void BlockSearch<TScratch>(nint queries, int first, int count,
 
 /// <summary>
 /// The batch driver every index kind runs its <see cref="IVectorIndex.SearchBatch"/> through: input checks, k capped at
-/// the item count, blocks of queries in parallel with one scratch per worker, each block under the index's read lock
-/// (released between blocks, so a writer waits for one block rather than the whole batch), progress outside the lock,
-/// cancellation between blocks, and a failure inside a block rethrown as itself rather than wrapped.
+/// the item count, blocks of queries in parallel with one scratch per worker, each query (or each block, for a kind
+/// that scores a block together) under the index's read lock, released in between so a writer waits for the queries in
+/// flight rather than the whole batch; progress outside the lock, cancellation between blocks, and a failure inside a
+/// block rethrown as itself rather than wrapped.
 /// </summary>
 internal static unsafe class BatchSearch
 {
@@ -33,7 +34,11 @@ internal static unsafe class BatchSearch
     public static BatchSearchResults CreateResults(int queryCount, int k, int itemCount)
         => new(queryCount, Math.Min(k, Math.Max(1, itemCount)));
 
-    /// <summary>Runs <paramref name="search"/> for every query, blocks of <paramref name="blockSize"/> queries in parallel.</summary>
+    /// <summary>
+    /// Runs <paramref name="search"/> for every query, blocks of <paramref name="blockSize"/> queries in parallel, each
+    /// query under the read lock: a writer that arrives waits for one query per worker, and single searches that queue
+    /// behind it (the lock lets a waiting writer go first) wait no longer than that.
+    /// </summary>
     public static void RunQueries<TScratch>(
         VectorIndex index,
         ReadOnlySpan<float> queries,
@@ -46,12 +51,15 @@ internal static unsafe class BatchSearch
         Func<TScratch> createScratch,
         QuerySearch<TScratch> search)
     {
-        RunBlocks(index, queries, results.QueryCount, blockSize, options, progress, cancellationToken, createScratch, (address, first, count, scratch) =>
+        Run(index, queries, results.QueryCount, blockSize, lockEachBlock: false, options, progress, cancellationToken, createScratch, (address, first, count, scratch) =>
         {
             for (int i = first; i < first + count; i++)
             {
                 var query = new ReadOnlySpan<float>((float*)address + ((nint)i * dimension), dimension);
-                results.SetCount(i, search(query, results.Slots(i), scratch));
+                using (index.EnterSearchBlock())
+                {
+                    results.SetCount(i, search(query, results.Slots(i), scratch));
+                }
             }
         });
     }
@@ -65,6 +73,20 @@ internal static unsafe class BatchSearch
         ReadOnlySpan<float> queries,
         int queryCount,
         int blockSize,
+        SearchOptions options,
+        IProgress<int>? progress,
+        CancellationToken cancellationToken,
+        Func<TScratch> createScratch,
+        BlockSearch<TScratch> search)
+        => Run(index, queries, queryCount, blockSize, lockEachBlock: true, options, progress, cancellationToken, createScratch, search);
+
+    // Blocks in parallel, each under the read lock when `lockEachBlock`; otherwise the block takes it itself.
+    private static void Run<TScratch>(
+        VectorIndex index,
+        ReadOnlySpan<float> queries,
+        int queryCount,
+        int blockSize,
+        bool lockEachBlock,
         SearchOptions options,
         IProgress<int>? progress,
         CancellationToken cancellationToken,
@@ -89,7 +111,14 @@ internal static unsafe class BatchSearch
                 {
                     int first = b * blockSize;
                     int count = Math.Min(blockSize, queryCount - first);
-                    using (index.EnterSearchBlock())
+                    if (lockEachBlock)
+                    {
+                        using (index.EnterSearchBlock())
+                        {
+                            search(address, first, count, scratch);
+                        }
+                    }
+                    else
                     {
                         search(address, first, count, scratch);
                     }

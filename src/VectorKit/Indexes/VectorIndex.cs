@@ -12,9 +12,9 @@ namespace VectorKit.Indexes;
 /// <remarks>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; writes take the
 /// index's write lock, so a search sees each write entirely or not at all (each kind documents any step it runs beside
-/// searches). A batch search takes the read lock once per block of queries, not for its whole run: each query sees one
+/// searches). A batch search takes the read lock once per query (per tile of queries on the exact index's float32 path), not for its whole run: each query sees one
 /// consistent state of the index, but different queries of one batch may see different states when a write lands
-/// between their blocks, and a writer waits for at most the blocks in flight. Saving and the long read-only phases of
+/// between them, and a writer waits for at most the queries or tiles in flight. Saving and the long read-only phases of
 /// maintenance (a compaction's copy, the graph's global reachability pass) hold only the writer gate: searches run
 /// beside them, writes wait for them. The graph's compaction rebuilds beside writes as well (see its documentation).</para>
 /// <para><b>Disposal.</b> After <see cref="Dispose"/>, every member but <see cref="Dimension"/>, <see cref="Metric"/>,
@@ -293,10 +293,11 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
 
     /// <inheritdoc/>
     /// <remarks>
-    /// Blocks of queries run in parallel, each block under the read lock, which is released between blocks: a write
-    /// waits for at most the blocks in flight, never for the whole batch. Each query therefore sees one consistent state
-    /// of the index, but two queries of one batch may see different states when a write lands between their blocks (k
-    /// is capped at the item count when the batch starts). <paramref name="progress"/> is called outside the lock.
+    /// Blocks of queries run in parallel; each query takes the read lock on its own (the exact index's float32 path,
+    /// which scores a tile of queries together, takes it per tile), released in between: a write waits for at most the
+    /// queries or tiles in flight, never for the whole batch. Each query therefore sees one consistent state of the
+    /// index, but two queries of one batch may see different states when a write lands between them (k is capped at
+    /// the item count when the batch starts). <paramref name="progress"/> is called outside the lock.
     /// </remarks>
     /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
     /// <exception cref="InvalidOperationException">Re-scoring reads an external source and none is attached, or the source lacks a candidate's vector.</exception>

@@ -26,7 +26,7 @@ namespace VectorKit.Indexes.Exact;
 /// (<see cref="VectorIndexOptions.FullVectors"/>).</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds and
 /// removes are exclusive, so a search sees the index entirely before or entirely after each write. A batch search holds
-/// the read lock one block of queries at a time (see <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and
+/// the read lock one query at a time, or one tile of 64 queries on the float32 path (see <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and
 /// saving run beside searches, and writes wait for them.</para>
 /// <para>See docs/choosing-an-index.md in the repository for when an exact scan is the right choice.</para>
 /// </remarks>

@@ -27,7 +27,7 @@ namespace VectorKit.Indexes.InvertedFile;
 /// <see cref="IFullVectorSource"/> (<see cref="VectorIndexOptions.FullVectors"/>). A filter is checked while the probed
 /// lists are scanned, so fewer than k results come back when they hold fewer than k passing items.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds
-/// and removes are exclusive. A batch search holds the read lock one block of queries at a time (see
+/// and removes are exclusive. A batch search holds the read lock one query at a time (see
 /// <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and saving run beside searches, and writes wait for them.</para>
 /// <para><b>Persistence.</b> <c>VectorKit.Persistence.IndexFile</c> saves and loads the index, trained or not; an
 /// external full-vector source is neither saved nor disposed: attach it again after loading.</para>
