@@ -11,8 +11,8 @@ public class PanelKernelTests
     [MemberData(nameof(Dimensions), MemberType = typeof(KernelOracle))]
     public void EveryPathMatchesTheReference(int n)
     {
-        // 37 queries: one or more full panels on every width plus a partial one; 13 rows: two full row groups and one row.
-        Check(n, queryCount: 37, rowCount: 13, seed: n);
+        // 53 queries: one or more full panels on every width plus a partial one; 17 rows: two full row groups and one row on every path.
+        Check(n, queryCount: 53, rowCount: 17, seed: n);
     }
 
     [Fact]
@@ -20,9 +20,9 @@ public class PanelKernelTests
     {
         foreach (int n in new[] { 1, 5, 16, 33 })
         {
-            for (int queryCount = 1; queryCount <= 34; queryCount += 3)
+            for (int queryCount = 1; queryCount <= 52; queryCount += 3)
             {
-                for (int rowCount = 1; rowCount <= 13; rowCount++)
+                for (int rowCount = 1; rowCount <= 17; rowCount++)
                 {
                     Check(n, queryCount, rowCount, seed: (1000 * n) + (20 * queryCount) + rowCount);
                 }
@@ -93,7 +93,7 @@ public class PanelKernelTests
         var packed = new float[PanelKernel.PackedLength(path, queryCount, n)];
         Array.Fill(packed, float.NaN);
         PanelKernel.Pack(path, queries, queryCount, n, packed);
-        var output = new float[PanelKernel.PaddedRows(rowCount) * stride];
+        var output = new float[PanelKernel.PaddedRows(path, rowCount) * stride];
         Array.Fill(output, float.NaN);
         PanelKernel.Compute(path, ref packed[0], queryCount, ref rows[rowOffset], rowCount, n, ref output[0], stride);
         return output;
