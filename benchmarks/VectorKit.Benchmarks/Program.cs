@@ -17,12 +17,22 @@ namespace VectorKit.Benchmarks;
 /// <c>storage-load [exact count] [graph count] [dimension]</c>; and every index kind side by side at default options on
 /// Fashion-MNIST: <c>index-guide [without-default-lists]</c>; search latency during removals, the graph's global pass,
 /// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>; the
-/// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>.
+/// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>; the exact
+/// index's batch search against the numpy + OpenBLAS baseline: <c>exact-batch-vs-blas [repetitions] [reference queries] [baseline ids]</c>.
 /// </summary>
 public static class Program
 {
     public static void Main(string[] args)
     {
+        if (args.Length > 0 && args[0] == "exact-batch-vs-blas")
+        {
+            ExactBatchVsBlas.Run(
+                args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 3,
+                args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 200,
+                args.Length > 3 ? args[3] : null);
+            return;
+        }
+
         if (args.Length > 0 && args[0] == "graph-sweep")
         {
             GraphSweep.RunFashionMnist(args.Length > 1 && args[1] != "with-8bit" ? args[1] : "/usr/share/datasets/fashion-mnist", args.Contains("with-8bit"));

@@ -14,8 +14,8 @@ namespace VectorKit.Distance.Kernels;
 /// <para>Squared Euclidean is summed from the differences, not expanded as ‖q‖² + ‖x‖² − 2 q·x: the expansion
 /// cancels catastrophically for data far from the origin (near neighbours vanish under the norms), while the
 /// difference form errs relative to the distance itself. The subtraction runs on the FP adders, beside the FMAs.</para>
-/// <para>Results are used to <em>select</em> candidates; the batch search re-scores the selected ones with
-/// <see cref="ManyKernel.One{TStep}"/> so reported distances match single-query search exactly.</para>
+/// <para>Nearest-centroid assignment uses it; the exact index's batch search scores through the faster
+/// <see cref="PanelKernel"/> (dot products only) and re-scores its candidates with <see cref="ManyKernel.One{TStep}"/>.</para>
 /// </remarks>
 internal static class BlockKernel
 {

@@ -28,6 +28,12 @@ internal interface IVectorLane<TSelf>
     /// <remarks>Used for the tail: one overlapping load ending at the last element, masking the lanes already summed.</remarks>
     static abstract TSelf LoadSkipping(ref float source, nint offset, int skip);
 
+    /// <summary>Every lane set to <paramref name="value"/>.</summary>
+    static abstract TSelf Broadcast(float value);
+
+    /// <summary>Stores the <see cref="Count"/> floats at <paramref name="offset"/>.</summary>
+    static abstract void Store(TSelf value, ref float destination, nint offset);
+
     static abstract TSelf Add(TSelf left, TSelf right);
 
     static abstract TSelf Subtract(TSelf left, TSelf right);
@@ -59,6 +65,12 @@ internal readonly struct Lane512 : IVectorLane<Lane512>
         Vector512<float> keep = Vector512.GreaterThanOrEqual(Vector512<int>.Indices, Vector512.Create(skip)).AsSingle();
         return new(Vector512.LoadUnsafe(ref source, (nuint)offset) & keep);
     }
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static Lane512 Broadcast(float value) => new(Vector512.Create(value));
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static void Store(Lane512 value, ref float destination, nint offset) => value._value.StoreUnsafe(ref destination, (nuint)offset);
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static Lane512 Add(Lane512 left, Lane512 right) => new(left._value + right._value);
@@ -97,6 +109,12 @@ internal readonly struct Lane256 : IVectorLane<Lane256>
     }
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static Lane256 Broadcast(float value) => new(Vector256.Create(value));
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static void Store(Lane256 value, ref float destination, nint offset) => value._value.StoreUnsafe(ref destination, (nuint)offset);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static Lane256 Add(Lane256 left, Lane256 right) => new(left._value + right._value);
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
@@ -133,6 +151,12 @@ internal readonly struct Lane128 : IVectorLane<Lane128>
     }
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static Lane128 Broadcast(float value) => new(Vector128.Create(value));
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static void Store(Lane128 value, ref float destination, nint offset) => value._value.StoreUnsafe(ref destination, (nuint)offset);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static Lane128 Add(Lane128 left, Lane128 right) => new(left._value + right._value);
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
@@ -165,6 +189,12 @@ internal readonly struct LaneScalar : IVectorLane<LaneScalar>
     // A one-float lane never overlaps the previous one, so there is never anything to skip.
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static LaneScalar LoadSkipping(ref float source, nint offset, int skip) => skip > 0 ? default : Load(ref source, offset);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static LaneScalar Broadcast(float value) => new(value);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static void Store(LaneScalar value, ref float destination, nint offset) => Unsafe.Add(ref destination, offset) = value._value;
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static LaneScalar Add(LaneScalar left, LaneScalar right) => new(left._value + right._value);

@@ -26,14 +26,14 @@ namespace VectorKit.Indexes.Exact;
 /// (<see cref="VectorIndexOptions.FullVectors"/>).</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Any number of searches run concurrently; training, adds and
 /// removes are exclusive, so a search sees the index entirely before or entirely after each write. A batch search holds
-/// the read lock one query at a time, or one tile of 64 queries on the float32 path (see <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and
+/// the read lock one query at a time, or one tile of 96 queries on the float32 path (see <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and
 /// saving run beside searches, and writes wait for them.</para>
 /// <para>See docs/choosing-an-index.md in the repository for when an exact scan is the right choice.</para>
 /// </remarks>
 public sealed partial class ExactIndex : VectorIndex
 {
     // A batch works on this many queries at a time per thread, against row tiles of about TileBytes.
-    private const int TiledQueryBlock = 64;
+    private const int TiledQueryBlock = 96; // whole panels on every path (2, 8, 16 and 48 queries)
     private const int TileBytes = 256 * 1024;
 
     // Rows scored per kernel call in a single-query scan: the distances of one block live on the stack.
@@ -550,13 +550,14 @@ public sealed partial class ExactIndex : VectorIndex
     {
         public BatchScratch(ExactIndex index, int k)
         {
-            TileRows = Math.Max(4, TileBytes / (index.Dimension * sizeof(float)) / 4 * 4);
+            TileRows = Math.Max(PanelKernel.RowMultiple, TileBytes / (index.Dimension * sizeof(float)) / PanelKernel.RowMultiple * PanelKernel.RowMultiple);
+            PackedQueries = new float[PanelKernel.PackedLength(index._kernelPath, TiledQueryBlock, index.Dimension)];
 
             // Candidates are selected with the tiled dot-product kernel, whose rounding differs from the single-query
             // kernel's; extra candidates, re-scored exactly, leave room for the error bound to prove the top k complete.
             // A block uses at most the rows there are when it runs (see Tiled).
             HeapSize = k + Math.Max(8, k / 2);
-            Dots = new float[TiledQueryBlock * TileRows];
+            Dots = new float[PanelKernel.PaddedQueries(index._kernelPath, TiledQueryBlock) * TileRows];
             Heaps = new SearchHit[TiledQueryBlock * HeapSize];
             Counts = new int[TiledQueryBlock];
             QuerySquaredNorms = new float[TiledQueryBlock];
@@ -566,7 +567,11 @@ public sealed partial class ExactIndex : VectorIndex
 
         public int HeapSize { get; }
 
+        /// <summary>Row-tile dot products, one output row per stored row, one column per (padded) query.</summary>
         public float[] Dots { get; }
+
+        /// <summary>The block's queries packed into the panel kernel's panels.</summary>
+        public float[] PackedQueries { get; }
 
         public SearchHit[] Heaps { get; }
 
@@ -617,21 +622,27 @@ public sealed partial class ExactIndex : VectorIndex
                 scratch.QuerySquaredNorms[i] = withNorms ? PairKernel.Sum<DotStep>(index._kernelPath, query, query) : 1f;
             }
 
+            // Queries packed once per block; each row tile is read where it is stored, scored against every query in
+            // registers, and selected from while its dot products are still in cache.
+            KernelPath path = index._kernelPath;
+            PanelKernel.Pack(path, new ReadOnlySpan<float>(q, count * d), count, d, scratch.PackedQueries);
+            int stride = PanelKernel.PaddedQueries(path, count);
+            ref float packed = ref MemoryMarshal.GetArrayDataReference(scratch.PackedQueries);
             ref float dots = ref MemoryMarshal.GetArrayDataReference(scratch.Dots);
             for (int start = 0; start < n; start += tileRows)
             {
                 int rows = Math.Min(tileRows, n - start);
-                BlockKernel.Compute<DotStep>(index._kernelPath, ref *q, count, ref index._vectors.Row(start), rows, d, ref dots, tileRows);
+                PanelKernel.Compute(path, ref packed, count, ref index._vectors.Row(start), rows, d, ref dots, stride);
                 for (int i = 0; i < count; i++)
                 {
                     Span<SearchHit> heap = heaps.Slice(i * heapSize, heapSize);
                     ref int found = ref counts[i];
                     float queryNorm = scratch.QuerySquaredNorms[i];
                     float bound = TopK.Bound(heap, found);
-                    ref float row = ref Unsafe.Add(ref dots, (nint)i * tileRows);
+                    ref float column = ref Unsafe.Add(ref dots, i);
                     for (int j = 0; j < rows; j++)
                     {
-                        float distance = TFinish.FromDot(Unsafe.Add(ref row, j), queryNorm, withNorms ? rowNorms[start + j] : 1f);
+                        float distance = TFinish.FromDot(Unsafe.Add(ref column, (nint)j * stride), queryNorm, withNorms ? rowNorms[start + j] : 1f);
                         if (distance <= bound)
                         {
                             TopK.Offer(heap, ref found, distance, ids[start + j]);
@@ -676,8 +687,9 @@ public sealed partial class ExactIndex : VectorIndex
             }
         }
 
-        // γ for one float sum in either kernel: each lane chains about d / width products, then the lanes and
-        // partial sums are added (at most width + 4 more roundings); doubled for safety.
+        // γ for one float sum in either kernel, doubled for safety. The single-query kernel chains about d / width
+        // products per lane, then adds the lanes and partial sums (at most width + 4 more roundings); the panel kernel
+        // chains at most one component block, then adds one partial sum per block (PanelKernel.ChainLength).
         private static double RelativeErrorBound(KernelPath widest, int dimension)
         {
             int width = KernelDispatch.For(dimension, widest) switch
@@ -687,7 +699,8 @@ public sealed partial class ExactIndex : VectorIndex
                 KernelPath.Vector128 => 4,
                 _ => 1,
             };
-            return 2.0 * ((dimension / width) + width + 6) * Float32Rounding.Unit;
+            int roundings = Math.Max((dimension / width) + width + 6, PanelKernel.ChainLength(dimension) + 2);
+            return 2.0 * roundings * Float32Rounding.Unit;
         }
     }
 }
