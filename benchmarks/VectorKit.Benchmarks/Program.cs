@@ -123,6 +123,12 @@ public static class Program
             return;
         }
 
+        if (args.Length == 4 && args[0] == "tool-overhead-library-job")
+        {
+            ToolOverhead.RunLibraryJob(args[1], args[2], args[3]);
+            return;
+        }
+
         if (args.Length > 0 && args[0] == "tool-overhead")
         {
             ToolOverhead.Run(args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 3);
