@@ -16,7 +16,8 @@ namespace VectorKit.Benchmarks;
 /// variance-balancing rotation: <c>product-rotation-sweep [clustered count] [dimension]</c>; and the load-speed harness:
 /// <c>storage-load [exact count] [graph count] [dimension]</c>; and every index kind side by side at default options on
 /// Fashion-MNIST: <c>index-guide [without-default-lists]</c>; search latency during removals, the graph's global pass,
-/// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>.
+/// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>; recall-targeted
+/// tuning of every kind beside its untuned defaults: <c>tuning [fashion-mnist|text|clustered] [target] [cosine|-] [count] [dimension]</c>.
 /// </summary>
 public static class Program
 {
@@ -99,6 +100,16 @@ public static class Program
         if (args.Length > 0 && args[0] == "index-guide")
         {
             IndexGuide.Run(withDefaultLists: !args.Contains("without-default-lists"));
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "tuning")
+        {
+            string dataSet = args.Length > 1 ? args[1] : "fashion-mnist";
+            double target = args.Length > 2 ? double.Parse(args[2], CultureInfo.InvariantCulture) : 0.95;
+            int count = args.Length > 4 ? int.Parse(args[4], CultureInfo.InvariantCulture) : 1_000_000;
+            int dimension = args.Length > 5 ? int.Parse(args[5], CultureInfo.InvariantCulture) : 128;
+            TuningBenchmark.Run(dataSet, target, args.Contains("cosine"), count, dimension);
             return;
         }
 
