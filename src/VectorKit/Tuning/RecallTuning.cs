@@ -22,8 +22,8 @@ namespace VectorKit.Tuning;
 /// vector (measured on 64 of them). The noise keeps a query from being its own nearest neighbour at distance 0, which
 /// would overstate recall.</para>
 /// <para><b>Search over settings.</b> For each re-scoring depth (none, then k, 2k, 4k, ...; one pass when the index
-/// does not re-score) the width is doubled from its smallest useful value until a setting meets the target, then
-/// bisected down to within 5 %; deeper re-scoring stops once the narrowest width meets the target, once the width no
+/// does not re-score) the width is doubled from its smallest useful value until a setting meets the target (or
+/// doubling it stops gaining recall: the depth is the limit), then bisected down to within 5 %; deeper re-scoring stops once the narrowest width meets the target, once the width no
 /// longer falls with the depth, or once two depths in a row cost more than the best so far. Each setting's time is the
 /// fastest of a few runs when one run is short. A setting meets the target when the lower end of its recall interval on the
 /// tuning queries does (Wilson intervals on an effective number of trials, as the re-ranking calibration uses). Of the
@@ -40,6 +40,9 @@ public static class RecallTuning
     // A measurement shorter than this is repeated (at most MaxRepeats runs in all) and its fastest run kept.
     private const double MinTimedSeconds = 0.05;
     private const int MaxRepeats = 5;
+
+    // Below this gain in recall from doubling the width, the width search at a depth gives up (the depth limits it).
+    private const double PlateauGain = 0.001;
 
     // Stored vectors whose nearest neighbour sets the noise of drawn queries.
     private const int NoiseSample = 64;
@@ -267,6 +270,7 @@ public static class RecallTuning
         int failing = low - 1;
         int value = low;
         TuningPoint passing;
+        double previous = double.NegativeInfinity;
         while (true)
         {
             TuningPoint p = measure(value);
@@ -276,10 +280,13 @@ public static class RecallTuning
                 break;
             }
 
-            if (value >= high)
+            // A doubled width that gains (almost) nothing has reached what this depth can give: wider only costs more.
+            if (value >= high || p.Recall - previous < PlateauGain)
             {
                 return null;
             }
+
+            previous = p.Recall;
 
             failing = value;
             value = (int)Math.Min(high, Math.Max(value + 1L, value * 2L));
@@ -362,14 +369,11 @@ public static class RecallTuning
 
     private static TuningPoint Measure(VectorIndex index, float[] queries, long[][] truth, int? width, int? depth, int k, double z, int parallelism, CancellationToken ct, bool useDefaults)
     {
+        // Spelled out even where a value is null, so that earlier tuned defaults never stand in for a setting under test
+        // (null width or depth: the kind has none); the re-check alone measures the defaults themselves.
         var search = useDefaults
             ? new SearchOptions { MaxDegreeOfParallelism = parallelism }
-            : new SearchOptions { SearchWidth = width, RescoreDepth = depth ?? 0, MaxDegreeOfParallelism = parallelism };
-        if (!useDefaults && depth is null)
-        {
-            // No depth on an index that does not re-score: the depth is ignored there, but keep the call plain.
-            search = new SearchOptions { SearchWidth = width, MaxDegreeOfParallelism = parallelism };
-        }
+            : new SearchOptions { SearchWidth = width, RescoreDepth = depth, MaxDegreeOfParallelism = parallelism };
 
         long start = Stopwatch.GetTimestamp();
         BatchSearchResults results = index.SearchBatch(queries, k, search, null, ct);
