@@ -140,12 +140,12 @@ public static class TuningBenchmark
             }
 
             // The chosen and the cheapest setting timed in alternation, so that both see the same minutes of a shared
-            // machine; a setting that does the same work as the other (the same width, and a depth of at most k, which
-            // re-scores no more than k) counts as equal without timing.
+            // machine; a setting that does the same work as the other (the same width, and the same depth or both at most k,
+            // which re-scores no more than k) counts as equal without timing.
             string sweep = "no setting meets the target";
             if (cheapest is { } c)
             {
-                bool same = c.w == chosen.SearchWidth && (c.dp ?? 0) <= K && (chosen.RescoreDepth ?? 0) <= K;
+                bool same = c.w == chosen.SearchWidth && (c.dp == chosen.RescoreDepth || ((c.dp ?? 0) <= K && (chosen.RescoreDepth ?? 0) <= K));
                 double ratio = 1;
                 if (!same)
                 {

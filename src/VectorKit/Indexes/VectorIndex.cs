@@ -118,8 +118,8 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <summary>
-    /// Items added, replaced or removed since <see cref="ApplyTunedDefaults"/> last ran (since creation when it never
-    /// ran); saved with the index. A cheap staleness signal: once it is a sizeable part of <see cref="Count"/>, check
+    /// Items added, replaced or removed since <see cref="ApplyTunedDefaults"/> last ran (when it never ran: since the
+    /// index was created or loaded); saved with tuned defaults. A cheap staleness signal: once it is a sizeable part of <see cref="Count"/>, check
     /// the recall at the defaults again (<c>VectorKit.Tuning.RecallTuning.Check</c>) and re-tune when it falls short.
     /// </summary>
     public long ChangesSinceTuning
