@@ -140,6 +140,10 @@ public sealed class RecallTuningOptions
     /// <summary>The seed of the query split and of drawn queries. Default 1.</summary>
     public int Seed { get; init; } = 1;
 
-    /// <summary>Whether the chosen setting becomes the index's default (<see cref="Indexes.VectorIndex.ApplyTunedDefaults"/>). Default <see langword="true"/>.</summary>
+    /// <summary>
+    /// Whether the chosen setting becomes the index's default (<see cref="Indexes.VectorIndex.ApplyTunedDefaults"/>).
+    /// Default <see langword="true"/>. When no setting measured meets the target, the one with the highest recall is
+    /// applied; <see cref="TuningReport.TargetMet"/> says which happened.
+    /// </summary>
     public bool ApplyDefaults { get; init; } = true;
 }
