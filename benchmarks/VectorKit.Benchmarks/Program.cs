@@ -18,7 +18,8 @@ namespace VectorKit.Benchmarks;
 /// Fashion-MNIST: <c>index-guide [without-default-lists]</c>; search latency during removals, the graph's global pass,
 /// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>; the
 /// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>; the exact
-/// index's batch search against the numpy + OpenBLAS baseline: <c>exact-batch-vs-blas [repetitions] [reference queries] [baseline ids]</c>.
+/// index's batch search against the numpy + OpenBLAS baseline: <c>exact-batch-vs-blas [repetitions] [reference queries] [baseline ids]</c>;
+/// recall-targeted tuning of every kind beside its untuned defaults: <c>tuning [fashion-mnist|text|clustered] [target] [cosine|-] [count] [dimension]</c>.
 /// </summary>
 public static class Program
 {
@@ -110,6 +111,16 @@ public static class Program
         if (args.Length > 0 && args[0] == "index-guide")
         {
             IndexGuide.Run(withDefaultLists: !args.Contains("without-default-lists"));
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "tuning")
+        {
+            string dataSet = args.Length > 1 ? args[1] : "fashion-mnist";
+            double target = args.Length > 2 ? double.Parse(args[2], CultureInfo.InvariantCulture) : 0.95;
+            int count = args.Length > 4 ? int.Parse(args[4], CultureInfo.InvariantCulture) : 1_000_000;
+            int dimension = args.Length > 5 ? int.Parse(args[5], CultureInfo.InvariantCulture) : 128;
+            TuningBenchmark.Run(dataSet, target, args.Contains("cosine"), count, dimension);
             return;
         }
 

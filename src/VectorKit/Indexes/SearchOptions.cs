@@ -39,7 +39,8 @@ public sealed class SearchOptions
 
     /// <summary>
     /// How widely an approximate index searches; larger is slower and finds more of the true nearest items.
-    /// <see langword="null"/> (the default) uses the index's own default; otherwise 1 or more. For the graph index it is the number of candidates kept
+    /// <see langword="null"/> (the default) uses the index's own default (its <see cref="VectorIndex.TunedDefaults"/> when
+    /// set, else its options'); otherwise 1 or more. For the graph index it is the number of candidates kept
     /// during the walk (the beam width); for the inverted-file index it is the number of lists probed per query. The
     /// exact index ignores it.
     /// </summary>
@@ -61,7 +62,8 @@ public sealed class SearchOptions
     /// <summary>
     /// For an index that searches compressed codes and keeps the full vectors: how many of the best candidates by
     /// code distance are re-scored exactly on the full vectors before the best k are returned. 0 turns re-scoring off
-    /// for this call; <see langword="null"/> (the default) uses the index's own default; otherwise 1 or more. Deeper
+    /// for this call; <see langword="null"/> (the default) uses the index's own default (its
+    /// <see cref="VectorIndex.TunedDefaults"/> when set, else its options'); otherwise 1 or more. Deeper
     /// recovers more misranked neighbours at one full-vector distance per candidate. Indexes without full vectors
     /// ignore it.
     /// </summary>

@@ -42,6 +42,8 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     // point it becomes visible, for the copy to replay before the swap.
     private protected ChangeLog? _changeLog;
     private volatile bool _disposed;
+    private volatile TunedSearchDefaults? _tuned;
+    private long _changesSinceTuning;
 
     private protected VectorIndex(int dimension, DistanceMetric metric)
     {
@@ -104,6 +106,94 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
 
     /// <inheritdoc/>
     public IFullVectorSource? FullVectorSource => Volatile.Read(ref _source);
+
+    /// <summary>
+    /// The search settings used when a call's <see cref="SearchOptions"/> leaves them unset, in place of the options'
+    /// own; <see langword="null"/> until <see cref="ApplyTunedDefaults"/> sets them (as the recall tuning does). Saved
+    /// with the index.
+    /// </summary>
+    public TunedSearchDefaults? TunedDefaults
+    {
+        get
+        {
+            ThrowIfDisposed();
+            return _tuned;
+        }
+    }
+
+    /// <summary>
+    /// Items added, replaced or removed since <see cref="ApplyTunedDefaults"/> last ran (when it never ran: since the
+    /// index was created or loaded); saved with tuned defaults. A cheap staleness signal: once it is a sizeable part of <see cref="Count"/>, check
+    /// the recall at the defaults again (<c>VectorKit.Tuning.RecallTuning.Check</c>) and re-tune when it falls short.
+    /// </summary>
+    public long ChangesSinceTuning
+    {
+        get
+        {
+            ThrowIfDisposed();
+            return Interlocked.Read(ref _changesSinceTuning);
+        }
+    }
+
+    /// <summary>
+    /// Makes <paramref name="defaults"/> the search settings used when a call leaves them unset (a call's
+    /// <see cref="SearchOptions.SearchWidth"/> and <see cref="SearchOptions.RescoreDepth"/> still win), and restarts
+    /// <see cref="ChangesSinceTuning"/> at 0. <see langword="null"/> returns to the options' own settings.
+    /// </summary>
+    /// <param name="defaults">The settings, or <see langword="null"/>.</param>
+    /// <exception cref="ArgumentException">The settings name a width on an index without one (the exact index), a width above the kind's largest (the inverted file's list count), or a re-scoring depth on an index that keeps no full vectors.</exception>
+    public void ApplyTunedDefaults(TunedSearchDefaults? defaults)
+    {
+        using var gate = _writerGate.EnterRead();
+        using var write = _lock.EnterWrite();
+        ThrowIfDisposed();
+        CheckDefaults(defaults);
+        _tuned = defaults;
+        Interlocked.Exchange(ref _changesSinceTuning, 0);
+    }
+
+    /// <summary>Restores saved defaults and change count on a freshly loaded index (checked as <see cref="ApplyTunedDefaults"/> checks).</summary>
+    internal void RestoreTuning(TunedSearchDefaults? defaults, long changesSinceTuning)
+    {
+        CheckDefaults(defaults);
+        _tuned = defaults;
+        _changesSinceTuning = changesSinceTuning;
+    }
+
+    /// <summary>The settings the shared tuning may vary on this index.</summary>
+    internal SearchKnobs Knobs => KnobsOf(SharedOptions);
+
+    /// <summary>The kind's search width: its largest useful value and the options' default (none on the exact index).</summary>
+    private protected virtual (int Max, int Default, bool CoversDepth) WidthKnob => (0, 0, false);
+
+    private SearchKnobs KnobsOf(VectorIndexOptions options)
+    {
+        (int max, int width, bool covers) = WidthKnob;
+        return new SearchKnobs(max, width, covers, options.Rescores, options.RescoreDepth);
+    }
+
+    private void CheckDefaults(TunedSearchDefaults? defaults)
+    {
+        if (defaults is null)
+        {
+            return;
+        }
+
+        SearchKnobs knobs = Knobs;
+        if (defaults.SearchWidth is { } width && width > knobs.MaxWidth)
+        {
+            ThrowHelper.ThrowArgument(
+                nameof(defaults),
+                knobs.MaxWidth == 0
+                    ? $"{GetType().Name} has no search width, yet the defaults set it to {width}."
+                    : $"The default search width {width} exceeds this index's largest, {knobs.MaxWidth}.");
+        }
+
+        if (defaults.RescoreDepth is { } depth && !knobs.Rescores)
+        {
+            ThrowHelper.ThrowArgument(nameof(defaults), $"The index keeps no full vectors to re-score with, yet the defaults set a re-scoring depth of {depth}.");
+        }
+    }
 
     /// <summary>The kind's options, for the shared members.</summary>
     private protected abstract VectorIndexOptions SharedOptions { get; }
@@ -191,6 +281,7 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
             {
                 using var gate = _writerGate.EnterRead();
                 WriteBatch(ids, vectors, replace: false, progress, cancellationToken);
+                Interlocked.Add(ref _changesSinceTuning, ids.Length);
             }
             finally
             {
@@ -223,7 +314,9 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         try
         {
             using var gate = _writerGate.EnterRead();
-            return WriteBatch(ids, vectors, replace: true, progress, cancellationToken);
+            int replaced = WriteBatch(ids, vectors, replace: true, progress, cancellationToken);
+            Interlocked.Add(ref _changesSinceTuning, ids.Length);
+            return replaced;
         }
         finally
         {
@@ -250,6 +343,7 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
             _slotOf.CheckPresent(ids);
             _changeLog?.RecordRemove(ids);
             RemoveLocked(ids);
+            Interlocked.Add(ref _changesSinceTuning, ids.Length);
         }
 
         AfterWrite();
@@ -327,7 +421,7 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
                 return results;
             }
 
-            if (ReadsFullVectorsExternally && _source is null && (run.RescoreDepth ?? SharedOptions.RescoreDepth) > 0)
+            if (ReadsFullVectorsExternally && _source is null && (run.RescoreDepth ?? _tuned?.RescoreDepth ?? SharedOptions.RescoreDepth) > 0)
             {
                 SourceRows.ThrowNoSource();
             }
@@ -410,13 +504,19 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <summary>
-    /// How many candidates a search re-scores on the full vectors: the call's <see cref="SearchOptions.RescoreDepth"/>
-    /// or the index's, when the index keeps full vectors (in memory or in a source); otherwise 0. Throws when the depth is
+    /// The width a search uses: the call's <see cref="SearchOptions.SearchWidth"/>, else the tuned default, else the
+    /// options' <paramref name="optionsWidth"/>.
+    /// </summary>
+    private protected int SearchWidthFor(SearchOptions options, int optionsWidth) => options.SearchWidth ?? _tuned?.SearchWidth ?? optionsWidth;
+
+    /// <summary>
+    /// How many candidates a search re-scores on the full vectors: the call's <see cref="SearchOptions.RescoreDepth"/>,
+    /// else the tuned default, else the index's, when the index keeps full vectors (in memory or in a source); otherwise 0. Throws when the depth is
     /// positive and the source it needs is not attached.
     /// </summary>
     private protected int RescoreDepthFor(SearchOptions options)
     {
-        int depth = SharedOptions.Rescores ? options.RescoreDepth ?? SharedOptions.RescoreDepth : 0;
+        int depth = SharedOptions.Rescores ? options.RescoreDepth ?? _tuned?.RescoreDepth ?? SharedOptions.RescoreDepth : 0;
         if (depth > 0 && ReadsFullVectorsExternally && _source is null)
         {
             SourceRows.ThrowNoSource();

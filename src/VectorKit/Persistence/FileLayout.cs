@@ -5,8 +5,11 @@ namespace VectorKit.Persistence;
 /// <summary>The fixed parts of the index file layout (see docs/index-file-format.md).</summary>
 internal static class FileLayout
 {
-    /// <summary>The format version this library writes. Readers accept every version from 1 up to this one.</summary>
-    public const uint CurrentVersion = 1;
+    /// <summary>
+    /// The newest format version this library writes. Readers accept every version from 1 up to this one. Version 2 added
+    /// the tuned search defaults (<see cref="TuningFields"/>); a file without them is still written as version 1.
+    /// </summary>
+    public const uint CurrentVersion = 2;
 
     /// <summary>Magic, version (u32), header length (u32).</summary>
     public const int PreambleBytes = 16;
@@ -35,10 +38,10 @@ internal static class FileLayout
     /// <summary>Zero bytes between a section frame ending at <paramref name="frameEnd"/> and its aligned payload.</summary>
     public static int PaddingAfter(long frameEnd) => (int)((PayloadAlignment - (frameEnd % PayloadAlignment)) % PayloadAlignment);
 
-    public static void WritePreamble(Span<byte> destination, int headerLength)
+    public static void WritePreamble(Span<byte> destination, int headerLength, uint version)
     {
         Magic.CopyTo(destination);
-        BinaryPrimitives.WriteUInt32LittleEndian(destination[8..], CurrentVersion);
+        BinaryPrimitives.WriteUInt32LittleEndian(destination[8..], version);
         BinaryPrimitives.WriteInt32LittleEndian(destination[12..], headerLength);
     }
 

@@ -58,7 +58,7 @@ public static class IndexFile
 
         // Small writes (frames, link blocks) are gathered; large ones pass straight through to the stream.
         var buffered = new BufferedStream(destination, 1 << 20);
-        codec.Save(index, new IndexFileWriter(buffered, cancellationToken));
+        codec.Save(index, new IndexFileWriter(buffered, cancellationToken, index as Indexes.VectorIndex));
         buffered.Flush();
     }
 
@@ -299,6 +299,7 @@ public static class IndexFile
             IVectorIndex index = codec.Load(header, reader);
             try
             {
+                TuningFields.Read(header, index);
                 reader.Finish(requireEnd);
             }
             catch

@@ -123,6 +123,7 @@ internal sealed class IndexFileReader
         }
 
         IndexHeader header = IndexHeader.Decode(head.AsMemory(FileLayout.PreambleBytes, headerLength));
+        header.FormatVersion = version;
         CheckCommon(header);
         _header = header;
         return header;

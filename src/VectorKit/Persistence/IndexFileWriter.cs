@@ -24,18 +24,24 @@ internal sealed class IndexFileWriter
     private long _sectionWritten;
     private long _position;
 
-    public IndexFileWriter(Stream stream, CancellationToken cancellationToken)
+    private readonly Indexes.VectorIndex? _index;
+
+    public IndexFileWriter(Stream stream, CancellationToken cancellationToken, Indexes.VectorIndex? index = null)
     {
         _stream = stream;
         _cancellationToken = cancellationToken;
+        _index = index;
     }
 
     public void WriteHeader(IndexHeader header)
     {
         _header = header;
+
+        // The fields every kind shares are added here, so that no codec has to remember them.
+        TuningFields.Write(header, _index);
         byte[] encoded = header.Encode();
         byte[] head = new byte[FileLayout.PreambleBytes + encoded.Length + FileLayout.ChecksumBytes];
-        FileLayout.WritePreamble(head, encoded.Length);
+        FileLayout.WritePreamble(head, encoded.Length, TuningFields.VersionFor(header));
         encoded.CopyTo(head, FileLayout.PreambleBytes);
         ulong checksum = XxHash3.HashToUInt64(head.AsSpan(0, FileLayout.PreambleBytes + encoded.Length));
         BinaryPrimitives.WriteUInt64LittleEndian(head.AsSpan(FileLayout.PreambleBytes + encoded.Length), checksum);

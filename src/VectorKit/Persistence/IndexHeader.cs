@@ -18,6 +18,9 @@ internal sealed class IndexHeader
 {
     public IndexKind Kind { get; set; }
 
+    /// <summary>The format version from the preamble (not part of the encoded map); set by the reader.</summary>
+    public uint FormatVersion { get; set; } = FileLayout.CurrentVersion;
+
     public DistanceMetric Metric { get; set; }
 
     public int Dimension { get; set; }

@@ -1,4 +1,5 @@
 using System.Diagnostics;
+using VectorKit.Evaluation;
 using VectorKit.Indexes;
 using VectorKit.Internal;
 

@@ -22,7 +22,7 @@ public class NamespaceLayeringTests
         ["VectorKit.Indexes"],
         ["VectorKit.Indexes.Exact", "VectorKit.Indexes.Graph", "VectorKit.Indexes.InvertedFile"],
         ["VectorKit.Evaluation"],
-        ["VectorKit.IO", "VectorKit.Persistence"],
+        ["VectorKit.IO", "VectorKit.Persistence", "VectorKit.Tuning"],
         ["VectorKit.Reranking"],
     ];
 

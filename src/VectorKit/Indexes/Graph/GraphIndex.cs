@@ -170,6 +170,9 @@ public sealed partial class GraphIndex : VectorIndex
     private protected override VectorIndexOptions SharedOptions => _options;
 
     /// <inheritdoc/>
+    private protected override (int Max, int Default, bool CoversDepth) WidthKnob => (TunedSearchDefaults.MaxSearchWidth, _options.SearchWidth, true);
+
+    /// <inheritdoc/>
     private protected override string NotTrainedMessage => "The graph index stores 8-bit codes and is not trained: call Train with a sample of at least one vector (a few thousand representative ones are plenty) before adding or searching.";
 
     /// <summary>
@@ -538,7 +541,7 @@ public sealed partial class GraphIndex : VectorIndex
         Func<long, bool>? filter = options.Filter;
         int depth = RescoreDepthFor(options);
 
-        int width = Math.Max(Math.Max(destination.Length, depth), options.SearchWidth ?? _options.SearchWidth);
+        int width = Math.Max(Math.Max(destination.Length, depth), SearchWidthFor(options, _options.SearchWidth));
 
         // Codes are read in lanes of up to 16: the query gets zeros up to the code length, which meet zero scales.
         int length = _codes?.Dimension ?? 0;

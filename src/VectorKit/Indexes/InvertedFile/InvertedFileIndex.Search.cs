@@ -44,7 +44,7 @@ public sealed partial class InvertedFileIndex
 
         int k = destination.Length;
         int lists = _options.ListCount;
-        int probes = Math.Min(options.SearchWidth ?? _options.SearchWidth, lists);
+        int probes = Math.Min(SearchWidthFor(options, _options.SearchWidth), lists);
         int depth = RescoreDepthFor(options);
         int candidates = Math.Min(Math.Max(k, depth), _count);
 

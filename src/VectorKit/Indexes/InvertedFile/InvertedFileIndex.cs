@@ -132,6 +132,9 @@ public sealed partial class InvertedFileIndex : VectorIndex
     private protected override VectorIndexOptions SharedOptions => _options;
 
     /// <inheritdoc/>
+    private protected override (int Max, int Default, bool CoversDepth) WidthKnob => (_options.ListCount, _options.SearchWidth, false);
+
+    /// <inheritdoc/>
     private protected override string NotTrainedMessage
         => $"The inverted-file index is not trained: call Train with a sample of at least {(_options.Encoding == VectorEncoding.ProductCodes ? Math.Max(_options.ListCount, ProductQuantizer.CodewordsPerSubspace) : _options.ListCount)} vectors before adding or searching.";
 

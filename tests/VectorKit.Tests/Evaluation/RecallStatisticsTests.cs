@@ -1,7 +1,7 @@
 using MathNet.Numerics.Distributions;
-using VectorKit.Reranking;
+using VectorKit.Evaluation;
 
-namespace VectorKit.Tests.Reranking;
+namespace VectorKit.Tests.Evaluation;
 
 public class RecallStatisticsTests
 {

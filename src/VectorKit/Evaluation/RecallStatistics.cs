@@ -1,4 +1,4 @@
-namespace VectorKit.Reranking;
+namespace VectorKit.Evaluation;
 
 /// <summary>
 /// The sampling uncertainty of a recall estimated on a sample of queries: Wilson score intervals on an effective

@@ -1,0 +1,568 @@
+using System.Diagnostics;
+using VectorKit.Evaluation;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+
+namespace VectorKit.Tuning;
+
+/// <summary>
+/// Chooses an index's default search settings from a recall target: measures recall@k against exact neighbours over
+/// a range of settings, picks the cheapest that meets the target, and reports the recall it gives on held-out queries.
+/// One implementation serves every index kind: the graph's search width, the inverted file's lists probed and
+/// re-scoring depth, and the 8-bit indexes' re-scoring depth.
+/// </summary>
+/// <remarks>
+/// <para><b>Ground truth</b> is exact search over the index's own vectors (<see cref="VectorIndex.TryGetVector"/>: the
+/// full vectors where the index keeps them, the decoded codes where it keeps none), copied a block at a time into an
+/// exact index, so memory grows by one block, not by a copy of the whole index.</para>
+/// <para><b>Queries.</b> Given queries should look like the searches the index will serve. Without them, queries are
+/// drawn from the index: stored vectors picked at random (with replacement), each moved by Gaussian noise of standard
+/// deviation <c>s / √dimension</c> per component, so the noise has length close to <c>s</c>, where <c>s</c> is
+/// <see cref="RecallTuningOptions.NoiseScale"/> times the median distance from a stored vector to its nearest other
+/// vector (measured on 64 of them). The noise keeps a query from being its own nearest neighbour at distance 0, which
+/// would overstate recall.</para>
+/// <para><b>Search over settings.</b> For each re-scoring depth (none, then k, 2k, 4k, ...; one pass when the index
+/// does not re-score) the width is doubled from its smallest useful value until a setting meets the target (or
+/// doubling it stops gaining recall: the depth is the limit), then bisected down to within 5 %; deeper re-scoring stops once the narrowest width meets the target, once the width no
+/// longer falls with the depth, or once two depths in a row cost more than the best so far. Each setting's time is the
+/// fastest of a few runs when one run is short. A setting meets the target when the lower end of its recall interval on the
+/// tuning queries does (Wilson intervals on an effective number of trials, as the re-ranking calibration uses). Of the
+/// settings that meet it, those needing a wider search at the same depth are dropped and the one with the least measured
+/// time per query is chosen.</para>
+/// <para><b>Thread safety.</b> Searches may run during tuning; writes should not, since they change the answers the
+/// ground truth was taken from.</para>
+/// </remarks>
+public static class RecallTuning
+{
+    // Rows copied into one exact block for the ground truth.
+    private const int TruthBlock = 65_536;
+
+    // A measurement shorter than this is repeated (at most MaxRepeats runs in all) and its fastest run kept.
+    private const double MinTimedSeconds = 0.05;
+    private const int MaxRepeats = 5;
+
+    // Below this gain in recall from doubling the width, the width search at a depth gives up (the depth limits it).
+    private const double PlateauGain = 0.001;
+
+    // Stored vectors whose nearest neighbour sets the noise of drawn queries.
+    private const int NoiseSample = 64;
+
+    /// <summary>Tunes <paramref name="index"/> on queries drawn from its own vectors.</summary>
+    /// <param name="index">A trained index holding at least k items.</param>
+    /// <param name="options">The target and sampling; <see langword="null"/> for <see cref="RecallTuningOptions.Default"/>.</param>
+    /// <param name="progress">Optional; receives each phase and each setting measured.</param>
+    /// <param name="cancellationToken">Checked between searches and blocks.</param>
+    /// <returns>The curve measured, the chosen setting and its held-out recall.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="index"/> is null.</exception>
+    /// <exception cref="ArgumentException">The index holds fewer than k items.</exception>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    public static TuningReport Tune(VectorIndex index, RecallTuningOptions? options = null, IProgress<TuningProgress>? progress = null, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        RecallTuningOptions o = options ?? RecallTuningOptions.Default;
+        CheckSize(index, o.K);
+        float[] queries = DrawQueries(index, o.DrawnQueries, o.NoiseScale, o.Seed, cancellationToken);
+        return Run(index, queries, drawn: true, o, progress, cancellationToken);
+    }
+
+    /// <summary>Tunes <paramref name="index"/> on the caller's queries.</summary>
+    /// <param name="index">A trained index holding at least k items.</param>
+    /// <param name="queries">At least two queries, row after row, like those the index will serve.</param>
+    /// <param name="options">The target and sampling; <see langword="null"/> for <see cref="RecallTuningOptions.Default"/>.</param>
+    /// <param name="progress">Optional; receives each phase and each setting measured.</param>
+    /// <param name="cancellationToken">Checked between searches and blocks.</param>
+    /// <returns>The curve measured, the chosen setting and its held-out recall.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="index"/> is null.</exception>
+    /// <exception cref="ArgumentException">The index holds fewer than k items, or <paramref name="queries"/> is not a multiple of the dimension, holds fewer than two queries or an invalid one.</exception>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    public static TuningReport Tune(VectorIndex index, ReadOnlySpan<float> queries, RecallTuningOptions? options = null, IProgress<TuningProgress>? progress = null, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        RecallTuningOptions o = options ?? RecallTuningOptions.Default;
+        CheckSize(index, o.K);
+        CheckQueries(queries, index.Dimension, 2);
+        return Run(index, queries.ToArray(), drawn: false, o, progress, cancellationToken);
+    }
+
+    /// <summary>
+    /// Measures the recall@k the index gives at its current defaults: a cheap re-check after many changes
+    /// (<see cref="VectorIndex.ChangesSinceTuning"/>). Uses <paramref name="queries"/>, or draws 200 as
+    /// <see cref="Tune(VectorIndex, RecallTuningOptions?, IProgress{TuningProgress}?, CancellationToken)"/> does.
+    /// </summary>
+    /// <param name="index">A trained index holding at least k items.</param>
+    /// <param name="queries">Queries row after row, or empty to draw them.</param>
+    /// <param name="options">Target, k, confidence, noise and seed (when the index was tuned, its target and k are used instead); <see langword="null"/> for the defaults.</param>
+    /// <param name="cancellationToken">Checked between blocks.</param>
+    /// <returns>The recall with its interval, and whether it falls short of the target.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="index"/> is null.</exception>
+    /// <exception cref="ArgumentException">The index holds fewer than k items, or a query is invalid.</exception>
+    /// <exception cref="IndexNotTrainedException">The index needs training and has not been trained.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
+    public static RecallCheck Check(VectorIndex index, ReadOnlySpan<float> queries = default, RecallTuningOptions? options = null, CancellationToken cancellationToken = default)
+    {
+        ArgumentNullException.ThrowIfNull(index);
+        RecallTuningOptions o = options ?? RecallTuningOptions.Default;
+        TunedSearchDefaults? tuned = index.TunedDefaults;
+        int k = tuned?.K ?? o.K;
+        double target = tuned?.TargetRecall ?? o.TargetRecall;
+        CheckSize(index, k);
+        float[] q;
+        if (queries.IsEmpty)
+        {
+            q = DrawQueries(index, 200, o.NoiseScale, o.Seed, cancellationToken);
+        }
+        else
+        {
+            CheckQueries(queries, index.Dimension, 1);
+            q = queries.ToArray();
+        }
+
+        long[][] truth = ExactNeighbors(index, q, k, cancellationToken);
+        long changes = index.ChangesSinceTuning;
+        TuningPoint p = Measure(index, q, truth, null, null, k, RecallStatistics.TwoSidedZ(o.Confidence), SearchOptions.Default.MaxDegreeOfParallelism, cancellationToken, useDefaults: true);
+        return new RecallCheck(target, k, p.Recall, p.RecallLow, p.RecallHigh, truth.Length, changes);
+    }
+
+    private static TuningReport Run(VectorIndex index, float[] queries, bool drawn, RecallTuningOptions o, IProgress<TuningProgress>? progress, CancellationToken ct)
+    {
+        int d = index.Dimension;
+        int k = o.K;
+        int n = queries.Length / d;
+        progress?.Report(new TuningProgress(TuningStage.GroundTruth, 0, null));
+
+        // A seeded shuffle splits the queries, so that given queries in some order (say by topic) split evenly.
+        int[] order = new int[n];
+        for (int i = 0; i < n; i++)
+        {
+            order[i] = i;
+        }
+
+        new Random(o.Seed).Shuffle(order);
+        int heldCount = Math.Clamp((int)Math.Round(n * o.HeldOutFraction), 1, n - 1);
+        int tuneCount = n - heldCount;
+        float[] tuneQueries = Rows(queries, order.AsSpan(0, tuneCount), d);
+        float[] heldQueries = Rows(queries, order.AsSpan(tuneCount), d);
+        long[][] tuneTruth = ExactNeighbors(index, tuneQueries, k, ct);
+        long[][] heldTruth = ExactNeighbors(index, heldQueries, k, ct);
+
+        double z = RecallStatistics.TwoSidedZ(o.Confidence);
+        SearchKnobs knobs = index.Knobs;
+        int count = index.Count;
+        var curve = new List<TuningPoint>();
+        var clock = Stopwatch.StartNew();
+        bool completed = true;
+
+        TuningPoint Try(int? width, int? depth)
+        {
+            ct.ThrowIfCancellationRequested();
+            if (o.TimeBudget is { } budget && clock.Elapsed > budget && curve.Count > 0)
+            {
+                throw new BudgetSpentException();
+            }
+
+            TuningPoint p = Measure(index, tuneQueries, tuneTruth, width, depth, k, z, o.MaxDegreeOfParallelism, ct, useDefaults: false);
+            curve.Add(p);
+            progress?.Report(new TuningProgress(TuningStage.Searching, curve.Count, p));
+            return p;
+        }
+
+        bool Meets(TuningPoint p) => p.RecallLow >= o.TargetRecall;
+
+        progress?.Report(new TuningProgress(TuningStage.Searching, 0, null));
+        try
+        {
+            int maxDepth = Math.Min(VectorIndexOptions.MaxRescoreDepth, count);
+            if (knobs.MaxWidth == 0 && !knobs.Rescores)
+            {
+                Try(null, null);
+            }
+            else if (knobs.MaxWidth == 0)
+            {
+                if (!Meets(Try(null, 0)))
+                {
+                    Smallest(Math.Min(k, maxDepth), maxDepth, v => Try(null, v), Meets);
+                }
+            }
+            else
+            {
+                double bestCost = double.PositiveInfinity;
+                int worse = 0;
+                int? previousWidth = null;
+                foreach (int? depth in Depths(knobs.Rescores, k, maxDepth))
+                {
+                    int low = knobs.WidthCoversDepth ? Math.Max(k, depth ?? 0) : 1;
+                    int high = knobs.WidthCoversDepth ? Math.Min(knobs.MaxWidth, count) : knobs.MaxWidth;
+                    low = Math.Min(low, high);
+                    TuningPoint? found = Smallest(low, high, w => Try(w, depth), Meets);
+                    if (found is null)
+                    {
+                        continue;
+                    }
+
+                    // Deeper re-scoring only adds cost once the width stops falling with it.
+                    if (found.SearchWidth == low || found.SearchWidth >= previousWidth)
+                    {
+                        break;
+                    }
+
+                    previousWidth = found.SearchWidth;
+
+                    if (found.MicrosecondsPerQuery < bestCost)
+                    {
+                        bestCost = found.MicrosecondsPerQuery;
+                        worse = 0;
+                    }
+                    else if (++worse == 2)
+                    {
+                        break;
+                    }
+                }
+            }
+        }
+        catch (BudgetSpentException)
+        {
+            completed = false;
+        }
+
+        (TuningPoint chosen, bool met) = Choose(curve, Meets);
+        progress?.Report(new TuningProgress(TuningStage.Verifying, curve.Count, chosen));
+        TuningPoint held = Measure(index, heldQueries, heldTruth, chosen.SearchWidth, chosen.RescoreDepth, k, z, o.MaxDegreeOfParallelism, ct, useDefaults: false);
+        TuningPoint untuned = Measure(
+            index,
+            heldQueries,
+            heldTruth,
+            knobs.MaxWidth > 0 ? knobs.DefaultWidth : null,
+            knobs.Rescores ? knobs.DefaultDepth : null,
+            k,
+            z,
+            o.MaxDegreeOfParallelism,
+            ct,
+            useDefaults: false);
+        if (o.ApplyDefaults)
+        {
+            index.ApplyTunedDefaults(new TunedSearchDefaults(chosen.SearchWidth, chosen.RescoreDepth, o.TargetRecall, k));
+        }
+
+        return new TuningReport(o.TargetRecall, k, o.Confidence, curve.ToArray(), chosen, held, untuned, met, completed, o.ApplyDefaults, tuneCount, heldCount, drawn);
+    }
+
+    // No re-scoring, then k, 2k, 4k, ... up to the cap; a single pass without a depth when the index does not re-score.
+    private static IEnumerable<int?> Depths(bool rescores, int k, int maxDepth)
+    {
+        if (!rescores)
+        {
+            yield return null;
+            yield break;
+        }
+
+        yield return 0;
+        for (long depth = k; depth <= maxDepth; depth *= 2)
+        {
+            yield return (int)depth;
+        }
+    }
+
+    // The smallest value in [low, high] whose point meets the target, to within 5 %: doubling, then bisection.
+    private static TuningPoint? Smallest(int low, int high, Func<int, TuningPoint> measure, Func<TuningPoint, bool> meets)
+    {
+        int failing = low - 1;
+        int value = low;
+        TuningPoint passing;
+        double previous = double.NegativeInfinity;
+        while (true)
+        {
+            TuningPoint p = measure(value);
+            if (meets(p))
+            {
+                passing = p;
+                break;
+            }
+
+            // A doubled width that gains (almost) nothing has reached what this depth can give: wider only costs more.
+            if (value >= high || p.Recall - previous < PlateauGain)
+            {
+                return null;
+            }
+
+            previous = p.Recall;
+
+            failing = value;
+            value = (int)Math.Min(high, Math.Max(value + 1L, value * 2L));
+        }
+
+        while (value - failing > 1 && value - failing > value / 20)
+        {
+            int middle = failing + ((value - failing) / 2);
+            TuningPoint p = measure(middle);
+            if (meets(p))
+            {
+                value = middle;
+                passing = p;
+            }
+            else
+            {
+                failing = middle;
+            }
+        }
+
+        return passing;
+    }
+
+    // Of the points meeting the target, the cheapest once those wider than another at the same depth are dropped (one
+    // knob's cost rises with it; timing noise must not pick a wider search); else the highest recall.
+    private static (TuningPoint Chosen, bool Met) Choose(List<TuningPoint> curve, Func<TuningPoint, bool> meets)
+    {
+        TuningPoint? best = null;
+        foreach (TuningPoint p in curve)
+        {
+            if (!meets(p) || Dominated(p))
+            {
+                continue;
+            }
+
+            if (best is null || p.MicrosecondsPerQuery < best.MicrosecondsPerQuery)
+            {
+                best = p;
+            }
+        }
+
+        if (best is not null)
+        {
+            return (best, true);
+        }
+
+        TuningPoint top = curve[0];
+        foreach (TuningPoint p in curve)
+        {
+            if (p.Recall > top.Recall || (p.Recall == top.Recall && p.MicrosecondsPerQuery < top.MicrosecondsPerQuery))
+            {
+                top = p;
+            }
+        }
+
+        return (top, false);
+
+        bool Dominated(TuningPoint p)
+        {
+            foreach (TuningPoint other in curve)
+            {
+                if (!meets(other))
+                {
+                    continue;
+                }
+
+                bool sameDepth = other.RescoreDepth == p.RescoreDepth;
+                bool narrower = p.SearchWidth is { } w
+                    ? sameDepth && other.SearchWidth < w
+                    : other.SearchWidth is null && other.RescoreDepth < p.RescoreDepth;
+                if (narrower)
+                {
+                    return true;
+                }
+            }
+
+            return false;
+        }
+    }
+
+    private static TuningPoint Measure(VectorIndex index, float[] queries, long[][] truth, int? width, int? depth, int k, double z, int parallelism, CancellationToken ct, bool useDefaults)
+    {
+        // Spelled out even where a value is null, so that earlier tuned defaults never stand in for a setting under test
+        // (null width or depth: the kind has none); the re-check alone measures the defaults themselves.
+        var search = useDefaults
+            ? new SearchOptions { MaxDegreeOfParallelism = parallelism }
+            : new SearchOptions { SearchWidth = width, RescoreDepth = depth, MaxDegreeOfParallelism = parallelism };
+
+        long start = Stopwatch.GetTimestamp();
+        BatchSearchResults results = index.SearchBatch(queries, k, search, null, ct);
+        double seconds = Stopwatch.GetElapsedTime(start).TotalSeconds;
+
+        // A short run is repeated and its fastest time kept: other work on the machine only ever adds time.
+        for (int repeat = 1; repeat < MaxRepeats && seconds * repeat < MinTimedSeconds; repeat++)
+        {
+            start = Stopwatch.GetTimestamp();
+            index.SearchBatch(queries, k, search, null, ct);
+            seconds = Math.Min(seconds, Stopwatch.GetElapsedTime(start).TotalSeconds);
+        }
+        int threads = parallelism == -1 ? Environment.ProcessorCount : parallelism;
+        int n = truth.Length;
+        int[] found = new int[n];
+        for (int q = 0; q < n; q++)
+        {
+            ReadOnlySpan<SearchHit> hits = results[q];
+            long[] row = truth[q];
+            int hit = 0;
+            for (int i = 0; i < hits.Length; i++)
+            {
+                if (Array.IndexOf(row, hits[i].Id) >= 0)
+                {
+                    hit++;
+                }
+            }
+
+            found[q] = hit;
+        }
+
+        (double mean, double low, double high) = RecallStatistics.Estimate(found, k, z);
+        return new TuningPoint(width, depth, mean, low, high, seconds * 1e6 * Math.Min(threads, Math.Max(1, n)) / n);
+    }
+
+    /// <summary>
+    /// The exact k nearest of each query among the index's vectors, ties by ascending id: blocks of the index's rows are
+    /// copied into an exact index one at a time, each block's best k kept, and the candidates merged at the end.
+    /// </summary>
+    internal static long[][] ExactNeighbors(VectorIndex index, float[] queries, int k, CancellationToken ct)
+    {
+        int d = index.Dimension;
+        int n = queries.Length / d;
+        var candidates = new List<SearchHit>[n];
+        for (int q = 0; q < n; q++)
+        {
+            candidates[q] = new List<SearchHit>();
+        }
+
+        long[] ids = index.GetIds();
+        float[] block = new float[Math.Min(ids.Length, TruthBlock) * d];
+        for (int start = 0; start < ids.Length; start += TruthBlock)
+        {
+            ct.ThrowIfCancellationRequested();
+            int length = Math.Min(TruthBlock, ids.Length - start);
+            var blockIds = new List<long>(length);
+            for (int i = 0; i < length; i++)
+            {
+                // An id removed since GetIds is skipped.
+                if (index.TryGetVector(ids[start + i], block.AsSpan(blockIds.Count * d, d)))
+                {
+                    blockIds.Add(ids[start + i]);
+                }
+            }
+
+            if (blockIds.Count == 0)
+            {
+                continue;
+            }
+
+            using var exact = new ExactIndex(d, index.Metric);
+            exact.AddRange(blockIds.ToArray(), block.AsSpan(0, blockIds.Count * d), null, ct);
+            BatchSearchResults results = exact.SearchBatch(queries, k, null, null, ct);
+            for (int q = 0; q < n; q++)
+            {
+                candidates[q].AddRange(results[q]);
+            }
+        }
+
+        var truth = new long[n][];
+        for (int q = 0; q < n; q++)
+        {
+            List<SearchHit> all = candidates[q];
+            all.Sort(static (a, b) => a.Distance != b.Distance ? a.Distance.CompareTo(b.Distance) : a.Id.CompareTo(b.Id));
+            int take = Math.Min(k, all.Count);
+            truth[q] = new long[take];
+            for (int i = 0; i < take; i++)
+            {
+                truth[q][i] = all[i].Id;
+            }
+        }
+
+        return truth;
+    }
+
+    /// <summary>Queries drawn from the index's vectors with Gaussian noise (see the class remarks).</summary>
+    internal static float[] DrawQueries(VectorIndex index, int count, double noiseScale, int seed, CancellationToken ct)
+    {
+        int d = index.Dimension;
+        long[] ids = index.GetIds();
+        var random = new Random(seed);
+
+        // The typical nearest-neighbour distance, from a few stored vectors (each finds itself first).
+        int sampled = Math.Min(NoiseSample, ids.Length);
+        float[] sample = new float[sampled * d];
+        long[] sampleIds = new long[sampled];
+        for (int i = 0; i < sampled; i++)
+        {
+            sampleIds[i] = ids[random.Next(ids.Length)];
+            index.TryGetVector(sampleIds[i], sample.AsSpan(i * d, d));
+        }
+
+        long[][] near = ExactNeighbors(index, sample, 2, ct);
+        var distances = new List<double>(sampled);
+        float[] other = new float[d];
+        for (int i = 0; i < sampled; i++)
+        {
+            foreach (long id in near[i])
+            {
+                if (id != sampleIds[i] && index.TryGetVector(id, other))
+                {
+                    double sum = 0;
+                    for (int j = 0; j < d; j++)
+                    {
+                        double diff = sample[(i * d) + j] - other[j];
+                        sum += diff * diff;
+                    }
+
+                    distances.Add(Math.Sqrt(sum));
+                    break;
+                }
+            }
+        }
+
+        distances.Sort();
+        double typical = distances.Count == 0 ? 0 : distances[distances.Count / 2];
+        double sigma = noiseScale * typical / Math.Sqrt(d);
+
+        float[] queries = new float[count * d];
+        for (int i = 0; i < count; i++)
+        {
+            Span<float> row = queries.AsSpan(i * d, d);
+            while (!index.TryGetVector(ids[random.Next(ids.Length)], row))
+            {
+                // Removed since GetIds: draw again.
+            }
+
+            for (int j = 0; j < d; j++)
+            {
+                row[j] += (float)(sigma * Gaussian(random));
+            }
+        }
+
+        return queries;
+    }
+
+    // Box–Muller; 1 − NextDouble() lies in (0, 1], so the logarithm is finite.
+    private static double Gaussian(Random random)
+        => Math.Sqrt(-2 * Math.Log(1 - random.NextDouble())) * Math.Cos(2 * Math.PI * random.NextDouble());
+
+    private static float[] Rows(float[] queries, ReadOnlySpan<int> rows, int d)
+    {
+        float[] result = new float[rows.Length * d];
+        for (int i = 0; i < rows.Length; i++)
+        {
+            queries.AsSpan(rows[i] * d, d).CopyTo(result.AsSpan(i * d));
+        }
+
+        return result;
+    }
+
+    private static void CheckSize(VectorIndex index, int k)
+    {
+        int count = index.Count;
+        if (count < k)
+        {
+            ThrowHelper.ThrowArgument(nameof(index), $"The index holds {count} items; tuning recall@{k} needs at least {k}.");
+        }
+    }
+
+    private static void CheckQueries(ReadOnlySpan<float> queries, int dimension, int least)
+    {
+        if (queries.Length % dimension != 0 || queries.Length / dimension < least)
+        {
+            ThrowHelper.ThrowArgument(nameof(queries), $"The queries hold {queries.Length} components; expected a multiple of the dimension {dimension}, at least {least} queries.");
+        }
+    }
+
+    private sealed class BudgetSpentException : Exception
+    {
+    }
+}
