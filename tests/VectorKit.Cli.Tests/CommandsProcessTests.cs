@@ -84,6 +84,21 @@ public sealed class CommandsProcessTests : IDisposable
 
         Tool.Outcome tuned = Run("tune", "--index", "ivf.vkx", "-q", "queries.fvecs", "--data", "data.fvecs", "--target-recall", "0.9", "--whole-ladder", "--report", "tune.json");
         Assert.Contains("chosen search width", tuned.Output, StringComparison.Ordinal);
+
+        // --store: the chosen width becomes the file's tuned default, and a search without --search-width uses it.
+        Tool.Outcome stored = Run("tune", "--index", "ivf.vkx", "-q", "queries.fvecs", "--data", "data.fvecs", "--target-recall", "0.9", "--store", "--report", "stored.json");
+        Assert.Contains("saved into", stored.Output, StringComparison.Ordinal);
+        int chosenWidth;
+        using (JsonDocument storedReport = JsonDocument.Parse(File.ReadAllBytes(Path.Combine(_folder, "stored.json"))))
+        {
+            chosenWidth = storedReport.RootElement.GetProperty("chosenSearchWidth").GetInt32();
+        }
+
+        using (var reloaded = VectorKit.Persistence.IndexFile.Load<VectorKit.Indexes.InvertedFile.InvertedFileIndex>(Path.Combine(_folder, "ivf.vkx")))
+        {
+            Assert.Equal(chosenWidth, reloaded.TunedDefaults?.SearchWidth);
+            Assert.Equal(2_000, reloaded.Count);
+        }
         Run("evaluate", "--index", "ivf.vkx", "-q", "queries.fvecs", "--data", "data.fvecs", "--report", "evaluate.json");
         Run("plot", "recall-curves", "tune.json", "-o", "curves.png");
         Run("plot", "recall-histogram", "evaluate.json", "-o", "histogram.png");

@@ -2,15 +2,19 @@ using System.CommandLine;
 using System.Globalization;
 using System.Text.Json;
 using Spectre.Console;
+using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.InvertedFile;
+using VectorKit.Persistence;
 
 namespace VectorKit.Cli.Commands;
 
 /// <summary>
 /// <c>tune</c>: a sweep over the index's search width (graph: candidates kept; inverted file: lists probed) that picks
-/// the smallest width whose recall@k meets a target. The library has no way yet to change the default stored in a
-/// saved index, so the choice is printed and written to the report, and is applied with <c>search --search-width</c>.
+/// the smallest width whose recall@k meets a target. The choice is printed and written to the report; with
+/// <c>--store</c> it becomes the index's tuned default search width, saved into the index file atomically, so later
+/// searches use it without <c>--search-width</c>. (The library's <c>RecallTuning</c>, which also tunes re-scoring
+/// depths and holds queries out, is not used here yet.)
 /// </summary>
 internal static class TuneCommand
 {
@@ -22,9 +26,10 @@ internal static class TuneCommand
         var widths = new Option<string?>("--widths") { Description = "Comma-separated search widths to try, in increasing order. Default: a ladder suited to the kind." };
         var all = new Option<bool>("--whole-ladder") { Description = "Measure every width of the ladder (for plots) instead of stopping at the first that meets the target." };
         var report = new Option<string?>("--report") { Description = "Write every measured point as JSON to this file (input of 'plot recall-curves')." };
-        var command = new Command("tune", "Sweep the search width of a saved index and pick the smallest that reaches a recall target (not stored in the index: pass it to search --search-width).")
+        var store = new Option<bool>("--store") { Description = "Save the chosen width into the index file as its tuned default search width (atomically), so searches use it without --search-width." };
+        var command = new Command("tune", "Sweep the search width of a saved index and pick the smallest that reaches a recall target; --store saves it into the index file as its default.")
         {
-            index, queries, truth, data, ids, count, dataRows, format, k, threads, fullVectors, target, widths, all, report,
+            index, queries, truth, data, ids, count, dataRows, format, k, threads, fullVectors, target, widths, all, report, store,
         };
         command.SetAction(parsed =>
         {
@@ -80,7 +85,18 @@ internal static class TuneCommand
                 return ExitCodes.TargetNotReached;
             }
 
-            context.Output.WriteLine($"chosen search width: {chosen.SearchWidth} (recall@{m.K} {chosen.Recall.ToString("F4", CultureInfo.InvariantCulture)}). It is not stored in the index; search with --search-width {chosen.SearchWidth}.");
+            string recall = chosen.Recall.ToString("F4", CultureInfo.InvariantCulture);
+            if (parsed.GetValue(store) && m.Index is VectorIndex tunable)
+            {
+                tunable.ApplyTunedDefaults(new TunedSearchDefaults(chosen.SearchWidth, rescoreDepth: null, goal, m.K));
+                IndexFile.Save(tunable, m.IndexPath, context.Stop);
+                context.Output.WriteLine($"chosen search width: {chosen.SearchWidth} (recall@{m.K} {recall}), saved into {m.IndexPath} as its default.");
+            }
+            else
+            {
+                context.Output.WriteLine($"chosen search width: {chosen.SearchWidth} (recall@{m.K} {recall}). It is not stored in the index (add --store); search with --search-width {chosen.SearchWidth}.");
+            }
+
             return ExitCodes.Success;
         });
         return command;
