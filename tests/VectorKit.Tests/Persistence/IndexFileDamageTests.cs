@@ -242,7 +242,7 @@ public class IndexFileDamageTests
     }
 
     [Theory]
-    [InlineData(2u)]
+    [InlineData(FileLayout.CurrentVersion + 1)]
     [InlineData(0xFFFFFFFFu)]
     [Trait("Weakness", "CWE-20 input validation")]
     public void AFutureFormatVersion_FailsNamingBothVersions(uint version)
