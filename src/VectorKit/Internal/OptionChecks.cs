@@ -49,4 +49,15 @@ internal static class OptionChecks
 
         return value;
     }
+
+    /// <summary>A fraction strictly between 0 and 1 (a confidence level, a held-out share); NaN fails.</summary>
+    public static double OpenUnitInterval(double value, string name)
+    {
+        if (!(value > 0 && value < 1))
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(name, value, "must be in (0, 1)");
+        }
+
+        return value;
+    }
 }

@@ -50,15 +50,7 @@ public sealed class CalibrationOptions
     public double Confidence
     {
         get => _confidence;
-        init
-        {
-            if (!(value > 0 && value < 1))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(Confidence), value, "must be in (0, 1)");
-            }
-
-            _confidence = value;
-        }
+        init => _confidence = OptionChecks.OpenUnitInterval(value, nameof(Confidence));
     }
 
     /// <summary>
@@ -85,15 +77,7 @@ public sealed class CalibrationOptions
     public double HeldOutFraction
     {
         get => _heldOutFraction;
-        init
-        {
-            if (!(value > 0 && value < 1))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(HeldOutFraction), value, "must be in (0, 1)");
-            }
-
-            _heldOutFraction = value;
-        }
+        init => _heldOutFraction = OptionChecks.OpenUnitInterval(value, nameof(HeldOutFraction));
     }
 
     /// <summary>How a depth is judged to meet the target on the tuning queries. Default <see cref="CalibrationSelection.LowerConfidenceBound"/>.</summary>

@@ -51,15 +51,7 @@ public sealed class RecallTuningOptions
     public double Confidence
     {
         get => _confidence;
-        init
-        {
-            if (!(value > 0 && value < 1))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(Confidence), value, "must be in (0, 1)");
-            }
-
-            _confidence = value;
-        }
+        init => _confidence = OptionChecks.OpenUnitInterval(value, nameof(Confidence));
     }
 
     /// <summary>The fraction of the queries kept out of tuning to report the chosen setting's recall on, in (0, 1). Default 0.5.</summary>
@@ -67,15 +59,7 @@ public sealed class RecallTuningOptions
     public double HeldOutFraction
     {
         get => _heldOutFraction;
-        init
-        {
-            if (!(value > 0 && value < 1))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(HeldOutFraction), value, "must be in (0, 1)");
-            }
-
-            _heldOutFraction = value;
-        }
+        init => _heldOutFraction = OptionChecks.OpenUnitInterval(value, nameof(HeldOutFraction));
     }
 
     /// <summary>Queries drawn from the index's own vectors when the caller gives none, 2 to 1,000,000. Default 1,000.</summary>
