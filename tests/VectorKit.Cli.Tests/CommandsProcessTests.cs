@@ -99,6 +99,17 @@ public sealed class CommandsProcessTests : IDisposable
             Assert.Equal(chosenWidth, reloaded.TunedDefaults?.SearchWidth);
             Assert.Equal(2_000, reloaded.Count);
         }
+
+        // --recall-tuning: the library's tuning, with held-out recall, stored the same way. Its intervals need more than
+        // the 50 test queries to clear 0.9, so the stored rows serve as queries here.
+        Tool.Outcome library = Tool.Run(_folder, "--quiet", "tune", "--index", "ivf.vkx", "-q", "data.fvecs", "--data", "data.fvecs", "--target-recall", "0.9", "--recall-tuning", "--store");
+        Assert.True(library.ExitCode == 0, library.Output + library.Error);
+        Assert.Contains("held out: chosen", library.Output, StringComparison.Ordinal);
+        Assert.Contains("applied as the index's defaults", library.Output, StringComparison.Ordinal);
+        using (var reloaded = VectorKit.Persistence.IndexFile.Load<VectorKit.Indexes.InvertedFile.InvertedFileIndex>(Path.Combine(_folder, "ivf.vkx")))
+        {
+            Assert.Equal(0.9, reloaded.TunedDefaults?.TargetRecall);
+        }
         Run("evaluate", "--index", "ivf.vkx", "-q", "queries.fvecs", "--data", "data.fvecs", "--report", "evaluate.json");
         Run("plot", "recall-curves", "tune.json", "-o", "curves.png");
         Run("plot", "recall-histogram", "evaluate.json", "-o", "histogram.png");

@@ -6,6 +6,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.Persistence;
+using VectorKit.Tuning;
 
 namespace VectorKit.Cli.Commands;
 
@@ -13,8 +14,9 @@ namespace VectorKit.Cli.Commands;
 /// <c>tune</c>: a sweep over the index's search width (graph: candidates kept; inverted file: lists probed) that picks
 /// the smallest width whose recall@k meets a target. The choice is printed and written to the report; with
 /// <c>--store</c> it becomes the index's tuned default search width, saved into the index file atomically, so later
-/// searches use it without <c>--search-width</c>. (The library's <c>RecallTuning</c>, which also tunes re-scoring
-/// depths and holds queries out, is not used here yet.)
+/// searches use it without <c>--search-width</c>. With <c>--recall-tuning</c> the library's <c>RecallTuning</c> runs
+/// instead: it also tunes the re-scoring depth, splits the queries into a tuning and a held-out part, and reports the
+/// recall interval and the held-out recall beside the untuned defaults.
 /// </summary>
 internal static class TuneCommand
 {
@@ -26,10 +28,11 @@ internal static class TuneCommand
         var widths = new Option<string?>("--widths") { Description = "Comma-separated search widths to try, in increasing order. Default: a ladder suited to the kind." };
         var all = new Option<bool>("--whole-ladder") { Description = "Measure every width of the ladder (for plots) instead of stopping at the first that meets the target." };
         var report = new Option<string?>("--report") { Description = "Write every measured point as JSON to this file (input of 'plot recall-curves')." };
-        var store = new Option<bool>("--store") { Description = "Save the chosen width into the index file as its tuned default search width (atomically), so searches use it without --search-width." };
+        var store = new Option<bool>("--store") { Description = "Save the chosen setting into the index file as its tuned default (atomically), so searches use it without --search-width." };
+        var library = new Option<bool>("--recall-tuning") { Description = "Tune with the library's recall tuning (search width and re-scoring depth, held-out queries, recall intervals) instead of the width sweep." };
         var command = new Command("tune", "Sweep the search width of a saved index and pick the smallest that reaches a recall target; --store saves it into the index file as its default.")
         {
-            index, queries, truth, data, ids, count, dataRows, format, k, threads, fullVectors, target, widths, all, report, store,
+            index, queries, truth, data, ids, count, dataRows, format, k, threads, fullVectors, target, widths, all, report, store, library,
         };
         command.SetAction(parsed =>
         {
@@ -44,6 +47,11 @@ internal static class TuneCommand
                 parsed.GetValue(count), Shared.ParseFormat(parsed.GetValue(format)!), Shared.Positive(parsed.GetValue(k), "--k"),
                 Shared.PositiveOrNull(parsed.GetValue(dataRows), "--data-rows"),
                 parsed.GetValue(fullVectors));
+            if (parsed.GetValue(library))
+            {
+                return TuneWithLibrary(context, m, goal, parsed.GetValue(store));
+            }
+
             int[] ladder = Ladder(m, parsed.GetValue(widths));
             var points = new List<MeasuredPoint>();
             MeasuredPoint? chosen = null;
@@ -100,6 +108,30 @@ internal static class TuneCommand
             return ExitCodes.Success;
         });
         return command;
+    }
+
+    // The library's tuning on the given queries (it takes exact neighbours over the index's own vectors as the truth).
+    private static int TuneWithLibrary(CommandContext context, Measurement m, double goal, bool store)
+    {
+        if (m.Index is not VectorIndex tunable || m.Index is ExactIndex)
+        {
+            throw new UsageException("--recall-tuning needs a graph or inverted-file index");
+        }
+
+        TuningReport tuned = RecallTuning.Tune(tunable, m.Queries.Data, new RecallTuningOptions { TargetRecall = goal, K = m.K, ApplyDefaults = store }, cancellationToken: context.Stop);
+        context.Output.WriteLine(tuned.ToString());
+        if (!tuned.TargetMet)
+        {
+            return ExitCodes.TargetNotReached;
+        }
+
+        if (store)
+        {
+            IndexFile.Save(tunable, m.IndexPath, context.Stop);
+            context.Output.WriteLine($"saved into {m.IndexPath} as its default.");
+        }
+
+        return ExitCodes.Success;
     }
 
     private static int[] Ladder(Measurement m, string? given)
