@@ -4,6 +4,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
 using VectorKit.Quantization;
+using VectorKit.Tests.Indexes.Contract;
 using VectorKit.Tests.TestData;
 using Xunit;
 
@@ -309,10 +310,5 @@ public class Scalar8BitGraphIndexTests
     {
         double norm = Math.Sqrt(v.Sum(x => (double)x * x));
         return v.Select(x => (float)(x / norm)).ToArray();
-    }
-
-    private sealed class SynchronousProgress<T>(Action<T> report) : IProgress<T>
-    {
-        public void Report(T value) => report(value);
     }
 }
