@@ -60,4 +60,15 @@ internal static class OptionChecks
 
         return value;
     }
+
+    /// <summary>A recall target: above 0, at most 1; NaN fails.</summary>
+    public static double Recall(double value, string name)
+    {
+        if (!(value > 0 && value <= 1))
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(name, value, "must be in (0, 1]");
+        }
+
+        return value;
+    }
 }

@@ -26,15 +26,7 @@ public sealed class CalibrationOptions
     public double TargetRecall
     {
         get => _targetRecall;
-        init
-        {
-            if (!(value > 0 && value <= 1))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(TargetRecall), value, "must be in (0, 1]");
-            }
-
-            _targetRecall = value;
-        }
+        init => _targetRecall = OptionChecks.Recall(value, nameof(TargetRecall));
     }
 
     /// <summary>Results per query (k) the recall is measured on. Default 10.</summary>

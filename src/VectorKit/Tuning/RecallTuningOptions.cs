@@ -23,15 +23,7 @@ public sealed class RecallTuningOptions
     public double TargetRecall
     {
         get => _targetRecall;
-        init
-        {
-            if (!(value > 0 && value <= 1))
-            {
-                ThrowHelper.ThrowArgumentOutOfRange(nameof(TargetRecall), value, "must be in (0, 1]");
-            }
-
-            _targetRecall = value;
-        }
+        init => _targetRecall = OptionChecks.Recall(value, nameof(TargetRecall));
     }
 
     /// <summary>The number of neighbours the recall counts, 1 to <see cref="Indexes.TunedSearchDefaults.MaxK"/>. Default 10.</summary>
