@@ -59,7 +59,7 @@ public static class Program
             int items = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 100_000;
             int hidden = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 400;
             int baseline = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 16;
-            Reranking.RerankingHarness.Run(items, hidden, baseline);
+            Reranking.RerankingHarness.Run(items, hidden, baseline, args.Contains("tuned-codes"));
             return;
         }
 

@@ -2,8 +2,11 @@ using System.Diagnostics;
 using System.Globalization;
 using VectorKit.Distance;
 using VectorKit.Evaluation;
+using VectorKit.Indexes;
 using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
 using VectorKit.Reranking;
+using VectorKit.Tuning;
 
 namespace VectorKit.Benchmarks.Reranking;
 
@@ -11,7 +14,9 @@ namespace VectorKit.Benchmarks.Reranking;
 /// The re-ranking benchmark (<c>-- reranking [items] [hidden width]</c>): a collection of 100,000 items with 64-d
 /// clustered embeddings and attributes, a pairwise scorer costing about 20 µs per pair, and — side by side in one
 /// run, on the same queries and threads — scoring everything against a calibrated pipeline over a graph index:
-/// scorer calls per query, queries/s, and the pipeline's recall of the exhaustive top 10.
+/// scorer calls per query, queries/s, and the pipeline's recall of the exhaustive top 10. With <c>tuned-codes</c> the
+/// index is an inverted file of product codes tuned to a recall target first, and the calibration adds an exact
+/// re-scoring stage over the full vectors, choosing the depths jointly and reporting where the recall went.
 /// </summary>
 public static class RerankingHarness
 {
@@ -19,7 +24,7 @@ public static class RerankingHarness
     private const int K = 10;
     private const int Kinds = 200;
 
-    public static void Run(int itemCount, int hiddenWidth, int baselineQueries)
+    public static void Run(int itemCount, int hiddenWidth, int baselineQueries, bool tunedCodes = false)
     {
         CultureInfo.CurrentCulture = CultureInfo.InvariantCulture;
         int threads = Environment.ProcessorCount;
@@ -53,13 +58,24 @@ public static class RerankingHarness
         Console.WriteLine($"Scorer: MLP {2 * Dimension} → {hiddenWidth} → {Math.Max(1, hiddenWidth / 3)} → 1 plus business terms: {microsecondsPerPair:0.0} µs per pair (one thread, best of 5 passes over 1,024 consecutive ids).");
 
         var clock = Stopwatch.StartNew();
-        using var index = new GraphIndex(Dimension, DistanceMetric.Cosine);
         long[] ids = Enumerable.Range(0, itemCount).Select(i => (long)i).ToArray();
-        index.AddRange(ids, items);
-        Console.WriteLine($"Graph index (defaults) built in {clock.Elapsed.TotalSeconds:0.0} s.");
+        using VectorIndex index = tunedCodes ? BuildTunedCodes(ids, items) : new GraphIndex(Dimension, DistanceMetric.Cosine);
+        if (!tunedCodes)
+        {
+            index.AddRange(ids, items);
+            Console.WriteLine($"Graph index (defaults) built in {clock.Elapsed.TotalSeconds:0.0} s.");
+        }
 
         // Calibration: the smallest depth keeping 0.95 of the exhaustive top 10 (lower confidence bound on tuning queries).
-        var options = new CalibrationOptions { TargetRecall = 0.95, FinalCount = K, MaxUncertainty = 0.05, Seed = 1 };
+        var options = new CalibrationOptions
+        {
+            TargetRecall = 0.95,
+            FinalCount = K,
+            MaxUncertainty = 0.05,
+            Seed = 1,
+            ExactRescoringOverfetch = tunedCodes ? 4 : null,
+            FullVectors = tunedCodes ? new RowVectors(items, Dimension) : null,
+        };
         GearQuery[] sample = Queries(RerankingCalibration.RequiredSampleSize(options), seed: 2);
         clock.Restart();
         CalibrationReport report = RerankingCalibration.Calibrate(index, scorer, sample, options);
@@ -72,7 +88,7 @@ public static class RerankingHarness
         long[][] truth = RerankingCalibration.ScoreEverything(scorer, evaluation, ids, K);
         double exhaustiveSeconds = clock.Elapsed.TotalSeconds;
 
-        var pipeline = new RerankingPipeline<GearQuery>(index, scorer, report.Settings);
+        var pipeline = new RerankingPipeline<GearQuery>(index, scorer, report.Settings, options.FullVectors);
         pipeline.RerankBatch(evaluation);   // warm-up
         GearQuery[] many = Queries(Math.Max(200, baselineQueries), seed: 4);
         clock.Restart();
@@ -91,6 +107,43 @@ public static class RerankingHarness
         Console.WriteLine($"| score everything | {itemCount:N0} | {exhaustiveQps:0.###} | 1 (by definition) | {evaluation.Length} |");
         Console.WriteLine($"| calibrated pipeline (depth {report.Settings.RetrievalDepth}) | {pipelineCalls:N0} | {pipelineQps:0.#} | {recall:0.000} on those {evaluation.Length}; held-out {report.HeldOutRecall:0.000} [{report.HeldOutRecallLow:0.000}, {report.HeldOutRecallHigh:0.000}] | {many.Length} |");
         Console.WriteLine($"| ratio | {itemCount / pipelineCalls:0.#}x fewer | {pipelineQps / exhaustiveQps:0.#}x | | |");
+    }
+
+    // An inverted file of 32-byte product codes without full vectors, tuned to recall@10 0.9 of its own metric on
+    // queries drawn from its vectors; the pipeline's exact stage reads the full vectors from the caller's rows.
+    private static VectorIndex BuildTunedCodes(long[] ids, float[] items)
+    {
+        var clock = Stopwatch.StartNew();
+        var index = new InvertedFileIndex(Dimension, DistanceMetric.Cosine, new InvertedFileOptions
+        {
+            Encoding = VectorEncoding.ProductCodes,
+            ProductCodeBytes = 32,
+            RescoreDepth = 0,
+            ListCount = 256,
+        });
+        index.Train(items);
+        index.AddRange(ids, items);
+        Console.WriteLine($"Inverted file (256 lists, 32-byte product codes, no full vectors) built in {clock.Elapsed.TotalSeconds:0.0} s.");
+        clock.Restart();
+        TuningReport tuning = RecallTuning.Tune(index, new RecallTuningOptions { TargetRecall = 0.9, K = K });
+        Console.WriteLine($"Tuned to recall@{K} 0.9 in {clock.Elapsed.TotalSeconds:0} s: {index.TunedDefaults}; held-out recall {tuning.HeldOut.Recall:0.000} [{tuning.HeldOut.RecallLow:0.000}, {tuning.HeldOut.RecallHigh:0.000}].");
+        return index;
+    }
+
+    private sealed class RowVectors(float[] rows, int dimension) : IFullVectorSource
+    {
+        public int Dimension => dimension;
+
+        public bool TryGetVector(long id, Span<float> destination)
+        {
+            if ((ulong)id >= (ulong)(rows.Length / dimension))
+            {
+                return false;
+            }
+
+            rows.AsSpan((int)id * dimension, dimension).CopyTo(destination);
+            return true;
+        }
     }
 
     private static double TimeScorer(MlpScorer scorer, GearQuery query, int itemCount)

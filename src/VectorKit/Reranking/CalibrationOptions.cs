@@ -133,8 +133,9 @@ public sealed class CalibrationOptions
     }
 
     /// <summary>
-    /// When set, calibrates an exact re-scoring stage too: retrieval fetches this many times the depth that retrieval
-    /// alone would need, and the exact stage's depth is chosen. <see langword="null"/> (the default): no exact stage.
+    /// When set, calibrates an exact re-scoring stage too, choosing the retrieval and exact depths jointly: retrieval
+    /// depths from the one that retrieval alone would need up to this many times it are tried, and the cheapest pair
+    /// meeting the target wins. <see langword="null"/> (the default): no exact stage.
     /// </summary>
     /// <exception cref="ArgumentOutOfRangeException">The value is less than 1.</exception>
     public int? ExactRescoringOverfetch

@@ -59,6 +59,16 @@ public sealed class CalibrationReport
     /// <summary>Whether the target lies at or below the held-out interval's upper end: a shortfall, if any, is within sampling error.</summary>
     public bool WithinSamplingError => HeldOutRecallHigh >= TargetRecall;
 
+    /// <summary>
+    /// Where the recall that the pipeline does not return was lost, measured on the held-out queries: at the index's
+    /// search, at the retrieval depth, at exact re-scoring and at the pairwise stage, each with its interval. The
+    /// losses add up to one minus <see cref="HeldOutRecall"/>.
+    /// </summary>
+    public IReadOnlyList<RecallLoss> RecallLosses { get; init; } = [];
+
+    /// <summary>The index's tuned search defaults (from recall-targeted tuning) that retrieval ran with, or <see langword="null"/> when it has none.</summary>
+    public VectorKit.Indexes.TunedSearchDefaults? IndexDefaults { get; init; }
+
     /// <summary>Scorer calls per query when scoring everything: the collection size.</summary>
     public double ExhaustiveScorerCallsPerQuery { get; init; }
 
@@ -92,6 +102,30 @@ public sealed class CalibrationReport
         }
 
         text.AppendLine("(ms/query: time per query summed over threads, so one thread's cost; recall and intervals on the held-out queries.)");
+        if (IndexDefaults is { } tuned)
+        {
+            text.AppendLine(c, $"The index searched with its tuned defaults: {tuned}.");
+        }
+
+        if (RecallLosses.Count > 0)
+        {
+            text.AppendLine(c, $"{"recall lost at",-18} {"lost",7} {"interval",17}");
+            foreach (RecallLoss loss in RecallLosses)
+            {
+                string cause = loss.Cause switch
+                {
+                    RecallLossCause.IndexSearch => "index search",
+                    RecallLossCause.RetrievalDepth => "retrieval depth",
+                    RecallLossCause.Retrieval => "retrieval",
+                    RecallLossCause.ExactRescoring => "exact re-scoring",
+                    RecallLossCause.PairwiseScoring => "pairwise scoring",
+                    _ => loss.Cause.ToString(),
+                };
+                string interval = string.Create(c, $"[{loss.LostLow:0.000}, {loss.LostHigh:0.000}]");
+                text.AppendLine(c, $"{cause,-18} {loss.Lost,7:0.000} {interval,17}");
+            }
+        }
+
         text.Append(c, $"Scorer calls {ScorerCallReduction:0.#}x fewer than scoring everything; held-out recall {HeldOutRecall:0.000} ");
         text.Append(MeetsTarget ? "meets the target." : WithinSamplingError ? "is below the target, within sampling error." : "is below the target beyond sampling error.");
         if (!TargetReachedOnTuning)

@@ -2,6 +2,7 @@ using System.Diagnostics;
 using VectorKit.Evaluation;
 using VectorKit.Indexes;
 using VectorKit.Internal;
+using VectorKit.Tuning;
 
 namespace VectorKit.Reranking;
 
@@ -16,15 +17,20 @@ namespace VectorKit.Reranking;
 /// of the true top k among the retrieved candidates, which is exactly the fraction the pipeline returns, since an item
 /// of the scorer's top k that reaches the scorer always stays in its top k — meets the target under
 /// <see cref="CalibrationOptions.Selection"/> (by default, the lower end of its confidence interval must reach it); with
-/// <see cref="CalibrationOptions.ExactRescoringOverfetch"/> retrieval over-fetches and the exact stage's depth is
-/// chosen the same way. Among widths the setting with the least estimated time per query wins: measured retrieval time
-/// plus scorer calls × the scorer's measured time per pair. (4) The chosen pipeline runs on the held-out queries, and
-/// each stage's recall is reported with a confidence interval (see <see cref="CalibrationReport"/>).</para>
+/// <see cref="CalibrationOptions.ExactRescoringOverfetch"/> the retrieval and exact depths are chosen jointly: each
+/// retrieval depth from that smallest one up to the over-fetch limit is re-scored and its shortest exact prefix meeting
+/// the target kept. The setting with the least estimated time per query wins: measured pruning time plus scorer calls
+/// × the scorer's measured time per pair. (4) The chosen pipeline runs on the held-out queries, and each stage's
+/// recall is reported with a confidence interval. (5) Every true item it does not return is attributed to the first
+/// stage that lost it — the index's search, the retrieval depth (told apart by an exact scan of the collection by the
+/// index's metric), exact re-scoring or the scorer — each loss with its interval (see
+/// <see cref="CalibrationReport.RecallLosses"/>).</para>
 /// <para><b>Assumption.</b> The bisection assumes recall does not fall as depth grows: true for an exact index, whose
 /// deeper results extend the shallower ones, and very nearly so for a graph index; the held-out check measures the
 /// result either way.</para>
 /// <para><b>Reproducibility.</b> The split, the exhaustive top k and every depth are determined by the seed and the
-/// data. The choice between several search widths uses measured times and can differ between machines.</para>
+/// data. The choice between several search widths, and between joint retrieval and exact depths, uses measured
+/// times and can differ between machines.</para>
 /// </remarks>
 public static class RerankingCalibration
 {
@@ -178,7 +184,7 @@ public static class RerankingCalibration
         // (3) The cheapest setting that meets the target on the tuning queries.
         var run = new Run<TQuery>(index, scorer, sampleQueries, truth, truthSize, options, cancellationToken);
         IReadOnlyList<int?> widths = options.SearchWidths is { } given ? given.Select(w => (int?)w).ToArray() : [null];
-        int steps = widths.Count * (3 + (int)Math.Ceiling(Math.Log2(maxDepth + 1)));
+        int steps = widths.Count * (3 + (int)Math.Ceiling(Math.Log2(maxDepth + 1)) + (options.ExactRescoringOverfetch is int o ? JointDepthCount(o) : 0));
         int stepsDone = 0;
         void Step() => progress?.Report(new CalibrationProgress(CalibrationStage.Tuning, Math.Min(++stepsDone, steps), steps));
 
@@ -212,7 +218,7 @@ public static class RerankingCalibration
         };
 
         // (4) The chosen pipeline on the held-out queries, stage by stage.
-        return Verify(run, heldOut, settings, chosen, best is not null, ids.Length, exhaustiveTicks / (double)Stopwatch.Frequency * 1000 / n, z, progress);
+        return Verify(run, heldOut, settings, chosen, best is not null, ids, exhaustiveTicks / (double)Stopwatch.Frequency * 1000 / n, z, progress);
     }
 
     // The smallest retrieval depth (and exact depth) meeting the target at one width, on the tuning queries.
@@ -271,24 +277,57 @@ public static class RerankingCalibration
             return new Setting(width, depth, null, retrieval.Recall(depth), retrieval.SecondsPerQuery + (depth * secondsPerPair), true);
         }
 
-        // Over-fetch, re-score exactly, and keep the shortest prefix of the exact order that meets the target.
-        int fetched = (int)Math.Min(maxDepth, (long)depth * overfetch);
-        Measurement exact = run.Measure(tuning, fetched, fetched, width);
-        step();
-        int keep = fetched;
-        for (int e = run.Options.FinalCount; e <= fetched; e++)
+        // The retrieval and exact depths are chosen jointly: retrieving deeper costs search and re-scoring time but
+        // can let the exact stage hand the scorer fewer candidates. Each retrieval depth from the smallest that meets
+        // the target alone up to the over-fetch limit is re-scored, the shortest exact prefix meeting the target kept,
+        // and the cheapest pair wins.
+        Setting? best = null;
+        Setting? last = null;
+        foreach (int fetched in JointDepths(depth, overfetch, maxDepth))
         {
-            if (exact.Meets(e, target, z, rule))
+            Measurement exact = run.Measure(tuning, fetched, fetched, width);
+            step();
+            int keep = fetched;
+            for (int e = run.Options.FinalCount; e <= fetched; e++)
             {
-                keep = e;
-                break;
+                if (exact.Meets(e, target, z, rule))
+                {
+                    keep = e;
+                    break;
+                }
+            }
+
+            bool meets = exact.Meets(keep, target, z, rule);
+            var setting = new Setting(width, fetched, keep, exact.Recall(keep), exact.SecondsPerQuery + (keep * secondsPerPair), meets);
+            last = setting;
+            if (meets && (best is null || setting.EstimatedSeconds < best.EstimatedSeconds))
+            {
+                best = setting;
             }
         }
 
-        return new Setting(width, fetched, keep, exact.Recall(keep), exact.SecondsPerQuery + (keep * secondsPerPair), exact.Meets(keep, target, z, rule));
+        return best ?? last!;
     }
 
-    private static CalibrationReport Verify<TQuery>(Run<TQuery> run, int[] heldOut, RerankingOptions settings, Setting chosen, bool reached, int collectionSize, double exhaustiveMilliseconds, double z, IProgress<CalibrationProgress>? progress)
+    // Retrieval depths tried with an exact stage: the smallest meeting the target alone, then steps of 1.5× up to
+    // `overfetch` times it (capped at the deepest allowed), the limit itself always included.
+    internal static IEnumerable<int> JointDepths(int depth, int overfetch, int maxDepth)
+    {
+        int limit = (int)Math.Min(maxDepth, (long)depth * overfetch);
+        int d = Math.Min(depth, limit);
+        while (d < limit)
+        {
+            yield return d;
+            d = (int)Math.Min(limit, Math.Max(d + 1L, (long)Math.Ceiling(d * 1.5)));
+        }
+
+        yield return limit;
+    }
+
+    // How many depths JointDepths yields (for progress).
+    private static int JointDepthCount(int overfetch) => overfetch <= 1 ? 1 : 2 + (int)Math.Ceiling(Math.Log(overfetch) / Math.Log(1.5));
+
+    private static CalibrationReport Verify<TQuery>(Run<TQuery> run, int[] heldOut, RerankingOptions settings, Setting chosen, bool reached, long[] ids, double exhaustiveMilliseconds, double z, IProgress<CalibrationProgress>? progress)
     {
         int truthSize = run.TruthSize;
         var queries = new SubsetList<TQuery>(run.Queries, heldOut);
@@ -313,16 +352,20 @@ public static class RerankingCalibration
         Measurement retrieval = run.Measure(heldOut, settings.RetrievalDepth, null, settings.SearchWidth);
         (double rMean, double rLow, double rHigh) = RecallStatistics.Estimate(retrieval.Found(settings.RetrievalDepth), truthSize, z);
         stages.Add(new StageReport(RerankingStage.Retrieval, settings.RetrievalDepth, settings.SearchWidth, rMean, rLow, rHigh, 0, results.RetrievalTime.TotalMilliseconds * perQuery));
+        int[] scored = retrieval.Found(settings.RetrievalDepth);
         if (settings.ExactRescoringDepth is int keep)
         {
             Measurement exact = run.Measure(heldOut, settings.RetrievalDepth, settings.RetrievalDepth, settings.SearchWidth);
-            (double eMean, double eLow, double eHigh) = RecallStatistics.Estimate(exact.Found(keep), truthSize, z);
+            scored = exact.Found(keep);
+            (double eMean, double eLow, double eHigh) = RecallStatistics.Estimate(scored, truthSize, z);
             stages.Add(new StageReport(RerankingStage.ExactRescoring, keep, null, eMean, eLow, eHigh, 0, results.ExactRescoringTime.TotalMilliseconds * perQuery));
         }
 
         (double mean, double low, double high) = RecallStatistics.Estimate(found, truthSize, z);
         double calls = results.PairsScored / (double)heldOut.Length;
         stages.Add(new StageReport(RerankingStage.PairwiseScoring, settings.FinalCount, null, mean, low, high, calls, results.ScoringTime.TotalMilliseconds * perQuery));
+        int collectionSize = ids.Length;
+        List<RecallLoss> losses = Losses(run, heldOut, settings, retrieval, scored, found, ids, z);
         return new CalibrationReport
         {
             Settings = settings,
@@ -341,7 +384,108 @@ public static class RerankingCalibration
             ExhaustiveScorerCallsPerQuery = collectionSize,
             ExhaustiveMillisecondsPerQuery = exhaustiveMilliseconds,
             ScorerCallReduction = calls > 0 ? collectionSize / calls : double.PositiveInfinity,
+            RecallLosses = losses,
+            IndexDefaults = (run.Index as VectorIndex)?.TunedDefaults,
         };
+    }
+
+    // Where each held-out query's missing true items were dropped. Every item of the scorer's top k that is not
+    // returned is counted once, at the first stage that lost it, so the losses add up to one minus the final recall.
+    private static List<RecallLoss> Losses<TQuery>(Run<TQuery> run, int[] heldOut, RerankingOptions settings, Measurement retrieval, int[] scored, int[] returned, long[] ids, double z)
+    {
+        int n = heldOut.Length;
+        int depth = settings.RetrievalDepth;
+        int truthSize = run.TruthSize;
+        int[] retrieved = retrieval.Found(depth);
+        long[][]? exactTop = ExactRetrieval(run, heldOut, depth, ids);
+        int[] notRetrieved = new int[n];
+        int[] missedBySearch = new int[n];
+        int[] belowDepth = new int[n];
+        int[] droppedByRescoring = new int[n];
+        int[] droppedByScorer = new int[n];
+        for (int j = 0; j < n; j++)
+        {
+            long[] truth = run.Truth[heldOut[j]];
+            notRetrieved[j] = truthSize - retrieved[j];
+            if (exactTop is not null)
+            {
+                for (int t = 0; t < truth.Length; t++)
+                {
+                    if (!retrieval.Kept(j, t, depth))
+                    {
+                        if (Array.IndexOf(exactTop[j], truth[t]) >= 0)
+                        {
+                            missedBySearch[j]++;
+                        }
+                        else
+                        {
+                            belowDepth[j]++;
+                        }
+                    }
+                }
+            }
+
+            droppedByRescoring[j] = retrieved[j] - scored[j];
+
+            // The scored candidates are those the pruning measurement kept; a scorer whose scores repeat returns every
+            // true item among them, so only an unrepeatable scorer (or index) makes this non-zero.
+            droppedByScorer[j] = Math.Max(0, scored[j] - returned[j]);
+        }
+
+        var losses = new List<RecallLoss>();
+        void Add(RecallLossCause cause, int[] lost)
+        {
+            (double mean, double low, double high) = RecallStatistics.Estimate(lost, truthSize, z);
+            losses.Add(new RecallLoss(cause, mean, low, high));
+        }
+
+        if (exactTop is null)
+        {
+            Add(RecallLossCause.Retrieval, notRetrieved);
+        }
+        else
+        {
+            Add(RecallLossCause.IndexSearch, missedBySearch);
+            Add(RecallLossCause.RetrievalDepth, belowDepth);
+        }
+
+        if (settings.ExactRescoringDepth is not null)
+        {
+            Add(RecallLossCause.ExactRescoring, droppedByRescoring);
+        }
+
+        Add(RecallLossCause.PairwiseScoring, droppedByScorer);
+        return losses;
+    }
+
+    // The exact nearest `depth` items by the index's own metric for each held-out query's retrieval vector, or null
+    // when the index keeps only approximations of its vectors and no full vectors were given.
+    private static long[][]? ExactRetrieval<TQuery>(Run<TQuery> run, int[] heldOut, int depth, long[] ids)
+    {
+        IVectorIndex index = run.Index;
+        IFullVectorSource? full = run.Options.FullVectors;
+        bool exactVectors = full is not null || index is not VectorIndex v || index.Options.Encoding == VectorEncoding.Float32 || v.KeepsFullVectors || (v.ReadsFullVectorsExternally && v.FullVectorSource is not null);
+        if (!exactVectors)
+        {
+            return null;
+        }
+
+        int d = index.Dimension;
+        float[] vectors = new float[heldOut.Length * d];
+        for (int j = 0; j < heldOut.Length; j++)
+        {
+            try
+            {
+                run.Scorer.WriteRetrievalVector(run.Queries[heldOut[j]], vectors.AsSpan(j * d, d));
+            }
+            catch (Exception e) when (e is not OperationCanceledException)
+            {
+                throw new RerankingException(heldOut[j], RerankingStage.Retrieval, $"the scorer's retrieval vector failed: {e.GetType().Name}: {e.Message}", e);
+            }
+        }
+
+        RecallTuning.ReadStoredVector read = full is not null ? full.TryGetVector : index.TryGetVector;
+        return RecallTuning.ExactNeighbors(index, ids, read, vectors, depth, run.CancellationToken);
     }
 
     // The scorer's top k over the whole collection for the listed queries (indexes into queries); the result is
@@ -482,6 +626,9 @@ public static class RerankingCalibration
         }
 
         public double SecondsPerQuery { get; } = secondsPerQuery;
+
+        // Whether true item `t` of query `j` is among the first `depth` surviving candidates.
+        public bool Kept(int j, int t, int depth) => positions[j][t] >= 0 && positions[j][t] < depth;
 
         // Items of the true top k among the first `depth` surviving candidates, per query.
         public int[] Found(int depth)

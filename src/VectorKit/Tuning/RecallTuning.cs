@@ -411,19 +411,25 @@ public static class RecallTuning
 
     /// <summary>
     /// The exact k nearest of each query among the index's vectors, ties by ascending id: blocks of the index's rows are
-    /// copied into an exact index one at a time, each block's best k kept, and the candidates merged at the end.
+    /// copied into an exact index one at a time, and each query keeps the best k of its running list and the block's.
     /// </summary>
     internal static long[][] ExactNeighbors(VectorIndex index, float[] queries, int k, CancellationToken ct)
+        => ExactNeighbors(index, index.GetIds(), index.TryGetVector, queries, k, ct);
+
+    /// <summary>
+    /// The exact k nearest of each query among the vectors of <paramref name="ids"/> read with
+    /// <paramref name="readVector"/> (an id it cannot read is skipped), under the index's metric; ties by ascending id.
+    /// </summary>
+    internal static long[][] ExactNeighbors(IVectorIndex index, long[] ids, ReadStoredVector readVector, float[] queries, int k, CancellationToken ct)
     {
         int d = index.Dimension;
         int n = queries.Length / d;
-        var candidates = new List<SearchHit>[n];
+        var best = new SearchHit[n][];
         for (int q = 0; q < n; q++)
         {
-            candidates[q] = new List<SearchHit>();
+            best[q] = [];
         }
 
-        long[] ids = index.GetIds();
         float[] block = new float[Math.Min(ids.Length, TruthBlock) * d];
         for (int start = 0; start < ids.Length; start += TruthBlock)
         {
@@ -432,8 +438,8 @@ public static class RecallTuning
             var blockIds = new List<long>(length);
             for (int i = 0; i < length; i++)
             {
-                // An id removed since GetIds is skipped.
-                if (index.TryGetVector(ids[start + i], block.AsSpan(blockIds.Count * d, d)))
+                // An id removed since the list was taken is skipped.
+                if (readVector(ids[start + i], block.AsSpan(blockIds.Count * d, d)))
                 {
                     blockIds.Add(ids[start + i]);
                 }
@@ -449,24 +455,38 @@ public static class RecallTuning
             BatchSearchResults results = exact.SearchBatch(queries, k, null, null, ct);
             for (int q = 0; q < n; q++)
             {
-                candidates[q].AddRange(results[q]);
+                best[q] = MergeBest(best[q], results[q], k);
             }
         }
 
         var truth = new long[n][];
         for (int q = 0; q < n; q++)
         {
-            List<SearchHit> all = candidates[q];
-            all.Sort(static (a, b) => a.Distance != b.Distance ? a.Distance.CompareTo(b.Distance) : a.Id.CompareTo(b.Id));
-            int take = Math.Min(k, all.Count);
-            truth[q] = new long[take];
-            for (int i = 0; i < take; i++)
+            truth[q] = new long[best[q].Length];
+            for (int i = 0; i < truth[q].Length; i++)
             {
-                truth[q][i] = all[i].Id;
+                truth[q][i] = best[q][i].Id;
             }
         }
 
         return truth;
+    }
+
+    /// <summary>Reads one stored vector; <see langword="false"/> when the id has none.</summary>
+    internal delegate bool ReadStoredVector(long id, Span<float> destination);
+
+    // The best k of two lists sorted by distance, ties by ascending id (the order every index returns).
+    private static SearchHit[] MergeBest(SearchHit[] a, ReadOnlySpan<SearchHit> b, int k)
+    {
+        var merged = new SearchHit[Math.Min(k, a.Length + b.Length)];
+        int i = 0, j = 0;
+        for (int m = 0; m < merged.Length; m++)
+        {
+            bool takeA = j == b.Length || (i < a.Length && (a[i].Distance < b[j].Distance || (a[i].Distance == b[j].Distance && a[i].Id < b[j].Id)));
+            merged[m] = takeA ? a[i++] : b[j++];
+        }
+
+        return merged;
     }
 
     /// <summary>Queries drawn from the index's vectors with Gaussian noise (see the class remarks).</summary>
