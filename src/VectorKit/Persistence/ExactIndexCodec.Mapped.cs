@@ -24,7 +24,7 @@ internal sealed partial class ExactIndexCodec
         int n = (int)header.Rows;
         bool codes = header.Integers.ContainsKey(StorageField)
             && header.Integer(StorageField, (int)VectorEncoding.Float32, (int)VectorEncoding.Scalar8Bit) == (int)VectorEncoding.Scalar8Bit;
-        int rescoreDepth = codes ? (int)header.Integer(RescoreDepthField, 0, int.MaxValue) : 0;
+        int rescoreDepth = codes ? (int)header.Integer(RescoreDepthField, 0, VectorIndexOptions.MaxRescoreDepth) : 0;
         bool trained = !codes || header.Integer(TrainedField, 0, 1) == 1;
         FullVectorLocation location = codes ? ReadFullVectorLocation(header) : FullVectorLocation.InIndexMemory;
         bool keepsFull = !codes || (rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory);

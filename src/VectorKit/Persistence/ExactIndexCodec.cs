@@ -68,7 +68,6 @@ internal sealed partial class ExactIndexCodec : IndexCodec
         }
 
         int n = (int)header.Rows;
-        reader.OpenSection(SectionId.Ids);
         IdColumn ids = ReadIds(reader, n);
         reader.OpenSection(SectionId.Vectors);
         var vectors = new VectorBuffer(header.Dimension, 0);
@@ -155,7 +154,7 @@ internal sealed partial class ExactIndexCodec : IndexCodec
     {
         int d = header.Dimension;
         int n = (int)header.Rows;
-        int rescoreDepth = (int)header.Integer(RescoreDepthField, 0, int.MaxValue);
+        int rescoreDepth = (int)header.Integer(RescoreDepthField, 0, VectorIndexOptions.MaxRescoreDepth);
         bool trained = header.Integer(TrainedField, 0, 1) == 1;
         FullVectorLocation location = ReadFullVectorLocation(header);
         if (!trained && n != 0)
@@ -236,7 +235,7 @@ internal sealed partial class ExactIndexCodec : IndexCodec
     // A loaded (not mapped) index hashes its ids anyway: the order is read through its checksum and dropped.
     private static void SkipIdOrder(IndexHeader header, IndexFileReader reader)
     {
-        if (header.Sections.Count > 0 && header.Sections[^1].Id == (uint)SectionId.IdOrder)
+        if (header.Sections.Exists(s => s.Id == (uint)SectionId.IdOrder))
         {
             reader.OpenSection(SectionId.IdOrder);
             reader.ExpectPayload(checked(header.Rows * sizeof(int)));
