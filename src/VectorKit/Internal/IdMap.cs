@@ -29,7 +29,8 @@ internal sealed class IdMap
 
     public int this[long id]
     {
-        get => _sorted is null ? _slots[id] : _sorted.TryFind(id, out int slot) ? slot : throw new KeyNotFoundException($"id {id} is not in the index.");
+        // Callers index only ids they know are present: under a sorted lookup a miss means the file's order is damaged.
+        get => _sorted is null ? _slots[id] : _sorted.TryFind(id, out int slot) ? slot : throw new InvalidDataException($"the mapped file's id order does not lead to id {id}, which the file holds: the file is damaged (open it with verification to find out where)");
         set => Writable()[id] = value;
     }
 

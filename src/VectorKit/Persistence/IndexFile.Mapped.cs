@@ -42,7 +42,17 @@ public static partial class IndexFile
         ArgumentNullException.ThrowIfNull(path);
         CheckByteOrder();
         options ??= MappedOpenOptions.Default;
-        MappedFileView view = MappedFileView.Open(path);
+        MappedFileView view;
+        try
+        {
+            view = MappedFileView.Open(path);
+        }
+        catch (IndexFileException e)
+        {
+            e.AttachFilePath(Path.GetFullPath(path));
+            throw;
+        }
+
         try
         {
             unsafe
