@@ -132,6 +132,54 @@ public sealed class SegmentedIndexMergeTests : IDisposable
         Assert.Throws<ObjectDisposedException>(() => segmented.Search(new float[Dim], 1));
     }
 
+    [Fact]
+    public async Task SearchesOnOtherThreads_DuringWritesSavesAndMerges_AlwaysSeeAWholeState()
+    {
+        (SegmentedIndex segmented, ExactIndex reference) = Start(count: 5000);
+        using (segmented)
+        using (reference)
+        {
+            using var stop = new CancellationTokenSource();
+            int searches = 0;
+            Task[] readers = Enumerable.Range(0, 2).Select(r => Task.Run(() =>
+            {
+                float[] query = SegmentedIndexPropertyTests.Row(r);
+                while (!stop.IsCancellationRequested)
+                {
+                    SearchHit[] hits = segmented.Search(query, 10);
+
+                    // Every state holds at least 4,900 items, so a whole state always gives 10 distinct hits, best first.
+                    Assert.Equal(10, hits.Length);
+                    Assert.Equal(10, hits.Select(h => h.Id).Distinct().Count());
+                    Assert.True(hits.SequenceEqual(hits.Order()), "hits are best first, ties by id");
+                    Interlocked.Increment(ref searches);
+                }
+            })).ToArray();
+
+            for (int round = 0; round < 4; round++)
+            {
+                for (int i = 0; i < 25; i++)
+                {
+                    long id = (round * 25 + i) * 7L;
+                    reference.Remove(id);
+                    segmented.Remove(id);
+                    float[] row = SegmentedIndexPropertyTests.Row(round * 1000 + i);
+                    reference.Add(3_000_000 + (round * 25) + i, row);
+                    segmented.Add(3_000_000 + (round * 25) + i, row);
+                }
+
+                segmented.Save(_folder.File($"snapshot-{round}.vkx"));
+                await segmented.MergeAsync(_folder.File(round % 2 == 0 ? "a.vkx" : "b.vkx"));
+            }
+
+            await stop.CancelAsync();
+            await Task.WhenAll(readers);
+            Assert.True(searches > 0);
+            SegmentedIndexPropertyTests.AssertSameItems(reference, segmented);
+            SegmentedIndexPropertyTests.AssertSameSearches(reference, segmented, 11);
+        }
+    }
+
     // A base of `count` clustered rows (ids 0, 7, 14, ...) saved, opened mapped and wrapped, and the same items in memory.
     private (SegmentedIndex Segmented, ExactIndex Reference) Start(int count)
     {
