@@ -29,7 +29,7 @@ internal static class FuzzTargets
 {
     /// <summary>The targets, by the name the harness takes as its argument (and the corpus folder's name).</summary>
     public static IReadOnlyList<string> Names { get; } =
-        ["index", "index-raw", "npy", "fvecs", "ivecs", "bvecs", "idx", "csv", "neighbors", "file-source"];
+        ["index", "index-raw", "index-mapped", "npy", "fvecs", "ivecs", "bvecs", "idx", "csv", "neighbors", "file-source"];
 
     // Data readers run under the default limits: what a caller gets without asking for anything. A property, not a
     // field: this class's static constructor must not run instrumented code before SharpFuzz has set up afl's memory.
@@ -60,6 +60,7 @@ internal static class FuzzTargets
     {
         "index" => Index(Reseal(input)),
         "index-raw" => Index(input),
+        "index-mapped" => Mapped(Reseal(input)),
         "npy" => Npy(input),
         "fvecs" => Vecs(input, VecsElementType.Float32),
         "ivecs" => Vecs(input, VecsElementType.Int32),
@@ -99,6 +100,61 @@ internal static class FuzzTargets
         }
 
         return outcome;
+    }
+
+    // Opens the input as a file mapped in place, verified (the untrusted preset) and unverified; an index that opens
+    // is read, searched, and (float32) written through a segmented index. Unverified, a damaged id order may be
+    // refused on use with InvalidDataException, as documented; nothing may read outside the mapping.
+    private static FuzzOutcome Mapped(byte[] input)
+    {
+        string path = Path.Combine(Path.GetTempPath(), $"vectorkit-fuzz-{Environment.ProcessId}-{Guid.NewGuid():N}.vkx");
+        File.WriteAllBytes(path, input);
+        FuzzOutcome outcome = FuzzOutcome.Accepted;
+        try
+        {
+            foreach (MappedOpenOptions options in new[] { MappedOpenOptions.Untrusted, MappedOpenOptions.Default })
+            {
+                try
+                {
+                    using Indexes.Exact.ExactIndex index = IndexFile.OpenMapped(path, options);
+                    ExerciseMapped(index);
+                }
+                catch (Exception e) when (e is IndexFileException or NotSupportedException || (e is InvalidDataException && !options.VerifyContents))
+                {
+                    outcome = FuzzOutcome.Rejected;
+                }
+            }
+        }
+        finally
+        {
+            File.Delete(path);
+        }
+
+        return outcome;
+    }
+
+    private static void ExerciseMapped(Indexes.Exact.ExactIndex index)
+    {
+        int d = index.Dimension;
+        float[] query = new float[d];
+        query[0] = 1;
+        _ = index.MemoryBytes;
+        long[] ids = index.GetIds();
+        foreach (long id in ids.Take(8))
+        {
+            index.Contains(id);
+            index.TryGetVector(id, new float[d]);
+        }
+
+        index.Contains(long.MinValue + 17);
+        if (!index.IsTrained)
+        {
+            return;
+        }
+
+        var options = new SearchOptions { MaxDegreeOfParallelism = 1, RescoreDepth = index.Options.FullVectors == FullVectorLocation.ExternalSource ? 0 : null };
+        index.Search(query, 5, options);
+        index.SearchBatch([.. query, .. query], 3, options);
     }
 
     // A loaded index must work: count, ids, vectors, plain/filtered/batch searches, an add and a removal.

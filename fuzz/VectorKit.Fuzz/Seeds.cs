@@ -34,6 +34,10 @@ internal static class Seeds
         {
             yield return ("index", name, file);
             yield return ("index-raw", name, file);
+            if (name.StartsWith("exact", StringComparison.Ordinal))
+            {
+                yield return ("index-mapped", name, file);
+            }
         }
 
         float[] data = Data(6, 3, 1);

@@ -10,6 +10,10 @@ internal static class ThrowHelper
         => throw new ArgumentOutOfRangeException(paramName, actual, $"{paramName} {requirement}; got {actual}.");
 
     [DoesNotReturn]
+    public static void ThrowReadOnlyIndex(string kind)
+        => throw new NotSupportedException($"This {kind} reads a mapped index file in place and is read-only; wrap it in a SegmentedIndex to add, replace or remove items.");
+
+    [DoesNotReturn]
     public static void ThrowArgument(string paramName, string message)
         => throw new ArgumentException(message, paramName);
 

@@ -340,6 +340,7 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             _slotOf.CheckPresent(ids);
             _changeLog?.RecordRemove(ids);
             RemoveLocked(ids);
@@ -544,6 +545,18 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
 
     /// <summary>Frees the kind's storage; the caller holds the write lock, once.</summary>
     private protected abstract void ReleaseStorage();
+
+    /// <summary>Whether the kind refuses writes (an index reading a mapped file in place).</summary>
+    private protected virtual bool IsReadOnly => false;
+
+    /// <summary>Throws <see cref="NotSupportedException"/> when <see cref="IsReadOnly"/>; every write path checks it before changing anything.</summary>
+    private protected void ThrowIfReadOnly()
+    {
+        if (IsReadOnly)
+        {
+            ThrowHelper.ThrowReadOnlyIndex(GetType().Name);
+        }
+    }
 
     private protected void ThrowIfDisposed()
     {

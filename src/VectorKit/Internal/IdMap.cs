@@ -13,42 +13,60 @@ internal sealed class IdMap
 
     private readonly Dictionary<long, int> _slots;
 
+    // A mapped file's sorted lookup, used instead of the table (which then stays empty); read-only.
+    private SortedIdLookup? _sorted;
+
     public IdMap(int capacity = 0) => _slots = new Dictionary<long, int>(capacity, KeyedIdComparer.Instance);
 
-    public int Count => _slots.Count;
+    /// <summary>A read-only map over a mapped file's sorted lookup: writes throw <see cref="InvalidOperationException"/>.</summary>
+    public IdMap(SortedIdLookup sorted)
+        : this() => _sorted = sorted;
 
-    /// <summary>Bytes the map holds at its current capacity.</summary>
-    public long Bytes => (long)_slots.EnsureCapacity(0) * EntryBytes;
+    public int Count => _sorted?.Count ?? _slots.Count;
+
+    /// <summary>Bytes the map holds at its current capacity (a sorted lookup lives in the mapped file: none).</summary>
+    public long Bytes => _sorted is null ? (long)_slots.EnsureCapacity(0) * EntryBytes : 0;
 
     public int this[long id]
     {
-        get => _slots[id];
-        set => _slots[id] = value;
+        // Callers index only ids they know are present: under a sorted lookup a miss means the file's order is damaged.
+        get => _sorted is null ? _slots[id] : _sorted.TryFind(id, out int slot) ? slot : throw new InvalidDataException($"the mapped file's id order does not lead to id {id}, which the file holds: the file is damaged (open it with verification to find out where)");
+        set => Writable()[id] = value;
     }
 
-    public bool ContainsKey(long id) => _slots.ContainsKey(id);
+    public bool ContainsKey(long id) => _sorted is null ? _slots.ContainsKey(id) : _sorted.TryFind(id, out _);
 
-    public bool TryGetValue(long id, out int slot) => _slots.TryGetValue(id, out slot);
+    public bool TryGetValue(long id, out int slot) => _sorted is null ? _slots.TryGetValue(id, out slot) : _sorted.TryFind(id, out slot);
 
     /// <summary>Adds a new id; throws when it is present (callers check first).</summary>
-    public void Add(long id, int slot) => _slots.Add(id, slot);
+    public void Add(long id, int slot) => Writable().Add(id, slot);
 
     /// <summary>Adds a new id; false when it is present (loaders turn that into a file error).</summary>
-    public bool TryAdd(long id, int slot) => _slots.TryAdd(id, slot);
+    public bool TryAdd(long id, int slot) => Writable().TryAdd(id, slot);
 
-    public bool Remove(long id) => _slots.Remove(id);
+    public bool Remove(long id) => Writable().Remove(id);
 
-    public bool Remove(long id, out int slot) => _slots.Remove(id, out slot);
+    public bool Remove(long id, out int slot) => Writable().Remove(id, out slot);
 
-    public void EnsureCapacity(int capacity) => _slots.EnsureCapacity(capacity);
+    public void EnsureCapacity(int capacity) => Writable().EnsureCapacity(capacity);
 
     public void TrimExcess() => _slots.TrimExcess();
 
-    public void Clear() => _slots.Clear();
+    public void Clear()
+    {
+        // Forgets a sorted lookup too: its memory is about to be unmapped.
+        _sorted = null;
+        _slots.Clear();
+    }
 
     /// <summary>The ids in ascending order, as a new array (what <c>GetIds</c> returns).</summary>
     public long[] SortedIds()
     {
+        if (_sorted is not null)
+        {
+            return _sorted.SortedIds();
+        }
+
         long[] ids = new long[_slots.Count];
         _slots.Keys.CopyTo(ids, 0);
         Array.Sort(ids);
@@ -60,7 +78,7 @@ internal sealed class IdMap
     {
         foreach (long id in ids)
         {
-            if (_slots.ContainsKey(id))
+            if (ContainsKey(id))
             {
                 ThrowHelper.ThrowDuplicateId(paramName, id);
             }
@@ -72,10 +90,13 @@ internal sealed class IdMap
     {
         foreach (long id in ids)
         {
-            if (!_slots.ContainsKey(id))
+            if (!ContainsKey(id))
             {
                 ThrowHelper.ThrowIdNotFound(id);
             }
         }
     }
+
+    private Dictionary<long, int> Writable()
+        => _sorted is null ? _slots : throw new InvalidOperationException("A mapped file's id lookup is read-only.");
 }

@@ -19,6 +19,9 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
     private const nuint Alignment = 64;
     private T* _rows;
 
+    // Rows that live in memory this buffer does not own (a mapped file's view): never freed, resized or written here.
+    private bool _borrowed;
+
     protected RowBuffer(int dimension, int initialCapacity)
     {
         Dimension = dimension;
@@ -36,7 +39,11 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
     /// <summary>Rows the block can hold without moving.</summary>
     public int Capacity { get; private set; }
 
-    public long Bytes => (long)Capacity * Dimension * sizeof(T);
+    /// <summary>Native bytes the buffer owns (0 for borrowed rows, which the page cache holds).</summary>
+    public long Bytes => _borrowed ? 0 : (long)Capacity * Dimension * sizeof(T);
+
+    /// <summary>Whether the rows are borrowed from memory the buffer does not own (see <see cref="Borrow"/>).</summary>
+    public bool IsBorrowed => _borrowed;
 
     /// <summary>The first element of row <paramref name="slot"/>; valid until the buffer next grows.</summary>
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
@@ -58,9 +65,30 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
         }
     }
 
+    /// <summary>
+    /// Points an empty buffer at <paramref name="rows"/> rows that someone else owns and keeps alive (a read-only
+    /// mapped view), without copying; from then on the buffer never frees, moves or grows them.
+    /// </summary>
+    public void Borrow(T* first, int rows)
+    {
+        if (_rows != null || _borrowed)
+        {
+            throw new InvalidOperationException("Only an empty buffer can borrow rows.");
+        }
+
+        _rows = first;
+        Capacity = rows;
+        _borrowed = true;
+    }
+
     /// <summary>Shrinks (or grows) to exactly <paramref name="capacity"/> rows, keeping the first rows' content.</summary>
     public void Resize(int capacity)
     {
+        if (_borrowed)
+        {
+            throw new InvalidOperationException("Borrowed rows (a mapped file's) cannot be resized.");
+        }
+
         nuint bytes = checked((nuint)capacity * (nuint)Dimension * (nuint)sizeof(T));
         if (capacity == 0)
         {
@@ -101,6 +129,11 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
     /// </summary>
     public void Adopt(RowBuffer<T> other)
     {
+        if (_borrowed || other._borrowed)
+        {
+            throw new InvalidOperationException("Borrowed rows (a mapped file's) cannot change hands.");
+        }
+
         Free();
         _rows = other._rows;
         Capacity = other.Capacity;
@@ -118,6 +151,14 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
 
     private void Free()
     {
+        if (_borrowed)
+        {
+            // The owner unmaps the memory; only forget it.
+            _rows = null;
+            Capacity = 0;
+            return;
+        }
+
         if (_rows != null)
         {
             NativeMemory.AlignedFree(_rows);

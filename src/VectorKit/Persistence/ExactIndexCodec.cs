@@ -14,7 +14,7 @@ namespace VectorKit.Persistence;
 /// <see cref="SectionId.Vectors"/> when the full vectors are kept in memory; an index reading full vectors from an
 /// external source records that in the field <c>full-vector-location</c> (1) and stores no vectors.
 /// </summary>
-internal sealed class ExactIndexCodec : IndexCodec
+internal sealed partial class ExactIndexCodec : IndexCodec
 {
     private const string StorageField = "vector-storage";
     private const string RescoreDepthField = "rescore-depth";
@@ -40,13 +40,15 @@ internal sealed class ExactIndexCodec : IndexCodec
             var header = new IndexHeader { Kind = Kind, Metric = exact.Metric, Dimension = d, Count = count, Rows = count };
             header.Sections.Add(new SectionEntry((uint)SectionId.Ids, 0, checked((long)count * sizeof(long))));
             header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, checked((long)count * d * sizeof(float))));
+            AddIdOrder(header, count);
             writer.WriteHeader(header);
             writer.BeginSection(SectionId.Ids);
-            writer.Write<long>(ids.AsSpan(0, count));
+            writer.Write<long>(ids.Rows(count));
             writer.EndSection();
             writer.BeginSection(SectionId.Vectors);
             FileBlocks.WriteRows(writer, vectors, count);
             writer.EndSection();
+            WriteIdOrder(writer, ids, count);
             writer.Finish();
             return 0;
         });
@@ -66,9 +68,7 @@ internal sealed class ExactIndexCodec : IndexCodec
         }
 
         int n = (int)header.Rows;
-        reader.OpenSection(SectionId.Ids);
-        long[] ids = reader.ReadArray<long>(n);
-        reader.CloseSection();
+        IdColumn ids = ReadIds(reader, n);
         reader.OpenSection(SectionId.Vectors);
         var vectors = new VectorBuffer(header.Dimension, 0);
 
@@ -78,10 +78,12 @@ internal sealed class ExactIndexCodec : IndexCodec
         {
             reader.ReadRows(vectors, n, norms is null ? null : (first, count) => ExactIndex.ComputeSquaredNorms(vectors, first, count, norms));
             reader.CloseSection();
+            SkipIdOrder(header, reader);
         }
         catch
         {
             vectors.Dispose();
+            ids.Dispose();
             throw;
         }
 
@@ -114,9 +116,10 @@ internal sealed class ExactIndexCodec : IndexCodec
             header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, checked((long)count * d * sizeof(float))));
         }
 
+        AddIdOrder(header, count);
         writer.WriteHeader(header);
         writer.BeginSection(SectionId.Ids);
-        writer.Write<long>(parts.Ids.AsSpan(0, count));
+        writer.Write<long>(parts.Ids.Rows(count));
         writer.EndSection();
         writer.BeginSection(SectionId.ScalarRanges);
         if (parts.Scalar is ScalarQuantizer scalar)
@@ -142,6 +145,7 @@ internal sealed class ExactIndexCodec : IndexCodec
             writer.EndSection();
         }
 
+        WriteIdOrder(writer, parts.Ids, count);
         writer.Finish();
         return 0;
     }
@@ -150,7 +154,7 @@ internal sealed class ExactIndexCodec : IndexCodec
     {
         int d = header.Dimension;
         int n = (int)header.Rows;
-        int rescoreDepth = (int)header.Integer(RescoreDepthField, 0, int.MaxValue);
+        int rescoreDepth = (int)header.Integer(RescoreDepthField, 0, VectorIndexOptions.MaxRescoreDepth);
         bool trained = header.Integer(TrainedField, 0, 1) == 1;
         FullVectorLocation location = ReadFullVectorLocation(header);
         if (!trained && n != 0)
@@ -159,12 +163,20 @@ internal sealed class ExactIndexCodec : IndexCodec
         }
 
         int codeBytes = ScalarQuantizer.PaddedLength(d);
-        reader.OpenSection(SectionId.Ids);
-        long[] ids = reader.ReadArray<long>(n);
-        reader.CloseSection();
-        reader.OpenSection(SectionId.ScalarRanges);
-        float[] ranges = reader.ReadArray<float>(trained ? 2 * d : 0);
-        reader.CloseSection();
+        IdColumn ids = ReadIds(reader, n);
+        float[] ranges;
+        try
+        {
+            reader.OpenSection(SectionId.ScalarRanges);
+            ranges = reader.ReadArray<float>(trained ? 2 * d : 0);
+            reader.CloseSection();
+        }
+        catch
+        {
+            ids.Dispose();
+            throw;
+        }
+
         reader.OpenSection(SectionId.ScalarCodes);
         var codes = new CodeBuffer(codeBytes, 0);
         VectorBuffer? full = null;
@@ -179,11 +191,14 @@ internal sealed class ExactIndexCodec : IndexCodec
                 reader.ReadRows(full, n);
                 reader.CloseSection();
             }
+
+            SkipIdOrder(header, reader);
         }
         catch
         {
             codes.Dispose();
             full?.Dispose();
+            ids.Dispose();
             throw;
         }
 
@@ -194,6 +209,56 @@ internal sealed class ExactIndexCodec : IndexCodec
         catch (InvalidDataException e)
         {
             throw new IndexFileException($"Index file holds an invalid 8-bit exact index: {e.Message}.", "exact index", -1, e);
+        }
+    }
+
+    /// <summary>Lists the <see cref="SectionId.IdOrder"/> section last (format version 3): rows ordered by ascending id.</summary>
+    private static void AddIdOrder(IndexHeader header, int count)
+        => header.Sections.Add(new SectionEntry((uint)SectionId.IdOrder, 0, checked((long)count * sizeof(int))));
+
+    // Rows by ascending id, so that a mapped file finds an id by binary search instead of hashing every id at open.
+    private static void WriteIdOrder(IndexFileWriter writer, IdColumn ids, int count)
+    {
+        long[] keys = ids.Rows(count).ToArray();
+        int[] order = new int[count];
+        for (int i = 0; i < count; i++)
+        {
+            order[i] = i;
+        }
+
+        Array.Sort(keys, order);
+        writer.BeginSection(SectionId.IdOrder);
+        writer.Write<int>(order);
+        writer.EndSection();
+    }
+
+    // A loaded (not mapped) index hashes its ids anyway: the order is read through its checksum and dropped.
+    private static void SkipIdOrder(IndexHeader header, IndexFileReader reader)
+    {
+        if (header.Sections.Exists(s => s.Id == (uint)SectionId.IdOrder))
+        {
+            reader.OpenSection(SectionId.IdOrder);
+            reader.ExpectPayload(checked(header.Rows * sizeof(int)));
+            reader.SkipRest();
+            reader.CloseSection();
+        }
+    }
+
+    // The ids straight into their native column.
+    private static IdColumn ReadIds(IndexFileReader reader, int rows)
+    {
+        reader.OpenSection(SectionId.Ids);
+        var ids = new IdColumn(0);
+        try
+        {
+            reader.ReadColumn(ids, rows);
+            reader.CloseSection();
+            return ids;
+        }
+        catch
+        {
+            ids.Dispose();
+            throw;
         }
     }
 

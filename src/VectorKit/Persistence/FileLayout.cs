@@ -7,9 +7,24 @@ internal static class FileLayout
 {
     /// <summary>
     /// The newest format version this library writes. Readers accept every version from 1 up to this one. Version 2 added
-    /// the tuned search defaults (<see cref="TuningFields"/>); a file without them is still written as version 1.
+    /// the tuned search defaults (<see cref="TuningFields"/>); version 3 the exact index's <see cref="SectionId.IdOrder"/>
+    /// (for mapped opening). A file is written with the lowest version that holds what it needs.
     /// </summary>
-    public const uint CurrentVersion = 2;
+    public const uint CurrentVersion = 3;
+
+    /// <summary>The lowest format version that holds everything <paramref name="header"/> lists.</summary>
+    public static uint VersionFor(IndexHeader header)
+    {
+        foreach (SectionEntry section in header.Sections)
+        {
+            if (section.Id == (uint)SectionId.IdOrder)
+            {
+                return 3;
+            }
+        }
+
+        return TuningFields.VersionFor(header);
+    }
 
     /// <summary>Magic, version (u32), header length (u32).</summary>
     public const int PreambleBytes = 16;

@@ -33,7 +33,7 @@ namespace VectorKit.Persistence;
 /// thread runs the call on a worker of its own choosing).</para>
 /// <para><b>Thread safety.</b> All methods are thread-safe; several loads and saves may run at once.</para>
 /// </remarks>
-public static class IndexFile
+public static partial class IndexFile
 {
     /// <summary>Writes <paramref name="index"/> to a stream, from its current position.</summary>
     /// <param name="index">An index of a kind the library saves.</param>

@@ -324,6 +324,41 @@ internal sealed class IndexFileReader
         }
     }
 
+    /// <summary>
+    /// Reads <paramref name="rows"/> one-element rows, the whole payload of the open section, into
+    /// <paramref name="column"/> (empty); with a known length in one allocation, otherwise growing as data arrives.
+    /// </summary>
+    public unsafe void ReadColumn<T>(RowBuffer<T> column, int rows)
+        where T : unmanaged
+    {
+        ExpectPayload(checked((long)rows * sizeof(T)));
+        if (LengthKnown)
+        {
+            if (rows > 0)
+            {
+                column.Resize(rows);
+                ReadPipelined((byte*)Unsafe.AsPointer(ref column.Row(0)), (long)rows * sizeof(T), null);
+            }
+
+            return;
+        }
+
+        int blockRows = Math.Max(1, BlockBytes / sizeof(T));
+        for (int start = 0; start < rows; start += blockRows)
+        {
+            int n = Math.Min(blockRows, rows - start);
+            if (column.Capacity < start + n)
+            {
+                column.Resize((int)Math.Min(rows, Math.Max(start + n, 2L * column.Capacity)));
+            }
+
+            Read(MemoryMarshal.CreateSpan(ref column.Row(start), n));
+        }
+    }
+
+    /// <summary>Reads the rest of the open section's payload through its checksum without keeping it.</summary>
+    public void SkipRest() => SkipPayload();
+
     private void CheckFinite(ReadOnlySpan<float> block, long firstElement, int d, long fileOffset)
     {
         int bad = FiniteCheck.IndexOfNonFinite(block);

@@ -41,7 +41,7 @@ internal sealed class IndexFileWriter
         TuningFields.Write(header, _index);
         byte[] encoded = header.Encode();
         byte[] head = new byte[FileLayout.PreambleBytes + encoded.Length + FileLayout.ChecksumBytes];
-        FileLayout.WritePreamble(head, encoded.Length, TuningFields.VersionFor(header));
+        FileLayout.WritePreamble(head, encoded.Length, FileLayout.VersionFor(header));
         encoded.CopyTo(head, FileLayout.PreambleBytes);
         ulong checksum = XxHash3.HashToUInt64(head.AsSpan(0, FileLayout.PreambleBytes + encoded.Length));
         BinaryPrimitives.WriteUInt64LittleEndian(head.AsSpan(FileLayout.PreambleBytes + encoded.Length), checksum);

@@ -170,7 +170,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             SearchWidth = (int)header.Integer(SearchWidth, 1, int.MaxValue),
             Encoding = storage,
             ProductCodeBytes = productCodeBytes,
-            RescoreDepth = (int)header.Integer(RescoreDepth, 0, int.MaxValue),
+            RescoreDepth = (int)header.Integer(RescoreDepth, 0, VectorIndexOptions.MaxRescoreDepth),
             MaxIterations = (int)header.Integer(MaxIterations, 0, 10_000),
             SampleSize = sampleSize == 0 ? null : sampleSize,
             Seed = (int)header.Integer(Seed, int.MinValue, int.MaxValue),

@@ -44,4 +44,10 @@ internal enum SectionId : uint
 
     /// <summary>Inverted file under rotated product codes: the rotation, <c>dimension × dimension</c> float32, row-major (empty when untrained).</summary>
     ProductRotation = 13,
+
+    /// <summary>
+    /// Exact index (format version 3): the rows' numbers, <c>rows</c> int32, ordered by ascending id, so that a mapped
+    /// file looks an id up by binary search. Derived data; a loader that hashes the ids reads it through its checksum only.
+    /// </summary>
+    IdOrder = 14,
 }

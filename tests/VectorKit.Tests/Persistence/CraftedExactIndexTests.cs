@@ -45,7 +45,7 @@ public class CraftedExactIndexTests
 
         // Without re-scoring the full vectors are not expected: their section is left over.
         header.Integers["rescore-depth"] = 0;
-        Assert.Contains("section 'Vectors' (id 2) is listed but this index kind does not use it", Rejection.Assert(IndexFileBytes.Compose(header, payloads)).Message, StringComparison.Ordinal);
+        Assert.Contains("section 3 is 'Vectors' (id 2); this index kind expects 'IdOrder' (id 14) there", Rejection.Assert(IndexFileBytes.Compose(header, payloads)).Message, StringComparison.Ordinal);
         header.Integers["rescore-depth"] = 3;
 
         header.Integers["vector-storage"] = 2;
@@ -89,7 +89,7 @@ public class CraftedExactIndexTests
         IndexHeader memoryHeader = IndexFileBytes.CopyHeader(IndexFileBytes.Header(withVectors));
         Assert.False(memoryHeader.Integers.ContainsKey("full-vector-location"));
         memoryHeader.Integers["full-vector-location"] = 1;
-        Assert.Contains("section 'Vectors' (id 2) is listed but this index kind does not use it", Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors))).Message, StringComparison.Ordinal);
+        Assert.Contains("section 3 is 'Vectors' (id 2); this index kind expects 'IdOrder' (id 14) there", Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors))).Message, StringComparison.Ordinal);
     }
 
     private static string Reject(Action<byte[]> damage, int rescoreDepth = 0)

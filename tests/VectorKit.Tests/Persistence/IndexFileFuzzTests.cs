@@ -96,7 +96,7 @@ public class IndexFileFuzzTests(ITestOutputHelper output)
         return corpus;
     }
 
-    private static byte[] Mutate(byte[] original, Random random)
+    internal static byte[] Mutate(byte[] original, Random random)
     {
         byte[] file = (byte[])original.Clone();
         int rounds = 1 + random.Next(3);

@@ -32,13 +32,14 @@ public sealed class IndexFileInspectTests : IDisposable
         Assert.Equal(dimension, summary.Dimension);
         Assert.Equal(count, summary.Count);
         Assert.Equal(count, summary.StoredRows);
-        Assert.Equal(1, summary.FormatVersion);
+        Assert.Equal(3, summary.FormatVersion);
         Assert.True(summary.SectionsVerified);
         Assert.Equal(new FileInfo(path).Length, summary.FileBytes);
 
         // 8 bytes per id, 4 bytes per float component: the sizes follow from the counts alone.
         Assert.Equal(8L * count, summary.Sections.Single(s => s.Name == "Ids").PayloadBytes);
         Assert.Equal(4L * count * dimension, summary.Sections.Single(s => s.Name == "Vectors").PayloadBytes);
+        Assert.Equal(4L * count, summary.Sections.Single(s => s.Name == "IdOrder").PayloadBytes);
     }
 
     [Fact]

@@ -40,6 +40,7 @@ public sealed partial class ExactIndex
         {
             // Fail before the work when the answer is known already (checked again under the write lock).
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             if (_codes is not null)
             {
                 ThrowIfHoldingVectors();

@@ -13,7 +13,7 @@ namespace VectorKit.Indexes.Exact;
 /// </summary>
 public sealed partial class ExactIndex
 {
-    private ExactIndex(int dimension, DistanceMetric metric, VectorBuffer vectors, long[] ids, int count, float[]? squaredNorms)
+    private ExactIndex(int dimension, DistanceMetric metric, VectorBuffer vectors, IdColumn ids, int count, float[]? squaredNorms)
         : base(dimension, metric)
     {
         _options = ExactIndexOptions.Default;
@@ -21,7 +21,7 @@ public sealed partial class ExactIndex
         _vectors = vectors;
         _ids = ids;
         _count = count;
-        _squaredNorms = metric == DistanceMetric.Cosine ? [] : squaredNorms ?? new float[ids.Length];
+        _squaredNorms = metric == DistanceMetric.Cosine ? [] : squaredNorms ?? new float[ids.Capacity];
     }
 
     /// <summary>Whether the index keeps a squared norm per row (every metric but cosine, whose rows are unit length).</summary>
@@ -49,7 +49,7 @@ public sealed partial class ExactIndex
     /// <c>count</c> rows). Writes wait until it returns; searches proceed and never queue behind it (it does not hold
     /// the read lock, behind which a waiting writer would hold back new searches).
     /// </summary>
-    internal T ExportParts<T>(Func<int, long[], VectorBuffer, T> export)
+    internal T ExportParts<T>(Func<int, IdColumn, VectorBuffer, T> export)
     {
         using var gate = _writerGate.EnterWrite();
         ThrowIfDisposed();
@@ -58,7 +58,7 @@ public sealed partial class ExactIndex
 
     /// <summary>
     /// Builds an index around loaded primary state, taking ownership of <paramref name="vectors"/> (disposed on
-    /// failure), and derives the squared norms and the id lookup.
+    /// failure) and <paramref name="ids"/> (likewise), and derives the squared norms and the id lookup.
     /// </summary>
     /// <param name="dimension">Components per vector.</param>
     /// <param name="metric">The metric; under cosine the rows must already be unit length.</param>
@@ -70,7 +70,7 @@ public sealed partial class ExactIndex
     /// <see langword="null"/> to compute them here; ignored under cosine.
     /// </param>
     /// <exception cref="InvalidDataException">An id repeats.</exception>
-    internal static ExactIndex FromParts(int dimension, DistanceMetric metric, long[] ids, VectorBuffer vectors, int count, float[]? squaredNorms = null)
+    internal static ExactIndex FromParts(int dimension, DistanceMetric metric, IdColumn ids, VectorBuffer vectors, int count, float[]? squaredNorms = null)
     {
         var index = new ExactIndex(dimension, metric, vectors, ids, count, squaredNorms);
         Task? norms = null;
@@ -110,7 +110,7 @@ public sealed partial class ExactIndex
     }
 
     // A loaded index under 8-bit storage; takes ownership of the buffers.
-    private ExactIndex(int dimension, DistanceMetric metric, int rescoreDepth, FullVectorLocation location, ScalarQuantizer? scalar, CodeBuffer codes, VectorBuffer? full, long[] ids, int count)
+    private ExactIndex(int dimension, DistanceMetric metric, int rescoreDepth, FullVectorLocation location, ScalarQuantizer? scalar, CodeBuffer codes, VectorBuffer? full, IdColumn ids, int count)
         : base(dimension, metric)
     {
         _kernelPath = KernelDispatch.Widest;
@@ -131,7 +131,7 @@ public sealed partial class ExactIndex
     /// <param name="Scalar">The trained quantizer, or <see langword="null"/> when untrained.</param>
     /// <param name="Codes">At least <paramref name="Count"/> codes of <see cref="ScalarQuantizer.PaddedLength"/> bytes.</param>
     /// <param name="FullVectors">The full vectors (unit length under cosine) when kept in memory, else <see langword="null"/>.</param>
-    internal readonly record struct CodeParts(int Count, long[] Ids, ScalarQuantizer? Scalar, CodeBuffer Codes, VectorBuffer? FullVectors);
+    internal readonly record struct CodeParts(int Count, IdColumn Ids, ScalarQuantizer? Scalar, CodeBuffer Codes, VectorBuffer? FullVectors);
 
     /// <summary>
     /// Under 8-bit storage, runs <paramref name="export"/> on the live state while holding the writer gate exclusively
@@ -142,6 +142,92 @@ public sealed partial class ExactIndex
         using var gate = _writerGate.EnterWrite();
         ThrowIfDisposed();
         return export(new CodeParts(_count, _ids, _scalar, _codes!, _keepsVectors ? _vectors : null));
+    }
+
+    // The mapped file whose read-only view backs the ids, rows and codes (null for an index in memory); the index
+    // owns it and unmaps it on Dispose, after the buffers have let go of it.
+    private IDisposable? _mapping;
+
+    /// <summary>
+    /// Whether the index reads a mapped file in place (opened with <c>IndexFile.OpenMapped</c>): searches and reads
+    /// only; adds, replaces, removals, training and <see cref="Compact"/> throw <see cref="NotSupportedException"/>.
+    /// </summary>
+    public bool IsMapped => Volatile.Read(ref _mapping) is not null;
+
+    /// <inheritdoc/>
+    private protected override bool IsReadOnly => IsMapped;
+
+    /// <summary>
+    /// Builds a read-only index over borrowed buffers (a mapped file's view), taking ownership of
+    /// <paramref name="mapping"/> (disposed on failure, or with the index). Float32 when <paramref name="codes"/> is
+    /// null; otherwise 8-bit codes with the given ranges, and full vectors in <paramref name="vectors"/> when kept.
+    /// </summary>
+    /// <exception cref="InvalidDataException">A range is unusable, a code's padding is not zero (when checked), or an untrained index holds rows.</exception>
+    internal static ExactIndex FromMapped(IDisposable mapping, int dimension, DistanceMetric metric, IdColumn ids, IdMap slotOf, VectorBuffer vectors, CodeBuffer? codes, float[]? ranges, int rescoreDepth, FullVectorLocation location, int count, bool checkPadding)
+    {
+        ExactIndex index;
+        try
+        {
+            if (codes is null)
+            {
+                index = new ExactIndex(dimension, metric, vectors, ids, count, squaredNorms: []);
+            }
+            else
+            {
+                VectorBuffer? full = vectors.Capacity > 0 ? vectors : null;
+                ScalarQuantizer? scalar = CheckCodeParts(dimension, rescoreDepth, location, ranges, codes, full, count, checkPadding);
+                index = new ExactIndex(dimension, metric, rescoreDepth, location, scalar, codes, full, ids, count);
+            }
+        }
+        catch
+        {
+            ids.Dispose();
+            vectors.Dispose();
+            codes?.Dispose();
+            mapping.Dispose();
+            throw;
+        }
+
+        index._slotOf = slotOf;
+        index._mapping = mapping;
+        return index;
+    }
+
+    private static ScalarQuantizer? CheckCodeParts(int dimension, int rescoreDepth, FullVectorLocation location, float[]? ranges, CodeBuffer codes, VectorBuffer? full, int count, bool checkPadding)
+    {
+        if ((full is not null) != (rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory))
+        {
+            throw new InvalidDataException($"the re-score depth is {rescoreDepth} and the full vectors' location {location}, but full vectors are {(full is null ? "missing" : "present")}; they are kept exactly when the depth is positive and the location is in memory");
+        }
+
+        ScalarQuantizer? scalar = null;
+        if (ranges is null)
+        {
+            if (count != 0)
+            {
+                throw new InvalidDataException($"an untrained index holds no vectors, but {count} are stored");
+            }
+        }
+        else
+        {
+            if (ranges.Length != 2 * dimension)
+            {
+                throw new InvalidDataException($"{ranges.Length} scalar range values are stored; dimension {dimension} needs {2 * dimension}");
+            }
+
+            scalar = ScalarQuantizer.FromRanges(ranges.AsSpan(0, dimension), ranges.AsSpan(dimension, dimension), dimension);
+        }
+
+        // The kernel reads whole padded codes: padding must decode to zero, as the encoder leaves it.
+        for (int slot = 0; checkPadding && slot < count; slot++)
+        {
+            if (codes.RowSpan(slot)[dimension..].IndexOfAnyExcept((byte)0) >= 0)
+            {
+                throw new InvalidDataException($"row {slot} has non-zero padding after its {dimension} code bytes");
+            }
+        }
+
+        return scalar;
     }
 
     /// <summary>
@@ -158,47 +244,20 @@ public sealed partial class ExactIndex
     /// <param name="codes">At least <paramref name="count"/> codes.</param>
     /// <param name="full">At least <paramref name="count"/> finite rows when re-scoring from memory is on, else <see langword="null"/>.</param>
     /// <param name="count">The number of rows.</param>
+    /// <param name="checkPadding">Whether to check every code's padding (a pass over the codes).</param>
     /// <exception cref="InvalidDataException">A range is unusable, a code's padding is not zero, an id repeats, or an untrained index holds rows.</exception>
-    internal static ExactIndex FromCodeParts(int dimension, DistanceMetric metric, int rescoreDepth, FullVectorLocation location, float[]? ranges, long[] ids, CodeBuffer codes, VectorBuffer? full, int count)
+    internal static ExactIndex FromCodeParts(int dimension, DistanceMetric metric, int rescoreDepth, FullVectorLocation location, float[]? ranges, IdColumn ids, CodeBuffer codes, VectorBuffer? full, int count, bool checkPadding = true)
     {
-        ScalarQuantizer? scalar = null;
+        ScalarQuantizer? scalar;
         try
         {
-            if ((full is not null) != (rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory))
-            {
-                throw new InvalidDataException($"the re-score depth is {rescoreDepth} and the full vectors' location {location}, but full vectors are {(full is null ? "missing" : "present")}; they are kept exactly when the depth is positive and the location is in memory");
-            }
-
-            if (ranges is null)
-            {
-                if (count != 0)
-                {
-                    throw new InvalidDataException($"an untrained index holds no vectors, but {count} are stored");
-                }
-            }
-            else
-            {
-                if (ranges.Length != 2 * dimension)
-                {
-                    throw new InvalidDataException($"{ranges.Length} scalar range values are stored; dimension {dimension} needs {2 * dimension}");
-                }
-
-                scalar = ScalarQuantizer.FromRanges(ranges.AsSpan(0, dimension), ranges.AsSpan(dimension, dimension), dimension);
-            }
-
-            // The kernel reads whole padded codes: padding must decode to zero, as the encoder leaves it.
-            for (int slot = 0; slot < count; slot++)
-            {
-                if (codes.RowSpan(slot)[dimension..].IndexOfAnyExcept((byte)0) >= 0)
-                {
-                    throw new InvalidDataException($"row {slot} has non-zero padding after its {dimension} code bytes");
-                }
-            }
+            scalar = CheckCodeParts(dimension, rescoreDepth, location, ranges, codes, full, count, checkPadding);
         }
         catch
         {
             codes.Dispose();
             full?.Dispose();
+            ids.Dispose();
             throw;
         }
 

@@ -50,7 +50,7 @@ public sealed partial class ExactIndex : VectorIndex
     private readonly bool _readsExternally;
     private readonly CodeBuffer? _codes;
     private ScalarQuantizer? _scalar;
-    private long[] _ids;
+    private readonly IdColumn _ids;
     private float[] _squaredNorms;
     private int _batchFallbacks;
 
@@ -96,7 +96,7 @@ public sealed partial class ExactIndex : VectorIndex
         }
 
         _vectors = new VectorBuffer(dimension, _keepsVectors ? capacity : 0);
-        _ids = new long[capacity];
+        _ids = new IdColumn(capacity);
         _squaredNorms = KeepsSquaredNorms(metric, options.Encoding) ? new float[capacity] : [];
     }
 
@@ -120,7 +120,7 @@ public sealed partial class ExactIndex : VectorIndex
 
     // Vectors (and 8-bit codes) at their reserved capacity, ids, norms, the code ranges, and the id lookup.
     private protected override long MemoryBytesLocked()
-        => _vectors.Bytes + ((long)_ids.Length * sizeof(long)) + ((long)_squaredNorms.Length * sizeof(float))
+        => _vectors.Bytes + _ids.Bytes + ((long)_squaredNorms.Length * sizeof(float))
             + _slotOf.Bytes + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float));
 
     // The row, or under 8-bit storage without full vectors the decoded code (each component within half a quantization
@@ -181,12 +181,14 @@ public sealed partial class ExactIndex : VectorIndex
         // without the write lock; only the swap takes that.
         using var gate = _writerGate.EnterWrite();
         ThrowIfDisposed();
+        ThrowIfReadOnly();
         cancellationToken.ThrowIfCancellationRequested();
         int count = _count;
         (VectorBuffer? vectors, CodeBuffer? codes) = CopyRows(count, count);
+        var ids = new IdColumn(count);
         try
         {
-            long[] ids = _ids.AsSpan(0, count).ToArray();
+            _ids.CopyRowsTo(ids, count);
             float[] norms = _squaredNorms.Length > 0 ? _squaredNorms.AsSpan(0, count).ToArray() : _squaredNorms;
             var slotOf = new IdMap(count);
             for (int slot = 0; slot < count; slot++)
@@ -202,6 +204,7 @@ public sealed partial class ExactIndex : VectorIndex
             // Empty after a swap; the unused copies after a cancellation.
             vectors?.Dispose();
             codes?.Dispose();
+            ids.Dispose();
         }
 
         progress?.Report(count);
@@ -215,6 +218,7 @@ public sealed partial class ExactIndex : VectorIndex
         using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             ThrowIfNotTrained();
             int added = ids.Length;
             if (replace)
@@ -267,7 +271,8 @@ public sealed partial class ExactIndex : VectorIndex
     /// </summary>
     private protected override void SearchBatchBlocks(ReadOnlySpan<float> queries, BatchSearchResults results, SearchOptions options, IProgress<int>? progress, CancellationToken cancellationToken)
     {
-        if (_codes is not null || options.Filter is not null)
+        // A mapped index has no squared norms (derived data the file does not hold), so it scans query by query.
+        if (_codes is not null || options.Filter is not null || IsMapped)
         {
             base.SearchBatchBlocks(queries, results, options, progress, cancellationToken);
             return;
@@ -282,6 +287,10 @@ public sealed partial class ExactIndex : VectorIndex
     {
         _vectors.Dispose();
         _codes?.Dispose();
+        _ids.Dispose();
+
+        // After the buffers have forgotten the view.
+        _mapping?.Dispose();
     }
 
     /// <inheritdoc/>
@@ -323,7 +332,7 @@ public sealed partial class ExactIndex : VectorIndex
         where TRows : struct, IScanRows
     {
         int n = _count;
-        long[] ids = _ids;
+        IdColumn ids = _ids;
         int count = 0;
         if (filter is not null)
         {
@@ -415,8 +424,9 @@ public sealed partial class ExactIndex : VectorIndex
         }
 
         using var gate = _writerGate.EnterWrite();
-        if (IsDisposed)
+        if (IsDisposed || IsReadOnly)
         {
+            // A mapped index refuses the write itself, in WriteBatch.
             return;
         }
 
@@ -431,10 +441,10 @@ public sealed partial class ExactIndex : VectorIndex
         // The growth rule of RowBuffer.EnsureCapacity, so the buffers stay the size growing in place would give.
         int grown = (int)Math.Min(Array.MaxLength, Math.Max(required, capacity + ((long)capacity / 2)));
         (VectorBuffer? vectors, CodeBuffer? codes) = CopyRows(count, grown);
+        var ids = new IdColumn(grown);
         try
         {
-            var ids = new long[grown];
-            _ids.AsSpan(0, count).CopyTo(ids);
+            _ids.CopyRowsTo(ids, count);
             float[] norms = _squaredNorms;
             if (KeepsSquaredNorms(Metric, _options.Encoding))
             {
@@ -448,6 +458,7 @@ public sealed partial class ExactIndex : VectorIndex
         {
             vectors?.Dispose();
             codes?.Dispose();
+            ids.Dispose();
         }
     }
 
@@ -483,7 +494,7 @@ public sealed partial class ExactIndex : VectorIndex
 
     // The short exclusive step after CopyRows: the buffers adopt the copies' memory (leaving the copies empty) and the
     // arrays are replaced, so a search sees the old storage or the new, never a mix.
-    private void SwapIn(VectorBuffer? vectors, CodeBuffer? codes, long[] ids, float[] norms, IdMap? slotOf)
+    private void SwapIn(VectorBuffer? vectors, CodeBuffer? codes, IdColumn ids, float[] norms, IdMap? slotOf)
     {
         using var write = _lock.EnterWrite();
         if (vectors is not null)
@@ -496,7 +507,7 @@ public sealed partial class ExactIndex : VectorIndex
             _codes!.Adopt(codes);
         }
 
-        _ids = ids;
+        _ids.Adopt(ids);
         _squaredNorms = norms;
         if (slotOf is not null)
         {
@@ -514,9 +525,9 @@ public sealed partial class ExactIndex : VectorIndex
         // Both buffers grow by the same rule from the same capacity, so they stay the same size.
         _codes?.EnsureCapacity(required);
         int capacity = _codes?.Capacity ?? _vectors.Capacity;
-        if (_ids.Length < capacity)
+        if (_ids.Capacity < capacity)
         {
-            Array.Resize(ref _ids, capacity);
+            _ids.Resize(capacity);
             if (KeepsSquaredNorms(Metric, _options.Encoding))
             {
                 Array.Resize(ref _squaredNorms, capacity);
@@ -610,7 +621,7 @@ public sealed partial class ExactIndex : VectorIndex
             int heapSize = Math.Min(n, scratch.HeapSize);
             float largestSquaredNorm = index.LargestSquaredNorm();
             int tileRows = scratch.TileRows;
-            long[] ids = index._ids;
+            IdColumn ids = index._ids;
             float[] rowNorms = index._squaredNorms;
             bool withNorms = rowNorms.Length > 0;
             Span<SearchHit> heaps = scratch.Heaps;

@@ -1,0 +1,182 @@
+using System.Diagnostics;
+using System.Runtime.InteropServices;
+using VectorKit.Distance;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+using VectorKit.Persistence;
+using VectorKit.Tests.TestData;
+
+namespace VectorKit.Benchmarks.Persistence;
+
+/// <summary>
+/// A console harness comparing <see cref="IndexFile.OpenMapped"/> with <see cref="IndexFile.Load(string, IndexLoadOptions?, CancellationToken)"/>
+/// on one exact index file (default 1,000,000 × 128, cached under BenchmarkDotNet.Artifacts/storage): time to open,
+/// time to the first query, single-thread queries/s after it, and the process's anonymous and file-backed resident
+/// memory. Cold rounds first drop the file's pages from the page cache with posix_fadvise(DONTNEED) (this file only:
+/// the machine is shared, so the system-wide drop_caches is not used); warm rounds run with the file cached. Rounds
+/// alternate mapped and loaded; each figure is the median of the rounds. Mapped results must equal loaded results.
+/// </summary>
+public static class MappedOpen
+{
+    private const int DontNeed = 4;
+
+    public static void Run(int count, int dimension, int queryCount, int rounds)
+    {
+        string folder = Path.Combine(Directory.GetCurrentDirectory(), "BenchmarkDotNet.Artifacts", "storage");
+        Directory.CreateDirectory(folder);
+        string path = Path.Combine(folder, $"exact-v3-{count}x{dimension}.vkx");
+        if (!File.Exists(path))
+        {
+            using ExactIndex built = Build(count, dimension);
+            IndexFile.Save(built, path);
+        }
+
+        Console.WriteLine($"mapped open vs load: exact {count} × {dimension}, file {new FileInfo(path).Length / 1e6:F0} MB, {queryCount} queries, k = 10, one thread; {Environment.ProcessorCount} cores; median of {rounds} rounds");
+        float[] queries = ClusteredData.Generate(queryCount + 1, dimension, 50, 0.3f, seed: 5);
+        var serial = new SearchOptions { MaxDegreeOfParallelism = 1 };
+
+        // Compile the paths once on the real file, and check that both give the same answers.
+        using (ExactIndex mapped = IndexFile.OpenMapped(path))
+        using (ExactIndex loaded = IndexFile.Load<ExactIndex>(path))
+        {
+            for (int q = 0; q < Math.Min(queryCount, 20); q++)
+            {
+                ReadOnlySpan<float> query = queries.AsSpan(q * dimension, dimension);
+                if (!mapped.Search(query, 10, serial).SequenceEqual(loaded.Search(query, 10, serial)))
+                {
+                    throw new InvalidOperationException($"query {q}: mapped and loaded results differ");
+                }
+            }
+        }
+
+        var results = new Dictionary<string, List<Figures>>();
+        for (int round = 0; round < rounds; round++)
+        {
+            foreach (bool cold in new[] { true, false })
+            {
+                foreach (bool mappedOpen in round % 2 == 0 ? new[] { true, false } : new[] { false, true })
+                {
+                    string key = $"{(mappedOpen ? "mapped" : "loaded")} {(cold ? "cold" : "warm")}";
+                    if (cold)
+                    {
+                        DropFromCache(path);
+                    }
+                    else
+                    {
+                        WarmCache(path);
+                    }
+
+                    Figures figures = Measure(path, mappedOpen, queries, dimension, queryCount, serial);
+                    (results.TryGetValue(key, out List<Figures>? list) ? list : results[key] = []).Add(figures);
+                }
+            }
+        }
+
+        Console.WriteLine("| opening | page cache | open | first query | queries/s after it | anonymous RSS added | file RSS added |");
+        Console.WriteLine("|---|---|---|---|---|---|---|");
+        foreach ((string key, List<Figures> list) in results)
+        {
+            string[] parts = key.Split(' ');
+            Console.WriteLine(
+                $"| {parts[0]} | {parts[1]} | {Median(list, f => f.OpenMs):F1} ms | {Median(list, f => f.FirstQueryMs):F1} ms | {Median(list, f => f.QueriesPerSecond):F1} | {Median(list, f => f.AnonMb):F0} MB | {Median(list, f => f.FileMb):F0} MB |");
+        }
+    }
+
+    private static Figures Measure(string path, bool mappedOpen, float[] queries, int dimension, int queryCount, SearchOptions serial)
+    {
+        GC.Collect();
+        GC.WaitForPendingFinalizers();
+        (long anon0, long file0) = Resident();
+        var clock = Stopwatch.StartNew();
+        using ExactIndex index = mappedOpen ? IndexFile.OpenMapped(path) : IndexFile.Load<ExactIndex>(path);
+        double open = clock.Elapsed.TotalMilliseconds;
+        var hits = new SearchHit[10];
+        index.Search(queries.AsSpan(queryCount * dimension, dimension), hits, serial);
+        double first = clock.Elapsed.TotalMilliseconds - open;
+        var rest = Stopwatch.StartNew();
+        for (int q = 0; q < queryCount; q++)
+        {
+            index.Search(queries.AsSpan(q * dimension, dimension), hits, serial);
+        }
+
+        double qps = queryCount / rest.Elapsed.TotalSeconds;
+        (long anon1, long file1) = Resident();
+        return new Figures(open, first, qps, (anon1 - anon0) / 1024.0, (file1 - file0) / 1024.0);
+    }
+
+    private static ExactIndex Build(int count, int dimension)
+    {
+        var random = new Random(7);
+        var index = new ExactIndex(dimension, DistanceMetric.SquaredEuclidean);
+        const int chunk = 65_536;
+        var data = new float[chunk * dimension];
+        var ids = new long[chunk];
+        for (int start = 0; start < count; start += chunk)
+        {
+            int n = Math.Min(chunk, count - start);
+            for (int i = 0; i < n * dimension; i++)
+            {
+                data[i] = (random.NextSingle() * 2) - 1;
+            }
+
+            for (int i = 0; i < n; i++)
+            {
+                ids[i] = start + i;
+            }
+
+            index.AddRange(ids.AsSpan(0, n), data.AsSpan(0, n * dimension));
+        }
+
+        return index;
+    }
+
+    // The file's clean pages leave the page cache (no root needed); other files are untouched.
+    private static void DropFromCache(string path)
+    {
+        using var file = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.ReadWrite);
+        int result = PosixFadvise((int)file.SafeFileHandle.DangerousGetHandle(), 0, 0, DontNeed);
+        if (result != 0)
+        {
+            throw new IOException($"posix_fadvise failed with {result}");
+        }
+    }
+
+    private static void WarmCache(string path)
+    {
+        using var file = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.Read, 1 << 20);
+        byte[] block = new byte[1 << 20];
+        while (file.Read(block) > 0)
+        {
+        }
+    }
+
+    // RssAnon and RssFile of this process, in KiB.
+    private static (long Anon, long File) Resident()
+    {
+        long anon = 0, file = 0;
+        foreach (string line in File.ReadLines("/proc/self/status"))
+        {
+            if (line.StartsWith("RssAnon:", StringComparison.Ordinal))
+            {
+                anon = long.Parse(line.Split(' ', StringSplitOptions.RemoveEmptyEntries)[1], System.Globalization.CultureInfo.InvariantCulture);
+            }
+            else if (line.StartsWith("RssFile:", StringComparison.Ordinal))
+            {
+                file = long.Parse(line.Split(' ', StringSplitOptions.RemoveEmptyEntries)[1], System.Globalization.CultureInfo.InvariantCulture);
+            }
+        }
+
+        return (anon, file);
+    }
+
+    private static double Median(List<Figures> list, Func<Figures, double> pick)
+    {
+        double[] values = list.Select(pick).Order().ToArray();
+        return values[values.Length / 2];
+    }
+
+    [DllImport("libc", EntryPoint = "posix_fadvise", SetLastError = true)]
+    private static extern int PosixFadvise(int fd, long offset, long length, int advice);
+
+    private readonly record struct Figures(double OpenMs, double FirstQueryMs, double QueriesPerSecond, double AnonMb, double FileMb);
+}
