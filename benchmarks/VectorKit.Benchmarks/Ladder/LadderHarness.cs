@@ -13,7 +13,8 @@ namespace VectorKit.Benchmarks.Ladder;
 /// <remarks>
 /// Arguments (any order): <c>rungs=3,4,5,6,7</c> (exponents; <c>8x64</c> is 10⁸ × 64), <c>dim=128</c>,
 /// <c>kinds=ivf-pq,graph-8bit</c>, <c>queries=1000</c>, <c>format=npy|fvecs</c>, <c>dir=BenchmarkDotNet.Artifacts/ladder</c>.
-/// A rung's data and ground truth are kept in its folder and reused by later runs.
+/// A rung's data and ground truth are kept in its folder and reused by later runs; <c>rungs=</c> (empty) only rewrites the
+/// summary files from the results already there (after steps run by hand with <c>ladder-step</c>).
 /// </remarks>
 internal static class LadderHarness
 {
@@ -27,7 +28,8 @@ internal static class LadderHarness
         string[] kinds = options.GetValueOrDefault("kinds", "ivf-pq,graph-8bit").Split(',');
         Directory.CreateDirectory(root);
         Console.WriteLine($"ladder: {Environment.ProcessorCount} cores, {root}; single-thread queries, builds on 2 threads; each step in its own process");
-        foreach (string rung in options.GetValueOrDefault("rungs", "3,4,5,6,7").Split(','))
+        // rungs= (empty) measures nothing and only rewrites the table, TSVs and plot from the results already there.
+        foreach (string rung in options.GetValueOrDefault("rungs", "3,4,5,6,7").Split(',', StringSplitOptions.RemoveEmptyEntries))
         {
             string[] parts = rung.Split('x');
             long count = checked((long)Math.Pow(10, int.Parse(parts[0], CultureInfo.InvariantCulture)));
@@ -35,6 +37,8 @@ internal static class LadderHarness
             RunRung(root, count, d, queries, format, kinds);
             Summarise(root);
         }
+
+        Summarise(root);
     }
 
     /// <summary>A child process's entry: <c>ladder-step data|truth|ivf-pq|graph-8bit folder count dimension queries format</c>.</summary>

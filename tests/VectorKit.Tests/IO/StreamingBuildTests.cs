@@ -247,6 +247,50 @@ public sealed class StreamingBuildTests : IDisposable
     }
 
     [Fact]
+    public void TrainedIndex_IsNotRetrained_AndTheFileIsReadOnce()
+    {
+        const int n = 1500;
+        float[] data = ClusteredData.Generate(n, D, 10, 0.3f, seed: 99);
+        string path = WriteFvecs("data.fvecs", data, D);
+        using FileVectorSource source = StreamingBuild.OpenFullVectors(path);
+        using VectorIndex streamed = Create("inverted-file-8bit", source);
+        using VectorIndex memory = Create("inverted-file-8bit", source);
+        float[] other = ClusteredData.Generate(400, D, 10, 0.3f, seed: 100);
+        streamed.Train(other);
+        memory.Train(other);
+        memory.AddRange(Enumerable.Range(0, n).Select(i => (long)i).ToArray(), data);
+        var progress = new SynchronousProgress<StreamingBuildProgress>();
+
+        StreamingBuildReport report = StreamingBuild.Build(streamed, path, new StreamingBuildOptions { BlockRows = 128 }, progress);
+
+        Assert.Equal(0, report.TrainingRows);
+        Assert.Equal(128, report.PeakRowsBuffered);
+        Assert.All(progress.Values, p => Assert.Equal(StreamingBuildStage.Adding, p.Stage));
+        var a = new SearchHit[10];
+        var b = new SearchHit[10];
+        for (int q = 0; q < 10; q++)
+        {
+            streamed.Search(data.AsSpan(q * 97 * D, D), a);
+            memory.Search(data.AsSpan(q * 97 * D, D), b);
+            Assert.Equal(b, a);
+        }
+    }
+
+    [Fact]
+    [Trait("CWE", "CWE-130")]
+    public void TruncatedBvecs_IsRefusedAsAFullVectorSource()
+    {
+        string path = Path.Combine(_directory, "cut.bvecs");
+        var bytes = new byte[(2 * (4 + D)) - 3];
+        BinaryPrimitives.WriteInt32LittleEndian(bytes, D);
+        BinaryPrimitives.WriteInt32LittleEndian(bytes.AsSpan(4 + D), D);
+        File.WriteAllBytes(path, bytes);
+
+        var e = Assert.Throws<DataFormatException>(() => StreamingBuild.OpenFullVectors(path));
+        Assert.Contains("not a whole number of 20-byte rows of dimension 16", e.Message);
+    }
+
+    [Fact]
     [Trait("CWE", "CWE-130")]
     public void TruncatedFvecs_IsRejectedBeforeTraining_NamingTheFile()
     {
