@@ -20,7 +20,8 @@ namespace VectorKit.Benchmarks;
 /// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>; the
 /// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>; the exact
 /// index's batch search against the numpy + OpenBLAS baseline: <c>exact-batch-vs-blas [repetitions] [reference queries] [baseline ids]</c>;
-/// recall-targeted tuning of every kind beside its untuned defaults: <c>tuning [fashion-mnist|text|clustered] [target] [cosine|-] [count] [dimension]</c>.
+/// recall-targeted tuning of every kind beside its untuned defaults: <c>tuning [fashion-mnist|text|clustered] [target] [cosine|-] [count] [dimension]</c>;
+/// the ladder of streamed builds from 10³ to 10⁷ rows on disk: <c>ladder [rungs=3,4,5,6,7] [dim=128] [kinds=ivf-pq,graph-8bit] [queries=1000] [format=npy|fvecs] [dir=...]</c>.
 /// </summary>
 public static class Program
 {
@@ -32,6 +33,18 @@ public static class Program
                 args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 3,
                 args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 200,
                 args.Length > 3 ? args[3] : null);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "ladder")
+        {
+            Ladder.LadderHarness.Run(args);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "ladder-step")
+        {
+            Ladder.LadderHarness.Step(args);
             return;
         }
 

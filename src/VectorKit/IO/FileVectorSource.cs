@@ -8,8 +8,8 @@ namespace VectorKit.IO;
 
 /// <summary>
 /// Full float32 vectors read one row at a time from a file on disk, for exact re-scoring without holding the vectors
-/// in memory: a .npy file (little-endian <c>&lt;f4</c>, C order, two dimensions), a .fvecs file, or raw row-major
-/// float32 of a given dimension. Row <c>r</c> holds the vector of id <c>r</c>, or of <c>rowIds[r]</c> when the
+/// in memory: a .npy file (little-endian <c>&lt;f4</c>, C order, two dimensions), a .fvecs file, a .bvecs file (bytes
+/// converted to float32 as read), or raw row-major float32 of a given dimension. Row <c>r</c> holds the vector of id <c>r</c>, or of <c>rowIds[r]</c> when the
 /// caller passes ids.
 /// </summary>
 /// <remarks>
@@ -32,6 +32,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     private readonly long _dataStart;
     private readonly long _rowStride;
     private readonly bool _prefixed;
+    private readonly bool _byteValues;
     private readonly string _format;
     private readonly Dictionary<long, int>? _rowOf;
     private volatile bool _disposed;
@@ -40,8 +41,9 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     [ThreadStatic]
     private static byte[]? t_prefixedRow;
 
-    private FileVectorSource(SafeFileHandle handle, string path, string format, long dataStart, long count, int dimension, bool prefixed, long[]? rowIds)
+    private FileVectorSource(SafeFileHandle handle, string path, string format, long dataStart, long count, int dimension, bool prefixed, long[]? rowIds, bool byteValues = false)
     {
+        _byteValues = byteValues;
         _handle = handle;
         FilePath = path;
         _format = format;
@@ -49,7 +51,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
         Count = count;
         Dimension = dimension;
         _prefixed = prefixed;
-        _rowStride = (prefixed ? sizeof(int) : 0) + ((long)dimension * sizeof(float));
+        _rowStride = (prefixed ? sizeof(int) : 0) + ((long)dimension * (byteValues ? sizeof(byte) : sizeof(float)));
         if (rowIds is not null)
         {
             if (rowIds.Length != count)
@@ -135,11 +137,14 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
         => DataFiles.Named(path, () => OpenFvecsCore(path, rowIds, limits));
 
     private static FileVectorSource OpenFvecsCore(string path, long[]? rowIds, DataReadLimits? limits)
+        => OpenVecsCore(path, VecsElementType.Float32, "fvecs", sizeof(float), rowIds, limits);
+
+    private static FileVectorSource OpenVecsCore(string path, VecsElementType elementType, string format, int elementBytes, long[]? rowIds, DataReadLimits? limits)
     {
         long count;
         int dimension;
         long length;
-        using (VecsReader reader = VecsReader.Open(path, VecsElementType.Float32, limits))
+        using (VecsReader reader = VecsReader.Open(path, elementType, limits))
         {
             dimension = reader.Dimension;
             count = reader.Count;
@@ -148,20 +153,35 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
 
         if (dimension == 0)
         {
-            DataFormatThrow.Malformed("fvecs", $"the file '{path}' is empty, so it states no dimension and holds no vectors");
+            DataFormatThrow.Malformed(format, $"the file '{path}' is empty, so it states no dimension and holds no vectors");
         }
 
-        long rowBytes = sizeof(int) + ((long)dimension * sizeof(float));
+        long rowBytes = sizeof(int) + ((long)dimension * elementBytes);
         if (count < 0)
         {
             DataFormatThrow.Malformed(
-                "fvecs",
+                format,
                 $"the file holds {length} bytes, not a whole number of {rowBytes}-byte rows of dimension {dimension}; it is truncated or its rows differ in dimension",
                 length / rowBytes * rowBytes);
         }
 
-        return Open(path, "fvecs", 0, count, dimension, prefixed: true, rowIds, length);
+        return Open(path, format, 0, count, dimension, prefixed: true, rowIds, length, byteValues: elementBytes == sizeof(byte));
     }
+
+    /// <summary>Opens a .bvecs file: each row a little-endian int32 dimension, then that many unsigned bytes, read as float32 values 0 to 255.</summary>
+    /// <param name="path">The file path.</param>
+    /// <param name="rowIds">Optional: the id of each row (one per row, unique). <see langword="null"/>: a row's number is its id.</param>
+    /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>
+    /// <returns>A source that owns the file handle.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
+    /// <exception cref="ArgumentException"><paramref name="rowIds"/> does not hold one unique id per row.</exception>
+    /// <exception cref="IOException">The file cannot be opened.</exception>
+    /// <exception cref="DataFormatException">
+    /// The file is empty, its first dimension is out of range, or its length is not a whole number of rows of that
+    /// dimension (a truncated or ragged file). Each row's own dimension prefix is checked when the row is read.
+    /// </exception>
+    public static FileVectorSource OpenBvecs(string path, long[]? rowIds = null, DataReadLimits? limits = null)
+        => DataFiles.Named(path, () => OpenVecsCore(path, VecsElementType.UInt8, "bvecs", sizeof(byte), rowIds, limits));
 
     /// <summary>Opens a file of raw row-major little-endian float32 values with no header.</summary>
     /// <param name="path">The file path.</param>
@@ -263,6 +283,17 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
                 DataFormatThrow.RaggedRow(_format, row, d, found, offset);
             }
 
+            if (_byteValues)
+            {
+                ReadOnlySpan<byte> bytesOfRow = whole[sizeof(int)..];
+                for (int i = 0; i < d; i++)
+                {
+                    values[i] = bytesOfRow[i];
+                }
+
+                return true; // bytes have no byte order
+            }
+
             whole[sizeof(int)..].CopyTo(MemoryMarshal.AsBytes(values));
         }
         else
@@ -286,7 +317,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
         _handle.Dispose();
     }
 
-    private static FileVectorSource Open(string path, string format, long dataStart, long count, int dimension, bool prefixed, long[]? rowIds, long checkedLength)
+    private static FileVectorSource Open(string path, string format, long dataStart, long count, int dimension, bool prefixed, long[]? rowIds, long checkedLength, bool byteValues = false)
     {
         SafeFileHandle handle = File.OpenHandle(path, FileMode.Open, FileAccess.Read, FileShare.Read, FileOptions.RandomAccess);
         try
@@ -298,7 +329,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
                 DataFormatThrow.Malformed(format, $"the file '{path}' changed length from {checkedLength} to {length} bytes while it was being opened");
             }
 
-            return new FileVectorSource(handle, path, format, dataStart, count, dimension, prefixed, rowIds);
+            return new FileVectorSource(handle, path, format, dataStart, count, dimension, prefixed, rowIds, byteValues);
         }
         catch
         {

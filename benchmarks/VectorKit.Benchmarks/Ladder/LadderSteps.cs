@@ -1,0 +1,316 @@
+using System.Diagnostics;
+using System.Globalization;
+using VectorKit.Distance;
+using VectorKit.Indexes;
+using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
+using VectorKit.IO;
+
+namespace VectorKit.Benchmarks.Ladder;
+
+/// <summary>
+/// One step of one rung, run in its own process so its peak resident memory (VmHWM) is its own: ground truth with the
+/// exact scan's speed, or a streamed build of one kind followed by a sweep of its search settings. Each writes a small
+/// result file (<c>key\tvalue</c> lines, then <c>point\tsetting\trecall\tqueries/s</c> lines) that the ladder reads.
+/// </summary>
+internal static class LadderSteps
+{
+    public const int K = 10;
+    private const int TruthBlockRows = 1_000_000;
+
+    public static void Truth(string dataPath, string queryPath, string truthPath, string resultPath)
+    {
+        VectorSet queries = NpyOrFvecs(queryPath);
+        int d = queries.Dimension;
+        int q = queries.Count;
+        var best = new List<SearchHit>[q];
+        for (int i = 0; i < q; i++)
+        {
+            best[i] = new List<SearchHit>(2 * K);
+        }
+
+        using VectorReader reader = Open(dataPath);
+        long count = reader.Count;
+        int timed = count <= 100_000 ? 200 : count <= 1_000_000 ? 100 : 20;
+        timed = Math.Min(timed, q);
+        var block = new float[(int)Math.Min(TruthBlockRows, count) * d];
+        long start = 0;
+        double scanSeconds = 0;
+        double addSeconds = 0;
+        double bytesPerVector = 0;
+        var hits = new SearchHit[K];
+        var total = Stopwatch.StartNew();
+        while (true)
+        {
+            int got = reader.ReadBlock(block);
+            if (got == 0)
+            {
+                break;
+            }
+
+            long[] ids = new long[got];
+            for (int i = 0; i < got; i++)
+            {
+                ids[i] = start + i;
+            }
+
+            var watch = Stopwatch.StartNew();
+            using var exact = new ExactIndex(d, DistanceMetric.SquaredEuclidean);
+            exact.AddRange(ids, block.AsSpan(0, got * d));
+            addSeconds += watch.Elapsed.TotalSeconds;
+            bytesPerVector = exact.MemoryBytes / (double)got;
+
+            // The exact index's batch search gives each block's top 10; the blocks' lists merge by (distance, id).
+            BatchSearchResults results = exact.SearchBatch(queries.Data.AsSpan(0, q * d), K);
+            for (int i = 0; i < q; i++)
+            {
+                best[i].AddRange(results[i]);
+                best[i].Sort();
+                if (best[i].Count > K)
+                {
+                    best[i].RemoveRange(K, best[i].Count - K);
+                }
+            }
+
+            // The single-thread scan, timed per block: the sum over blocks is one scan of every row.
+            watch.Restart();
+            for (int i = 0; i < timed; i++)
+            {
+                exact.Search(queries.Data.AsSpan(i * d, d), hits);
+            }
+
+            scanSeconds += watch.Elapsed.TotalSeconds;
+            start += got;
+            Console.Error.WriteLine($"truth: {start:N0} of {count:N0} rows, {total.Elapsed.TotalSeconds:F0} s");
+        }
+
+        using (var writer = new BinaryWriter(File.Create(truthPath)))
+        {
+            writer.Write(q);
+            foreach (List<SearchHit> row in best)
+            {
+                for (int j = 0; j < K; j++)
+                {
+                    writer.Write(row[j].Id);
+                }
+            }
+        }
+
+        var result = new LadderResult
+        {
+            Kind = "exact",
+            BuildSeconds = addSeconds,
+            BytesPerVector = bytesPerVector,
+            PeakResidentMiB = PeakResidentMiB(),
+            Notes = count > TruthBlockRows ? $"scanned in blocks of {TruthBlockRows:N0} rows" : "one in-memory index",
+        };
+        result.Points.Add(new LadderPoint("full scan", 1.0, timed / scanSeconds));
+        result.Save(resultPath);
+    }
+
+    public static void BuildAndSweep(string kind, string dataPath, string queryPath, string truthPath, string resultPath)
+    {
+        VectorSet queries = NpyOrFvecs(queryPath);
+        long[][] truth = ReadTruth(truthPath);
+        int d = queries.Dimension;
+        long count;
+        using (VectorReader reader = Open(dataPath))
+        {
+            count = reader.Count;
+        }
+
+        using FileVectorSource source = StreamingBuild.OpenFullVectors(dataPath);
+        VectorIndex index;
+        string settings;
+        if (kind == "graph-8bit")
+        {
+            index = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions
+            {
+                Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 50, FullVectors = FullVectorLocation.ExternalSource, MaxDegreeOfParallelism = 2,
+            });
+            settings = "8-bit codes, default links, full vectors re-scored from the data file";
+        }
+        else
+        {
+            int lists = Lists(count);
+            index = new InvertedFileIndex(d, DistanceMetric.SquaredEuclidean, new InvertedFileOptions
+            {
+                ListCount = lists, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = d / 2, RescoreDepth = 100,
+                FullVectors = FullVectorLocation.ExternalSource, MaxDegreeOfParallelism = 2,
+            });
+            settings = $"{lists} lists, {d / 2}-byte product codes, full vectors re-scored from the data file";
+        }
+
+        using (index)
+        {
+            index.AttachFullVectors(source);
+            int sample = (int)Math.Min(count, kind == "graph-8bit" ? 100_000 : Math.Max(100_000, 40 * Lists(count)));
+            var watch = Stopwatch.StartNew();
+            StreamingBuildReport report = StreamingBuild.Build(index, dataPath, new StreamingBuildOptions { SampleSize = sample }, new ConsoleProgress(kind, watch));
+            double buildSeconds = watch.Elapsed.TotalSeconds;
+            var result = new LadderResult
+            {
+                Kind = kind,
+                BuildSeconds = buildSeconds,
+                BytesPerVector = index.MemoryBytes / (double)index.Count,
+                Notes = $"{settings}; trained on {report.TrainingRows:N0} strided rows",
+            };
+            Console.Error.WriteLine($"{kind}: built {report.RowsAdded:N0} rows in {buildSeconds:F0} s; {result.BytesPerVector:F0} bytes/vector");
+
+            (int Width, int Depth)[] grid = kind == "graph-8bit"
+                ? [.. Grid([10, 16, 24, 32, 48, 64, 96, 128, 192, 256, 384, 512, 768, 1024], [0, 20, 50, 100])]
+                : [.. Grid([1, 2, 4, 8, 16, 32, 64, 128], [0, 20, 50, 100, 200])];
+            var done = new HashSet<int>();
+            var previous = new Dictionary<int, double>();
+            foreach ((int width, int depth) in grid)
+            {
+                if (done.Contains(depth))
+                {
+                    continue;
+                }
+
+                var options = new SearchOptions { SearchWidth = width, RescoreDepth = depth };
+                (double recall, double qps) = Measure(index, queries, truth, options);
+                string setting = kind == "graph-8bit" ? $"width {width}" : $"{width} lists probed";
+                setting += depth == 0 ? ", no re-scoring" : $", re-scoring {depth}";
+                result.Points.Add(new LadderPoint(setting, recall, qps));
+                Console.Error.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}: {setting}: recall@10 {recall:F4}, {qps:F0} queries/s"));
+
+                // A wider search only costs more: a depth is done once the higher target is met, once recall stops
+                // rising (codes alone plateau below it), or once throughput is hopeless.
+                bool flat = previous.TryGetValue(depth, out double before) && recall - before < 0.0005;
+                if (recall >= 0.95 || flat || qps < 20)
+                {
+                    done.Add(depth);
+                }
+
+                previous[depth] = recall;
+            }
+
+            result.PeakResidentMiB = PeakResidentMiB();
+            result.Save(resultPath);
+        }
+    }
+
+    public static int Lists(long count)
+    {
+        double target = 2 * Math.Sqrt(count);
+        int lists = 16;
+        while (lists * 2 <= target && lists < 4096)
+        {
+            lists *= 2;
+        }
+
+        return lists;
+    }
+
+    private static IEnumerable<(int, int)> Grid(int[] widths, int[] depths)
+    {
+        foreach (int w in widths)
+        {
+            foreach (int depth in depths)
+            {
+                yield return (w, depth);
+            }
+        }
+    }
+
+    /// <summary>Recall@10 over every query (an untimed pass that also warms the page cache), then single-thread queries/s, best of 2 passes.</summary>
+    private static (double Recall, double Qps) Measure(VectorIndex index, VectorSet queries, long[][] truth, SearchOptions options)
+    {
+        int d = queries.Dimension;
+        int q = truth.Length;
+        var hits = new SearchHit[K];
+        long found = 0;
+        for (int i = 0; i < q; i++)
+        {
+            int n = index.Search(queries.Data.AsSpan(i * d, d), hits, options);
+            for (int j = 0; j < n; j++)
+            {
+                if (Array.IndexOf(truth[i], hits[j].Id) >= 0)
+                {
+                    found++;
+                }
+            }
+        }
+
+        double best = 0;
+        for (int pass = 0; pass < 2; pass++)
+        {
+            var watch = Stopwatch.StartNew();
+            for (int i = 0; i < q; i++)
+            {
+                index.Search(queries.Data.AsSpan(i * d, d), hits, options);
+            }
+
+            best = Math.Max(best, q / watch.Elapsed.TotalSeconds);
+        }
+
+        return (found / (double)(q * K), best);
+    }
+
+    /// <summary>The process's peak resident set (VmHWM in /proc/self/status), in MiB; NaN where that file does not exist.</summary>
+    public static double PeakResidentMiB()
+    {
+        const string status = "/proc/self/status";
+        if (!File.Exists(status))
+        {
+            return double.NaN;
+        }
+
+        foreach (string line in File.ReadLines(status))
+        {
+            if (line.StartsWith("VmHWM:", StringComparison.Ordinal))
+            {
+                string kb = line["VmHWM:".Length..].Trim().Split(' ')[0];
+                return long.Parse(kb, CultureInfo.InvariantCulture) / 1024.0;
+            }
+        }
+
+        return double.NaN;
+    }
+
+    private static VectorReader Open(string path)
+        => path.EndsWith(".npy", StringComparison.Ordinal) ? NpyReader.Open(path) : VecsReader.Open(path, VecsElementType.Float32);
+
+    private static VectorSet NpyOrFvecs(string path)
+        => path.EndsWith(".npy", StringComparison.Ordinal) ? NpyFile.ReadVectors(path) : VecsFile.ReadFvecs(path);
+
+    private static long[][] ReadTruth(string path)
+    {
+        using var reader = new BinaryReader(File.OpenRead(path));
+        int q = reader.ReadInt32();
+        var truth = new long[q][];
+        for (int i = 0; i < q; i++)
+        {
+            truth[i] = new long[K];
+            for (int j = 0; j < K; j++)
+            {
+                truth[i][j] = reader.ReadInt64();
+            }
+        }
+
+        return truth;
+    }
+
+    private sealed class ConsoleProgress(string kind, Stopwatch watch) : IProgress<StreamingBuildProgress>
+    {
+        private long _nextReport;
+
+        public void Report(StreamingBuildProgress value)
+        {
+            if (value.Stage == StreamingBuildStage.Training)
+            {
+                Console.Error.WriteLine($"{kind}: training {(value.Completed == 0 ? "starts" : "done")} at {watch.Elapsed.TotalSeconds:F0} s");
+                return;
+            }
+
+            if (value.Stage == StreamingBuildStage.Adding && value.Completed >= _nextReport)
+            {
+                Console.Error.WriteLine($"{kind}: {value.Completed:N0} of {value.Total:N0} rows added at {watch.Elapsed.TotalSeconds:F0} s");
+                _nextReport = value.Completed + Math.Max(1, value.Total / 20);
+            }
+        }
+    }
+}
