@@ -123,22 +123,26 @@ internal sealed class ShardRouterGrain(CollectionDefinitions definitions, IOptio
             }
             catch (ShardUnavailableException e)
             {
+                // A failed load is the more useful report: it stays, whatever the other copies say.
                 problem = e.Message;
                 transient = false;
+                continue;
             }
             catch (ArgumentException)
             {
                 throw;
             }
-            catch (OperationCanceledException)
+            catch (OperationCanceledException) when (transient)
             {
                 problem = $"copy {replica} gave no answer in time";
-                transient = true;
+            }
+            catch (Exception e) when (transient && e is not (OutOfMemoryException or OperationCanceledException))
+            {
+                problem = $"copy {replica}: {e.GetType().Name}: {e.Message}";
             }
             catch (Exception e) when (e is not OutOfMemoryException)
             {
-                problem = $"copy {replica}: {e.GetType().Name}: {e.Message}";
-                transient = true;
+                // Keep the failed-load report of an earlier copy.
             }
         }
 
