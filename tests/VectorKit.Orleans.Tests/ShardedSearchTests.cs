@@ -186,7 +186,7 @@ public sealed class ShardedSearchTests(ClusterFixture fixture)
         await WaitUnavailableAsync(sharded, 2);
         var e = await Assert.ThrowsAsync<ShardUnavailableException>(() => sharded.SearchAsync(new float[d], 3));
         Assert.Equal([2], e.Shards);
-        Assert.True(e.Message.Contains($"holds id {foreign}, which belongs to shard 5", StringComparison.Ordinal), e.Message);
+        Assert.True(e.Message.Contains($"hold id {foreign}, which belongs to shard 5", StringComparison.Ordinal), e.Message);
     }
 
     // Deactivation after a reset is asynchronous: wait until every copy has re-activated from the damaged files.
