@@ -27,7 +27,7 @@ internal sealed class ShardCluster : IAsyncDisposable
     public static ShardedCollectionClientOptions ClientOptions { get; } = new()
     {
         RetryWindow = TimeSpan.FromSeconds(60),
-        AttemptTimeout = TimeSpan.FromSeconds(3),
+        AttemptTimeout = TimeSpan.FromSeconds(30),
     };
 
     public static async Task<ShardCluster> StartAsync(int silos)
@@ -48,9 +48,9 @@ internal sealed class ShardCluster : IAsyncDisposable
                 o.TableRefreshTimeout = TimeSpan.FromSeconds(1);
                 o.IAmAliveTablePublishTimeout = TimeSpan.FromSeconds(2);
             });
-            silo.Configure<SiloMessagingOptions>(o => o.ResponseTimeout = TimeSpan.FromSeconds(5));
+            silo.Configure<SiloMessagingOptions>(o => o.ResponseTimeout = TimeSpan.FromSeconds(30));
         });
-        builder.ConfigureClient(client => client.Configure<ClientMessagingOptions>(o => o.ResponseTimeout = TimeSpan.FromSeconds(5)));
+        builder.ConfigureClient(client => client.Configure<ClientMessagingOptions>(o => o.ResponseTimeout = TimeSpan.FromSeconds(30)));
         InProcessTestCluster cluster = builder.Build();
         await cluster.DeployAsync();
         return new ShardCluster(cluster, root);
