@@ -21,7 +21,7 @@ namespace VectorKit.Orleans;
 internal sealed class ShardGrain : Grain, IShardGrain
 {
     private readonly IShardStore _store;
-    private readonly IShardIndexFactory _factory;
+    private readonly IEmptyShardBuilder _factory;
     private readonly VectorKitShardingOptions _options;
     private readonly ILogger<ShardGrain> _log;
     private readonly string _collection;
@@ -33,7 +33,7 @@ internal sealed class ShardGrain : Grain, IShardGrain
     private int _writesSinceSnapshot;
     private string? _problem;
 
-    public ShardGrain(IShardStore store, IShardIndexFactory factory, IOptions<VectorKitShardingOptions> options, ILogger<ShardGrain> log)
+    public ShardGrain(IShardStore store, IEmptyShardBuilder factory, IOptions<VectorKitShardingOptions> options, ILogger<ShardGrain> log)
     {
         _store = store;
         _factory = factory;

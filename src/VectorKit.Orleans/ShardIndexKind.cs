@@ -3,7 +3,7 @@ namespace VectorKit.Orleans;
 /// <summary>The index kind each shard of a collection builds when it starts empty.</summary>
 /// <remarks>
 /// Other kinds (the inverted file, 8-bit encodings that need training) plug in through an
-/// <see cref="IShardIndexFactory"/> of one's own; a shard loaded from a saved file keeps whatever kind the file holds.
+/// <see cref="IEmptyShardBuilder"/> of one's own; a shard loaded from a saved file keeps whatever kind the file holds.
 /// </remarks>
 [GenerateSerializer]
 public enum ShardIndexKind

@@ -32,7 +32,7 @@ public sealed class ShardedIndexView : IVectorIndex
         _collection = collection;
         _search = search;
         ShardedCollectionDefinition d = collection.Definition;
-        _options = d.IndexKind == ShardIndexKind.Graph ? DefaultShardIndexFactory.GraphOptions(d) : ExactIndexOptions.Default;
+        _options = d.IndexKind == ShardIndexKind.Graph ? StandardEmptyShardBuilder.GraphOptions(d) : ExactIndexOptions.Default;
     }
 
     /// <summary>How many merged hits a delegate-filtered search fetches before filtering.</summary>

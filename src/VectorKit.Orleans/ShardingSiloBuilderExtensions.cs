@@ -8,7 +8,7 @@ public static class ShardingSiloBuilderExtensions
 {
     /// <summary>
     /// Adds the shard and router grains' services: the store every silo shares, the default index factory (exact or
-    /// graph; register an <see cref="IShardIndexFactory"/> first to use another), the copy placement and options.
+    /// graph; register an <see cref="IEmptyShardBuilder"/> first to use another), the copy placement and options.
     /// </summary>
     /// <param name="builder">The silo builder.</param>
     /// <param name="store">The shared store (the same location on every silo).</param>
@@ -20,7 +20,7 @@ public static class ShardingSiloBuilderExtensions
         ArgumentNullException.ThrowIfNull(builder);
         ArgumentNullException.ThrowIfNull(store);
         builder.Services.AddSingleton(store);
-        builder.Services.TryAddSingleton<IShardIndexFactory, DefaultShardIndexFactory>();
+        builder.Services.TryAddSingleton<IEmptyShardBuilder, StandardEmptyShardBuilder>();
         builder.Services.AddSingleton<CollectionDefinitions>();
         builder.Services.AddOptions<VectorKitShardingOptions>().Configure(o => configure?.Invoke(o));
         builder.Services.AddPlacementDirector<ShardCopyPlacementStrategy, ShardCopyPlacementDirector>();

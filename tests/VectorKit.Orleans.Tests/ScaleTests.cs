@@ -57,7 +57,7 @@ public sealed class ScaleTests(ITestOutputHelper output)
         output.WriteLine($"graph: {g} items written in {clock.Elapsed.TotalSeconds:F1} s");
         RoutedSearchResult graphAnswer = await graph.SearchBatchAsync(queries, Queries, 10);
 
-        using var singleGraph = new GraphIndex(Dimension, Distance.DistanceMetric.SquaredEuclidean, DefaultShardIndexFactory.GraphOptions(graph.Definition));
+        using var singleGraph = new GraphIndex(Dimension, Distance.DistanceMetric.SquaredEuclidean, StandardEmptyShardBuilder.GraphOptions(graph.Definition));
         singleGraph.AddRange(graphIds, graphVectors);
         if (g < n)
         {

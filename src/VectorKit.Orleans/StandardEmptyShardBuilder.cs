@@ -5,7 +5,7 @@ using VectorKit.Indexes.Graph;
 namespace VectorKit.Orleans;
 
 /// <summary>Builds an exact or graph index from <see cref="ShardedCollectionDefinition.IndexKind"/>.</summary>
-public sealed class DefaultShardIndexFactory : IShardIndexFactory
+public sealed class StandardEmptyShardBuilder : IEmptyShardBuilder
 {
     /// <inheritdoc />
     public IVectorIndex Create(ShardedCollectionDefinition definition, int shard)

@@ -4,7 +4,7 @@ namespace VectorKit.Orleans;
 
 /// <summary>Creates the empty index of a shard that has no snapshot yet. Register your own to use another kind.</summary>
 /// <remarks>Called on the silo that activates the shard, once per activation, from the shard's own turn.</remarks>
-public interface IShardIndexFactory
+public interface IEmptyShardBuilder
 {
     /// <summary>Creates an empty index ready for writes (trained, when its kind needs training).</summary>
     /// <param name="definition">The collection.</param>
