@@ -32,6 +32,7 @@ internal sealed class ShardGrain : Grain, IShardGrain
     private long _sequence;
     private int _writesSinceSnapshot;
     private string? _problem;
+    private bool _problemIsTransient;
 
     public ShardGrain(IShardStore store, IEmptyShardBuilder factory, IOptions<VectorKitShardingOptions> options, ILogger<ShardGrain> log)
     {
@@ -184,7 +185,7 @@ internal sealed class ShardGrain : Grain, IShardGrain
     {
         if (_problem is not null || _index is null)
         {
-            throw new ShardUnavailableException($"Shard {_shard} of '{_collection}' (copy {_replica}) is unavailable: {_problem}", [_shard], transient: false);
+            throw new ShardUnavailableException($"Shard {_shard} of '{_collection}' (copy {_replica}) is unavailable: {_problem}", [_shard], transient: _problemIsTransient);
         }
 
         return _index;
@@ -226,7 +227,8 @@ internal sealed class ShardGrain : Grain, IShardGrain
         catch
         {
             // The index holds a change the log does not: drop this activation so the next one reloads the durable state.
-            _problem = "the write-ahead log append failed; re-activating";
+            _problem = "the write-ahead log append failed; the copy re-activates from the store";
+            _problemIsTransient = true;
             DeactivateOnIdle();
             throw;
         }

@@ -30,14 +30,14 @@ internal sealed class ShardCluster : IAsyncDisposable
         AttemptTimeout = TimeSpan.FromSeconds(30),
     };
 
-    public static async Task<ShardCluster> StartAsync(int silos)
+    public static async Task<ShardCluster> StartAsync(int silos, Func<string, IShardStore>? store = null)
     {
         string root = Path.Combine(Path.GetTempPath(), "vectorkit-orleans-" + Guid.NewGuid().ToString("N"));
         Directory.CreateDirectory(root);
         var builder = new InProcessTestClusterBuilder((short)silos);
         builder.ConfigureSilo((_, silo) =>
         {
-            silo.AddVectorKitSharding(new LocalDirectoryShardStore(root));
+            silo.AddVectorKitSharding(store?.Invoke(root) ?? new LocalDirectoryShardStore(root));
 
             // Detect a killed silo within a few seconds (the defaults take tens of seconds).
             silo.Configure<ClusterMembershipOptions>(o =>
