@@ -74,7 +74,7 @@ public static class LoadTest
                         reads.Add(Stopwatch.GetElapsedTime(start).TotalMilliseconds);
                     }
                 }
-                catch (HttpRequestException)
+                catch (Exception e) when (e is HttpRequestException or TaskCanceledException)
                 {
                     Interlocked.Increment(ref errors);
                 }
