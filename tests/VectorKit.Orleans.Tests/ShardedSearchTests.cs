@@ -78,7 +78,10 @@ public sealed class ShardedSearchTests(ClusterFixture fixture)
         ];
         foreach (IdFilter filter in filters)
         {
-            SearchHit[] expected = single.Search(query, 20, new SearchOptions { Filter = filter.ToPredicate() });
+            // The reference predicate is written out here, independently of IdFilter.ToPredicate.
+            bool Passes(long id) => (filter.Only is null || filter.Only.Contains(id)) && (filter.Except is null || !filter.Except.Contains(id))
+                && (filter.From is null || id >= filter.From) && (filter.To is null || id <= filter.To);
+            SearchHit[] expected = single.Search(query, 20, new SearchOptions { Filter = Passes });
             (SearchHit[] actual, RoutedSearchResult result) = await sharded.SearchAsync(query, 20, new ShardedSearchOptions { Filter = filter });
             Assert.False(result.IsPartial);
             Reference.Equal(expected, actual, $"filter {filter}");
@@ -111,6 +114,14 @@ public sealed class ShardedSearchTests(ClusterFixture fixture)
         await Assert.ThrowsAsync<ArgumentOutOfRangeException>(() => sharded.SearchAsync(new float[4], 0));
         await Assert.ThrowsAsync<ArgumentOutOfRangeException>(() => sharded.SearchAsync(new float[4], 5000));
         await Assert.ThrowsAsync<ArgumentException>(() => sharded.SearchAsync(new float[4], 5, new ShardedSearchOptions { Filter = new IdFilter(From: 9, To: 1) }));
+
+        // The router checks too, for callers that skip the client class.
+        IShardRouterGrain router = Cluster.Grains.GetGrain<IShardRouterGrain>(0);
+        var routed = await Assert.ThrowsAsync<ArgumentException>(() => router.SearchAsync(sharded.Definition.Name, new RoutedSearch { Queries = new float[3], QueryCount = 1, K = 5 }));
+        Assert.Contains("Expected 1 rows of dimension 4", routed.Message, StringComparison.Ordinal);
+        float[] infinite = [1, 2, float.PositiveInfinity, 4];
+        await Assert.ThrowsAsync<ArgumentException>(() => router.SearchAsync(sharded.Definition.Name, new RoutedSearch { Queries = infinite, QueryCount = 1, K = 5 }));
+        await Assert.ThrowsAsync<ArgumentException>(() => router.SearchAsync("no-such-collection", new RoutedSearch { Queries = new float[4], QueryCount = 1, K = 5 }));
 
         // A shard grain refuses an id another shard owns, even when called directly.
         long foreign = Enumerable.Range(0, 100).First(i => ShardHash.ShardOf(i, 8) != 0);
