@@ -37,6 +37,18 @@ version="$(basename "${packages[0]}" .nupkg)"
 version="${version#VectorKit.}"
 echo "VectorKit $version"
 
+# The Orleans package packs with its own readme (its example needs a cluster, which docs/sharding.md and the tests cover).
+dotnet pack "$repo/src/VectorKit.Orleans" -c Release -o "$work/orleans" --nologo -v quiet "$@"
+orleans=("$work"/orleans/VectorKit.Orleans.[0-9]*.nupkg)
+python3 - "${orleans[0]}" <<'PY' || { echo "check-package: VectorKit.Orleans lacks PACKAGE.md as its readme" >&2; exit 1; }
+import sys, zipfile
+with zipfile.ZipFile(sys.argv[1]) as z:
+    nuspec = next(n for n in z.namelist() if n.endswith(".nuspec"))
+    ok = "PACKAGE.md" in z.namelist() and "<readme>PACKAGE.md</readme>" in z.read(nuspec).decode()
+sys.exit(0 if ok else 1)
+PY
+echo "VectorKit.Orleans $(basename "${orleans[0]}" .nupkg | sed 's/^VectorKit.Orleans.//') packs with PACKAGE.md"
+
 # The package carries its own readme and a license expression, and not the repository README.
 nuspec="$(unzip -p "${packages[0]}" VectorKit.nuspec)"
 unzip -l "${packages[0]}" | grep -q ' PACKAGE.md$' || { echo "check-package: PACKAGE.md is missing from the package" >&2; exit 1; }

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Runs the samples (QuickStart, Reranking and RentalSearch) in Release and checks their output for the lines that show each
+# Runs the samples (QuickStart, Reranking, RentalSearch and ShardedSearch's demo) in Release and checks their output for the lines that show each
 # sample did its job: results printed, numbers in their expected ranges, the loaded index answering as the saved
 # one, live updates visible, one-based ranks, readable stage names. Prints every problem found and exits non-zero
 # when there is one. Takes no arguments and no input.
@@ -39,11 +39,11 @@ hits() {
     $0 ~ header { found = 1 }' "$log"
 }
 
-run() { # name, project directory
+run() { # name, project directory, arguments for the sample
   current="$1"; log="$out/$1.log"
   echo "== $1"
   local start=$SECONDS status=0
-  dotnet run -c Release --project "$2" </dev/null 2>&1 | tee "$log" || status=$?
+  dotnet run -c Release --project "$2" -- "${@:3}" </dev/null 2>&1 | tee "$log" || status=$?
   echo "== $1: exit code $status, $((SECONDS - start)) s"
   [ "$status" = 0 ] || fail "exited with code $status"
 }
@@ -130,6 +130,19 @@ within "model codes: vector search first (%)" "$vector_first" 0 30
 within "model codes: hybrid search first (%)" "$hybrid_first" 35 100
 within "model codes: hybrid search with the code as keyword first (%)" "$code_first" 60 100
 need "the reopened store answering as the saved one" '^Saved and reopened the store directory .*: 3,456 items; same answers for 3 queries: yes$'
+
+run ShardedSearch samples/ShardedSearch demo
+need "the refused write" '^Upsert without the key: 401; item #0 afterwards: 404$'
+need "the accepted write" '^Upsert with the key: 200, 200 items acknowledged on 8 shards$'
+sharded="$(hits '^Search like touring kayak #3, k = 5 \(partial: False\):$')"
+[ "$(printf '%s\n' "$sharded" | grep -c 'touring kayak')" = 5 ] || fail "the search did not return 5 touring kayaks: $sharded"
+need "the filter" '^Filtered \(ids from 100, not #3\), k = 3: #[0-9]{3}, #[0-9]{3}, #[0-9]{3}$'
+need "the edge's status codes" '^Status code summary: True$'
+need "400 for k = 0" '^k = 0: 400$'
+need "400 for NaN" '^NaN in the vector: 400$'
+need "401 for status" '^Status without the key: 401$'
+need "the load test" '^Load test: 16 clients, [0-9.]+ s: [0-9]+ requests, [0-9]+ requests/s, 0 errors$'
+need "no lost write" '^  acknowledged items [1-9][0-9]*, lost 0$'
 
 if [ "$problems" -gt 0 ]; then
   echo "check-samples: $problems problem(s) found" >&2
