@@ -13,9 +13,10 @@ namespace VectorKit.Orleans;
 /// <remarks>
 /// <para>Each call blocks on the cluster: use it from thread-pool code, never from inside a grain.</para>
 /// <para>Writes (<see cref="Add"/>, <see cref="AddRange"/>, <see cref="AddOrReplace"/>, <see cref="AddOrReplaceRange"/>,
-/// <see cref="Remove"/>, <see cref="RemoveRange"/>), <see cref="Compact"/> and <see cref="SearchBatch"/> throw
-/// <see cref="NotSupportedException"/>: write through <see cref="ShardedVectorCollection.UpsertAsync"/> and batch
-/// through <see cref="ShardedVectorCollection.SearchBatchAsync"/>. A search filter given as a delegate cannot travel
+/// <see cref="Remove"/>, <see cref="RemoveRange"/>) and <see cref="Compact"/> throw
+/// <see cref="NotSupportedException"/>: write through <see cref="ShardedVectorCollection.UpsertAsync"/>.
+/// <see cref="SearchBatch"/> runs one scatter–gather per query; <see cref="ShardedVectorCollection.SearchBatchAsync"/>
+/// batches per shard. A search filter given as a delegate cannot travel
 /// to the shards: the view asks the shards for <see cref="FilterDepth"/> hits per query and applies the delegate to
 /// the merged list, which is exact only when that many merged hits hold k passing items; prefer an
 /// <see cref="IdFilter"/> in <see cref="ShardedSearchOptions"/>.</para>
@@ -115,10 +116,34 @@ public sealed class ShardedIndexView : IVectorIndex
         return written;
     }
 
-    /// <summary>Not supported: use <see cref="ShardedVectorCollection.SearchBatchAsync"/>.</summary>
-    /// <exception cref="NotSupportedException">Always.</exception>
+    /// <summary>
+    /// Searches the queries one after another through <see cref="Search"/> (each a scatter–gather over the shards); for
+    /// throughput, <see cref="ShardedVectorCollection.SearchBatchAsync"/> sends the whole batch to each shard at once.
+    /// </summary>
+    /// <exception cref="ArgumentException"><paramref name="queries"/> is not a whole number of rows of <see cref="Dimension"/>.</exception>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="k"/> is not positive.</exception>
+    /// <exception cref="OperationCanceledException">The token was cancelled (checked between queries).</exception>
     public BatchSearchResults SearchBatch(ReadOnlySpan<float> queries, int k, SearchOptions? options = null, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
-        => throw ReadOnlyView(nameof(SearchBatch), nameof(ShardedVectorCollection.SearchBatchAsync));
+    {
+        ArgumentOutOfRangeException.ThrowIfNegativeOrZero(k);
+        if (queries.Length % Dimension != 0)
+        {
+            throw new ArgumentException($"queries has {queries.Length} elements, not a whole number of rows of {Dimension}.", nameof(queries));
+        }
+
+        int count = queries.Length / Dimension;
+        var hits = new ReadOnlyMemory<SearchHit>[count];
+        var buffer = new SearchHit[k];
+        for (int q = 0; q < count; q++)
+        {
+            cancellationToken.ThrowIfCancellationRequested();
+            int written = Search(queries.Slice(q * Dimension, Dimension), buffer, options);
+            hits[q] = buffer.AsSpan(0, written).ToArray();
+            progress?.Report(q + 1);
+        }
+
+        return BatchSearchResults.Create(k, hits);
+    }
 
     /// <summary>Not supported: the view is read-only.</summary>
     /// <exception cref="NotSupportedException">Always.</exception>

@@ -1,3 +1,4 @@
+using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Reranking;
 
@@ -72,6 +73,17 @@ public sealed class CrossShardRerankingTests(ClusterFixture fixture)
         }
 
         Assert.Equal(one.HeldOutRecall, across.HeldOutRecall);
+        Assert.Equal(one.RecallLosses, across.RecallLosses);
+
+        // The view's batch search: one scatter–gather per query, the same answers as the single index.
+        float[] flat = [.. queries.SelectMany(q => q)];
+        BatchSearchResults singleBatch = single.SearchBatch(flat, 7);
+        BatchSearchResults viewBatch = await Task.Run(() => view.SearchBatch(flat, 7));
+        Assert.Equal(queries.Length, viewBatch.QueryCount);
+        for (int q = 0; q < queries.Length; q++)
+        {
+            Assert.Equal(singleBatch[q].ToArray(), viewBatch[q].ToArray());
+        }
         Assert.Equal(Items, one.CollectionSize);
         Assert.Equal(Items, across.CollectionSize);
     }

@@ -23,6 +23,40 @@ public sealed class BatchSearchResults : IReadOnlyList<ReadOnlyMemory<SearchHit>
         _counts = new int[queryCount];
     }
 
+    /// <summary>
+    /// Results assembled from each query's hits, for an <see cref="IVectorIndex"/> implemented outside the library (for
+    /// example one that searches several indexes and merges their answers). The hits are copied.
+    /// </summary>
+    /// <param name="k">The number of results asked for per query.</param>
+    /// <param name="hits">For each query in order, at most <paramref name="k"/> hits, best first.</param>
+    /// <returns>The results.</returns>
+    /// <exception cref="ArgumentNullException"><paramref name="hits"/> is null.</exception>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="k"/> is not positive.</exception>
+    /// <exception cref="ArgumentException">A query has more than <paramref name="k"/> hits.</exception>
+    public static BatchSearchResults Create(int k, IReadOnlyList<ReadOnlyMemory<SearchHit>> hits)
+    {
+        ArgumentNullException.ThrowIfNull(hits);
+        if (k <= 0)
+        {
+            ThrowHelper.ThrowArgumentOutOfRange(nameof(k), k, "must be positive");
+        }
+
+        var results = new BatchSearchResults(hits.Count, k);
+        for (int q = 0; q < hits.Count; q++)
+        {
+            ReadOnlySpan<SearchHit> query = hits[q].Span;
+            if (query.Length > k)
+            {
+                ThrowHelper.ThrowArgument(nameof(hits), $"Query {q} has {query.Length} hits, more than k ({k}).");
+            }
+
+            query.CopyTo(results.Slots(q));
+            results.SetCount(q, query.Length);
+        }
+
+        return results;
+    }
+
     /// <summary>The number of queries searched.</summary>
     public int QueryCount { get; }
 

@@ -113,6 +113,23 @@ public sealed class BatchSearchResultsTests
         Assert.Equal(viaList.Message, viaMemory.Message);
     }
 
+    [Fact]
+    public void Create_copies_each_querys_hits_and_checks_k()
+    {
+        SearchHit[] first = [new SearchHit(4, 0.5f), new SearchHit(9, 1.5f)];
+        var results = BatchSearchResults.Create(3, [first, ReadOnlyMemory<SearchHit>.Empty, new[] { new SearchHit(2, 0f) }]);
+        first[0] = new SearchHit(99, 9f);
+
+        Assert.Equal(3, results.QueryCount);
+        Assert.Equal(3, results.K);
+        Assert.Equal([new SearchHit(4, 0.5f), new SearchHit(9, 1.5f)], results[0].ToArray());
+        Assert.Equal(0, results[1].Length);
+        Assert.Equal([new SearchHit(2, 0f)], results[2].ToArray());
+        Assert.Throws<ArgumentOutOfRangeException>(() => BatchSearchResults.Create(0, []));
+        var tooMany = Assert.Throws<ArgumentException>(() => BatchSearchResults.Create(1, [first]));
+        Assert.Contains("Query 0 has 2 hits, more than k (1)", tooMany.Message);
+    }
+
     private static long SumIds(BatchSearchResults results)
     {
         long sum = 0;
