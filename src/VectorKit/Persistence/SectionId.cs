@@ -44,4 +44,11 @@ internal enum SectionId : uint
 
     /// <summary>Inverted file under rotated product codes: the rotation, <c>dimension × dimension</c> float32, row-major (empty when untrained).</summary>
     ProductRotation = 13,
+
+    /// <summary>
+    /// Inverted file under the four-bit fast-scan product-code layout: the codewords, <c>2 × code bytes</c> sub-spaces ×
+    /// 16 × <c>(dimension / (2 × code bytes))</c> float32 (empty when untrained). It takes the place of
+    /// <see cref="ProductCodebooks"/>, and is not skippable: a reader that does not know the layout must not read the codes.
+    /// </summary>
+    FourBitCodebooks = 14,
 }
