@@ -30,7 +30,7 @@ internal enum SectionId : uint
     /// <summary>Inverted file: the entries per list, <c>lists</c> int32.</summary>
     ListLengths = 8,
 
-    /// <summary>Inverted file: every list's codes (float32 vectors or quantizer codes), list after list, entries in list order.</summary>
+    /// <summary>Inverted file: every list's codes (float32 vectors or quantizer codes, four-bit fast-scan codes one entry after another too), list after list, entries in list order.</summary>
     ListCodes = 9,
 
     /// <summary>Inverted file under product codes: the codewords, <c>code bytes × 256 × (dimension / code bytes)</c> float32.</summary>
