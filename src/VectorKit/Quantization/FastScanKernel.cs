@@ -63,42 +63,51 @@ internal static class FastScanKernel
     public static (float Bias, float Step) QuantizeTable(ReadOnlySpan<float> table, int subspaces, Span<byte> levels)
     {
         const int W = FourBitQuantizer.CodewordsPerSubspace;
+        ref float start = ref MemoryMarshal.GetReference(table);
         float bias = 0;
         float range = 0;
         for (int m = 0; m < subspaces; m++)
         {
-            ReadOnlySpan<float> row = table.Slice(m * W, W);
-            float low = row[0], high = row[0];
-            for (int j = 1; j < W; j++)
-            {
-                low = Math.Min(low, row[j]);
-                high = Math.Max(high, row[j]);
-            }
-
+            (float low, float high) = Bounds(ref Unsafe.Add(ref start, m * W));
             bias += low;
             range = Math.Max(range, high - low);
         }
 
         int top = MaxLevel(subspaces);
         float step = range > 0 ? range / top : 1f;
-        float inverse = 1f / step;
+        Vector128<float> inverse = Vector128.Create(1f / step);
+        Vector128<float> ceiling = Vector128.Create((float)top);
+        ref byte output = ref MemoryMarshal.GetReference(levels);
         for (int m = 0; m < subspaces; m++)
         {
-            ReadOnlySpan<float> row = table.Slice(m * W, W);
-            float low = row[0];
-            for (int j = 1; j < W; j++)
-            {
-                low = Math.Min(low, row[j]);
-            }
-
-            for (int j = 0; j < W; j++)
-            {
-                levels[(m * W) + j] = (byte)Math.Clamp((int)MathF.Round((row[j] - low) * inverse), 0, top);
-            }
+            // A row is 16 floats, four 128-bit lanes: shifted by its minimum, scaled, rounded to even, narrowed to bytes.
+            ref float row = ref Unsafe.Add(ref start, m * W);
+            Vector128<float> low = Vector128.Create(Bounds(ref row).Low);
+            Vector128<int> l0 = Level(Vector128.LoadUnsafe(ref row), low, inverse, ceiling);
+            Vector128<int> l1 = Level(Vector128.LoadUnsafe(ref row, 4), low, inverse, ceiling);
+            Vector128<int> l2 = Level(Vector128.LoadUnsafe(ref row, 8), low, inverse, ceiling);
+            Vector128<int> l3 = Level(Vector128.LoadUnsafe(ref row, 12), low, inverse, ceiling);
+            Vector128<ushort> first = Vector128.Narrow(l0.AsUInt32(), l1.AsUInt32());
+            Vector128<ushort> second = Vector128.Narrow(l2.AsUInt32(), l3.AsUInt32());
+            Vector128.Narrow(first, second).StoreUnsafe(ref output, (nuint)(m * W));
         }
 
         return (bias, step);
     }
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private static (float Low, float High) Bounds(ref float row)
+    {
+        Vector128<float> a = Vector128.LoadUnsafe(ref row), b = Vector128.LoadUnsafe(ref row, 4);
+        Vector128<float> c = Vector128.LoadUnsafe(ref row, 8), d = Vector128.LoadUnsafe(ref row, 12);
+        Vector128<float> low = Vector128.Min(Vector128.Min(a, b), Vector128.Min(c, d));
+        Vector128<float> high = Vector128.Max(Vector128.Max(a, b), Vector128.Max(c, d));
+        return (Math.Min(Math.Min(low[0], low[1]), Math.Min(low[2], low[3])), Math.Max(Math.Max(high[0], high[1]), Math.Max(high[2], high[3])));
+    }
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private static Vector128<int> Level(Vector128<float> values, Vector128<float> low, Vector128<float> inverse, Vector128<float> ceiling)
+        => Vector128.ConvertToInt32(Vector128.Min(Vector128.Max(Vector128.Round((values - low) * inverse), Vector128<float>.Zero), ceiling));
 
     /// <summary>
     /// Lays the levels (<c>2 × codeBytes</c> sub-spaces × 16) out for <paramref name="path"/>: per code byte <c>i</c>,

@@ -1,3 +1,4 @@
+using System.Numerics;
 using System.Runtime.InteropServices;
 using VectorKit.Clustering;
 using VectorKit.Internal;
@@ -23,6 +24,10 @@ internal sealed class FourBitQuantizer
     private readonly float[] _codewords;
     private readonly float[]? _rotation;
 
+    // Derived: [m][t][j], the 16 codewords' component t side by side (one SIMD row per component), and ‖c_{m,j}‖².
+    private readonly float[] _transposed;
+    private readonly float[] _norms;
+
     private FourBitQuantizer(float[] codewords, int dimension, int codeBytes, float[]? rotation)
     {
         _codewords = codewords;
@@ -31,6 +36,24 @@ internal sealed class FourBitQuantizer
         CodeBytes = codeBytes;
         Subspaces = 2 * codeBytes;
         SubspaceDimension = dimension / Subspaces;
+        int s = SubspaceDimension;
+        _transposed = new float[codewords.Length];
+        _norms = new float[Subspaces * CodewordsPerSubspace];
+        for (int m = 0; m < Subspaces; m++)
+        {
+            for (int j = 0; j < CodewordsPerSubspace; j++)
+            {
+                double norm = 0;
+                for (int t = 0; t < s; t++)
+                {
+                    float c = codewords[(((m * CodewordsPerSubspace) + j) * s) + t];
+                    _transposed[(((m * s) + t) * CodewordsPerSubspace) + j] = c;
+                    norm += (double)c * c;
+                }
+
+                _norms[(m * CodewordsPerSubspace) + j] = (float)norm;
+            }
+        }
     }
 
     public int Dimension { get; }
@@ -181,12 +204,74 @@ internal sealed class FourBitQuantizer
         }
     }
 
+    /// <summary><c>table[m × 16 + j] = scale × (x_m · c_{m,j})</c> for <paramref name="x"/> in the codebooks' space: one SIMD row of 16 codewords per component.</summary>
+    public void FillDotTerms(ReadOnlySpan<float> x, Span<float> table, float scale)
+    {
+        const int W = CodewordsPerSubspace;
+        int s = SubspaceDimension;
+        int width = Vector<float>.Count;
+        if (!Vector.IsHardwareAccelerated || W % width != 0)
+        {
+            for (int m = 0; m < Subspaces; m++)
+            {
+                for (int j = 0; j < W; j++)
+                {
+                    float sum = 0;
+                    for (int t = 0; t < s; t++)
+                    {
+                        sum += x[(m * s) + t] * _transposed[(((m * s) + t) * W) + j];
+                    }
+
+                    table[(m * W) + j] = scale * sum;
+                }
+            }
+
+            return;
+        }
+
+        ref float transposed = ref MemoryMarshal.GetArrayDataReference(_transposed);
+        ref float output = ref MemoryMarshal.GetReference(table);
+        for (int m = 0; m < Subspaces; m++)
+        {
+            for (int j = 0; j < W; j += width)
+            {
+                Vector<float> sum = Vector<float>.Zero;
+                for (int t = 0; t < s; t++)
+                {
+                    sum = Vector.FusedMultiplyAdd(new Vector<float>(x[(m * s) + t]), Vector.LoadUnsafe(ref transposed, (nuint)((((m * s) + t) * W) + j)), sum);
+                }
+
+                (sum * scale).StoreUnsafe(ref output, (nuint)((m * W) + j));
+            }
+        }
+    }
+
+    /// <summary>
+    /// The part of a list's squared-distance table that depends only on the list: <c>‖c_{m,j}‖² + 2 (R·centroid)_m · c_{m,j}</c>.
+    /// With the query's part <c>−2 (R·q)_m · c_{m,j}</c> (<see cref="FillDotTerms"/>, scale −2) and <c>‖q − centroid‖²</c>, it
+    /// sums to <c>Σ_m ‖(R·(q − centroid))_m − c_{m,j_m}‖²</c>, so a probe costs one addition per table entry.
+    /// </summary>
+    public void FillListTerms(ReadOnlySpan<float> rotatedCentroid, Span<float> terms)
+    {
+        FillDotTerms(rotatedCentroid, terms, 2f);
+        for (int i = 0; i < _norms.Length; i++)
+        {
+            terms[i] += _norms[i];
+        }
+    }
+
     /// <summary>
     /// Fills the float table of a query in the codebooks' space: <c>table[m × 16 + j]</c> is <c>‖q_m − c_{m,j}‖²</c>
     /// (<paramref name="squared"/>) or <c>−q_m · c_{m,j}</c>, so that under every metric a smaller sum is nearer.
     /// </summary>
     public void FillTable(ReadOnlySpan<float> query, Span<float> table, bool squared)
     {
+        if (!squared)
+        {
+            FillDotTerms(query, table, -1f);
+            return;
+        }
+
         int s = SubspaceDimension;
         ReadOnlySpan<float> words = _codewords;
         for (int m = 0; m < Subspaces; m++)

@@ -260,6 +260,7 @@ public sealed partial class InvertedFileIndex
         {
             _fourBit = FourBitQuantizer.FromCodewords(parts.FourBitCodewords!, d, _options.ProductCodeBytes, parts.ProductRotation);
             _rotatedCentroids = RotatedCentroids(parts.Centroids, null, _fourBit);
+            _listTerms = ListTerms(parts.Centroids, _rotatedCentroids, _fourBit);
         }
         else if (scalar)
         {

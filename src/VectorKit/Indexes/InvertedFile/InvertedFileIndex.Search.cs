@@ -1,3 +1,4 @@
+using System.Numerics.Tensors;
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
@@ -203,9 +204,10 @@ public sealed partial class InvertedFileIndex
         return count;
     }
 
-    // The four-bit fast scan: per probed list (per query for dot products) a float table, its 8-bit levels and their
-    // register image, then FastScanKernel over the list's blocks. The tables hold distance contributions (negated dot
-    // products), so under every metric distance = finish(offset) + bias + step × level sum.
+    // The four-bit fast scan: per probed list a float table (for dot products one per query), its 8-bit levels and
+    // their register image, then FastScanKernel over the list's blocks. The tables hold distance contributions: negated
+    // dot products, or under squared L2 the query's terms −2 (R·q)_m · c_{m,j} plus the list's stored terms (the rest,
+    // ‖q − centroid‖², is the probe's own distance), so distance = start + bias + step × level sum under every metric.
     private int ScanFastScan<TFinish>(ReadOnlySpan<float> q, ReadOnlySpan<SearchHit> probes, Span<SearchHit> heap, Func<long, bool>? filter, SearchScratch scratch, bool squared)
         where TFinish : struct, IDistanceFinish
     {
@@ -228,14 +230,19 @@ public sealed partial class InvertedFileIndex
         }
 
         float bias = 0, step = 1;
-        if (!squared)
+        Span<float> listTable = default;
+        if (squared)
+        {
+            quantizer.FillDotTerms(codeQuery, table, -2f);
+            listTable = scratch.Prepared(quantizer.TableLength);
+        }
+        else
         {
             quantizer.FillTable(codeQuery, table, squared: false);
             (bias, step) = FastScanKernel.QuantizeTable(table, subspaces, levels);
             FastScanKernel.PrepareImage(_kernelPath, levels, size, image);
         }
 
-        Span<float> residual = squared ? scratch.Residual(d) : default;
         int count = 0;
         float bound = float.PositiveInfinity;
         foreach (SearchHit probe in probes)
@@ -247,25 +254,20 @@ public sealed partial class InvertedFileIndex
                 continue;
             }
 
-            float offset = 0;
+            float start;
             if (squared)
             {
-                ReadOnlySpan<float> from = _rotatedCentroids.Length != 0 ? _rotatedCentroids.AsSpan(list * d, d) : _centroids.AsSpan(list * d, d);
-                for (int j = 0; j < d; j++)
-                {
-                    residual[j] = codeQuery[j] - from[j];
-                }
-
-                quantizer.FillTable(residual, table, squared: true);
-                (bias, step) = FastScanKernel.QuantizeTable(table, subspaces, levels);
+                // The probe's distance is ‖q − centroid‖², the same as ‖R·q − R·centroid‖² (R is orthogonal).
+                TensorPrimitives.Add(table, _listTerms.AsSpan(list * listTable.Length, listTable.Length), listTable);
+                (bias, step) = FastScanKernel.QuantizeTable(listTable, subspaces, levels);
                 FastScanKernel.PrepareImage(_kernelPath, levels, size, image);
+                start = probe.Distance + bias;
             }
             else
             {
-                offset = PairKernel.Sum<DotStep>(_kernelPath, q, _centroids.AsSpan(list * d, d));
+                start = TFinish.Apply(PairKernel.Sum<DotStep>(_kernelPath, q, _centroids.AsSpan(list * d, d))) + bias;
             }
 
-            float start = TFinish.Apply(offset) + bias;
             ref byte codes = ref MemoryMarshal.GetArrayDataReference(_listCodes[list]);
             int[] slots = _listSlots[list];
             for (int first = 0; first < length; first += ScanBlock)

@@ -53,6 +53,10 @@ public sealed partial class InvertedFileIndex : VectorIndex
     // Under the four-bit fast-scan layout, the quantizer of the residuals (and _product stays null); lists then hold
     // FastScanKernel blocks of 32 entries instead of one code after another.
     private FourBitQuantizer? _fourBit;
+
+    // Derived under the fast-scan layout: per list its table terms ‖c_{m,j}‖² + 2 (R·centroid)_m · c_{m,j} (lists × 2 ×
+    // code bytes × 16), so a squared-distance probe adds the query's terms instead of filling a table (FillListTerms).
+    private float[] _listTerms = [];
     private bool _trained;
 
     // Lists: codes (capacity × code bytes), the slot of each entry, and the entries in use.
@@ -169,7 +173,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         bytes += (long)_ids.Length * (sizeof(long) + sizeof(int) + sizeof(int));
         bytes += _full?.Bytes ?? 0;
         bytes += _product is null ? 0 : ((2L * _product.Codewords.Length) + _product.Rotation.Length) * sizeof(float);
-        bytes += _fourBit is null ? 0 : ((long)_fourBit.Codewords.Length + _fourBit.Rotation.Length) * sizeof(float);
+        bytes += _fourBit is null ? 0 : ((2L * _fourBit.Codewords.Length) + _fourBit.Rotation.Length + _listTerms.Length) * sizeof(float);
         bytes += (long)_rotatedCentroids.Length * sizeof(float);
         bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
         bytes += _slotOf.Bytes;
@@ -275,6 +279,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
             _rotatedCentroids = RotatedCentroids(_centroids, product, fourBit);
             _product = product;
             _fourBit = fourBit;
+            _listTerms = ListTerms(_centroids, _rotatedCentroids, fourBit);
             _scalar = scalar;
             Volatile.Write(ref _trained, true);
         }
@@ -740,6 +745,26 @@ public sealed partial class InvertedFileIndex : VectorIndex
         }
 
         return rows;
+    }
+
+    // The fast scan's per-list table terms (see _listTerms), else empty.
+    private static float[] ListTerms(float[] centroids, float[] rotatedCentroids, FourBitQuantizer? fourBit)
+    {
+        if (fourBit is null)
+        {
+            return [];
+        }
+
+        int d = fourBit.Dimension;
+        int length = fourBit.TableLength;
+        float[] from = rotatedCentroids.Length != 0 ? rotatedCentroids : centroids;
+        var terms = new float[checked(centroids.Length / d * length)];
+        for (int c = 0; c < centroids.Length / d; c++)
+        {
+            fourBit.FillListTerms(from.AsSpan(c * d, d), terms.AsSpan(c * length, length));
+        }
+
+        return terms;
     }
 
     // R·c for every centroid under a rotated product quantizer (either layout), else empty.
