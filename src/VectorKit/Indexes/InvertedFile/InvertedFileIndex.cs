@@ -11,7 +11,9 @@ namespace VectorKit.Indexes.InvertedFile;
 /// An inverted-file index: k-means splits the space into <see cref="InvertedFileOptions.ListCount"/> cells, each
 /// vector is stored in the list of its nearest centroid, and a search scans only the lists of the query's nearest
 /// centroids. Lists hold float32 vectors, product-quantization codes or 8-bit scalar codes
-/// (<see cref="VectorIndexOptions.Encoding"/>), optionally with the full vectors kept for exact re-scoring.
+/// (<see cref="VectorIndexOptions.Encoding"/>), optionally with the full vectors kept for exact re-scoring. Product codes
+/// come in two layouts (<see cref="InvertedFileOptions.ProductCodeLayout"/>): one byte per sub-space scanned by table
+/// look-ups, or four bits per sub-space in blocks of 32 scanned in SIMD registers (the fast scan).
 /// </summary>
 /// <remarks>
 /// <para><b>Training first.</b> <see cref="Train"/> learns the centroids (and the residual quantizer) from a sample;
