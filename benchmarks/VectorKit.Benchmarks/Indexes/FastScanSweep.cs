@@ -42,7 +42,7 @@ public static class FastScanSweep
         float[] data = all.AsSpan(0, count * dimension).ToArray();
         float[] queries = all.AsSpan(count * dimension).ToArray();
         all = [];
-        Run(data, dimension, queries, lists, codeBytes, [1, 2, 4, 8, 16, 32], [20, 50, 100, 200]);
+        Run(data, dimension, queries, lists, codeBytes, [1, 2, 3, 4, 6, 8, 16], [10, 20, 30, 50, 100]);
     }
 
     private static void Run(float[] data, int d, float[] queries, int lists, int codeBytes, int[] probes, int[] depths)
