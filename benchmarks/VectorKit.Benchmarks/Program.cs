@@ -10,7 +10,9 @@ namespace VectorKit.Benchmarks;
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory] [with-8bit]</c> and
 /// <c>clustered-sweep [count] [dimension] [with-8bit]</c> (<c>with-8bit</c> adds the graph under 8-bit codes); the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
 /// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; the inverted-file harness,
-/// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; re-scoring from memory vs a file,
+/// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; the byte and four-bit product-code layouts
+/// side by side, <c>fast-scan-sweep fashion-mnist [lists] [code bytes]</c> or
+/// <c>fast-scan-sweep clustered [count] [dimension] [lists] [code bytes]</c>; re-scoring from memory vs a file,
 /// <c>rescore-source [count] [dimension] [lists] [product code bytes]</c>; the 8-bit exact index harness,
 /// <c>exact-scalar-sweep [count] [dimension]</c>; product codes with and without the
 /// variance-balancing rotation: <c>product-rotation-sweep [clustered count] [dimension]</c>; and the load-speed harness:
@@ -84,6 +86,23 @@ public static class Program
             int lists = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 1024;
             int productBytes = args.Length > 4 ? int.Parse(args[4], CultureInfo.InvariantCulture) : 64;
             InvertedFileSweep.Run(count, dimension, lists, productBytes);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "fast-scan-sweep")
+        {
+            // fast-scan-sweep fashion-mnist [lists] [code bytes] | fast-scan-sweep clustered [count] [dimension] [lists] [code bytes]
+            string set = args.Length > 1 ? args[1] : "fashion-mnist";
+            int Arg(int i, int fallback) => args.Length > i ? int.Parse(args[i], CultureInfo.InvariantCulture) : fallback;
+            if (set == "clustered")
+            {
+                FastScanSweep.RunClustered(Arg(2, 1_000_000), Arg(3, 128), Arg(4, 1024), Arg(5, 64));
+            }
+            else
+            {
+                FastScanSweep.RunFashionMnist(TestData.FashionDirectory, Arg(2, 256), Arg(3, 56));
+            }
+
             return;
         }
 

@@ -25,7 +25,7 @@ public class PairKernelBenchmarks
     private float[] _y = [];
     private int _pool;
 
-    [Params(128, 384, 768, 1536)]
+    [Params(32, 64, 128, 384, 768, 1536)]
     public int Dimension { get; set; }
 
     [GlobalSetup]

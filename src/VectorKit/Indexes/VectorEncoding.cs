@@ -15,7 +15,7 @@ public enum VectorEncoding
 
     /// <summary>
     /// Product-quantization codes of each vector's residual from its list's centroid, distances by table look-up (ADC).
-    /// Only the inverted-file index offers it.
+    /// Only the inverted-file index offers it, in two layouts (its option <c>ProductCodeLayout</c>).
     /// </summary>
     ProductCodes = 2,
 }

@@ -7,7 +7,7 @@ namespace VectorKit.Persistence;
 
 /// <summary>
 /// The inverted-file index: its options and whether it is trained as header fields; sections centroids, the
-/// quantizer (product codebooks or scalar ranges, under compressed storage), list lengths, ids, list codes and the
+/// quantizer (product codebooks, four-bit codebooks under the fast-scan layout, or scalar ranges, under compressed storage), list lengths, ids, list codes and the
 /// full vectors (when kept in memory), in that order; an index reading full vectors from an external source records
 /// that in the field <c>full-vector-location</c> and stores no vectors. Entries are stored in list order; an untrained index stores empty
 /// centroid and quantizer sections and no entries.
@@ -30,6 +30,9 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
 
     // Optional (files written before rotations existed lack it): absent means no rotation.
     private const string ProductRotation = "product-rotation";
+
+    // Optional: absent means ProductCodeLayout.BytePerSubspace (files from before the fast-scan layout).
+    private const string ProductLayout = "product-code-layout";
 
     public override IndexKind Kind => IndexKind.InvertedFile;
 
@@ -64,11 +67,20 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
                 header.Integers[ProductRotation] = (int)options.ProductCodeRotation;
             }
 
+            bool fourBit = options.Encoding == VectorEncoding.ProductCodes && options.ProductCodeLayout == ProductCodeLayout.FourBitFastScan;
+            if (options.ProductCodeLayout != ProductCodeLayout.BytePerSubspace)
+            {
+                // Written only when set, as the rotation: files of the byte layout stay as they were.
+                header.Integers[ProductLayout] = (int)options.ProductCodeLayout;
+            }
+
             bool rotated = options.Encoding == VectorEncoding.ProductCodes && options.ProductCodeRotation != SubspaceRotation.None;
             header.Sections.Add(new SectionEntry((uint)SectionId.Centroids, 0, checked((long)parts.Centroids.Length * sizeof(float))));
             if (options.Encoding == VectorEncoding.ProductCodes)
             {
-                header.Sections.Add(new SectionEntry((uint)SectionId.ProductCodebooks, 0, checked((long)(parts.ProductCodewords?.Length ?? 0) * sizeof(float))));
+                header.Sections.Add(fourBit
+                    ? new SectionEntry((uint)SectionId.FourBitCodebooks, 0, checked((long)(parts.FourBitCodewords?.Length ?? 0) * sizeof(float)))
+                    : new SectionEntry((uint)SectionId.ProductCodebooks, 0, checked((long)(parts.ProductCodewords?.Length ?? 0) * sizeof(float))));
 
                 // Not skippable: a reader that ignored the rotation would misread every code.
                 if (rotated)
@@ -95,8 +107,8 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             writer.EndSection();
             if (options.Encoding == VectorEncoding.ProductCodes)
             {
-                writer.BeginSection(SectionId.ProductCodebooks);
-                writer.Write<float>(parts.ProductCodewords);
+                writer.BeginSection(fourBit ? SectionId.FourBitCodebooks : SectionId.ProductCodebooks);
+                writer.Write<float>(fourBit ? parts.FourBitCodewords : parts.ProductCodewords);
                 writer.EndSection();
                 if (rotated)
                 {
@@ -164,8 +176,12 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         var rotation = header.Integers.ContainsKey(ProductRotation)
             ? (SubspaceRotation)header.Integer(ProductRotation, (int)SubspaceRotation.None, (int)SubspaceRotation.VarianceBalanced)
             : SubspaceRotation.None;
+        var layout = header.Integers.ContainsKey(ProductLayout)
+            ? (ProductCodeLayout)header.Integer(ProductLayout, (int)ProductCodeLayout.BytePerSubspace, (int)ProductCodeLayout.FourBitFastScan)
+            : ProductCodeLayout.BytePerSubspace;
         var options = new InvertedFileOptions
         {
+            ProductCodeLayout = layout,
             ListCount = lists,
             SearchWidth = (int)header.Integer(SearchWidth, 1, int.MaxValue),
             Encoding = storage,
@@ -182,6 +198,12 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         if (!trained && count != 0)
         {
             throw IndexHeader.Malformed($"an untrained inverted file holds no vectors, but it declares {count}");
+        }
+
+        bool fourBit = storage == VectorEncoding.ProductCodes && layout == ProductCodeLayout.FourBitFastScan;
+        if (fourBit && !FourBitQuantizer.Fits(productCodeBytes, d))
+        {
+            throw IndexHeader.Malformed($"the field '{ProductCodeBytes}' is {productCodeBytes}, whose {2 * productCodeBytes} four-bit sub-spaces do not divide the dimension {d}");
         }
 
         if (storage == VectorEncoding.ProductCodes && d % productCodeBytes != 0)
@@ -201,12 +223,22 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         float[] centroids = reader.ReadArray<float>(trained ? checked(lists * d) : 0);
         reader.CloseSection();
         float[]? codewords = null;
+        float[]? fourBitCodewords = null;
         float[]? rotationMatrix = null;
         float[]? ranges = null;
         if (storage == VectorEncoding.ProductCodes)
         {
-            reader.OpenSection(SectionId.ProductCodebooks);
-            codewords = reader.ReadArray<float>(trained ? checked(d * ProductQuantizer.CodewordsPerSubspace) : 0);
+            if (fourBit)
+            {
+                reader.OpenSection(SectionId.FourBitCodebooks);
+                fourBitCodewords = reader.ReadArray<float>(trained ? checked(d * FourBitQuantizer.CodewordsPerSubspace) : 0);
+            }
+            else
+            {
+                reader.OpenSection(SectionId.ProductCodebooks);
+                codewords = reader.ReadArray<float>(trained ? checked(d * ProductQuantizer.CodewordsPerSubspace) : 0);
+            }
+
             reader.CloseSection();
             if (rotation != SubspaceRotation.None)
             {
@@ -281,6 +313,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             Count = count,
             Centroids = centroids,
             ProductCodewords = trained ? codewords : null,
+            FourBitCodewords = trained ? fourBitCodewords : null,
             ProductRotation = trained ? rotationMatrix : null,
             ScalarRanges = trained ? ranges : null,
             ListLengths = lengths,

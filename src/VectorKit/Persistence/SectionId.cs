@@ -30,7 +30,7 @@ internal enum SectionId : uint
     /// <summary>Inverted file: the entries per list, <c>lists</c> int32.</summary>
     ListLengths = 8,
 
-    /// <summary>Inverted file: every list's codes (float32 vectors or quantizer codes), list after list, entries in list order.</summary>
+    /// <summary>Inverted file: every list's codes (float32 vectors or quantizer codes, four-bit fast-scan codes one entry after another too), list after list, entries in list order.</summary>
     ListCodes = 9,
 
     /// <summary>Inverted file under product codes: the codewords, <c>code bytes × 256 × (dimension / code bytes)</c> float32.</summary>
@@ -50,4 +50,11 @@ internal enum SectionId : uint
     /// file looks an id up by binary search. Derived data; a loader that hashes the ids reads it through its checksum only.
     /// </summary>
     IdOrder = 14,
+
+    /// <summary>
+    /// Inverted file under the four-bit fast-scan product-code layout: the codewords, <c>2 × code bytes</c> sub-spaces ×
+    /// 16 × <c>(dimension / (2 × code bytes))</c> float32 (empty when untrained). It takes the place of
+    /// <see cref="ProductCodebooks"/>, and is not skippable: a reader that does not know the layout must not read the codes.
+    /// </summary>
+    FourBitCodebooks = 15,
 }

@@ -85,10 +85,12 @@ internal static class PersistenceSamples
         bool remove = true,
         FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory,
         SubspaceRotation rotation = SubspaceRotation.None,
-        int productCodeBytes = 0)
+        int productCodeBytes = 0,
+        ProductCodeLayout layout = ProductCodeLayout.BytePerSubspace)
     {
         var options = new InvertedFileOptions
         {
+            ProductCodeLayout = layout,
             ProductCodeRotation = rotation,
             ListCount = 4,
             SearchWidth = 2,

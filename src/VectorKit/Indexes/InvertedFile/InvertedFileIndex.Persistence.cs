@@ -52,10 +52,12 @@ public sealed partial class InvertedFileIndex
                 Count = _count,
                 Centroids = _centroids,
                 ProductCodewords = _product?.Codewords.ToArray(),
-                ProductRotation = _product is { IsRotated: true } ? _product.Rotation.ToArray() : null,
+                FourBitCodewords = _fourBit?.Codewords.ToArray(),
+                ProductRotation = _product is { IsRotated: true } ? _product.Rotation.ToArray()
+                    : _fourBit is { IsRotated: true } ? _fourBit.Rotation.ToArray() : null,
                 ScalarRanges = ranges,
                 ListLengths = (int[])_listCounts.Clone(),
-                ListCodes = _listCodes,
+                ListCodes = _fourBit is null ? _listCodes : UnpackedLists(),
                 Ids = ids,
                 FullVectors = _full,
                 FullRowOrder = order,
@@ -66,6 +68,25 @@ public sealed partial class InvertedFileIndex
         {
             _writerGate.ExitWriteLock();
         }
+    }
+
+    // Fast-scan blocks as codes one after another, a copy per list.
+    private byte[][] UnpackedLists()
+    {
+        var lists = new byte[_listCodes.Length][];
+        for (int list = 0; list < lists.Length; list++)
+        {
+            int length = _listCounts[list];
+            var codes = new byte[length * _codeBytes];
+            for (int p = 0; p < length; p++)
+            {
+                FastScanKernel.Get(_listCodes[list], _codeBytes, p, codes.AsSpan(p * _codeBytes, _codeBytes));
+            }
+
+            lists[list] = codes;
+        }
+
+        return lists;
     }
 
     /// <summary>
@@ -126,7 +147,7 @@ public sealed partial class InvertedFileIndex
 
         if (!parts.Trained)
         {
-            if (count != 0 || parts.Centroids.Length != 0 || parts.ProductCodewords is not null || parts.ProductRotation is not null || parts.ScalarRanges is not null)
+            if (count != 0 || parts.Centroids.Length != 0 || parts.ProductCodewords is not null || parts.FourBitCodewords is not null || parts.ProductRotation is not null || parts.ScalarRanges is not null)
             {
                 throw new InvalidDataException($"an untrained index holds no centroids, quantizer or vectors, but this one declares {count} vectors and {parts.Centroids.Length} centroid components");
             }
@@ -190,7 +211,7 @@ public sealed partial class InvertedFileIndex
             }
 
             _listSlots[list] = slots;
-            _listCodes[list] = parts.ListCodes[list];
+            _listCodes[list] = _fourBit is null ? parts.ListCodes[list] : Packed(parts.ListCodes[list], length);
             _listCounts[list] = length;
         }
 
@@ -214,14 +235,15 @@ public sealed partial class InvertedFileIndex
             }
         }
 
-        bool product = _options.Encoding == VectorEncoding.ProductCodes;
+        bool fourBit = _options.UsesFastScan;
+        bool product = _options.Encoding == VectorEncoding.ProductCodes && !fourBit;
         bool scalar = _options.Encoding == VectorEncoding.Scalar8Bit;
-        if ((parts.ProductCodewords is not null) != product || (parts.ScalarRanges is not null) != scalar)
+        if ((parts.ProductCodewords is not null) != product || (parts.ScalarRanges is not null) != scalar || (parts.FourBitCodewords is not null) != fourBit)
         {
             throw new InvalidDataException($"the stored quantizer does not match the list storage {_options.Encoding}");
         }
 
-        bool rotated = product && _options.ProductCodeRotation != SubspaceRotation.None;
+        bool rotated = (product || fourBit) && _options.ProductCodeRotation != SubspaceRotation.None;
         if ((parts.ProductRotation is not null) != rotated)
         {
             throw new InvalidDataException(rotated
@@ -232,7 +254,13 @@ public sealed partial class InvertedFileIndex
         if (product)
         {
             _product = ProductQuantizer.FromCodewords(parts.ProductCodewords!, d, _options.ProductCodeBytes, parts.ProductRotation);
-            _rotatedCentroids = RotatedCentroids(parts.Centroids, _product);
+            _rotatedCentroids = RotatedCentroids(parts.Centroids, _product, null);
+        }
+        else if (fourBit)
+        {
+            _fourBit = FourBitQuantizer.FromCodewords(parts.FourBitCodewords!, d, _options.ProductCodeBytes, parts.ProductRotation);
+            _rotatedCentroids = RotatedCentroids(parts.Centroids, null, _fourBit);
+            _listTerms = ListTerms(parts.Centroids, _rotatedCentroids, _fourBit);
         }
         else if (scalar)
         {
@@ -273,6 +301,18 @@ public sealed partial class InvertedFileIndex
                 }
             }
         }
+    }
+
+    // Codes one after another into fast-scan blocks (padding slots zero).
+    private byte[] Packed(byte[] codes, int length)
+    {
+        var blocks = new byte[checked((int)ListCodeBytes(length))];
+        for (int p = 0; p < length; p++)
+        {
+            FastScanKernel.Put(blocks, _codeBytes, p, codes.AsSpan(p * _codeBytes, _codeBytes));
+        }
+
+        return blocks;
     }
 
     private static string Invariant(float value) => value.ToString(System.Globalization.CultureInfo.InvariantCulture);

@@ -1,8 +1,10 @@
+using System.Numerics.Tensors;
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
 using VectorKit.Internal;
+using VectorKit.Quantization;
 
 namespace VectorKit.Indexes.InvertedFile;
 
@@ -82,6 +84,11 @@ public sealed partial class InvertedFileIndex
         int d = Dimension;
         int size = _codeBytes;
         bool squared = typeof(TStep) == typeof(SquaredDifferenceStep);
+        if (_fourBit is not null)
+        {
+            return ScanFastScan<TFinish>(q, probes, heap, filter, scratch, squared);
+        }
+
         ref float query = ref MemoryMarshal.GetReference(q);
         Span<float> block = scratch.Block(ScanBlock);
         ref float distances = ref MemoryMarshal.GetReference(block);
@@ -197,6 +204,98 @@ public sealed partial class InvertedFileIndex
         return count;
     }
 
+    // The four-bit fast scan: per probed list a float table (for dot products one per query), its 8-bit levels and
+    // their register image, then FastScanKernel over the list's blocks. The tables hold distance contributions: negated
+    // dot products, or under squared L2 the query's terms −2 (R·q)_m · c_{m,j} plus the list's stored terms (the rest,
+    // ‖q − centroid‖², is the probe's own distance), so distance = start + bias + step × level sum under every metric.
+    private int ScanFastScan<TFinish>(ReadOnlySpan<float> q, ReadOnlySpan<SearchHit> probes, Span<SearchHit> heap, Func<long, bool>? filter, SearchScratch scratch, bool squared)
+        where TFinish : struct, IDistanceFinish
+    {
+        int d = Dimension;
+        int size = _codeBytes;
+        FourBitQuantizer quantizer = _fourBit!;
+        int subspaces = quantizer.Subspaces;
+        Span<float> table = scratch.Table(quantizer.TableLength);
+        Span<byte> levels = scratch.Levels(quantizer.TableLength);
+        Span<byte> image = scratch.Image(size * FastScanKernel.ImageBytesPerCodeByte);
+        Span<ushort> sums = scratch.Sums(ScanBlock);
+        ref byte imageStart = ref MemoryMarshal.GetReference(image);
+        ref ushort sumStart = ref MemoryMarshal.GetReference(sums);
+        ReadOnlySpan<float> codeQuery = q;
+        if (quantizer.IsRotated)
+        {
+            Span<float> rotated = scratch.Rotated(d);
+            quantizer.Rotate(q, rotated);
+            codeQuery = rotated;
+        }
+
+        float bias = 0, step = 1;
+        Span<float> listTable = default;
+        if (squared)
+        {
+            quantizer.FillDotTerms(codeQuery, table, -2f);
+            listTable = scratch.Prepared(quantizer.TableLength);
+        }
+        else
+        {
+            quantizer.FillTable(codeQuery, table, squared: false);
+            (bias, step) = FastScanKernel.QuantizeTable(table, subspaces, levels);
+            FastScanKernel.PrepareImage(_kernelPath, levels, size, image);
+        }
+
+        int count = 0;
+        float bound = float.PositiveInfinity;
+        foreach (SearchHit probe in probes)
+        {
+            int list = (int)probe.Id;
+            int length = _listCounts[list];
+            if (length == 0)
+            {
+                continue;
+            }
+
+            float start;
+            if (squared)
+            {
+                // The probe's distance is ‖q − centroid‖², the same as ‖R·q − R·centroid‖² (R is orthogonal).
+                TensorPrimitives.Add(table, _listTerms.AsSpan(list * listTable.Length, listTable.Length), listTable);
+                (bias, step) = FastScanKernel.QuantizeTable(listTable, subspaces, levels);
+                FastScanKernel.PrepareImage(_kernelPath, levels, size, image);
+                start = probe.Distance + bias;
+            }
+            else
+            {
+                start = TFinish.Apply(PairKernel.Sum<DotStep>(_kernelPath, q, _centroids.AsSpan(list * d, d))) + bias;
+            }
+
+            ref byte codes = ref MemoryMarshal.GetArrayDataReference(_listCodes[list]);
+            int[] slots = _listSlots[list];
+            for (int first = 0; first < length; first += ScanBlock)
+            {
+                int n = Math.Min(ScanBlock, length - first);
+                int blocks = (n + FastScanKernel.BlockSize - 1) / FastScanKernel.BlockSize;
+
+                // `first` is a multiple of the block size, so its blocks start at first × code bytes.
+                FastScanKernel.Scan(_kernelPath, ref imageStart, ref Unsafe.Add(ref codes, (nint)first * size), size, blocks, ref sumStart);
+                for (int j = 0; j < n; j++)
+                {
+                    float distance = start + (step * Unsafe.Add(ref sumStart, j));
+                    if (distance <= bound)
+                    {
+                        long id = _ids[slots[first + j]];
+                        if (filter is null || filter(id))
+                        {
+                            TopK.Offer(heap, ref count, distance, id);
+                            bound = TopK.Bound(heap, count);
+                        }
+                    }
+                }
+            }
+        }
+
+        return count;
+    }
+
     private static SearchScratch RentScratch()
     {
         SearchScratch? scratch = t_scratch;
@@ -238,6 +337,9 @@ public sealed partial class InvertedFileIndex
         private float[] _prepared = [];
         private float[] _residual = [];
         private float[] _rotated = [];
+        private byte[] _levels = [];
+        private byte[] _image = [];
+        private ushort[] _sums = [];
 
         public bool InUse { get; set; }
 
@@ -258,6 +360,12 @@ public sealed partial class InvertedFileIndex
         public Span<float> Residual(int length) => Grow(ref _residual, length);
 
         public Span<float> Rotated(int length) => Grow(ref _rotated, length);
+
+        public Span<byte> Levels(int length) => Grow(ref _levels, length);
+
+        public Span<byte> Image(int length) => Grow(ref _image, length);
+
+        public Span<ushort> Sums(int length) => Grow(ref _sums, length);
 
         private static Span<T> Grow<T>(ref T[] array, int length)
         {

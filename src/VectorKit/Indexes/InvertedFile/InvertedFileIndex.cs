@@ -11,7 +11,9 @@ namespace VectorKit.Indexes.InvertedFile;
 /// An inverted-file index: k-means splits the space into <see cref="InvertedFileOptions.ListCount"/> cells, each
 /// vector is stored in the list of its nearest centroid, and a search scans only the lists of the query's nearest
 /// centroids. Lists hold float32 vectors, product-quantization codes or 8-bit scalar codes
-/// (<see cref="VectorIndexOptions.Encoding"/>), optionally with the full vectors kept for exact re-scoring.
+/// (<see cref="VectorIndexOptions.Encoding"/>), optionally with the full vectors kept for exact re-scoring. Product codes
+/// come in two layouts (<see cref="InvertedFileOptions.ProductCodeLayout"/>): one byte per sub-space scanned by table
+/// look-ups, or four bits per sub-space in blocks of 32 scanned in SIMD registers (the fast scan).
 /// </summary>
 /// <remarks>
 /// <para><b>Training first.</b> <see cref="Train"/> learns the centroids (and the residual quantizer) from a sample;
@@ -49,6 +51,14 @@ public sealed partial class InvertedFileIndex : VectorIndex
     // each probed list's residual as R·q − R·c, O(d) per list, instead of rotating q − c per list, O(d²).
     private float[] _rotatedCentroids = [];
     private ScalarQuantizer? _scalar;
+
+    // Under the four-bit fast-scan layout, the quantizer of the residuals (and _product stays null); lists then hold
+    // FastScanKernel blocks of 32 entries instead of one code after another.
+    private FourBitQuantizer? _fourBit;
+
+    // Derived under the fast-scan layout: per list its table terms ‖c_{m,j}‖² + 2 (R·centroid)_m · c_{m,j} (lists × 2 ×
+    // code bytes × 16), so a squared-distance probe adds the query's terms instead of filling a table (FillListTerms).
+    private float[] _listTerms = [];
     private bool _trained;
 
     // Lists: codes (capacity × code bytes), the slot of each entry, and the entries in use.
@@ -100,7 +110,11 @@ public sealed partial class InvertedFileIndex : VectorIndex
         : base(dimension, metric)
     {
         options ??= InvertedFileOptions.Default;
-        if (options.Encoding == VectorEncoding.ProductCodes)
+        if (options.UsesFastScan)
+        {
+            FourBitQuantizer.CheckCodeBytes(options.ProductCodeBytes, dimension, nameof(options));
+        }
+        else if (options.Encoding == VectorEncoding.ProductCodes)
         {
             ProductQuantizer.CheckCodeBytes(options.ProductCodeBytes, dimension, nameof(options));
         }
@@ -161,6 +175,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         bytes += (long)_ids.Length * (sizeof(long) + sizeof(int) + sizeof(int));
         bytes += _full?.Bytes ?? 0;
         bytes += _product is null ? 0 : ((2L * _product.Codewords.Length) + _product.Rotation.Length) * sizeof(float);
+        bytes += _fourBit is null ? 0 : ((2L * _fourBit.Codewords.Length) + _fourBit.Rotation.Length + _listTerms.Length) * sizeof(float);
         bytes += (long)_rotatedCentroids.Length * sizeof(float);
         bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
         bytes += _slotOf.Bytes;
@@ -233,10 +248,16 @@ public sealed partial class InvertedFileIndex : VectorIndex
             KMeansResult coarse = KMeans.Train(sample, d, kmeansOptions, forward, cancellationToken, _kernelPath);
             ProductQuantizer? product = null;
             ScalarQuantizer? scalar = null;
+            FourBitQuantizer? fourBit = null;
             if (_options.Encoding != VectorEncoding.Float32)
             {
                 float[] residuals = Residuals(sample, coarse, _options.Seed, cancellationToken);
-                if (_options.Encoding == VectorEncoding.ProductCodes)
+                if (_options.UsesFastScan)
+                {
+                    IProgress<int>? subspaces = progress is null ? null : new SubspaceForward(progress, 2 * _options.ProductCodeBytes);
+                    fourBit = FourBitQuantizer.Train(residuals, d, _options.ProductCodeBytes, _options.ProductCodeRotation, _options.MaxIterations, _options.Seed, _options.EffectiveParallelism, subspaces, cancellationToken);
+                }
+                else if (_options.Encoding == VectorEncoding.ProductCodes)
                 {
                     var productOptions = new ProductQuantizerOptions
                     {
@@ -257,8 +278,10 @@ public sealed partial class InvertedFileIndex : VectorIndex
             }
 
             _centroids = coarse.CentroidArray;
-            _rotatedCentroids = RotatedCentroids(_centroids, product);
+            _rotatedCentroids = RotatedCentroids(_centroids, product, fourBit);
             _product = product;
+            _fourBit = fourBit;
+            _listTerms = ListTerms(_centroids, _rotatedCentroids, fourBit);
             _scalar = scalar;
             Volatile.Write(ref _trained, true);
         }
@@ -273,7 +296,18 @@ public sealed partial class InvertedFileIndex : VectorIndex
     {
         int d = Dimension;
         int list = _listOf[slot];
-        ReadOnlySpan<byte> code = _listCodes[list].AsSpan(_positionOf[slot] * _codeBytes, _codeBytes);
+        if (_fourBit is not null && _full is null)
+        {
+            using var scratch = ScratchRental<float>.Rent(d);
+            Span<byte> packed = _codeBytes <= 512 ? stackalloc byte[_codeBytes] : new byte[_codeBytes];
+            FastScanKernel.Get(_listCodes[list], _codeBytes, _positionOf[slot], packed);
+            _fourBit.Decode(packed, destination, scratch.Span);
+
+            AddCentroid(list, destination);
+            return;
+        }
+
+        ReadOnlySpan<byte> code = _fourBit is not null ? default : _listCodes[list].AsSpan(_positionOf[slot] * _codeBytes, _codeBytes);
         if (_options.Encoding == VectorEncoding.Float32)
         {
             MemoryMarshal.Cast<byte, float>(code).CopyTo(destination);
@@ -295,10 +329,35 @@ public sealed partial class InvertedFileIndex : VectorIndex
             _scalar!.Decode(code, destination);
         }
 
+        AddCentroid(list, destination);
+    }
+
+    private void AddCentroid(int list, Span<float> destination)
+    {
+        int d = Dimension;
         ReadOnlySpan<float> centroid = _centroids.AsSpan(list * d, d);
         for (int j = 0; j < d; j++)
         {
             destination[j] += centroid[j];
+        }
+    }
+
+    // Bytes a list of `entries` takes: one code after another, or whole fast-scan blocks.
+    private long ListCodeBytes(int entries)
+        => _options.UsesFastScan ? FastScanKernel.ListBytes(entries, _codeBytes) : (long)entries * _codeBytes;
+
+    // Moves the code of entry `from` over entry `to` in a list's codes.
+    private void MoveEntry(byte[] codes, int from, int to)
+    {
+        if (_options.UsesFastScan)
+        {
+            Span<byte> code = _codeBytes <= 512 ? stackalloc byte[_codeBytes] : new byte[_codeBytes];
+            FastScanKernel.Get(codes, _codeBytes, from, code);
+            FastScanKernel.Put(codes, _codeBytes, to, code);
+        }
+        else
+        {
+            codes.AsSpan(from * _codeBytes, _codeBytes).CopyTo(codes.AsSpan(to * _codeBytes, _codeBytes));
         }
     }
 
@@ -330,7 +389,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         for (int list = 0; list < lists; list++)
         {
             slots[list] = _listSlots[list].AsSpan(0, _listCounts[list]).ToArray();
-            codes[list] = _listCodes[list].AsSpan(0, _listCounts[list] * _codeBytes).ToArray();
+            codes[list] = _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(_listCounts[list]))).ToArray();
         }
 
         long[] ids = _ids.AsSpan(0, count).ToArray();
@@ -384,7 +443,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         if (position != lastPosition)
         {
             int moved = _listSlots[list][lastPosition];
-            _listCodes[list].AsSpan(lastPosition * _codeBytes, _codeBytes).CopyTo(_listCodes[list].AsSpan(position * _codeBytes, _codeBytes));
+            MoveEntry(_listCodes[list], lastPosition, position);
             _listSlots[list][position] = moved;
             _positionOf[moved] = position;
         }
@@ -533,7 +592,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         int blocks = (n + Block - 1) / Block;
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveParallelism };
         int tableLength = _product?.TableLength ?? 0;
-        int rotatedLength = _product is { IsRotated: true } ? d : 0;
+        int rotatedLength = _product is { IsRotated: true } || _fourBit is { IsRotated: true } ? d : 0;
         Parallel.For(0, blocks, parallel, () => new float[d + rotatedLength + tableLength], (b, _, scratch) =>
         {
             Span<float> residual = scratch.AsSpan(0, d);
@@ -550,7 +609,16 @@ public sealed partial class InvertedFileIndex : VectorIndex
                 }
 
                 Span<byte> code = codes.AsSpan(r * size, size);
-                if (rotatedLength > 0)
+                if (_fourBit is not null)
+                {
+                    if (rotatedLength > 0)
+                    {
+                        _fourBit.Rotate(residual, rotated);
+                    }
+
+                    _fourBit.EncodeUnchecked(rotatedLength > 0 ? rotated : residual, code);
+                }
+                else if (rotatedLength > 0)
                 {
                     _product!.Rotate(residual, rotated);
                     _product.EncodeUnchecked(rotated, code, table);
@@ -587,7 +655,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
             {
                 int capacity = current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
                 Array.Resize(ref _listSlots[list], capacity);
-                Array.Resize(ref _listCodes[list], checked(capacity * _codeBytes));
+                Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
             }
         }
     }
@@ -602,7 +670,14 @@ public sealed partial class InvertedFileIndex : VectorIndex
             int list = labels[r];
             int position = _listCounts[list]++;
             int slot = _count + r;
-            codes.AsSpan(r * size, size).CopyTo(_listCodes[list].AsSpan(position * size, size));
+            if (_fourBit is not null)
+            {
+                FastScanKernel.Put(_listCodes[list], size, position, codes.AsSpan(r * size, size));
+            }
+            else
+            {
+                codes.AsSpan(r * size, size).CopyTo(_listCodes[list].AsSpan(position * size, size));
+            }
             _listSlots[list][position] = slot;
             _ids[slot] = ids[r];
             _listOf[slot] = list;
@@ -674,19 +749,46 @@ public sealed partial class InvertedFileIndex : VectorIndex
         return rows;
     }
 
-    // R·c for every centroid under a rotated product quantizer, else empty.
-    private static float[] RotatedCentroids(float[] centroids, ProductQuantizer? product)
+    // The fast scan's per-list table terms (see _listTerms), else empty.
+    private static float[] ListTerms(float[] centroids, float[] rotatedCentroids, FourBitQuantizer? fourBit)
     {
-        if (product is not { IsRotated: true })
+        if (fourBit is null)
         {
             return [];
         }
 
-        int d = product.Dimension;
+        int d = fourBit.Dimension;
+        int length = fourBit.TableLength;
+        float[] from = rotatedCentroids.Length != 0 ? rotatedCentroids : centroids;
+        var terms = new float[checked(centroids.Length / d * length)];
+        for (int c = 0; c < centroids.Length / d; c++)
+        {
+            fourBit.FillListTerms(from.AsSpan(c * d, d), terms.AsSpan(c * length, length));
+        }
+
+        return terms;
+    }
+
+    // R·c for every centroid under a rotated product quantizer (either layout), else empty.
+    private static float[] RotatedCentroids(float[] centroids, ProductQuantizer? product, FourBitQuantizer? fourBit)
+    {
+        if (product is not { IsRotated: true } && fourBit is not { IsRotated: true })
+        {
+            return [];
+        }
+
+        int d = product?.Dimension ?? fourBit!.Dimension;
         var rotated = new float[centroids.Length];
         for (int c = 0; c < centroids.Length / d; c++)
         {
-            product.Rotate(centroids.AsSpan(c * d, d), rotated.AsSpan(c * d, d));
+            if (product is not null)
+            {
+                product.Rotate(centroids.AsSpan(c * d, d), rotated.AsSpan(c * d, d));
+            }
+            else
+            {
+                fourBit!.Rotate(centroids.AsSpan(c * d, d), rotated.AsSpan(c * d, d));
+            }
         }
 
         return rotated;

@@ -28,6 +28,9 @@ internal sealed class InvertedFileIndexParts
     /// <summary>Under product codes when trained: the codewords (<c>CodeBytes × 256 × Dimension / CodeBytes</c> floats); else <see langword="null"/>.</summary>
     public float[]? ProductCodewords { get; init; }
 
+    /// <summary>Under the four-bit fast-scan layout when trained: the codewords (<c>2 × CodeBytes × 16 × Dimension / (2 × CodeBytes)</c> floats); else <see langword="null"/>.</summary>
+    public float[]? FourBitCodewords { get; init; }
+
     /// <summary>Under product codes with a rotation when trained: the <c>Dimension × Dimension</c> rotation, row-major; else <see langword="null"/>.</summary>
     public float[]? ProductRotation { get; init; }
 
@@ -37,7 +40,10 @@ internal sealed class InvertedFileIndexParts
     /// <summary>Entries per list, <c>ListCount</c> values.</summary>
     public required int[] ListLengths { get; init; }
 
-    /// <summary>Per list its codes: at least <c>length × code bytes</c> bytes (exactly that many after a load).</summary>
+    /// <summary>
+    /// Per list its codes, one after another: at least <c>length × code bytes</c> bytes (exactly that many after a
+    /// load). Under the fast-scan layout they are unpacked from the blocks on export (a copy) and packed again on load.
+    /// </summary>
     public required byte[][] ListCodes { get; init; }
 
     /// <summary><see cref="VectorIndex.Count"/> ids in list order.</summary>

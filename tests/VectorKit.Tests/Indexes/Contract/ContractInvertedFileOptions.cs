@@ -8,7 +8,7 @@ internal static class ContractInvertedFileOptions
 {
     public const int Lists = 16;
 
-    public static InvertedFileOptions For(VectorEncoding encoding, int dimension, int rescoreDepth = 0, FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory) => new()
+    public static InvertedFileOptions For(VectorEncoding encoding, int dimension, int rescoreDepth = 0, FullVectorLocation fullVectors = FullVectorLocation.InIndexMemory, ProductCodeLayout layout = ProductCodeLayout.BytePerSubspace) => new()
     {
         ListCount = Lists,
         SearchWidth = 4,
@@ -17,8 +17,9 @@ internal static class ContractInvertedFileOptions
         MaxDegreeOfParallelism = 2,
         Encoding = encoding,
 
-        // Two components per sub-space.
+        // Half a byte per component: two components per 8-bit sub-space, or one per four-bit sub-space.
         ProductCodeBytes = dimension / 2,
+        ProductCodeLayout = layout,
         RescoreDepth = rescoreDepth,
         FullVectors = fullVectors,
     };
