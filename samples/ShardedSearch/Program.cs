@@ -87,7 +87,10 @@ static async Task Demo(Uri address)
     using HttpResponseMessage notFinite = await anonymous.PostAsync("/search", nan);
     Console.WriteLine($"NaN in the vector: {(int)notFinite.StatusCode}");
     using var huge = new StringContent("{\"items\":[" + new string(' ', 2 << 20) + "]}", Encoding.UTF8, "application/json");
-    using HttpResponseMessage tooLarge = await desk.PostAsync("/items", huge);
+    // With its length and "Expect: 100-continue" the server refuses the body from the headers, before it is sent.
+    using var hugeRequest = new HttpRequestMessage(HttpMethod.Post, "/items") { Content = huge };
+    hugeRequest.Headers.ExpectContinue = true;
+    using HttpResponseMessage tooLarge = await desk.SendAsync(hugeRequest);
     Console.WriteLine($"A 2 MiB body: {(int)tooLarge.StatusCode}");
     using HttpResponseMessage status = await anonymous.GetAsync("/admin/status");
     Console.WriteLine($"Status without the key: {(int)status.StatusCode}");
