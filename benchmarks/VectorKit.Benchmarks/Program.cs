@@ -34,6 +34,25 @@ public static class Program
             return;
         }
 
+        if (args.Length > 0 && args[0] == "graph-build-cost")
+        {
+            // graph-build-cost [count | fashion-mnist] [dimension] [rounds]
+            int rounds = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 2;
+            if (args.Length > 1 && args[1] == "fashion-mnist")
+            {
+                GraphBuildCost.RunFashionMnist("/usr/share/datasets/fashion-mnist", rounds);
+            }
+            else
+            {
+                GraphBuildCost.RunClustered(
+                    args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 100_000,
+                    args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128,
+                    rounds);
+            }
+
+            return;
+        }
+
         if (args.Length > 0 && args[0] == "graph-sweep")
         {
             GraphSweep.RunFashionMnist(args.Length > 1 && args[1] != "with-8bit" ? args[1] : "/usr/share/datasets/fashion-mnist", args.Contains("with-8bit"));
