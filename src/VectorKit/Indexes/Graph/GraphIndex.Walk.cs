@@ -142,6 +142,8 @@ public sealed partial class GraphIndex
     }
 
     // `prepared` is what the rows are measured against (the query, padded under codes); `query` is re-scored.
+    // Not inlined: its own method, so the heap operations of the descent's entry and the drain inline here.
+    [MethodImpl(MethodImplOptions.NoInlining)]
     private int SearchGraph<TDistance>(ref float query, ref float prepared, Span<SearchHit> destination, int width, int depth, Func<long, bool>? filter)
         where TDistance : struct, IGraphDistance
     {
