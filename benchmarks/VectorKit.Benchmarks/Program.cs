@@ -8,7 +8,7 @@ namespace VectorKit.Benchmarks;
 /// <summary>
 /// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory] [with-8bit]</c> and
-/// <c>clustered-sweep [count] [dimension] [with-8bit]</c> (<c>with-8bit</c> adds the graph under 8-bit codes); the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
+/// <c>clustered-sweep [count] [dimension] [with-8bit]</c> (<c>with-8bit</c> adds the graph under 8-bit codes); the graph's build cost against its floor: <c>graph-build-cost [count | fashion-mnist] [dimension] [rounds]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
 /// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; the inverted-file harness,
 /// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; re-scoring from memory vs a file,
 /// <c>rescore-source [count] [dimension] [lists] [product code bytes]</c>; the 8-bit exact index harness,
