@@ -8,7 +8,7 @@ namespace VectorKit.Benchmarks;
 /// <summary>
 /// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory] [with-8bit]</c> and
-/// <c>clustered-sweep [count] [dimension] [with-8bit]</c> (<c>with-8bit</c> adds the graph under 8-bit codes); the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
+/// <c>clustered-sweep [count] [dimension] [with-8bit]</c> (<c>with-8bit</c> adds the graph under 8-bit codes); the graph's build cost against its floor: <c>graph-build-cost [count | fashion-mnist] [dimension] [rounds]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
 /// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; the inverted-file harness,
 /// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; the byte and four-bit product-code layouts
 /// side by side, <c>fast-scan-sweep fashion-mnist [lists] [code bytes]</c> or
@@ -47,6 +47,25 @@ public static class Program
         if (args.Length > 0 && args[0] == "ladder-step")
         {
             Ladder.LadderHarness.Step(args);
+            return;
+        }
+
+        if (args.Length > 0 && args[0] == "graph-build-cost")
+        {
+            // graph-build-cost [count | fashion-mnist] [dimension] [rounds]
+            int rounds = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 2;
+            if (args.Length > 1 && args[1] == "fashion-mnist")
+            {
+                GraphBuildCost.RunFashionMnist("/usr/share/datasets/fashion-mnist", rounds);
+            }
+            else
+            {
+                GraphBuildCost.RunClustered(
+                    args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 100_000,
+                    args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128,
+                    rounds);
+            }
+
             return;
         }
 

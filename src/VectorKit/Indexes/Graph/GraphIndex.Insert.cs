@@ -1,3 +1,4 @@
+using System.Runtime.CompilerServices;
 using VectorKit.Distance;
 
 namespace VectorKit.Indexes.Graph;
@@ -96,6 +97,8 @@ public sealed partial class GraphIndex
     }
 
     // Adds the back link neighbour → slot on one layer; a full list is pruned with the heuristic (Algorithm 1, line 15).
+    // Not inlined: a distance loop keeps its own inlining budget for the kernel (see BeamSearch).
+    [MethodImpl(MethodImplOptions.NoInlining)]
     private void Connect<TDistance>(GraphScratch scratch, int neighbour, int slot, int layer)
         where TDistance : struct, IGraphDistance
     {

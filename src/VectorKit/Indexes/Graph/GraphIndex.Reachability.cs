@@ -7,20 +7,27 @@ namespace VectorKit.Indexes.Graph;
 public sealed partial class GraphIndex
 {
     // Every list write goes through SetList or AppendLink so the in-degree counts stay exact. Caller holds the stripe
-    // lock of `slot` or the write lock. Increments come before decrements, so a node named by both the old and the new
-    // list never reads as orphaned.
+    // lock of `slot` or the write lock. Only nodes entering or leaving the list change their count (a pruned list keeps
+    // most of its links, and each interlocked update is a cache line that parallel inserts contend for); a node named
+    // by both the old and the new list is left alone, so it never reads as orphaned. Increments come before decrements.
     private void SetList(int slot, int layer, ReadOnlySpan<int> links)
     {
         Span<int> block = _links.Block(slot, layer);
-        int old = block[0];
+        ReadOnlySpan<int> previous = block.Slice(1, block[0]);
         foreach (int to in links)
         {
-            Interlocked.Increment(ref _links.InDegree(to, layer));
+            if (!previous.Contains(to))
+            {
+                Interlocked.Increment(ref _links.InDegree(to, layer));
+            }
         }
 
-        for (int i = 1; i <= old; i++)
+        foreach (int from in previous)
         {
-            DropInLink(block[i], layer);
+            if (!links.Contains(from))
+            {
+                DropInLink(from, layer);
+            }
         }
 
         links.CopyTo(block[1..]);

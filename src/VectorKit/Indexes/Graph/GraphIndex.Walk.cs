@@ -8,6 +8,8 @@ public sealed partial class GraphIndex
 {
     // Greedy descent (ef = 1) from level `from` down to, not including, level `to`: on each layer move to the nearest
     // neighbour while one is nearer.
+    // Not inlined: a distance loop keeps its own inlining budget for the kernel (see BeamSearch).
+    [MethodImpl(MethodImplOptions.NoInlining)]
     private int Descend<TDistance>(ref float query, int entry, ref float entryDistance, int from, int to)
         where TDistance : struct, IGraphDistance
     {
@@ -39,6 +41,10 @@ public sealed partial class GraphIndex
     // Beam search on one layer (the published Algorithm 2). The caller has started the visited set and put the entry
     // point in Candidates (and in Results if eligible). Leaves the best `width` eligible nodes in Results, keyed by
     // negated distance. Eligible: not removed and passing the filter; ineligible nodes are expanded all the same.
+    // Not inlined (as every loop that measures distances): compiled as its own method it has its own inlining budget,
+    // so the distance kernel's helpers always inline into the loop. Inlined into a caller that already inlined much (as
+    // profile-guided recompilation does), the budget ran out and they became calls passing vectors through memory.
+    [MethodImpl(MethodImplOptions.NoInlining)]
     private void BeamSearch<TDistance>(ref float query, GraphScratch scratch, int level, int width, Func<long, bool>? filter)
         where TDistance : struct, IGraphDistance
     {
@@ -136,6 +142,8 @@ public sealed partial class GraphIndex
     }
 
     // `prepared` is what the rows are measured against (the query, padded under codes); `query` is re-scored.
+    // Not inlined: its own method, so the heap operations of the descent's entry and the drain inline here.
+    [MethodImpl(MethodImplOptions.NoInlining)]
     private int SearchGraph<TDistance>(ref float query, ref float prepared, Span<SearchHit> destination, int width, int depth, Func<long, bool>? filter)
         where TDistance : struct, IGraphDistance
     {
@@ -195,6 +203,8 @@ public sealed partial class GraphIndex
     // Each kept node is turned into a query once (under codes: decoded once into its own scratch place, 2 + its
     // position) and measured against the later candidates' rows; distances are symmetric, so this is the published
     // test with the decoding paid per kept node rather than per candidate.
+    // Not inlined: a distance loop keeps its own inlining budget for the kernel (see BeamSearch).
+    [MethodImpl(MethodImplOptions.NoInlining)]
     private int SelectNeighbours<TDistance>(GraphScratch scratch, ReadOnlySpan<float> keys, ReadOnlySpan<int> slots, int limit, Span<int> chosen)
         where TDistance : struct, IGraphDistance
     {

@@ -1,3 +1,4 @@
+using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
@@ -618,6 +619,8 @@ public sealed partial class GraphIndex : VectorIndex
     }
 
     // The exact scan of the passing items (exact on the stored rows: under codes, code distances, then re-scored).
+    // Not inlined: a distance loop keeps its own inlining budget for the kernel (see BeamSearch).
+    [MethodImpl(MethodImplOptions.NoInlining)]
     private int ScanFiltered<TDistance>(ref float query, ref float prepared, Span<SearchHit> destination, int depth, Func<long, bool> filter)
         where TDistance : struct, IGraphDistance
     {

@@ -27,12 +27,13 @@ internal sealed class NodeHeap
 
     public void Clear() => Count = 0;
 
+    // Push and Pop inline into the walk (its own method, so the kernel keeps its inlining budget); growth stays out of line.
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public void Push(float key, int slot)
     {
         if (Count == _keys.Length)
         {
-            Array.Resize(ref _keys, _keys.Length * 2);
-            Array.Resize(ref _slots, _slots.Length * 2);
+            Grow();
         }
 
         float[] keys = _keys;
@@ -55,6 +56,7 @@ internal sealed class NodeHeap
         slots[i] = slot;
     }
 
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public void Pop()
     {
         int count = --Count;
@@ -93,5 +95,12 @@ internal sealed class NodeHeap
 
         keys[i] = key;
         slots[i] = slot;
+    }
+
+    [MethodImpl(MethodImplOptions.NoInlining)]
+    private void Grow()
+    {
+        Array.Resize(ref _keys, _keys.Length * 2);
+        Array.Resize(ref _slots, _slots.Length * 2);
     }
 }
