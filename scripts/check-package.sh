@@ -51,10 +51,12 @@ echo "VectorKit.Orleans $(basename "${orleans[0]}" .nupkg | sed 's/^VectorKit.Or
 
 # The package carries its own readme and a license expression, and not the repository README.
 nuspec="$(unzip -p "${packages[0]}" VectorKit.nuspec)"
-unzip -l "${packages[0]}" | grep -q ' PACKAGE.md$' || { echo "check-package: PACKAGE.md is missing from the package" >&2; exit 1; }
+# The listing is read whole first: `grep -q` quits at the first match, and under pipefail the listing's SIGPIPE would fail the check.
+listing="$(unzip -l "${packages[0]}")"
+grep -q ' PACKAGE.md$' <<<"$listing" || { echo "check-package: PACKAGE.md is missing from the package" >&2; exit 1; }
 grep -q '<readme>PACKAGE.md</readme>' <<<"$nuspec" || { echo "check-package: the nuspec does not name PACKAGE.md as its readme" >&2; exit 1; }
 grep -q '<license type="expression">MIT</license>' <<<"$nuspec" || { echo "check-package: the nuspec has no MIT license expression" >&2; exit 1; }
-if unzip -l "${packages[0]}" | grep -q ' README.md$'; then
+if grep -q ' README.md$' <<<"$listing"; then
   echo "check-package: the repository README.md was packed" >&2; exit 1
 fi
 
