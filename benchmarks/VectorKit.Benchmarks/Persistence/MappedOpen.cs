@@ -27,7 +27,7 @@ public static class MappedOpen
         string path = Path.Combine(folder, $"exact-v3-{count}x{dimension}.vkx");
         if (!File.Exists(path))
         {
-            using ExactIndex built = Build(count, dimension);
+            using ExactIndex built = StorageLoad.BuildExact(count, dimension);
             IndexFile.Save(built, path);
         }
 
@@ -102,32 +102,6 @@ public static class MappedOpen
         double qps = queryCount / rest.Elapsed.TotalSeconds;
         (long anon1, long file1) = Resident();
         return new Figures(open, first, qps, (anon1 - anon0) / 1024.0, (file1 - file0) / 1024.0);
-    }
-
-    private static ExactIndex Build(int count, int dimension)
-    {
-        var random = new Random(7);
-        var index = new ExactIndex(dimension, DistanceMetric.SquaredEuclidean);
-        const int chunk = 65_536;
-        var data = new float[chunk * dimension];
-        var ids = new long[chunk];
-        for (int start = 0; start < count; start += chunk)
-        {
-            int n = Math.Min(chunk, count - start);
-            for (int i = 0; i < n * dimension; i++)
-            {
-                data[i] = (random.NextSingle() * 2) - 1;
-            }
-
-            for (int i = 0; i < n; i++)
-            {
-                ids[i] = start + i;
-            }
-
-            index.AddRange(ids.AsSpan(0, n), data.AsSpan(0, n * dimension));
-        }
-
-        return index;
     }
 
     // The file's clean pages leave the page cache (no root needed); other files are untouched.

@@ -64,7 +64,8 @@ public static unsafe class StorageLoad
         }
     }
 
-    private static ExactIndex BuildExact(int count, int dimension)
+    // Uniform rows in [-1, 1), ids 0..count-1, added in chunks (also the mapped-open benchmark's index).
+    internal static ExactIndex BuildExact(int count, int dimension)
     {
         var random = new Random(7);
         var index = new ExactIndex(dimension, DistanceMetric.SquaredEuclidean);
