@@ -192,6 +192,65 @@ public sealed class MaintenanceConcurrencyTests
         GraphChecks.AssertSound(graph);
     }
 
+    [Fact]
+    public void Searches_RunBetweenTheStepsOfARemovalsRepair_AndNeverReturnARemovedItem()
+    {
+        const int n = 4000, d = 16;
+        float[] data = ClusteredData.Generate(n, d, 40, 0.2f, seed: 31);
+        using var graph = GraphIndexTests.Build(DistanceMetric.SquaredEuclidean, d, data, new GraphIndexOptions { MaxDegreeOfParallelism = 1 });
+        graph.FullPassDivisor = 0;
+        long[] removed = [.. Enumerable.Range(0, n).Where(i => i % 3 == 0).Select(i => (long)i)];
+        var gone = new HashSet<long>(removed);
+        var wide = new SearchOptions { SearchWidth = 400 };
+        int steps = 0, found = 0, leaked = 0;
+        bool blocked = false;
+        Background? add = null;
+        graph.BetweenRepairSteps = () =>
+        {
+            // Another thread, as a caller's search would be: it must not wait for the repair to end.
+            if (blocked)
+            {
+                return;
+            }
+
+            long live = 1 + (3 * (steps % 1000));
+            long dead = 3 * (steps % 1000);
+            steps++;
+            var search = new Background(() => (graph.Search(data.AsSpan((int)live * d, d), 1, wide), graph.Search(data.AsSpan((int)dead * d, d), 10, wide)));
+            if (!search.Finishes())
+            {
+                blocked = true;
+                return;
+            }
+
+            (SearchHit[] own, SearchHit[] near) = search.Result<(SearchHit[], SearchHit[])>();
+            found += own[0].Id == live ? 1 : 0;
+            leaked += near.Count(h => gone.Contains(h.Id));
+
+            // A write arriving mid-repair queues behind it and lands after it.
+            add ??= new Background(() => graph.Add(n, data.AsSpan(d, d)));
+        };
+        graph.RemoveRange(removed);
+        graph.BetweenRepairSteps = null;
+        Assert.False(blocked, "a search waited for a removal's repair");
+        Assert.True(steps > 1, $"the repair ran in {steps} step(s)");
+        Assert.Equal(steps, found);
+        Assert.Equal(0, leaked);
+        Assert.NotNull(add);
+        add.Result<object?>();
+        Assert.Equal(n - removed.Length + 1, graph.Count);
+        foreach (long id in removed)
+        {
+            Assert.False(graph.Contains(id));
+        }
+
+        GraphChecks.AssertSoundAfterSingleChanges(graph);
+        for (int i = 1; i < n; i += 3)
+        {
+            Assert.DoesNotContain(graph.Search(data.AsSpan(i * d, d), 10, wide), h => gone.Contains(h.Id));
+        }
+    }
+
     private static VectorIndex Create(string kind, int d, float[] data)
     {
         VectorIndex index = kind switch

@@ -12,6 +12,9 @@ public sealed partial class GraphIndex
     /// <summary>Called by the global pass each time it has released the write lock after a step of changes (for tests).</summary>
     internal Action? BetweenPassSteps { get; set; }
 
+    /// <summary>Called by a removal's repair each time it has released the write lock after a step of list writes (for tests).</summary>
+    internal Action? BetweenRepairSteps { get; set; }
+
     /// <summary>Called by a compaction once it has copied the live items and before it links them, with no lock held (for tests).</summary>
     internal Action? DuringCompactionRebuild { get; set; }
 

@@ -6,8 +6,8 @@ namespace VectorKit.Indexes.Graph;
 /// <summary>Removal with neighbour repair, compaction, and the structural checks tests use.</summary>
 public sealed partial class GraphIndex
 {
-    // Hides the items at once, then re-chooses every list that linked to them (found by a short walk near each, bounded
-    // by its in-degree) from the remaining links and the removed items' own; see the class remarks, Removal.
+    // Hides the items at once (a removed item is never returned from here on) and queues their slots for repair, which
+    // runs from AfterWrite once the write lock is released: see RunPendingRepairs and the class remarks, Writes.
     private protected override void RemoveLocked(ReadOnlySpan<long> ids)
     {
         int[] slots = new int[ids.Length];
@@ -17,7 +17,43 @@ public sealed partial class GraphIndex
         }
 
         RetireLocked(slots);
-        FinishLocked(slots, 0, 0, forceFullPass: false);
+        lock (_pendingRepairs)
+        {
+            _pendingRepairs.AddRange(slots);
+        }
+    }
+
+    // The repair of removed slots, beside searches. Holding the writer gate exclusively, nothing but this thread changes
+    // the graph (adds link under the gate too), so the lists naming the removed slots are found and chosen again
+    // without the write lock, and only written under it, a few lists at a time; searches run in between. Until then
+    // each removed slot is a waypoint in all but name: flagged, its lists intact, so walks still pass through it. The
+    // slots of every removal queued so far are repaired together; a compaction's swap drops the queue (its slots name
+    // the old graph), and so does disposal.
+    private void RunPendingRepairs()
+    {
+        lock (_pendingRepairs)
+        {
+            if (_pendingRepairs.Count == 0)
+            {
+                return;
+            }
+        }
+
+        using var gate = _writerGate.EnterWrite();
+        int[] slots;
+        lock (_pendingRepairs)
+        {
+            slots = [.. _pendingRepairs];
+            _pendingRepairs.Clear();
+        }
+
+        if (slots.Length == 0 || IsDisposed)
+        {
+            return;
+        }
+
+        var action = new SteppedRepairAction(this, slots);
+        Dispatch<SteppedRepairAction, bool>(ref action);
     }
 
     // Caller holds the write lock and has taken the slots' ids out of the map: hides the slots from results (their
@@ -139,11 +175,17 @@ public sealed partial class GraphIndex
         _changesSinceFullPass = rebuilt._changesSinceFullPass;
         _fullPassDue = rebuilt._fullPassDue;
 
-        // Waypoints and noted orphans name slots, so only the rebuilt graph's own (from the replayed writes) carry over.
+        // Waypoints, noted orphans and queued repairs name slots, so only the rebuilt graph's own (from the replayed
+        // writes) carry over; a removal still waiting to repair finds nothing queued (the rebuilt graph lacks its items).
         _waypoints.Clear();
         _waypoints.AddRange(rebuilt._waypoints);
         _orphanNotes.Clear();
         _orphanNotes.AddRange(rebuilt._orphanNotes);
+        lock (_pendingRepairs)
+        {
+            _pendingRepairs.Clear();
+        }
+
         _orphansAttached += rebuilt._orphansAttached;
         _orphansAttachedLocally += rebuilt._orphansAttachedLocally;
         _fullPasses += rebuilt._fullPasses;
@@ -198,10 +240,76 @@ public sealed partial class GraphIndex
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
+        long[] lists = ListsNaming(scratch, removed, out bool[] complete);
+        foreach (long list in lists)
+        {
+            Relink<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF));
+        }
+
+        RetireLists(removed, complete);
+    }
+
+    // RepairAfterRemoval in steps, for RunPendingRepairs (writer gate held exclusively, write lock not held): the lists
+    // are found and chosen again outside the write lock, then written under it, RemovalRelinkStep at a time. Nothing
+    // else changes the graph meanwhile, so choosing a batch of lists before writing them gives the same lists as
+    // choosing and writing each in turn (a new list depends on its own old one and the removed nodes' lists only).
+    private void RepairAfterRemovalInSteps<TDistance>(int[] removed)
+        where TDistance : struct, IGraphDistance
+    {
+        bool[] complete;
+        try
+        {
+            using GraphScratch.Rental rental = GraphScratch.Rent();
+            GraphScratch scratch = rental.Scratch;
+            scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
+            long[] lists = ListsNaming(scratch, removed, out complete);
+            int stride = _links.MaxLimit;
+            int[] chosen = new int[Math.Min(lists.Length, RemovalRelinkStep) * stride];
+            int[] kept = new int[RemovalRelinkStep];
+            for (int start = 0; start < lists.Length; start += RemovalRelinkStep)
+            {
+                int n = Math.Min(RemovalRelinkStep, lists.Length - start);
+                for (int i = 0; i < n; i++)
+                {
+                    long list = lists[start + i];
+                    kept[i] = ChooseAgain<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF), chosen.AsSpan(i * stride, stride));
+                }
+
+                using (_lock.EnterWrite())
+                {
+                    for (int i = 0; i < n; i++)
+                    {
+                        long list = lists[start + i];
+                        SetList((int)(list >> 8), (int)(list & 0xFF), chosen.AsSpan(i * stride, kept[i]));
+                    }
+                }
+
+                BetweenRepairSteps?.Invoke();
+            }
+        }
+        catch
+        {
+            // Whatever was not repaired is left to the global pass, as an incomplete removal is.
+            using var write = _lock.EnterWrite();
+            RetireLists(removed, new bool[removed.Length]);
+            throw;
+        }
+
+        using (_lock.EnterWrite())
+        {
+            RetireLists(removed, complete);
+            FinishChanges<TDistance>(0, 0, removed.Length, forceFullPass: false);
+        }
+    }
+
+    // The live lists (keyed slot << 8 | layer, sorted so the repaired graph does not depend on hash order) naming any of
+    // `removed`, and per removed slot whether its walk found every list naming it.
+    private long[] ListsNaming(GraphScratch scratch, int[] removed, out bool[] complete)
+    {
         var affected = new HashSet<long>();
         var frontier = new List<int>();
         var next = new List<int>();
-        var complete = new bool[removed.Length];
+        complete = new bool[removed.Length];
         for (int r = 0; r < removed.Length; r++)
         {
             complete[r] = true;
@@ -211,14 +319,15 @@ public sealed partial class GraphIndex
             }
         }
 
-        // Sorted, so the repaired graph does not depend on hash order.
         long[] lists = [.. affected];
         Array.Sort(lists);
-        foreach (long list in lists)
-        {
-            Relink<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF));
-        }
+        return lists;
+    }
 
+    // Caller holds the write lock and has chosen again every list found naming `removed`: a slot whose in-links were
+    // all found loses its lists, the others stay as waypoints for the global pass.
+    private void RetireLists(int[] removed, bool[] complete)
+    {
         for (int r = 0; r < removed.Length; r++)
         {
             if (complete[r])
@@ -366,10 +475,19 @@ public sealed partial class GraphIndex
         return false;
     }
 
-    // Chooses the list of `slot` on `layer` again with the heuristic. Candidates: its live links; for each removed link,
-    // that node's live links; and when that leaves fewer candidates than the limit (many removed at once), the live
-    // links of removed nodes one hop further.
+    // Chooses the list of `slot` on `layer` again with the heuristic (ChooseAgain) and writes it.
     private void Relink<TDistance>(GraphScratch scratch, int slot, int layer)
+        where TDistance : struct, IGraphDistance
+    {
+        Span<int> chosen = scratch.PruneChosen;
+        int kept = ChooseAgain<TDistance>(scratch, slot, layer, chosen);
+        SetList(slot, layer, chosen[..kept]);
+    }
+
+    // The new list of `slot` on `layer`, written to `chosen` (room for the layer's limit); returns its length.
+    // Candidates: its live links; for each removed link, that node's live links; and when that leaves fewer candidates
+    // than the limit (many removed at once), the live links of removed nodes one hop further. Reads the graph only.
+    private int ChooseAgain<TDistance>(GraphScratch scratch, int slot, int layer, Span<int> chosen)
         where TDistance : struct, IGraphDistance
     {
         Span<int> block = _links.Block(slot, layer);
@@ -406,9 +524,7 @@ public sealed partial class GraphIndex
         Span<float> keys = scratch.RepairKeys.AsSpan(0, n);
         Span<int> slots = scratch.RepairSlots.AsSpan(0, n);
         keys.Sort(slots);
-        Span<int> chosen = scratch.PruneChosen;
-        int kept = SelectNeighbours<TDistance>(scratch, keys[..considered], slots[..considered], limit, chosen);
-        SetList(slot, layer, chosen[..kept]);
+        return SelectNeighbours<TDistance>(scratch, keys[..considered], slots[..considered], limit, chosen);
     }
 
     // Adds the live links of removed node `via` (hops 1), or of the removed nodes it links to (hops 2).
@@ -498,6 +614,17 @@ public sealed partial class GraphIndex
                 Volatile.Write(ref _entry, Pack(slot, top));
                 return;
             }
+        }
+    }
+
+    /// <summary>Runs the stepped repair of removed slots with the index's distance.</summary>
+    private readonly struct SteppedRepairAction(GraphIndex index, int[] removed) : IGraphAction<bool>
+    {
+        public bool Run<TDistance>()
+            where TDistance : struct, IGraphDistance
+        {
+            index.RepairAfterRemovalInSteps<TDistance>(removed);
+            return true;
         }
     }
 }

@@ -116,7 +116,11 @@ public sealed partial class GraphIndex
     }
 
     /// <inheritdoc/>
-    private protected override void AfterWrite() => RunDueFullPass();
+    private protected override void AfterWrite()
+    {
+        RunPendingRepairs();
+        RunDueFullPass();
+    }
 
     // Attaches every noted node that is live, not the entry point and without a bottom-layer in-link. Attaching can
     // take a link from a full list and orphan another node, which is noted and handled in the next round; returns

@@ -62,6 +62,10 @@ public sealed partial class GraphIndex : VectorIndex
     private const int PassRelinkStep = 16;
     private const int PassAttachStep = 2;
 
+    // Lists a removal's repair writes per hold of the write lock; they are chosen before it is taken, so a hold costs
+    // only the copies.
+    private const int RemovalRelinkStep = 64;
+
     // Bounds of the walk that finds the lists naming a removed node (see FindInLinks).
     private const int InLinkSearchHops = 3;
     private const int InLinkSearchNodes = 4096;
@@ -100,6 +104,9 @@ public sealed partial class GraphIndex : VectorIndex
     private long _fullPasses;
     private long _incompleteRemovals;
     private readonly List<int> _waypoints = [];
+
+    // Slots retired by removals whose repair has not run yet (RunPendingRepairs); locked on itself.
+    private readonly List<int> _pendingRepairs = [];
 
     // The entry point and the top level, packed (level << 32 | slot) so a reader gets a consistent pair; slot -1 when empty.
     private long _entry = -1L & 0xFFFFFFFFL;
