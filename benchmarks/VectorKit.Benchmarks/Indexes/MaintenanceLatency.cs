@@ -1,4 +1,5 @@
 using System.Diagnostics;
+using System.Diagnostics.Tracing;
 using System.Globalization;
 using VectorKit.Distance;
 using VectorKit.Indexes;
@@ -31,7 +32,10 @@ public static class MaintenanceLatency
     private const int SearchesPerWrite = 100;
     private const int BatchQueries = 2_000;
 
-    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc, Waits Waits);
+    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc, Waits Waits, DateTime StartUtc, DateTime EndUtc, List<SleptSearch> Slept);
+
+    /// <summary>A search during which the searching thread slept: when it started and how long it took.</summary>
+    private readonly record struct SleptSearch(DateTime StartUtc, double Ms);
 
     /// <summary>
     /// Searches split by what the thread's context-switch counts say happened during them (Linux, per thread): a search
@@ -65,10 +69,14 @@ public static class MaintenanceLatency
         float[] queries = all.AsSpan(count * d, QueryCount * d).ToArray();
         all = [];
         var phases = new List<Phase>();
+        using var suspensions = new RuntimeSuspensions();
         foreach (string kind in kinds)
         {
             RunKind(kind, data, queries, count, d, baselineSeconds, phases);
         }
+
+        // The runtime's events arrive with a delay; the last phase's need a moment.
+        Thread.Sleep(TimeSpan.FromSeconds(2));
 
         Console.WriteLine();
         Console.WriteLine("| index | phase | runs | phase s | searches | p50 ms | p99 ms | p99.9 ms | max ms | max / no-write p99 | max / no-write max | writes | slowest write ms | collections (gen 0/1/2) | GC pauses, total ms | bytes / search | slept: searches, max ms | pre-empted only: searches, max ms | neither: max ms |");
@@ -78,6 +86,24 @@ public static class MaintenanceLatency
             LatencySummary baseline = phases.First(b => b.Kind == p.Kind).Searches;
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
                 $"| {p.Kind} | {p.Name} | {p.Runs} | {p.Seconds:F1} | {p.Searches.Count:N0} | {p.Searches.P50:F2} | {p.Searches.P99:F2} | {p.Searches.P999:F2} | {p.Searches.Max:F2} | {p.Searches.Max / baseline.P99:F1} | {p.Searches.Max / baseline.Max:F2} | {p.Writes:N0} | {(p.Writes > 0 ? p.SlowestWriteMs.ToString("F1", CultureInfo.InvariantCulture) : "–")} | {p.Gc.Gen0}/{p.Gc.Gen1}/{p.Gc.Gen2} | {p.Gc.PauseMs:F0} | {p.Gc.SearchBytes:F0} | {p.Waits.Slept:N0}, {p.Waits.SleptMaxMs:F2} | {p.Waits.Preempted:N0}, {p.Waits.PreemptedMaxMs:F2} | {p.Waits.NeitherMaxMs:F2} |"));
+        }
+
+        Console.WriteLine();
+        Console.WriteLine("Runtime suspensions (every thread stopped: a collection's, or another reason) and the searches that slept for longer than 5× the no-write p99:");
+        Console.WriteLine();
+        Console.WriteLine("| index | phase | suspensions | longest suspension ms | of it: generation, reason, type | slept searches > 5× no-write p99 | of them overlapping a suspension | their longest ms | the rest's longest ms |");
+        Console.WriteLine("|---|---|---:|---:|---|---:|---:|---:|---:|");
+        List<RuntimeSuspensions.Suspension> recorded = suspensions.Snapshot();
+        foreach (Phase p in phases)
+        {
+            double bound = 5 * phases.First(b => b.Kind == p.Kind).Searches.P99;
+            List<RuntimeSuspensions.Suspension> during = recorded.Where(x => x.StartUtc < p.EndUtc && x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) > p.StartUtc).ToList();
+            RuntimeSuspensions.Suspension? longest = during.Count == 0 ? null : during.MaxBy(x => x.Ms);
+            List<SleptSearch> slow = p.Slept.Where(x => x.Ms > bound).ToList();
+            List<SleptSearch> overlapping = slow.Where(x => during.Any(y => y.StartUtc < x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) && y.StartUtc + TimeSpan.FromMilliseconds(y.Ms) > x.StartUtc)).ToList();
+            double rest = slow.Except(overlapping).Select(x => x.Ms).DefaultIfEmpty(0).Max();
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+                $"| {p.Kind} | {p.Name} | {during.Count} | {(longest is { } l ? l.Ms.ToString("F1", CultureInfo.InvariantCulture) : "–")} | {(longest is { } m ? m.Describe() : "–")} | {slow.Count} | {overlapping.Count} | {overlapping.Select(x => x.Ms).DefaultIfEmpty(0).Max():F1} | {rest:F1} |"));
         }
 
         Console.WriteLine();
@@ -146,13 +172,79 @@ public static class MaintenanceLatency
         phases.Add(batchPhase with { Extra = batchMs });
     }
 
+    /// <summary>
+    /// Every suspension of the runtime (all managed threads stopped) from its own events: start, length, and for a
+    /// collection its generation, reason and type, so a slow search can be matched with a pause or cleared of one.
+    /// </summary>
+    private sealed class RuntimeSuspensions : EventListener
+    {
+        // Event ids of the runtime's provider (GC keyword 0x1): GCStart_V2, GCRestartEEEnd, GCSuspendEEBegin.
+        private const int GcStart = 1;
+        private const int RestartEnd = 3;
+        private const int SuspendBegin = 9;
+        private static readonly string[] Reasons = ["small allocation", "induced", "low memory", "empty", "large allocation", "out of small-object space", "out of large-object space", "induced, not forced", "internal", "induced, low memory", "induced, compacting", "low memory (host)", "full blocking (provisioned)", "low memory (host), blocking"];
+        private static readonly string[] Types = ["blocking", "background", "foreground during background"];
+        private readonly object _sync = new();
+        private readonly List<Suspension> _done = [];
+        private DateTime _start;
+        private int _generation = -1, _reason, _type;
+
+        public readonly record struct Suspension(DateTime StartUtc, double Ms, int Generation, int Reason, int Type)
+        {
+            public string Describe() => Generation < 0
+                ? "not a collection"
+                : $"gen {Generation}, {(Reason < Reasons.Length ? Reasons[Reason] : Reason.ToString(CultureInfo.InvariantCulture))}, {(Type < Types.Length ? Types[Type] : Type.ToString(CultureInfo.InvariantCulture))}";
+        }
+
+        public List<Suspension> Snapshot()
+        {
+            lock (_sync)
+            {
+                return [.. _done];
+            }
+        }
+
+        protected override void OnEventSourceCreated(EventSource eventSource)
+        {
+            if (eventSource.Name == "Microsoft-Windows-DotNETRuntime")
+            {
+                EnableEvents(eventSource, EventLevel.Informational, (EventKeywords)0x1);
+            }
+        }
+
+        protected override void OnEventWritten(EventWrittenEventArgs e)
+        {
+            lock (_sync)
+            {
+                switch (e.EventId)
+                {
+                    case SuspendBegin:
+                        _start = e.TimeStamp.ToUniversalTime();
+                        _generation = -1;
+                        break;
+                    case GcStart when e.Payload is { Count: >= 4 }:
+                        _generation = Convert.ToInt32(e.Payload[1], CultureInfo.InvariantCulture);
+                        _reason = Convert.ToInt32(e.Payload[2], CultureInfo.InvariantCulture);
+                        _type = Convert.ToInt32(e.Payload[3], CultureInfo.InvariantCulture);
+                        break;
+                    case RestartEnd when _start != default:
+                        DateTime end = e.TimeStamp.ToUniversalTime();
+                        _done.Add(new Suspension(_start, (end - _start).TotalMilliseconds, _generation, _reason, _type));
+                        _start = default;
+                        break;
+                }
+            }
+        }
+    }
+
     // One phase: the searcher runs while `maintenance` runs, again and again until `seconds` have passed (at least
     // once), the writer beside it when given.
     private static Phase Measure(string kind, string name, VectorIndex index, float[] queries, int d, double seconds, SteadyWriter? writer, Action maintenance)
     {
         var watch = Stopwatch.StartNew();
+        DateTime startUtc = DateTime.UtcNow;
         int runs = 0;
-        (LatencySummary summary, int writes, double slowest, Collections gc, Waits waits) = Measure(index, queries, d, null, writer, () =>
+        (LatencySummary summary, int writes, double slowest, Collections gc, Waits waits, List<SleptSearch> slept) = Measure(index, queries, d, null, writer, () =>
         {
             do
             {
@@ -161,15 +253,16 @@ public static class MaintenanceLatency
             }
             while (watch.Elapsed.TotalSeconds < seconds);
         });
-        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc, waits);
+        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc, waits, startUtc, DateTime.UtcNow, slept);
         Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}, {name}: {phase.Seconds:F1} s, {summary.Count:N0} searches, p99 {summary.P99:F2} ms, max {summary.Max:F2} ms, {writes} writes (slowest {slowest:F1} ms), collections {gc.Gen0}/{gc.Gen1}/{gc.Gen2}, GC pauses {gc.PauseMs:F0} ms in all; slept {waits.Slept} (max {waits.SleptMaxMs:F2} ms), pre-empted only {waits.Preempted} (max {waits.PreemptedMaxMs:F2} ms), neither max {waits.NeitherMaxMs:F2} ms"));
         return phase;
     }
 
-    private static (LatencySummary Summary, int Writes, double SlowestWriteMs, Collections Gc, Waits Waits) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
+    private static (LatencySummary Summary, int Writes, double SlowestWriteMs, Collections Gc, Waits Waits, List<SleptSearch> Slept) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
     {
         // Room for every sample up front: growing the list mid-phase would allocate (and collect) beside the searches.
         var latencies = new List<double>(1 << 22);
+        var slept = new List<SleptSearch>(1 << 16);
         int searches = 0;
         long searchBytes = 0;
         var waits = default(Waits);
@@ -186,6 +279,7 @@ public static class MaintenanceLatency
             while (!Volatile.Read(ref stop))
             {
                 ThreadSwitches before = ThreadSwitches.Read();
+                DateTime startUtc = DateTime.UtcNow;
                 long start = Stopwatch.GetTimestamp();
                 index.Search(queries.AsSpan(q * d, d), hits);
                 double ms = Stopwatch.GetElapsedTime(start).TotalMilliseconds;
@@ -194,6 +288,10 @@ public static class MaintenanceLatency
                 if (after.Voluntary > before.Voluntary)
                 {
                     waits = waits with { Slept = waits.Slept + 1, SleptMaxMs = Math.Max(waits.SleptMaxMs, ms) };
+                    if (slept.Count < slept.Capacity)
+                    {
+                        slept.Add(new SleptSearch(startUtc, ms));
+                    }
                 }
                 else if (after.Involuntary > before.Involuntary)
                 {
@@ -226,7 +324,7 @@ public static class MaintenanceLatency
         searcher.Join();
         writer?.Join();
         Collections gc = Collections.Since(gen0, gen1, gen2, pause, searchBytes, searches);
-        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc, waits);
+        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc, waits, slept);
     }
 
     /// <summary>One write per <see cref="SearchesPerWrite"/> searches: removes a random live item, then adds a new one, in turn.</summary>
