@@ -32,9 +32,9 @@ public static class MaintenanceLatency
     private const int SearchesPerWrite = 100;
     private const int BatchQueries = 2_000;
 
-    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc, Waits Waits, DateTime StartUtc, DateTime EndUtc, List<SleptSearch> Slept);
+    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc, Waits Waits, DateTime StartUtc, DateTime EndUtc, List<SleptSearch> Slept, List<SleptSearch> WriteTimes);
 
-    /// <summary>A search during which the searching thread slept: when it started and how long it took.</summary>
+    /// <summary>A search during which the searching thread slept (or a write): when it started and how long it took.</summary>
     private readonly record struct SleptSearch(DateTime StartUtc, double Ms);
 
     /// <summary>
@@ -91,8 +91,8 @@ public static class MaintenanceLatency
         Console.WriteLine();
         Console.WriteLine("Runtime suspensions (every thread stopped: a collection's, or another reason) and the searches that slept for longer than 5× the no-write p99:");
         Console.WriteLine();
-        Console.WriteLine("| index | phase | suspensions | longest suspension ms | of it: generation, reason, type | slept searches > 5× no-write p99 | of them overlapping a suspension | their longest ms | the rest's longest ms |");
-        Console.WriteLine("|---|---|---:|---:|---|---:|---:|---:|---:|");
+        Console.WriteLine("| index | phase | suspensions | longest suspension ms | of it: generation, reason, type | slept searches > 5× no-write p99 | of them overlapping a suspension | their longest ms | the rest overlapping a write | their longest ms | the rest's longest ms |");
+        Console.WriteLine("|---|---|---:|---:|---|---:|---:|---:|---:|---:|---:|");
         List<RuntimeSuspensions.Suspension> recorded = suspensions.Snapshot();
         foreach (Phase p in phases)
         {
@@ -101,9 +101,11 @@ public static class MaintenanceLatency
             RuntimeSuspensions.Suspension? longest = during.Count == 0 ? null : during.MaxBy(x => x.Ms);
             List<SleptSearch> slow = p.Slept.Where(x => x.Ms > bound).ToList();
             List<SleptSearch> overlapping = slow.Where(x => during.Any(y => y.StartUtc < x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) && y.StartUtc + TimeSpan.FromMilliseconds(y.Ms) > x.StartUtc)).ToList();
-            double rest = slow.Except(overlapping).Select(x => x.Ms).DefaultIfEmpty(0).Max();
+            List<SleptSearch> rest = slow.Except(overlapping).ToList();
+            List<SleptSearch> writing = rest.Where(x => p.WriteTimes.Any(w => w.StartUtc < x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) && w.StartUtc + TimeSpan.FromMilliseconds(w.Ms) > x.StartUtc)).ToList();
+            double others = rest.Except(writing).Select(x => x.Ms).DefaultIfEmpty(0).Max();
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                $"| {p.Kind} | {p.Name} | {during.Count} | {(longest is { } l ? l.Ms.ToString("F1", CultureInfo.InvariantCulture) : "–")} | {(longest is { } m ? m.Describe() : "–")} | {slow.Count} | {overlapping.Count} | {overlapping.Select(x => x.Ms).DefaultIfEmpty(0).Max():F1} | {rest:F1} |"));
+                $"| {p.Kind} | {p.Name} | {during.Count} | {(longest is { } l ? l.Ms.ToString("F1", CultureInfo.InvariantCulture) : "–")} | {(longest is { } m ? m.Describe() : "–")} | {slow.Count} | {overlapping.Count} | {overlapping.Select(x => x.Ms).DefaultIfEmpty(0).Max():F1} | {writing.Count} | {writing.Select(x => x.Ms).DefaultIfEmpty(0).Max():F1} | {others:F1} |"));
         }
 
         Console.WriteLine();
@@ -253,7 +255,7 @@ public static class MaintenanceLatency
             }
             while (watch.Elapsed.TotalSeconds < seconds);
         });
-        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc, waits, startUtc, DateTime.UtcNow, slept);
+        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc, waits, startUtc, DateTime.UtcNow, slept, writer is null ? [] : [.. writer.Times]);
         Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}, {name}: {phase.Seconds:F1} s, {summary.Count:N0} searches, p99 {summary.P99:F2} ms, max {summary.Max:F2} ms, {writes} writes (slowest {slowest:F1} ms), collections {gc.Gen0}/{gc.Gen1}/{gc.Gen2}, GC pauses {gc.PauseMs:F0} ms in all; slept {waits.Slept} (max {waits.SleptMaxMs:F2} ms), pre-empted only {waits.Preempted} (max {waits.PreemptedMaxMs:F2} ms), neither max {waits.NeitherMaxMs:F2} ms"));
         return phase;
     }
@@ -339,10 +341,14 @@ public static class MaintenanceLatency
 
         public double SlowestMs { get; private set; }
 
+        /// <summary>When each write of the phase started and how long it took.</summary>
+        public List<SleptSearch> Times { get; } = new(1 << 16);
+
         public void Reset()
         {
             Count = 0;
             SlowestMs = 0;
+            Times.Clear();
         }
 
         public void Run(Func<int> searches, Func<bool> stop)
@@ -356,6 +362,7 @@ public static class MaintenanceLatency
                     continue;
                 }
 
+                DateTime beginUtc = DateTime.UtcNow;
                 long begin = Stopwatch.GetTimestamp();
                 if ((_done++ & 1) == 0)
                 {
@@ -372,7 +379,13 @@ public static class MaintenanceLatency
                     _live.Add(id);
                 }
 
-                SlowestMs = Math.Max(SlowestMs, Stopwatch.GetElapsedTime(begin).TotalMilliseconds);
+                double ms = Stopwatch.GetElapsedTime(begin).TotalMilliseconds;
+                SlowestMs = Math.Max(SlowestMs, ms);
+                if (Times.Count < Times.Capacity)
+                {
+                    Times.Add(new SleptSearch(beginUtc, ms));
+                }
+
                 Count++;
             }
         }

@@ -36,8 +36,8 @@ internal static unsafe class BatchSearch
 
     /// <summary>
     /// Runs <paramref name="search"/> for every query, blocks of <paramref name="blockSize"/> queries in parallel, each
-    /// query under the read lock: a writer that arrives waits for one query per worker, and single searches that queue
-    /// behind it (the lock lets a waiting writer go first) wait no longer than that.
+    /// query under the read lock: a writer that arrives waits for one query per worker, before it queues for the lock
+    /// (see IndexLock), so single searches do not wait behind it for batch queries.
     /// </summary>
     public static void RunQueries<TScratch>(
         VectorIndex index,

@@ -14,7 +14,8 @@ namespace VectorKit.Indexes;
 /// index's write lock, so a search sees each write entirely or not at all (each kind documents any step it runs beside
 /// searches). A batch search takes the read lock once per query (per tile of queries on the exact index's float32 path), not for its whole run: each query sees one
 /// consistent state of the index, but different queries of one batch may see different states when a write lands
-/// between them, and a writer waits for at most the queries or tiles in flight. Saving and the long read-only phases of
+/// between them, and a writer waits for at most the queries or tiles in flight, before it queues for the lock, so single
+/// searches do not wait behind it for batch queries. Saving and the long read-only phases of
 /// maintenance (a compaction's copy, the graph's global reachability pass) hold only the writer gate: searches run
 /// beside them, writes wait for them. The graph's compaction rebuilds beside writes as well (see its documentation).</para>
 /// <para><b>Disposal.</b> After <see cref="Dispose"/>, every member but <see cref="Dimension"/>, <see cref="Metric"/>,
@@ -27,7 +28,8 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     // Queries of a batch handed to one worker at a time, unless a kind batches otherwise.
     private protected const int QueryBlock = 16;
 
-    private protected readonly ReaderWriterLockSlim _lock = new(LockRecursionPolicy.NoRecursion);
+    // Batch queries take it through EnterSearchBlock, as readers that give way to arriving writers (see IndexLock).
+    private protected readonly IndexLock _lock = new();
 
     // Taken before _lock, never after it. Every write passes it shared (writers still exclude one another through
     // _lock as before); a save and the long read-only phases of maintenance hold it exclusively, so the state they read
@@ -390,7 +392,8 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     /// <remarks>
     /// Blocks of queries run in parallel; each query takes the read lock on its own (the exact index's float32 path,
     /// which scores a tile of queries together, takes it per tile), released in between: a write waits for at most the
-    /// queries or tiles in flight, never for the whole batch. Each query therefore sees one consistent state of the
+    /// queries or tiles in flight, never for the whole batch, and no new one starts while it waits; single searches do
+    /// not queue behind a write that waits for batch queries. Each query therefore sees one consistent state of the
     /// index, but two queries of one batch may see different states when a write lands between them (k is capped at
     /// the item count when the batch starts). <paramref name="progress"/> is called outside the lock.
     /// </remarks>
@@ -474,16 +477,16 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         => BatchSearch.RunQueries(this, queries, Dimension, results, QueryBlock, options, progress, cancellationToken, static () => 0, (q, slots, _) => SearchLocked(q, slots, options));
 
     /// <summary>Enters the read lock for one block of a batch search; throws when the index was disposed meanwhile.</summary>
-    internal LockScopes.ReadScope EnterSearchBlock()
+    internal IndexLock.BatchReadScope EnterSearchBlock()
     {
-        _lock.EnterReadLock();
+        _lock.EnterBatchReadLock();
         if (_disposed)
         {
-            _lock.ExitReadLock();
+            _lock.ExitBatchReadLock();
             ThrowHelper.ThrowObjectDisposed(this);
         }
 
-        return new LockScopes.ReadScope(_lock);
+        return new IndexLock.BatchReadScope(_lock);
     }
 
     /// <summary>

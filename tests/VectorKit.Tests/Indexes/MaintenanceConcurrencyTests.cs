@@ -82,6 +82,52 @@ public sealed class MaintenanceConcurrencyTests
 
     [Theory]
     [MemberData(nameof(Kinds))]
+    public void ASearch_DoesNotQueueBehindAWrite_ThatWaitsForABatchQuery(string kind)
+    {
+        const int n = 1500, d = 16;
+        float[] data = ContractData.Rows(n, d, seed: 13);
+        using VectorIndex index = Create(kind, d, data);
+
+        // The batch's filter parks its first call, inside a query that holds the read lock.
+        using var parked = new ManualResetEventSlim();
+        using var release = new ManualResetEventSlim();
+        int calls = 0;
+        bool parkTimedOut = false;
+        var options = new SearchOptions
+        {
+            MaxDegreeOfParallelism = 1,
+            Filter = id =>
+            {
+                if (Interlocked.Increment(ref calls) == 1)
+                {
+                    parked.Set();
+                    parkTimedOut = !release.Wait(Guard);
+                }
+
+                return true;
+            },
+        };
+        var batch = new Background(() => index.SearchBatch(data.AsSpan(0, 4 * d), 3, options));
+        Assert.True(parked.Wait(Guard), "the batch never called its filter");
+
+        // A write arrives and waits for the batch query; a search must not queue behind it.
+        var writer = new Background(() => index.Remove(n - 1));
+        Assert.True(SpinWait.SpinUntil(() => index.WaitingWriters > 0 || writer.IsCompleted, Guard));
+        Assert.False(writer.IsCompleted, "the write ran while a batch query held the read lock");
+        var search = new Background(() => index.Search(data.AsSpan(5 * d, d), 3, new SearchOptions { SearchWidth = 64 }));
+        bool searched = search.Finishes();
+        release.Set();
+        var results = batch.Result<BatchSearchResults>();
+        writer.Result<object>();
+        Assert.True(searched, "the search queued behind a write that waited for a batch query");
+        Assert.False(parkTimedOut);
+        Assert.Equal(5, search.Result<SearchHit[]>()[0].Id);
+        Assert.False(index.Contains(n - 1));
+        Assert.Equal(0, results[0][0].Id);
+    }
+
+    [Theory]
+    [MemberData(nameof(Kinds))]
     public void ASearch_Completes_WhileASaveIsParked_WithAWriteQueuedBehindIt(string kind)
     {
         // Over 1 MiB of rows, so the save reaches its stream while it still reads the index (smaller writes are gathered).

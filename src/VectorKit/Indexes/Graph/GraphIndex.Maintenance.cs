@@ -140,11 +140,17 @@ public sealed partial class GraphIndex
             {
                 ThrowIfDisposed();
                 ChangeLog.Replay(log.Take(), rebuilt);
+                (VectorBuffer? oldVectors, CodeBuffer? oldCodes) = (_vectors, _codes);
                 using (_lock.EnterWrite())
                 {
                     AdoptGraphOf(rebuilt);
                     _changeLog = null;
                 }
+
+                // Freed after the swap, outside the write lock: returning a large block to the system takes a while,
+                // and no search can still read it (every search that could started before the swap and ended before it).
+                oldVectors?.Dispose();
+                oldCodes?.Dispose();
             }
         }
         catch
@@ -157,11 +163,9 @@ public sealed partial class GraphIndex
     }
 
     // Caller holds the write lock; `rebuilt` is private to the caller and is dropped afterwards without being disposed,
-    // its storage now belonging to this index.
+    // its storage now belonging to this index. The caller frees the old storage once the lock is released.
     private void AdoptGraphOf(GraphIndex rebuilt)
     {
-        _vectors?.Dispose();
-        _codes?.Dispose();
         _vectors = rebuilt._vectors;
         _codes = rebuilt._codes;
         _links = rebuilt._links;

@@ -1,3 +1,5 @@
+using VectorKit.Internal;
+
 namespace VectorKit.Indexes.Graph;
 
 /// <summary>
@@ -240,7 +242,7 @@ public sealed partial class GraphIndex
     /// The write lock taken for a bounded number of changes at a time, for a pass that holds the writer gate: entered
     /// before a change, released after <c>limit</c> of them or on <see cref="Leave"/>, so searches run in between.
     /// </summary>
-    private struct WriteSteps(ReaderWriterLockSlim rwLock, int limit, Action? hook)
+    private struct WriteSteps(IndexLock rwLock, int limit, Action? hook)
     {
         private int _done;
 

@@ -25,8 +25,10 @@ namespace VectorKit.Indexes.Graph;
 /// few items pass for a walk to pay off (<see cref="GraphIndexOptions.FilteredExactScanFraction"/>), the passing items
 /// are scanned exactly instead.</para>
 /// <para><b>Writes.</b> <see cref="VectorIndex.AddRange"/> links new items in parallel while searches proceed; a
-/// cancelled batch is taken out again. A removed item is never returned, and the lists that linked to it are repaired
-/// at once, at a cost that does not grow with the index; its space is released by <see cref="Compact"/>. Every live item is kept reachable from the entry point: a
+/// cancelled batch is taken out again. A removed item is never returned from the moment it is hidden (a short exclusive
+/// step), and the lists that linked to it are repaired before the removal returns, at a cost that does not grow with
+/// the index: they are chosen again beside searches and written a few dozen at a time, so searches wait for a few list
+/// copies at most, while other writes wait for the whole repair. Its space is released by <see cref="Compact"/>. Every live item is kept reachable from the entry point: a
 /// node cut off by pruning is re-linked at once, and a full reachability pass runs after enough changes. That pass runs
 /// at the end of the write that made it due, after the write itself is visible: its traversals run beside searches and
 /// its changes are made a few lists at a time, so searches wait for a few list repairs at most; other writes wait for
@@ -34,9 +36,9 @@ namespace VectorKit.Indexes.Graph;
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other, with the
 /// linking phase of adds, with the rebuild of <see cref="Compact"/> (they see the old graph until the swap), with
 /// saving and with the traversals of the global pass; they may or may not see an item being linked. Writes run beside
-/// the rebuild of <see cref="Compact"/> too, which replays them before its swap. Removal, replacement,
-/// <see cref="VectorIndex.Dispose"/>, the swap of a compaction, the steps of the global pass and the short store and
-/// repair steps of an add are exclusive.</para>
+/// the rebuild of <see cref="Compact"/> too, which replays them before its swap. Replacement,
+/// <see cref="VectorIndex.Dispose"/>, the swap of a compaction, the hiding and repair steps of a removal, the steps of
+/// the global pass and the short store and repair steps of an add are exclusive.</para>
 /// <para>See docs/choosing-an-index.md, docs/live-updates.md and docs/filters.md in the repository for when to use
 /// this index, how updates behave, and how filters are evaluated.</para>
 /// </remarks>
