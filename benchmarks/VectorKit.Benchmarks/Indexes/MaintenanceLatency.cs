@@ -19,7 +19,9 @@ namespace VectorKit.Benchmarks.Indexes;
 /// reports p50 / p99 / p99.9 / max search latency and the max over the p99 of the same index measured with no writes
 /// at the start of the same run. Each maintenance step is repeated until the phase has lasted the given seconds. The
 /// batch phase also reports the slowest write against the slowest batch (a write that waited for a whole batch would
-/// take about as long as the batch).
+/// take about as long as the batch). A second table lists the runtime's suspensions per phase (from its own events:
+/// length, and for a collection its generation, reason and type) and matches every search that slept for longer than
+/// 5× the no-write p99 against them and against the writes of the phase, to tell a collection's pause from a lock wait.
 /// </summary>
 /// <remarks>
 /// The graph's amortised pass is turned off during the write phases and run on its own phase, so the pass is measured
