@@ -116,7 +116,7 @@ internal static class FuzzTargets
             {
                 try
                 {
-                    using Indexes.Exact.ExactIndex index = IndexFile.OpenMapped(path, options);
+                    using Indexes.Exact.ExactIndex index = IndexFile.OpenMapped<Indexes.Exact.ExactIndex>(path, options);
                     ExerciseMapped(index);
                 }
                 catch (Exception e) when (e is IndexFileException or NotSupportedException || (e is InvalidDataException && !options.VerifyContents))

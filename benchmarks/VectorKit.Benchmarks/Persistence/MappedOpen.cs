@@ -9,7 +9,7 @@ using VectorKit.Tests.TestData;
 namespace VectorKit.Benchmarks.Persistence;
 
 /// <summary>
-/// A console harness comparing <see cref="IndexFile.OpenMapped"/> with <see cref="IndexFile.Load(string, IndexLoadOptions?, CancellationToken)"/>
+/// A console harness comparing <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/> with <see cref="IndexFile.Load(string, IndexLoadOptions?, CancellationToken)"/>
 /// on one exact index file (default 1,000,000 × 128, cached under BenchmarkDotNet.Artifacts/storage): time to open,
 /// time to the first query, single-thread queries/s after it, and the process's anonymous and file-backed resident
 /// memory. Cold rounds first drop the file's pages from the page cache with posix_fadvise(DONTNEED) (this file only:
@@ -36,7 +36,7 @@ public static class MappedOpen
         var serial = new SearchOptions { MaxDegreeOfParallelism = 1 };
 
         // Compile the paths once on the real file, and check that both give the same answers.
-        using (ExactIndex mapped = IndexFile.OpenMapped(path))
+        using (ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(path))
         using (ExactIndex loaded = IndexFile.Load<ExactIndex>(path))
         {
             for (int q = 0; q < Math.Min(queryCount, 20); q++)
@@ -88,7 +88,7 @@ public static class MappedOpen
         GC.WaitForPendingFinalizers();
         (long anon0, long file0) = Resident();
         var clock = Stopwatch.StartNew();
-        using ExactIndex index = mappedOpen ? IndexFile.OpenMapped(path) : IndexFile.Load<ExactIndex>(path);
+        using ExactIndex index = mappedOpen ? IndexFile.OpenMapped<ExactIndex>(path) : IndexFile.Load<ExactIndex>(path);
         double open = clock.Elapsed.TotalMilliseconds;
         var hits = new SearchHit[10];
         index.Search(queries.AsSpan(queryCount * dimension, dimension), hits, serial);

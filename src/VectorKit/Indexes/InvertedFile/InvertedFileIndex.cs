@@ -179,6 +179,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         bytes += (long)_rotatedCentroids.Length * sizeof(float);
         bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
         bytes += _slotOf.Bytes;
+        bytes += _mapped?.Bytes ?? 0;
         return bytes;
     }
 
@@ -231,6 +232,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             if (_count > 0)
             {
                 throw new InvalidOperationException($"The index holds {_count} vectors, whose codes depend on the current training; train before adding, or build a new index.");
@@ -295,19 +297,19 @@ public sealed partial class InvertedFileIndex : VectorIndex
     private protected override void CopyStoredLocked(int slot, Span<float> destination)
     {
         int d = Dimension;
-        int list = _listOf[slot];
+        (int list, int position) = Locate(slot);
         if (_fourBit is not null && _full is null)
         {
             using var scratch = ScratchRental<float>.Rent(d);
             Span<byte> packed = _codeBytes <= 512 ? stackalloc byte[_codeBytes] : new byte[_codeBytes];
-            FastScanKernel.Get(_listCodes[list], _codeBytes, _positionOf[slot], packed);
+            FastScanKernel.Get(ListCodes(list), _codeBytes, position, packed);
             _fourBit.Decode(packed, destination, scratch.Span);
 
             AddCentroid(list, destination);
             return;
         }
 
-        ReadOnlySpan<byte> code = _fourBit is not null ? default : _listCodes[list].AsSpan(_positionOf[slot] * _codeBytes, _codeBytes);
+        ReadOnlySpan<byte> code = _fourBit is not null ? default : ListCodes(list).Slice(position * _codeBytes, _codeBytes);
         if (_options.Encoding == VectorEncoding.Float32)
         {
             MemoryMarshal.Cast<byte, float>(code).CopyTo(destination);
@@ -381,6 +383,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         // without the write lock; only the swap takes that.
         using var gate = _writerGate.EnterWrite();
         ThrowIfDisposed();
+        ThrowIfReadOnly();
         cancellationToken.ThrowIfCancellationRequested();
         int lists = _listCounts.Length;
         int count = _count;
@@ -489,6 +492,10 @@ public sealed partial class InvertedFileIndex : VectorIndex
             _listSlots[l] = [];
             _listCounts[l] = 0;
         }
+
+        // After the buffers have forgotten the view.
+        _mapped = null;
+        _mapping?.Dispose();
     }
 
     // Adds (and with `replace`, replaces) a validated batch under the write lock. Cancellation is honoured only while
@@ -501,6 +508,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             ThrowIfNotTrained();
             if (!replace)
             {
