@@ -91,26 +91,26 @@ internal sealed partial class InvertedFileIndexCodec
         int lengthsAt = at[SectionId.ListLengths];
         int[] lengths = sections.CopySmall<int>(lengthsAt, lists, cancellationToken);
         int codesAt = at[packed ? SectionId.FastScanBlocks : SectionId.ListCodes];
+        // Every list start is a sum of lengths: they must be non-negative and add up to the count the sections hold.
+        long total = 0;
+        foreach (int length in lengths)
+        {
+            if (length < 0)
+            {
+                throw sections.Problem(lengthsAt, $"a list has length {length}");
+            }
+
+            total += length;
+        }
+
+        if (total != count)
+        {
+            throw sections.Problem(lengthsAt, $"the list lengths add up to {total}, but the header declares {count} vectors");
+        }
+
         if (packed)
         {
-            // The blocks' length follows from the lengths, which are checked first (a negative one, or a sum that is
-            // not the count, is refused whatever the blocks' length says).
-            long total = 0;
-            foreach (int length in lengths)
-            {
-                if (length < 0)
-                {
-                    throw sections.Problem(lengthsAt, $"a list has length {length}");
-                }
-
-                total += length;
-            }
-
-            if (total != count)
-            {
-                throw sections.Problem(lengthsAt, $"the list lengths add up to {total}, but the header declares {count} vectors");
-            }
-
+            // The blocks' length follows from the lengths.
             long bytes = FastScanBlockBytes(lengths, codeBytes);
             if (sections.Payloads[codesAt].Entry.Length != bytes)
             {
