@@ -32,7 +32,9 @@ namespace VectorKit.Indexes.InvertedFile;
 /// and removes are exclusive. A batch search holds the read lock one query at a time (see
 /// <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and saving run beside searches, and writes wait for them.</para>
 /// <para><b>Persistence.</b> <c>VectorKit.Persistence.IndexFile</c> saves and loads the index, trained or not; an
-/// external full-vector source is neither saved nor disposed: attach it again after loading.</para>
+/// external full-vector source is neither saved nor disposed: attach it again after loading. <c>IndexFile.OpenMapped</c>
+/// opens a saved file read-only in place instead (<see cref="IsMapped"/>): lists, ids and full vectors stay in the
+/// mapped file.</para>
 /// </remarks>
 public sealed partial class InvertedFileIndex : VectorIndex
 {
