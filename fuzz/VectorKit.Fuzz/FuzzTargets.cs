@@ -102,8 +102,8 @@ internal static class FuzzTargets
         return outcome;
     }
 
-    // Opens the input as a file mapped in place, verified (the untrusted preset) and unverified; an index that opens
-    // is read, searched, and (float32) written through a segmented index. Unverified, a damaged id order may be
+    // Opens the input as a file mapped in place (an exact index or an inverted file), verified (the untrusted preset)
+    // and unverified; an index that opens is read and searched. Unverified, a damaged id order may be
     // refused on use with InvalidDataException, as documented; nothing may read outside the mapping.
     private static FuzzOutcome Mapped(byte[] input)
     {
@@ -116,7 +116,7 @@ internal static class FuzzTargets
             {
                 try
                 {
-                    using Indexes.Exact.ExactIndex index = IndexFile.OpenMapped(path, options);
+                    using IVectorIndex index = IndexFile.OpenMapped(path, options);
                     ExerciseMapped(index);
                 }
                 catch (Exception e) when (e is IndexFileException or NotSupportedException || (e is InvalidDataException && !options.VerifyContents))
@@ -133,7 +133,7 @@ internal static class FuzzTargets
         return outcome;
     }
 
-    private static void ExerciseMapped(Indexes.Exact.ExactIndex index)
+    private static void ExerciseMapped(IVectorIndex index)
     {
         int d = index.Dimension;
         float[] query = new float[d];
@@ -147,7 +147,7 @@ internal static class FuzzTargets
         }
 
         index.Contains(long.MinValue + 17);
-        if (!index.IsTrained)
+        if (index is ITrainableIndex { IsTrained: false })
         {
             return;
         }
@@ -155,6 +155,12 @@ internal static class FuzzTargets
         var options = new SearchOptions { MaxDegreeOfParallelism = 1, RescoreDepth = index.Options.FullVectors == FullVectorLocation.ExternalSource ? 0 : null };
         index.Search(query, 5, options);
         index.SearchBatch([.. query, .. query], 3, options);
+
+        // An inverted file: every list probed too, so each list's codes and ids are read.
+        if (index is Indexes.InvertedFile.InvertedFileIndex lists)
+        {
+            index.Search(query, 5, new SearchOptions { MaxDegreeOfParallelism = 1, RescoreDepth = options.RescoreDepth, SearchWidth = lists.Options.ListCount });
+        }
     }
 
     // A loaded index must work: count, ids, vectors, plain/filtered/batch searches, an add and a removal.

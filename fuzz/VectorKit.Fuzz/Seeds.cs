@@ -34,7 +34,7 @@ internal static class Seeds
         {
             yield return ("index", name, file);
             yield return ("index-raw", name, file);
-            if (name.StartsWith("exact", StringComparison.Ordinal))
+            if (name.StartsWith("exact", StringComparison.Ordinal) || name.StartsWith("ivf", StringComparison.Ordinal))
             {
                 yield return ("index-mapped", name, file);
             }
@@ -95,8 +95,8 @@ internal static class Seeds
         yield return ("graph-scalar-full.vkx", Save(Trained(new GraphIndex(3, DistanceMetric.Cosine, Graph(VectorEncoding.Scalar8Bit, 4)), ids, data)));
         yield return ("graph-scalar-external.vkx", Save(Trained(new GraphIndex(3, DistanceMetric.Cosine, Graph(VectorEncoding.Scalar8Bit, 4, FullVectorLocation.ExternalSource)), ids, data)));
 
-        InvertedFileOptions Ivf(VectorEncoding encoding, int rescore = 0, FullVectorLocation location = FullVectorLocation.InIndexMemory, SubspaceRotation rotation = SubspaceRotation.None, int codeBytes = 2)
-            => new() { ListCount = 3, SearchWidth = 2, Encoding = encoding, ProductCodeBytes = codeBytes, ProductCodeRotation = rotation, RescoreDepth = rescore, MaxIterations = 2, Seed = 5, MaxDegreeOfParallelism = 1, FullVectors = location };
+        InvertedFileOptions Ivf(VectorEncoding encoding, int rescore = 0, FullVectorLocation location = FullVectorLocation.InIndexMemory, SubspaceRotation rotation = SubspaceRotation.None, int codeBytes = 2, ProductCodeLayout layout = ProductCodeLayout.BytePerSubspace)
+            => new() { ProductCodeLayout = layout, ListCount = 3, SearchWidth = 2, Encoding = encoding, ProductCodeBytes = codeBytes, ProductCodeRotation = rotation, RescoreDepth = rescore, MaxIterations = 2, Seed = 5, MaxDegreeOfParallelism = 1, FullVectors = location };
         float[] ivfData = Data(10, 2, 4);
         float[] productSample = Data(256, 2, 5);
         yield return ("ivf-float32.vkx", Save(Trained(new InvertedFileIndex(2, DistanceMetric.SquaredEuclidean, Ivf(VectorEncoding.Float32)), ids, ivfData)));
@@ -104,6 +104,7 @@ internal static class Seeds
         yield return ("ivf-scalar-external.vkx", Save(Trained(new InvertedFileIndex(2, DistanceMetric.SquaredEuclidean, Ivf(VectorEncoding.Scalar8Bit, 3, FullVectorLocation.ExternalSource)), ids, ivfData)));
         yield return ("ivf-product.vkx", Save(Trained(new InvertedFileIndex(2, DistanceMetric.InnerProduct, Ivf(VectorEncoding.ProductCodes, 2)), ids, ivfData, productSample)));
         yield return ("ivf-product-rotated.vkx", Save(Trained(new InvertedFileIndex(2, DistanceMetric.SquaredEuclidean, Ivf(VectorEncoding.ProductCodes, 0, rotation: SubspaceRotation.VarianceBalanced, codeBytes: 1)), ids, ivfData, productSample)));
+        yield return ("ivf-fast-scan.vkx", Save(Trained(new InvertedFileIndex(2, DistanceMetric.SquaredEuclidean, Ivf(VectorEncoding.ProductCodes, 3, codeBytes: 1, layout: ProductCodeLayout.FourBitFastScan)), ids, ivfData, productSample)));
         yield return ("ivf-untrained.vkx", Save(new InvertedFileIndex(2, DistanceMetric.InnerProduct, Ivf(VectorEncoding.Scalar8Bit, 2))));
     }
 

@@ -6,7 +6,7 @@ using VectorKit.Quantization;
 
 namespace VectorKit.Persistence;
 
-/// <summary>The exact index read in place from a mapped file (<see cref="IndexFile.OpenMapped"/>).</summary>
+/// <summary>The exact index read in place from a mapped file (<see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>).</summary>
 internal sealed partial class ExactIndexCodec
 {
     /// <summary>
@@ -47,54 +47,14 @@ internal sealed partial class ExactIndexCodec
             expected.Add((SectionId.Vectors, checked((long)n * d * sizeof(float))));
         }
 
-        var at = new Dictionary<SectionId, int>();
-        int next = 0;
-        for (int position = 0; position < sections.Payloads.Count; position++)
-        {
-            SectionEntry entry = sections.Payloads[position].Entry;
-            bool known = Enum.IsDefined(typeof(SectionId), entry.Id);
-            if (!known && (entry.Flags & FileLayout.SkippableFlag) != 0)
-            {
-                continue;
-            }
-
-            (SectionId id, long bytes) = next < expected.Count ? expected[next] : (SectionId.IdOrder, checked((long)n * sizeof(int)));
-            if (entry.Id != (uint)id || (next == expected.Count && at.ContainsKey(SectionId.IdOrder)))
-            {
-                throw IndexHeader.Malformed(next <= expected.Count && !at.ContainsKey(SectionId.IdOrder)
-                    ? $"section {position} is {FileLayout.SectionName(entry.Id)}; this index kind expects {FileLayout.SectionName((uint)id)} there"
-                    : $"section {FileLayout.SectionName(entry.Id)} is listed but this index kind does not use it");
-            }
-
-            if (entry.Length != bytes)
-            {
-                throw sections.Problem(position, $"its length is {entry.Length} bytes; the header's counts require {bytes}");
-            }
-
-            at[id] = position;
-            next++;
-        }
-
-        if (next < expected.Count)
-        {
-            throw IndexHeader.Malformed($"the section {FileLayout.SectionName((uint)expected[next].Id)} is missing from the section list");
-        }
-
-        if (verify)
-        {
-            foreach (int position in at.Values)
-            {
-                sections.VerifyChecksum(position, cancellationToken);
-            }
-        }
+        Dictionary<SectionId, int> at = sections.Match(expected, checked((long)n * sizeof(int)), verify, cancellationToken);
 
         float[]? ranges = null;
         if (codes && trained)
         {
             // Small: always checksummed, and copied (the quantizer derives its padded ranges from them).
             int position = at[SectionId.ScalarRanges];
-            sections.VerifyChecksum(position, cancellationToken);
-            ranges = new ReadOnlySpan<float>((void*)sections.Payload(position).Start, 2 * d).ToArray();
+            ranges = sections.CopySmall<float>(position, 2 * d, cancellationToken);
             if (FiniteCheck.IndexOfNonFinite(ranges) >= 0)
             {
                 throw sections.Problem(position, "it holds a non-finite range value");
@@ -104,10 +64,10 @@ internal sealed partial class ExactIndexCodec
         long* ids = (long*)sections.Payload(at[SectionId.Ids]).Start;
         if (verify && keepsFull)
         {
-            CheckFinite(sections, at[SectionId.Vectors], d, n, cancellationToken);
+            sections.CheckFiniteRows(at[SectionId.Vectors], d, n, cancellationToken);
         }
 
-        IdMap slotOf = MappedIdMap(sections, at, ids, n, verify);
+        IdMap slotOf = sections.IdMap(at, ids, n, verify);
         var idColumn = new IdColumn(0);
         var vectors = new VectorBuffer(d, 0);
         CodeBuffer? codeBuffer = codes ? new CodeBuffer(codeBytes, 0) : null;
@@ -125,58 +85,6 @@ internal sealed partial class ExactIndexCodec
         catch (InvalidDataException e)
         {
             throw new IndexFileException($"Index file holds an invalid exact index: {e.Message}.", "exact index", -1, e);
-        }
-    }
-
-    // The id lookup: binary search over the file's id order (format version 3), or, for older files, a table built
-    // from the mapped ids (the one part of such a file's opening that grows with the count).
-    private static unsafe IdMap MappedIdMap(MappedSections sections, Dictionary<SectionId, int> at, long* ids, int n, bool verify)
-    {
-        if (at.TryGetValue(SectionId.IdOrder, out int position))
-        {
-            var lookup = new SortedIdLookup(ids, (int*)sections.Payload(position).Start, n);
-            if (verify)
-            {
-                try
-                {
-                    lookup.Verify();
-                }
-                catch (InvalidDataException e)
-                {
-                    throw sections.Problem(position, e.Message);
-                }
-            }
-
-            return new IdMap(lookup);
-        }
-
-        var map = new IdMap(n);
-        for (int slot = 0; slot < n; slot++)
-        {
-            if (!map.TryAdd(ids[slot], slot))
-            {
-                throw sections.Problem(at[SectionId.Ids], $"id {ids[slot]} appears at rows {map[ids[slot]]} and {slot}; ids must be unique");
-            }
-        }
-
-        return map;
-    }
-
-    private static unsafe void CheckFinite(MappedSections sections, int position, int d, int n, CancellationToken cancellationToken)
-    {
-        float* rows = (float*)sections.Payload(position).Start;
-        int blockRows = Math.Max(1, BlockBytes / (d * sizeof(float)));
-        for (int start = 0; start < n; start += blockRows)
-        {
-            cancellationToken.ThrowIfCancellationRequested();
-            int count = Math.Min(blockRows, n - start);
-            var block = new ReadOnlySpan<float>(rows + ((long)start * d), count * d);
-            int bad = FiniteCheck.IndexOfNonFinite(block);
-            if (bad >= 0)
-            {
-                long element = ((long)start * d) + bad;
-                throw sections.Problem(position, $"it holds a non-finite vector component at row {element / d}, component {element % d}; stored vectors must be finite");
-            }
         }
     }
 }

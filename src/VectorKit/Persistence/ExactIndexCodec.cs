@@ -48,7 +48,7 @@ internal sealed partial class ExactIndexCodec : IndexCodec
             writer.BeginSection(SectionId.Vectors);
             FileBlocks.WriteRows(writer, vectors, count);
             writer.EndSection();
-            WriteIdOrder(writer, ids, count);
+            WriteIdOrder(writer, ids.Rows(count));
             writer.Finish();
             return 0;
         });
@@ -145,7 +145,7 @@ internal sealed partial class ExactIndexCodec : IndexCodec
             writer.EndSection();
         }
 
-        WriteIdOrder(writer, parts.Ids, count);
+        WriteIdOrder(writer, parts.Ids.Rows(count));
         writer.Finish();
         return 0;
     }
@@ -209,38 +209,6 @@ internal sealed partial class ExactIndexCodec : IndexCodec
         catch (InvalidDataException e)
         {
             throw new IndexFileException($"Index file holds an invalid 8-bit exact index: {e.Message}.", "exact index", -1, e);
-        }
-    }
-
-    /// <summary>Lists the <see cref="SectionId.IdOrder"/> section last (format version 3): rows ordered by ascending id.</summary>
-    private static void AddIdOrder(IndexHeader header, int count)
-        => header.Sections.Add(new SectionEntry((uint)SectionId.IdOrder, 0, checked((long)count * sizeof(int))));
-
-    // Rows by ascending id, so that a mapped file finds an id by binary search instead of hashing every id at open.
-    private static void WriteIdOrder(IndexFileWriter writer, IdColumn ids, int count)
-    {
-        long[] keys = ids.Rows(count).ToArray();
-        int[] order = new int[count];
-        for (int i = 0; i < count; i++)
-        {
-            order[i] = i;
-        }
-
-        Array.Sort(keys, order);
-        writer.BeginSection(SectionId.IdOrder);
-        writer.Write<int>(order);
-        writer.EndSection();
-    }
-
-    // A loaded (not mapped) index hashes its ids anyway: the order is read through its checksum and dropped.
-    private static void SkipIdOrder(IndexHeader header, IndexFileReader reader)
-    {
-        if (header.Sections.Exists(s => s.Id == (uint)SectionId.IdOrder))
-        {
-            reader.OpenSection(SectionId.IdOrder);
-            reader.ExpectPayload(checked(header.Rows * sizeof(int)));
-            reader.SkipRest();
-            reader.CloseSection();
         }
     }
 

@@ -45,4 +45,39 @@ internal abstract class IndexCodec
         => header.Integers.ContainsKey(FullVectorLocationField)
             ? (FullVectorLocation)header.Integer(FullVectorLocationField, (int)FullVectorLocation.InIndexMemory, (int)FullVectorLocation.ExternalSource)
             : FullVectorLocation.InIndexMemory;
+
+    /// <summary>
+    /// Lists the <see cref="SectionId.IdOrder"/> section last: rows by ascending id, so that a mapped file finds an id by
+    /// binary search instead of hashing every id at open (exact index from format version 3, inverted file from 4).
+    /// </summary>
+    protected static void AddIdOrder(IndexHeader header, int count)
+        => header.Sections.Add(new SectionEntry((uint)SectionId.IdOrder, 0, checked((long)count * sizeof(int))));
+
+    /// <summary>Writes the <see cref="SectionId.IdOrder"/> section of the rows' <paramref name="ids"/>.</summary>
+    protected static void WriteIdOrder(IndexFileWriter writer, ReadOnlySpan<long> ids)
+    {
+        long[] keys = ids.ToArray();
+        int[] order = new int[keys.Length];
+        for (int i = 0; i < order.Length; i++)
+        {
+            order[i] = i;
+        }
+
+        Array.Sort(keys, order);
+        writer.BeginSection(SectionId.IdOrder);
+        writer.Write<int>(order);
+        writer.EndSection();
+    }
+
+    /// <summary>A loaded (not mapped) index hashes its ids anyway: the order, when listed, is read through its checksum and dropped.</summary>
+    protected static void SkipIdOrder(IndexHeader header, IndexFileReader reader)
+    {
+        if (header.Sections.Exists(s => s.Id == (uint)SectionId.IdOrder))
+        {
+            reader.OpenSection(SectionId.IdOrder);
+            reader.ExpectPayload(checked(header.Rows * sizeof(int)));
+            reader.SkipRest();
+            reader.CloseSection();
+        }
+    }
 }

@@ -12,7 +12,7 @@ namespace VectorKit.Persistence;
 /// that in the field <c>full-vector-location</c> and stores no vectors. Entries are stored in list order; an untrained index stores empty
 /// centroid and quantizer sections and no entries.
 /// </summary>
-internal sealed class InvertedFileIndexCodec : IndexCodec
+internal sealed partial class InvertedFileIndexCodec : IndexCodec
 {
     private const string ListCount = "list-count";
     private const string SearchWidth = "lists-probed";
@@ -95,11 +95,15 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
 
             header.Sections.Add(new SectionEntry((uint)SectionId.ListLengths, 0, checked((long)parts.ListLengths.Length * sizeof(int))));
             header.Sections.Add(new SectionEntry((uint)SectionId.Ids, 0, checked((long)count * sizeof(long))));
-            header.Sections.Add(new SectionEntry((uint)SectionId.ListCodes, 0, checked((long)count * codeBytes)));
+            header.Sections.Add(fourBit
+                ? new SectionEntry((uint)SectionId.FastScanBlocks, 0, FastScanBlockBytes(parts.ListLengths, codeBytes))
+                : new SectionEntry((uint)SectionId.ListCodes, 0, checked((long)count * codeBytes)));
             if (parts.FullVectors is not null)
             {
                 header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, checked((long)count * d * sizeof(float))));
             }
+
+            AddIdOrder(header, count);
 
             writer.WriteHeader(header);
             writer.BeginSection(SectionId.Centroids);
@@ -130,13 +134,21 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             writer.BeginSection(SectionId.Ids);
             writer.Write<long>(parts.Ids);
             writer.EndSection();
-            writer.BeginSection(SectionId.ListCodes);
-            for (int list = 0; list < parts.ListLengths.Length; list++)
+            if (fourBit)
             {
-                writer.Write(parts.ListCodes[list].AsSpan(0, checked(parts.ListLengths[list] * codeBytes)));
+                WriteFastScanBlocks(writer, parts, codeBytes);
+            }
+            else
+            {
+                writer.BeginSection(SectionId.ListCodes);
+                for (int list = 0; list < parts.ListLengths.Length; list++)
+                {
+                    writer.Write(parts.ListCodes[list].AsSpan(0, checked(parts.ListLengths[list] * codeBytes)));
+                }
+
+                writer.EndSection();
             }
 
-            writer.EndSection();
             if (parts.FullVectors is VectorBuffer full)
             {
                 writer.BeginSection(SectionId.Vectors);
@@ -148,12 +160,14 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
                 writer.EndSection();
             }
 
+            WriteIdOrder(writer, parts.Ids);
             writer.Finish();
             return 0;
         });
     }
 
-    public override IVectorIndex Load(IndexHeader header, IndexFileReader reader)
+    /// <summary>The options, whether trained, and the code bytes per entry, from the header; checked against the dimension.</summary>
+    private static (InvertedFileOptions Options, bool Trained, int CodeBytes) ReadOptions(IndexHeader header)
     {
         if (header.Count != header.Rows)
         {
@@ -217,6 +231,18 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             VectorEncoding.ProductCodes => productCodeBytes,
             _ => ScalarQuantizer.PaddedLength(d),
         };
+        return (options, trained, codeBytes);
+    }
+
+    public override IVectorIndex Load(IndexHeader header, IndexFileReader reader)
+    {
+        (InvertedFileOptions options, bool trained, int codeBytes) = ReadOptions(header);
+        int d = header.Dimension;
+        int count = (int)header.Count;
+        int lists = options.ListCount;
+        VectorEncoding storage = options.Encoding;
+        SubspaceRotation rotation = options.ProductCodeRotation;
+        bool fourBit = options.UsesFastScan;
         bool keepsFull = options.KeepsFullVectorsInMemory;
 
         reader.OpenSection(SectionId.Centroids);
@@ -278,12 +304,15 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         reader.OpenSection(SectionId.Ids);
         long[] ids = reader.ReadArray<long>(count);
         reader.CloseSection();
-        reader.OpenSection(SectionId.ListCodes);
-        reader.ExpectPayload(checked((long)count * codeBytes));
+        // Fast-scan codes come as the search's blocks (format version 4) or one code after another (older files).
+        bool packed = fourBit && header.Sections.Exists(s => s.Id == (uint)SectionId.FastScanBlocks);
+        reader.OpenSection(packed ? SectionId.FastScanBlocks : SectionId.ListCodes);
+        reader.ExpectPayload(packed ? FastScanBlockBytes(lengths, codeBytes) : checked((long)count * codeBytes));
         var codes = new byte[lists][];
         for (int list = 0; list < lists; list++)
         {
-            codes[list] = lengths[list] == 0 ? [] : reader.ReadPart<byte>(checked(lengths[list] * codeBytes));
+            long bytes = packed ? FastScanKernel.ListBytes(lengths[list], codeBytes) : (long)lengths[list] * codeBytes;
+            codes[list] = lengths[list] == 0 ? [] : reader.ReadPart<byte>(checked((int)bytes));
         }
 
         reader.CloseSection();
@@ -304,6 +333,16 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             }
         }
 
+        try
+        {
+            SkipIdOrder(header, reader);
+        }
+        catch
+        {
+            full?.Dispose();
+            throw;
+        }
+
         var parts = new InvertedFileIndexParts
         {
             Dimension = d,
@@ -320,6 +359,7 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
             ListCodes = codes,
             Ids = ids,
             FullVectors = full,
+            ListCodesPacked = packed,
         };
         try
         {
@@ -329,5 +369,46 @@ internal sealed class InvertedFileIndexCodec : IndexCodec
         {
             throw new IndexFileException($"Index file holds an invalid inverted file: {e.Message}.", "inverted file", -1, e);
         }
+    }
+
+    /// <summary>Bytes of the <see cref="SectionId.FastScanBlocks"/> section: every list in whole blocks.</summary>
+    private static long FastScanBlockBytes(int[] lengths, int codeBytes)
+    {
+        long bytes = 0;
+        foreach (int length in lengths)
+        {
+            bytes = checked(bytes + FastScanKernel.ListBytes(length, codeBytes));
+        }
+
+        return bytes;
+    }
+
+    // Every list's blocks as the search reads them; the unused slots of a last partial block are written as zeros
+    // (in memory they may hold a removed entry's code), so the bytes depend on the entries only.
+    private static void WriteFastScanBlocks(IndexFileWriter writer, InvertedFileIndexParts parts, int codeBytes)
+    {
+        writer.BeginSection(SectionId.FastScanBlocks);
+        int blockBytes = FastScanKernel.BlockSize * codeBytes;
+        byte[] last = new byte[blockBytes];
+        for (int list = 0; list < parts.ListLengths.Length; list++)
+        {
+            int length = parts.ListLengths[list];
+            int whole = length / FastScanKernel.BlockSize;
+            byte[] blocks = parts.ListCodes[list];
+            writer.Write(blocks.AsSpan(0, whole * blockBytes));
+            int rest = length - (whole * FastScanKernel.BlockSize);
+            if (rest > 0)
+            {
+                blocks.AsSpan(whole * blockBytes, blockBytes).CopyTo(last);
+                for (int row = 0; row < codeBytes; row++)
+                {
+                    last.AsSpan((row * FastScanKernel.BlockSize) + rest, FastScanKernel.BlockSize - rest).Clear();
+                }
+
+                writer.Write(last);
+            }
+        }
+
+        writer.EndSection();
     }
 }

@@ -1,7 +1,7 @@
 namespace VectorKit.Persistence;
 
 /// <summary>
-/// How <see cref="IndexFile.OpenMapped"/> opens a file in place: the load caps, and whether the bulk sections are
+/// How <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/> opens a file in place: the load caps, and whether the bulk sections are
 /// verified before the index is returned.
 /// </summary>
 /// <remarks>

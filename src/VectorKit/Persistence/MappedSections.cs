@@ -90,6 +90,125 @@ internal sealed unsafe class MappedSections
         }
     }
 
+    /// <summary>
+    /// Matches the file's sections against what a kind expects, in order, with the same lengths (unknown skippable
+    /// sections passed over), then at most one <see cref="SectionId.IdOrder"/> of <paramref name="idOrderBytes"/>
+    /// (format version 3 for the exact index, 4 for the inverted file; absent in older files); an expected length below
+    /// zero is checked by the caller. Returns each section's
+    /// position in <see cref="Payloads"/>. With <paramref name="verify"/> every matched payload's checksum is checked.
+    /// </summary>
+    public Dictionary<SectionId, int> Match(IReadOnlyList<(SectionId Id, long Bytes)> expected, long idOrderBytes, bool verify, CancellationToken cancellationToken)
+    {
+        var at = new Dictionary<SectionId, int>();
+        int next = 0;
+        for (int position = 0; position < _payloads.Count; position++)
+        {
+            SectionEntry entry = _payloads[position].Entry;
+            bool known = Enum.IsDefined(typeof(SectionId), entry.Id);
+            if (!known && (entry.Flags & FileLayout.SkippableFlag) != 0)
+            {
+                continue;
+            }
+
+            (SectionId id, long bytes) = next < expected.Count ? expected[next] : (SectionId.IdOrder, idOrderBytes);
+            if (entry.Id != (uint)id || (next == expected.Count && at.ContainsKey(SectionId.IdOrder)))
+            {
+                throw IndexHeader.Malformed(next <= expected.Count && !at.ContainsKey(SectionId.IdOrder)
+                    ? $"section {position} is {FileLayout.SectionName(entry.Id)}; this index kind expects {FileLayout.SectionName((uint)id)} there"
+                    : $"section {FileLayout.SectionName(entry.Id)} is listed but this index kind does not use it");
+            }
+
+            // A negative length stands for one the caller checks itself (it depends on a small section read later).
+            if (bytes >= 0 && entry.Length != bytes)
+            {
+                throw Problem(position, $"its length is {entry.Length} bytes; the header's counts require {bytes}");
+            }
+
+            at[id] = position;
+            next++;
+        }
+
+        if (next < expected.Count)
+        {
+            throw IndexHeader.Malformed($"the section {FileLayout.SectionName((uint)expected[next].Id)} is missing from the section list");
+        }
+
+        if (verify)
+        {
+            foreach (int position in at.Values)
+            {
+                VerifyChecksum(position, cancellationToken);
+            }
+        }
+
+        return at;
+    }
+
+    /// <summary>
+    /// The id lookup of every mapped kind: binary search over the file's <see cref="SectionId.IdOrder"/> (rows of
+    /// <paramref name="ids"/> by ascending id, each row number range-checked on use, the whole order verified with
+    /// <paramref name="verify"/>), or, for a file without one, a table built from the mapped ids (the one part of
+    /// such a file's opening that grows with the count).
+    /// </summary>
+    public Internal.IdMap IdMap(Dictionary<SectionId, int> at, long* ids, int n, bool verify)
+    {
+        if (at.TryGetValue(SectionId.IdOrder, out int position))
+        {
+            var lookup = new Internal.SortedIdLookup(ids, (int*)Payload(position).Start, n);
+            if (verify)
+            {
+                try
+                {
+                    lookup.Verify();
+                }
+                catch (InvalidDataException e)
+                {
+                    throw Problem(position, e.Message);
+                }
+            }
+
+            return new Internal.IdMap(lookup);
+        }
+
+        var map = new Internal.IdMap(n);
+        for (int slot = 0; slot < n; slot++)
+        {
+            if (!map.TryAdd(ids[slot], slot))
+            {
+                throw Problem(at[SectionId.Ids], $"id {ids[slot]} appears at rows {map[ids[slot]]} and {slot}; ids must be unique");
+            }
+        }
+
+        return map;
+    }
+
+    /// <summary>The small section at <paramref name="position"/> copied out after its checksum (always verified: it is small); <paramref name="count"/> values.</summary>
+    public T[] CopySmall<T>(int position, int count, CancellationToken cancellationToken)
+        where T : unmanaged
+    {
+        VerifyChecksum(position, cancellationToken);
+        return new ReadOnlySpan<T>((void*)Payload(position).Start, count).ToArray();
+    }
+
+    /// <summary>Checks that the float32 rows of the section at <paramref name="position"/> (<paramref name="n"/> × <paramref name="d"/>) are finite, in 1 MiB blocks.</summary>
+    public void CheckFiniteRows(int position, int d, int n, CancellationToken cancellationToken)
+    {
+        float* rows = (float*)Payload(position).Start;
+        int blockRows = Math.Max(1, BlockBytes / (d * sizeof(float)));
+        for (int start = 0; start < n; start += blockRows)
+        {
+            cancellationToken.ThrowIfCancellationRequested();
+            int count = Math.Min(blockRows, n - start);
+            var block = new ReadOnlySpan<float>(rows + ((long)start * d), count * d);
+            int bad = FiniteCheck.IndexOfNonFinite(block);
+            if (bad >= 0)
+            {
+                long element = ((long)start * d) + bad;
+                throw Problem(position, $"it holds a non-finite vector component at row {element / d}, component {element % d}; stored vectors must be finite");
+            }
+        }
+    }
+
     /// <summary>An error about the section at <paramref name="position"/>, placed at its payload.</summary>
     public IndexFileException Problem(int position, string problem)
     {

@@ -57,4 +57,12 @@ internal enum SectionId : uint
     /// <see cref="ProductCodebooks"/>, and is not skippable: a reader that does not know the layout must not read the codes.
     /// </summary>
     FourBitCodebooks = 15,
+
+    /// <summary>
+    /// Inverted file under the four-bit fast-scan layout (format version 4): every list's codes as the search reads them,
+    /// list after list, each list in whole blocks of 32 entries (<c>code bytes × 32</c> bytes a block, byte <c>i</c> of
+    /// entry <c>e</c> at <c>i × 32 + e</c>; unused slots of a last block zero). It takes the place of
+    /// <see cref="ListCodes"/>, so a mapped file is scanned in place.
+    /// </summary>
+    FastScanBlocks = 16,
 }

@@ -15,7 +15,7 @@ namespace VectorKit.Persistence;
 /// the new file mapped in place of the old one and the segments it folded in.
 /// </summary>
 /// <remarks>
-/// <para><b>Parts.</b> The base (a float32 <see cref="ExactIndex"/> opened with <see cref="IndexFile.OpenMapped"/>, or
+/// <para><b>Parts.</b> The base (a float32 <see cref="ExactIndex"/> opened with <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>, or
 /// any float32 exact index), the sealed segments a running or failed merge froze, and the active segment that takes
 /// writes. Every id is live in at most one part. A search asks each part for its best k plus its masked ids (or runs
 /// it with a filter when many of its ids are masked) and keeps the best k of all, ordered by distance, ties by id.</para>
@@ -43,7 +43,7 @@ public sealed class SegmentedIndex : IVectorIndex
     private bool _disposed;
 
     /// <summary>Wraps <paramref name="baseIndex"/>, taking ownership of it (it is disposed with this index, or when a merge replaces it).</summary>
-    /// <param name="baseIndex">A float32 exact index, usually one opened with <see cref="IndexFile.OpenMapped"/>; it is never written to.</param>
+    /// <param name="baseIndex">A float32 exact index, usually one opened with <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>; it is never written to.</param>
     /// <exception cref="ArgumentNullException"><paramref name="baseIndex"/> is null.</exception>
     /// <exception cref="ArgumentException">The base stores 8-bit codes (segments hold float32 rows, and the merged results must be exact distances on both sides).</exception>
     public SegmentedIndex(ExactIndex baseIndex)
@@ -58,16 +58,16 @@ public sealed class SegmentedIndex : IVectorIndex
         _active = new ExactIndex(baseIndex.Dimension, baseIndex.Metric);
     }
 
-    /// <summary>Opens <paramref name="path"/> mapped (<see cref="IndexFile.OpenMapped"/>) and wraps it.</summary>
+    /// <summary>Opens <paramref name="path"/> mapped (<see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>) and wraps it.</summary>
     /// <param name="path">A float32 exact index file.</param>
-    /// <param name="options">As for <see cref="IndexFile.OpenMapped"/>.</param>
+    /// <param name="options">As for <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>.</param>
     /// <returns>The segmented index; the caller owns (and disposes) it.</returns>
-    /// <exception cref="IndexFileException">As for <see cref="IndexFile.OpenMapped"/>.</exception>
+    /// <exception cref="IndexFileException">As for <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>.</exception>
     /// <exception cref="NotSupportedException">The file holds another kind of index.</exception>
     /// <exception cref="ArgumentException">The file's exact index stores 8-bit codes.</exception>
     public static SegmentedIndex Open(string path, MappedOpenOptions? options = null)
     {
-        ExactIndex mapped = IndexFile.OpenMapped(path, options);
+        ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(path, options);
         try
         {
             return new SegmentedIndex(mapped);
@@ -422,7 +422,7 @@ public sealed class SegmentedIndex : IVectorIndex
                 try
                 {
                     WriteFile(path, layers, progress, linked.Token);
-                    ExactIndex merged = IndexFile.OpenMapped(path, cancellationToken: linked.Token);
+                    ExactIndex merged = IndexFile.OpenMapped<ExactIndex>(path, cancellationToken: linked.Token);
                     SwapIn(merged, oldBase, baseMaskedAtFreeze, folded);
                 }
                 finally

@@ -81,6 +81,6 @@ public partial class GoldenFileTests
             AssertSameHits(NearestByLoop(rows, query, 5), loaded.Search(query, 5, everyList));
         }
 
-        Assert.Equal(fixture, IndexFileBytes.Save(loaded));
+        AssertVersion4("ivf-fast-scan-v4.vkx", loaded, ["Centroids", "FourBitCodebooks", "ListLengths", "Ids", "FastScanBlocks", "Vectors", "IdOrder"], everyList);
     }
 }

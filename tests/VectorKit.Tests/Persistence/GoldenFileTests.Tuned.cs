@@ -33,11 +33,11 @@ public partial class GoldenFileTests
             Assert.Equal(loaded.Search(query, 10, same), loaded.Search(query, 10));
         }
 
-        // The exact index is written with its id order today (format version 3).
+        // The exact index is written with its id order today (format version 3), the inverted file with its own (4).
         byte[] resaved = IndexFileBytes.Save(loaded);
-        Assert.Equal(kind == "exact" ? Fixture("exact-tuned-v3.vkx", resaved) : fixture, resaved);
+        Assert.Equal(kind switch { "exact" => Fixture("exact-tuned-v3.vkx", resaved), "ivf" => Fixture("ivf-tuned-v4.vkx", resaved), _ => fixture }, resaved);
         loaded.ApplyTunedDefaults(null);
-        Assert.Equal(kind == "exact" ? 3u : 1u, BinaryPrimitives.ReadUInt32LittleEndian(IndexFileBytes.Save(loaded).AsSpan(8)));
+        Assert.Equal(kind switch { "exact" => 3u, "ivf" => 4u, _ => 1u }, BinaryPrimitives.ReadUInt32LittleEndian(IndexFileBytes.Save(loaded).AsSpan(8)));
     }
 
     [Fact]

@@ -57,7 +57,8 @@ public sealed partial class InvertedFileIndex
                     : _fourBit is { IsRotated: true } ? _fourBit.Rotation.ToArray() : null,
                 ScalarRanges = ranges,
                 ListLengths = (int[])_listCounts.Clone(),
-                ListCodes = _fourBit is null ? _listCodes : UnpackedLists(),
+                ListCodes = _listCodes,
+                ListCodesPacked = _fourBit is not null,
                 Ids = ids,
                 FullVectors = _full,
                 FullRowOrder = order,
@@ -68,25 +69,6 @@ public sealed partial class InvertedFileIndex
         {
             _writerGate.ExitWriteLock();
         }
-    }
-
-    // Fast-scan blocks as codes one after another, a copy per list.
-    private byte[][] UnpackedLists()
-    {
-        var lists = new byte[_listCodes.Length][];
-        for (int list = 0; list < lists.Length; list++)
-        {
-            int length = _listCounts[list];
-            var codes = new byte[length * _codeBytes];
-            for (int p = 0; p < length; p++)
-            {
-                FastScanKernel.Get(_listCodes[list], _codeBytes, p, codes.AsSpan(p * _codeBytes, _codeBytes));
-            }
-
-            lists[list] = codes;
-        }
-
-        return lists;
     }
 
     /// <summary>
@@ -172,9 +154,15 @@ public sealed partial class InvertedFileIndex
             }
 
             total += length;
-            if (parts.ListCodes[list].Length != (long)length * _codeBytes)
+            long needed = parts.ListCodesPacked ? ListCodeBytes(length) : (long)length * _codeBytes;
+            if (parts.ListCodesPacked && _fourBit is null)
             {
-                throw new InvalidDataException($"list {list} holds {parts.ListCodes[list].Length} code bytes; its {length} entries of {_codeBytes} bytes need {(long)length * _codeBytes}");
+                throw new InvalidDataException("fast-scan blocks are stored, but the options do not use the fast-scan layout");
+            }
+
+            if (parts.ListCodes[list].Length != needed)
+            {
+                throw new InvalidDataException($"list {list} holds {parts.ListCodes[list].Length} code bytes; its {length} entries of {_codeBytes} bytes need {needed}");
             }
         }
 
@@ -211,7 +199,7 @@ public sealed partial class InvertedFileIndex
             }
 
             _listSlots[list] = slots;
-            _listCodes[list] = _fourBit is null ? parts.ListCodes[list] : Packed(parts.ListCodes[list], length);
+            _listCodes[list] = _fourBit is null || parts.ListCodesPacked ? parts.ListCodes[list] : Packed(parts.ListCodes[list], length);
             _listCounts[list] = length;
         }
 
@@ -278,7 +266,7 @@ public sealed partial class InvertedFileIndex
     }
 
     // What a scan relies on beyond the lengths: float32 entries are finite; 8-bit codes keep the encoder's zero padding.
-    private void CheckCodes(int list, byte[] codes, int length)
+    private void CheckCodes(int list, ReadOnlySpan<byte> codes, int length)
     {
         if (_options.Encoding == VectorEncoding.Float32)
         {
@@ -295,7 +283,7 @@ public sealed partial class InvertedFileIndex
         {
             for (int p = 0; p < length; p++)
             {
-                if (codes.AsSpan((p * _codeBytes) + Dimension, _codeBytes - Dimension).IndexOfAnyExcept((byte)0) >= 0)
+                if (codes.Slice((p * _codeBytes) + Dimension, _codeBytes - Dimension).IndexOfAnyExcept((byte)0) >= 0)
                 {
                     throw new InvalidDataException($"list {list}, entry {p} has non-zero padding after its {Dimension} code bytes");
                 }

@@ -131,7 +131,7 @@ public sealed partial class InvertedFileIndex
                 continue;
             }
 
-            ref byte codes = ref MemoryMarshal.GetArrayDataReference(_listCodes[list]);
+            ref byte codes = ref MemoryMarshal.GetReference(ListCodes(list));
             int[] slots = _listSlots[list];
             ReadOnlySpan<float> centroid = _centroids.AsSpan(list * d, d);
 
@@ -190,7 +190,7 @@ public sealed partial class InvertedFileIndex
                     float distance = TFinish.Apply(offset + Unsafe.Add(ref distances, j));
                     if (distance <= bound)
                     {
-                        long id = _ids[slots[start + j]];
+                        long id = EntryId(list, slots, start + j);
                         if (filter is null || filter(id))
                         {
                             TopK.Offer(heap, ref count, distance, id);
@@ -268,7 +268,7 @@ public sealed partial class InvertedFileIndex
                 start = TFinish.Apply(PairKernel.Sum<DotStep>(_kernelPath, q, _centroids.AsSpan(list * d, d))) + bias;
             }
 
-            ref byte codes = ref MemoryMarshal.GetArrayDataReference(_listCodes[list]);
+            ref byte codes = ref MemoryMarshal.GetReference(ListCodes(list));
             int[] slots = _listSlots[list];
             for (int first = 0; first < length; first += ScanBlock)
             {
@@ -282,7 +282,7 @@ public sealed partial class InvertedFileIndex
                     float distance = start + (step * Unsafe.Add(ref sumStart, j));
                     if (distance <= bound)
                     {
-                        long id = _ids[slots[first + j]];
+                        long id = EntryId(list, slots, first + j);
                         if (filter is null || filter(id))
                         {
                             TopK.Offer(heap, ref count, distance, id);

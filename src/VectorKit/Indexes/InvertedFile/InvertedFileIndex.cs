@@ -32,7 +32,9 @@ namespace VectorKit.Indexes.InvertedFile;
 /// and removes are exclusive. A batch search holds the read lock one query at a time (see
 /// <see cref="VectorIndex.SearchBatch"/>); <see cref="Compact"/> and saving run beside searches, and writes wait for them.</para>
 /// <para><b>Persistence.</b> <c>VectorKit.Persistence.IndexFile</c> saves and loads the index, trained or not; an
-/// external full-vector source is neither saved nor disposed: attach it again after loading.</para>
+/// external full-vector source is neither saved nor disposed: attach it again after loading. <c>IndexFile.OpenMapped</c>
+/// opens a saved file read-only in place instead (<see cref="IsMapped"/>): lists, ids and full vectors stay in the
+/// mapped file.</para>
 /// </remarks>
 public sealed partial class InvertedFileIndex : VectorIndex
 {
@@ -179,6 +181,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         bytes += (long)_rotatedCentroids.Length * sizeof(float);
         bytes += _scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float);
         bytes += _slotOf.Bytes;
+        bytes += _mapped?.Bytes ?? 0;
         return bytes;
     }
 
@@ -231,6 +234,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             if (_count > 0)
             {
                 throw new InvalidOperationException($"The index holds {_count} vectors, whose codes depend on the current training; train before adding, or build a new index.");
@@ -295,19 +299,19 @@ public sealed partial class InvertedFileIndex : VectorIndex
     private protected override void CopyStoredLocked(int slot, Span<float> destination)
     {
         int d = Dimension;
-        int list = _listOf[slot];
+        (int list, int position) = Locate(slot);
         if (_fourBit is not null && _full is null)
         {
             using var scratch = ScratchRental<float>.Rent(d);
             Span<byte> packed = _codeBytes <= 512 ? stackalloc byte[_codeBytes] : new byte[_codeBytes];
-            FastScanKernel.Get(_listCodes[list], _codeBytes, _positionOf[slot], packed);
+            FastScanKernel.Get(ListCodes(list), _codeBytes, position, packed);
             _fourBit.Decode(packed, destination, scratch.Span);
 
             AddCentroid(list, destination);
             return;
         }
 
-        ReadOnlySpan<byte> code = _fourBit is not null ? default : _listCodes[list].AsSpan(_positionOf[slot] * _codeBytes, _codeBytes);
+        ReadOnlySpan<byte> code = _fourBit is not null ? default : ListCodes(list).Slice(position * _codeBytes, _codeBytes);
         if (_options.Encoding == VectorEncoding.Float32)
         {
             MemoryMarshal.Cast<byte, float>(code).CopyTo(destination);
@@ -381,6 +385,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         // without the write lock; only the swap takes that.
         using var gate = _writerGate.EnterWrite();
         ThrowIfDisposed();
+        ThrowIfReadOnly();
         cancellationToken.ThrowIfCancellationRequested();
         int lists = _listCounts.Length;
         int count = _count;
@@ -489,6 +494,10 @@ public sealed partial class InvertedFileIndex : VectorIndex
             _listSlots[l] = [];
             _listCounts[l] = 0;
         }
+
+        // After the buffers have forgotten the view.
+        _mapped = null;
+        _mapping?.Dispose();
     }
 
     // Adds (and with `replace`, replaces) a validated batch under the write lock. Cancellation is honoured only while
@@ -501,6 +510,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             ThrowIfNotTrained();
             if (!replace)
             {

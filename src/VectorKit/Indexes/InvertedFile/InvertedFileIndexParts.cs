@@ -41,10 +41,16 @@ internal sealed class InvertedFileIndexParts
     public required int[] ListLengths { get; init; }
 
     /// <summary>
-    /// Per list its codes, one after another: at least <c>length × code bytes</c> bytes (exactly that many after a
-    /// load). Under the fast-scan layout they are unpacked from the blocks on export (a copy) and packed again on load.
+    /// Per list its codes: one after another, at least <c>length × code bytes</c> bytes (exactly that many after a
+    /// load); or, when <see cref="ListCodesPacked"/>, the fast-scan blocks, at least the list's whole blocks.
     /// </summary>
     public required byte[][] ListCodes { get; init; }
+
+    /// <summary>
+    /// Whether <see cref="ListCodes"/> holds fast-scan blocks (always on export under the fast-scan layout; on load from
+    /// a file of format version 4) rather than codes one after another (older fast-scan files, which a load packs).
+    /// </summary>
+    public bool ListCodesPacked { get; init; }
 
     /// <summary><see cref="VectorIndex.Count"/> ids in list order.</summary>
     public required long[] Ids { get; init; }

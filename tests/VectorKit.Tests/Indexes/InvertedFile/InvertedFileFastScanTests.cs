@@ -186,7 +186,16 @@ public class InvertedFileFastScanTests
             {
                 for (int p = 0; p < parts.ListLengths[list]; p++, at++)
                 {
-                    _entries.Add((parts.Ids[at], list, parts.ListCodes[list].AsSpan(p * CodeBytes, CodeBytes).ToArray()));
+                    // Exported as the search's blocks of 32: byte i of entry p at (p / 32) × 32 × code bytes + i × 32 + p % 32.
+                    var code = new byte[CodeBytes];
+                    for (int i = 0; i < CodeBytes; i++)
+                    {
+                        code[i] = parts.ListCodesPacked
+                            ? parts.ListCodes[list][(p / 32 * 32 * CodeBytes) + (i * 32) + (p % 32)]
+                            : parts.ListCodes[list][(p * CodeBytes) + i];
+                    }
+
+                    _entries.Add((parts.Ids[at], list, code));
                 }
             }
         }

@@ -26,7 +26,7 @@ public sealed class MappedFileDamageTests : IDisposable
         for (int length = 0; length < file.Length; length++)
         {
             string path = Write(file[..length]);
-            IndexFileException e = Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped(path).Dispose());
+            IndexFileException e = Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<ExactIndex>(path).Dispose());
             Assert.Equal(Path.GetFullPath(path), e.FilePath);
             Assert.True(
                 e.Message.Contains("truncated", StringComparison.Ordinal) || e.Message.Contains("not recognised", StringComparison.Ordinal),
@@ -58,13 +58,13 @@ public sealed class MappedFileDamageTests : IDisposable
         Assert.Equal("IdOrder", e.Section);
         Assert.Contains("the id order names row 1000000 at position 4; the file has 9 rows", e.Message, StringComparison.Ordinal);
 
-        using ExactIndex mapped = IndexFile.OpenMapped(Write(file));
+        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(Write(file));
         InvalidDataException lookup = Assert.Throws<InvalidDataException>(() => mapped.Contains(1000 + (4 * 7)));
         Assert.Contains("names row 1000000", lookup.Message, StringComparison.Ordinal);
 
         // A negative row number is out of range too.
         EditIdOrder(file, order => BinaryPrimitives.WriteInt32LittleEndian(order[(4 * 4)..], -3));
-        using ExactIndex negative = IndexFile.OpenMapped(Write(file));
+        using ExactIndex negative = IndexFile.OpenMapped<ExactIndex>(Write(file));
         Assert.Throws<InvalidDataException>(() => negative.Contains(1000 + (4 * 7)));
     }
 
@@ -85,7 +85,7 @@ public sealed class MappedFileDamageTests : IDisposable
 
         // Unverified: a lookup may miss, but a row it finds has the id asked for, and TryGetVector reads that row.
         using ExactIndex truth = PersistenceSamples.Exact(count: 9, dimension: 3);
-        using ExactIndex mapped = IndexFile.OpenMapped(Write(file));
+        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(Write(file));
         var expected = new float[3];
         var actual = new float[3];
         foreach (long id in truth.GetIds())
@@ -141,7 +141,7 @@ public sealed class MappedFileDamageTests : IDisposable
             ExactIndex mapped;
             try
             {
-                mapped = IndexFile.OpenMapped(path, options);
+                mapped = IndexFile.OpenMapped<ExactIndex>(path, options);
             }
             catch (Exception e) when (e is IndexFileException or NotSupportedException)
             {
@@ -217,7 +217,7 @@ public sealed class MappedFileDamageTests : IDisposable
     }
 
     private IndexFileException Reject(byte[] file, MappedOpenOptions? options = null)
-        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped(Write(file), options).Dispose());
+        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<ExactIndex>(Write(file), options).Dispose());
 
     private delegate void SpanAction(Span<byte> span);
 }
