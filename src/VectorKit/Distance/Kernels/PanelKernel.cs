@@ -24,7 +24,7 @@ internal static class PanelKernel
     public const int RowMultiple = 24;
 
     /// <summary>Components summed in one register chain before being added to the output.</summary>
-    public const int ComponentBlock = 64;
+    public const int ComponentBlock = 128;
 
     /// <summary>Rows per register tile on <paramref name="path"/>.</summary>
     public static int RowGroup(KernelPath path) => path == KernelPath.Vector512 ? 8 : 6;
