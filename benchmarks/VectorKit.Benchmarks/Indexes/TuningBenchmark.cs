@@ -20,7 +20,7 @@ namespace VectorKit.Benchmarks.Indexes;
 /// are split in two by position (even rows, odd rows): the tuning sees only the even ones (and splits them again for its
 /// own report); every figure printed is measured on the odd ones, which it never saw. Per variant: bytes per vector,
 /// recall@10 with its 95 % interval and single-thread queries/s at the untuned and at the tuned defaults, the tuning's
-/// own time, and a full sweep on the unseen queries (widths in steps of about 5 %, depths 0, k, 2k, ... 16k): its first
+/// own time, and a full sweep on the unseen queries (widths in steps of about 5 %, depths 0, k, 2k, ... 64k): its first
 /// setting meeting the target (point estimate) at each depth, less those another needs less of both knobs than, are
 /// timed in alternation with the chosen one (medians of 7 rounds); the chosen time over the least is the "within 20 %"
 /// check. The library counts no distance evaluations (a counter would sit in the search loops), so the widths' ratio
@@ -92,7 +92,7 @@ public static class TuningBenchmark
             // The full sweep on the unseen queries: per depth, the first width (in steps of about 5 %) whose recall meets the target.
             var meeting = new List<(int? W, int? D)>();
             int sweptPoints = 0;
-            foreach (int? depth in knobs.Rescores ? new int?[] { 0, K, 2 * K, 4 * K, 8 * K, 16 * K } : [null])
+            foreach (int? depth in knobs.Rescores ? new int?[] { 0, K, 2 * K, 4 * K, 8 * K, 16 * K, 32 * K, 64 * K } : [null])
             {
                 if (knobs.MaxWidth == 0)
                 {
