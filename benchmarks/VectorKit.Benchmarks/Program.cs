@@ -22,7 +22,7 @@ namespace VectorKit.Benchmarks;
 /// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds]</c>; the
 /// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>; the exact
 /// index's batch search against the numpy + OpenBLAS baseline: <c>exact-batch-vs-blas [repetitions] [reference queries] [baseline ids]</c>;
-/// recall-targeted tuning of every kind beside its untuned defaults: <c>tuning [fashion-mnist|text|clustered] [target] [cosine|-] [count] [dimension]</c>;
+/// recall-targeted tuning of every kind beside its untuned defaults: <c>tuning [fashion-mnist|text|clustered] [target] [cosine|-] [count] [dimension] [kinds]</c>;
 /// the ladder of streamed builds from 10³ to 10⁷ rows on disk: <c>ladder [rungs=3,4,5,6,7] [dim=128] [kinds=ivf-pq,graph-8bit] [queries=1000] [format=npy|fvecs] [dir=...]</c>.
 /// </summary>
 public static class Program
@@ -182,7 +182,8 @@ public static class Program
             double target = args.Length > 2 ? double.Parse(args[2], CultureInfo.InvariantCulture) : 0.95;
             int count = args.Length > 4 ? int.Parse(args[4], CultureInfo.InvariantCulture) : 1_000_000;
             int dimension = args.Length > 5 ? int.Parse(args[5], CultureInfo.InvariantCulture) : 128;
-            TuningBenchmark.Run(dataSet, target, args.Contains("cosine"), count, dimension);
+            string[]? only = args.Length > 6 ? args[6].Split(',') : null;
+            TuningBenchmark.Run(dataSet, target, args.Contains("cosine"), count, dimension, only);
             return;
         }
 

@@ -21,14 +21,15 @@ namespace VectorKit.Tuning;
 /// <see cref="RecallTuningOptions.NoiseScale"/> times the median distance from a stored vector to its nearest other
 /// vector (measured on 64 of them). The noise keeps a query from being its own nearest neighbour at distance 0, which
 /// would overstate recall.</para>
-/// <para><b>Search over settings.</b> For each re-scoring depth (none, then k, 2k, 4k, ...; one pass when the index
-/// does not re-score) the width is doubled from its smallest useful value until a setting meets the target (or
-/// doubling it stops gaining recall: the depth is the limit), then bisected down to within 5 %; deeper re-scoring stops once the narrowest width meets the target, once the width no
-/// longer falls with the depth, or once two depths in a row cost more than the best so far. Each setting's time is the
-/// fastest of a few runs when one run is short. A setting meets the target when the lower end of its recall interval on the
-/// tuning queries does (Wilson intervals on an effective number of trials, as the re-ranking calibration uses). Of the
-/// settings that meet it, those needing a wider search at the same depth are dropped and the one with the least measured
-/// time per query is chosen.</para>
+/// <para><b>Search over settings.</b> For each re-scoring depth (none, then 2k, 4k, ...: a depth of k or less returns
+/// the same items as none; one pass when the index does not re-score) the width is doubled from its smallest useful value
+/// until a setting meets the target (or doubling it stops gaining recall: the depth is the limit), then bisected down to
+/// the narrowest width that meets it; deeper re-scoring stops once the narrowest width meets the target, once the width no
+/// longer falls with the depth, or once two depths in a row cost more than the best so far. A setting meets the target
+/// when the lower end of its recall interval on the tuning queries does (Wilson intervals on an effective number of
+/// trials, as the re-ranking calibration uses). Of the settings that meet it, only those for which no other needs at most
+/// the same width and depth can be the cheapest; when more than one is left, they are timed against each other on the
+/// tuning queries in alternating rounds and the one with the least median time per query is chosen.</para>
 /// <para><b>Thread safety.</b> Searches may run during tuning; writes should not, since they change the answers the
 /// ground truth was taken from.</para>
 /// </remarks>
@@ -40,6 +41,9 @@ public static class RecallTuning
     // A measurement shorter than this is repeated (at most MaxRepeats runs in all) and its fastest run kept.
     private const double MinTimedSeconds = 0.05;
     private const int MaxRepeats = 5;
+
+    // Rounds of the alternating timing of the cheapest candidates (odd: the median is one of them).
+    private const int RunoffRounds = 7;
 
     // Below this gain in recall from doubling the width, the width search at a depth gives up (the depth limits it).
     private const double PlateauGain = 0.001;
@@ -173,57 +177,23 @@ public static class RecallTuning
         progress?.Report(new TuningProgress(TuningStage.Searching, 0, null));
         try
         {
-            int maxDepth = Math.Min(VectorIndexOptions.MaxRescoreDepth, count);
-            if (knobs.MaxWidth == 0 && !knobs.Rescores)
-            {
-                Try(null, null);
-            }
-            else if (knobs.MaxWidth == 0)
-            {
-                if (!Meets(Try(null, 0)))
-                {
-                    Smallest(Math.Min(k, maxDepth), maxDepth, v => Try(null, v), Meets);
-                }
-            }
-            else
-            {
-                double bestCost = double.PositiveInfinity;
-                int worse = 0;
-                int? previousWidth = null;
-                foreach (int? depth in Depths(knobs.Rescores, k, maxDepth))
-                {
-                    int low = knobs.WidthCoversDepth ? Math.Max(k, depth ?? 0) : 1;
-                    int high = knobs.WidthCoversDepth ? Math.Min(knobs.MaxWidth, count) : knobs.MaxWidth;
-                    low = Math.Min(low, high);
-                    TuningPoint? found = Smallest(low, high, w => Try(w, depth), Meets);
-                    if (found is null)
-                    {
-                        continue;
-                    }
-
-                    // Deeper re-scoring only adds cost once the width stops falling with it.
-                    if (found.SearchWidth == low || found.SearchWidth >= previousWidth)
-                    {
-                        break;
-                    }
-
-                    previousWidth = found.SearchWidth;
-
-                    if (found.MicrosecondsPerQuery < bestCost)
-                    {
-                        bestCost = found.MicrosecondsPerQuery;
-                        worse = 0;
-                    }
-                    else if (++worse == 2)
-                    {
-                        break;
-                    }
-                }
-            }
+            SearchSettings(knobs, count, k, Try, Meets);
         }
         catch (BudgetSpentException)
         {
             completed = false;
+        }
+
+        // The settings that meet the target and need no more of either knob than another that does are timed against
+        // each other in alternation; their medians replace their single timings in the curve (time budget permitting).
+        List<int> front = Front(curve, Meets);
+        if (front.Count > 1 && !(o.TimeBudget is { } limit && clock.Elapsed > limit))
+        {
+            double[] medians = Runoff(front.Count, RunoffRounds, i => TimeOnce(index, tuneQueries, curve[front[i]], k, o.MaxDegreeOfParallelism, ct));
+            for (int i = 0; i < front.Count; i++)
+            {
+                curve[front[i]] = curve[front[i]] with { MicrosecondsPerQuery = medians[i] };
+            }
         }
 
         (TuningPoint chosen, bool met) = Choose(curve, Meets);
@@ -248,8 +218,64 @@ public static class RecallTuning
         return new TuningReport(o.TargetRecall, k, o.Confidence, curve.ToArray(), chosen, held, untuned, met, completed, o.ApplyDefaults, tuneCount, heldCount, drawn);
     }
 
-    // No re-scoring, then k, 2k, 4k, ... up to the cap; a single pass without a depth when the index does not re-score.
-    private static IEnumerable<int?> Depths(bool rescores, int k, int maxDepth)
+    /// <summary>
+    /// The search over settings (see the class remarks): each setting is measured by <paramref name="measure"/>, which
+    /// adds it to the curve; <paramref name="meets"/> says whether a measured setting meets the target.
+    /// </summary>
+    internal static void SearchSettings(SearchKnobs knobs, int count, int k, Func<int?, int?, TuningPoint> measure, Func<TuningPoint, bool> meets)
+    {
+        int maxDepth = Math.Min(VectorIndexOptions.MaxRescoreDepth, count);
+        if (knobs.MaxWidth == 0 && !knobs.Rescores)
+        {
+            measure(null, null);
+        }
+        else if (knobs.MaxWidth == 0)
+        {
+            if (!meets(measure(null, 0)) && maxDepth > k)
+            {
+                Smallest(k + 1, maxDepth, v => measure(null, v), meets);
+            }
+        }
+        else
+        {
+            double bestCost = double.PositiveInfinity;
+            int worse = 0;
+            int? previousWidth = null;
+            foreach (int? depth in Depths(knobs.Rescores, k, maxDepth))
+            {
+                int low = knobs.WidthCoversDepth ? Math.Max(k, depth ?? 0) : 1;
+                int high = knobs.WidthCoversDepth ? Math.Min(knobs.MaxWidth, count) : knobs.MaxWidth;
+                low = Math.Min(low, high);
+                TuningPoint? found = Smallest(low, high, w => measure(w, depth), meets);
+                if (found is null)
+                {
+                    continue;
+                }
+
+                // Deeper re-scoring only adds cost once the width stops falling with it.
+                if (found.SearchWidth == low || found.SearchWidth >= previousWidth)
+                {
+                    break;
+                }
+
+                previousWidth = found.SearchWidth;
+
+                if (found.MicrosecondsPerQuery < bestCost)
+                {
+                    bestCost = found.MicrosecondsPerQuery;
+                    worse = 0;
+                }
+                else if (++worse == 2)
+                {
+                    break;
+                }
+            }
+        }
+    }
+
+    // No re-scoring, then 2k, 4k, ... up to the cap; a single pass without a depth when the index does not re-score. A
+    // depth of k or less re-scores only the k items returned, which leaves the set (and so the recall) of no re-scoring.
+    internal static IEnumerable<int?> Depths(bool rescores, int k, int maxDepth)
     {
         if (!rescores)
         {
@@ -258,13 +284,14 @@ public static class RecallTuning
         }
 
         yield return 0;
-        for (long depth = k; depth <= maxDepth; depth *= 2)
+        for (long depth = 2L * k; depth <= maxDepth; depth *= 2)
         {
             yield return (int)depth;
         }
     }
 
-    // The smallest value in [low, high] whose point meets the target, to within 5 %: doubling, then bisection.
+    // The smallest value in [low, high] whose point meets the target: doubling, then bisection down to adjacent values
+    // (recall is taken to rise with the value; the narrowest passing value is exact on the tuning queries).
     private static TuningPoint? Smallest(int low, int high, Func<int, TuningPoint> measure, Func<TuningPoint, bool> meets)
     {
         int failing = low - 1;
@@ -292,7 +319,7 @@ public static class RecallTuning
             value = (int)Math.Min(high, Math.Max(value + 1L, value * 2L));
         }
 
-        while (value - failing > 1 && value - failing > value / 20)
+        while (value - failing > 1)
         {
             int middle = failing + ((value - failing) / 2);
             TuningPoint p = measure(middle);
@@ -310,21 +337,85 @@ public static class RecallTuning
         return passing;
     }
 
-    // Of the points meeting the target, the cheapest once those wider than another at the same depth are dropped (one
-    // knob's cost rises with it; timing noise must not pick a wider search); else the highest recall.
-    private static (TuningPoint Chosen, bool Met) Choose(List<TuningPoint> curve, Func<TuningPoint, bool> meets)
+    /// <summary>
+    /// Positions in <paramref name="curve"/> of the settings that meet the target and for which no other setting meeting
+    /// it needs at most the same width and at most the same depth (a missing knob counts as 0; of equal settings the
+    /// first): the only candidates for the cheapest, since a search does no less work with more of either knob.
+    /// </summary>
+    internal static List<int> Front(IReadOnlyList<TuningPoint> curve, Func<TuningPoint, bool> meets)
     {
-        TuningPoint? best = null;
-        foreach (TuningPoint p in curve)
+        var front = new List<int>();
+        for (int i = 0; i < curve.Count; i++)
         {
-            if (!meets(p) || Dominated(p))
+            TuningPoint p = curve[i];
+            if (!meets(p))
             {
                 continue;
             }
 
-            if (best is null || p.MicrosecondsPerQuery < best.MicrosecondsPerQuery)
+            bool dominated = false;
+            for (int j = 0; j < curve.Count && !dominated; j++)
             {
-                best = p;
+                TuningPoint other = curve[j];
+                if (j == i || !meets(other))
+                {
+                    continue;
+                }
+
+                int w = p.SearchWidth ?? 0, d = p.RescoreDepth ?? 0, ow = other.SearchWidth ?? 0, od = other.RescoreDepth ?? 0;
+                dominated = ow <= w && od <= d && (ow < w || od < d || j < i);
+            }
+
+            if (!dominated)
+            {
+                front.Add(i);
+            }
+        }
+
+        return front;
+    }
+
+    /// <summary>
+    /// Times <paramref name="count"/> candidates in <paramref name="rounds"/> rounds, each round timing every candidate
+    /// once in an order rotated by one from the last, and returns each candidate's median: load that comes and goes
+    /// then falls on all of them alike, and a spike on fewer than half of one's rounds does not move its median.
+    /// </summary>
+    internal static double[] Runoff(int count, int rounds, Func<int, double> timeOnce)
+    {
+        var times = new double[count][];
+        for (int i = 0; i < count; i++)
+        {
+            times[i] = new double[rounds];
+        }
+
+        for (int r = 0; r < rounds; r++)
+        {
+            for (int j = 0; j < count; j++)
+            {
+                int i = (j + r) % count;
+                times[i][r] = timeOnce(i);
+            }
+        }
+
+        var medians = new double[count];
+        for (int i = 0; i < count; i++)
+        {
+            Array.Sort(times[i]);
+            medians[i] = rounds % 2 == 1 ? times[i][rounds / 2] : (times[i][(rounds / 2) - 1] + times[i][rounds / 2]) / 2;
+        }
+
+        return medians;
+    }
+
+    // Of the front (see Front), the least time per query, ties to the first; else the highest recall.
+    internal static (TuningPoint Chosen, bool Met) Choose(IReadOnlyList<TuningPoint> curve, Func<TuningPoint, bool> meets)
+    {
+        TuningPoint? best = null;
+        foreach (int i in Front(curve, meets))
+        {
+            if (best is null || curve[i].MicrosecondsPerQuery < best.MicrosecondsPerQuery)
+            {
+                best = curve[i];
             }
         }
 
@@ -343,28 +434,18 @@ public static class RecallTuning
         }
 
         return (top, false);
+    }
 
-        bool Dominated(TuningPoint p)
-        {
-            foreach (TuningPoint other in curve)
-            {
-                if (!meets(other))
-                {
-                    continue;
-                }
-
-                bool sameDepth = other.RescoreDepth == p.RescoreDepth;
-                bool narrower = p.SearchWidth is { } w
-                    ? sameDepth && other.SearchWidth < w
-                    : other.SearchWidth is null && other.RescoreDepth < p.RescoreDepth;
-                if (narrower)
-                {
-                    return true;
-                }
-            }
-
-            return false;
-        }
+    // One single pass of the tuning queries at a setting: microseconds per query, summed over threads.
+    private static double TimeOnce(VectorIndex index, float[] queries, TuningPoint setting, int k, int parallelism, CancellationToken ct)
+    {
+        var search = new SearchOptions { SearchWidth = setting.SearchWidth, RescoreDepth = setting.RescoreDepth, MaxDegreeOfParallelism = parallelism };
+        int n = queries.Length / index.Dimension;
+        long start = Stopwatch.GetTimestamp();
+        index.SearchBatch(queries, k, search, null, ct);
+        double seconds = Stopwatch.GetElapsedTime(start).TotalSeconds;
+        int threads = parallelism == -1 ? Environment.ProcessorCount : parallelism;
+        return seconds * 1e6 * Math.Min(threads, Math.Max(1, n)) / n;
     }
 
     private static TuningPoint Measure(VectorIndex index, float[] queries, long[][] truth, int? width, int? depth, int k, double z, int parallelism, CancellationToken ct, bool useDefaults)

@@ -33,7 +33,7 @@ public class RecallTuningTests(ITestOutputHelper output)
         output.WriteLine(report.ToString());
         Assert.True(report.TargetMet);
         Assert.True(report.Applied);
-        Assert.Equal((200, 200, false), (report.TuningQueries, report.HeldOutQueries, report.QueriesDrawn));
+        Assert.Equal((300, 100, false), (report.TuningQueries, report.HeldOutQueries, report.QueriesDrawn));
         Assert.Equal(report.Chosen.SearchWidth, index.TunedDefaults!.SearchWidth);
         Assert.Equal(report.Chosen.RescoreDepth, index.TunedDefaults.RescoreDepth);
         Assert.Contains(report.Chosen, report.Curve);
