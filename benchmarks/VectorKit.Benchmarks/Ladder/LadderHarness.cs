@@ -12,7 +12,7 @@ namespace VectorKit.Benchmarks.Ladder;
 /// </summary>
 /// <remarks>
 /// Arguments (any order): <c>rungs=3,4,5,6,7</c> (exponents; <c>8x64</c> is 10⁸ × 64), <c>dim=128</c>,
-/// <c>kinds=ivf-pq,graph-8bit</c>, <c>queries=1000</c>, <c>format=npy|fvecs</c>, <c>dir=BenchmarkDotNet.Artifacts/ladder</c>.
+/// <c>kinds=ivf-fastscan,ivf-pq,graph-8bit</c>, <c>queries=1000</c>, <c>format=npy|fvecs</c>, <c>dir=BenchmarkDotNet.Artifacts/ladder</c>.
 /// A rung's data and ground truth are kept in its folder and reused by later runs; <c>rungs=</c> (empty) only rewrites the
 /// summary files from the results already there (after steps run by hand with <c>ladder-step</c>).
 /// </remarks>
@@ -25,7 +25,7 @@ internal static class LadderHarness
         int defaultDimension = int.Parse(options.GetValueOrDefault("dim", "128"), CultureInfo.InvariantCulture);
         int queries = int.Parse(options.GetValueOrDefault("queries", "1000"), CultureInfo.InvariantCulture);
         string format = options.GetValueOrDefault("format", "npy");
-        string[] kinds = options.GetValueOrDefault("kinds", "ivf-pq,graph-8bit").Split(',');
+        string[] kinds = options.GetValueOrDefault("kinds", "ivf-fastscan,ivf-pq,graph-8bit").Split(',');
         Directory.CreateDirectory(root);
         Console.WriteLine($"ladder: {Environment.ProcessorCount} cores, {root}; single-thread queries, builds on 2 threads; each step in its own process");
         // rungs= (empty) measures nothing and only rewrites the table, TSVs and plot from the results already there.
@@ -126,7 +126,7 @@ internal static class LadderHarness
             string[] name = Path.GetFileName(folder)[1..].Split("-d");
             long count = long.Parse(name[0], CultureInfo.InvariantCulture);
             int d = int.Parse(name[1], CultureInfo.InvariantCulture);
-            foreach (string kind in new[] { "exact", "ivf-pq", "graph-8bit" })
+            foreach (string kind in new[] { "exact", "ivf-pq", "ivf-fastscan", "graph-8bit" })
             {
                 string path = Path.Combine(folder, $"{kind}.result");
                 if (File.Exists(path))

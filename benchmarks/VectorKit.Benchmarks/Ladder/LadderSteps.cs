@@ -134,33 +134,45 @@ internal static class LadderSteps
         else
         {
             int lists = Lists(count);
+            bool fastScan = kind == "ivf-fastscan";
+
+            // Fast scan: 4-bit codes, two per byte, so d / 2 bytes give one sub-space per dimension (16 levels each).
             index = new InvertedFileIndex(d, DistanceMetric.SquaredEuclidean, new InvertedFileOptions
             {
                 ListCount = lists, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = d / 2, RescoreDepth = 100,
+                ProductCodeLayout = fastScan ? ProductCodeLayout.FourBitFastScan : ProductCodeLayout.BytePerSubspace,
                 FullVectors = FullVectorLocation.ExternalSource, MaxDegreeOfParallelism = 2,
             });
-            settings = $"{lists} lists, {d / 2}-byte product codes, full vectors re-scored from the data file";
+            settings = fastScan
+                ? $"{lists} lists, {d / 2}-byte four-bit fast-scan codes ({d} sub-spaces of 16 codewords), full vectors re-scored from the data file"
+                : $"{lists} lists, {d / 2}-byte product codes, full vectors re-scored from the data file";
         }
 
         using (index)
         {
             index.AttachFullVectors(source);
             int sample = (int)Math.Min(count, kind == "graph-8bit" ? 100_000 : Math.Max(100_000, 40 * Lists(count)));
+            using var memory = new LadderMemory();
             var watch = Stopwatch.StartNew();
-            StreamingBuildReport report = StreamingBuild.Build(index, dataPath, new StreamingBuildOptions { SampleSize = sample }, new ConsoleProgress(kind, watch));
+            StreamingBuildReport report = StreamingBuild.Build(index, dataPath, new StreamingBuildOptions { SampleSize = sample }, new ConsoleProgress(kind, watch, memory));
             double buildSeconds = watch.Elapsed.TotalSeconds;
+            memory.Stage("sweep");
+            string memoryNote = memory.AfterBuild(index.MemoryBytes);
             var result = new LadderResult
             {
                 Kind = kind,
                 BuildSeconds = buildSeconds,
                 BytesPerVector = index.MemoryBytes / (double)index.Count,
-                Notes = $"{settings}; trained on {report.TrainingRows:N0} strided rows",
+                Notes = $"{settings}; trained on {report.TrainingRows:N0} strided rows; {memoryNote}",
             };
             Console.Error.WriteLine($"{kind}: built {report.RowsAdded:N0} rows in {buildSeconds:F0} s; {result.BytesPerVector:F0} bytes/vector");
 
-            (int Width, int Depth)[] grid = kind == "graph-8bit"
-                ? [.. Grid([10, 16, 24, 32, 48, 64, 96, 128, 192, 256, 384, 512, 768, 1024], [0, 20, 50, 100])]
-                : [.. Grid([1, 2, 4, 8, 16, 32, 64, 128], [0, 20, 50, 100, 200])];
+            (int Width, int Depth)[] grid = kind switch
+            {
+                "graph-8bit" => [.. Grid([10, 16, 24, 32, 48, 64, 96, 128, 192, 256, 384, 512, 768, 1024], [0, 20, 50, 100])],
+                "ivf-fastscan" => [.. Grid([1, 2, 4, 6, 8, 12, 16, 24, 32, 48, 64, 128], [10, 20, 30, 50, 100, 200])],
+                _ => [.. Grid([1, 2, 4, 8, 16, 32, 64, 128], [0, 20, 50, 100, 200])],
+            };
             var done = new HashSet<int>();
             var previous = new Dictionary<int, double>();
             foreach ((int width, int depth) in grid)
@@ -188,9 +200,70 @@ internal static class LadderSteps
                 previous[depth] = recall;
             }
 
+            if (kind != "graph-8bit" && result.Cheapest(0.90) is { } chosen)
+            {
+                (int probes, int depth) = ParseSetting(chosen.Setting);
+                Console.Error.WriteLine(QueryProfile(index, source, queries, probes, depth));
+            }
+
             result.PeakResidentMiB = PeakResidentMiB();
+            Console.Error.WriteLine(memory.Summary());
             result.Save(resultPath);
         }
+    }
+
+    // "8 lists probed, re-scoring 50" (or ", no re-scoring") back to its numbers.
+    private static (int Probes, int Depth) ParseSetting(string setting)
+    {
+        string[] parts = setting.Split(", ");
+        int probes = int.Parse(parts[0].Split(' ')[0], CultureInfo.InvariantCulture);
+        int depth = parts[1].StartsWith("re-scoring ", StringComparison.Ordinal) ? int.Parse(parts[1]["re-scoring ".Length..], CultureInfo.InvariantCulture) : 0;
+        return (probes, depth);
+    }
+
+    /// <summary>
+    /// Where one query's time goes at a setting, from differences of single-thread timings on the same queries: one probe
+    /// without re-scoring (centroid search + one list), the setting without re-scoring (+ the other lists), the setting
+    /// itself (+ re-scoring), and the file's positional reads alone for the same number of random rows.
+    /// </summary>
+    private static string QueryProfile(VectorIndex index, FileVectorSource source, VectorSet queries, int probes, int depth)
+    {
+        double one = MicrosecondsPerQuery(index, queries, new SearchOptions { SearchWidth = 1, RescoreDepth = 0 });
+        double scan = MicrosecondsPerQuery(index, queries, new SearchOptions { SearchWidth = probes, RescoreDepth = 0 });
+        double full = MicrosecondsPerQuery(index, queries, new SearchOptions { SearchWidth = probes, RescoreDepth = depth });
+        double perList = probes > 1 ? (scan - one) / (probes - 1) : double.NaN;
+        var random = new Random(5);
+        var row = new float[queries.Dimension];
+        const int reads = 20_000;
+        var watch = Stopwatch.StartNew();
+        for (int i = 0; i < reads; i++)
+        {
+            source.TryGetVector(random.NextInt64(source.Count), row);
+        }
+
+        double readMicroseconds = watch.Elapsed.TotalMicroseconds / reads;
+        return string.Create(CultureInfo.InvariantCulture,
+            $"profile at {probes} probed, re-scoring {depth}: {full:F0} µs/query = centroid search + first list {one:F0} µs, {probes - 1} more lists {scan - one:F0} µs ({perList:F1} µs each), re-scoring {full - scan:F0} µs ({(full - scan) / Math.Max(1, depth):F2} µs per candidate; a random positional read alone {readMicroseconds:F2} µs)");
+    }
+
+    private static double MicrosecondsPerQuery(VectorIndex index, VectorSet queries, SearchOptions options)
+    {
+        int d = queries.Dimension;
+        int q = queries.Count;
+        var hits = new SearchHit[K];
+        double best = double.PositiveInfinity;
+        for (int pass = 0; pass < 3; pass++)
+        {
+            var watch = Stopwatch.StartNew();
+            for (int i = 0; i < q; i++)
+            {
+                index.Search(queries.Data.AsSpan(i * d, d), hits, options);
+            }
+
+            best = Math.Min(best, watch.Elapsed.TotalMicroseconds / q);
+        }
+
+        return best;
     }
 
     public static int Lists(long count)
@@ -294,12 +367,13 @@ internal static class LadderSteps
         return truth;
     }
 
-    private sealed class ConsoleProgress(string kind, Stopwatch watch) : IProgress<StreamingBuildProgress>
+    private sealed class ConsoleProgress(string kind, Stopwatch watch, LadderMemory memory) : IProgress<StreamingBuildProgress>
     {
         private long _nextReport;
 
         public void Report(StreamingBuildProgress value)
         {
+            memory.Stage(value.Stage.ToString());
             if (value.Stage == StreamingBuildStage.Training)
             {
                 Console.Error.WriteLine($"{kind}: training {(value.Completed == 0 ? "starts" : "done")} at {watch.Elapsed.TotalSeconds:F0} s");
