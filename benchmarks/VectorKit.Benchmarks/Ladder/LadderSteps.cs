@@ -6,6 +6,7 @@ using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.IO;
+using VectorKit.Persistence;
 
 namespace VectorKit.Benchmarks.Ladder;
 
@@ -148,24 +149,52 @@ internal static class LadderSteps
                 : $"{lists} lists, {d / 2}-byte product codes, full vectors re-scored from the data file";
         }
 
+        // The built index is saved beside the result, so a later run sweeps it again (a changed search path, another
+        // full-vector source) without rebuilding; the build's time and memory come from the first run's notes.
+        string saved = Path.ChangeExtension(resultPath, ".index");
+        string buildNotes = Path.ChangeExtension(resultPath, ".build");
+        bool reuse = File.Exists(saved) && File.Exists(buildNotes);
+        if (reuse)
+        {
+            index.Dispose();
+            index = (VectorIndex)IndexFile.Load(saved);
+            Console.Error.WriteLine($"{kind}: loaded the index built earlier from {saved}");
+        }
+
         using (index)
         {
             index.AttachFullVectors(source);
             int sample = (int)Math.Min(count, kind == "graph-8bit" ? 100_000 : Math.Max(100_000, 40 * Lists(count)));
             using var memory = new LadderMemory();
-            var watch = Stopwatch.StartNew();
-            StreamingBuildReport report = StreamingBuild.Build(index, dataPath, new StreamingBuildOptions { SampleSize = sample }, new ConsoleProgress(kind, watch, memory));
-            double buildSeconds = watch.Elapsed.TotalSeconds;
+            double buildSeconds;
+            string memoryNote;
+            long trainingRows;
+            if (reuse)
+            {
+                string[] lines = File.ReadAllLines(buildNotes);
+                buildSeconds = double.Parse(lines[0], CultureInfo.InvariantCulture);
+                trainingRows = long.Parse(lines[1], CultureInfo.InvariantCulture);
+                memoryNote = lines[2] + " (measured in the build's process; this sweep loaded the saved index)";
+            }
+            else
+            {
+                var watch = Stopwatch.StartNew();
+                StreamingBuildReport report = StreamingBuild.Build(index, dataPath, new StreamingBuildOptions { SampleSize = sample }, new ConsoleProgress(kind, watch, memory));
+                buildSeconds = watch.Elapsed.TotalSeconds;
+                trainingRows = report.TrainingRows;
+                memoryNote = memory.AfterBuild(index.MemoryBytes) + "; " + memory.Summary() + string.Create(CultureInfo.InvariantCulture, $"; peak resident after the build {PeakResidentMiB():F0} MiB");
+                IndexFile.Save(index, saved);
+            }
+
             memory.Stage("sweep");
-            string memoryNote = memory.AfterBuild(index.MemoryBytes);
             var result = new LadderResult
             {
                 Kind = kind,
                 BuildSeconds = buildSeconds,
                 BytesPerVector = index.MemoryBytes / (double)index.Count,
-                Notes = $"{settings}; trained on {report.TrainingRows:N0} strided rows; {memoryNote}",
+                Notes = $"{settings}; trained on {trainingRows:N0} strided rows; {memoryNote}",
             };
-            Console.Error.WriteLine($"{kind}: built {report.RowsAdded:N0} rows in {buildSeconds:F0} s; {result.BytesPerVector:F0} bytes/vector");
+            Console.Error.WriteLine($"{kind}: {index.Count:N0} rows built in {buildSeconds:F0} s; {result.BytesPerVector:F0} bytes/vector");
 
             (int Width, int Depth)[] grid = kind switch
             {
@@ -206,11 +235,22 @@ internal static class LadderSteps
                 Console.Error.WriteLine(QueryProfile(index, source, queries, probes, depth));
             }
 
-            result.PeakResidentMiB = PeakResidentMiB();
             Console.Error.WriteLine(memory.Summary());
+            if (reuse)
+            {
+                result.PeakResidentMiB = double.Parse(File.ReadAllLines(buildNotes)[3], CultureInfo.InvariantCulture);
+            }
+            else
+            {
+                result.PeakResidentMiB = PeakResidentMiB();
+                File.WriteAllLines(buildNotes, [F(buildSeconds), F(trainingRows), memoryNote, F(result.PeakResidentMiB)]);
+            }
+
             result.Save(resultPath);
         }
     }
+
+    private static string F(double value) => value.ToString("R", CultureInfo.InvariantCulture);
 
     // "8 lists probed, re-scoring 50" (or ", no re-scoring") back to its numbers.
     private static (int Probes, int Depth) ParseSetting(string setting)
