@@ -139,7 +139,7 @@ internal static class LadderHarness
 
     private static void PrintTable(string folder, long count, int d)
     {
-        Console.WriteLine("| kind | build (s) | bytes/vector | peak resident (MiB) | q/s @ recall ≥ 0.90 | setting (recall) | q/s @ recall ≥ 0.95 | setting (recall) |");
+        Console.WriteLine("| kind | build (s) | bytes/vector | peak resident (MiB) | q/s @ recall ≥ 0.90 (per CPU-s) | setting (recall) | q/s @ recall ≥ 0.95 (per CPU-s) | setting (recall) |");
         Console.WriteLine("|---|---:|---:|---:|---:|---|---:|---|");
         foreach ((long c, int dd, LadderResult r) in Results(Path.GetDirectoryName(folder)!).Where(x => x.Count == count && x.Dimension == d))
         {
@@ -155,7 +155,7 @@ internal static class LadderHarness
             $"| {r.Kind} | {r.BuildSeconds:F1} | {r.BytesPerVector:F0} | {r.PeakResidentMiB:F0} | {Qps(a)} | {Setting(a)} | {Qps(b)} | {Setting(b)} |");
     }
 
-    private static string Qps(LadderPoint? p) => p is null ? "not reached" : p.QueriesPerSecond.ToString("F0", CultureInfo.InvariantCulture);
+    private static string Qps(LadderPoint? p) => p is null ? "not reached" : string.Create(CultureInfo.InvariantCulture, $"{p.QueriesPerSecond:F0} ({p.CpuQueriesPerSecond:F0})");
 
     private static string Setting(LadderPoint? p) => p is null ? "–" : string.Create(CultureInfo.InvariantCulture, $"{p.Setting} ({p.Recall:F4})");
 
@@ -166,24 +166,24 @@ internal static class LadderHarness
         using (var tsv = new StreamWriter(Path.Combine(root, "ladder.tsv")))
         {
             // The mapped-open columns stay empty until mapped opening exists to measure (time to first query, cold and warm q/s).
-            tsv.WriteLine("count\tdimension\tkind\tbuild_seconds\tbytes_per_vector\tpeak_resident_mib\tqps_at_0.90\tsetting_at_0.90\trecall_at_0.90\tqps_at_0.95\tsetting_at_0.95\trecall_at_0.95\tmapped_first_query_ms\tmapped_cold_qps\tmapped_warm_qps\tnotes");
+            tsv.WriteLine("count\tdimension\tkind\tbuild_seconds\tbytes_per_vector\tpeak_resident_mib\tqps_at_0.90\tcpu_qps_at_0.90\tsetting_at_0.90\trecall_at_0.90\tqps_at_0.95\tcpu_qps_at_0.95\tsetting_at_0.95\trecall_at_0.95\tmapped_first_query_ms\tmapped_cold_qps\tmapped_warm_qps\tnotes");
             foreach ((long count, int d, LadderResult r) in all)
             {
                 LadderPoint? a = r.Cheapest(0.90);
                 LadderPoint? b = r.Cheapest(0.95);
                 tsv.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                    $"{count}\t{d}\t{r.Kind}\t{r.BuildSeconds:F2}\t{r.BytesPerVector:F1}\t{r.PeakResidentMiB:F0}\t{a?.QueriesPerSecond:F1}\t{a?.Setting}\t{a?.Recall:F4}\t{b?.QueriesPerSecond:F1}\t{b?.Setting}\t{b?.Recall:F4}\t\t\t\t{r.Notes}"));
+                    $"{count}\t{d}\t{r.Kind}\t{r.BuildSeconds:F2}\t{r.BytesPerVector:F1}\t{r.PeakResidentMiB:F0}\t{a?.QueriesPerSecond:F1}\t{a?.CpuQueriesPerSecond:F1}\t{a?.Setting}\t{a?.Recall:F4}\t{b?.QueriesPerSecond:F1}\t{b?.CpuQueriesPerSecond:F1}\t{b?.Setting}\t{b?.Recall:F4}\t\t\t\t{r.Notes}"));
             }
         }
 
         using (var points = new StreamWriter(Path.Combine(root, "ladder-points.tsv")))
         {
-            points.WriteLine("count\tdimension\tkind\tsetting\trecall_at_10\tqueries_per_second");
+            points.WriteLine("count\tdimension\tkind\tsetting\trecall_at_10\tqueries_per_second\tqueries_per_cpu_second");
             foreach ((long count, int d, LadderResult r) in all)
             {
                 foreach (LadderPoint p in r.Points)
                 {
-                    points.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{count}\t{d}\t{r.Kind}\t{p.Setting}\t{p.Recall:F4}\t{p.QueriesPerSecond:F1}"));
+                    points.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{count}\t{d}\t{r.Kind}\t{p.Setting}\t{p.Recall:F4}\t{p.QueriesPerSecond:F1}\t{p.CpuQueriesPerSecond:F1}"));
                 }
             }
         }
