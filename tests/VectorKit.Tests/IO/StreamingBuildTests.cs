@@ -94,7 +94,7 @@ public sealed class StreamingBuildTests : IDisposable
     }
 
     [Fact]
-    public void FastScanLayout_StreamedFromNpy_ReScoresFromTheFile_ToTheNaiveNeighbours()
+    public void FastScanLayout_StreamedFromNpy_ReScoresFromTheMappedFile_ToTheNaiveNeighbours()
     {
         const int n = 5000;
         float[] data = ClusteredData.Generate(n, D, 25, 0.3f, seed: 71);
@@ -107,7 +107,7 @@ public sealed class StreamingBuildTests : IDisposable
             naive.Add(i, data.AsSpan(i * D, D));
         }
 
-        using FileVectorSource source = StreamingBuild.OpenFullVectors(path);
+        using FileVectorSource source = StreamingBuild.OpenFullVectors(path, reads: FileVectorReads.Mapped);
         using VectorIndex index = Create("inverted-file-fast-scan", source);
         StreamingBuildReport report = StreamingBuild.Build(index, path, new StreamingBuildOptions { BlockRows = 700, SampleSize = 1000 });
         Assert.Equal(n, report.RowsAdded);
@@ -266,6 +266,12 @@ public sealed class StreamingBuildTests : IDisposable
         var row = new float[D];
         Assert.True(source.TryGetVector(1234, row));
         Assert.Equal(bytes.AsSpan(1234 * D, D).ToArray().Select(b => (float)b), row);
+        using (FileVectorSource mapped = StreamingBuild.OpenFullVectors(path, reads: FileVectorReads.Mapped))
+        {
+            var copy = new float[D];
+            Assert.True(mapped.TryGetVector(1234, copy));
+            Assert.Equal(row, copy);
+        }
 
         using VectorIndex index = Create("graph-8bit", source);
         StreamingBuild.Build(index, path, new StreamingBuildOptions { BlockRows = 200, SampleSize = 300 });
