@@ -113,7 +113,7 @@ internal static class LadderSteps
         result.Save(resultPath);
     }
 
-    public static void BuildAndSweep(string kind, string dataPath, string queryPath, string truthPath, string resultPath)
+    public static void BuildAndSweep(string kind, string dataPath, string queryPath, string truthPath, string resultPath, FileVectorReads reads)
     {
         VectorSet queries = NpyOrFvecs(queryPath);
         long[][] truth = ReadTruth(truthPath);
@@ -124,7 +124,7 @@ internal static class LadderSteps
             count = reader.Count;
         }
 
-        using FileVectorSource source = StreamingBuild.OpenFullVectors(dataPath);
+        using FileVectorSource source = StreamingBuild.OpenFullVectors(dataPath, reads: reads);
         VectorIndex index;
         string settings;
         if (kind == "graph-8bit")
@@ -195,7 +195,7 @@ internal static class LadderSteps
                 Kind = kind,
                 BuildSeconds = buildSeconds,
                 BytesPerVector = index.MemoryBytes / (double)index.Count,
-                Notes = $"{settings}; trained on {trainingRows:N0} strided rows; {memoryNote}",
+                Notes = $"{settings} ({(reads == FileVectorReads.Mapped ? "mapped" : "positional reads")}); trained on {trainingRows:N0} strided rows; {memoryNote}",
             };
             Console.Error.WriteLine($"{kind}: {index.Count:N0} rows built in {buildSeconds:F0} s; {result.BytesPerVector:F0} bytes/vector");
 
