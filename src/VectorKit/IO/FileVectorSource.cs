@@ -121,7 +121,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
             dataStart = reader.DataStart;
             count = reader.Count;
             dimension = reader.Dimension;
-            length = new FileInfo(path).Length;
+            length = LengthOf(path);
         }
 
         return Open(path, "npy", dataStart, count, dimension, prefixed: false, rowIds, length, reads);
@@ -153,7 +153,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
         {
             dimension = reader.Dimension;
             count = reader.Count;
-            length = new FileInfo(path).Length;
+            length = LengthOf(path);
         }
 
         if (dimension == 0)
@@ -218,7 +218,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
             DataFormatThrow.ArgumentNull(nameof(path));
         }
 
-        long length = new FileInfo(path).Length;
+        long length = LengthOf(path);
         long rowBytes = (long)dimension * sizeof(float);
         if (length % rowBytes != 0)
         {
@@ -333,6 +333,14 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
 
     /// <summary>Whether rows are copied from a read-only mapping of the file rather than read with positional reads.</summary>
     public bool IsMapped => _mapped is not null;
+
+    // The length of the file a path names, through any symbolic links (FileInfo.Length is the link's own size), as the
+    // handle opened for reading later sees it.
+    private static long LengthOf(string path)
+    {
+        using SafeFileHandle handle = File.OpenHandle(path, FileMode.Open, FileAccess.Read, FileShare.ReadWrite);
+        return RandomAccess.GetLength(handle);
+    }
 
     private static FileVectorReads CheckReads(FileVectorReads reads)
     {

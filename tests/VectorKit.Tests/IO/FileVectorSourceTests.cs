@@ -243,6 +243,31 @@ public sealed class FileVectorSourceTests : IDisposable
     }
 
     [Fact]
+    public void SymbolicLinkToTheFile_OpensAndReadsTheTarget_ForEveryLayout()
+    {
+        // Regression: the length checked at opening was the link's own size, so every linked data file was refused
+        // as "changed length". Creating links needs no privilege on Linux and macOS, where CI runs.
+        if (OperatingSystem.IsWindows())
+        {
+            return;
+        }
+
+        const int D = 5;
+        float[] data = Enumerable.Range(0, 7 * D).Select(i => i * 0.5f).ToArray();
+        foreach ((Layout layout, FileVectorReads reads) in LayoutsAndReads())
+        {
+            string target = Write(layout, data, D);
+            string link = Path.Combine(_directory, $"link-{Guid.NewGuid():N}{Path.GetExtension(target)}");
+            File.CreateSymbolicLink(link, target);
+            using FileVectorSource source = Open(layout, link, D, null, reads);
+            Assert.Equal(7, source.Count);
+            var row = new float[D];
+            Assert.True(source.TryGetVector(6, row));
+            Assert.Equal(data.AsSpan(6 * D, D).ToArray(), row);
+        }
+    }
+
+    [Fact]
     public void Mapped_DisposeWhileOtherThreadsRead_EndsTheirReadsWithObjectDisposed_NeverAWrongRow()
     {
         const int Rows = 500, D = 16;
