@@ -23,7 +23,7 @@ namespace VectorKit.Benchmarks;
 /// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>; the exact
 /// index's batch search against the numpy + OpenBLAS baseline: <c>exact-batch-vs-blas [repetitions] [reference queries] [baseline ids]</c>;
 /// recall-targeted tuning of every kind beside its untuned defaults: <c>tuning [fashion-mnist|text|clustered] [target] [cosine|-] [count] [dimension] [kinds]</c>;
-/// the ladder of streamed builds from 10³ to 10⁷ rows on disk: <c>ladder [rungs=3,4,5,6,7] [dim=128] [kinds=ivf-pq,graph-8bit] [queries=1000] [format=npy|fvecs] [dir=...]</c>.
+/// the ladder of streamed builds from 10³ to 10⁷ rows on disk: <c>ladder [rungs=3,4,5,6,7] [dim=128] [kinds=ivf-fastscan,ivf-pq,graph-8bit] [queries=1000] [format=npy|fvecs] [reads=mapped|positional] [dir=...]</c>.
 /// </summary>
 public static class Program
 {

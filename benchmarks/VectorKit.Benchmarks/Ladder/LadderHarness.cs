@@ -1,5 +1,6 @@
 using System.Diagnostics;
 using System.Globalization;
+using VectorKit.IO;
 
 namespace VectorKit.Benchmarks.Ladder;
 
@@ -12,7 +13,8 @@ namespace VectorKit.Benchmarks.Ladder;
 /// </summary>
 /// <remarks>
 /// Arguments (any order): <c>rungs=3,4,5,6,7</c> (exponents; <c>8x64</c> is 10⁸ × 64), <c>dim=128</c>,
-/// <c>kinds=ivf-pq,graph-8bit</c>, <c>queries=1000</c>, <c>format=npy|fvecs</c>, <c>dir=BenchmarkDotNet.Artifacts/ladder</c>.
+/// <c>kinds=ivf-fastscan,ivf-pq,graph-8bit</c>, <c>queries=1000</c>, <c>format=npy|fvecs</c>, <c>reads=mapped|positional</c>
+/// (how re-scoring reads the data file), <c>dir=BenchmarkDotNet.Artifacts/ladder</c>.
 /// A rung's data and ground truth are kept in its folder and reused by later runs; <c>rungs=</c> (empty) only rewrites the
 /// summary files from the results already there (after steps run by hand with <c>ladder-step</c>).
 /// </remarks>
@@ -25,7 +27,8 @@ internal static class LadderHarness
         int defaultDimension = int.Parse(options.GetValueOrDefault("dim", "128"), CultureInfo.InvariantCulture);
         int queries = int.Parse(options.GetValueOrDefault("queries", "1000"), CultureInfo.InvariantCulture);
         string format = options.GetValueOrDefault("format", "npy");
-        string[] kinds = options.GetValueOrDefault("kinds", "ivf-pq,graph-8bit").Split(',');
+        string reads = options.GetValueOrDefault("reads", "mapped");
+        string[] kinds = options.GetValueOrDefault("kinds", "ivf-fastscan,ivf-pq,graph-8bit").Split(',');
         Directory.CreateDirectory(root);
         Console.WriteLine($"ladder: {Environment.ProcessorCount} cores, {root}; single-thread queries, builds on 2 threads; each step in its own process");
         // rungs= (empty) measures nothing and only rewrites the table, TSVs and plot from the results already there.
@@ -34,14 +37,14 @@ internal static class LadderHarness
             string[] parts = rung.Split('x');
             long count = checked((long)Math.Pow(10, int.Parse(parts[0], CultureInfo.InvariantCulture)));
             int d = parts.Length > 1 ? int.Parse(parts[1], CultureInfo.InvariantCulture) : defaultDimension;
-            RunRung(root, count, d, queries, format, kinds);
+            RunRung(root, count, d, queries, format, kinds, reads);
             Summarise(root);
         }
 
         Summarise(root);
     }
 
-    /// <summary>A child process's entry: <c>ladder-step data|truth|ivf-pq|graph-8bit folder count dimension queries format</c>.</summary>
+    /// <summary>A child process's entry: <c>ladder-step data|truth|ivf-fastscan|ivf-pq|graph-8bit folder count dimension queries format [positional|mapped]</c>.</summary>
     public static void Step(string[] args)
     {
         string step = args[1];
@@ -62,12 +65,13 @@ internal static class LadderHarness
                 LadderSteps.Truth(data, query, truth, Path.Combine(folder, "exact.result"));
                 break;
             default:
-                LadderSteps.BuildAndSweep(step, data, query, truth, Path.Combine(folder, $"{step}.result"));
+                FileVectorReads reads = args.Length > 7 && args[7] == "mapped" ? FileVectorReads.Mapped : FileVectorReads.Positional;
+                LadderSteps.BuildAndSweep(step, data, query, truth, Path.Combine(folder, $"{step}.result"), reads);
                 break;
         }
     }
 
-    private static void RunRung(string root, long count, int d, int queries, string format, string[] kinds)
+    private static void RunRung(string root, long count, int d, int queries, string format, string[] kinds, string reads)
     {
         string folder = Path.Combine(root, $"n{count}-d{d}");
         Directory.CreateDirectory(folder);
@@ -82,22 +86,22 @@ internal static class LadderHarness
         Console.WriteLine();
         Console.WriteLine($"rung {count:N0} × {d}: {LadderData.Clusters(count):N0} clusters, spread {LadderData.Spread}, {queries:N0} queries from the same centres, {format} on disk");
         var watch = Stopwatch.StartNew();
-        Child("data", folder, count, d, queries, format);
+        Child("data", folder, count, d, queries, format, reads);
         if (!File.Exists(Path.Combine(folder, "truth.bin")) || !File.Exists(Path.Combine(folder, "exact.result")))
         {
-            Child("truth", folder, count, d, queries, format);
+            Child("truth", folder, count, d, queries, format, reads);
         }
 
         foreach (string kind in kinds)
         {
-            Child(kind, folder, count, d, queries, format);
+            Child(kind, folder, count, d, queries, format, reads);
         }
 
         Console.WriteLine($"rung {count:N0} × {d} took {watch.Elapsed.TotalMinutes:F1} min");
         PrintTable(folder, count, d);
     }
 
-    private static void Child(string step, string folder, long count, int d, int queries, string format)
+    private static void Child(string step, string folder, long count, int d, int queries, string format, string reads)
     {
         string self = Environment.ProcessPath!;
         var start = new ProcessStartInfo(self) { UseShellExecute = false };
@@ -106,7 +110,7 @@ internal static class LadderHarness
             start.ArgumentList.Add(typeof(LadderHarness).Assembly.Location);
         }
 
-        foreach (string a in new[] { "ladder-step", step, folder, count.ToString(CultureInfo.InvariantCulture), d.ToString(CultureInfo.InvariantCulture), queries.ToString(CultureInfo.InvariantCulture), format })
+        foreach (string a in new[] { "ladder-step", step, folder, count.ToString(CultureInfo.InvariantCulture), d.ToString(CultureInfo.InvariantCulture), queries.ToString(CultureInfo.InvariantCulture), format, reads })
         {
             start.ArgumentList.Add(a);
         }
@@ -126,7 +130,7 @@ internal static class LadderHarness
             string[] name = Path.GetFileName(folder)[1..].Split("-d");
             long count = long.Parse(name[0], CultureInfo.InvariantCulture);
             int d = int.Parse(name[1], CultureInfo.InvariantCulture);
-            foreach (string kind in new[] { "exact", "ivf-pq", "graph-8bit" })
+            foreach (string kind in new[] { "exact", "ivf-pq", "ivf-fastscan", "graph-8bit" })
             {
                 string path = Path.Combine(folder, $"{kind}.result");
                 if (File.Exists(path))
@@ -139,7 +143,7 @@ internal static class LadderHarness
 
     private static void PrintTable(string folder, long count, int d)
     {
-        Console.WriteLine("| kind | build (s) | bytes/vector | peak resident (MiB) | q/s @ recall ≥ 0.90 | setting (recall) | q/s @ recall ≥ 0.95 | setting (recall) |");
+        Console.WriteLine("| kind | build (s) | bytes/vector | peak resident (MiB) | q/s @ recall ≥ 0.90 (per CPU-s) | setting (recall) | q/s @ recall ≥ 0.95 (per CPU-s) | setting (recall) |");
         Console.WriteLine("|---|---:|---:|---:|---:|---|---:|---|");
         foreach ((long c, int dd, LadderResult r) in Results(Path.GetDirectoryName(folder)!).Where(x => x.Count == count && x.Dimension == d))
         {
@@ -155,7 +159,7 @@ internal static class LadderHarness
             $"| {r.Kind} | {r.BuildSeconds:F1} | {r.BytesPerVector:F0} | {r.PeakResidentMiB:F0} | {Qps(a)} | {Setting(a)} | {Qps(b)} | {Setting(b)} |");
     }
 
-    private static string Qps(LadderPoint? p) => p is null ? "not reached" : p.QueriesPerSecond.ToString("F0", CultureInfo.InvariantCulture);
+    private static string Qps(LadderPoint? p) => p is null ? "not reached" : string.Create(CultureInfo.InvariantCulture, $"{p.QueriesPerSecond:F0} ({p.CpuQueriesPerSecond:F0})");
 
     private static string Setting(LadderPoint? p) => p is null ? "–" : string.Create(CultureInfo.InvariantCulture, $"{p.Setting} ({p.Recall:F4})");
 
@@ -166,24 +170,24 @@ internal static class LadderHarness
         using (var tsv = new StreamWriter(Path.Combine(root, "ladder.tsv")))
         {
             // The mapped-open columns stay empty until mapped opening exists to measure (time to first query, cold and warm q/s).
-            tsv.WriteLine("count\tdimension\tkind\tbuild_seconds\tbytes_per_vector\tpeak_resident_mib\tqps_at_0.90\tsetting_at_0.90\trecall_at_0.90\tqps_at_0.95\tsetting_at_0.95\trecall_at_0.95\tmapped_first_query_ms\tmapped_cold_qps\tmapped_warm_qps\tnotes");
+            tsv.WriteLine("count\tdimension\tkind\tbuild_seconds\tbytes_per_vector\tpeak_resident_mib\tqps_at_0.90\tcpu_qps_at_0.90\tsetting_at_0.90\trecall_at_0.90\tqps_at_0.95\tcpu_qps_at_0.95\tsetting_at_0.95\trecall_at_0.95\tmapped_first_query_ms\tmapped_cold_qps\tmapped_warm_qps\tnotes");
             foreach ((long count, int d, LadderResult r) in all)
             {
                 LadderPoint? a = r.Cheapest(0.90);
                 LadderPoint? b = r.Cheapest(0.95);
                 tsv.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                    $"{count}\t{d}\t{r.Kind}\t{r.BuildSeconds:F2}\t{r.BytesPerVector:F1}\t{r.PeakResidentMiB:F0}\t{a?.QueriesPerSecond:F1}\t{a?.Setting}\t{a?.Recall:F4}\t{b?.QueriesPerSecond:F1}\t{b?.Setting}\t{b?.Recall:F4}\t\t\t\t{r.Notes}"));
+                    $"{count}\t{d}\t{r.Kind}\t{r.BuildSeconds:F2}\t{r.BytesPerVector:F1}\t{r.PeakResidentMiB:F0}\t{a?.QueriesPerSecond:F1}\t{a?.CpuQueriesPerSecond:F1}\t{a?.Setting}\t{a?.Recall:F4}\t{b?.QueriesPerSecond:F1}\t{b?.CpuQueriesPerSecond:F1}\t{b?.Setting}\t{b?.Recall:F4}\t\t\t\t{r.Notes}"));
             }
         }
 
         using (var points = new StreamWriter(Path.Combine(root, "ladder-points.tsv")))
         {
-            points.WriteLine("count\tdimension\tkind\tsetting\trecall_at_10\tqueries_per_second");
+            points.WriteLine("count\tdimension\tkind\tsetting\trecall_at_10\tqueries_per_second\tqueries_per_cpu_second");
             foreach ((long count, int d, LadderResult r) in all)
             {
                 foreach (LadderPoint p in r.Points)
                 {
-                    points.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{count}\t{d}\t{r.Kind}\t{p.Setting}\t{p.Recall:F4}\t{p.QueriesPerSecond:F1}"));
+                    points.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{count}\t{d}\t{r.Kind}\t{p.Setting}\t{p.Recall:F4}\t{p.QueriesPerSecond:F1}\t{p.CpuQueriesPerSecond:F1}"));
                 }
             }
         }

@@ -15,6 +15,8 @@ internal static class LadderPlot
             ("8-bit graph, recall@10 ≥ 0.95", "graph-8bit", 0.95),
             ("inverted file + product codes + re-scoring, ≥ 0.90", "ivf-pq", 0.90),
             ("inverted file + product codes + re-scoring, ≥ 0.95", "ivf-pq", 0.95),
+            ("inverted file + 4-bit fast scan + re-scoring, ≥ 0.90", "ivf-fastscan", 0.90),
+            ("inverted file + 4-bit fast scan + re-scoring, ≥ 0.95", "ivf-fastscan", 0.95),
         };
         foreach ((string label, string kind, double target) in series)
         {

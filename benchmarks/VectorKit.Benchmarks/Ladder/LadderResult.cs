@@ -2,8 +2,15 @@ using System.Globalization;
 
 namespace VectorKit.Benchmarks.Ladder;
 
-/// <summary>One search setting of one kind on one rung.</summary>
-internal sealed record LadderPoint(string Setting, double Recall, double QueriesPerSecond);
+/// <summary>
+/// One search setting of one kind on one rung: queries/s by wall clock and by the searching thread's CPU time (NaN when
+/// not measured), each the best of its passes.
+/// </summary>
+internal sealed record LadderPoint(string Setting, double Recall, double QueriesPerSecond, double CpuQueriesPerSecond = double.NaN)
+{
+    /// <summary>The rate settings are ranked by: per CPU-second when measured (steadier on a shared machine), else wall clock.</summary>
+    public double Rank => double.IsNaN(CpuQueriesPerSecond) ? QueriesPerSecond : CpuQueriesPerSecond;
+}
 
 /// <summary>What one step measured on one rung, saved as a small text file between the step's process and the ladder.</summary>
 internal sealed class LadderResult
@@ -22,7 +29,7 @@ internal sealed class LadderResult
 
     /// <summary>The fastest setting whose recall@10 meets <paramref name="target"/>, or null.</summary>
     public LadderPoint? Cheapest(double target)
-        => Points.Where(p => p.Recall >= target).OrderByDescending(p => p.QueriesPerSecond).FirstOrDefault();
+        => Points.Where(p => p.Recall >= target).OrderByDescending(p => p.Rank).FirstOrDefault();
 
     public void Save(string path)
     {
@@ -34,7 +41,7 @@ internal sealed class LadderResult
         writer.WriteLine($"notes\t{Notes}");
         foreach (LadderPoint p in Points)
         {
-            writer.WriteLine(F($"point\t{p.Setting}\t{p.Recall:R}\t{p.QueriesPerSecond:R}"));
+            writer.WriteLine(F($"point\t{p.Setting}\t{p.Recall:R}\t{p.QueriesPerSecond:R}\t{p.CpuQueriesPerSecond:R}"));
         }
 
         writer.Close();
@@ -50,7 +57,8 @@ internal sealed class LadderResult
             string[] parts = line.Split('\t');
             if (parts[0] == "point")
             {
-                points.Add(new LadderPoint(parts[1], double.Parse(parts[2], CultureInfo.InvariantCulture), double.Parse(parts[3], CultureInfo.InvariantCulture)));
+                double cpu = parts.Length > 4 ? double.Parse(parts[4], CultureInfo.InvariantCulture) : double.NaN;
+                points.Add(new LadderPoint(parts[1], double.Parse(parts[2], CultureInfo.InvariantCulture), double.Parse(parts[3], CultureInfo.InvariantCulture), cpu));
             }
             else
             {

@@ -1,4 +1,5 @@
 using System.Buffers.Binary;
+using System.IO.MemoryMappedFiles;
 using System.Runtime.InteropServices;
 using Microsoft.Win32.SafeHandles;
 using VectorKit.Indexes;
@@ -16,10 +17,12 @@ namespace VectorKit.IO;
 /// <para><b>Reads.</b> Each <see cref="TryGetVector"/> is one positional read (<see cref="RandomAccess.Read(SafeFileHandle, Span{byte}, long)"/>)
 /// straight into the caller's span (for .fvecs into a per-thread buffer, so the row's dimension prefix is checked, then
 /// copied). There is no shared stream position, no lock and no allocation on the read path. The operating system's page cache does the
-/// caching: a file that fits in free memory is read from RAM after the first touch.</para>
+/// caching: a file that fits in free memory is read from RAM after the first touch. Opened with
+/// <see cref="FileVectorReads.Mapped"/>, a read is a copy from a read-only mapping of the file instead (no system call;
+/// the file must not shrink while the source is open).</para>
 /// <para><b>Checks.</b> Opening parses and checks the header with the same rules as <see cref="NpyReader"/> and
 /// <see cref="VecsReader"/> (sizes against <see cref="DataReadLimits"/> and against the file length, before anything
-/// is allocated). A file that shrinks afterwards makes a read throw <see cref="DataFormatException"/> naming the
+/// is allocated). Under positional reads, a file that shrinks afterwards makes a read throw <see cref="DataFormatException"/> naming the
 /// offset. Values are not checked for finiteness on read: the file must hold the vectors that were added to the
 /// index that reads from it.</para>
 /// <para><b>Thread safety.</b> <see cref="TryGetVector"/> is thread-safe and may run on any number of threads at once.
@@ -36,6 +39,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     private readonly string _format;
     private readonly Dictionary<long, int>? _rowOf;
     private volatile bool _disposed;
+    private MappedRows? _mapped;
 
     // A .fvecs row with its prefix, per thread (grown to the widest row seen), so a read allocates nothing.
     [ThreadStatic]
@@ -83,18 +87,20 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     /// <param name="path">The file path.</param>
     /// <param name="rowIds">Optional: the id of each row (one per row, unique). <see langword="null"/>: a row's number is its id.</param>
     /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>
+    /// <param name="reads">Positional reads (the default) or a read-only mapping of the file; see <see cref="FileVectorReads"/>.</param>
     /// <returns>A source that owns the file handle.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="reads"/> is not a defined <see cref="FileVectorReads"/>.</exception>
     /// <exception cref="ArgumentException"><paramref name="rowIds"/> does not hold one unique id per row.</exception>
     /// <exception cref="IOException">The file cannot be opened.</exception>
     /// <exception cref="DataFormatException">
     /// The header is malformed, the dtype is not <c>&lt;f4</c>, the shape is not two-dimensional, a size exceeds a limit,
     /// or the file is shorter than the shape requires.
     /// </exception>
-    public static FileVectorSource OpenNpy(string path, long[]? rowIds = null, DataReadLimits? limits = null)
-        => DataFiles.Named(path, () => OpenNpyCore(path, rowIds, limits));
+    public static FileVectorSource OpenNpy(string path, long[]? rowIds = null, DataReadLimits? limits = null, FileVectorReads reads = FileVectorReads.Positional)
+        => DataFiles.Named(path, () => OpenNpyCore(path, rowIds, limits, CheckReads(reads)));
 
-    private static FileVectorSource OpenNpyCore(string path, long[]? rowIds, DataReadLimits? limits)
+    private static FileVectorSource OpenNpyCore(string path, long[]? rowIds, DataReadLimits? limits, FileVectorReads reads)
     {
         long dataStart;
         long count;
@@ -115,31 +121,30 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
             dataStart = reader.DataStart;
             count = reader.Count;
             dimension = reader.Dimension;
-            length = new FileInfo(path).Length;
+            length = LengthOf(path);
         }
 
-        return Open(path, "npy", dataStart, count, dimension, prefixed: false, rowIds, length);
+        return Open(path, "npy", dataStart, count, dimension, prefixed: false, rowIds, length, reads);
     }
 
     /// <summary>Opens a .fvecs file: each row a little-endian int32 dimension, then that many float32 values.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="rowIds">Optional: the id of each row (one per row, unique). <see langword="null"/>: a row's number is its id.</param>
     /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>
+    /// <param name="reads">Positional reads (the default) or a read-only mapping of the file; see <see cref="FileVectorReads"/>.</param>
     /// <returns>A source that owns the file handle.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="reads"/> is not a defined <see cref="FileVectorReads"/>.</exception>
     /// <exception cref="ArgumentException"><paramref name="rowIds"/> does not hold one unique id per row.</exception>
     /// <exception cref="IOException">The file cannot be opened.</exception>
     /// <exception cref="DataFormatException">
     /// The file is empty, its first dimension is out of range, or its length is not a whole number of rows of that
     /// dimension (a truncated or ragged file). Each row's own dimension prefix is checked when the row is read.
     /// </exception>
-    public static FileVectorSource OpenFvecs(string path, long[]? rowIds = null, DataReadLimits? limits = null)
-        => DataFiles.Named(path, () => OpenFvecsCore(path, rowIds, limits));
+    public static FileVectorSource OpenFvecs(string path, long[]? rowIds = null, DataReadLimits? limits = null, FileVectorReads reads = FileVectorReads.Positional)
+        => DataFiles.Named(path, () => OpenVecsCore(path, VecsElementType.Float32, "fvecs", sizeof(float), rowIds, limits, CheckReads(reads)));
 
-    private static FileVectorSource OpenFvecsCore(string path, long[]? rowIds, DataReadLimits? limits)
-        => OpenVecsCore(path, VecsElementType.Float32, "fvecs", sizeof(float), rowIds, limits);
-
-    private static FileVectorSource OpenVecsCore(string path, VecsElementType elementType, string format, int elementBytes, long[]? rowIds, DataReadLimits? limits)
+    private static FileVectorSource OpenVecsCore(string path, VecsElementType elementType, string format, int elementBytes, long[]? rowIds, DataReadLimits? limits, FileVectorReads reads)
     {
         long count;
         int dimension;
@@ -148,7 +153,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
         {
             dimension = reader.Dimension;
             count = reader.Count;
-            length = new FileInfo(path).Length;
+            length = LengthOf(path);
         }
 
         if (dimension == 0)
@@ -165,39 +170,42 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
                 length / rowBytes * rowBytes);
         }
 
-        return Open(path, format, 0, count, dimension, prefixed: true, rowIds, length, byteValues: elementBytes == sizeof(byte));
+        return Open(path, format, 0, count, dimension, prefixed: true, rowIds, length, reads, byteValues: elementBytes == sizeof(byte));
     }
 
     /// <summary>Opens a .bvecs file: each row a little-endian int32 dimension, then that many unsigned bytes, read as float32 values 0 to 255.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="rowIds">Optional: the id of each row (one per row, unique). <see langword="null"/>: a row's number is its id.</param>
     /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>
+    /// <param name="reads">Positional reads (the default) or a read-only mapping of the file; see <see cref="FileVectorReads"/>.</param>
     /// <returns>A source that owns the file handle.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="reads"/> is not a defined <see cref="FileVectorReads"/>.</exception>
     /// <exception cref="ArgumentException"><paramref name="rowIds"/> does not hold one unique id per row.</exception>
     /// <exception cref="IOException">The file cannot be opened.</exception>
     /// <exception cref="DataFormatException">
     /// The file is empty, its first dimension is out of range, or its length is not a whole number of rows of that
     /// dimension (a truncated or ragged file). Each row's own dimension prefix is checked when the row is read.
     /// </exception>
-    public static FileVectorSource OpenBvecs(string path, long[]? rowIds = null, DataReadLimits? limits = null)
-        => DataFiles.Named(path, () => OpenVecsCore(path, VecsElementType.UInt8, "bvecs", sizeof(byte), rowIds, limits));
+    public static FileVectorSource OpenBvecs(string path, long[]? rowIds = null, DataReadLimits? limits = null, FileVectorReads reads = FileVectorReads.Positional)
+        => DataFiles.Named(path, () => OpenVecsCore(path, VecsElementType.UInt8, "bvecs", sizeof(byte), rowIds, limits, CheckReads(reads)));
 
     /// <summary>Opens a file of raw row-major little-endian float32 values with no header.</summary>
     /// <param name="path">The file path.</param>
     /// <param name="dimension">Components per row, at least 1.</param>
     /// <param name="rowIds">Optional: the id of each row (one per row, unique). <see langword="null"/>: a row's number is its id.</param>
     /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>
+    /// <param name="reads">Positional reads (the default) or a read-only mapping of the file; see <see cref="FileVectorReads"/>.</param>
     /// <returns>A source that owns the file handle.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
     /// <exception cref="ArgumentOutOfRangeException"><paramref name="dimension"/> is less than 1 or above the limit's maximum dimension.</exception>
     /// <exception cref="ArgumentException"><paramref name="rowIds"/> does not hold one unique id per row.</exception>
     /// <exception cref="IOException">The file cannot be opened.</exception>
     /// <exception cref="DataFormatException">The file length is not a whole number of rows, or the row count exceeds the limit.</exception>
-    public static FileVectorSource OpenRaw(string path, int dimension, long[]? rowIds = null, DataReadLimits? limits = null)
-        => DataFiles.Named(path, () => OpenRawCore(path, dimension, rowIds, limits));
+    public static FileVectorSource OpenRaw(string path, int dimension, long[]? rowIds = null, DataReadLimits? limits = null, FileVectorReads reads = FileVectorReads.Positional)
+        => DataFiles.Named(path, () => OpenRawCore(path, dimension, rowIds, limits, CheckReads(reads)));
 
-    private static FileVectorSource OpenRawCore(string path, int dimension, long[]? rowIds, DataReadLimits? limits)
+    private static FileVectorSource OpenRawCore(string path, int dimension, long[]? rowIds, DataReadLimits? limits, FileVectorReads reads)
     {
         limits ??= DataReadLimits.Default;
         if (dimension < 1 || dimension > limits.MaxDimension)
@@ -210,7 +218,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
             DataFormatThrow.ArgumentNull(nameof(path));
         }
 
-        long length = new FileInfo(path).Length;
+        long length = LengthOf(path);
         long rowBytes = (long)dimension * sizeof(float);
         if (length % rowBytes != 0)
         {
@@ -226,7 +234,7 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
             DataFormatThrow.Malformed("raw float32", $"the file holds {count} rows; the limit is {limits.MaxRows}");
         }
 
-        return Open(path, "raw float32", 0, count, dimension, prefixed: false, rowIds, length);
+        return Open(path, "raw float32", 0, count, dimension, prefixed: false, rowIds, length, reads);
     }
 
     /// <summary>Copies the vector of <paramref name="id"/> from the file into <paramref name="destination"/>.</summary>
@@ -270,6 +278,11 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
 
         long offset = _dataStart + (row * _rowStride);
         Span<float> values = destination[..d];
+        if (_mapped is not null)
+        {
+            return _mapped.Copy(this, offset, row, values);
+        }
+
         if (_prefixed)
         {
             // Prefix and values in one read (one system call) through this thread's buffer, then one copy.
@@ -314,12 +327,35 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
     public void Dispose()
     {
         _disposed = true;
+        _mapped?.Dispose();
         _handle.Dispose();
     }
 
-    private static FileVectorSource Open(string path, string format, long dataStart, long count, int dimension, bool prefixed, long[]? rowIds, long checkedLength, bool byteValues = false)
+    /// <summary>Whether rows are copied from a read-only mapping of the file rather than read with positional reads.</summary>
+    public bool IsMapped => _mapped is not null;
+
+    // The length of the file a path names, through any symbolic links (FileInfo.Length is the link's own size), as the
+    // handle opened for reading later sees it.
+    private static long LengthOf(string path)
+    {
+        using SafeFileHandle handle = File.OpenHandle(path, FileMode.Open, FileAccess.Read, FileShare.ReadWrite);
+        return RandomAccess.GetLength(handle);
+    }
+
+    private static FileVectorReads CheckReads(FileVectorReads reads)
+    {
+        if (reads is not (FileVectorReads.Positional or FileVectorReads.Mapped))
+        {
+            DataFormatThrow.ArgumentOutOfRange(nameof(reads), reads, "must be Positional or Mapped");
+        }
+
+        return reads;
+    }
+
+    private static FileVectorSource Open(string path, string format, long dataStart, long count, int dimension, bool prefixed, long[]? rowIds, long checkedLength, FileVectorReads reads, bool byteValues = false)
     {
         SafeFileHandle handle = File.OpenHandle(path, FileMode.Open, FileAccess.Read, FileShare.Read, FileOptions.RandomAccess);
+        MappedRows? mapped = null;
         try
         {
             // The header was checked on a separate open; a file replaced in between must not be trusted.
@@ -329,12 +365,126 @@ public sealed class FileVectorSource : IFullVectorSource, IDisposable
                 DataFormatThrow.Malformed(format, $"the file '{path}' changed length from {checkedLength} to {length} bytes while it was being opened");
             }
 
-            return new FileVectorSource(handle, path, format, dataStart, count, dimension, prefixed, rowIds, byteValues);
+            // An empty file has no rows to read and cannot be mapped.
+            if (reads == FileVectorReads.Mapped && length > 0)
+            {
+                mapped = new MappedRows(handle, length);
+            }
+
+            return new FileVectorSource(handle, path, format, dataStart, count, dimension, prefixed, rowIds, byteValues) { _mapped = mapped };
         }
         catch
         {
+            mapped?.Dispose();
             handle.Dispose();
             throw;
+        }
+    }
+
+    // A row's bytes (with its prefix when the format has one) into float32 values: the checks of the positional path.
+    private bool Decode(ReadOnlySpan<byte> whole, long row, long offset, Span<float> values)
+    {
+        int d = Dimension;
+        if (_prefixed)
+        {
+            int found = BinaryPrimitives.ReadInt32LittleEndian(whole);
+            if (found != d)
+            {
+                DataFormatThrow.RaggedRow(_format, row, d, found, offset);
+            }
+
+            whole = whole[sizeof(int)..];
+        }
+
+        if (_byteValues)
+        {
+            for (int i = 0; i < d; i++)
+            {
+                values[i] = whole[i];
+            }
+
+            return true;
+        }
+
+        whole[..(d * sizeof(float))].CopyTo(MemoryMarshal.AsBytes(values));
+        if (!BitConverter.IsLittleEndian)
+        {
+            Span<int> raw = MemoryMarshal.Cast<float, int>(values);
+            BinaryPrimitives.ReverseEndianness(raw, raw);
+        }
+
+        return true;
+    }
+
+    /// <summary>
+    /// A read-only view of the whole file. Each copy holds a reference on the view's handle, so a concurrent
+    /// <see cref="Dispose"/> unmaps only after the copies in flight end, and a copy after it throws instead of touching
+    /// unmapped memory.
+    /// </summary>
+    private sealed unsafe class MappedRows : IDisposable
+    {
+        private readonly MemoryMappedFile _file;
+        private readonly MemoryMappedViewAccessor _view;
+        private readonly byte* _start;
+        private readonly long _length;
+
+        public MappedRows(SafeFileHandle handle, long length)
+        {
+            _file = MemoryMappedFile.CreateFromFile(handle, null, 0, MemoryMappedFileAccess.Read, HandleInheritability.None, leaveOpen: true);
+            try
+            {
+                _view = _file.CreateViewAccessor(0, 0, MemoryMappedFileAccess.Read);
+                byte* pointer = null;
+                _view.SafeMemoryMappedViewHandle.AcquirePointer(ref pointer);
+                _start = pointer + _view.PointerOffset;
+                _length = length;
+            }
+            catch
+            {
+                _view?.Dispose();
+                _file.Dispose();
+                throw;
+            }
+        }
+
+        public bool Copy(FileVectorSource source, long offset, long row, Span<float> values)
+        {
+            SafeMemoryMappedViewHandle handle = _view.SafeMemoryMappedViewHandle;
+            bool added = false;
+            try
+            {
+                handle.DangerousAddRef(ref added);
+            }
+            catch (ObjectDisposedException)
+            {
+                DataFormatThrow.Disposed(source);
+            }
+
+            try
+            {
+                // The header's checks put every row inside the length the file had when it was mapped.
+                int bytes = (int)source._rowStride;
+                if (offset < 0 || offset > _length - bytes)
+                {
+                    DataFormatThrow.Truncated(source._format, $"row {row} in '{source.FilePath}'", offset, bytes, 0);
+                }
+
+                return source.Decode(new ReadOnlySpan<byte>(_start + offset, bytes), row, offset, values);
+            }
+            finally
+            {
+                if (added)
+                {
+                    handle.DangerousRelease();
+                }
+            }
+        }
+
+        public void Dispose()
+        {
+            _view.SafeMemoryMappedViewHandle.ReleasePointer();
+            _view.Dispose();
+            _file.Dispose();
         }
     }
 

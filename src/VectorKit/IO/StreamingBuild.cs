@@ -69,19 +69,21 @@ public static class StreamingBuild
     /// </summary>
     /// <param name="path">A .fvecs, .bvecs or .npy (<c>&lt;f4</c>) file.</param>
     /// <param name="limits">Caps on the dimension and row count; <see langword="null"/> for <see cref="DataReadLimits.Default"/>.</param>
+    /// <param name="reads">Positional reads (the default) or a read-only mapping of the file; see <see cref="FileVectorReads"/>.</param>
     /// <returns>A source that owns its file handle; dispose it after the index that reads from it.</returns>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is <see langword="null"/>.</exception>
+    /// <exception cref="ArgumentOutOfRangeException"><paramref name="reads"/> is not a defined <see cref="FileVectorReads"/>.</exception>
     /// <exception cref="ArgumentException">The extension is not .fvecs, .bvecs or .npy.</exception>
     /// <exception cref="IOException">The file cannot be opened.</exception>
     /// <exception cref="DataFormatException">The file is malformed or truncated, or a .npy file's dtype is not <c>&lt;f4</c>.</exception>
-    public static FileVectorSource OpenFullVectors(string path, DataReadLimits? limits = null)
+    public static FileVectorSource OpenFullVectors(string path, DataReadLimits? limits = null, FileVectorReads reads = FileVectorReads.Positional)
     {
         ArgumentNullException.ThrowIfNull(path);
         return FormatOf(path) switch
         {
-            ".fvecs" => FileVectorSource.OpenFvecs(path, null, limits),
-            ".bvecs" => FileVectorSource.OpenBvecs(path, null, limits),
-            _ => FileVectorSource.OpenNpy(path, null, limits),
+            ".fvecs" => FileVectorSource.OpenFvecs(path, null, limits, reads),
+            ".bvecs" => FileVectorSource.OpenBvecs(path, null, limits, reads),
+            _ => FileVectorSource.OpenNpy(path, null, limits, reads),
         };
     }
 

@@ -51,9 +51,10 @@ public sealed class FileVectorSourceTests : IDisposable
             return; // a collision among random 64-bit ids: not this property's subject
         }
 
-        foreach (Layout layout in Enum.GetValues<Layout>())
+        foreach ((Layout layout, FileVectorReads reads) in LayoutsAndReads())
         {
-            using FileVectorSource source = Open(layout, Write(layout, data, d), d, ids);
+            using FileVectorSource source = Open(layout, Write(layout, data, d), d, ids, reads);
+            Assert.Equal(reads == FileVectorReads.Mapped, source.IsMapped);
             Assert.Equal(d, source.Dimension);
             Assert.Equal(rows, source.Count);
             var row = new float[d + 3];
@@ -89,9 +90,9 @@ public sealed class FileVectorSourceTests : IDisposable
         const int Rows = 2000, D = 33;
         float[] data = Enumerable.Range(0, Rows * D).Select(i => (float)i).ToArray();
         long[] ids = Enumerable.Range(0, Rows).Select(r => (long)r * 1_000_003).ToArray();
-        foreach (Layout layout in Enum.GetValues<Layout>())
+        foreach ((Layout layout, FileVectorReads reads) in LayoutsAndReads())
         {
-            using FileVectorSource source = Open(layout, Write(layout, data, D), D, ids);
+            using FileVectorSource source = Open(layout, Write(layout, data, D), D, ids, reads);
             int failures = 0;
             Parallel.For(0, 8, new ParallelOptions { MaxDegreeOfParallelism = 8 }, t =>
             {
@@ -122,12 +123,15 @@ public sealed class FileVectorSourceTests : IDisposable
         BinaryPrimitives.WriteInt32LittleEndian(bytes.AsSpan((int)offset), D + 1);
         File.WriteAllBytes(path, bytes);
 
-        using FileVectorSource source = FileVectorSource.OpenFvecs(path);
-        var row = new float[D];
-        Assert.True(source.TryGetVector(1, row));
-        var e = Assert.Throws<DataFormatException>(() => source.TryGetVector(2, row));
-        Assert.Contains("row 2 has dimension 5 but row 0 has dimension 4", e.Message, StringComparison.Ordinal);
-        Assert.Contains($"at byte offset {offset}", e.Message, StringComparison.Ordinal);
+        foreach (FileVectorReads reads in Enum.GetValues<FileVectorReads>())
+        {
+            using FileVectorSource source = FileVectorSource.OpenFvecs(path, reads: reads);
+            var row = new float[D];
+            Assert.True(source.TryGetVector(1, row));
+            var e = Assert.Throws<DataFormatException>(() => source.TryGetVector(2, row));
+            Assert.Contains("row 2 has dimension 5 but row 0 has dimension 4", e.Message, StringComparison.Ordinal);
+            Assert.Contains($"at byte offset {offset}", e.Message, StringComparison.Ordinal);
+        }
     }
 
     [Fact]
@@ -228,10 +232,86 @@ public sealed class FileVectorSourceTests : IDisposable
         File.WriteAllBytes(empty, []);
         Assert.Contains("is empty", Assert.Throws<DataFormatException>(() => FileVectorSource.OpenFvecs(empty)).Message, StringComparison.Ordinal);
 
-        var source = FileVectorSource.OpenRaw(path, D);
-        Assert.Equal("destination", Assert.Throws<ArgumentException>(() => source.TryGetVector(0, new float[D - 1])).ParamName);
+        Assert.Equal("reads", Assert.Throws<ArgumentOutOfRangeException>(() => FileVectorSource.OpenRaw(path, D, reads: (FileVectorReads)2)).ParamName);
+        foreach (FileVectorReads reads in Enum.GetValues<FileVectorReads>())
+        {
+            var source = FileVectorSource.OpenRaw(path, D, reads: reads);
+            Assert.Equal("destination", Assert.Throws<ArgumentException>(() => source.TryGetVector(0, new float[D - 1])).ParamName);
+            source.Dispose();
+            Assert.Throws<ObjectDisposedException>(() => source.TryGetVector(0, new float[D]));
+        }
+    }
+
+    [Fact]
+    public void SymbolicLinkToTheFile_OpensAndReadsTheTarget_ForEveryLayout()
+    {
+        // Regression: the length checked at opening was the link's own size, so every linked data file was refused
+        // as "changed length". Creating links needs no privilege on Linux and macOS, where CI runs.
+        if (OperatingSystem.IsWindows())
+        {
+            return;
+        }
+
+        const int D = 5;
+        float[] data = Enumerable.Range(0, 7 * D).Select(i => i * 0.5f).ToArray();
+        foreach ((Layout layout, FileVectorReads reads) in LayoutsAndReads())
+        {
+            string target = Write(layout, data, D);
+            string link = Path.Combine(_directory, $"link-{Guid.NewGuid():N}{Path.GetExtension(target)}");
+            File.CreateSymbolicLink(link, target);
+            using FileVectorSource source = Open(layout, link, D, null, reads);
+            Assert.Equal(7, source.Count);
+            var row = new float[D];
+            Assert.True(source.TryGetVector(6, row));
+            Assert.Equal(data.AsSpan(6 * D, D).ToArray(), row);
+        }
+    }
+
+    [Fact]
+    public void Mapped_DisposeWhileOtherThreadsRead_EndsTheirReadsWithObjectDisposed_NeverAWrongRow()
+    {
+        const int Rows = 500, D = 16;
+        float[] data = Enumerable.Range(0, Rows * D).Select(i => (float)i).ToArray();
+        var source = FileVectorSource.OpenNpy(Write(Layout.Npy, data, D), reads: FileVectorReads.Mapped);
+        int wrong = 0, disposed = 0;
+        using var started = new CountdownEvent(4);
+        Thread[] readers = [.. Enumerable.Range(0, 4).Select(t => new Thread(() =>
+        {
+            var random = new Random(t);
+            var row = new float[D];
+            started.Signal();
+            while (true)
+            {
+                int r = random.Next(Rows);
+                try
+                {
+                    if (!source.TryGetVector(r, row) || row[0] != r * D || row[D - 1] != (r * D) + D - 1)
+                    {
+                        Interlocked.Increment(ref wrong);
+                    }
+                }
+                catch (ObjectDisposedException)
+                {
+                    Interlocked.Increment(ref disposed);
+                    return;
+                }
+            }
+        }))];
+        foreach (Thread reader in readers)
+        {
+            reader.Start();
+        }
+
+        started.Wait();
+        Thread.Sleep(20);
         source.Dispose();
-        Assert.Throws<ObjectDisposedException>(() => source.TryGetVector(0, new float[D]));
+        foreach (Thread reader in readers)
+        {
+            reader.Join();
+        }
+
+        Assert.Equal(0, wrong);
+        Assert.Equal(4, disposed);
     }
 
     internal static string WriteFile(string directory, Layout layout, float[] data, int d)
@@ -270,12 +350,15 @@ public sealed class FileVectorSourceTests : IDisposable
         return path;
     }
 
-    internal static FileVectorSource Open(Layout layout, string path, int d, long[]? ids) => layout switch
+    internal static FileVectorSource Open(Layout layout, string path, int d, long[]? ids, FileVectorReads reads = FileVectorReads.Positional) => layout switch
     {
-        Layout.Npy => FileVectorSource.OpenNpy(path, ids),
-        Layout.Fvecs => FileVectorSource.OpenFvecs(path, ids),
-        _ => FileVectorSource.OpenRaw(path, d, ids),
+        Layout.Npy => FileVectorSource.OpenNpy(path, ids, reads: reads),
+        Layout.Fvecs => FileVectorSource.OpenFvecs(path, ids, reads: reads),
+        _ => FileVectorSource.OpenRaw(path, d, ids, reads: reads),
     };
+
+    private static IEnumerable<(Layout, FileVectorReads)> LayoutsAndReads()
+        => from layout in Enum.GetValues<Layout>() from reads in Enum.GetValues<FileVectorReads>() select (layout, reads);
 
     // A version 1.0 file with the header padded so the data starts at byte 64 or 128 (NEP 1).
     private static byte[] Npy(string descr, string shape, byte[] data, bool fortran)

@@ -23,7 +23,7 @@ public sealed class StreamingBuildTests : IDisposable
 
     public void Dispose() => Directory.Delete(_directory, recursive: true);
 
-    public static TheoryData<string> Kinds => new() { "inverted-file-product", "inverted-file-8bit", "graph-8bit" };
+    public static TheoryData<string> Kinds => new() { "inverted-file-product", "inverted-file-fast-scan", "inverted-file-8bit", "graph-8bit" };
 
     [Theory]
     [MemberData(nameof(Kinds))]
@@ -91,6 +91,60 @@ public sealed class StreamingBuildTests : IDisposable
         // 600 (query, neighbour) pairs: a sample of 500 rows instead of 4,000 may cost a few of them, not more.
         Assert.True(streamedRecall >= memoryRecall - 0.03, $"streamed recall {streamedRecall:F3}, in-memory {memoryRecall:F3}");
         Assert.True(memoryRecall >= 0.9, $"in-memory recall {memoryRecall:F3}");
+    }
+
+    [Fact]
+    public void FastScanLayout_StreamedFromNpy_ReScoresFromTheMappedFile_ToTheNaiveNeighbours()
+    {
+        const int n = 5000;
+        float[] data = ClusteredData.Generate(n, D, 25, 0.3f, seed: 71);
+        float[] queries = ClusteredData.Generate(50, D, 25, 0.3f, seed: 72);
+        string path = Path.Combine(_directory, "data.npy");
+        WriteNpyFloat32(path, data, n, D);
+        var naive = new NaiveIndex(D, DistanceMetric.SquaredEuclidean);
+        for (int i = 0; i < n; i++)
+        {
+            naive.Add(i, data.AsSpan(i * D, D));
+        }
+
+        using FileVectorSource source = StreamingBuild.OpenFullVectors(path, reads: FileVectorReads.Mapped);
+        using VectorIndex index = Create("inverted-file-fast-scan", source);
+        StreamingBuildReport report = StreamingBuild.Build(index, path, new StreamingBuildOptions { BlockRows = 700, SampleSize = 1000 });
+        Assert.Equal(n, report.RowsAdded);
+
+        // Every list probed: only the four-bit codes' ranking before re-scoring can lose a neighbour, and 50 re-scored
+        // candidates for 10 results leave room for their coarse distances.
+        var all = new SearchOptions { SearchWidth = 16 };
+        int found = 0;
+        var hits = new SearchHit[10];
+        for (int q = 0; q < 50; q++)
+        {
+            ReadOnlySpan<float> query = queries.AsSpan(q * D, D);
+            var truth = naive.Ranked(query).Take(10).Select(h => h.Id).ToHashSet();
+            int c = index.Search(query, hits, all);
+            Assert.Equal(10, c);
+            found += hits.Count(h => truth.Contains(h.Id));
+
+            // Re-scored distances are the exact ones, read from the file by row number.
+            foreach (SearchHit hit in hits)
+            {
+                double exact = 0;
+                for (int j = 0; j < D; j++)
+                {
+                    double diff = query[j] - data[((int)hit.Id * D) + j];
+                    exact += diff * diff;
+                }
+
+                Assert.Equal(exact, hit.Distance, 3);
+            }
+        }
+
+        Assert.True(found >= 0.95 * 500, $"{found} of 500 true neighbours found");
+
+        // A stored row finds itself at distance 0.
+        var single = new SearchHit[1];
+        Assert.Equal(1, index.Search(data.AsSpan(4321 * D, D), single, all));
+        Assert.Equal(new SearchHit(4321, 0f), single[0]);
     }
 
     [Fact]
@@ -212,6 +266,12 @@ public sealed class StreamingBuildTests : IDisposable
         var row = new float[D];
         Assert.True(source.TryGetVector(1234, row));
         Assert.Equal(bytes.AsSpan(1234 * D, D).ToArray().Select(b => (float)b), row);
+        using (FileVectorSource mapped = StreamingBuild.OpenFullVectors(path, reads: FileVectorReads.Mapped))
+        {
+            var copy = new float[D];
+            Assert.True(mapped.TryGetVector(1234, copy));
+            Assert.Equal(row, copy);
+        }
 
         using VectorIndex index = Create("graph-8bit", source);
         StreamingBuild.Build(index, path, new StreamingBuildOptions { BlockRows = 200, SampleSize = 300 });
@@ -389,6 +449,12 @@ public sealed class StreamingBuildTests : IDisposable
                 ListCount = 16, SearchWidth = 4, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = 4, RescoreDepth = 50,
                 FullVectors = FullVectorLocation.ExternalSource, MaxDegreeOfParallelism = 1,
             }),
+            "inverted-file-fast-scan" => new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions
+            {
+                ListCount = 16, SearchWidth = 4, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = 4,
+                ProductCodeLayout = ProductCodeLayout.FourBitFastScan, RescoreDepth = 50,
+                FullVectors = FullVectorLocation.ExternalSource, MaxDegreeOfParallelism = 1,
+            }),
             "inverted-file-8bit" => new InvertedFileIndex(D, DistanceMetric.SquaredEuclidean, new InvertedFileOptions
             {
                 ListCount = 16, SearchWidth = 4, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 30,
@@ -458,6 +524,26 @@ public sealed class StreamingBuildTests : IDisposable
 
         File.WriteAllBytes(path, bytes);
         return path;
+    }
+
+    private static void WriteNpyFloat32(string path, float[] data, int rows, int d)
+    {
+        string dict = $"{{'descr': '<f4', 'fortran_order': False, 'shape': ({rows}, {d}), }}";
+        int total = 10 + dict.Length + 1;
+        int padded = (total + 63) / 64 * 64;
+        string header = dict + new string(' ', padded - total) + "\n";
+        using var stream = File.Create(path);
+        stream.Write([0x93, (byte)'N', (byte)'U', (byte)'M', (byte)'P', (byte)'Y', 1, 0]);
+        Span<byte> length = stackalloc byte[2];
+        BinaryPrimitives.WriteUInt16LittleEndian(length, (ushort)header.Length);
+        stream.Write(length);
+        stream.Write(System.Text.Encoding.ASCII.GetBytes(header));
+        Span<byte> value = stackalloc byte[4];
+        foreach (float x in data)
+        {
+            BinaryPrimitives.WriteSingleLittleEndian(value, x);
+            stream.Write(value);
+        }
     }
 
     private static void WriteNpyFloat64(string path, float[] data, int rows, int d)

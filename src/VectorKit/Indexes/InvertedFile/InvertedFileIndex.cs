@@ -1,3 +1,4 @@
+using System.Buffers;
 using System.Runtime.InteropServices;
 using VectorKit.Clustering;
 using VectorKit.Distance;
@@ -522,42 +523,54 @@ public sealed partial class InvertedFileIndex : VectorIndex
             _slotOf.EnsureCapacity(_count + total);
 
             // Two passes over the batch in chunks (temporary copies stay small): assign every row to its list, grow
-            // each list once to its final size, then encode and append.
+            // each list once to its final size, then encode and append. The chunk buffers are rented: a streamed
+            // build adds thousands of batches, and fresh large arrays per batch pile up as uncollected large-object
+            // garbage between full collections.
             int chunkRows = Math.Min(AddChunk, Math.Max(1, total));
-            var rows = new float[chunkRows * d];
-            var labels = new int[total];
-            var distances = new float[chunkRows];
-            var codes = new byte[chunkRows * _codeBytes];
-            for (int start = 0; start < total; start += chunkRows)
+            float[] rows = ArrayPool<float>.Shared.Rent(chunkRows * d);
+            int[] labels = ArrayPool<int>.Shared.Rent(total);
+            float[] distances = ArrayPool<float>.Shared.Rent(chunkRows);
+            byte[] codes = ArrayPool<byte>.Shared.Rent(chunkRows * _codeBytes);
+            try
             {
-                int n = Math.Min(chunkRows, total - start);
-                Prepare(vectors.Slice(start * d, n * d), rows);
-                fixed (float* pointer = rows)
+                for (int start = 0; start < total; start += chunkRows)
                 {
-                    NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances, _options.EffectiveParallelism, cancellationToken);
-                }
-            }
-
-            // Nothing is written before this point, and nothing after it checks the token.
-            if (replace)
-            {
-                foreach (long id in ids)
-                {
-                    if (_slotOf.ContainsKey(id))
+                    int n = Math.Min(chunkRows, total - start);
+                    Prepare(vectors.Slice(start * d, n * d), rows);
+                    fixed (float* pointer = rows)
                     {
-                        RemoveOneLocked(id);
-                        replaced++;
+                        NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances.AsSpan(0, n), _options.EffectiveParallelism, cancellationToken);
                     }
                 }
-            }
 
-            GrowLists(labels);
-            for (int start = 0; start < total; start += chunkRows)
+                // Nothing is written before this point, and nothing after it checks the token.
+                if (replace)
+                {
+                    foreach (long id in ids)
+                    {
+                        if (_slotOf.ContainsKey(id))
+                        {
+                            RemoveOneLocked(id);
+                            replaced++;
+                        }
+                    }
+                }
+
+                GrowLists(labels.AsSpan(0, total));
+                for (int start = 0; start < total; start += chunkRows)
+                {
+                    int n = Math.Min(chunkRows, total - start);
+                    Prepare(vectors.Slice(start * d, n * d), rows);
+                    Encode(rows, labels.AsSpan(start, n), n, codes);
+                    Append(ids.Slice(start, n), rows, labels.AsSpan(start, n), codes, n);
+                }
+            }
+            finally
             {
-                int n = Math.Min(chunkRows, total - start);
-                Prepare(vectors.Slice(start * d, n * d), rows);
-                Encode(rows, labels.AsSpan(start, n), n, codes);
-                Append(ids.Slice(start, n), rows, labels.AsSpan(start, n), codes, n);
+                ArrayPool<float>.Shared.Return(rows);
+                ArrayPool<int>.Shared.Return(labels);
+                ArrayPool<float>.Shared.Return(distances);
+                ArrayPool<byte>.Shared.Return(codes);
             }
         }
         finally
