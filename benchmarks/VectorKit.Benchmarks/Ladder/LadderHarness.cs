@@ -64,6 +64,10 @@ internal static class LadderHarness
             case "truth":
                 LadderSteps.Truth(data, query, truth, Path.Combine(folder, "exact.result"));
                 break;
+            case "mapped-open":
+                // ladder-step mapped-open folder count dimension queries format kind probes/depth
+                LadderMappedOpen.Run(folder, data, query, truth, args[7], args[8]);
+                break;
             default:
                 FileVectorReads reads = args.Length > 7 && args[7] == "mapped" ? FileVectorReads.Mapped : FileVectorReads.Positional;
                 LadderSteps.BuildAndSweep(step, data, query, truth, Path.Combine(folder, $"{step}.result"), reads);
@@ -169,14 +173,14 @@ internal static class LadderHarness
         var all = Results(root).ToList();
         using (var tsv = new StreamWriter(Path.Combine(root, "ladder.tsv")))
         {
-            // The mapped-open columns stay empty until mapped opening exists to measure (time to first query, cold and warm q/s).
+            // The mapped-open columns come from a `mapped-open` step's file beside the result, where one was run.
             tsv.WriteLine("count\tdimension\tkind\tbuild_seconds\tbytes_per_vector\tpeak_resident_mib\tqps_at_0.90\tcpu_qps_at_0.90\tsetting_at_0.90\trecall_at_0.90\tqps_at_0.95\tcpu_qps_at_0.95\tsetting_at_0.95\trecall_at_0.95\tmapped_first_query_ms\tmapped_cold_qps\tmapped_warm_qps\tnotes");
             foreach ((long count, int d, LadderResult r) in all)
             {
                 LadderPoint? a = r.Cheapest(0.90);
                 LadderPoint? b = r.Cheapest(0.95);
                 tsv.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                    $"{count}\t{d}\t{r.Kind}\t{r.BuildSeconds:F2}\t{r.BytesPerVector:F1}\t{r.PeakResidentMiB:F0}\t{a?.QueriesPerSecond:F1}\t{a?.CpuQueriesPerSecond:F1}\t{a?.Setting}\t{a?.Recall:F4}\t{b?.QueriesPerSecond:F1}\t{b?.CpuQueriesPerSecond:F1}\t{b?.Setting}\t{b?.Recall:F4}\t\t\t\t{r.Notes}"));
+                    $"{count}\t{d}\t{r.Kind}\t{r.BuildSeconds:F2}\t{r.BytesPerVector:F1}\t{r.PeakResidentMiB:F0}\t{a?.QueriesPerSecond:F1}\t{a?.CpuQueriesPerSecond:F1}\t{a?.Setting}\t{a?.Recall:F4}\t{b?.QueriesPerSecond:F1}\t{b?.CpuQueriesPerSecond:F1}\t{b?.Setting}\t{b?.Recall:F4}\t{LadderMappedOpen.Columns(root, count, d, r.Kind)}\t{r.Notes}"));
             }
         }
 

@@ -390,10 +390,10 @@ internal static class LadderSteps
     private static VectorReader Open(string path)
         => path.EndsWith(".npy", StringComparison.Ordinal) ? NpyReader.Open(path) : VecsReader.Open(path, VecsElementType.Float32);
 
-    private static VectorSet NpyOrFvecs(string path)
+    internal static VectorSet NpyOrFvecs(string path)
         => path.EndsWith(".npy", StringComparison.Ordinal) ? NpyFile.ReadVectors(path) : VecsFile.ReadFvecs(path);
 
-    private static long[][] ReadTruth(string path)
+    internal static long[][] ReadTruth(string path)
     {
         using var reader = new BinaryReader(File.OpenRead(path));
         int q = reader.ReadInt32();

@@ -149,7 +149,7 @@ public static class MappedOpen
     }
 
     // The file's clean pages leave the page cache (no root needed); other files are untouched.
-    private static void DropFromCache(string path)
+    internal static void DropFromCache(string path)
     {
         using var file = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.ReadWrite);
         int result = PosixFadvise((int)file.SafeFileHandle.DangerousGetHandle(), 0, 0, DontNeed);
@@ -159,7 +159,7 @@ public static class MappedOpen
         }
     }
 
-    private static void WarmCache(string path)
+    internal static void WarmCache(string path)
     {
         using var file = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.Read, 1 << 20);
         byte[] block = new byte[1 << 20];
@@ -169,7 +169,7 @@ public static class MappedOpen
     }
 
     // RssAnon and RssFile of this process, in KiB.
-    private static (long Anon, long File) Resident()
+    internal static (long Anon, long File) Resident()
     {
         long anon = 0, file = 0;
         foreach (string line in File.ReadLines("/proc/self/status"))
