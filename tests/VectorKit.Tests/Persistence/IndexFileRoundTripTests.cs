@@ -165,7 +165,8 @@ public class IndexFileRoundTripTests
             loaded.Remove(moreIds[0]);
         }
 
-        GraphChecks.AssertSound(loaded);
+        // A single removal may cut a group off until the next global pass (documented), so reachability is checked after it.
+        GraphChecks.AssertSoundAfterSingleChanges(loaded);
     }
 
     [Property(MaxTest = 40)]
