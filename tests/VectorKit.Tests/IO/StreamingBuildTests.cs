@@ -526,30 +526,15 @@ public sealed class StreamingBuildTests : IDisposable
         return path;
     }
 
-    private static void WriteNpyFloat32(string path, float[] data, int rows, int d)
-    {
-        string dict = $"{{'descr': '<f4', 'fortran_order': False, 'shape': ({rows}, {d}), }}";
-        int total = 10 + dict.Length + 1;
-        int padded = (total + 63) / 64 * 64;
-        string header = dict + new string(' ', padded - total) + "\n";
-        using var stream = File.Create(path);
-        stream.Write([0x93, (byte)'N', (byte)'U', (byte)'M', (byte)'P', (byte)'Y', 1, 0]);
-        Span<byte> length = stackalloc byte[2];
-        BinaryPrimitives.WriteUInt16LittleEndian(length, (ushort)header.Length);
-        stream.Write(length);
-        stream.Write(System.Text.Encoding.ASCII.GetBytes(header));
-        Span<byte> value = stackalloc byte[4];
-        foreach (float x in data)
-        {
-            BinaryPrimitives.WriteSingleLittleEndian(value, x);
-            stream.Write(value);
-        }
-    }
+    private static void WriteNpyFloat32(string path, float[] data, int rows, int d) => WriteNpy(path, data, rows, d, doubles: false);
 
-    private static void WriteNpyFloat64(string path, float[] data, int rows, int d)
+    private static void WriteNpyFloat64(string path, float[] data, int rows, int d) => WriteNpy(path, data, rows, d, doubles: true);
+
+    // Written here, not by the library, so the reader is checked against an independent writer.
+    private static void WriteNpy(string path, float[] data, int rows, int d, bool doubles)
     {
         // NEP 1, version 1.0: magic, version, header length, a dict padded with spaces to a multiple of 64 ending in '\n'.
-        string dict = $"{{'descr': '<f8', 'fortran_order': False, 'shape': ({rows}, {d}), }}";
+        string dict = $"{{'descr': '<f{(doubles ? 8 : 4)}', 'fortran_order': False, 'shape': ({rows}, {d}), }}";
         int total = 10 + dict.Length + 1;
         int padded = (total + 63) / 64 * 64;
         string header = dict + new string(' ', padded - total) + "\n";
@@ -559,10 +544,18 @@ public sealed class StreamingBuildTests : IDisposable
         BinaryPrimitives.WriteUInt16LittleEndian(length, (ushort)header.Length);
         stream.Write(length);
         stream.Write(System.Text.Encoding.ASCII.GetBytes(header));
-        Span<byte> value = stackalloc byte[8];
+        Span<byte> value = stackalloc byte[doubles ? 8 : 4];
         foreach (float x in data)
         {
-            BinaryPrimitives.WriteDoubleLittleEndian(value, x);
+            if (doubles)
+            {
+                BinaryPrimitives.WriteDoubleLittleEndian(value, x);
+            }
+            else
+            {
+                BinaryPrimitives.WriteSingleLittleEndian(value, x);
+            }
+
             stream.Write(value);
         }
     }
