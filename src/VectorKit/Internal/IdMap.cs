@@ -50,6 +50,24 @@ internal sealed class IdMap
 
     public void EnsureCapacity(int capacity) => Writable().EnsureCapacity(capacity);
 
+    /// <summary>Entries the table holds before it must grow (removed entries' places are reused first).</summary>
+    public int Capacity => _sorted is null ? _slots.EnsureCapacity(0) : 0;
+
+    /// <summary>
+    /// A copy with room for <paramref name="capacity"/> entries, made while nothing writes to this map (readers may
+    /// read it meanwhile), so that a writer can swap it in instead of growing this one under its lock.
+    /// </summary>
+    public IdMap GrownCopy(int capacity)
+    {
+        var copy = new IdMap(capacity);
+        foreach (KeyValuePair<long, int> entry in Writable())
+        {
+            copy._slots.Add(entry.Key, entry.Value);
+        }
+
+        return copy;
+    }
+
     public void TrimExcess() => _slots.TrimExcess();
 
     public void Clear()

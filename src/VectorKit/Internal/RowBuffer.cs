@@ -52,6 +52,20 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public Span<T> RowSpan(int slot) => new(_rows + ((nint)slot * Dimension), Dimension);
 
+    /// <summary>
+    /// Zeroes rows [<paramref name="first"/>, <paramref name="first"/> + <paramref name="count"/>), which touches their
+    /// pages: a later write to them then costs no page fault (a block fresh from the system is mapped on first touch).
+    /// </summary>
+    public void ClearRows(int first, int count)
+    {
+        if (_borrowed || (uint)first > (uint)Capacity || (uint)count > (uint)(Capacity - first))
+        {
+            throw new ArgumentOutOfRangeException(nameof(count), $"rows [{first}, {first} + {count}) are not all writable rows of a buffer of capacity {Capacity}");
+        }
+
+        NativeMemory.Clear(_rows + ((nint)first * Dimension), (nuint)((long)count * Dimension * sizeof(T)));
+    }
+
     /// <summary>Rows [0, count) as one span, when that fits a span (under 2³¹ elements).</summary>
     public Span<T> Rows(int count) => new(_rows, checked(count * Dimension));
 
@@ -124,8 +138,10 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
     }
 
     /// <summary>
-    /// Frees this buffer's block and takes over <paramref name="other"/>'s (same width), leaving that one empty: a
-    /// compaction copies rows into a new buffer beside readers, then swaps blocks in a short exclusive step.
+    /// Exchanges blocks with <paramref name="other"/> (same width): this buffer takes over the other's rows and the other
+    /// keeps this one's old block, to be disposed by the caller. A compaction or growth copies rows into a new buffer
+    /// beside readers and swaps blocks in a short exclusive step; freeing a large block takes a while, so it happens
+    /// after that step, when no reader can still hold the old rows.
     /// </summary>
     public void Adopt(RowBuffer<T> other)
     {
@@ -134,13 +150,13 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
             throw new InvalidOperationException("Borrowed rows (a mapped file's) cannot change hands.");
         }
 
-        Free();
+        // The memory pressure each block added moves with it.
+        T* rows = _rows;
+        int capacity = Capacity;
         _rows = other._rows;
         Capacity = other.Capacity;
-
-        // The memory pressure other added moves with its block.
-        other._rows = null;
-        other.Capacity = 0;
+        other._rows = rows;
+        other.Capacity = capacity;
     }
 
     public void Dispose()

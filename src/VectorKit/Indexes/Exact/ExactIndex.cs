@@ -201,7 +201,7 @@ public sealed partial class ExactIndex : VectorIndex
         }
         finally
         {
-            // Empty after a swap; the unused copies after a cancellation.
+            // The old blocks after a swap; the unused copies after a cancellation.
             vectors?.Dispose();
             codes?.Dispose();
             ids.Dispose();
@@ -492,7 +492,7 @@ public sealed partial class ExactIndex : VectorIndex
         }
     }
 
-    // The short exclusive step after CopyRows: the buffers adopt the copies' memory (leaving the copies empty) and the
+    // The short exclusive step after CopyRows: the buffers exchange blocks with the copies (freed by the caller) and the
     // arrays are replaced, so a search sees the old storage or the new, never a mix.
     private void SwapIn(VectorBuffer? vectors, CodeBuffer? codes, IdColumn ids, float[] norms, IdMap? slotOf)
     {

@@ -183,8 +183,13 @@ public sealed partial class GraphIndex
         // writes) carry over; a removal still waiting to repair finds nothing queued (the rebuilt graph lacks its items).
         _waypoints.Clear();
         _waypoints.AddRange(rebuilt._waypoints);
-        _orphanNotes.Clear();
-        _orphanNotes.AddRange(rebuilt._orphanNotes);
+        lock (_orphanNotes)
+        {
+            _orphanNotes.Clear();
+            _orphanNotes.AddRange(rebuilt._orphanNotes);
+            _attachDue = _orphanNotes.Count > 0;
+        }
+
         lock (_pendingRepairs)
         {
             _pendingRepairs.Clear();
@@ -254,9 +259,8 @@ public sealed partial class GraphIndex
     }
 
     // RepairAfterRemoval in steps, for RunPendingRepairs (writer gate held exclusively, write lock not held): the lists
-    // are found and chosen again outside the write lock, then written under it, RemovalRelinkStep at a time. Nothing
-    // else changes the graph meanwhile, so choosing a batch of lists before writing them gives the same lists as
-    // choosing and writing each in turn (a new list depends on its own old one and the removed nodes' lists only).
+    // naming the removed slots are found outside the write lock and chosen again in steps (RelinkInSteps); the
+    // orphans the new lists leave are attached from AfterWrite.
     private void RepairAfterRemovalInSteps<TDistance>(int[] removed)
         where TDistance : struct, IGraphDistance
     {
@@ -267,29 +271,7 @@ public sealed partial class GraphIndex
             GraphScratch scratch = rental.Scratch;
             scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
             long[] lists = ListsNaming(scratch, removed, out complete);
-            int stride = _links.MaxLimit;
-            int[] chosen = new int[Math.Min(lists.Length, RemovalRelinkStep) * stride];
-            int[] kept = new int[RemovalRelinkStep];
-            for (int start = 0; start < lists.Length; start += RemovalRelinkStep)
-            {
-                int n = Math.Min(RemovalRelinkStep, lists.Length - start);
-                for (int i = 0; i < n; i++)
-                {
-                    long list = lists[start + i];
-                    kept[i] = ChooseAgain<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF), chosen.AsSpan(i * stride, stride));
-                }
-
-                using (_lock.EnterWrite())
-                {
-                    for (int i = 0; i < n; i++)
-                    {
-                        long list = lists[start + i];
-                        SetList((int)(list >> 8), (int)(list & 0xFF), chosen.AsSpan(i * stride, kept[i]));
-                    }
-                }
-
-                BetweenRepairSteps?.Invoke();
-            }
+            RelinkInSteps<TDistance>(scratch, lists, BetweenRepairSteps);
         }
         catch
         {
@@ -302,7 +284,40 @@ public sealed partial class GraphIndex
         using (_lock.EnterWrite())
         {
             RetireLists(removed, complete);
-            FinishChanges<TDistance>(0, 0, removed.Length, forceFullPass: false);
+            FinishChanges<TDistance>(0, 0, removed.Length, forceFullPass: false, deferAttach: true);
+        }
+    }
+
+    // Chooses `lists` (keyed slot << 8 | layer) again and writes them: chosen outside the write lock, written under it
+    // RelinkStep lists at a time, so searches run between the steps and wait at most for a step's copies. Caller holds
+    // the writer gate exclusively and not the write lock, so nothing else changes the graph meanwhile; a new list
+    // depends on its own old one and the removed nodes' lists only, so choosing a step's lists before writing them
+    // gives the lists that choosing and writing each in turn would. `between` runs after each step (for tests).
+    private void RelinkInSteps<TDistance>(GraphScratch scratch, long[] lists, Action? between)
+        where TDistance : struct, IGraphDistance
+    {
+        int stride = _links.MaxLimit;
+        int[] chosen = new int[Math.Min(lists.Length, RelinkStep) * stride];
+        int[] kept = new int[RelinkStep];
+        for (int start = 0; start < lists.Length; start += RelinkStep)
+        {
+            int n = Math.Min(RelinkStep, lists.Length - start);
+            for (int i = 0; i < n; i++)
+            {
+                long list = lists[start + i];
+                kept[i] = ChooseAgain<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF), chosen.AsSpan(i * stride, stride));
+            }
+
+            using (_lock.EnterWrite())
+            {
+                for (int i = 0; i < n; i++)
+                {
+                    long list = lists[start + i];
+                    SetList((int)(list >> 8), (int)(list & 0xFF), chosen.AsSpan(i * stride, kept[i]));
+                }
+            }
+
+            between?.Invoke();
         }
     }
 
@@ -356,7 +371,7 @@ public sealed partial class GraphIndex
 
     // Part of the global pass: every live list still naming a removed waypoint is chosen again, then the waypoints
     // lose their lists. Caller holds the writer gate exclusively and not the write lock: the lists to repair are
-    // found without it (nothing else changes the graph), and repaired under it a few at a time; the waypoints keep
+    // found without it (nothing else changes the graph) and chosen again in steps (RelinkInSteps); the waypoints keep
     // their lists until no live list names them, so walks between the steps still pass through them.
     private void RetireWaypoints<TDistance>()
         where TDistance : struct, IGraphDistance
@@ -391,28 +406,22 @@ public sealed partial class GraphIndex
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
-        var step = new WriteSteps(_lock, PassRelinkStep, BetweenPassSteps);
-        try
+        RelinkInSteps<TDistance>(scratch, [.. lists], BetweenPassSteps);
+        int[] waypoints = [.. _waypoints];
+        for (int start = 0; start < waypoints.Length; start += RelinkStep)
         {
-            foreach (long list in lists)
+            using (_lock.EnterWrite())
             {
-                step.Enter();
-                Relink<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF));
-                step.Done();
+                for (int i = start; i < Math.Min(waypoints.Length, start + RelinkStep); i++)
+                {
+                    ClearLists(waypoints[i]);
+                }
             }
 
-            step.Enter();
-            foreach (int slot in _waypoints)
-            {
-                ClearLists(slot);
-            }
+            BetweenPassSteps?.Invoke();
+        }
 
-            _waypoints.Clear();
-        }
-        finally
-        {
-            step.Leave();
-        }
+        _waypoints.Clear();
     }
 
     // Adds to `affected` (keyed slot << 8 | layer) the live nodes whose list on `layer` names `removed`, and says

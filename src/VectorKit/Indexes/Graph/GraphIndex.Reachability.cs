@@ -53,7 +53,7 @@ public sealed partial class GraphIndex
         }
     }
 
-    // Noted now, checked later under the write lock (AttachNotedOrphans): a concurrent insert may link it again meanwhile.
+    // Noted now, checked later (AttachNotedOrphans): a concurrent insert may link it again meanwhile.
     private void NoteOrphan(int slot)
     {
         lock (_orphanNotes)
@@ -62,17 +62,23 @@ public sealed partial class GraphIndex
         }
     }
 
-    // The last step of every add, removal and compaction; caller holds the write lock. Links the noted nodes (and the
-    // new slots [first, first + added)) that still have no in-link on the bottom layer, then marks the global pass due
-    // once the changes since the last one reach 1/FullPassDivisor of the items, so its O(items × links) cost is spread
-    // over at least that many changes. The pass itself runs when the write has left the write lock (RunDueFullPass).
-    private void FinishChanges<TDistance>(int first, int added, int changes, bool forceFullPass)
+    // The last step of every add, removal and compaction; caller holds the write lock. Notes the new slots
+    // [first, first + added) that have no in-link on the bottom layer and links every noted node still without one:
+    // here, or when `deferAttach`, from AfterWrite once the write has left the write lock (AttachDueOrphans). Then marks
+    // the global pass due once the changes since the last one reach 1/FullPassDivisor of the items, so its
+    // O(items × links) cost is spread over at least that many changes. The pass itself runs when the write has left
+    // the write lock (RunDueFullPass).
+    private void FinishChanges<TDistance>(int first, int added, int changes, bool forceFullPass, bool deferAttach)
         where TDistance : struct, IGraphDistance
     {
         int entry = EntrySlot(_entry);
         if (_count == 0 || entry < 0)
         {
-            _orphanNotes.Clear();
+            lock (_orphanNotes)
+            {
+                _orphanNotes.Clear();
+            }
+
             return;
         }
 
@@ -80,16 +86,49 @@ public sealed partial class GraphIndex
         {
             if (_removed[slot] == 0 && slot != entry && _links.InDegree(slot, 0) == 0)
             {
-                _orphanNotes.Add(slot);
+                NoteOrphan(slot);
             }
         }
 
-        bool overflow = AttachNotedOrphans<TDistance>();
+        bool overflow = false;
+        if (deferAttach)
+        {
+            Volatile.Write(ref _attachDue, true);
+        }
+        else
+        {
+            overflow = AttachNotedOrphans<TDistance>(lockWrites: false);
+        }
+
         _changesSinceFullPass += changes;
         if (forceFullPass || overflow || (FullPassDivisor > 0 && _changesSinceFullPass * FullPassDivisor >= _count))
         {
             _changesSinceFullPass = 0;
-            _fullPassDue = true;
+            Volatile.Write(ref _fullPassDue, true);
+        }
+    }
+
+    // Links the orphans an add or a removal noted (FinishChanges with deferAttach), after the write has left both
+    // locks. Holding the writer gate exclusively, nothing else changes the graph, so each orphan's host is searched for
+    // beside searches and only the few list writes take the write lock.
+    private void AttachDueOrphans()
+    {
+        if (!Volatile.Read(ref _attachDue))
+        {
+            return;
+        }
+
+        using var gate = _writerGate.EnterWrite();
+        if (IsDisposed || !_attachDue)
+        {
+            return;
+        }
+
+        _attachDue = false;
+        var action = new AttachAction(this);
+        if (Dispatch<AttachAction, bool>(ref action))
+        {
+            Volatile.Write(ref _fullPassDue, true);
         }
     }
 
@@ -121,32 +160,35 @@ public sealed partial class GraphIndex
     private protected override void AfterWrite()
     {
         RunPendingRepairs();
+        AttachDueOrphans();
         RunDueFullPass();
     }
 
     // Attaches every noted node that is live, not the entry point and without a bottom-layer in-link. Attaching can
     // take a link from a full list and orphan another node, which is noted and handled in the next round; returns
-    // true when the rounds ran out (the global pass then finishes the job).
-    private bool AttachNotedOrphans<TDistance>()
+    // true when the rounds ran out (the global pass then finishes the job). `lockWrites`: the caller holds the writer
+    // gate exclusively and not the write lock, which each attach takes for its list writes only (see Attach);
+    // otherwise the caller holds the write lock.
+    private bool AttachNotedOrphans<TDistance>(bool lockWrites)
         where TDistance : struct, IGraphDistance
     {
-        if (_orphanNotes.Count == 0)
-        {
-            return false;
-        }
-
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         scratch.EnsureSizes(_options.BuildWidth, _links.MaxLimit);
         for (int round = 0; round < 16; round++)
         {
-            if (_orphanNotes.Count == 0)
+            int[] noted;
+            lock (_orphanNotes)
+            {
+                noted = [.. _orphanNotes];
+                _orphanNotes.Clear();
+            }
+
+            if (noted.Length == 0)
             {
                 return false;
             }
 
-            int[] noted = [.. _orphanNotes];
-            _orphanNotes.Clear();
             Array.Sort(noted);
             for (int i = 0; i < noted.Length; i++)
             {
@@ -156,12 +198,16 @@ public sealed partial class GraphIndex
                     continue;
                 }
 
-                Attach<TDistance>(scratch, slot, null);
+                Attach<TDistance>(scratch, slot, null, lockWrites);
                 _orphansAttachedLocally++;
             }
         }
 
-        _orphanNotes.Clear();
+        lock (_orphanNotes)
+        {
+            _orphanNotes.Clear();
+        }
+
         return true;
     }
 
@@ -170,7 +216,7 @@ public sealed partial class GraphIndex
     // in-degrees catch a node that lost its last in-link at once, but not a group of nodes that only link to each
     // other; a traversal from the entry point finds those and links each from a reached node near it.
     // Caller holds the writer gate exclusively and not the write lock (see RunDueFullPass); the pass takes the write
-    // lock for each step of changes. Returns the number of nodes attached.
+    // lock for the list writes of each step only. Returns the number of nodes attached.
     private int RepairReachability<TDistance>()
         where TDistance : struct, IGraphDistance
     {
@@ -179,7 +225,11 @@ public sealed partial class GraphIndex
         {
             using var empty = _lock.EnterWrite();
             _fullPasses++;
-            _orphanNotes.Clear();
+            lock (_orphanNotes)
+            {
+                _orphanNotes.Clear();
+            }
+
             return 0;
         }
 
@@ -192,85 +242,55 @@ public sealed partial class GraphIndex
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         scratch.EnsureSizes(_options.BuildWidth, _links.MaxLimit);
-        var step = new WriteSteps(_lock, PassAttachStep, BetweenPassSteps);
-        try
+
+        // Attaching replaces a link only when the reached node's list is full; a node cut off that way is found by the
+        // next round. Rounds beyond the first are rare; the bound only guards against a pathological cycle. The
+        // traversals read the graph only, beside searches; each attach writes under a short write lock.
+        for (int round = 0; round < 8; round++)
         {
-            // Attaching replaces a link only when the reached node's list is full; a node cut off that way is found by
-            // the next round. Rounds beyond the first are rare; the bound only guards against a pathological cycle.
-            for (int round = 0; round < 8; round++)
+            bool any = false;
+            for (int slot = 0; slot < used; slot++)
             {
-                bool any = false;
-                for (int slot = 0; slot < used; slot++)
+                if (_removed[slot] == 0 && !reached[slot])
                 {
-                    if (_removed[slot] == 0 && !reached[slot])
-                    {
-                        any = true;
-                        step.Enter();
-                        Attach<TDistance>(scratch, slot, reached);
-                        attached++;
-                        Spread(slot, reached, stack);
-                        step.Done();
-                    }
+                    any = true;
+                    Attach<TDistance>(scratch, slot, reached, lockWrites: true);
+                    attached++;
+                    Spread(slot, reached, stack);
+                    BetweenPassSteps?.Invoke();
                 }
-
-                if (!any)
-                {
-                    break;
-                }
-
-                // The traversal again from the entry point reads the graph only: outside the write lock.
-                step.Leave();
-                Array.Clear(reached);
-                Spread(entry, reached, stack);
             }
 
-            // Attaching can leave a node without in-links that the pass then reached some other way: none is kept noted.
-            step.Enter();
-            _orphanNotes.Clear();
+            if (!any)
+            {
+                break;
+            }
+
+            Array.Clear(reached);
+            Spread(entry, reached, stack);
+        }
+
+        // Attaching can leave a node without in-links that the pass then reached some other way: none is kept noted.
+        using (_lock.EnterWrite())
+        {
+            lock (_orphanNotes)
+            {
+                _orphanNotes.Clear();
+            }
+
             _orphansAttached += attached;
             _fullPasses++;
-        }
-        finally
-        {
-            step.Leave();
         }
 
         return attached;
     }
 
-    /// <summary>
-    /// The write lock taken for a bounded number of changes at a time, for a pass that holds the writer gate: entered
-    /// before a change, released after <c>limit</c> of them or on <see cref="Leave"/>, so searches run in between.
-    /// </summary>
-    private struct WriteSteps(IndexLock rwLock, int limit, Action? hook)
+    /// <summary>Attaches the noted orphans with the index's distance; true when the rounds ran out.</summary>
+    private readonly struct AttachAction(GraphIndex index) : IGraphAction<bool>
     {
-        private int _done;
-
-        public readonly void Enter()
-        {
-            if (!rwLock.IsWriteLockHeld)
-            {
-                rwLock.EnterWriteLock();
-            }
-        }
-
-        public void Done()
-        {
-            if (++_done >= limit)
-            {
-                Leave();
-            }
-        }
-
-        public void Leave()
-        {
-            _done = 0;
-            if (rwLock.IsWriteLockHeld)
-            {
-                rwLock.ExitWriteLock();
-                hook?.Invoke();
-            }
-        }
+        public bool Run<TDistance>()
+            where TDistance : struct, IGraphDistance
+            => index.AttachNotedOrphans<TDistance>(lockWrites: true);
     }
 
     /// <summary>Runs the global pass with the index's distance.</summary>
@@ -309,8 +329,10 @@ public sealed partial class GraphIndex
     // Links `orphan` from the nearest suitable node with room on the bottom layer (found by a search for the orphan's
     // own vector). Suitable: reached by the global pass (`reached` given), or else live and itself linked from
     // somewhere (or the entry point). When every one found is full, the nearest suitable one gives up a link,
-    // preferably one the orphan itself links to, so that node stays reachable through the orphan. Write lock held.
-    private void Attach<TDistance>(GraphScratch scratch, int orphan, bool[]? reached)
+    // preferably one the orphan itself links to, so that node stays reachable through the orphan. The caller holds the
+    // write lock, or (`lockWrites`) the writer gate exclusively: the search then runs beside searches (nothing else
+    // changes the graph) and the write lock is taken for the list writes only.
+    private void Attach<TDistance>(GraphScratch scratch, int orphan, bool[]? reached, bool lockWrites)
         where TDistance : struct, IGraphDistance
     {
         ref float vector = ref TDistance.NodeAsQuery(this, orphan, scratch, BasePlace);
@@ -367,30 +389,47 @@ public sealed partial class GraphIndex
             host = fallback >= 0 ? fallback : entry;
         }
 
-        Span<int> block = _links.Block(host, 0);
-        if (block[0] < limit)
+        // An orphan without links of its own gets them too, so walks can leave it (chosen here, written below).
+        int kept = own[0] == 0 && found > 0
+            ? SelectNeighbours<TDistance>(scratch, scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), limit, scratch.Chosen)
+            : 0;
+        if (lockWrites)
         {
-            AppendLink(block, 0, orphan);
+            _lock.EnterWriteLock();
         }
-        else
+
+        try
         {
-            victim = victim > 0 ? victim : SpareLink(block, own) is int spare && spare > 0 ? spare : block[0];
-            int dropped = block[victim];
-            if (!ListContains(own, own[0], dropped) && own[0] < limit && dropped != orphan)
+            Span<int> block = _links.Block(host, 0);
+            if (block[0] < limit)
             {
-                AppendLink(own, 0, dropped);
+                AppendLink(block, 0, orphan);
+            }
+            else
+            {
+                victim = victim > 0 ? victim : SpareLink(block, own) is int spare && spare > 0 ? spare : block[0];
+                int dropped = block[victim];
+                if (!ListContains(own, own[0], dropped) && own[0] < limit && dropped != orphan)
+                {
+                    AppendLink(own, 0, dropped);
+                }
+
+                block[victim] = orphan;
+                Interlocked.Increment(ref _links.InDegree(orphan, 0));
+                DropInLink(dropped, 0);
             }
 
-            block[victim] = orphan;
-            Interlocked.Increment(ref _links.InDegree(orphan, 0));
-            DropInLink(dropped, 0);
+            if (own[0] == 0 && kept > 0)
+            {
+                SetList(orphan, 0, scratch.Chosen.AsSpan(0, kept));
+            }
         }
-
-        // An orphan without links of its own gets them too, so walks can leave it.
-        if (own[0] == 0 && found > 0)
+        finally
         {
-            int kept = SelectNeighbours<TDistance>(scratch, scratch.SortedKeys.AsSpan(0, found), scratch.SortedSlots.AsSpan(0, found), limit, scratch.Chosen);
-            SetList(orphan, 0, scratch.Chosen.AsSpan(0, kept));
+            if (lockWrites)
+            {
+                _lock.ExitWriteLock();
+            }
         }
     }
 
@@ -428,7 +467,7 @@ public sealed partial class GraphIndex
     }
 
     /// <summary>Runs the last step of an add, removal or compaction with the index's distance.</summary>
-    private readonly struct FinishAction(GraphIndex index, int[]? removed, int first, int added, bool forceFullPass) : IGraphAction<bool>
+    private readonly struct FinishAction(GraphIndex index, int[]? removed, int first, int added, bool forceFullPass, bool deferAttach) : IGraphAction<bool>
     {
         public bool Run<TDistance>()
             where TDistance : struct, IGraphDistance
@@ -440,19 +479,21 @@ public sealed partial class GraphIndex
                 changes += removed.Length;
             }
 
-            index.FinishChanges<TDistance>(first, added, changes, forceFullPass);
+            index.FinishChanges<TDistance>(first, added, changes, forceFullPass, deferAttach);
             return true;
         }
     }
 
-    // Caller holds the write lock; a global pass found due runs later, from AfterWrite.
-    private void FinishLocked(int[]? removed, int first, int added, bool forceFullPass)
+    // Caller holds the write lock; a global pass found due runs later, from AfterWrite, and so do the orphans' attaches
+    // when `deferAttach`.
+    private void FinishLocked(int[]? removed, int first, int added, bool forceFullPass, bool deferAttach = false)
     {
-        var action = new FinishAction(this, removed, first, added, forceFullPass);
+        var action = new FinishAction(this, removed, first, added, forceFullPass, deferAttach);
         Dispatch<FinishAction, bool>(ref action);
     }
 
-    // Runs under the write lock after an add batch (a short exclusive step after the shared linking phase).
+    // Runs under the write lock after an add batch (a short exclusive step after the shared linking phase); the new
+    // orphans are attached from AfterWrite.
     private void FinishAdd(int first, int added)
     {
         _lock.EnterWriteLock();
@@ -460,7 +501,7 @@ public sealed partial class GraphIndex
         {
             if (!IsDisposed)
             {
-                FinishLocked(null, first, added, forceFullPass: false);
+                FinishLocked(null, first, added, forceFullPass: false, deferAttach: true);
             }
         }
         finally

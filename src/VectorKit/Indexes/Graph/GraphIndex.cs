@@ -59,14 +59,9 @@ public sealed partial class GraphIndex : VectorIndex
     // GraphIndexOptions.FilteredExactScanFraction).
     private const double WalkCostConstant = 0.2;
 
-    // Changes the global pass makes per hold of the write lock: lists chosen again, or orphans attached (each a walk of
-    // the build width). Small, so a search waits for a few of them at most.
-    private const int PassRelinkStep = 16;
-    private const int PassAttachStep = 2;
-
-    // Lists a removal's repair writes per hold of the write lock; they are chosen before it is taken, so a hold costs
-    // only the copies.
-    private const int RemovalRelinkStep = 64;
+    // Lists a repair (a removal's, or the global pass's) writes per hold of the write lock; they are chosen before it
+    // is taken, so a hold costs only the copies.
+    private const int RelinkStep = 64;
 
     // Bounds of the walk that finds the lists naming a removed node (see FindInLinks).
     private const int InLinkSearchHops = 3;
@@ -101,6 +96,9 @@ public sealed partial class GraphIndex : VectorIndex
     private long _changesSinceFullPass;
     // Set under the write lock when the global pass is due; the write that set it runs the pass on its way out.
     private bool _fullPassDue;
+
+    // Orphans were noted by a write whose attaches run from AfterWrite (AttachDueOrphans).
+    private bool _attachDue;
     private long _orphansAttached;
     private long _orphansAttachedLocally;
     private long _fullPasses;
@@ -396,24 +394,34 @@ public sealed partial class GraphIndex : VectorIndex
     /// <inheritdoc/>
     private protected override void ReserveRows(int added)
     {
-        if ((long)Volatile.Read(ref _used) + added <= _links.Capacity)
+        if ((long)Volatile.Read(ref _used) + added <= _links.Capacity && !IdMapMustGrow(added))
         {
             return;
         }
 
-        // Holding the gate exclusively keeps out linking adds, the only writers outside the write lock.
+        // Holding the gate exclusively keeps out every writer (linking adds write outside the write lock); searches
+        // and the map's readers read the old storage meanwhile.
         using var gate = _writerGate.EnterWrite();
         if (IsDisposed)
         {
             return;
         }
 
+        IdMap? slotOf = IdMapMustGrow(added) ? _slotOf.GrownCopy((int)Math.Min(Array.MaxLength, Math.Max((long)_slotOf.Count + added, 2L * _slotOf.Count))) : null;
         int used = _used;
         int capacity = _vectors?.Capacity ?? _codes!.Capacity;
         long required = (long)used + added;
         int cap = Array.MaxLength / (_links.BottomLimit + 1);
         if (required <= capacity || required > cap)
         {
+            if (slotOf is not null)
+            {
+                using (_lock.EnterWrite())
+                {
+                    _slotOf = slotOf;
+                }
+            }
+
             return;
         }
 
@@ -425,6 +433,10 @@ public sealed partial class GraphIndex : VectorIndex
         {
             _vectors?.CopyRowsTo(vectors!, used);
             _codes?.CopyRowsTo(codes!, used);
+
+            // The rows to come are touched now, not by the first add to reach each page, under the write lock.
+            vectors?.ClearRows(used, grown - used);
+            codes?.ClearRows(used, grown - used);
             GraphLinks links = _links.GrownCopy(grown);
             var ids = new long[grown];
             _ids.AsSpan(0, used).CopyTo(ids);
@@ -445,14 +457,22 @@ public sealed partial class GraphIndex : VectorIndex
                 _links = links;
                 _ids = ids;
                 _removed = removed;
+                if (slotOf is not null)
+                {
+                    _slotOf = slotOf;
+                }
             }
         }
         finally
         {
+            // The old blocks after the swap; the unused copies after a failure.
             vectors?.Dispose();
             codes?.Dispose();
         }
     }
+
+    // Whether adding `added` ids would grow the id map in place (under the write lock); reads the map's sizes only.
+    private bool IdMapMustGrow(int added) => (long)_slotOf.Count + added > _slotOf.Capacity;
 
     // Reserves slots for a validated batch, writes vectors (normalised under cosine; encoded under codes) and ids, and draws levels.
     // Caller holds the write lock. When the graph is empty the first new slot becomes the entry point at once, so

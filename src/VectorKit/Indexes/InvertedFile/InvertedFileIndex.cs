@@ -432,7 +432,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
         }
         finally
         {
-            // Empty after a swap; the unused copy after a cancellation.
+            // The old block after a swap; the unused copy after a cancellation.
             full?.Dispose();
         }
 
