@@ -577,6 +577,11 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         }
     }
 
+    /// <summary>The longest exclusive step (write-lock hold) since the last <see cref="ResetLongestWriteHold"/>, for benchmarks.</summary>
+    internal TimeSpan LongestWriteHold => _lock.LongestWriteHold;
+
+    internal void ResetLongestWriteHold() => _lock.ResetLongestWriteHold();
+
     /// <summary>Threads waiting to write: on the write lock, or at the writer gate (for tests).</summary>
     internal int WaitingWriters => _lock.WaitingWriteCount + _writerGate.WaitingReadCount + _writerGate.WaitingWriteCount;
 

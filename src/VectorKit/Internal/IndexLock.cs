@@ -3,30 +3,47 @@ using System.Runtime.InteropServices;
 namespace VectorKit.Internal;
 
 /// <summary>
-/// An index's reader/writer lock, built for searches that must not sleep: readers never block in the kernel but spin
-/// (yielding, never sleeping) while a writer holds the lock, and writers hold it only for short steps. Batch queries
+/// An index's reader/writer lock, built for searches that must not sleep: readers spin (yielding, never sleeping)
+/// while a writer holds the lock for one of its short steps, and sleep only when a step outlasts the spin budget. Batch queries
 /// are readers that give way to writers: a writer first waits for the batch queries holding the lock to end, keeping
 /// new ones from starting meanwhile.
 /// </summary>
 /// <remarks>
 /// A reader blocked in the kernel is woken only when the scheduler next runs it, which on a busy machine costs
 /// milliseconds however short the write was; spinning costs the length of the write. So every step taken under the
-/// write lock must be short (copies and swaps, never searches or scans), which the index kinds keep to. Writers queue
+/// write lock must be short (copies and swaps, never searches or scans), which the index kinds keep to. A writer that
+/// holds the lock past the budget was most likely pre-empted, and a spinning reader would keep it from a core. Writers queue
 /// on a monitor, one at a time, and may sleep. A writer arriving gives readers already spinning their turn first, so
 /// back-to-back write steps cannot starve searches. Non-recursive: a thread holding either side must not enter again.
 /// </remarks>
 internal sealed class IndexLock
 {
+    // How long a reader spins behind a writer before it sleeps: longer than any exclusive step the index kinds take
+    // on an idle core, far shorter than a scheduler's time slice.
+    private static readonly long SpinBudgetTicks = System.Diagnostics.Stopwatch.Frequency / 10_000;
+
     // Writers take this first, one at a time; it is held from EnterWriteLock to ExitWriteLock.
     private readonly object _writerTurn = new();
+
+    // Readers that spun past the budget sleep on this until the writer leaves.
+    private readonly object _wake = new();
 
     private Counters _counters;
 
     // The managed thread id of the writer holding the lock, 0 when none.
     private int _owner;
 
+    // When the holding writer took the lock, and the longest hold so far (Stopwatch ticks; diagnostics).
+    private long _heldSince;
+    private long _longestHold;
+
     /// <summary>Whether the calling thread holds the write lock.</summary>
     public bool IsWriteLockHeld => Volatile.Read(ref _owner) == Environment.CurrentManagedThreadId;
+
+    /// <summary>The longest time a writer held the lock since the last <see cref="ResetLongestWriteHold"/> (for benchmarks).</summary>
+    public TimeSpan LongestWriteHold => TimeSpan.FromSeconds((double)Volatile.Read(ref _longestHold) / System.Diagnostics.Stopwatch.Frequency);
+
+    public void ResetLongestWriteHold() => Volatile.Write(ref _longestHold, 0);
 
     /// <summary>Writers waiting: for their turn, for batch queries or for readers to leave.</summary>
     public int WaitingWriteCount => Volatile.Read(ref _counters.WaitingWriters);
@@ -45,13 +62,37 @@ internal sealed class IndexLock
 
             Interlocked.Decrement(ref _counters.Readers);
             Interlocked.Increment(ref _counters.SpinningReaders);
-            var spin = default(SpinWait);
-            while (Volatile.Read(ref _counters.Writing) != 0)
+            WaitForWriter();
+            Interlocked.Decrement(ref _counters.SpinningReaders);
+        }
+    }
+
+    // Spins (yielding, never sleeping) while the writer's step is short; past the budget the writer was probably
+    // pre-empted, and spinning on would keep it from a core, so the reader sleeps until the writer leaves.
+    private void WaitForWriter()
+    {
+        long start = System.Diagnostics.Stopwatch.GetTimestamp();
+        var spin = default(SpinWait);
+        while (Volatile.Read(ref _counters.Writing) != 0)
+        {
+            if (System.Diagnostics.Stopwatch.GetTimestamp() - start < SpinBudgetTicks)
             {
                 spin.SpinOnce(sleep1Threshold: -1);
+                continue;
             }
 
-            Interlocked.Decrement(ref _counters.SpinningReaders);
+            // Announce, then look (full fences on both sides, as in EnterReadLock): the leaving writer either sees a
+            // sleeper and wakes it under the monitor, or this reader sees the flag down. The timeout is a backstop.
+            Interlocked.Increment(ref _counters.SleepingReaders);
+            lock (_wake)
+            {
+                if (Volatile.Read(ref _counters.Writing) != 0)
+                {
+                    Monitor.Wait(_wake, 1);
+                }
+            }
+
+            Interlocked.Decrement(ref _counters.SleepingReaders);
         }
     }
 
@@ -122,11 +163,12 @@ internal sealed class IndexLock
             }
 
             Volatile.Write(ref _owner, Environment.CurrentManagedThreadId);
+            _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
             Interlocked.Decrement(ref _counters.WaitingWriters);
         }
         catch
         {
-            Volatile.Write(ref _counters.Writing, 0);
+            LowerWritingFlag();
             if (turn)
             {
                 Monitor.Exit(_writerTurn);
@@ -145,10 +187,29 @@ internal sealed class IndexLock
             throw new SynchronizationLockException("The calling thread does not hold the index's write lock.");
         }
 
+        long held = System.Diagnostics.Stopwatch.GetTimestamp() - _heldSince;
+        if (held > _longestHold)
+        {
+            Volatile.Write(ref _longestHold, held);
+        }
+
         Volatile.Write(ref _owner, 0);
-        Volatile.Write(ref _counters.Writing, 0);
+        LowerWritingFlag();
         Monitor.Exit(_writerTurn);
         Interlocked.Decrement(ref _counters.Writers);
+    }
+
+    // Lets readers in again, waking those that went to sleep.
+    private void LowerWritingFlag()
+    {
+        Interlocked.Exchange(ref _counters.Writing, 0);
+        if (Volatile.Read(ref _counters.SleepingReaders) != 0)
+        {
+            lock (_wake)
+            {
+                Monitor.PulseAll(_wake);
+            }
+        }
     }
 
     public ReadScope EnterRead()
@@ -182,7 +243,7 @@ internal sealed class IndexLock
     }
 
     /// <summary>The counters readers and writers touch, each on a cache line of its own (readers bump theirs per search).</summary>
-    [StructLayout(LayoutKind.Explicit, Size = 6 * 64)]
+    [StructLayout(LayoutKind.Explicit, Size = 7 * 64)]
     private struct Counters
     {
         // Readers inside the lock, or announcing themselves.
@@ -207,5 +268,9 @@ internal sealed class IndexLock
 
         [FieldOffset(324)]
         public int WaitingWriters;
+
+        // Readers that spun past the budget and sleep until the writer leaves.
+        [FieldOffset(384)]
+        public int SleepingReaders;
     }
 }

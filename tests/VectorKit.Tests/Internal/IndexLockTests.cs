@@ -1,0 +1,170 @@
+using VectorKit.Internal;
+
+namespace VectorKit.Tests.Internal;
+
+/// <summary>
+/// The index lock's guarantees, checked with threads: one writer at a time and no reader beside it, readers beside
+/// each other, batch queries giving way to a waiting writer, and a reader that went to sleep behind a long write step
+/// woken when it ends. The guard only ends a test that would otherwise hang.
+/// </summary>
+public sealed class IndexLockTests
+{
+    private static readonly TimeSpan Guard = TimeSpan.FromSeconds(60);
+
+    [Fact]
+    public void Writers_exclude_each_other_and_every_reader()
+    {
+        var rwLock = new IndexLock();
+        int readersInside = 0, writersInside = 0, violations = 0;
+        long left = 0, right = 0;
+        var threads = new List<Thread>();
+        for (int t = 0; t < 4; t++)
+        {
+            int seed = t;
+            threads.Add(new Thread(() =>
+            {
+                var random = new Random(seed);
+                for (int op = 0; op < 4_000; op++)
+                {
+                    if (random.Next(4) == 0)
+                    {
+                        rwLock.EnterWriteLock();
+                        if (Interlocked.Increment(ref writersInside) != 1 || Volatile.Read(ref readersInside) != 0)
+                        {
+                            Interlocked.Increment(ref violations);
+                        }
+
+                        // Two writes a reader must never see apart.
+                        long value = Volatile.Read(ref left) + 1;
+                        Volatile.Write(ref left, value);
+                        Thread.SpinWait(random.Next(200));
+                        Volatile.Write(ref right, value);
+                        Interlocked.Decrement(ref writersInside);
+                        rwLock.ExitWriteLock();
+                    }
+                    else
+                    {
+                        bool batch = random.Next(2) == 0;
+                        if (batch)
+                        {
+                            rwLock.EnterBatchReadLock();
+                        }
+                        else
+                        {
+                            rwLock.EnterReadLock();
+                        }
+
+                        Interlocked.Increment(ref readersInside);
+                        if (Volatile.Read(ref writersInside) != 0 || Volatile.Read(ref left) != Volatile.Read(ref right))
+                        {
+                            Interlocked.Increment(ref violations);
+                        }
+
+                        Thread.SpinWait(random.Next(200));
+                        Interlocked.Decrement(ref readersInside);
+                        if (batch)
+                        {
+                            rwLock.ExitBatchReadLock();
+                        }
+                        else
+                        {
+                            rwLock.ExitReadLock();
+                        }
+                    }
+                }
+            }));
+        }
+
+        threads.ForEach(t => t.Start());
+        Assert.All(threads, t => Assert.True(t.Join(Guard), "a thread did not finish: the lock deadlocked"));
+        Assert.Equal(0, violations);
+        Assert.Equal(Volatile.Read(ref left), Volatile.Read(ref right));
+        Assert.True(left > 0);
+    }
+
+    [Fact]
+    public void Readers_hold_the_lock_together()
+    {
+        var rwLock = new IndexLock();
+        rwLock.EnterReadLock();
+        var second = Task.Run(() =>
+        {
+            rwLock.EnterReadLock();
+            rwLock.ExitReadLock();
+        });
+        Assert.True(second.Wait(Guard), "a second reader waited for the first");
+        rwLock.ExitReadLock();
+    }
+
+    [Fact]
+    public void A_writer_waits_for_a_reader_and_readers_after_it_wait_for_the_writer()
+    {
+        var rwLock = new IndexLock();
+        rwLock.EnterReadLock();
+        bool written = false, leaving = false;
+        var writer = Task.Run(() =>
+        {
+            rwLock.EnterWriteLock();
+            Volatile.Write(ref written, true);
+            Thread.Sleep(20);
+            Volatile.Write(ref leaving, true);
+            rwLock.ExitWriteLock();
+        });
+        SpinUntil(() => rwLock.WaitingWriteCount == 1);
+        Assert.False(Volatile.Read(ref written));
+
+        rwLock.ExitReadLock();
+        SpinUntil(() => Volatile.Read(ref written));
+
+        // The writer holds the lock past the spin budget: this reader goes to sleep and is woken when it leaves.
+        rwLock.EnterReadLock();
+        Assert.True(Volatile.Read(ref leaving), "a reader entered while the writer held the lock");
+        rwLock.ExitReadLock();
+        Assert.True(writer.Wait(Guard));
+    }
+
+    [Fact]
+    public void A_waiting_writer_keeps_new_batch_queries_out_until_it_has_written()
+    {
+        var rwLock = new IndexLock();
+        rwLock.EnterBatchReadLock();
+        bool written = false, batchSawWrite = false;
+        var writer = Task.Run(() =>
+        {
+            rwLock.EnterWriteLock();
+            Volatile.Write(ref written, true);
+            rwLock.ExitWriteLock();
+        });
+        SpinUntil(() => rwLock.WaitingWriteCount == 1);
+        var batch = Task.Run(() =>
+        {
+            rwLock.EnterBatchReadLock();
+            batchSawWrite = Volatile.Read(ref written);
+            rwLock.ExitBatchReadLock();
+        });
+
+        rwLock.ExitBatchReadLock();
+        Assert.True(writer.Wait(Guard) && batch.Wait(Guard));
+        Assert.True(batchSawWrite, "a batch query started while a writer was waiting");
+    }
+
+    [Fact]
+    public void The_write_lock_is_not_recursive_and_only_its_holder_leaves_it()
+    {
+        var rwLock = new IndexLock();
+        Assert.Throws<SynchronizationLockException>(rwLock.ExitWriteLock);
+        rwLock.EnterWriteLock();
+        Assert.True(rwLock.IsWriteLockHeld);
+        Assert.Throws<LockRecursionException>(rwLock.EnterWriteLock);
+        bool heldElsewhere = true;
+        var other = new Thread(() => heldElsewhere = rwLock.IsWriteLockHeld);
+        other.Start();
+        Assert.True(other.Join(Guard));
+        Assert.False(heldElsewhere);
+        rwLock.ExitWriteLock();
+        Assert.False(rwLock.IsWriteLockHeld);
+    }
+
+    private static void SpinUntil(Func<bool> condition)
+        => Assert.True(SpinWait.SpinUntil(condition, Guard), "the awaited state never came");
+}
