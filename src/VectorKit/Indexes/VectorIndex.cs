@@ -500,6 +500,20 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <summary>
+    /// Whether adding <paramref name="added"/> ids would grow the id map in place, under the write lock (a rehash of
+    /// every entry). Reads the map's sizes only, so a kind's <see cref="ReserveRows"/> may ask before taking the gate.
+    /// </summary>
+    private protected bool IdMapMustGrow(int added) => !IsReadOnly && (long)_slotOf.Count + added > _slotOf.Capacity;
+
+    /// <summary>
+    /// For <see cref="ReserveRows"/>, with the writer gate held exclusively (no write changes the map, and its readers
+    /// read it meanwhile): a copy of the id map with room for <paramref name="added"/> more ids, for the kind to swap in
+    /// with its storage; null when the map has room.
+    /// </summary>
+    private protected IdMap? GrownIdMap(int added)
+        => IdMapMustGrow(added) ? _slotOf.GrownCopy((int)Math.Min(Array.MaxLength, Math.Max((long)_slotOf.Count + added, 2L * _slotOf.Count))) : null;
+
+    /// <summary>
     /// Runs after every write has left both locks: a kind finishes deferred maintenance here (the graph's global
     /// reachability pass), under the writer gate and in short steps of the write lock.
     /// </summary>

@@ -418,7 +418,7 @@ public sealed partial class ExactIndex : VectorIndex
     private protected override void ReserveRows(int added)
     {
         int capacity = _codes?.Capacity ?? _vectors.Capacity;
-        if ((long)Volatile.Read(ref _count) + added <= capacity)
+        if ((long)Volatile.Read(ref _count) + added <= capacity && !IdMapMustGrow(added))
         {
             return;
         }
@@ -430,11 +430,20 @@ public sealed partial class ExactIndex : VectorIndex
             return;
         }
 
+        IdMap? slotOf = GrownIdMap(added);
         int count = _count;
         capacity = _codes?.Capacity ?? _vectors.Capacity;
         long required = (long)count + added;
         if (required <= capacity || required > Array.MaxLength)
         {
+            if (slotOf is not null)
+            {
+                using (_lock.EnterWrite())
+                {
+                    _slotOf = slotOf;
+                }
+            }
+
             return;
         }
 
@@ -445,6 +454,11 @@ public sealed partial class ExactIndex : VectorIndex
         try
         {
             _ids.CopyRowsTo(ids, count);
+
+            // The rows to come are touched now, not by the first add to reach each page, under the write lock.
+            vectors?.ClearRows(count, grown - count);
+            codes?.ClearRows(count, grown - count);
+            ids.ClearRows(count, grown - count);
             float[] norms = _squaredNorms;
             if (KeepsSquaredNorms(Metric, _options.Encoding))
             {
@@ -452,7 +466,7 @@ public sealed partial class ExactIndex : VectorIndex
                 _squaredNorms.AsSpan(0, count).CopyTo(norms);
             }
 
-            SwapIn(vectors, codes, ids, norms, slotOf: null);
+            SwapIn(vectors, codes, ids, norms, slotOf);
         }
         finally
         {

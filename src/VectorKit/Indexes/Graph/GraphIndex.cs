@@ -407,7 +407,7 @@ public sealed partial class GraphIndex : VectorIndex
             return;
         }
 
-        IdMap? slotOf = IdMapMustGrow(added) ? _slotOf.GrownCopy((int)Math.Min(Array.MaxLength, Math.Max((long)_slotOf.Count + added, 2L * _slotOf.Count))) : null;
+        IdMap? slotOf = GrownIdMap(added);
         int used = _used;
         int capacity = _vectors?.Capacity ?? _codes!.Capacity;
         long required = (long)used + added;
@@ -470,9 +470,6 @@ public sealed partial class GraphIndex : VectorIndex
             codes?.Dispose();
         }
     }
-
-    // Whether adding `added` ids would grow the id map in place (under the write lock); reads the map's sizes only.
-    private bool IdMapMustGrow(int added) => (long)_slotOf.Count + added > _slotOf.Capacity;
 
     // Reserves slots for a validated batch, writes vectors (normalised under cosine; encoded under codes) and ids, and draws levels.
     // Caller holds the write lock. When the graph is empty the first new slot becomes the entry point at once, so

@@ -716,6 +716,70 @@ public sealed partial class InvertedFileIndex : VectorIndex
         Volatile.Write(ref _count, _count + n);
     }
 
+    /// <inheritdoc/>
+    private protected override void ReserveRows(int added)
+    {
+        if ((long)Volatile.Read(ref _count) + added <= _ids.Length && !IdMapMustGrow(added))
+        {
+            return;
+        }
+
+        // Holding the gate exclusively keeps every write out; searches read the old arrays meanwhile.
+        using var gate = _writerGate.EnterWrite();
+        if (IsDisposed || IsReadOnly)
+        {
+            // A mapped index refuses the write itself, in WriteBatch.
+            return;
+        }
+
+        IdMap? slotOf = GrownIdMap(added);
+        int count = _count;
+        long required = (long)count + added;
+        if (required <= _ids.Length || required > Array.MaxLength)
+        {
+            if (slotOf is not null)
+            {
+                using (_lock.EnterWrite())
+                {
+                    _slotOf = slotOf;
+                }
+            }
+
+            return;
+        }
+
+        // The growth rule of EnsureSlotCapacity, so the arrays stay the size growing in place would give.
+        int capacity = (int)Math.Min(Array.MaxLength, Math.Max(required, _ids.Length + ((long)_ids.Length / 2)));
+        var ids = new long[capacity];
+        var listOf = new int[capacity];
+        var positionOf = new int[capacity];
+        _ids.AsSpan(0, count).CopyTo(ids);
+        _listOf.AsSpan(0, count).CopyTo(listOf);
+        _positionOf.AsSpan(0, count).CopyTo(positionOf);
+        VectorBuffer? full = _full is null ? null : new VectorBuffer(Dimension, capacity);
+        try
+        {
+            _full?.CopyRowsTo(full!, count);
+            full?.ClearRows(count, capacity - count);
+            using (_lock.EnterWrite())
+            {
+                _ids = ids;
+                _listOf = listOf;
+                _positionOf = positionOf;
+                _full?.Adopt(full!);
+                if (slotOf is not null)
+                {
+                    _slotOf = slotOf;
+                }
+            }
+        }
+        finally
+        {
+            // The old block after the swap; the unused copy after a failure.
+            full?.Dispose();
+        }
+    }
+
     private void EnsureSlotCapacity(int required)
     {
         if (_ids.Length >= required)
