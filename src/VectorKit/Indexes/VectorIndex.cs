@@ -278,10 +278,9 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         cancellationToken.ThrowIfCancellationRequested();
         if (!ids.IsEmpty)
         {
-            ReserveRows(ids.Length);
             try
             {
-                using var gate = _writerGate.EnterRead();
+                using var gate = EnterGateWithRoom(ids.Length);
                 WriteBatch(ids, vectors, replace: false, progress, cancellationToken);
                 Interlocked.Add(ref _changesSinceTuning, ids.Length);
             }
@@ -312,10 +311,9 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
             return 0;
         }
 
-        ReserveRows(ids.Length);
         try
         {
-            using var gate = _writerGate.EnterRead();
+            using var gate = EnterGateWithRoom(ids.Length);
             int replaced = WriteBatch(ids, vectors, replace: true, progress, cancellationToken);
             Interlocked.Add(ref _changesSinceTuning, ids.Length);
             return replaced;
@@ -497,6 +495,32 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     /// </summary>
     private protected virtual void ReserveRows(int added)
     {
+    }
+
+    /// <summary>
+    /// Whether the storage and the id map have room for <paramref name="added"/> more items without growing under the
+    /// write lock; a hint (concurrent writes may use the room first). Kinds that reserve rows override it.
+    /// </summary>
+    private protected virtual bool HasRoomFor(int added) => true;
+
+    /// <summary>
+    /// Reserves room for a batch of <paramref name="added"/> (<see cref="ReserveRows"/>), then enters the writer gate
+    /// for the write. A compaction may trim the room between the two (it holds the gate alone); the room is then
+    /// reserved again, twice at most, after which the write grows the storage under the lock as it must.
+    /// </summary>
+    private LockScopes.ReadScope EnterGateWithRoom(int added)
+    {
+        for (int attempt = 0; ; attempt++)
+        {
+            ReserveRows(added);
+            LockScopes.ReadScope gate = _writerGate.EnterRead();
+            if (attempt >= 2 || HasRoomFor(added))
+            {
+                return gate;
+            }
+
+            gate.Dispose();
+        }
     }
 
     /// <summary>

@@ -415,10 +415,12 @@ public sealed partial class ExactIndex : VectorIndex
     }
 
     /// <inheritdoc/>
+    private protected override bool HasRoomFor(int added) => IsReadOnly || ((long)Volatile.Read(ref _count) + added <= (_codes?.Capacity ?? _vectors.Capacity) && !IdMapMustGrow(added));
+
+    /// <inheritdoc/>
     private protected override void ReserveRows(int added)
     {
-        int capacity = _codes?.Capacity ?? _vectors.Capacity;
-        if ((long)Volatile.Read(ref _count) + added <= capacity && !IdMapMustGrow(added))
+        if (HasRoomFor(added))
         {
             return;
         }
@@ -432,7 +434,7 @@ public sealed partial class ExactIndex : VectorIndex
 
         IdMap? slotOf = GrownIdMap(added);
         int count = _count;
-        capacity = _codes?.Capacity ?? _vectors.Capacity;
+        int capacity = _codes?.Capacity ?? _vectors.Capacity;
         long required = (long)count + added;
         if (required <= capacity || required > Array.MaxLength)
         {

@@ -392,9 +392,12 @@ public sealed partial class GraphIndex : VectorIndex
     }
 
     /// <inheritdoc/>
+    private protected override bool HasRoomFor(int added) => (long)Volatile.Read(ref _used) + added <= _links.Capacity && !IdMapMustGrow(added);
+
+    /// <inheritdoc/>
     private protected override void ReserveRows(int added)
     {
-        if ((long)Volatile.Read(ref _used) + added <= _links.Capacity && !IdMapMustGrow(added))
+        if (HasRoomFor(added))
         {
             return;
         }

@@ -717,9 +717,12 @@ public sealed partial class InvertedFileIndex : VectorIndex
     }
 
     /// <inheritdoc/>
+    private protected override bool HasRoomFor(int added) => IsReadOnly || ((long)Volatile.Read(ref _count) + added <= _ids.Length && !IdMapMustGrow(added));
+
+    /// <inheritdoc/>
     private protected override void ReserveRows(int added)
     {
-        if ((long)Volatile.Read(ref _count) + added <= _ids.Length && !IdMapMustGrow(added))
+        if (HasRoomFor(added))
         {
             return;
         }
