@@ -25,10 +25,11 @@ namespace VectorKit.Benchmarks.Indexes;
 /// Each phase also reports the longest exclusive step (write-lock hold) the index took during it.
 /// </summary>
 /// <remarks>
-/// With a nice value given (Linux; lowering it needs root), the searching thread runs at that value while the writer,
-/// the maintenance and the pool threads stay at the process's: a service keeps its query threads ahead of background
-/// work the same way. On 2 cores a compaction's parallel rebuild, the writer and the searcher are more runnable threads
-/// than cores, so without it the scheduler's pre-emption, not the index, sets the maxima.
+/// With a nice value given (Linux; lowering it needs root), the searching and the writing thread run at that value while
+/// the maintenance step and the pool threads it uses stay at the process's: a service keeps its request threads ahead
+/// of background work the same way. On 2 cores a compaction's parallel rebuild, the writer and the searcher are more
+/// runnable threads than cores; without it the scheduler's pre-emption sets the maxima, and a writer pre-empted by the
+/// rebuild while it holds the write lock for a short step makes the searches behind it wait for a time slice.
 /// The graph's amortised pass is turned off during the write phases and run on its own phase, so the pass is measured
 /// once per run rather than when 1/8 of the index has changed.
 /// </remarks>
@@ -41,8 +42,8 @@ public static class MaintenanceLatency
 
     private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc, Waits Waits, DateTime StartUtc, DateTime EndUtc, List<SleptSearch> Slept, List<SleptSearch> WriteTimes, double LongestHoldMs);
 
-    // The searching thread's nice value (0: the process's own).
-    private static int s_searcherNice;
+    // The searching and writing threads' nice value (0: the process's own).
+    private static int s_foregroundNice;
 
     /// <summary>A search during which the searching thread slept (or a write): when it started and how long it took.</summary>
     private readonly record struct SleptSearch(DateTime StartUtc, double Ms);
@@ -69,12 +70,12 @@ public static class MaintenanceLatency
     }
 
     /// <summary>Runs the harness on <paramref name="count"/> × <paramref name="dimension"/> clustered rows for the kinds named (exact, graph, inverted-file).</summary>
-    public static void Run(int count, int dimension, double baselineSeconds, IReadOnlyList<string> kinds, int searcherNice = 0)
+    public static void Run(int count, int dimension, double baselineSeconds, IReadOnlyList<string> kinds, int foregroundNice = 0)
     {
         int d = dimension;
         int clusters = Math.Max(1, count / 100);
-        s_searcherNice = searcherNice;
-        Console.WriteLine($"clustered synthetic: {count:N0} × {d}, {clusters:N0} clusters, spread 0.2, squared L2; {QueryCount} queries, k = {K}; {Environment.ProcessorCount} cores; 1 searching thread (nice {(searcherNice == 0 ? "as the process" : searcherNice.ToString(CultureInfo.InvariantCulture))}), 1 writing thread (1 write per {SearchesPerWrite} searches)");
+        s_foregroundNice = foregroundNice;
+        Console.WriteLine($"clustered synthetic: {count:N0} × {d}, {clusters:N0} clusters, spread 0.2, squared L2; {QueryCount} queries, k = {K}; {Environment.ProcessorCount} cores; 1 searching thread, 1 writing thread (1 write per {SearchesPerWrite} searches), both at nice {(foregroundNice == 0 ? "as the process" : foregroundNice.ToString(CultureInfo.InvariantCulture))}");
         float[] all = ClusteredData.Generate(count + QueryCount, d, clusters, 0.2f, seed: 101);
         float[] data = all.AsSpan(0, count * d).ToArray();
         float[] queries = all.AsSpan(count * d, QueryCount * d).ToArray();
@@ -285,7 +286,7 @@ public static class MaintenanceLatency
         {
             var hits = new SearchHit[K];
             int q = 0;
-            SetThreadNice(s_searcherNice);
+            SetThreadNice(s_foregroundNice);
 
             // One untimed search first: a thread's first search allocates its scratch (the graph's visited set is sized
             // to the index), which is not a per-search cost.
@@ -324,7 +325,11 @@ public static class MaintenanceLatency
             // Less the latency list's own growth: it is sized up front for every sample a phase is expected to take.
             searchBytes = GC.GetAllocatedBytesForCurrentThread() - allocated;
         });
-        Thread? writer = writes is null ? null : new Thread(() => writes.Run(() => Volatile.Read(ref searches), () => Volatile.Read(ref stop)));
+        Thread? writer = writes is null ? null : new Thread(() =>
+        {
+            SetThreadNice(s_foregroundNice);
+            writes.Run(() => Volatile.Read(ref searches), () => Volatile.Read(ref stop));
+        });
         writes?.Reset();
         (int gen0, int gen1, int gen2, TimeSpan pause) = (GC.CollectionCount(0), GC.CollectionCount(1), GC.CollectionCount(2), GC.GetTotalPauseDuration());
         searcher.Start();
@@ -430,7 +435,7 @@ public static class MaintenanceLatency
 
         if (SetPriority(0, GetThreadId(), nice) != 0)
         {
-            Console.WriteLine($"could not set the searching thread's nice value to {nice} (error {System.Runtime.InteropServices.Marshal.GetLastPInvokeError()}); it runs at the process's");
+            Console.WriteLine($"could not set a foreground thread's nice value to {nice} (error {System.Runtime.InteropServices.Marshal.GetLastPInvokeError()}); it runs at the process's");
         }
     }
 
