@@ -1,5 +1,6 @@
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
 using VectorKit.Indexes.InvertedFile;
 
 namespace VectorKit.Persistence;
@@ -93,16 +94,13 @@ public static partial class IndexFile
                     throw new IndexFileException($"Index file holds {Article(codec.IndexType.Name)}; {Article(expected.Name)} was requested.", "header", FileLayout.PreambleBytes);
                 }
 
-                if (header.Kind == IndexKind.Graph)
-                {
-                    throw new NotSupportedException(
-                        $"The index file '{path}' holds a graph index, which cannot be opened mapped: its links are rebuilt into arrays at load. Load it with IndexFile.Load.");
-                }
-
                 var sections = new MappedSections(view, header, reader.Position);
-                VectorIndex index = header.Kind == IndexKind.Exact
-                    ? ExactIndexCodec.OpenMapped(header, view, sections, options.VerifyContents, cancellationToken)
-                    : InvertedFileIndexCodec.OpenMapped(header, view, sections, options.VerifyContents, cancellationToken);
+                VectorIndex index = header.Kind switch
+                {
+                    IndexKind.Exact => ExactIndexCodec.OpenMapped(header, view, sections, options.VerifyContents, cancellationToken),
+                    IndexKind.Graph => GraphIndexCodec.OpenMapped(header, view, sections, options.Load, options.VerifyContents, cancellationToken),
+                    _ => InvertedFileIndexCodec.OpenMapped(header, view, sections, options.VerifyContents, cancellationToken),
+                };
                 try
                 {
                     TuningFields.Read(header, index);

@@ -151,10 +151,18 @@ internal sealed unsafe class MappedSections
     /// such a file's opening that grows with the count).
     /// </summary>
     public Internal.IdMap IdMap(Dictionary<SectionId, int> at, long* ids, int n, bool verify)
+        => IdMap(at, ids, n, n, null, verify);
+
+    /// <summary>
+    /// As <see cref="IdMap(Dictionary{SectionId, int}, long*, int, bool)"/> for <paramref name="rows"/> rows of which
+    /// those flagged in <paramref name="removed"/> are not live: the order lists the <paramref name="live"/> others.
+    /// </summary>
+    public Internal.IdMap IdMap(Dictionary<SectionId, int> at, long* ids, int live, int rows, byte* removed, bool verify)
     {
+        int n = rows;
         if (at.TryGetValue(SectionId.IdOrder, out int position))
         {
-            var lookup = new Internal.SortedIdLookup(ids, (int*)Payload(position).Start, n);
+            var lookup = new Internal.SortedIdLookup(ids, (int*)Payload(position).Start, live, rows, removed);
             if (verify)
             {
                 try
@@ -170,9 +178,14 @@ internal sealed unsafe class MappedSections
             return new Internal.IdMap(lookup);
         }
 
-        var map = new Internal.IdMap(n);
+        var map = new Internal.IdMap(live);
         for (int slot = 0; slot < n; slot++)
         {
+            if (removed != null && removed[slot] != 0)
+            {
+                continue;
+            }
+
             if (!map.TryAdd(ids[slot], slot))
             {
                 throw Problem(at[SectionId.Ids], $"id {ids[slot]} appears at rows {map[ids[slot]]} and {slot}; ids must be unique");
