@@ -1,4 +1,6 @@
+using System.Diagnostics;
 using VectorKit.Indexes;
+using VectorKit.Persistence;
 using Xunit;
 
 namespace VectorKit.Tests.Persistence.Mapped;
@@ -24,5 +26,80 @@ internal static class MappedChecks
         {
             Assert.Equal(saved.Contains(id), mapped.Contains(id));
         }
+    }
+
+    /// <summary>
+    /// Opens <paramref name="inputs"/> mutations of the <paramref name="corpus"/> files mapped (checksums mostly fixed
+    /// up, so the damage reaches the index; half under <see cref="MappedOpenOptions.Untrusted"/>): each must fail with
+    /// <see cref="IndexFileException"/> or open and answer searches and lookups, never reading outside the mapping.
+    /// </summary>
+    public static void OpenMutations(IReadOnlyList<byte[]> corpus, int inputs, int seed, Func<byte[], string> write)
+    {
+        int opened = 0;
+        var clock = Stopwatch.StartNew();
+        for (int input = 0; input < inputs; input++)
+        {
+            var random = new Random(seed + (input * 7919));
+            byte[] bytes = IndexFileFuzzTests.Mutate(corpus[random.Next(corpus.Count)], random);
+            if (random.Next(4) != 0)
+            {
+                IndexFileBytes.FixChecksums(bytes);
+            }
+
+            MappedOpenOptions options = random.Next(2) == 0 ? MappedOpenOptions.Default : MappedOpenOptions.Untrusted;
+            IVectorIndex mapped;
+            try
+            {
+                mapped = IndexFile.OpenMapped(write(bytes), options);
+            }
+            catch (Exception e) when (e is IndexFileException or NotSupportedException)
+            {
+                continue;
+            }
+
+            opened++;
+            using (mapped)
+            {
+                try
+                {
+                    Exercise(mapped, random);
+                }
+                catch (InvalidDataException) when (!options.VerifyContents)
+                {
+                    // An unverified id order that names an impossible row: refused, never followed.
+                }
+                catch (Exception e) when (e is InvalidOperationException && mapped is ITrainableIndex { IsTrained: false })
+                {
+                    // An untrained index refuses searches, as a loaded one does.
+                }
+            }
+
+            Assert.True(clock.Elapsed < TimeSpan.FromMinutes(3), $"input {input} took the run past three minutes");
+        }
+
+        Assert.True(opened > 20, $"only {opened} of {inputs} mutated files opened; the mutations no longer reach the mapped index");
+    }
+
+    private static void Exercise(IVectorIndex mapped, Random random)
+    {
+        int d = mapped.Dimension;
+        var query = new float[d];
+        for (int i = 0; i < d; i++)
+        {
+            query[i] = (float)(random.NextDouble() - 0.5);
+        }
+
+        // No source is attached: an index that re-scores from one searches on its codes alone.
+        int? depth = mapped.Options.FullVectors == FullVectorLocation.ExternalSource ? 0 : null;
+        mapped.Search(query, 5, new SearchOptions { SearchWidth = Math.Max(1, random.Next(1, 20)), RescoreDepth = depth });
+        mapped.Search(query, 3, new SearchOptions { Filter = id => id % 3 != 0, RescoreDepth = depth });
+        var row = new float[d];
+        foreach (long id in mapped.GetIds().Take(20))
+        {
+            mapped.Contains(id);
+            mapped.TryGetVector(id, row);
+        }
+
+        mapped.Contains(random.NextInt64());
     }
 }

@@ -1,5 +1,4 @@
 using System.Buffers.Binary;
-using System.Diagnostics;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Persistence;
@@ -125,73 +124,7 @@ public sealed class MappedFileDamageTests : IDisposable
             corpus.Add(IndexFileDamageTests.Sample(name));
         }
 
-        int opened = 0;
-        var clock = Stopwatch.StartNew();
-        for (int input = 0; input < 400; input++)
-        {
-            var random = new Random(20261203 + (input * 7919));
-            byte[] bytes = IndexFileFuzzTests.Mutate(corpus[random.Next(corpus.Count)], random);
-            if (random.Next(4) != 0)
-            {
-                IndexFileBytes.FixChecksums(bytes);
-            }
-
-            MappedOpenOptions options = random.Next(2) == 0 ? MappedOpenOptions.Default : MappedOpenOptions.Untrusted;
-            string path = Write(bytes);
-            ExactIndex mapped;
-            try
-            {
-                mapped = IndexFile.OpenMapped<ExactIndex>(path, options);
-            }
-            catch (Exception e) when (e is IndexFileException or NotSupportedException)
-            {
-                continue;
-            }
-
-            opened++;
-            using (mapped)
-            {
-                try
-                {
-                    Exercise(mapped, random);
-                }
-                catch (InvalidDataException) when (!options.VerifyContents)
-                {
-                    // An unverified id order that names an impossible row: refused, never followed.
-                }
-                catch (Exception e) when (e is InvalidOperationException && !mapped.IsTrained)
-                {
-                    // An untrained index refuses searches, as a loaded one does.
-                }
-            }
-
-            Assert.True(clock.Elapsed < TimeSpan.FromMinutes(3), $"input {input} took the run past three minutes");
-        }
-
-        Assert.True(opened > 20, $"only {opened} of 400 mutated files opened; the mutations no longer reach the mapped index");
-    }
-
-    private static void Exercise(ExactIndex mapped, Random random)
-    {
-        int d = mapped.Dimension;
-        var query = new float[d];
-        for (int i = 0; i < d; i++)
-        {
-            query[i] = (float)(random.NextDouble() - 0.5);
-        }
-
-        query[0] += 1f;
-        SearchOptions options = mapped.Options.FullVectors == FullVectorLocation.ExternalSource ? new SearchOptions { RescoreDepth = 0 } : SearchOptions.Default;
-        mapped.Search(query, 5, options);
-        long[] ids = mapped.GetIds();
-        var row = new float[d];
-        foreach (long id in ids.Take(20))
-        {
-            mapped.Contains(id);
-            mapped.TryGetVector(id, row);
-        }
-
-        mapped.Contains(random.NextInt64());
+        MappedChecks.OpenMutations(corpus, 400, 20261203, Write);
     }
 
     private static void EditIdOrder(byte[] file, SpanAction edit)
