@@ -5,10 +5,11 @@ using VectorKit.Tests.TestData;
 namespace VectorKit.Tests.Indexes.Contract;
 
 /// <summary>
-/// The behaviour <see cref="IVectorIndex"/> promises, checked the same way on every index kind and encoding: each
-/// variant is a small sealed subclass that says how to build a ready, empty index and what quality to expect of it.
-/// Results are compared with <see cref="NaiveIndex"/>, a double-precision exhaustive search that shares no code with
-/// the library.
+/// The read-only part of the behaviour <see cref="IVectorIndex"/> promises (searches, batches, lookups, members, bad
+/// search input, disposal), checked the same way on every index kind and encoding and on every form of an index that
+/// only reads: <see cref="IndexContractTests"/> adds the writes for indexes that take them, and
+/// <see cref="MappedContract{TVariant}"/> runs this part on a variant's index saved and opened mapped. Results are
+/// compared with <see cref="NaiveIndex"/>, a double-precision exhaustive search that shares no code with the library.
 /// </summary>
 /// <remarks>
 /// Variants that re-score from an external source get it from <see cref="SourceFor"/>; the write helpers of this class
@@ -16,7 +17,7 @@ namespace VectorKit.Tests.Indexes.Contract;
 /// before the index sees it, as a caller keeping its vectors elsewhere must, and put the old vectors back when the
 /// index rejects or abandons the write. Tests therefore write through the helpers, never through the index directly.
 /// </remarks>
-public abstract partial class IndexContractTests
+public abstract partial class SearchContractTests
 {
     /// <summary>The dimension of most cases (divisible by the product-code sizes the variants use).</summary>
     protected const int Dim = 16;
@@ -47,16 +48,6 @@ public abstract partial class IndexContractTests
     /// </summary>
     protected virtual bool DecodesStoredVectors => false;
 
-    /// <summary>Whether <see cref="IVectorIndex.Compact"/> rebuilds the search structure (so approximate answers may change).</summary>
-    protected virtual bool CompactRebuilds => false;
-
-    /// <summary>
-    /// Whether a cancelled write restores the search structure too, so approximate searches return what they returned
-    /// before. The graph links new items into existing lists and repairs them when it takes the items out again, so its
-    /// items and vectors are restored but its links (and thus an approximate search's answer) may differ.
-    /// </summary>
-    protected virtual bool CancelledWriteRestoresLinks => true;
-
     /// <summary>Search options that make the variant search (nearly) everything: every list, or a very wide beam.</summary>
     protected virtual SearchOptions WideSearch => SearchOptions.Default;
 
@@ -72,6 +63,20 @@ public abstract partial class IndexContractTests
     /// <summary>Checks a vector read back from codes against the vector encoded (unit length under cosine).</summary>
     private protected virtual void AssertDecoded(IVectorIndex index, double[] encoded, float[] decoded)
         => throw new InvalidOperationException("a variant that decodes its stored vectors says how");
+
+    /// <summary>An index of the variant holding <paramref name="ids"/> with their rows: by default a new one, filled.</summary>
+    private protected virtual IVectorIndex Build(int dimension, DistanceMetric metric, long[] ids, float[] data)
+    {
+        IVectorIndex index = Create(dimension, metric);
+        AddRange(index, ids, data);
+        return index;
+    }
+
+    /// <summary>Checks that <paramref name="index"/> reports the options its factory gave (see <see cref="Given{T}"/>).</summary>
+    private protected virtual void AssertOptions(IVectorIndex index) => Assert.Same(GivenOptions, index.Options);
+
+    /// <summary>Whether <see cref="IVectorIndex.MemoryBytes"/> counts the stored rows (not for a mapped index, whose rows are the file's pages).</summary>
+    private protected virtual bool CountsStoredRows => true;
 
     /// <summary>Records the options a factory hands its index, for the <see cref="IVectorIndex.Options"/> check.</summary>
     protected T Given<T>(T options)
@@ -93,6 +98,28 @@ public abstract partial class IndexContractTests
         return source;
     }
 
+    /// <summary>What a wrapper running this variant's read-only contract on another form of its index needs of it.</summary>
+    internal (bool IsExact, double RecallFloor, bool ReportsExactDistances, bool DecodesStoredVectors, SearchOptions WideSearch) Facts
+        => (IsExact, RecallFloor, ReportsExactDistances, DecodesStoredVectors, WideSearch);
+
+    /// <summary>The options the variant's factory last gave, for a wrapper.</summary>
+    internal VectorIndexOptions? LastGivenOptions => GivenOptions;
+
+    /// <summary>A new empty index of the variant, for a wrapper.</summary>
+    internal IVectorIndex NewIndex(int dimension, DistanceMetric metric) => Create(dimension, metric);
+
+    /// <summary>A filled index of the variant (its source, if any, holding the rows), for a wrapper.</summary>
+    internal IVectorIndex NewIndex(int dimension, DistanceMetric metric, long[] ids, float[] data) => Build(dimension, metric, ids, data);
+
+    /// <summary>The variant's external source for <paramref name="dimension"/>, if it made one, for a wrapper.</summary>
+    internal IFullVectorSource? ExistingSource(int dimension) => _sources.GetValueOrDefault(dimension);
+
+    /// <summary>The variant's code bytes, for a wrapper.</summary>
+    internal int CodeBytesOf(int dimension) => ExpectedCodeBytes(dimension);
+
+    /// <summary>The variant's check of a decoded vector, for a wrapper.</summary>
+    internal void CheckDecoded(IVectorIndex index, double[] encoded, float[] decoded) => AssertDecoded(index, encoded, decoded);
+
     protected void Add(IVectorIndex index, long id, float[] vector)
         => Write(index, [id], vector, () => { index.Add(id, vector); return 0; });
 
@@ -108,10 +135,9 @@ public abstract partial class IndexContractTests
     /// <summary>An index of <paramref name="count"/> clustered items and the reference holding the same items.</summary>
     private protected Filled Fill(DistanceMetric metric, int count, int dimension = Dim, int seed = 1)
     {
-        IVectorIndex index = Create(dimension, metric);
         long[] ids = ContractData.Ids(count);
         float[] data = ContractData.Rows(count, dimension, seed);
-        AddRange(index, ids, data);
+        IVectorIndex index = Build(dimension, metric, ids, data);
         var reference = new NaiveIndex(dimension, metric);
         for (int i = 0; i < count; i++)
         {
