@@ -30,28 +30,9 @@ internal sealed partial class GraphIndexCodec
             // Its length follows from the levels; GraphLinks.Mapped checks it.
             (SectionId.UpperLinks, -1),
         };
-        if (codes)
-        {
-            expected.Add((SectionId.ScalarRanges, trained ? 2L * d * sizeof(float) : 0));
-            expected.Add((SectionId.ScalarCodes, checked((long)slots * codeBytes)));
-        }
-
-        if (keepsFull)
-        {
-            expected.Add((SectionId.Vectors, checked((long)slots * d * sizeof(float))));
-        }
-
+        MappedSections.ExpectRows(expected, d, slots, codes, trained, keepsFull);
         Dictionary<SectionId, int> at = sections.Match(expected, checked((long)count * sizeof(int)), verify, cancellationToken);
-        float[]? ranges = null;
-        if (codes && trained)
-        {
-            int position = at[SectionId.ScalarRanges];
-            ranges = sections.CopySmall<float>(position, 2 * d, cancellationToken);
-            if (FiniteCheck.IndexOfNonFinite(ranges) >= 0)
-            {
-                throw sections.Problem(position, "it holds a non-finite range value");
-            }
-        }
+        float[]? ranges = codes && trained ? sections.ScalarRanges(at, d, cancellationToken) : null;
 
         int upperAt = at[SectionId.UpperLinks];
         long upperBytes = sections.Payloads[upperAt].Entry.Length;
@@ -88,7 +69,7 @@ internal sealed partial class GraphIndexCodec
                 view, options, d, header.Metric, slots, count, (entrySlot, entryLevel),
                 ids, removed, (byte*)sections.Payload(at[SectionId.NodeLevels]).Start,
                 (int*)sections.Payload(at[SectionId.BottomLinks]).Start, (int*)sections.Payload(upperAt).Start, upperBytes / sizeof(int),
-                vectors, codeRows, trained && codes ? ranges : null, slotOf, verify);
+                vectors, codeRows, ranges, slotOf, verify);
         }
         catch (InvalidDataException e)
         {

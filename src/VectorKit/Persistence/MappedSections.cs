@@ -195,6 +195,41 @@ internal sealed unsafe class MappedSections
         return map;
     }
 
+    /// <summary>
+    /// Adds the sections of 8-bit codes over whole vectors (ranges, then <paramref name="rows"/> codes) when
+    /// <paramref name="codes"/>, and then the full vectors when <paramref name="keepsFull"/>: the tail shared by the
+    /// exact index and the graph.
+    /// </summary>
+    public static void ExpectRows(List<(SectionId Id, long Bytes)> expected, int dimension, int rows, bool codes, bool trained, bool keepsFull)
+    {
+        if (codes)
+        {
+            expected.Add((SectionId.ScalarRanges, trained ? 2L * dimension * sizeof(float) : 0));
+            expected.Add((SectionId.ScalarCodes, checked((long)rows * Quantization.ScalarQuantizer.PaddedLength(dimension))));
+        }
+
+        if (keepsFull)
+        {
+            expected.Add((SectionId.Vectors, checked((long)rows * dimension * sizeof(float))));
+        }
+    }
+
+    /// <summary>
+    /// The trained 8-bit ranges (<paramref name="dimension"/> minimums, then steps), copied after their checksum (they
+    /// are small, and the quantizer derives its padded ranges from them) and checked finite.
+    /// </summary>
+    public float[] ScalarRanges(Dictionary<SectionId, int> at, int dimension, CancellationToken cancellationToken)
+    {
+        int position = at[SectionId.ScalarRanges];
+        float[] ranges = CopySmall<float>(position, 2 * dimension, cancellationToken);
+        if (FiniteCheck.IndexOfNonFinite(ranges) >= 0)
+        {
+            throw Problem(position, "it holds a non-finite range value");
+        }
+
+        return ranges;
+    }
+
     /// <summary>The small section at <paramref name="position"/> copied out after its checksum (always verified: it is small); <paramref name="count"/> values.</summary>
     public T[] CopySmall<T>(int position, int count, CancellationToken cancellationToken)
         where T : unmanaged

@@ -141,7 +141,7 @@ public sealed partial class GraphIndex
             {
                 ThrowIfDisposed();
                 ChangeLog.Replay(log.Take(), rebuilt);
-                (VectorBuffer? oldVectors, CodeBuffer? oldCodes, IdColumn oldIds, FlagColumn oldRemoved) = (_vectors, _codes, _ids, _removed);
+                (VectorBuffer? oldVectors, CodeBuffer? oldCodes, IdColumn oldIds, Column<byte> oldRemoved) = (_vectors, _codes, _ids, _removed);
                 using (_lock.EnterWrite())
                 {
                     AdoptGraphOf(rebuilt);

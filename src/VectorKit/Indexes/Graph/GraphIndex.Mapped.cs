@@ -105,7 +105,7 @@ public sealed partial class GraphIndex
             index._codes = codes;
             index._ids = new IdColumn(0);
             index._ids.Borrow(ids, slots);
-            index._removed = new FlagColumn(0);
+            index._removed = new Column<byte>(0);
             index._removed.Borrow(removed, slots);
             index._links = links;
             index._slotOf = slotOf;

@@ -58,7 +58,7 @@ public sealed partial class GraphIndex
         NodeHeap results = scratch.Results;
         VisitedSet visited = scratch.Visited;
         ref int pending = ref MemoryMarshal.GetArrayDataReference(scratch.Pending);
-        FlagColumn removed = _removed;
+        Column<byte> removed = _removed;
         IdColumn ids = _ids;
         uint slots = (uint)_links.Capacity;
         while (candidates.Count > 0)

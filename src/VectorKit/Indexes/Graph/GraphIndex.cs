@@ -95,7 +95,7 @@ public sealed partial class GraphIndex : VectorIndex
     private Random _levelRandom;
     // Per slot: the id, and 1 when removed (native columns, so that a mapped file's sections can back them in place).
     private IdColumn _ids;
-    private FlagColumn _removed;
+    private Column<byte> _removed;
     private int _used;
     private int[] _levelCounts = new int[MaxLevel + 1];
     private readonly List<int> _orphanNotes = [];
@@ -141,7 +141,7 @@ public sealed partial class GraphIndex : VectorIndex
         _links = new GraphLinks(_options.LinksPerNode, _options.EffectiveBottomLayerLinks);
         _links.EnsureCapacity(_options.InitialCapacity);
         _ids = new IdColumn(_options.InitialCapacity);
-        _removed = new FlagColumn(_options.InitialCapacity);
+        _removed = new Column<byte>(_options.InitialCapacity);
         for (int i = 0; i < _stripes.Length; i++)
         {
             _stripes[i] = new object();
@@ -429,7 +429,7 @@ public sealed partial class GraphIndex : VectorIndex
         VectorBuffer? vectors = _vectors is null ? null : new VectorBuffer(Dimension, grown);
         CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, grown);
         var ids = new IdColumn(grown);
-        var removed = new FlagColumn(grown);
+        var removed = new Column<byte>(grown);
         try
         {
             _vectors?.CopyRowsTo(vectors!, used);

@@ -21,12 +21,15 @@ public abstract partial class SearchContractTests
 
     [Theory]
     [MemberData(nameof(DisposedMembers))]
-    public void Dispose_ThenTheMemberThrowsObjectDisposed(string member)
+    public void Dispose_ThenTheMemberThrowsObjectDisposed(string member) => AssertThrowsOnceDisposed(DisposedCalls[member]);
+
+    /// <summary>Fills an index, disposes it, and checks that <paramref name="call"/> then throws <see cref="ObjectDisposedException"/>.</summary>
+    private protected void AssertThrowsOnceDisposed(Action<IVectorIndex, float[]> call)
     {
         using Filled filled = Fill(DistanceMetric.SquaredEuclidean, 50);
         float[] vector = Row(Queries(1), 0);
         filled.Index.Dispose();
-        Assert.Throws<ObjectDisposedException>(() => DisposedCalls[member](filled.Index, vector));
+        Assert.Throws<ObjectDisposedException>(() => call(filled.Index, vector));
     }
 
     [Fact]

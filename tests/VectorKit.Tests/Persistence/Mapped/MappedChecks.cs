@@ -102,4 +102,28 @@ internal static class MappedChecks
 
         mapped.Contains(random.NextInt64());
     }
+
+    /// <summary>
+    /// Every write to <paramref name="mapped"/> (adds, replacements, removals, compaction, training) throws
+    /// <see cref="NotSupportedException"/> with <paramref name="message"/>; <paramref name="present"/> is an id it holds,
+    /// <paramref name="row"/> a valid vector, <paramref name="sample"/> a valid training sample.
+    /// </summary>
+    public static void AssertWritesRefused(VectorIndex mapped, long present, float[] row, float[] sample, string message)
+    {
+        foreach (Action write in new Action[]
+        {
+            () => mapped.Add(5, row),
+            () => mapped.AddRange([5, 6], [.. row, .. row]),
+            () => mapped.AddOrReplace(present, row),
+            () => mapped.AddOrReplaceRange([present], row),
+            () => mapped.Remove(present),
+            () => mapped.RemoveRange([present]),
+            () => mapped.Compact(),
+            () => mapped.Train(sample),
+        })
+        {
+            NotSupportedException e = Assert.Throws<NotSupportedException>(write);
+            Assert.Equal(message, e.Message);
+        }
+    }
 }

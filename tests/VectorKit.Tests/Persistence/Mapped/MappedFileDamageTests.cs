@@ -24,7 +24,7 @@ public sealed class MappedFileDamageTests : IDisposable
         byte[] file = Save(PersistenceSamples.Exact(count: 9, dimension: 3));
         for (int length = 0; length < file.Length; length++)
         {
-            string path = Write(file[..length]);
+            string path = _folder.Write(file[..length]);
             IndexFileException e = Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<ExactIndex>(path).Dispose());
             Assert.Equal(Path.GetFullPath(path), e.FilePath);
             Assert.True(
@@ -57,13 +57,13 @@ public sealed class MappedFileDamageTests : IDisposable
         Assert.Equal("IdOrder", e.Section);
         Assert.Contains("the id order names row 1000000 at position 4; the file has 9 rows", e.Message, StringComparison.Ordinal);
 
-        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(Write(file));
+        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(_folder.Write(file));
         InvalidDataException lookup = Assert.Throws<InvalidDataException>(() => mapped.Contains(1000 + (4 * 7)));
         Assert.Contains("names row 1000000", lookup.Message, StringComparison.Ordinal);
 
         // A negative row number is out of range too.
         EditIdOrder(file, order => BinaryPrimitives.WriteInt32LittleEndian(order[(4 * 4)..], -3));
-        using ExactIndex negative = IndexFile.OpenMapped<ExactIndex>(Write(file));
+        using ExactIndex negative = IndexFile.OpenMapped<ExactIndex>(_folder.Write(file));
         Assert.Throws<InvalidDataException>(() => negative.Contains(1000 + (4 * 7)));
     }
 
@@ -84,7 +84,7 @@ public sealed class MappedFileDamageTests : IDisposable
 
         // Unverified: a lookup may miss, but a row it finds has the id asked for, and TryGetVector reads that row.
         using ExactIndex truth = PersistenceSamples.Exact(count: 9, dimension: 3);
-        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(Write(file));
+        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(_folder.Write(file));
         var expected = new float[3];
         var actual = new float[3];
         foreach (long id in truth.GetIds())
@@ -124,7 +124,7 @@ public sealed class MappedFileDamageTests : IDisposable
             corpus.Add(IndexFileDamageTests.Sample(name));
         }
 
-        MappedChecks.OpenMutations(corpus, 400, 20261203, Write);
+        MappedChecks.OpenMutations(corpus, 400, 20261203, _folder.Write);
     }
 
     private static void EditIdOrder(byte[] file, SpanAction edit)
@@ -142,15 +142,8 @@ public sealed class MappedFileDamageTests : IDisposable
         }
     }
 
-    private string Write(byte[] bytes)
-    {
-        string path = _folder.File(Guid.NewGuid().ToString("N") + ".vkx");
-        File.WriteAllBytes(path, bytes);
-        return path;
-    }
-
     private IndexFileException Reject(byte[] file, MappedOpenOptions? options = null)
-        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<ExactIndex>(Write(file), options).Dispose());
+        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<ExactIndex>(_folder.Write(file), options).Dispose());
 
     private delegate void SpanAction(Span<byte> span);
 }

@@ -132,21 +132,7 @@ public sealed class MappedGraphTests : IDisposable
         using GraphIndex mapped = IndexFile.OpenMapped<GraphIndex>(_folder.File("ro.vkx"));
         float[] row = [0.1f, 0.2f, 0.3f, 0.4f];
         long present = saved.GetIds()[0];
-        foreach (Action write in new Action[]
-        {
-            () => mapped.Add(5, row),
-            () => mapped.AddRange([5, 6], [.. row, .. row]),
-            () => mapped.AddOrReplace(present, row),
-            () => mapped.AddOrReplaceRange([present], row),
-            () => mapped.Remove(present),
-            () => mapped.RemoveRange([present]),
-            () => mapped.Compact(),
-            () => mapped.Train(row),
-        })
-        {
-            NotSupportedException e = Assert.Throws<NotSupportedException>(write);
-            Assert.Equal("This GraphIndex reads a mapped index file in place and is read-only; load the file with IndexFile.Load to add, replace or remove items.", e.Message);
-        }
+        MappedChecks.AssertWritesRefused(mapped, present, row, row, "This GraphIndex reads a mapped index file in place and is read-only; load the file with IndexFile.Load to add, replace or remove items.");
 
         Assert.Equal(saved.GetIds(), mapped.GetIds());
         Assert.Equal(saved.Search(row, 5), mapped.Search(row, 5));
@@ -196,7 +182,7 @@ public sealed class MappedGraphTests : IDisposable
                     }
                 }
             });
-            string path = Write(damaged);
+            string path = _folder.Write(damaged);
             IndexFileException e = Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<GraphIndex>(path, MappedOpenOptions.Untrusted).Dispose());
             Assert.Contains($"layer 0: link 1 points to slot {target}, outside [0, 60)", e.Message, StringComparison.Ordinal);
 
@@ -222,7 +208,7 @@ public sealed class MappedGraphTests : IDisposable
             BinaryPrimitives.WriteInt32LittleEndian(links, 1);
             BinaryPrimitives.WriteInt32LittleEndian(links[4..], low);
         });
-        string path = Write(damaged);
+        string path = _folder.Write(damaged);
         IndexFileException e = Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<GraphIndex>(path, MappedOpenOptions.Untrusted).Dispose());
         Assert.Contains($"layer 1: link 1 points to slot {low}, whose level 0 is below the layer", e.Message, StringComparison.Ordinal);
         using GraphIndex mapped = IndexFile.OpenMapped<GraphIndex>(path);
@@ -257,7 +243,7 @@ public sealed class MappedGraphTests : IDisposable
         byte[] damaged = (byte[])file.Clone();
         EditSection(damaged, SectionId.IdOrder, order => BinaryPrimitives.WriteInt32LittleEndian(order, 0));
         Assert.Contains("the id order names row 0 at position 0, which is removed; it lists live rows only", Reject(damaged, MappedOpenOptions.Untrusted).Message, StringComparison.Ordinal);
-        using GraphIndex mapped = IndexFile.OpenMapped<GraphIndex>(Write(damaged));
+        using GraphIndex mapped = IndexFile.OpenMapped<GraphIndex>(_folder.Write(damaged));
         Assert.False(mapped.Contains(1000));
         Assert.False(mapped.TryGetVector(1000, new float[Dim]));
     }
@@ -272,7 +258,7 @@ public sealed class MappedGraphTests : IDisposable
             corpus.Add(SaveBytes(Build(variant, count: 60, seed: 4)));
         }
 
-        MappedChecks.OpenMutations(corpus, 300, 20261205, Write);
+        MappedChecks.OpenMutations(corpus, 300, 20261205, _folder.Write);
     }
 
     /// <summary>A graph of <paramref name="count"/> items (ids 1000 + 3i) with two removed, for each variant.</summary>
@@ -327,15 +313,8 @@ public sealed class MappedGraphTests : IDisposable
         IndexFileBytes.FixChecksums(file);
     }
 
-    private string Write(byte[] bytes)
-    {
-        string path = _folder.File(Guid.NewGuid().ToString("N") + ".vkx");
-        File.WriteAllBytes(path, bytes);
-        return path;
-    }
-
     private IndexFileException Reject(byte[] file, MappedOpenOptions? options = null)
-        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<GraphIndex>(Write(file), options).Dispose());
+        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<GraphIndex>(_folder.Write(file), options).Dispose());
 
     private delegate void SpanAction(Span<byte> span);
 }

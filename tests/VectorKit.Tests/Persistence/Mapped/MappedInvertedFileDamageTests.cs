@@ -26,7 +26,7 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
         byte[] file = Save(variant, count: 40);
         for (int length = 0; length < file.Length; length += 7)
         {
-            string path = Write(file[..length]);
+            string path = _folder.Write(file[..length]);
             IndexFileException e = Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped(path).Dispose());
             Assert.True(
                 e.Message.Contains("truncated", StringComparison.Ordinal) || e.Message.Contains("not recognised", StringComparison.Ordinal),
@@ -73,7 +73,7 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
         else
         {
             // Same block count: the entries change lists, which is wrong but stays inside the sections.
-            using IVectorIndex mapped = IndexFile.OpenMapped(Write(moved));
+            using IVectorIndex mapped = IndexFile.OpenMapped(_folder.Write(moved));
             mapped.Search(new float[8], 5, new SearchOptions { SearchWidth = 16 });
         }
     }
@@ -91,7 +91,7 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
         Assert.Equal("IdOrder", e.Section);
         Assert.Contains("the id order names row 1000000 at position 2; the file has 28 rows", e.Message, StringComparison.Ordinal);
 
-        using IVectorIndex mapped = IndexFile.OpenMapped(Write(file));
+        using IVectorIndex mapped = IndexFile.OpenMapped(_folder.Write(file));
         long[] ids = mapped.GetIds();
         Assert.Throws<InvalidDataException>(() => ids.Select(mapped.Contains).ToArray());
     }
@@ -122,7 +122,7 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
             corpus.Add(Save(variant, count: 50));
         }
 
-        MappedChecks.OpenMutations(corpus, 300, 20261204, Write);
+        MappedChecks.OpenMutations(corpus, 300, 20261204, _folder.Write);
     }
 
     private static byte[] Save(string variant, int count)
@@ -161,13 +161,6 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
     // Whole blocks of 32 entries, 2 code bytes each (the fast-scan variant's code size).
     private static long FastScanBytes(int[] lengths) => lengths.Sum(l => (l + 31L) / 32 * 32 * 2);
 
-    private string Write(byte[] bytes)
-    {
-        string path = _folder.File(Guid.NewGuid().ToString("N") + ".vkx");
-        File.WriteAllBytes(path, bytes);
-        return path;
-    }
-
     private IndexFileException Reject(byte[] file, MappedOpenOptions? options = null)
-        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped(Write(file), options).Dispose());
+        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped(_folder.Write(file), options).Dispose());
 }
