@@ -11,7 +11,7 @@ namespace VectorKit.Persistence;
 /// bottom-layer links, upper-layer links and vectors, in that order. Under 8-bit codes the vectors section is replaced
 /// by the scalar ranges and the codes, followed by the vectors only when the full vectors are kept in memory for
 /// re-scoring; a graph re-scoring from an external source records that in the field <c>full-vector-location</c> (1)
-/// and stores no vectors.
+/// and stores no vectors. Last, from format version 5, the id order of the live slots (for mapped opening).
 /// </summary>
 internal sealed partial class GraphIndexCodec : IndexCodec
 {
