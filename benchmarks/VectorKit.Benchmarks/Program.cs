@@ -17,7 +17,7 @@ namespace VectorKit.Benchmarks;
 /// <c>exact-scalar-sweep [count] [dimension]</c>; product codes with and without the
 /// variance-balancing rotation: <c>product-rotation-sweep [clustered count] [dimension]</c>; and the load-speed harness:
 /// <c>storage-load [exact count] [graph count] [dimension]</c>; mapped opening against loading,
-/// <c>mapped-open [count] [dimension] [queries] [rounds] [exact|ivf]</c>; and every index kind side by side at default options on
+/// <c>mapped-open [count] [dimension] [queries] [rounds] [exact|ivf|graph|graph-8bit]</c>; and every index kind side by side at default options on
 /// Fashion-MNIST: <c>index-guide [without-default-lists]</c>; search latency during removals, the graph's global pass,
 /// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds] [nice of the searching and writing threads]</c>; the
 /// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>; the exact

@@ -102,7 +102,7 @@ internal static class FuzzTargets
         return outcome;
     }
 
-    // Opens the input as a file mapped in place (an exact index or an inverted file), verified (the untrusted preset)
+    // Opens the input as a file mapped in place (any kind), verified (the untrusted preset)
     // and unverified; an index that opens is read and searched. Unverified, a damaged id order may be
     // refused on use with InvalidDataException, as documented; nothing may read outside the mapping.
     private static FuzzOutcome Mapped(byte[] input)
@@ -156,10 +156,16 @@ internal static class FuzzTargets
         index.Search(query, 5, options);
         index.SearchBatch([.. query, .. query], 3, options);
 
-        // An inverted file: every list probed too, so each list's codes and ids are read.
+        // An inverted file: every list probed too, so each list's codes and ids are read; a graph: a beam as wide as
+        // the file, so every link the walk reaches is followed, and a filtered search.
         if (index is Indexes.InvertedFile.InvertedFileIndex lists)
         {
             index.Search(query, 5, new SearchOptions { MaxDegreeOfParallelism = 1, RescoreDepth = options.RescoreDepth, SearchWidth = lists.Options.ListCount });
+        }
+        else if (index is Indexes.Graph.GraphIndex)
+        {
+            index.Search(query, 5, new SearchOptions { MaxDegreeOfParallelism = 1, RescoreDepth = options.RescoreDepth, SearchWidth = Math.Max(1, Math.Min(ids.Length, 10_000)) });
+            index.Search(query, 5, new SearchOptions { MaxDegreeOfParallelism = 1, RescoreDepth = options.RescoreDepth, Filter = id => (id & 1) == 0 });
         }
     }
 

@@ -34,10 +34,7 @@ internal static class Seeds
         {
             yield return ("index", name, file);
             yield return ("index-raw", name, file);
-            if (name.StartsWith("exact", StringComparison.Ordinal) || name.StartsWith("ivf", StringComparison.Ordinal))
-            {
-                yield return ("index-mapped", name, file);
-            }
+            yield return ("index-mapped", name, file);
         }
 
         float[] data = Data(6, 3, 1);

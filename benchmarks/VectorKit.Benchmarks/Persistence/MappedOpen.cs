@@ -2,6 +2,7 @@ using System.Diagnostics;
 using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Indexes;
+using VectorKit.Indexes.Graph;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.Persistence;
 using VectorKit.Tests.TestData;
@@ -10,8 +11,9 @@ namespace VectorKit.Benchmarks.Persistence;
 
 /// <summary>
 /// A console harness comparing <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/> with <see cref="IndexFile.Load(string, IndexLoadOptions?, CancellationToken)"/>
-/// on one exact index or inverted-file file (default 1,000,000 × 128, cached under BenchmarkDotNet.Artifacts/storage; the
-/// inverted file: 1,024 lists, 64-byte product codes, full vectors kept, 8 lists probed, re-scoring 50): time to open,
+/// on one exact index, inverted-file or graph file (default 1,000,000 × 128, cached under BenchmarkDotNet.Artifacts/storage; the
+/// inverted file: 1,024 lists, 64-byte product codes, full vectors kept, 8 lists probed, re-scoring 50; the graph: default
+/// options, float32 or 8-bit codes with full vectors kept and re-scoring 50): time to open,
 /// time to the first query, single-thread queries/s after it, and the process's anonymous and file-backed resident
 /// memory. Cold rounds first drop the file's pages from the page cache with posix_fadvise(DONTNEED) (this file only:
 /// the machine is shared, so the system-wide drop_caches is not used); warm rounds run with the file cached. Rounds
@@ -25,17 +27,35 @@ public static class MappedOpen
     {
         string folder = Path.Combine(Directory.GetCurrentDirectory(), "BenchmarkDotNet.Artifacts", "storage");
         Directory.CreateDirectory(folder);
-        bool lists = kind == "ivf";
-        string path = Path.Combine(folder, lists ? $"ivf-pq64-v4-{count}x{dimension}.vkx" : $"exact-v3-{count}x{dimension}.vkx");
+        string path = Path.Combine(folder, kind switch
+        {
+            "ivf" => $"ivf-pq64-v4-{count}x{dimension}.vkx",
+            "graph" => $"graph-v5-{count}x{dimension}.vkx",
+            "graph-8bit" => $"graph-8bit-v5-{count}x{dimension}.vkx",
+            _ => $"exact-v3-{count}x{dimension}.vkx",
+        });
         if (!File.Exists(path))
         {
             var build = Stopwatch.StartNew();
-            using IVectorIndex built = lists ? BuildInvertedFile(count, dimension) : StorageLoad.BuildExact(count, dimension);
+            using IVectorIndex built = kind switch
+            {
+                "ivf" => BuildInvertedFile(count, dimension),
+                "graph" => BuildGraph(count, dimension, VectorEncoding.Float32),
+                "graph-8bit" => BuildGraph(count, dimension, VectorEncoding.Scalar8Bit),
+                _ => StorageLoad.BuildExact(count, dimension),
+            };
             IndexFile.Save(built, path);
             Console.WriteLine($"built and saved in {build.Elapsed.TotalSeconds:F0} s");
         }
 
-        Console.WriteLine($"mapped open vs load: {(lists ? "inverted file (1,024 lists, 64-byte product codes, full vectors kept; 8 probed, re-scoring 50)" : "exact")} {count} × {dimension}, file {new FileInfo(path).Length / 1e6:F0} MB, {queryCount} queries, k = 10, one thread; {Environment.ProcessorCount} cores; median of {rounds} rounds");
+        string described = kind switch
+        {
+            "ivf" => "inverted file (1,024 lists, 64-byte product codes, full vectors kept; 8 probed, re-scoring 50)",
+            "graph" => "graph (float32, default options)",
+            "graph-8bit" => "graph (8-bit codes, full vectors kept, re-scoring 50, default options otherwise)",
+            _ => "exact",
+        };
+        Console.WriteLine($"mapped open vs load: {described} {count} × {dimension}, file {new FileInfo(path).Length / 1e6:F0} MB, {queryCount} queries, k = 10, one thread; {Environment.ProcessorCount} cores; median of {rounds} rounds");
         float[] queries = ClusteredData.Generate(queryCount + 1, dimension, 50, 0.3f, seed: 5);
         var serial = new SearchOptions { MaxDegreeOfParallelism = 1 };
 
@@ -145,6 +165,21 @@ public static class MappedOpen
             index.AddRange(Enumerable.Range(start, n).Select(i => (long)i).ToArray(), data.AsSpan(start * dimension, n * dimension));
         }
 
+        return index;
+    }
+
+    // The same clustered rows as the inverted file's, added on every core; under 8-bit codes trained on a sample of them.
+    private static GraphIndex BuildGraph(int count, int dimension, VectorEncoding encoding)
+    {
+        bool codes = encoding == VectorEncoding.Scalar8Bit;
+        var index = new GraphIndex(dimension, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { Encoding = encoding, RescoreDepth = codes ? 50 : 0 });
+        float[] data = ClusteredData.Generate(count, dimension, Math.Max(1, count / 100), 0.2f, seed: 101);
+        if (codes)
+        {
+            index.Train(data.AsSpan(0, Math.Min(count, 65_536) * dimension));
+        }
+
+        index.AddRange(Enumerable.Range(0, count).Select(i => (long)i).ToArray(), data);
         return index;
     }
 

@@ -15,12 +15,19 @@ internal sealed unsafe class SortedIdLookup
     private readonly long* _ids;
     private readonly int* _order;
     private readonly int _count;
+    private readonly int _rows;
 
-    public SortedIdLookup(long* ids, int* order, int count)
+    // Per row, non-zero when removed (the graph's flags; null when every row is live): the order lists live rows only.
+    private readonly byte* _removed;
+
+    /// <summary>A lookup over <paramref name="count"/> ordered rows among <paramref name="rows"/> (all of them unless some are flagged in <paramref name="removed"/>).</summary>
+    public SortedIdLookup(long* ids, int* order, int count, int rows, byte* removed = null)
     {
         _ids = ids;
         _order = order;
         _count = count;
+        _rows = rows;
+        _removed = removed;
     }
 
     public int Count => _count;
@@ -36,8 +43,9 @@ internal sealed unsafe class SortedIdLookup
             long at = _ids[row];
             if (at == id)
             {
+                // A removed row named by an unverified order is not an answer.
                 slot = row;
-                return true;
+                return _removed == null || _removed[row] == 0;
             }
 
             if (at < id)
@@ -57,7 +65,20 @@ internal sealed unsafe class SortedIdLookup
     /// <summary>Every id, ascending, as a new array; sorted here rather than read in the file's order, so an unverified file cannot hand out an unsorted list.</summary>
     public long[] SortedIds()
     {
-        long[] ids = new ReadOnlySpan<long>(_ids, _count).ToArray();
+        long[] ids;
+        if (_removed == null)
+        {
+            ids = new ReadOnlySpan<long>(_ids, _count).ToArray();
+        }
+        else
+        {
+            ids = new long[_count];
+            for (int i = 0; i < _count; i++)
+            {
+                ids[i] = _ids[RowAt(i)];
+            }
+        }
+
         Array.Sort(ids);
         return ids;
     }
@@ -71,6 +92,11 @@ internal sealed unsafe class SortedIdLookup
         for (int i = 0; i < _count; i++)
         {
             int row = RowAt(i);
+            if (_removed != null && _removed[row] != 0)
+            {
+                throw new InvalidDataException($"the id order names row {row} at position {i}, which is removed; it lists live rows only");
+            }
+
             if (i > 0 && _ids[_order[i - 1]] >= _ids[row])
             {
                 throw new InvalidDataException(
@@ -82,9 +108,9 @@ internal sealed unsafe class SortedIdLookup
     private int RowAt(int position)
     {
         int row = _order[position];
-        if ((uint)row >= (uint)_count)
+        if ((uint)row >= (uint)_rows)
         {
-            throw new InvalidDataException($"the id order names row {row} at position {position}; the file has {_count} rows");
+            throw new InvalidDataException($"the id order names row {row} at position {position}; the file has {_rows} rows");
         }
 
         return row;

@@ -36,30 +36,9 @@ internal sealed partial class ExactIndexCodec
         // The sections this variant has, in order; skippable sections this library does not know are passed over.
         var expected = new List<(SectionId Id, long Bytes)> { (SectionId.Ids, checked((long)n * sizeof(long))) };
         int codeBytes = ScalarQuantizer.PaddedLength(d);
-        if (codes)
-        {
-            expected.Add((SectionId.ScalarRanges, trained ? 2L * d * sizeof(float) : 0));
-            expected.Add((SectionId.ScalarCodes, checked((long)n * codeBytes)));
-        }
-
-        if (keepsFull)
-        {
-            expected.Add((SectionId.Vectors, checked((long)n * d * sizeof(float))));
-        }
-
+        MappedSections.ExpectRows(expected, d, n, codes, trained, keepsFull);
         Dictionary<SectionId, int> at = sections.Match(expected, checked((long)n * sizeof(int)), verify, cancellationToken);
-
-        float[]? ranges = null;
-        if (codes && trained)
-        {
-            // Small: always checksummed, and copied (the quantizer derives its padded ranges from them).
-            int position = at[SectionId.ScalarRanges];
-            ranges = sections.CopySmall<float>(position, 2 * d, cancellationToken);
-            if (FiniteCheck.IndexOfNonFinite(ranges) >= 0)
-            {
-                throw sections.Problem(position, "it holds a non-finite range value");
-            }
-        }
+        float[]? ranges = codes && trained ? sections.ScalarRanges(at, d, cancellationToken) : null;
 
         long* ids = (long*)sections.Payload(at[SectionId.Ids]).Start;
         if (verify && keepsFull)

@@ -9,13 +9,20 @@ internal static class FileLayout
     /// The newest format version this library writes. Readers accept every version from 1 up to this one. Version 2 added
     /// the tuned search defaults (<see cref="TuningFields"/>); version 3 the exact index's <see cref="SectionId.IdOrder"/>
     /// (for mapped opening); version 4 the inverted file's id order and its fast-scan codes as blocks
-    /// (<see cref="SectionId.FastScanBlocks"/>), so that an inverted file is searched in place too. A file is written with the lowest version that holds what it needs.
+    /// (<see cref="SectionId.FastScanBlocks"/>), so that an inverted file is searched in place too; version 5 the graph's
+    /// id order (of its live slots), so that a graph opens mapped without hashing its ids. A file is written with the
+    /// lowest version that holds what it needs.
     /// </summary>
-    public const uint CurrentVersion = 4;
+    public const uint CurrentVersion = 5;
 
     /// <summary>The lowest format version that holds everything <paramref name="header"/> lists.</summary>
     public static uint VersionFor(IndexHeader header)
     {
+        if (header.Kind == IndexKind.Graph && header.Sections.Exists(s => s.Id == (uint)SectionId.IdOrder))
+        {
+            return 5;
+        }
+
         foreach (SectionEntry section in header.Sections)
         {
             if (section.Id == (uint)SectionId.FastScanBlocks || (section.Id == (uint)SectionId.IdOrder && header.Kind == IndexKind.InvertedFile))

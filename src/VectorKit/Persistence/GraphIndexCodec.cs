@@ -11,9 +11,9 @@ namespace VectorKit.Persistence;
 /// bottom-layer links, upper-layer links and vectors, in that order. Under 8-bit codes the vectors section is replaced
 /// by the scalar ranges and the codes, followed by the vectors only when the full vectors are kept in memory for
 /// re-scoring; a graph re-scoring from an external source records that in the field <c>full-vector-location</c> (1)
-/// and stores no vectors.
+/// and stores no vectors. Last, from format version 5, the id order of the live slots (for mapped opening).
 /// </summary>
-internal sealed class GraphIndexCodec : IndexCodec
+internal sealed partial class GraphIndexCodec : IndexCodec
 {
     private const string LinksPerNode = "links-per-node";
     private const string BottomLayerLinks = "bottom-layer-links";
@@ -86,6 +86,7 @@ internal sealed class GraphIndexCodec : IndexCodec
                 header.Sections.Add(new SectionEntry((uint)SectionId.Vectors, 0, checked((long)slots * parts.Dimension * sizeof(float))));
             }
 
+            AddIdOrder(header, parts.Count);
             writer.WriteHeader(header);
             writer.BeginSection(SectionId.Ids);
             writer.Write<long>(parts.Ids.AsSpan(0, slots));
@@ -119,14 +120,17 @@ internal sealed class GraphIndexCodec : IndexCodec
                 writer.EndSection();
             }
 
+            WriteIdOrder(writer, parts.Ids.AsSpan(0, slots), parts.Removed.AsSpan(0, slots));
             writer.Finish();
             return 0;
         });
     }
 
-    public override IVectorIndex Load(IndexHeader header, IndexFileReader reader)
+    // What the header says about the stored graph: shared by a load and a mapped opening.
+    private readonly record struct Layout(GraphIndexOptions Options, int Slots, bool Codes, bool Trained, bool KeepsFull, int EntrySlot, int EntryLevel);
+
+    private static Layout ReadLayout(IndexHeader header, int maxLinks)
     {
-        int maxLinks = reader.Options.MaxLinksPerNode;
         int slots = (int)header.Rows;
         int links = (int)header.Integer(LinksPerNode, 2, maxLinks);
         int bottom = (int)header.Integer(BottomLayerLinks, 0, maxLinks);
@@ -178,6 +182,14 @@ internal sealed class GraphIndexCodec : IndexCodec
 
         int entrySlot = (int)header.Integer(EntrySlot, -1, Math.Max(-1, slots - 1));
         int entryLevel = (int)header.Integer(EntryLevel, 0, GraphIndexParts.MaxNodeLevel);
+        bool keepsFull = !codes || (rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory);
+        return new Layout(options, slots, codes, trained, keepsFull, entrySlot, entryLevel);
+    }
+
+    public override IVectorIndex Load(IndexHeader header, IndexFileReader reader)
+    {
+        (GraphIndexOptions options, int slots, bool codes, bool trained, bool keepsFull, int entrySlot, int entryLevel) = ReadLayout(header, reader.Options.MaxLinksPerNode);
+        int links = options.LinksPerNode;
 
         reader.OpenSection(SectionId.Ids);
         long[] ids = reader.ReadArray<long>(slots);
@@ -227,7 +239,7 @@ internal sealed class GraphIndexCodec : IndexCodec
                 reader.CloseSection();
             }
 
-            if (!codes || (rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory))
+            if (keepsFull)
             {
                 reader.OpenSection(SectionId.Vectors);
                 vectors = new VectorBuffer(header.Dimension, 0);
@@ -242,6 +254,7 @@ internal sealed class GraphIndexCodec : IndexCodec
             throw;
         }
 
+        SkipIdOrder(header, reader, header.Count);
         var parts = new GraphIndexParts
         {
             Dimension = header.Dimension,

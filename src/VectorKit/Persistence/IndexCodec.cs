@@ -48,19 +48,33 @@ internal abstract class IndexCodec
 
     /// <summary>
     /// Lists the <see cref="SectionId.IdOrder"/> section last: rows by ascending id, so that a mapped file finds an id by
-    /// binary search instead of hashing every id at open (exact index from format version 3, inverted file from 4).
+    /// binary search instead of hashing every id at open (exact index from format version 3, inverted file from 4, graph
+    /// from 5).
     /// </summary>
     protected static void AddIdOrder(IndexHeader header, int count)
         => header.Sections.Add(new SectionEntry((uint)SectionId.IdOrder, 0, checked((long)count * sizeof(int))));
 
-    /// <summary>Writes the <see cref="SectionId.IdOrder"/> section of the rows' <paramref name="ids"/>.</summary>
-    protected static void WriteIdOrder(IndexFileWriter writer, ReadOnlySpan<long> ids)
+    /// <summary>
+    /// Writes the <see cref="SectionId.IdOrder"/> section of the rows' <paramref name="ids"/>: every row, or with
+    /// <paramref name="removed"/> (the graph's flags) the live rows only.
+    /// </summary>
+    protected static void WriteIdOrder(IndexFileWriter writer, ReadOnlySpan<long> ids, ReadOnlySpan<byte> removed = default)
     {
-        long[] keys = ids.ToArray();
-        int[] order = new int[keys.Length];
-        for (int i = 0; i < order.Length; i++)
+        int live = ids.Length;
+        if (!removed.IsEmpty)
         {
-            order[i] = i;
+            live -= ids.Length - removed.Count((byte)0);
+        }
+
+        long[] keys = new long[live];
+        int[] order = new int[live];
+        for (int row = 0, at = 0; row < ids.Length; row++)
+        {
+            if (removed.IsEmpty || removed[row] == 0)
+            {
+                keys[at] = ids[row];
+                order[at++] = row;
+            }
         }
 
         Array.Sort(keys, order);
@@ -71,11 +85,15 @@ internal abstract class IndexCodec
 
     /// <summary>A loaded (not mapped) index hashes its ids anyway: the order, when listed, is read through its checksum and dropped.</summary>
     protected static void SkipIdOrder(IndexHeader header, IndexFileReader reader)
+        => SkipIdOrder(header, reader, header.Rows);
+
+    /// <summary>As <see cref="SkipIdOrder(IndexHeader, IndexFileReader)"/> for an order of <paramref name="entries"/> rows (the graph lists its live rows only).</summary>
+    protected static void SkipIdOrder(IndexHeader header, IndexFileReader reader, long entries)
     {
         if (header.Sections.Exists(s => s.Id == (uint)SectionId.IdOrder))
         {
             reader.OpenSection(SectionId.IdOrder);
-            reader.ExpectPayload(checked(header.Rows * sizeof(int)));
+            reader.ExpectPayload(checked(entries * sizeof(int)));
             reader.SkipRest();
             reader.CloseSection();
         }

@@ -36,7 +36,7 @@ internal sealed partial class InvertedFileIndexCodec
         if (fourBit && !packed && count > 0)
         {
             throw new NotSupportedException(
-                $"The index file holds a fast-scan inverted file of format version {header.FormatVersion}, whose codes are stored one after another rather than in the search's blocks, so it cannot be searched in place. Load it with IndexFile.Load, or load and save it again to write format version {FileLayout.CurrentVersion}.");
+                $"The index file holds a fast-scan inverted file of format version {header.FormatVersion}, whose codes are stored one after another rather than in the search's blocks, so it cannot be searched in place. Load it with IndexFile.Load, or load and save it again to write format version 4.");
         }
 
         var expected = new List<(SectionId Id, long Bytes)> { (SectionId.Centroids, trained ? checked((long)lists * d * sizeof(float)) : 0) };

@@ -8,13 +8,16 @@ namespace VectorKit.Persistence;
 /// <para><b>Always checked at open</b> (cost independent of the item count): magic, version, header checksum, the caps
 /// of <see cref="Load"/>, every section's position (computed from the header's lengths with checked arithmetic, never
 /// read from the file), frames, zero padding, the file's exact length, each section's length against what the header's
-/// counts require, and the checksum and values of the small sections (code ranges).</para>
+/// counts require, and the checksum and values of the small sections (code ranges); a graph's levels (each within the
+/// cap, together requiring exactly the upper-layer links' length).</para>
 /// <para><b>Always checked on use</b>: every row number the file supplies (the id order) is bounds-checked before it
-/// is followed, so no file can make a search or lookup read outside the mapping.</para>
+/// is followed, and a graph walk passes over link targets outside the nodes and reads a layer a node lacks as empty,
+/// so no file can make a search or lookup read outside the mapping.</para>
 /// <para><b>Checked only with <see cref="VerifyContents"/></b> (one pass over the whole file, no copy): the bulk
-/// payloads' checksums, finite vector components, 8-bit codes' zero padding, and an id order that is strictly
-/// ascending (which also proves the ids unique). Without it a damaged bulk section gives wrong answers, never an
-/// out-of-bounds read.</para>
+/// payloads' checksums, finite vector components, 8-bit codes' zero padding, an id order that is strictly
+/// ascending (which also proves the ids unique) and, for a graph, names live nodes only, and a graph's structure as a
+/// load checks it (link counts and targets, levels of link targets, the entry point, the live count). Without it a
+/// damaged bulk section gives wrong answers, never an out-of-bounds read.</para>
 /// <para>Instances are immutable and may be shared.</para>
 /// </remarks>
 public sealed class MappedOpenOptions

@@ -151,10 +151,18 @@ internal sealed unsafe class MappedSections
     /// such a file's opening that grows with the count).
     /// </summary>
     public Internal.IdMap IdMap(Dictionary<SectionId, int> at, long* ids, int n, bool verify)
+        => IdMap(at, ids, n, n, null, verify);
+
+    /// <summary>
+    /// As <see cref="IdMap(Dictionary{SectionId, int}, long*, int, bool)"/> for <paramref name="rows"/> rows of which
+    /// those flagged in <paramref name="removed"/> are not live: the order lists the <paramref name="live"/> others.
+    /// </summary>
+    public Internal.IdMap IdMap(Dictionary<SectionId, int> at, long* ids, int live, int rows, byte* removed, bool verify)
     {
+        int n = rows;
         if (at.TryGetValue(SectionId.IdOrder, out int position))
         {
-            var lookup = new Internal.SortedIdLookup(ids, (int*)Payload(position).Start, n);
+            var lookup = new Internal.SortedIdLookup(ids, (int*)Payload(position).Start, live, rows, removed);
             if (verify)
             {
                 try
@@ -170,9 +178,14 @@ internal sealed unsafe class MappedSections
             return new Internal.IdMap(lookup);
         }
 
-        var map = new Internal.IdMap(n);
+        var map = new Internal.IdMap(live);
         for (int slot = 0; slot < n; slot++)
         {
+            if (removed != null && removed[slot] != 0)
+            {
+                continue;
+            }
+
             if (!map.TryAdd(ids[slot], slot))
             {
                 throw Problem(at[SectionId.Ids], $"id {ids[slot]} appears at rows {map[ids[slot]]} and {slot}; ids must be unique");
@@ -180,6 +193,41 @@ internal sealed unsafe class MappedSections
         }
 
         return map;
+    }
+
+    /// <summary>
+    /// Adds the sections of 8-bit codes over whole vectors (ranges, then <paramref name="rows"/> codes) when
+    /// <paramref name="codes"/>, and then the full vectors when <paramref name="keepsFull"/>: the tail shared by the
+    /// exact index and the graph.
+    /// </summary>
+    public static void ExpectRows(List<(SectionId Id, long Bytes)> expected, int dimension, int rows, bool codes, bool trained, bool keepsFull)
+    {
+        if (codes)
+        {
+            expected.Add((SectionId.ScalarRanges, trained ? 2L * dimension * sizeof(float) : 0));
+            expected.Add((SectionId.ScalarCodes, checked((long)rows * Quantization.ScalarQuantizer.PaddedLength(dimension))));
+        }
+
+        if (keepsFull)
+        {
+            expected.Add((SectionId.Vectors, checked((long)rows * dimension * sizeof(float))));
+        }
+    }
+
+    /// <summary>
+    /// The trained 8-bit ranges (<paramref name="dimension"/> minimums, then steps), copied after their checksum (they
+    /// are small, and the quantizer derives its padded ranges from them) and checked finite.
+    /// </summary>
+    public float[] ScalarRanges(Dictionary<SectionId, int> at, int dimension, CancellationToken cancellationToken)
+    {
+        int position = at[SectionId.ScalarRanges];
+        float[] ranges = CopySmall<float>(position, 2 * dimension, cancellationToken);
+        if (FiniteCheck.IndexOfNonFinite(ranges) >= 0)
+        {
+            throw Problem(position, "it holds a non-finite range value");
+        }
+
+        return ranges;
     }
 
     /// <summary>The small section at <paramref name="position"/> copied out after its checksum (always verified: it is small); <paramref name="count"/> values.</summary>

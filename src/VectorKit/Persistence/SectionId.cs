@@ -46,8 +46,9 @@ internal enum SectionId : uint
     ProductRotation = 13,
 
     /// <summary>
-    /// Exact index (format version 3): the rows' numbers, <c>rows</c> int32, ordered by ascending id, so that a mapped
-    /// file looks an id up by binary search. Derived data; a loader that hashes the ids reads it through its checksum only.
+    /// Exact index (format version 3), inverted file (4) and graph (5, live slots only): the rows' numbers, one int32 each,
+    /// ordered by ascending id, so that a mapped file looks an id up by binary search. Derived data; a loader that hashes
+    /// the ids reads it through its checksum only.
     /// </summary>
     IdOrder = 14,
 

@@ -113,13 +113,13 @@ public class CraftedGraphTests
         header.Integers["full-vector-location"] = 2;
         Assert.Contains("the field 'full-vector-location' is 2; expected a value in [0, 1]", Rejection.Assert(IndexFileBytes.Compose(header, IndexFileBytes.Payloads(file))).Message, StringComparison.Ordinal);
 
-        // Claimed external over a file that stores the vectors: the section is left over.
+        // Claimed external over a file that stores the vectors: the section is left over, where the id order belongs.
         using GraphIndex memory = PersistenceSamples.ScalarGraph(rescoreDepth: 4);
         byte[] withVectors = IndexFileBytes.Save(memory);
         IndexHeader memoryHeader = IndexFileBytes.CopyHeader(IndexFileBytes.Header(withVectors));
         Assert.False(memoryHeader.Integers.ContainsKey("full-vector-location"));
         memoryHeader.Integers["full-vector-location"] = 1;
-        Assert.Contains("section 'Vectors' (id 2) is listed but this index kind does not use it", Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors))).Message, StringComparison.Ordinal);
+        Assert.Contains("section 7 is 'Vectors' (id 2); this index kind expects 'IdOrder' (id 14) there", Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors))).Message, StringComparison.Ordinal);
     }
 
     private static string Reject(Action<byte[]> damage, bool settled = false)

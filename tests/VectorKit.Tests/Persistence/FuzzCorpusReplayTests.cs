@@ -39,6 +39,19 @@ public class FuzzCorpusReplayTests
         Assert.True(accepted > 0, $"no input of fuzz/corpus/{target} was accepted");
     }
 
+    [Fact]
+    public void TheMappedTargetsGraphSeeds_OpenAndAreSearched()
+    {
+        // Valid graph files of every variant and of the versions with and without an id order: the target must open
+        // them mapped (both presets) and walk them, so the replay above covers the mapped graph's accepting path.
+        string[] seeds = Directory.GetFiles(Path.Combine(CorpusFolder, "index-mapped"), "seed-graph-*").Order(StringComparer.Ordinal).ToArray();
+        Assert.True(seeds.Length >= 6, $"fuzz/corpus/index-mapped has {seeds.Length} graph seeds");
+        foreach (string seed in seeds)
+        {
+            Assert.Equal((Path.GetFileName(seed), FuzzOutcome.Accepted), (Path.GetFileName(seed), Replay("index-mapped", seed).Outcome));
+        }
+    }
+
     // Runs one input on a worker with a hang guard; returns its outcome and the managed bytes it allocated.
     private static (FuzzOutcome Outcome, long Allocated, int Length) Replay(string target, string file)
     {

@@ -116,7 +116,10 @@ public partial class GoldenFileTests
             Assert.Equal(exact.Search(query, 10), loaded.Search(query, 10, everything));
         }
 
-        Assert.Equal(fixture, IndexFileBytes.Save(loaded));
+        using (FullVectorSources.Open(FullVectorSourceKind.InMemory, string.Empty, data, ids, 3, out IFullVectorSource again))
+        {
+            AssertResavedFixture("graph-scalar-external-v5.vkx", 5, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "ScalarRanges", "ScalarCodes", "IdOrder"], everything, again);
+        }
     }
 
     [Fact]

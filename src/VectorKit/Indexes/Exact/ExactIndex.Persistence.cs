@@ -174,7 +174,8 @@ public sealed partial class ExactIndex
             }
             else
             {
-                VectorBuffer? full = vectors.Capacity > 0 ? vectors : null;
+                // Kept by what the options say, not by the rows borrowed: an empty file's full vectors have none.
+                VectorBuffer? full = rescoreDepth > 0 && location == FullVectorLocation.InIndexMemory ? vectors : null;
                 ScalarQuantizer? scalar = CheckCodeParts(dimension, rescoreDepth, location, ranges, codes, full, count, checkPadding);
                 index = new ExactIndex(dimension, metric, rescoreDepth, location, scalar, codes, full, ids, count);
             }

@@ -102,6 +102,7 @@ public sealed partial class GraphIndex
         using (_writerGate.EnterWrite())
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             cancellationToken.ThrowIfCancellationRequested();
             rebuilt = new GraphIndex(Dimension, Metric, _options) { _scalar = _scalar };
             live = _count;
@@ -140,7 +141,7 @@ public sealed partial class GraphIndex
             {
                 ThrowIfDisposed();
                 ChangeLog.Replay(log.Take(), rebuilt);
-                (VectorBuffer? oldVectors, CodeBuffer? oldCodes) = (_vectors, _codes);
+                (VectorBuffer? oldVectors, CodeBuffer? oldCodes, IdColumn oldIds, Column<byte> oldRemoved) = (_vectors, _codes, _ids, _removed);
                 using (_lock.EnterWrite())
                 {
                     AdoptGraphOf(rebuilt);
@@ -151,6 +152,8 @@ public sealed partial class GraphIndex
                 // and no search can still read it (every search that could started before the swap and ended before it).
                 oldVectors?.Dispose();
                 oldCodes?.Dispose();
+                oldIds.Dispose();
+                oldRemoved.Dispose();
             }
         }
         catch
@@ -209,8 +212,9 @@ public sealed partial class GraphIndex
         int live = source._count;
         EnsureRowCapacity(live);
         _links.EnsureCapacity(live);
-        _ids = new long[live];
-        _removed = new byte[live];
+        _ids.Resize(live);
+        _removed.Resize(live);
+        _removed.Rows(live).Clear();
         _slotOf.EnsureCapacity(live);
         int next = 0;
         for (int slot = 0; slot < source._used; slot++)

@@ -18,8 +18,8 @@ public sealed partial class GraphIndex
     /// <summary>
     /// Runs <paramref name="export"/> on a consistent copy of the primary state. Holds the writer gate exclusively for
     /// the whole call: every write, including the linking phase of an add, passes the gate, so nothing changes, while
-    /// searches (which never touch the gate) proceed. The link arrays are copies; ids, flags and vectors are the live
-    /// storage and must not be modified.
+    /// searches (which never touch the gate) proceed. The link arrays, ids and flags are copies; vectors and codes are
+    /// the live storage and must not be modified.
     /// </summary>
     internal T ExportParts<T>(Func<GraphIndexParts, T> export)
     {
@@ -62,8 +62,8 @@ public sealed partial class GraphIndex
                 Options = _options,
                 Slots = slots,
                 Count = _count,
-                Ids = _ids,
-                Removed = _removed,
+                Ids = _ids.Rows(slots).ToArray(),
+                Removed = _removed.Rows(slots).ToArray(),
                 Levels = levels,
                 BottomLinks = bottom,
                 UpperLinks = upper,
@@ -117,8 +117,10 @@ public sealed partial class GraphIndex
             index._codes?.Dispose();
             index._vectors = parts.Vectors;
             index._codes = parts.Codes;
-            index._ids = parts.Ids;
-            index._removed = parts.Removed;
+            index._ids.Resize(slots);
+            index._removed.Resize(slots);
+            parts.Ids.AsSpan(0, slots).CopyTo(index._ids.Rows(slots));
+            parts.Removed.AsSpan(0, slots).CopyTo(index._removed.Rows(slots));
             index._links.EnsureCapacity(slots);
             int at = 0;
             for (int slot = 0; slot < slots; slot++)
@@ -171,14 +173,36 @@ public sealed partial class GraphIndex
     private static void Validate(GraphIndexParts parts, int bottomStride, int upperStride)
     {
         int slots = parts.Slots;
-        byte[] levels = parts.Levels;
-        byte[] removed = parts.Removed;
-        if (levels.Length < slots || removed.Length < slots || parts.Ids.Length < slots
+        if (parts.Levels.Length < slots || parts.Removed.Length < slots || parts.Ids.Length < slots
             || parts.BottomLinks.Length != (long)slots * bottomStride)
         {
             throw new InvalidDataException($"the arrays do not match the {slots} slots");
         }
 
+        ValidateLinks(new StoredLinks(slots, parts.Count, parts.Levels, parts.Removed, parts.BottomLinks, parts.UpperLinks, parts.EntrySlot, parts.EntryLevel), bottomStride, upperStride);
+    }
+
+    /// <summary>The stored structure a walk relies on, as arrays of a load or a mapped file's sections.</summary>
+    private readonly ref struct StoredLinks(int slots, int count, ReadOnlySpan<byte> levels, ReadOnlySpan<byte> removed, ReadOnlySpan<int> bottom, ReadOnlySpan<int> upper, int entrySlot, int entryLevel)
+    {
+        public readonly int Slots = slots;
+        public readonly int Count = count;
+        public readonly ReadOnlySpan<byte> Levels = levels;
+        public readonly ReadOnlySpan<byte> Removed = removed;
+        public readonly ReadOnlySpan<int> Bottom = bottom;
+        public readonly ReadOnlySpan<int> Upper = upper;
+        public readonly int EntrySlot = entrySlot;
+        public readonly int EntryLevel = entryLevel;
+    }
+
+    // Levels within the cap, link counts within the limits, every link target a stored slot whose level reaches the
+    // layer, no live node linking a removed one without links, the entry point a live node on the top layer, and the
+    // live count right.
+    private static void ValidateLinks(in StoredLinks parts, int bottomStride, int upperStride)
+    {
+        int slots = parts.Slots;
+        ReadOnlySpan<byte> levels = parts.Levels;
+        ReadOnlySpan<byte> removed = parts.Removed;
         long upperNeeded = 0;
         int live = 0;
         for (int slot = 0; slot < slots; slot++)
@@ -202,9 +226,9 @@ public sealed partial class GraphIndex
             throw new InvalidDataException($"{live} slots are live, but the count is {parts.Count}");
         }
 
-        if (upperNeeded != parts.UpperLinks.Length)
+        if (upperNeeded != parts.Upper.Length)
         {
-            throw new InvalidDataException($"the upper-layer links hold {parts.UpperLinks.Length} ints; the levels require {upperNeeded}");
+            throw new InvalidDataException($"the upper-layer links hold {parts.Upper.Length} ints; the levels require {upperNeeded}");
         }
 
         // A removed slot that still has links is a waypoint (a removal whose in-links were not all found yet): live
@@ -213,10 +237,10 @@ public sealed partial class GraphIndex
         int upperAt = 0;
         for (int slot = 0; slot < slots; slot++)
         {
-            bool linked = parts.BottomLinks[slot * bottomStride] != 0;
+            bool linked = parts.Bottom[slot * bottomStride] != 0;
             for (int layer = 1; layer <= levels[slot]; layer++)
             {
-                linked |= parts.UpperLinks[upperAt] != 0;
+                linked |= parts.Upper[upperAt] != 0;
                 upperAt += upperStride;
             }
 
@@ -226,10 +250,10 @@ public sealed partial class GraphIndex
         int at = 0;
         for (int slot = 0; slot < slots; slot++)
         {
-            CheckBlock(parts, parts.BottomLinks.AsSpan(slot * bottomStride, bottomStride), slot, 0, waypoint);
+            CheckBlock(parts, parts.Bottom.Slice(slot * bottomStride, bottomStride), slot, 0, waypoint);
             for (int layer = 1; layer <= levels[slot]; layer++)
             {
-                CheckBlock(parts, parts.UpperLinks.AsSpan(at, upperStride), slot, layer, waypoint);
+                CheckBlock(parts, parts.Upper.Slice(at, upperStride), slot, layer, waypoint);
                 at += upperStride;
             }
         }
@@ -290,20 +314,25 @@ public sealed partial class GraphIndex
             throw new InvalidDataException($"an untrained 8-bit graph stores no vectors, but it has {parts.Slots} slots");
         }
 
-        // The kernels read the padding against zero scales, so any value is harmless; non-zero padding means damage.
         if (parts.Codes is CodeBuffer stored)
         {
-            for (int slot = 0; slot < parts.Slots; slot++)
+            CheckCodePadding(stored, parts.Slots, parts.Dimension);
+        }
+    }
+
+    // The kernels read the padding against zero scales, so any value is harmless; non-zero padding means damage.
+    private static void CheckCodePadding(CodeBuffer codes, int slots, int dimension)
+    {
+        for (int slot = 0; slot < slots; slot++)
+        {
+            if (codes.RowSpan(slot)[dimension..].IndexOfAnyExcept((byte)0) >= 0)
             {
-                if (stored.RowSpan(slot)[parts.Dimension..].IndexOfAnyExcept((byte)0) >= 0)
-                {
-                    throw new InvalidDataException($"the code of slot {slot} has non-zero padding after its {parts.Dimension} bytes");
-                }
+                throw new InvalidDataException($"the code of slot {slot} has non-zero padding after its {dimension} bytes");
             }
         }
     }
 
-    private static void CheckBlock(GraphIndexParts parts, ReadOnlySpan<int> block, int slot, int layer, bool[] waypoint)
+    private static void CheckBlock(in StoredLinks parts, ReadOnlySpan<int> block, int slot, int layer, bool[] waypoint)
     {
         int count = block[0];
         if (count < 0 || count > block.Length - 1)

@@ -1,5 +1,6 @@
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
+using VectorKit.Internal;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -24,6 +25,11 @@ public sealed partial class GraphIndex
                 for (int i = 1; i <= count; i++)
                 {
                     int next = block[i];
+                    if ((uint)next >= (uint)_links.Capacity)
+                    {
+                        continue;
+                    }
+
                     float distance = TDistance.ToNode(this, ref query, next);
                     if (distance < entryDistance)
                     {
@@ -52,8 +58,9 @@ public sealed partial class GraphIndex
         NodeHeap results = scratch.Results;
         VisitedSet visited = scratch.Visited;
         ref int pending = ref MemoryMarshal.GetArrayDataReference(scratch.Pending);
-        byte[] removed = _removed;
-        long[] ids = _ids;
+        Column<byte> removed = _removed;
+        IdColumn ids = _ids;
+        uint slots = (uint)_links.Capacity;
         while (candidates.Count > 0)
         {
             float nearest = candidates.TopKey;
@@ -73,8 +80,9 @@ public sealed partial class GraphIndex
             int fresh = 0;
             for (int i = 1; i <= count; i++)
             {
+                // A target outside the slots (only a damaged mapped file holds one) is passed over, never followed.
                 int next = Unsafe.Add(ref links, i);
-                if (visited.TryMark(next))
+                if ((uint)next < slots && visited.TryMark(next))
                 {
                     Unsafe.Add(ref pending, fresh++) = next;
                 }

@@ -88,8 +88,9 @@ public sealed partial class GraphIndex : VectorIndex
     private readonly double _levelScale;
     private readonly KernelPath _path;
     private Random _levelRandom;
-    private long[] _ids;
-    private byte[] _removed;
+    // Per slot: the id, and 1 when removed (native columns, so that a mapped file's sections can back them in place).
+    private IdColumn _ids;
+    private Column<byte> _removed;
     private int _used;
     private int[] _levelCounts = new int[MaxLevel + 1];
     private readonly List<int> _orphanNotes = [];
@@ -137,8 +138,8 @@ public sealed partial class GraphIndex : VectorIndex
 
         _links = new GraphLinks(_options.LinksPerNode, _options.EffectiveBottomLayerLinks);
         _links.EnsureCapacity(_options.InitialCapacity);
-        _ids = new long[_options.InitialCapacity];
-        _removed = new byte[_options.InitialCapacity];
+        _ids = new IdColumn(_options.InitialCapacity);
+        _removed = new Column<byte>(_options.InitialCapacity);
         for (int i = 0; i < _stripes.Length; i++)
         {
             _stripes[i] = new object();
@@ -219,6 +220,7 @@ public sealed partial class GraphIndex : VectorIndex
         try
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             if (_codes is not null && _used > 0)
             {
                 throw new InvalidOperationException($"The graph index stores {_used} vectors ({_count} live), whose 8-bit codes depend on the current training; train before adding, or build a new index.");
@@ -255,7 +257,7 @@ public sealed partial class GraphIndex : VectorIndex
     // until Compact; an attached external source is not counted (the index does not own it).
     private protected override long MemoryBytesLocked()
         => (_vectors?.Bytes ?? 0) + (_codes?.Bytes ?? 0) + (_scalar is null ? 0 : 2L * _scalar.CodeBytes * sizeof(float))
-            + _links.Bytes + ((long)_ids.Length * sizeof(long)) + _removed.Length + _slotOf.Bytes;
+            + _links.Bytes + _ids.Bytes + _removed.Bytes + _slotOf.Bytes;
 
     // The float row, or under 8-bit storage without full vectors the decoded code.
     private protected override void CopyStoredLocked(int slot, Span<float> destination)
@@ -282,6 +284,7 @@ public sealed partial class GraphIndex : VectorIndex
         using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
+            ThrowIfReadOnly();
             ThrowIfNotTrained();
             _slotOf.CheckAbsent(ids, nameof(ids));
             first = StoreBatch(ids, vectors, replacing: false);
@@ -312,6 +315,7 @@ public sealed partial class GraphIndex : VectorIndex
         int n = ids.Length;
         using var write = _lock.EnterWrite();
         ThrowIfDisposed();
+        ThrowIfReadOnly();
         ThrowIfNotTrained();
         int first = StoreBatch(ids, vectors, replacing: true);
         try
@@ -387,12 +391,15 @@ public sealed partial class GraphIndex : VectorIndex
     {
         _vectors?.Dispose();
         _codes?.Dispose();
+        _ids.Dispose();
+        _removed.Dispose();
+        _mapping?.Dispose();
         _used = 0;
         Volatile.Write(ref _entry, -1L & 0xFFFFFFFFL);
     }
 
     /// <inheritdoc/>
-    private protected override bool HasRoomFor(int added) => (long)Volatile.Read(ref _used) + added <= _links.Capacity && !IdMapMustGrow(added);
+    private protected override bool HasRoomFor(int added) => IsReadOnly || ((long)Volatile.Read(ref _used) + added <= _links.Capacity && !IdMapMustGrow(added));
 
     /// <inheritdoc/>
     private protected override void ReserveRows(int added)
@@ -405,7 +412,7 @@ public sealed partial class GraphIndex : VectorIndex
         // Holding the gate exclusively keeps out every writer (linking adds write outside the write lock); searches
         // and the map's readers read the old storage meanwhile.
         using var gate = _writerGate.EnterWrite();
-        if (IsDisposed)
+        if (IsDisposed || IsReadOnly)
         {
             return;
         }
@@ -432,6 +439,8 @@ public sealed partial class GraphIndex : VectorIndex
         int grown = (int)Math.Min(cap, Math.Max(required, capacity + ((long)capacity / 2)));
         VectorBuffer? vectors = _vectors is null ? null : new VectorBuffer(Dimension, grown);
         CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, grown);
+        var ids = new IdColumn(grown);
+        var removed = new Column<byte>(grown);
         try
         {
             _vectors?.CopyRowsTo(vectors!, used);
@@ -441,10 +450,8 @@ public sealed partial class GraphIndex : VectorIndex
             vectors?.ClearRows(used, grown - used);
             codes?.ClearRows(used, grown - used);
             GraphLinks links = _links.GrownCopy(grown);
-            var ids = new long[grown];
-            _ids.AsSpan(0, used).CopyTo(ids);
-            var removed = new byte[grown];
-            _removed.AsSpan(0, used).CopyTo(removed);
+            _ids.CopyRowsTo(ids, used);
+            _removed.CopyRowsTo(removed, used);
             using (_lock.EnterWrite())
             {
                 if (vectors is not null)
@@ -458,8 +465,8 @@ public sealed partial class GraphIndex : VectorIndex
                 }
 
                 _links = links;
-                _ids = ids;
-                _removed = removed;
+                _ids.Adopt(ids);
+                _removed.Adopt(removed);
                 if (slotOf is not null)
                 {
                     _slotOf = slotOf;
@@ -471,6 +478,8 @@ public sealed partial class GraphIndex : VectorIndex
             // The old blocks after the swap; the unused copies after a failure.
             vectors?.Dispose();
             codes?.Dispose();
+            ids.Dispose();
+            removed.Dispose();
         }
     }
 
@@ -484,10 +493,10 @@ public sealed partial class GraphIndex : VectorIndex
         int required = checked(first + n);
         int capacity = EnsureRowCapacity(required);
         _links.EnsureCapacity(capacity);
-        if (_ids.Length < capacity)
+        if (_ids.Capacity < capacity)
         {
-            Array.Resize(ref _ids, capacity);
-            Array.Resize(ref _removed, capacity);
+            _ids.Resize(capacity);
+            _removed.Resize(capacity);
         }
 
         _slotOf.EnsureCapacity(_slotOf.Count + n);

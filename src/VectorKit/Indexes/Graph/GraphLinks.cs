@@ -21,8 +21,15 @@ namespace VectorKit.Indexes.Graph;
 /// A reader can therefore see a list mid-rewrite, but every slot it reads is a valid, fully stored node, and a count
 /// never exceeds the limit. Growth (<see cref="EnsureCapacity"/>) requires that nobody else uses the links.</para>
 /// </remarks>
-internal sealed class GraphLinks
+internal sealed unsafe class GraphLinks
 {
+    // The count-only list a mapped graph reads for a layer above a node's level (which only a damaged file names).
+    private static readonly int[] s_noLinks = [0];
+
+    // A mapped file's link sections, read in place (null in memory): every node's bottom-layer block, and the upper
+    // layers' blocks at the starts in _upperStart, which Mapped derives from the levels.
+    private int* _mappedBottom;
+    private int* _mappedUpper;
     private int[] _bottom = [];
     private int[] _upperStart = [];
     private byte[] _levels = [];
@@ -35,6 +42,50 @@ internal sealed class GraphLinks
     {
         UpperLimit = upperLimit;
         BottomLimit = bottomLimit;
+    }
+
+    /// <summary>
+    /// Read-only links over a mapped file's sections: <paramref name="bottom"/> holds <c>levels.Length</c> blocks of
+    /// <c>bottomLimit + 1</c> ints, <paramref name="upper"/> the upper-layer blocks in slot order (the file's layout), which
+    /// must hold exactly <paramref name="upperInts"/> ints. The levels are kept (a copy, checked) and each node's upper
+    /// start is computed from them: these two tables are all that is built, 5 bytes per node. No in-degrees: such links
+    /// are never written.
+    /// </summary>
+    /// <exception cref="InvalidDataException">A level exceeds <paramref name="maxLevel"/>, or the levels call for another number of upper-layer ints.</exception>
+    public static GraphLinks Mapped(int upperLimit, int bottomLimit, ReadOnlySpan<byte> levels, int maxLevel, int* bottom, int* upper, long upperInts)
+    {
+        var links = new GraphLinks(upperLimit, bottomLimit)
+        {
+            _levels = levels.ToArray(),
+            _upperStart = new int[levels.Length],
+            _mappedBottom = bottom,
+            _mappedUpper = upper,
+        };
+        long at = 0;
+        int upperStride = upperLimit + 1;
+        for (int slot = 0; slot < links._levels.Length; slot++)
+        {
+            int level = links._levels[slot];
+            if (level == 0)
+            {
+                continue;
+            }
+
+            if (level > maxLevel)
+            {
+                throw new InvalidDataException($"slot {slot} has level {level}; the most is {maxLevel}");
+            }
+
+            links._upperStart[slot] = (int)Math.Min(at, int.MaxValue);
+            at += (long)level * upperStride;
+        }
+
+        if (at != upperInts)
+        {
+            throw new InvalidDataException($"the upper-layer links hold {upperInts} ints; the levels require {at}");
+        }
+
+        return links;
     }
 
     public int UpperLimit { get; }
@@ -134,10 +185,18 @@ internal sealed class GraphLinks
         if (level == 0)
         {
             int stride = BottomLimit + 1;
-            return MemoryMarshal.CreateSpan(ref Unsafe.Add(ref MemoryMarshal.GetArrayDataReference(_bottom), (nint)slot * stride), stride);
+            return _mappedBottom != null
+                ? new Span<int>(_mappedBottom + ((nint)slot * stride), stride)
+                : MemoryMarshal.CreateSpan(ref Unsafe.Add(ref MemoryMarshal.GetArrayDataReference(_bottom), (nint)slot * stride), stride);
         }
 
         int upperStride = UpperLimit + 1;
+        if (_mappedUpper != null)
+        {
+            // Within the section by construction (Mapped); a layer the node lacks reads as empty.
+            return level <= _levels[slot] ? new Span<int>(_mappedUpper + _upperStart[slot] + ((level - 1) * upperStride), upperStride) : s_noLinks;
+        }
+
         return _upper.AsSpan(_upperStart[slot] + ((level - 1) * upperStride), upperStride);
     }
 

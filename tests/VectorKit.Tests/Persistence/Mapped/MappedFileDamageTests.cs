@@ -1,5 +1,4 @@
 using System.Buffers.Binary;
-using System.Diagnostics;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Persistence;
@@ -25,7 +24,7 @@ public sealed class MappedFileDamageTests : IDisposable
         byte[] file = Save(PersistenceSamples.Exact(count: 9, dimension: 3));
         for (int length = 0; length < file.Length; length++)
         {
-            string path = Write(file[..length]);
+            string path = _folder.Write(file[..length]);
             IndexFileException e = Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<ExactIndex>(path).Dispose());
             Assert.Equal(Path.GetFullPath(path), e.FilePath);
             Assert.True(
@@ -58,13 +57,13 @@ public sealed class MappedFileDamageTests : IDisposable
         Assert.Equal("IdOrder", e.Section);
         Assert.Contains("the id order names row 1000000 at position 4; the file has 9 rows", e.Message, StringComparison.Ordinal);
 
-        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(Write(file));
+        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(_folder.Write(file));
         InvalidDataException lookup = Assert.Throws<InvalidDataException>(() => mapped.Contains(1000 + (4 * 7)));
         Assert.Contains("names row 1000000", lookup.Message, StringComparison.Ordinal);
 
         // A negative row number is out of range too.
         EditIdOrder(file, order => BinaryPrimitives.WriteInt32LittleEndian(order[(4 * 4)..], -3));
-        using ExactIndex negative = IndexFile.OpenMapped<ExactIndex>(Write(file));
+        using ExactIndex negative = IndexFile.OpenMapped<ExactIndex>(_folder.Write(file));
         Assert.Throws<InvalidDataException>(() => negative.Contains(1000 + (4 * 7)));
     }
 
@@ -85,7 +84,7 @@ public sealed class MappedFileDamageTests : IDisposable
 
         // Unverified: a lookup may miss, but a row it finds has the id asked for, and TryGetVector reads that row.
         using ExactIndex truth = PersistenceSamples.Exact(count: 9, dimension: 3);
-        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(Write(file));
+        using ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(_folder.Write(file));
         var expected = new float[3];
         var actual = new float[3];
         foreach (long id in truth.GetIds())
@@ -125,73 +124,7 @@ public sealed class MappedFileDamageTests : IDisposable
             corpus.Add(IndexFileDamageTests.Sample(name));
         }
 
-        int opened = 0;
-        var clock = Stopwatch.StartNew();
-        for (int input = 0; input < 400; input++)
-        {
-            var random = new Random(20261203 + (input * 7919));
-            byte[] bytes = IndexFileFuzzTests.Mutate(corpus[random.Next(corpus.Count)], random);
-            if (random.Next(4) != 0)
-            {
-                IndexFileBytes.FixChecksums(bytes);
-            }
-
-            MappedOpenOptions options = random.Next(2) == 0 ? MappedOpenOptions.Default : MappedOpenOptions.Untrusted;
-            string path = Write(bytes);
-            ExactIndex mapped;
-            try
-            {
-                mapped = IndexFile.OpenMapped<ExactIndex>(path, options);
-            }
-            catch (Exception e) when (e is IndexFileException or NotSupportedException)
-            {
-                continue;
-            }
-
-            opened++;
-            using (mapped)
-            {
-                try
-                {
-                    Exercise(mapped, random);
-                }
-                catch (InvalidDataException) when (!options.VerifyContents)
-                {
-                    // An unverified id order that names an impossible row: refused, never followed.
-                }
-                catch (Exception e) when (e is InvalidOperationException && !mapped.IsTrained)
-                {
-                    // An untrained index refuses searches, as a loaded one does.
-                }
-            }
-
-            Assert.True(clock.Elapsed < TimeSpan.FromMinutes(3), $"input {input} took the run past three minutes");
-        }
-
-        Assert.True(opened > 20, $"only {opened} of 400 mutated files opened; the mutations no longer reach the mapped index");
-    }
-
-    private static void Exercise(ExactIndex mapped, Random random)
-    {
-        int d = mapped.Dimension;
-        var query = new float[d];
-        for (int i = 0; i < d; i++)
-        {
-            query[i] = (float)(random.NextDouble() - 0.5);
-        }
-
-        query[0] += 1f;
-        SearchOptions options = mapped.Options.FullVectors == FullVectorLocation.ExternalSource ? new SearchOptions { RescoreDepth = 0 } : SearchOptions.Default;
-        mapped.Search(query, 5, options);
-        long[] ids = mapped.GetIds();
-        var row = new float[d];
-        foreach (long id in ids.Take(20))
-        {
-            mapped.Contains(id);
-            mapped.TryGetVector(id, row);
-        }
-
-        mapped.Contains(random.NextInt64());
+        MappedChecks.OpenMutations(corpus, 400, 20261203, _folder.Write);
     }
 
     private static void EditIdOrder(byte[] file, SpanAction edit)
@@ -209,15 +142,8 @@ public sealed class MappedFileDamageTests : IDisposable
         }
     }
 
-    private string Write(byte[] bytes)
-    {
-        string path = _folder.File(Guid.NewGuid().ToString("N") + ".vkx");
-        File.WriteAllBytes(path, bytes);
-        return path;
-    }
-
     private IndexFileException Reject(byte[] file, MappedOpenOptions? options = null)
-        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<ExactIndex>(Write(file), options).Dispose());
+        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<ExactIndex>(_folder.Write(file), options).Dispose());
 
     private delegate void SpanAction(Span<byte> span);
 }

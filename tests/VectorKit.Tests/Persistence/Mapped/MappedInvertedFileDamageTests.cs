@@ -1,5 +1,4 @@
 using System.Buffers.Binary;
-using System.Diagnostics;
 using VectorKit.Indexes;
 using VectorKit.Indexes.InvertedFile;
 using VectorKit.Persistence;
@@ -27,7 +26,7 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
         byte[] file = Save(variant, count: 40);
         for (int length = 0; length < file.Length; length += 7)
         {
-            string path = Write(file[..length]);
+            string path = _folder.Write(file[..length]);
             IndexFileException e = Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped(path).Dispose());
             Assert.True(
                 e.Message.Contains("truncated", StringComparison.Ordinal) || e.Message.Contains("not recognised", StringComparison.Ordinal),
@@ -74,7 +73,7 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
         else
         {
             // Same block count: the entries change lists, which is wrong but stays inside the sections.
-            using IVectorIndex mapped = IndexFile.OpenMapped(Write(moved));
+            using IVectorIndex mapped = IndexFile.OpenMapped(_folder.Write(moved));
             mapped.Search(new float[8], 5, new SearchOptions { SearchWidth = 16 });
         }
     }
@@ -92,7 +91,7 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
         Assert.Equal("IdOrder", e.Section);
         Assert.Contains("the id order names row 1000000 at position 2; the file has 28 rows", e.Message, StringComparison.Ordinal);
 
-        using IVectorIndex mapped = IndexFile.OpenMapped(Write(file));
+        using IVectorIndex mapped = IndexFile.OpenMapped(_folder.Write(file));
         long[] ids = mapped.GetIds();
         Assert.Throws<InvalidDataException>(() => ids.Select(mapped.Contains).ToArray());
     }
@@ -123,69 +122,7 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
             corpus.Add(Save(variant, count: 50));
         }
 
-        int opened = 0;
-        var clock = Stopwatch.StartNew();
-        for (int input = 0; input < 300; input++)
-        {
-            var random = new Random(20261204 + (input * 7919));
-            byte[] bytes = IndexFileFuzzTests.Mutate(corpus[random.Next(corpus.Count)], random);
-            if (random.Next(4) != 0)
-            {
-                IndexFileBytes.FixChecksums(bytes);
-            }
-
-            MappedOpenOptions options = random.Next(2) == 0 ? MappedOpenOptions.Default : MappedOpenOptions.Untrusted;
-            IVectorIndex mapped;
-            try
-            {
-                mapped = IndexFile.OpenMapped(Write(bytes), options);
-            }
-            catch (Exception e) when (e is IndexFileException or NotSupportedException)
-            {
-                continue;
-            }
-
-            opened++;
-            using (mapped)
-            {
-                try
-                {
-                    Exercise(mapped, random);
-                }
-                catch (InvalidDataException) when (!options.VerifyContents)
-                {
-                    // An unverified id order that names an impossible row: refused, never followed.
-                }
-                catch (Exception e) when (e is InvalidOperationException && mapped is ITrainableIndex { IsTrained: false })
-                {
-                    // An untrained index refuses searches, as a loaded one does.
-                }
-            }
-
-            Assert.True(clock.Elapsed < TimeSpan.FromMinutes(3), $"input {input} took the run past three minutes");
-        }
-
-        Assert.True(opened > 20, $"only {opened} of 300 mutated files opened; the mutations no longer reach the mapped index");
-    }
-
-    private static void Exercise(IVectorIndex mapped, Random random)
-    {
-        int d = mapped.Dimension;
-        var query = new float[d];
-        for (int i = 0; i < d; i++)
-        {
-            query[i] = (float)(random.NextDouble() - 0.5);
-        }
-
-        mapped.Search(query, 5, new SearchOptions { SearchWidth = Math.Max(1, random.Next(1, 20)) });
-        var row = new float[d];
-        foreach (long id in mapped.GetIds().Take(20))
-        {
-            mapped.Contains(id);
-            mapped.TryGetVector(id, row);
-        }
-
-        mapped.Contains(random.NextInt64());
+        MappedChecks.OpenMutations(corpus, 300, 20261204, _folder.Write);
     }
 
     private static byte[] Save(string variant, int count)
@@ -224,13 +161,6 @@ public sealed class MappedInvertedFileDamageTests : IDisposable
     // Whole blocks of 32 entries, 2 code bytes each (the fast-scan variant's code size).
     private static long FastScanBytes(int[] lengths) => lengths.Sum(l => (l + 31L) / 32 * 32 * 2);
 
-    private string Write(byte[] bytes)
-    {
-        string path = _folder.File(Guid.NewGuid().ToString("N") + ".vkx");
-        File.WriteAllBytes(path, bytes);
-        return path;
-    }
-
     private IndexFileException Reject(byte[] file, MappedOpenOptions? options = null)
-        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped(Write(file), options).Dispose());
+        => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped(_folder.Write(file), options).Dispose());
 }

@@ -96,21 +96,7 @@ public sealed class MappedInvertedFileTests : IDisposable
         using var mapped = IndexFile.OpenMapped<InvertedFileIndex>(_folder.File("ro.vkx"));
         float[] row = Data(1, 9);
         long present = saved.GetIds()[0];
-        foreach (Action write in new Action[]
-        {
-            () => mapped.Add(5, row),
-            () => mapped.AddRange([5, 6], [.. row, .. row]),
-            () => mapped.AddOrReplace(present, row),
-            () => mapped.AddOrReplaceRange([present], row),
-            () => mapped.Remove(present),
-            () => mapped.RemoveRange([present]),
-            () => mapped.Compact(),
-            () => mapped.Train(Data(64, 4)),
-        })
-        {
-            NotSupportedException e = Assert.Throws<NotSupportedException>(write);
-            Assert.Equal("This InvertedFileIndex reads a mapped index file in place and is read-only; load the file with IndexFile.Load to add, replace or remove items.", e.Message);
-        }
+        MappedChecks.AssertWritesRefused(mapped, present, row, Data(64, 4), "This InvertedFileIndex reads a mapped index file in place and is read-only; load the file with IndexFile.Load to add, replace or remove items.");
 
         AssertSame(saved, mapped);
     }

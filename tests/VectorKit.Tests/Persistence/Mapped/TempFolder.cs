@@ -13,6 +13,14 @@ public sealed class TempFolder : IDisposable
 
     public string File(string name) => System.IO.Path.Combine(Path, name);
 
+    /// <summary>Writes <paramref name="bytes"/> to a new file of the folder; returns its path.</summary>
+    public string Write(byte[] bytes)
+    {
+        string path = File(Guid.NewGuid().ToString("N") + ".vkx");
+        System.IO.File.WriteAllBytes(path, bytes);
+        return path;
+    }
+
     public void Dispose()
     {
         try

@@ -4,7 +4,7 @@ using VectorKit.Indexes;
 namespace VectorKit.Tests.Indexes.Contract;
 
 /// <summary>Searches against the reference: order, distances, ids or recall, filters, k beyond the count.</summary>
-public abstract partial class IndexContractTests
+public abstract partial class SearchContractTests
 {
     private const int SearchItems = 2000;
     private const int SearchQueries = 40;

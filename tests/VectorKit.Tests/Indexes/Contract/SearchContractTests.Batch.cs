@@ -4,7 +4,7 @@ using VectorKit.Indexes;
 namespace VectorKit.Tests.Indexes.Contract;
 
 /// <summary>SearchBatch: the same answers as single searches, any k, progress, cancellation, enumeration.</summary>
-public abstract partial class IndexContractTests
+public abstract partial class SearchContractTests
 {
     [Theory]
     [MemberData(nameof(Metrics))]
