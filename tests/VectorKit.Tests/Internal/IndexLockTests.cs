@@ -87,12 +87,12 @@ public sealed class IndexLockTests
     {
         var rwLock = new IndexLock();
         rwLock.EnterReadLock();
-        var second = Task.Run(() =>
+        Thread second = Start(() =>
         {
             rwLock.EnterReadLock();
             rwLock.ExitReadLock();
         });
-        Assert.True(second.Wait(Guard), "a second reader waited for the first");
+        Assert.True(second.Join(Guard), "a second reader waited for the first");
         rwLock.ExitReadLock();
     }
 
@@ -102,7 +102,7 @@ public sealed class IndexLockTests
         var rwLock = new IndexLock();
         rwLock.EnterReadLock();
         bool written = false, leaving = false;
-        var writer = Task.Run(() =>
+        Thread writer = Start(() =>
         {
             rwLock.EnterWriteLock();
             Volatile.Write(ref written, true);
@@ -120,7 +120,7 @@ public sealed class IndexLockTests
         rwLock.EnterReadLock();
         Assert.True(Volatile.Read(ref leaving), "a reader entered while the writer held the lock");
         rwLock.ExitReadLock();
-        Assert.True(writer.Wait(Guard));
+        Assert.True(writer.Join(Guard));
     }
 
     [Fact]
@@ -129,14 +129,14 @@ public sealed class IndexLockTests
         var rwLock = new IndexLock();
         rwLock.EnterBatchReadLock();
         bool written = false, batchSawWrite = false;
-        var writer = Task.Run(() =>
+        Thread writer = Start(() =>
         {
             rwLock.EnterWriteLock();
             Volatile.Write(ref written, true);
             rwLock.ExitWriteLock();
         });
         SpinUntil(() => rwLock.WaitingWriteCount == 1);
-        var batch = Task.Run(() =>
+        Thread batch = Start(() =>
         {
             rwLock.EnterBatchReadLock();
             batchSawWrite = Volatile.Read(ref written);
@@ -144,7 +144,7 @@ public sealed class IndexLockTests
         });
 
         rwLock.ExitBatchReadLock();
-        Assert.True(writer.Wait(Guard) && batch.Wait(Guard));
+        Assert.True(writer.Join(Guard) && batch.Join(Guard));
         Assert.True(batchSawWrite, "a batch query started while a writer was waiting");
     }
 
@@ -157,12 +157,17 @@ public sealed class IndexLockTests
         Assert.True(rwLock.IsWriteLockHeld);
         Assert.Throws<LockRecursionException>(rwLock.EnterWriteLock);
         bool heldElsewhere = true;
-        var other = new Thread(() => heldElsewhere = rwLock.IsWriteLockHeld);
-        other.Start();
-        Assert.True(other.Join(Guard));
+        Assert.True(Start(() => heldElsewhere = rwLock.IsWriteLockHeld).Join(Guard));
         Assert.False(heldElsewhere);
         rwLock.ExitWriteLock();
         Assert.False(rwLock.IsWriteLockHeld);
+    }
+
+    private static Thread Start(Action body)
+    {
+        var thread = new Thread(() => body()) { IsBackground = true };
+        thread.Start();
+        return thread;
     }
 
     private static void SpinUntil(Func<bool> condition)
