@@ -488,14 +488,42 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <summary>
-    /// Called before a batch of <paramref name="added"/> rows (at most) is written, outside both locks: a kind whose
-    /// storage would have to grow copies it into larger storage beside searches (holding the writer gate) and swaps it
-    /// in under a short write lock, instead of growing in place under the write lock. Only a hint: a concurrent write
-    /// may use the room first, and the write then grows under the lock as before.
+    /// Called before a batch of <paramref name="added"/> rows (at most) is written, outside both locks: when the
+    /// storage or the id map would have to grow, they are copied into larger ones beside searches (holding the writer
+    /// gate alone, so no write changes them) and swapped in under a short write lock, instead of growing in place under
+    /// the write lock. Only a hint: a concurrent write may use the room first, and the write then grows under the lock.
     /// </summary>
-    private protected virtual void ReserveRows(int added)
+    private void ReserveRows(int added)
     {
+        if (HasRoomFor(added))
+        {
+            return;
+        }
+
+        using var gate = _writerGate.EnterWrite();
+        if (IsDisposed || IsReadOnly)
+        {
+            // A read-only (mapped) index refuses the write itself.
+            return;
+        }
+
+        IdMap? slotOf = IdMapMustGrow(added) ? _slotOf.GrownCopy((int)Math.Min(Array.MaxLength, Math.Max((long)_slotOf.Count + added, 2L * _slotOf.Count))) : null;
+        if (!GrowRows(added, slotOf) && slotOf is not null)
+        {
+            using (_lock.EnterWrite())
+            {
+                _slotOf = slotOf;
+            }
+        }
     }
+
+    /// <summary>
+    /// For <see cref="ReserveRows"/>, with the writer gate held exclusively: copies the kind's rows into storage with
+    /// room for <paramref name="added"/> more, beside searches, and swaps it in under a short write lock, together with
+    /// <paramref name="slotOf"/> when given (the grown id map). False when the rows have room (or cannot grow further):
+    /// the caller then swaps the map in alone.
+    /// </summary>
+    private protected virtual bool GrowRows(int added, IdMap? slotOf) => false;
 
     /// <summary>
     /// Whether the storage and the id map have room for <paramref name="added"/> more items without growing under the
@@ -525,17 +553,9 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
 
     /// <summary>
     /// Whether adding <paramref name="added"/> ids would grow the id map in place, under the write lock (a rehash of
-    /// every entry). Reads the map's sizes only, so a kind's <see cref="ReserveRows"/> may ask before taking the gate.
+    /// every entry). Reads the map's sizes only, so <see cref="HasRoomFor"/> may ask before the gate is taken.
     /// </summary>
     private protected bool IdMapMustGrow(int added) => !IsReadOnly && (long)_slotOf.Count + added > _slotOf.Capacity;
-
-    /// <summary>
-    /// For <see cref="ReserveRows"/>, with the writer gate held exclusively (no write changes the map, and its readers
-    /// read it meanwhile): a copy of the id map with room for <paramref name="added"/> more ids, for the kind to swap in
-    /// with its storage; null when the map has room.
-    /// </summary>
-    private protected IdMap? GrownIdMap(int added)
-        => IdMapMustGrow(added) ? _slotOf.GrownCopy((int)Math.Min(Array.MaxLength, Math.Max((long)_slotOf.Count + added, 2L * _slotOf.Count))) : null;
 
     /// <summary>
     /// Runs after every write has left both locks: a kind finishes deferred maintenance here (the graph's global

@@ -418,35 +418,14 @@ public sealed partial class ExactIndex : VectorIndex
     private protected override bool HasRoomFor(int added) => IsReadOnly || ((long)Volatile.Read(ref _count) + added <= (_codes?.Capacity ?? _vectors.Capacity) && !IdMapMustGrow(added));
 
     /// <inheritdoc/>
-    private protected override void ReserveRows(int added)
+    private protected override bool GrowRows(int added, IdMap? slotOf)
     {
-        if (HasRoomFor(added))
-        {
-            return;
-        }
-
-        using var gate = _writerGate.EnterWrite();
-        if (IsDisposed || IsReadOnly)
-        {
-            // A mapped index refuses the write itself, in WriteBatch.
-            return;
-        }
-
-        IdMap? slotOf = GrownIdMap(added);
         int count = _count;
         int capacity = _codes?.Capacity ?? _vectors.Capacity;
         long required = (long)count + added;
         if (required <= capacity || required > Array.MaxLength)
         {
-            if (slotOf is not null)
-            {
-                using (_lock.EnterWrite())
-                {
-                    _slotOf = slotOf;
-                }
-            }
-
-            return;
+            return false;
         }
 
         // The growth rule of RowBuffer.EnsureCapacity, so the buffers stay the size growing in place would give.
@@ -476,6 +455,8 @@ public sealed partial class ExactIndex : VectorIndex
             codes?.Dispose();
             ids.Dispose();
         }
+
+        return true;
     }
 
     // New buffers of the given capacity holding the first count rows, made beside searches while the writer gate keeps

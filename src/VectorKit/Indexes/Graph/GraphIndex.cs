@@ -402,37 +402,16 @@ public sealed partial class GraphIndex : VectorIndex
     private protected override bool HasRoomFor(int added) => IsReadOnly || ((long)Volatile.Read(ref _used) + added <= _links.Capacity && !IdMapMustGrow(added));
 
     /// <inheritdoc/>
-    private protected override void ReserveRows(int added)
+    private protected override bool GrowRows(int added, IdMap? slotOf)
     {
-        if (HasRoomFor(added))
-        {
-            return;
-        }
-
-        // Holding the gate exclusively keeps out every writer (linking adds write outside the write lock); searches
-        // and the map's readers read the old storage meanwhile.
-        using var gate = _writerGate.EnterWrite();
-        if (IsDisposed || IsReadOnly)
-        {
-            return;
-        }
-
-        IdMap? slotOf = GrownIdMap(added);
+        // The gate held alone keeps out every writer, linking adds included (they write outside the write lock).
         int used = _used;
         int capacity = _vectors?.Capacity ?? _codes!.Capacity;
         long required = (long)used + added;
         int cap = Array.MaxLength / (_links.BottomLimit + 1);
         if (required <= capacity || required > cap)
         {
-            if (slotOf is not null)
-            {
-                using (_lock.EnterWrite())
-                {
-                    _slotOf = slotOf;
-                }
-            }
-
-            return;
+            return false;
         }
 
         // The growth rule of RowBuffer.EnsureCapacity and GraphLinks.EnsureCapacity.
@@ -481,6 +460,8 @@ public sealed partial class GraphIndex : VectorIndex
             ids.Dispose();
             removed.Dispose();
         }
+
+        return true;
     }
 
     // Reserves slots for a validated batch, writes vectors (normalised under cosine; encoded under codes) and ids, and draws levels.

@@ -720,35 +720,13 @@ public sealed partial class InvertedFileIndex : VectorIndex
     private protected override bool HasRoomFor(int added) => IsReadOnly || ((long)Volatile.Read(ref _count) + added <= _ids.Length && !IdMapMustGrow(added));
 
     /// <inheritdoc/>
-    private protected override void ReserveRows(int added)
+    private protected override bool GrowRows(int added, IdMap? slotOf)
     {
-        if (HasRoomFor(added))
-        {
-            return;
-        }
-
-        // Holding the gate exclusively keeps every write out; searches read the old arrays meanwhile.
-        using var gate = _writerGate.EnterWrite();
-        if (IsDisposed || IsReadOnly)
-        {
-            // A mapped index refuses the write itself, in WriteBatch.
-            return;
-        }
-
-        IdMap? slotOf = GrownIdMap(added);
         int count = _count;
         long required = (long)count + added;
         if (required <= _ids.Length || required > Array.MaxLength)
         {
-            if (slotOf is not null)
-            {
-                using (_lock.EnterWrite())
-                {
-                    _slotOf = slotOf;
-                }
-            }
-
-            return;
+            return false;
         }
 
         // The growth rule of EnsureSlotCapacity, so the arrays stay the size growing in place would give.
@@ -781,6 +759,8 @@ public sealed partial class InvertedFileIndex : VectorIndex
             // The old block after the swap; the unused copy after a failure.
             full?.Dispose();
         }
+
+        return true;
     }
 
     private void EnsureSlotCapacity(int required)
