@@ -16,14 +16,17 @@ namespace VectorKit.Benchmarks.Indexes;
 /// be shared, so every throughput is the best of several timed passes (after an untimed one): interference only
 /// ever slows a pass down. With <c>withCodes</c>, the same data also goes into a graph under 8-bit codes, and a second
 /// table sets it beside the float32 graph at each width (their timed passes alternating, so both see the same load),
-/// without and with exact re-scoring.
+/// without and with exact re-scoring, and the fastest setting of each reaching each of several recalls.
 /// </summary>
 public static class GraphSweep
 {
     private const int K = 10;
 
-    // Candidates the 8-bit graph re-scores exactly in the comparison (ten times k: common practice).
-    private const int RescoreDepth = 100;
+    // Re-scoring depths of the 8-bit graph in the comparison: none, twice k, ten times k (common practice).
+    private static readonly int[] RescoreDepths = [0, 20, 100];
+
+    // Recalls at which the cheapest settings of the two graphs are compared.
+    private static readonly double[] RecallTargets = [0.90, 0.95, 0.98, 0.99];
 
     // Rows the 8-bit graph's ranges are trained on (the first ones of the base).
     private const int TrainingRows = 20_000;
@@ -52,7 +55,7 @@ public static class GraphSweep
         float[] all = ClusteredData.Generate(count + 1000, dimension, clusters, 0.2f, seed: 101);
         float[] data = all.AsSpan(0, count * dimension).ToArray();
         float[] queries = all.AsSpan(count * dimension).ToArray();
-        Sweep(data, dimension, queries, exactQueries: 200, [10, 32, 128, 512, 1024, 2048, 4096], withCodes);
+        Sweep(data, dimension, queries, exactQueries: 200, [10, 16, 24, 32, 48, 64, 128, 256, 512], withCodes);
     }
 
     private static void Sweep(float[] data, int d, float[] queries, int exactQueries, int[] widths, bool withCodes)
@@ -99,9 +102,11 @@ public static class GraphSweep
     }
 
     // The 8-bit graph on the same data, beside the float32 rows already measured. One graph keeps the full vectors, so
-    // it answers both with re-scoring and (depth 0 per search) without; its bytes per vector without them are its
+    // it answers both with re-scoring (depth per search) and without (depth 0); its bytes per vector without them are its
     // memory less the full vectors' block (reserved for exactly `count` rows), which is what a graph built without
-    // re-scoring holds: the graph itself does not depend on the full vectors.
+    // re-scoring holds: the graph itself does not depend on the full vectors. At every width the float32 graph and the
+    // 8-bit graph at each depth take turns pass by pass (so all see the same load on a shared machine; these float32
+    // figures replace the first table's), and the summary compares the cheapest setting of each reaching each recall.
     private static void CompareCodes(GraphIndex floatGraph, float[] data, int d, long[] ids, float[] queries, List<long[]> expected, int[] widths, (double Recall, double Qps)[] floatRows, double floatBytes, double floatBuildSeconds)
     {
         int count = ids.Length;
@@ -110,7 +115,7 @@ public static class GraphSweep
         {
             MaxDegreeOfParallelism = 2,
             Encoding = VectorEncoding.Scalar8Bit,
-            RescoreDepth = RescoreDepth,
+            RescoreDepth = RescoreDepths[^1],
             InitialCapacity = count,
         });
         codes.Train(data.AsSpan(0, Math.Min(count, TrainingRows) * d));
@@ -123,35 +128,53 @@ public static class GraphSweep
             $"8-bit graph: trained on {Math.Min(count, TrainingRows)} rows in {trainSeconds:F2} s, built in {watch.Elapsed.TotalSeconds - trainSeconds:F1} s on 2 threads " +
             $"(float32 graph: {floatBuildSeconds:F1} s); bytes/vector: float32 graph {floatBytes:F0}, 8-bit graph {codesOnly:F0} ({codes.CodeBytesPerVector} of them the code), " +
             $"8-bit graph + full vectors {withFull:F0}");
-        Console.WriteLine($"width  float32 recall@10  queries/s | 8-bit recall@10  queries/s  × float32 | 8-bit + re-score {RescoreDepth} recall@10  queries/s");
-        // Every width without re-scoring first, its passes alternating with the float32 graph's at the same width (so
-        // both see the same load on a shared machine; these float32 figures replace the first table's in this one),
-        // then every width with re-scoring.
-        var plain = new (double Recall, double Qps)[widths.Length];
+        Console.WriteLine($"| width | float32 recall@10 | float32 q/s | {string.Join(" | ", RescoreDepths.Select(depth => $"8-bit re-score {depth} recall@10 | q/s"))} |");
+        Console.WriteLine($"|---:|---:|---:|{string.Concat(Enumerable.Repeat("---:|---:|", RescoreDepths.Length))}");
+        var points = new List<(string Kind, int Width, int Depth, double Recall, double Qps)>();
         for (int w = 0; w < widths.Length; w++)
         {
-            var codeOptions = new SearchOptions { SearchWidth = widths[w], RescoreDepth = 0 };
             var floatOptions = new SearchOptions { SearchWidth = widths[w] };
-            SingleThreadQps(codes, queries, d, codeOptions, timedPasses: 0, out long[][] found);
+            SearchOptions[] codeOptions = [.. RescoreDepths.Select(depth => new SearchOptions { SearchWidth = widths[w], RescoreDepth = depth })];
             SingleThreadQps(floatGraph, queries, d, floatOptions, timedPasses: 0, out _);
-            double codeQps = 0, floatQps = 0;
-            for (int pass = 0; pass < 5; pass++)
+            var codeRecall = new double[codeOptions.Length];
+            for (int c = 0; c < codeOptions.Length; c++)
             {
-                codeQps = Math.Max(codeQps, TimedPass(codes, queries, d, codeOptions));
-                floatQps = Math.Max(floatQps, TimedPass(floatGraph, queries, d, floatOptions));
+                SingleThreadQps(codes, queries, d, codeOptions[c], timedPasses: 0, out long[][] found);
+                codeRecall[c] = Recall.AtK(expected, found, K);
             }
 
-            plain[w] = (Recall.AtK(expected, found, K), codeQps);
+            double floatQps = 0;
+            var codeQps = new double[codeOptions.Length];
+            for (int pass = 0; pass < 5; pass++)
+            {
+                floatQps = Math.Max(floatQps, TimedPass(floatGraph, queries, d, floatOptions));
+                for (int c = 0; c < codeOptions.Length; c++)
+                {
+                    codeQps[c] = Math.Max(codeQps[c], TimedPass(codes, queries, d, codeOptions[c]));
+                }
+            }
+
             floatRows[w] = (floatRows[w].Recall, floatQps);
+            points.Add(("float32", widths[w], 0, floatRows[w].Recall, floatQps));
+            for (int c = 0; c < codeOptions.Length; c++)
+            {
+                points.Add(("8-bit", widths[w], RescoreDepths[c], codeRecall[c], codeQps[c]));
+            }
+
+            Console.WriteLine($"| {widths[w]} | {floatRows[w].Recall:F4} | {floatQps:F0} | {string.Join(" | ", codeRecall.Select((r, c) => $"{r:F4} | {codeQps[c]:F0}"))} |");
         }
 
-        for (int w = 0; w < widths.Length; w++)
+        Console.WriteLine();
+        Console.WriteLine("| recall@10 at least | float32 graph: fastest setting | q/s | 8-bit graph: fastest setting | q/s | 8-bit ÷ float32 |");
+        Console.WriteLine("|---:|---|---:|---|---:|---:|");
+        foreach (double target in RecallTargets)
         {
-            int width = widths[w];
-            double rescoredQps = SingleThreadQps(codes, queries, d, new SearchOptions { SearchWidth = width }, timedPasses: 5, out long[][] rescoredFound);
-            Console.WriteLine(
-                $"{width,5}  {floatRows[w].Recall,17:F4}  {floatRows[w].Qps,9:F0} | {plain[w].Recall,15:F4}  {plain[w].Qps,9:F0}  {plain[w].Qps / floatRows[w].Qps,9:F2} | " +
-                $"{Recall.AtK(expected, rescoredFound, K),28:F4}  {rescoredQps,9:F0}");
+            var f = points.Where(p => p.Kind == "float32" && p.Recall >= target).OrderByDescending(p => p.Qps).FirstOrDefault();
+            var c = points.Where(p => p.Kind == "8-bit" && p.Recall >= target).OrderByDescending(p => p.Qps).FirstOrDefault();
+            string Describe((string Kind, int Width, int Depth, double Recall, double Qps) p)
+                => p.Kind is null ? "not reached" : p.Depth > 0 ? $"width {p.Width}, re-score {p.Depth} ({p.Recall:F4})" : $"width {p.Width} ({p.Recall:F4})";
+            string ratio = f.Kind is null || c.Kind is null ? "–" : $"{c.Qps / f.Qps:F2}";
+            Console.WriteLine($"| {target:F2} | {Describe(f)} | {f.Qps:F0} | {Describe(c)} | {c.Qps:F0} | {ratio} |");
         }
     }
 

@@ -12,6 +12,9 @@ internal interface IFullRows
 {
     /// <summary>The first component of <paramref name="id"/>'s full vector, valid until the next call.</summary>
     ref float Row(long id);
+
+    /// <summary>Hints that <paramref name="id"/>'s full vector is read soon (where the rows are in memory).</summary>
+    void Prefetch(long id);
 }
 
 /// <summary>Full vectors kept in memory by the index, found through its id → slot map.</summary>
@@ -19,6 +22,9 @@ internal readonly struct SlotRows(VectorBuffer full, IdMap slotOf) : IFullRows
 {
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public ref float Row(long id) => ref full.Row(slotOf[id]);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public void Prefetch(long id) => CachePrefetch.Lines(ref Unsafe.As<float, byte>(ref full.Row(slotOf[id])), full.Dimension * sizeof(float));
 }
 
 /// <summary>
@@ -47,6 +53,11 @@ internal readonly struct SourceRows(IFullVectorSource source, int dimension, boo
         }
 
         return ref row[0];
+    }
+
+    /// <summary>Nothing to hint: the source copies each vector when it is asked for.</summary>
+    public void Prefetch(long id)
+    {
     }
 
     /// <summary>Copies <paramref name="id"/>'s full vector, as re-scoring sees it, into <paramref name="destination"/> (for TryGetVector).</summary>
@@ -107,6 +118,13 @@ internal static class ExactRescoring
             where TStep : struct, IAccumulateStep
             where TFinish : struct, IDistanceFinish
         {
+            // The candidates' rows lie scattered over the whole block: ask for all of them first, so their cache misses
+            // overlap instead of being paid one after another.
+            for (int i = 0; i < _candidates.Length; i++)
+            {
+                rows.Prefetch(_candidates[i].Id);
+            }
+
             for (int i = 0; i < _candidates.Length; i++)
             {
                 long id = _candidates[i].Id;

@@ -168,6 +168,103 @@ internal static class FastScanKernel
         }
     }
 
+    /// <summary>
+    /// A mask of the block of 32 sums at <paramref name="sums"/> that are at most <paramref name="limit"/> (bit j for sum
+    /// j), so a scan visits only the entries that can beat its bound instead of testing all of them one by one.
+    /// </summary>
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public static uint AtMost(KernelPath path, ref ushort sums, ushort limit)
+    {
+        if (path == KernelPath.Vector512 && Vector512.IsHardwareAccelerated)
+        {
+            return (uint)Vector512.LessThanOrEqual(Vector512.LoadUnsafe(ref sums), Vector512.Create(limit)).ExtractMostSignificantBits();
+        }
+
+        if (path >= KernelPath.Vector256 && Vector256.IsHardwareAccelerated)
+        {
+            Vector256<ushort> bound = Vector256.Create(limit);
+            return Vector256.LessThanOrEqual(Vector256.LoadUnsafe(ref sums), bound).ExtractMostSignificantBits()
+                | (Vector256.LessThanOrEqual(Vector256.LoadUnsafe(ref sums, 16), bound).ExtractMostSignificantBits() << 16);
+        }
+
+        if (path >= KernelPath.Vector128 && Vector128.IsHardwareAccelerated)
+        {
+            Vector128<ushort> bound = Vector128.Create(limit);
+            uint mask = 0;
+            for (int i = 0; i < BlockSize; i += 8)
+            {
+                mask |= Vector128.LessThanOrEqual(Vector128.LoadUnsafe(ref sums, (nuint)i), bound).ExtractMostSignificantBits() << i;
+            }
+
+            return mask;
+        }
+
+        uint bits = 0;
+        for (int i = 0; i < BlockSize; i++)
+        {
+            bits |= (Unsafe.Add(ref sums, i) <= limit ? 1u : 0u) << i;
+        }
+
+        return bits;
+    }
+
+    /// <summary>
+    /// The largest level sum whose estimate <c>start + step × sum</c>, computed as the scan computes it, is at most
+    /// <paramref name="bound"/> (estimates grow with the sum, so exactly the sums up to it pass); −1 when none does.
+    /// </summary>
+    public static int SumLimit(float bound, float start, float step)
+    {
+        if (!(start <= bound))
+        {
+            return -1;
+        }
+
+        if (!(step > 0))
+        {
+            // Estimates do not grow with the sum: every one is at most start.
+            return ushort.MaxValue;
+        }
+
+        float quotient = (bound - start) / step;
+        if (!(quotient < ushort.MaxValue))
+        {
+            return ushort.MaxValue;
+        }
+
+        // The quotient is usually within a level of the answer; settle it with the scan's own arithmetic, by bisection
+        // when rounding moved it further (a step far below the start's precision).
+        int guess = (int)quotient;
+        int low = Passes(guess) ? guess : -1, high = Passes(guess) ? ushort.MaxValue + 1 : guess;
+        if (low >= 0 && !Passes(guess + 1))
+        {
+            return guess;
+        }
+
+        if (low < 0 && guess > 0 && Passes(guess - 1))
+        {
+            return guess - 1;
+        }
+
+        // Invariant: low passes (or is −1), high fails (or is past the largest sum).
+        low = low >= 0 ? guess + 1 : low;
+        while (high - low > 1)
+        {
+            int middle = (low + high) >>> 1;
+            if (middle >= 0 && Passes(middle))
+            {
+                low = middle;
+            }
+            else
+            {
+                high = middle;
+            }
+        }
+
+        return Math.Min(low, ushort.MaxValue);
+
+        bool Passes(int sum) => start + (step * sum) <= bound;
+    }
+
     /// <summary>The path <see cref="Scan"/> really runs for a requested one (tests assert each path is taken).</summary>
     public static KernelPath Effective(KernelPath path)
         => path == KernelPath.Vector512 && Avx512BW.IsSupported ? KernelPath.Vector512

@@ -163,6 +163,81 @@ public class FastScanKernelTests
         }
     }
 
+    [Fact]
+    public void AtMostOnEveryPath_MarksExactlyTheSumsWithinTheLimit()
+    {
+        var random = new Random(17);
+        var sums = new ushort[FastScanKernel.BlockSize];
+        foreach (ushort limit in new ushort[] { 0, 1, 255, 256, 30_000, 65_534, 65_535 })
+        {
+            for (int round = 0; round < 20; round++)
+            {
+                for (int i = 0; i < sums.Length; i++)
+                {
+                    // Values around the limit as well as anywhere, so both sides of the comparison are exercised.
+                    sums[i] = (ushort)(random.Next(3) == 0 ? Math.Clamp(limit + random.Next(-2, 3), 0, 65_535) : random.Next(65_536));
+                }
+
+                uint expected = 0;
+                for (int i = 0; i < sums.Length; i++)
+                {
+                    expected |= sums[i] <= limit ? 1u << i : 0;
+                }
+
+                foreach (KernelPath path in Paths())
+                {
+                    Assert.True(expected == FastScanKernel.AtMost(path, ref sums[0], limit), $"path {path}, limit {limit}, round {round}");
+                }
+            }
+        }
+    }
+
+    [Theory]
+    [InlineData(0f, 0.01f, 1f)]
+    [InlineData(-3.5f, 0.125f, 2.75f)]
+    [InlineData(1000f, 1e-6f, 1000.0001f)]
+    [InlineData(1000f, 1e-9f, 1000f)]
+    [InlineData(5f, 0.5f, 4.9f)]
+    [InlineData(5f, 0f, 6f)]
+    [InlineData(2f, 1e-4f, 1e9f)]
+    [InlineData(2f, 1e-4f, float.PositiveInfinity)]
+    public void SumLimit_IsTheLargestSumWhoseEstimatePassesTheBound(float start, float step, float bound)
+    {
+        // Brute force over every 16-bit sum with the scan's own arithmetic: estimates grow with the sum.
+        int expected = -1;
+        for (int sum = 0; sum <= ushort.MaxValue; sum++)
+        {
+            if (start + (step * sum) <= bound)
+            {
+                expected = sum;
+            }
+        }
+
+        Assert.Equal(expected, FastScanKernel.SumLimit(bound, start, step));
+    }
+
+    [Fact]
+    public void SumLimit_MatchesBruteForceOnRandomBounds()
+    {
+        var random = new Random(23);
+        for (int round = 0; round < 300; round++)
+        {
+            float start = (float)((random.NextDouble() * 200) - 100);
+            float step = (float)Math.Pow(10, (random.NextDouble() * 8) - 7);
+            float bound = start + (step * random.Next(-10, 70_000)) + (float)(random.NextDouble() * step);
+            int expected = -1;
+            for (int sum = 0; sum <= ushort.MaxValue; sum++)
+            {
+                if (start + (step * sum) <= bound)
+                {
+                    expected = sum;
+                }
+            }
+
+            Assert.True(expected == FastScanKernel.SumLimit(bound, start, step), $"start {start:R}, step {step:R}, bound {bound:R}");
+        }
+    }
+
     private static ushort[] RunScan(KernelPath path, byte[] levels, byte[] blocks, int codeBytes, int entries)
     {
         var image = new byte[codeBytes * FastScanKernel.ImageBytesPerCodeByte];

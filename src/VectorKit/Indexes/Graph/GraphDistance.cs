@@ -1,7 +1,7 @@
 using System.Runtime.CompilerServices;
-using System.Runtime.Intrinsics.X86;
 using VectorKit.Distance;
 using VectorKit.Distance.Kernels;
+using VectorKit.Internal;
 using VectorKit.Quantization;
 
 namespace VectorKit.Indexes.Graph;
@@ -54,7 +54,7 @@ internal readonly struct FloatGraphDistance<TStep, TFinish, TLane> : IGraphDista
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static void Prefetch(GraphIndex index, int slot)
-        => GraphDispatch.PrefetchBytes(ref Unsafe.As<float, byte>(ref index.FloatRows.Row(slot)), index.Dimension * sizeof(float));
+        => CachePrefetch.Lines(ref Unsafe.As<float, byte>(ref index.FloatRows.Row(slot)), index.Dimension * sizeof(float));
 }
 
 /// <summary>8-bit scalar codes: the float query against the decoded code, on the SIMD byte-code kernel.</summary>
@@ -83,7 +83,7 @@ internal readonly struct CodeGraphDistance<TStep, TFinish, TLane> : IGraphDistan
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static void Prefetch(GraphIndex index, int slot)
-        => GraphDispatch.PrefetchBytes(ref index.CodeRows.Row(slot), index.Quantizer.CodeBytes);
+        => CachePrefetch.Lines(ref index.CodeRows.Row(slot), index.Quantizer.CodeBytes);
 }
 
 /// <summary>An operation of the graph index that runs with one concrete distance (storage, metric and SIMD width).</summary>
@@ -101,24 +101,6 @@ internal static class GraphDispatch
     {
         var byMetric = new ByMetric<TAction, TResult>(action, path, codes);
         return MetricDispatch.Run<ByMetric<TAction, TResult>, TResult>(metric, ref byMetric);
-    }
-
-    // Asks the cache for a row (one hint per 64-byte line); no effect where the hint is not available.
-    [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public static unsafe void PrefetchBytes(ref byte row, int bytes)
-    {
-        if (Sse.IsSupported)
-        {
-            byte* start = (byte*)Unsafe.AsPointer(ref row);
-            byte* end = start + bytes;
-            for (byte* line = start; line < end; line += 64)
-            {
-                Sse.Prefetch0(line);
-            }
-
-            // A row that does not start on a line boundary ends on one more line.
-            Sse.Prefetch0(end - 1);
-        }
     }
 
     /// <summary>The metric resolved by <see cref="MetricDispatch"/>; the kernel width and the storage next.</summary>

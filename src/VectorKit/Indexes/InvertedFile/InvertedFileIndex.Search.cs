@@ -1,3 +1,4 @@
+using System.Numerics;
 using System.Numerics.Tensors;
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
@@ -270,6 +271,10 @@ public sealed partial class InvertedFileIndex
 
             ref byte codes = ref MemoryMarshal.GetReference(ListCodes(list));
             int[] slots = _listSlots[list];
+
+            // The sum limit the bound allows in this list (the start differs per list), recomputed when the bound moves.
+            float limitBound = float.NaN;
+            int limit = 0;
             for (int first = 0; first < length; first += ScanBlock)
             {
                 int n = Math.Min(ScanBlock, length - first);
@@ -277,16 +282,41 @@ public sealed partial class InvertedFileIndex
 
                 // `first` is a multiple of the block size, so its blocks start at first × code bytes.
                 FastScanKernel.Scan(_kernelPath, ref imageStart, ref Unsafe.Add(ref codes, (nint)first * size), size, blocks, ref sumStart);
-                for (int j = 0; j < n; j++)
+
+                // Block by block, only the entries whose level sum can beat the bound (the bound as it stands when the
+                // block starts; each visited entry is still compared with the current one).
+                for (int b = 0; b < n; b += FastScanKernel.BlockSize)
                 {
-                    float distance = start + (step * Unsafe.Add(ref sumStart, j));
-                    if (distance <= bound)
+                    if (bound != limitBound)
                     {
-                        long id = EntryId(list, slots, first + j);
-                        if (filter is null || filter(id))
+                        limit = FastScanKernel.SumLimit(bound, start, step);
+                        limitBound = bound;
+                    }
+
+                    if (limit < 0)
+                    {
+                        break;
+                    }
+
+                    uint mask = FastScanKernel.AtMost(_kernelPath, ref Unsafe.Add(ref sumStart, b), (ushort)limit);
+                    if (n - b < FastScanKernel.BlockSize)
+                    {
+                        mask &= (1u << (n - b)) - 1;
+                    }
+
+                    while (mask != 0)
+                    {
+                        int j = b + BitOperations.TrailingZeroCount(mask);
+                        mask &= mask - 1;
+                        float distance = start + (step * Unsafe.Add(ref sumStart, j));
+                        if (distance <= bound)
                         {
-                            TopK.Offer(heap, ref count, distance, id);
-                            bound = TopK.Bound(heap, count);
+                            long id = EntryId(list, slots, first + j);
+                            if (filter is null || filter(id))
+                            {
+                                TopK.Offer(heap, ref count, distance, id);
+                                bound = TopK.Bound(heap, count);
+                            }
                         }
                     }
                 }
