@@ -8,7 +8,7 @@ namespace VectorKit.Benchmarks;
 /// <summary>
 /// Runs the BenchmarkDotNet benchmarks picked by the command line (e.g. <c>--filter '*PairKernel*'</c>), or the graph
 /// index's recall-versus-throughput harness: <c>graph-sweep [fashion-mnist directory] [with-8bit]</c> and
-/// <c>clustered-sweep [count] [dimension] [with-8bit]</c> (<c>with-8bit</c> adds the graph under 8-bit codes); the graph's build cost against its floor: <c>graph-build-cost [count | fashion-mnist] [dimension] [rounds]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
+/// <c>clustered-sweep [count] [dimension] [with-8bit] [cache=folder]</c> (<c>with-8bit</c> adds the graph under 8-bit codes; <c>cache=</c> saves the built graphs there and loads them in later runs); the graph's build cost against its floor: <c>graph-build-cost [count | fashion-mnist] [dimension] [rounds]</c>; the filtered-search crossover: <c>filter-sweep [fashion-mnist directory]</c>;
 /// the re-ranking harness: <c>reranking [items] [hidden width] [baseline queries]</c>; the inverted-file harness,
 /// <c>inverted-file-sweep [count] [dimension] [lists] [product code bytes]</c>; the byte and four-bit product-code layouts
 /// side by side, <c>fast-scan-sweep fashion-mnist [lists] [code bytes]</c> or
@@ -85,7 +85,7 @@ public static class Program
         {
             int count = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 1_000_000;
             int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
-            GraphSweep.RunClustered(count, dimension, args.Contains("with-8bit"));
+            GraphSweep.RunClustered(count, dimension, args.Contains("with-8bit"), args.FirstOrDefault(a => a.StartsWith("cache=", StringComparison.Ordinal))?["cache=".Length..]);
             return;
         }
 

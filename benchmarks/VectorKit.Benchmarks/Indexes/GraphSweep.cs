@@ -5,6 +5,7 @@ using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
 using VectorKit.Indexes.Graph;
 using VectorKit.IO;
+using VectorKit.Persistence;
 using VectorKit.Tests.TestData;
 
 namespace VectorKit.Benchmarks.Indexes;
@@ -46,8 +47,9 @@ public static class GraphSweep
     /// per 100 items (spread 0.2 around centres uniform in [−1, 1]ᵈ), 1,000 queries: the generator's next 1,000 rows,
     /// so from the same clusters; the exact index is timed on the first 200 of them (a full scan per query).
     /// </summary>
-    public static void RunClustered(int count, int dimension, bool withCodes = false)
+    public static void RunClustered(int count, int dimension, bool withCodes = false, string? cache = null)
     {
+        s_cache = cache;
         int clusters = Math.Max(1, count / 100);
         Console.WriteLine($"clustered synthetic: {count} × {dimension}, {clusters} clusters, spread 0.2, squared L2, 1000 queries");
         // The queries are the generator's next 1,000 rows, from the same cluster centres as the data (another seed would
@@ -57,6 +59,9 @@ public static class GraphSweep
         float[] queries = all.AsSpan(count * dimension).ToArray();
         Sweep(data, dimension, queries, exactQueries: 200, [10, 16, 24, 32, 48, 64, 128, 256, 512], withCodes);
     }
+
+    // A folder where built graphs are saved and from which later runs load them (to compare search code on the same graphs).
+    private static string? s_cache;
 
     private static void Sweep(float[] data, int d, float[] queries, int exactQueries, int[] widths, bool withCodes)
     {
@@ -74,8 +79,12 @@ public static class GraphSweep
 
         long before = GC.GetTotalMemory(forceFullCollection: true);
         var watch = Stopwatch.StartNew();
-        using var graph = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 2 });
-        graph.AddRange(ids, data);
+        using GraphIndex graph = Cached(count, d, "float32", () =>
+        {
+            var built = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 2 });
+            built.AddRange(ids, data);
+            return built;
+        });
         watch.Stop();
         Console.WriteLine(
             $"build: {count} vectors × {d} on 2 threads in {watch.Elapsed.TotalSeconds:F1} s; {graph.MemoryBytes / (double)count:F0} bytes/vector " +
@@ -111,16 +120,21 @@ public static class GraphSweep
     {
         int count = ids.Length;
         var watch = Stopwatch.StartNew();
-        using var codes = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions
+        double trainSeconds = 0;
+        using GraphIndex codes = Cached(count, d, "8bit", () =>
         {
-            MaxDegreeOfParallelism = 2,
-            Encoding = VectorEncoding.Scalar8Bit,
-            RescoreDepth = RescoreDepths[^1],
-            InitialCapacity = count,
+            var built = new GraphIndex(d, DistanceMetric.SquaredEuclidean, new GraphIndexOptions
+            {
+                MaxDegreeOfParallelism = 2,
+                Encoding = VectorEncoding.Scalar8Bit,
+                RescoreDepth = RescoreDepths[^1],
+                InitialCapacity = count,
+            });
+            built.Train(data.AsSpan(0, Math.Min(count, TrainingRows) * d));
+            trainSeconds = watch.Elapsed.TotalSeconds;
+            built.AddRange(ids, data);
+            return built;
         });
-        codes.Train(data.AsSpan(0, Math.Min(count, TrainingRows) * d));
-        double trainSeconds = watch.Elapsed.TotalSeconds;
-        codes.AddRange(ids, data);
         watch.Stop();
         double withFull = codes.MemoryBytes / (double)count;
         double codesOnly = (codes.MemoryBytes - ((long)count * d * sizeof(float))) / (double)count;
@@ -176,6 +190,27 @@ public static class GraphSweep
             string ratio = f.Kind is null || c.Kind is null ? "–" : $"{c.Qps / f.Qps:F2}";
             Console.WriteLine($"| {target:F2} | {Describe(f)} | {f.Qps:F0} | {Describe(c)} | {c.Qps:F0} | {ratio} |");
         }
+    }
+
+    // Builds the graph, or loads the one an earlier run saved in the cache folder (then the build times printed are load times).
+    private static GraphIndex Cached(int count, int d, string name, Func<GraphIndex> build)
+    {
+        if (s_cache is null)
+        {
+            return build();
+        }
+
+        string path = Path.Combine(s_cache, $"graph-{name}-{count}x{d}.vkx");
+        if (File.Exists(path))
+        {
+            Console.WriteLine($"(loading {name} graph from {path}: build times below are load times)");
+            return IndexFile.Load<GraphIndex>(path);
+        }
+
+        Directory.CreateDirectory(s_cache);
+        GraphIndex graph = build();
+        IndexFile.Save(graph, path);
+        return graph;
     }
 
     private static double TimedPass(IVectorIndex index, float[] queries, int d, SearchOptions options)

@@ -10,21 +10,34 @@ namespace VectorKit.Indexes;
 /// <summary>Where the re-scoring stage finds an item's full float32 vector.</summary>
 internal interface IFullRows
 {
-    /// <summary>The first component of <paramref name="id"/>'s full vector, valid until the next call.</summary>
-    ref float Row(long id);
+    /// <summary>The first component of the full vector of candidate <paramref name="index"/>, whose id is <paramref name="id"/>; valid until the next call.</summary>
+    ref float Row(int index, long id);
 
-    /// <summary>Hints that <paramref name="id"/>'s full vector is read soon (where the rows are in memory).</summary>
-    void Prefetch(long id);
+    /// <summary>Hints that the full vector of candidate <paramref name="index"/> is read soon (where the rows are in memory).</summary>
+    void Prefetch(int index, long id);
 }
 
 /// <summary>Full vectors kept in memory by the index, found through its id → slot map.</summary>
 internal readonly struct SlotRows(VectorBuffer full, IdMap slotOf) : IFullRows
 {
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public ref float Row(long id) => ref full.Row(slotOf[id]);
+    public ref float Row(int index, long id) => ref full.Row(slotOf[id]);
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public void Prefetch(long id) => CachePrefetch.Lines(ref Unsafe.As<float, byte>(ref full.Row(slotOf[id])), full.Dimension * sizeof(float));
+    public void Prefetch(int index, long id) => CachePrefetch.Lines(ref Unsafe.As<float, byte>(ref full.Row(slotOf[id])), full.Dimension * sizeof(float));
+}
+
+/// <summary>
+/// Full vectors kept in memory, at slots the caller already knows (a graph walk ends with its results' slots), so
+/// re-scoring skips the id map: <paramref name="slots"/>[i] is the slot of candidate i.
+/// </summary>
+internal readonly struct ListedRows(VectorBuffer full, int[] slots) : IFullRows
+{
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public ref float Row(int index, long id) => ref full.Row(slots[index]);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    public void Prefetch(int index, long id) => CachePrefetch.Lines(ref Unsafe.As<float, byte>(ref full.Row(slots[index])), full.Dimension * sizeof(float));
 }
 
 /// <summary>
@@ -38,7 +51,9 @@ internal readonly struct SourceRows(IFullVectorSource source, int dimension, boo
     [ThreadStatic]
     private static float[]? t_row;
 
-    public ref float Row(long id)
+    public ref float Row(int index, long id) => ref Row(id);
+
+    private ref float Row(long id)
     {
         float[] row = t_row is { } held && held.Length >= dimension ? held : (t_row = new float[dimension]);
         Span<float> span = row.AsSpan(0, dimension);
@@ -56,7 +71,7 @@ internal readonly struct SourceRows(IFullVectorSource source, int dimension, boo
     }
 
     /// <summary>Nothing to hint: the source copies each vector when it is asked for.</summary>
-    public void Prefetch(long id)
+    public void Prefetch(int index, long id)
     {
     }
 
@@ -122,13 +137,13 @@ internal static class ExactRescoring
             // overlap instead of being paid one after another.
             for (int i = 0; i < _candidates.Length; i++)
             {
-                rows.Prefetch(_candidates[i].Id);
+                rows.Prefetch(i, _candidates[i].Id);
             }
 
             for (int i = 0; i < _candidates.Length; i++)
             {
                 long id = _candidates[i].Id;
-                float sum = ManyKernel.One<TStep>(path, ref _query, ref rows.Row(id), dimension);
+                float sum = ManyKernel.One<TStep>(path, ref _query, ref rows.Row(i, id), dimension);
                 _candidates[i] = new SearchHit(id, TFinish.Apply(sum));
             }
 

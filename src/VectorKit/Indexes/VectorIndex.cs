@@ -589,12 +589,17 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
 
     /// <summary>
     /// Replaces the candidates' code distances with exact ones, from the full vectors kept in memory
-    /// (<paramref name="fullRows"/>, by slot) or from the attached source; the caller holds the read lock and sorts after.
+    /// (<paramref name="fullRows"/>, by slot: <paramref name="slots"/>[i] for candidate i when the caller knows them, else
+    /// through the id map) or from the attached source; the caller holds the read lock and sorts after.
     /// </summary>
-    private protected void RescoreLocked(KernelPath path, ref float query, Span<SearchHit> candidates, VectorBuffer? fullRows)
+    private protected void RescoreLocked(KernelPath path, ref float query, Span<SearchHit> candidates, VectorBuffer? fullRows, int[]? slots = null)
     {
         // The source cannot change during a search: attaching takes the write lock.
-        if (fullRows is not null)
+        if (fullRows is not null && slots is not null)
+        {
+            ExactRescoring.Rescore(Metric, path, ref query, Dimension, candidates, new ListedRows(fullRows, slots));
+        }
+        else if (fullRows is not null)
         {
             ExactRescoring.Rescore(Metric, path, ref query, Dimension, candidates, new SlotRows(fullRows, _slotOf));
         }

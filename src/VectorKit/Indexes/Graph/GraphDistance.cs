@@ -34,6 +34,9 @@ internal interface IGraphDistance
 
     /// <summary>Asks the cache for the row of <paramref name="slot"/>.</summary>
     static abstract void Prefetch(GraphIndex index, int slot);
+
+    /// <summary>Bytes of one row as <see cref="ToNode"/> reads it.</summary>
+    static abstract int RowBytes(GraphIndex index);
 }
 
 /// <summary>Float32 rows: the exact index's kernel, so distances equal its own bit for bit.</summary>
@@ -55,6 +58,8 @@ internal readonly struct FloatGraphDistance<TStep, TFinish, TLane> : IGraphDista
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static void Prefetch(GraphIndex index, int slot)
         => CachePrefetch.Lines(ref Unsafe.As<float, byte>(ref index.FloatRows.Row(slot)), index.Dimension * sizeof(float));
+
+    public static int RowBytes(GraphIndex index) => index.Dimension * sizeof(float);
 }
 
 /// <summary>8-bit scalar codes: the float query against the decoded code, on the SIMD byte-code kernel.</summary>
@@ -84,6 +89,8 @@ internal readonly struct CodeGraphDistance<TStep, TFinish, TLane> : IGraphDistan
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public static void Prefetch(GraphIndex index, int slot)
         => CachePrefetch.Lines(ref index.CodeRows.Row(slot), index.Quantizer.CodeBytes);
+
+    public static int RowBytes(GraphIndex index) => index.Quantizer.CodeBytes;
 }
 
 /// <summary>An operation of the graph index that runs with one concrete distance (storage, metric and SIMD width).</summary>

@@ -61,6 +61,10 @@ public sealed partial class GraphIndex
         Column<byte> removed = _removed;
         IdColumn ids = _ids;
         uint slots = (uint)_links.Capacity;
+
+        // Rows asked for ahead of the one being measured: about PrefetchBytes in flight, so short rows (codes) overlap
+        // more of their memory latency than long ones, whose lines already keep the memory busy.
+        int ahead = Math.Clamp(PrefetchBytes / TDistance.RowBytes(this), 1, 8);
         while (candidates.Count > 0)
         {
             float nearest = candidates.TopKey;
@@ -71,6 +75,14 @@ public sealed partial class GraphIndex
 
             int current = candidates.TopSlot;
             candidates.Pop();
+
+            // The candidate after this one is usually expanded next: its list is on its way while this one's rows are measured.
+            if (candidates.Count > 0)
+            {
+                Span<int> following = _links.Block(candidates.TopSlot, level);
+                CachePrefetch.Lines(ref Unsafe.As<int, byte>(ref MemoryMarshal.GetReference(following)), following.Length * sizeof(int));
+            }
+
             Span<int> block = _links.Block(current, level);
             int count = GraphLinks.CountOf(block);
             ref int links = ref MemoryMarshal.GetReference(block);
@@ -88,17 +100,18 @@ public sealed partial class GraphIndex
                 }
             }
 
-            if (fresh > 0)
+            int primed = Math.Min(ahead, fresh);
+            for (int j = 0; j < primed; j++)
             {
-                TDistance.Prefetch(this, pending);
+                TDistance.Prefetch(this, Unsafe.Add(ref pending, j));
             }
 
             for (int j = 0; j < fresh; j++)
             {
                 int next = Unsafe.Add(ref pending, j);
-                if (j + 1 < fresh)
+                if (j + ahead < fresh)
                 {
-                    TDistance.Prefetch(this, Unsafe.Add(ref pending, j + 1));
+                    TDistance.Prefetch(this, Unsafe.Add(ref pending, j + ahead));
                 }
 
                 float distance = TDistance.ToNode(this, ref query, next);
@@ -188,16 +201,18 @@ public sealed partial class GraphIndex
 
         int found = scratch.Results.Count;
         Span<SearchHit> hits = scratch.Hits.AsSpan(0, found);
+        Span<int> hitSlots = scratch.SortedSlots.AsSpan(0, found);
         for (int i = found - 1; i >= 0; i--)
         {
             NodeHeap results = scratch.Results;
             hits[i] = new SearchHit(_ids[results.TopSlot], -results.TopKey);
+            hitSlots[i] = results.TopSlot;
             results.Pop();
         }
 
-        // Equal distances are ordered by id, as every index orders them.
-        hits.Sort();
-        found = Rescore(ref query, hits, destination.Length, depth);
+        // Equal distances are ordered by id, as every index orders them; the slots follow their hits.
+        hits.Sort(hitSlots);
+        found = Rescore(ref query, hits, scratch.SortedSlots, destination.Length, depth);
         int written = Math.Min(destination.Length, found);
         hits[..written].CopyTo(destination);
         return written;

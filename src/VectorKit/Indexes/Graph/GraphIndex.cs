@@ -63,6 +63,9 @@ public sealed partial class GraphIndex : VectorIndex
     // is taken, so a hold costs only the copies.
     private const int RelinkStep = 64;
 
+    // Row bytes a walk keeps on their way from memory ahead of the row it measures (BeamSearch).
+    private const int PrefetchBytes = 1024;
+
     // Bounds of the walk that finds the lists naming a removed node (see FindInLinks).
     private const int InLinkSearchHops = 3;
     private const int InLinkSearchNodes = 4096;
@@ -590,7 +593,8 @@ public sealed partial class GraphIndex : VectorIndex
     // Under full vectors kept beside codes (or read from the attached source): the first max(k, depth) of `hits` (sorted by code distance) get their exact
     // distances and are sorted again, so every distance returned is exact; the caller then takes the best k of them.
     // Returns how many remain candidates.
-    private int Rescore(ref float query, Span<SearchHit> hits, int k, int depth)
+    // `slots` (when not null) holds the slot of each hit, so rows in memory are found without the id map.
+    private int Rescore(ref float query, Span<SearchHit> hits, int[]? slots, int k, int depth)
     {
         if (depth <= 0)
         {
@@ -598,7 +602,7 @@ public sealed partial class GraphIndex : VectorIndex
         }
 
         Span<SearchHit> rescored = hits[..Math.Min(Math.Max(k, depth), hits.Length)];
-        RescoreLocked(_path, ref query, rescored, _readsExternally ? null : _vectors);
+        RescoreLocked(_path, ref query, rescored, _readsExternally ? null : _vectors, slots);
 
         rescored.Sort();
         return rescored.Length;
@@ -658,7 +662,7 @@ public sealed partial class GraphIndex : VectorIndex
         }
 
         count = TopK.SortBestFirst(heap, count);
-        count = Rescore(ref query, heap[..count], destination.Length, depth);
+        count = Rescore(ref query, heap[..count], null, destination.Length, depth);
         int written = Math.Min(destination.Length, count);
         if (rents)
         {
