@@ -113,7 +113,6 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
         // AlignedRealloc keeps min(old, new) bytes, so growing never loses rows.
         long oldBytes = Bytes;
         _rows = (T*)NativeMemory.AlignedRealloc(_rows, bytes, Alignment);
-        HugePages.Advise(_rows, bytes);
         Capacity = capacity;
         long delta = Bytes - oldBytes;
         if (delta > 0)
