@@ -57,7 +57,7 @@ public static class GraphSweep
         float[] all = ClusteredData.Generate(count + 1000, dimension, clusters, 0.2f, seed: 101);
         float[] data = all.AsSpan(0, count * dimension).ToArray();
         float[] queries = all.AsSpan(count * dimension).ToArray();
-        Sweep(data, dimension, queries, exactQueries: 200, [10, 16, 24, 32, 48, 64, 128, 256, 512], withCodes);
+        Sweep(data, dimension, queries, exactQueries: 200, [10, 12, 16, 20, 24, 28, 32, 40, 48, 64, 128, 256, 512], withCodes);
     }
 
     // A folder where built graphs are saved and from which later runs load them (to compare search code on the same graphs).
