@@ -9,7 +9,7 @@ namespace VectorKit.Tests.Persistence.Mapped;
 
 /// <summary>
 /// Background merges of a <see cref="SegmentedIndex"/>: writes and searches during a merge, cancellation, progress,
-/// one merge at a time, and an 8-bit base refused.
+/// one merge at a time, and an 8-bit base without re-scoring refused.
 /// </summary>
 public sealed class SegmentedIndexMergeTests : IDisposable
 {
@@ -118,7 +118,7 @@ public sealed class SegmentedIndexMergeTests : IDisposable
 
         using ExactIndex codes = PersistenceSamples.ExactScalar();
         ArgumentException refused = Assert.Throws<ArgumentException>(() => new SegmentedIndex(codes));
-        Assert.StartsWith("A segmented index needs a float32 exact base; this one stores Scalar8Bit codes", refused.Message, StringComparison.Ordinal);
+        Assert.StartsWith("A segmented index needs a base whose searches return full-precision distances; this ExactIndex stores Scalar8Bit codes without re-scoring", refused.Message, StringComparison.Ordinal);
     }
 
     [Fact]
