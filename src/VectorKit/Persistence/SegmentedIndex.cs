@@ -354,10 +354,12 @@ public sealed class SegmentedIndex : IVectorIndex
 
     /// <inheritdoc/>
     /// <remarks>Each query runs <see cref="Search"/> (so a batch returns exactly what single searches return), queries in parallel up to <see cref="SearchOptions.MaxDegreeOfParallelism"/>.</remarks>
+    /// <exception cref="ArgumentException"><paramref name="options"/> sets <see cref="SearchOptions.RescoreDepth"/> to 0 over a base that stores codes.</exception>
     public BatchSearchResults SearchBatch(ReadOnlySpan<float> queries, int k, SearchOptions? options = null, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         VectorChecks.CheckBatchQueries(queries, k, Dimension, Metric, out int queryCount);
         options ??= SearchOptions.Default;
+        CheckSearchOptions(Volatile.Read(ref _base), options);
         BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, Count);
         if (queryCount == 0)
         {
