@@ -24,12 +24,12 @@ public sealed class SegmentedIndexKindTests : IDisposable
     private const int QueryCount = 100;
     private const int K = 10;
 
-    // How far below the same kind built in memory from the same items an approximate base's recall@10 may fall. With
-    // writes in segments it is higher than that (the segments are exact); after a merge the file's graph has seen
-    // removals and single inserts, and its inverted file keeps the base's training. Over data seeds 21 to 23 the merged
-    // file's recall was 0.009 to 0.045 below a fresh graph's (0.84 to 0.90) and within ±0.031 of a fresh inverted
-    // file's; a broken merge (lost links, items in the wrong lists) loses far more.
-    private const double RecallTolerance = 0.06;
+    // How far an approximate base's recall@10 may fall below its reference: with writes in segments, the same kind
+    // built in memory from the same items (the segments, exact, lift it well above); after a merge, the base file
+    // loaded and given the same writes by the kind itself. 100 queries × 10 put about ±0.02 of noise between two
+    // such indexes (two standard deviations of a binomial near recall 0.85); a broken merge (lost links, items in the
+    // wrong lists) loses far more.
+    private const double RecallTolerance = 0.04;
 
     // Rows 0..1499 the base, 1500..1999 new items, 2000..2299 replacements, the rest queries: one distribution.
     private static readonly float[] Data = ClusteredData.Generate(BaseCount + NewCount + 300 + QueryCount, Dim, 12, 0.3f, seed: 21);
@@ -39,7 +39,25 @@ public sealed class SegmentedIndexKindTests : IDisposable
 
     public SegmentedIndexKindTests(ITestOutputHelper output) => _output = output;
 
-    public static TheoryData<string> Kinds => new() { "exact", "graph-float32", "graph-8bit-full", "ivf-product-rescore" };
+    private static readonly string[] s_kinds = ["exact", "graph-float32", "graph-8bit-full", "ivf-product-rescore"];
+
+    public static TheoryData<string> Kinds => new(s_kinds);
+
+    // The merge under both metrics that change what is stored: squared L2 keeps rows as given, cosine normalises them.
+    public static TheoryData<string, DistanceMetric> KindsAndMetrics
+    {
+        get
+        {
+            var data = new TheoryData<string, DistanceMetric>();
+            foreach (string kind in s_kinds)
+            {
+                data.Add(kind, DistanceMetric.SquaredEuclidean);
+                data.Add(kind, DistanceMetric.Cosine);
+            }
+
+            return data;
+        }
+    }
 
     public void Dispose() => _folder.Dispose();
 
@@ -48,10 +66,10 @@ public sealed class SegmentedIndexKindTests : IDisposable
     public void LiveWrites_KeepEveryAcknowledgedItem_AndFindWhatTheKindFindsInMemory(string kind)
     {
         using Live live = Start(kind);
-        AssertHoldsTheModel(live.Index, live.Model);
+        AssertHoldsTheModel(live.Index, live);
         double recall = CheckSearches(live.Index, live, out SearchHit[][] got);
 
-        double reference = InMemoryRecall(kind, live.Model, out SearchHit[][] expected);
+        double reference = InMemoryRecall(kind, live, out SearchHit[][] expected);
         _output.WriteLine($"{kind}: recall@{K} {recall:F3} segmented, {reference:F3} in memory");
         if (kind == "exact")
         {
@@ -66,10 +84,10 @@ public sealed class SegmentedIndexKindTests : IDisposable
     }
 
     [Theory]
-    [MemberData(nameof(Kinds))]
-    public async Task AMerge_WritesAFileOfTheBasesKindAndOptions_ThatSearchesAsBefore(string kind)
+    [MemberData(nameof(KindsAndMetrics))]
+    public async Task AMerge_WritesAFileOfTheBasesKindAndOptions_ThatSearchesAsBefore(string kind, DistanceMetric metric)
     {
-        using Live live = Start(kind);
+        using Live live = Start(kind, metric);
         double before = CheckSearches(live.Index, live, out SearchHit[][] hitsBefore);
         var counts = new List<int>();
         string merged = _folder.File("merged.vkx");
@@ -78,10 +96,10 @@ public sealed class SegmentedIndexKindTests : IDisposable
         Assert.Equal((0, 0), (live.Index.SegmentCount, live.Index.MaskedCount));
         Assert.Equal(live.Model.Count, counts[^1]);
         Assert.True(counts.SequenceEqual(counts.Order()), "progress counts rise");
-        AssertHoldsTheModel(live.Index, live.Model);
+        AssertHoldsTheModel(live.Index, live);
         double after = CheckSearches(live.Index, live with { SegmentIds = [] }, out SearchHit[][] hitsAfter);
-        double reference = InMemoryRecall(kind, live.Model, out _);
-        _output.WriteLine($"{kind}: recall@{K} {before:F3} before the merge, {after:F3} after, {reference:F3} for the same kind built in memory");
+        double edited = EditedInMemoryRecall(kind, live);
+        _output.WriteLine($"{kind}, {metric}: recall@{K} {before:F3} before the merge, {after:F3} after, {edited:F3} for the base loaded and given the same writes, {InMemoryRecall(kind, live, out _):F3} for the same items built anew");
 
         // The file is the base's kind with its stored settings, and reopens mapped with the same items.
         IndexFileSummary original = IndexFile.Inspect(live.BasePath);
@@ -91,7 +109,7 @@ public sealed class SegmentedIndexKindTests : IDisposable
         using (var reopened = (VectorIndex)IndexFile.OpenMapped(merged, MappedOpenOptions.Untrusted))
         {
             Assert.Equal(live.BaseType, reopened.GetType());
-            AssertHoldsTheModel(reopened, live.Model);
+            AssertHoldsTheModel(reopened, live);
         }
 
         if (kind == "exact")
@@ -101,8 +119,9 @@ public sealed class SegmentedIndexKindTests : IDisposable
         else
         {
             // Before the merge a quarter of the items were in exact segments; after it they are in the base's own
-            // structure, so the file is held to what the kind finds when built from the same items.
-            Assert.True(after >= reference - RecallTolerance, $"recall@{K} {after:F3} after the merge vs {reference:F3} for the same kind built in memory");
+            // structure, so the file is held to what the base's kind finds when its file is loaded and given the
+            // same writes directly (a graph with many removals finds less than one built anew, merged or not).
+            Assert.True(after >= edited - RecallTolerance, $"recall@{K} {after:F3} after the merge vs {edited:F3} for the base loaded and given the same writes");
         }
 
         // A save of the merged state loads as the same items too.
@@ -110,7 +129,7 @@ public sealed class SegmentedIndexKindTests : IDisposable
         live.Index.Save(saved);
         using var loaded = (VectorIndex)IndexFile.Load(saved, IndexLoadOptions.Untrusted);
         Assert.Equal(live.BaseType, loaded.GetType());
-        AssertHoldsTheModel(loaded, live.Model);
+        AssertHoldsTheModel(loaded, live);
     }
 
     [Theory]
@@ -173,18 +192,18 @@ public sealed class SegmentedIndexKindTests : IDisposable
 
         await merge;
         Assert.Equal(during.Count, live.Index.SegmentCount);
-        AssertHoldsTheModel(live.Index, live.Model);
+        AssertHoldsTheModel(live.Index, live);
         CheckSearches(live.Index, live with { SegmentIds = during }, out _);
         await live.Index.MergeAsync(_folder.File("merged-again.vkx"));
         Assert.Equal((0, 0), (live.Index.SegmentCount, live.Index.MaskedCount));
-        AssertHoldsTheModel(live.Index, live.Model);
+        AssertHoldsTheModel(live.Index, live);
         CheckSearches(live.Index, live with { SegmentIds = [] }, out _);
 
         void AssertUnchanged()
         {
             Assert.False(live.Index.IsMerging);
             Assert.Equal((segment, masked), (live.Index.SegmentCount, live.Index.MaskedCount));
-            AssertHoldsTheModel(live.Index, live.Model);
+            AssertHoldsTheModel(live.Index, live);
             CheckSearches(live.Index, live, out _);
         }
     }
@@ -254,11 +273,11 @@ public sealed class SegmentedIndexKindTests : IDisposable
 
     // A base of the kind saved and opened segmented, then adds, replacements and removals of base and segment items,
     // mirrored into the model.
-    private Live Start(string kind)
+    private Live Start(string kind, DistanceMetric metric = DistanceMetric.SquaredEuclidean)
     {
         string path = _folder.File($"base-{kind}.vkx");
         Type type;
-        using (VectorIndex built = Build(kind, Ids(BaseCount), Data.AsSpan(0, BaseCount * Dim)))
+        using (VectorIndex built = Build(kind, Ids(BaseCount), Data.AsSpan(0, BaseCount * Dim), metric))
         {
             IndexFile.Save(built, path);
             type = built.GetType();
@@ -307,20 +326,38 @@ public sealed class SegmentedIndexKindTests : IDisposable
         }
 
         Assert.Equal(BaseCount + NewCount - removed.Length, index.Count);
-        return new Live(index, model, segmentIds) { BasePath = path, BaseType = type };
+        return new Live(index, model, segmentIds) { BasePath = path, BaseType = type, Metric = metric };
     }
 
     // Recall@k of the kind built in memory from the model's items.
-    private static double InMemoryRecall(string kind, Dictionary<long, float[]> model, out SearchHit[][] results)
+    private static double InMemoryRecall(string kind, Live live, out SearchHit[][] results)
     {
-        using VectorIndex inMemory = Build(kind, [.. model.Keys], [.. model.Values.SelectMany(v => v)]);
-        return CheckSearches(inMemory, new Live(null!, model, []), out results);
+        using VectorIndex inMemory = Build(kind, [.. live.Model.Keys], [.. live.Model.Values.SelectMany(v => v)], live.Metric);
+        return CheckSearches(inMemory, live with { SegmentIds = [] }, out results);
+    }
+
+    // Recall@k of the base file loaded into memory and brought to the model's items by the kind's own removals and adds.
+    private static double EditedInMemoryRecall(string kind, Live live)
+    {
+        using var loaded = (VectorIndex)IndexFile.Load(live.BasePath);
+        var stale = new List<long>();
+        for (int i = 0; i < BaseCount; i++)
+        {
+            if (!live.Model.TryGetValue(3L * i, out float[]? now) || !now.AsSpan().SequenceEqual(Row(i)))
+            {
+                stale.Add(3L * i);
+            }
+        }
+
+        loaded.RemoveRange(stale.ToArray());
+        long[] added = [.. live.Model.Keys.Where(id => !loaded.Contains(id)).Order()];
+        loaded.AddRange(added, [.. added.SelectMany(id => live.Model[id])]);
+        return CheckSearches(loaded, live with { SegmentIds = [] }, out _);
     }
 
     // The kind built in memory from the given items, trained on them.
-    private static VectorIndex Build(string kind, ReadOnlySpan<long> ids, ReadOnlySpan<float> rows)
+    private static VectorIndex Build(string kind, ReadOnlySpan<long> ids, ReadOnlySpan<float> rows, DistanceMetric metric = DistanceMetric.SquaredEuclidean)
     {
-        const DistanceMetric metric = DistanceMetric.SquaredEuclidean;
         VectorIndex index = kind switch
         {
             "exact" => new ExactIndex(Dim, metric),
@@ -342,16 +379,28 @@ public sealed class SegmentedIndexKindTests : IDisposable
 
     private static float[] Row(int row) => Data.AsSpan(row * Dim, Dim).ToArray();
 
-    // The index holds exactly the model's ids, each with its latest vector.
-    private static void AssertHoldsTheModel(IVectorIndex index, Dictionary<long, float[]> model)
+    // The index holds exactly the model's ids, each with its latest vector (as given; under cosine, of unit length).
+    private static void AssertHoldsTheModel(IVectorIndex index, Live live)
     {
+        Dictionary<long, float[]> model = live.Model;
         Assert.Equal(model.Count, index.Count);
         Assert.Equal(model.Keys.Order().ToArray(), index.GetIds());
         var vector = new float[Dim];
         foreach ((long id, float[] expected) in model)
         {
             Assert.True(index.TryGetVector(id, vector), $"item {id} is there");
-            Assert.Equal(expected, vector);
+            if (live.Metric == DistanceMetric.Cosine)
+            {
+                double norm = Math.Sqrt(expected.Sum(x => (double)x * x));
+                for (int j = 0; j < Dim; j++)
+                {
+                    Assert.True(Math.Abs(vector[j] - (expected[j] / norm)) <= 1e-6, $"item {id}, component {j}: {vector[j]} against {expected[j] / norm}");
+                }
+            }
+            else
+            {
+                Assert.Equal(expected, vector);
+            }
         }
     }
 
@@ -364,7 +413,7 @@ public sealed class SegmentedIndexKindTests : IDisposable
         for (int q = 0; q < QueryCount; q++)
         {
             float[] query = Row(BaseCount + NewCount + 300 + q);
-            (double Distance, long Id)[] truth = [.. live.Model.Select(p => (Distance: SquaredDistance(query, p.Value), Id: p.Key)).OrderBy(t => t.Distance).ThenBy(t => t.Id).Take(K)];
+            (double Distance, long Id)[] truth = [.. live.Model.Select(p => (Distance: Distance(live.Metric, query, p.Value), Id: p.Key)).OrderBy(t => t.Distance).ThenBy(t => t.Id).Take(K)];
             SearchHit[] hits = index.Search(query, K);
             results[q] = hits;
             Assert.Equal(K, hits.Length);
@@ -373,7 +422,7 @@ public sealed class SegmentedIndexKindTests : IDisposable
             foreach (SearchHit hit in hits)
             {
                 Assert.True(live.Model.TryGetValue(hit.Id, out float[]? vector), $"hit {hit.Id} is a live item");
-                double distance = SquaredDistance(query, vector);
+                double distance = Distance(live.Metric, query, vector);
                 Assert.True(Math.Abs(hit.Distance - distance) <= 1e-4 * Math.Max(1, distance), $"hit {hit.Id} at {hit.Distance}, its latest vector at {distance}");
             }
 
@@ -393,16 +442,20 @@ public sealed class SegmentedIndexKindTests : IDisposable
         return found / (double)(QueryCount * K);
     }
 
-    private static double SquaredDistance(float[] a, float[] b)
+    // Squared L2, or 1 − cosine similarity, in double precision.
+    private static double Distance(DistanceMetric metric, float[] a, float[] b)
     {
-        double sum = 0;
+        double sum = 0, dot = 0, aa = 0, bb = 0;
         for (int i = 0; i < a.Length; i++)
         {
             double d = (double)a[i] - b[i];
             sum += d * d;
+            dot += (double)a[i] * b[i];
+            aa += (double)a[i] * a[i];
+            bb += (double)b[i] * b[i];
         }
 
-        return sum;
+        return metric == DistanceMetric.Cosine ? 1 - (dot / Math.Sqrt(aa * bb)) : sum;
     }
 
     private sealed record Live(SegmentedIndex Index, Dictionary<long, float[]> Model, HashSet<long> SegmentIds) : IDisposable
@@ -410,6 +463,8 @@ public sealed class SegmentedIndexKindTests : IDisposable
         public string BasePath { get; init; } = "";
 
         public Type BaseType { get; init; } = typeof(object);
+
+        public DistanceMetric Metric { get; init; } = DistanceMetric.SquaredEuclidean;
 
         public void Dispose() => Index?.Dispose();
     }
