@@ -11,8 +11,8 @@ using Xunit.Abstractions;
 namespace VectorKit.Tests.Persistence.Mapped;
 
 /// <summary>
-/// One set of checks of <see cref="SegmentedIndex"/> over every kind of base it takes (float32 exact, float32 graph,
-/// 8-bit graph with full vectors, inverted file of product codes re-scoring), against a naive model: a dictionary of
+/// One set of checks of <see cref="SegmentedIndex"/> over every kind of base it takes (float32 exact, 8-bit exact
+/// re-scoring, float32 graph, 8-bit graph re-scoring, inverted file of product codes re-scoring), against a naive model: a dictionary of
 /// each id's latest vector and a double-precision brute-force top k. Adds, replacements and removals of base and segment
 /// items, then searches, a merge and its file, and merges that fail.
 /// </summary>
@@ -39,7 +39,7 @@ public sealed class SegmentedIndexKindTests : IDisposable
 
     public SegmentedIndexKindTests(ITestOutputHelper output) => _output = output;
 
-    private static readonly string[] s_kinds = ["exact", "graph-float32", "graph-8bit-full", "ivf-product-rescore"];
+    private static readonly string[] s_kinds = ["exact", "exact-8bit-rescore", "graph-float32", "graph-8bit-full", "ivf-product-rescore"];
 
     public static TheoryData<string> Kinds => new(s_kinds);
 
@@ -361,6 +361,7 @@ public sealed class SegmentedIndexKindTests : IDisposable
         VectorIndex index = kind switch
         {
             "exact" => new ExactIndex(Dim, metric),
+            "exact-8bit-rescore" => new ExactIndex(Dim, metric, new ExactIndexOptions { Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 12 }),
             "graph-float32" => new GraphIndex(Dim, metric, new GraphIndexOptions { LinksPerNode = 5, BuildWidth = 24, SearchWidth = 10, Seed = 3, MaxDegreeOfParallelism = 1 }),
             "graph-8bit-full" => new GraphIndex(Dim, metric, new GraphIndexOptions { LinksPerNode = 5, BuildWidth = 24, SearchWidth = 10, Seed = 3, MaxDegreeOfParallelism = 1, Encoding = VectorEncoding.Scalar8Bit, RescoreDepth = 10 }),
             "ivf-product-rescore" => new InvertedFileIndex(Dim, metric, new InvertedFileOptions { ListCount = 32, SearchWidth = 2, Encoding = VectorEncoding.ProductCodes, ProductCodeBytes = 8, RescoreDepth = 30, MaxIterations = 8, Seed = 5, MaxDegreeOfParallelism = 1 }),
