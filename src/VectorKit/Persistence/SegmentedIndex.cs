@@ -72,7 +72,7 @@ public sealed class SegmentedIndex : IVectorIndex
     /// </param>
     /// <exception cref="ArgumentNullException"><paramref name="baseIndex"/> is null.</exception>
     /// <exception cref="ArgumentException">
-    /// The base stores codes without re-scoring (its distances are the codes' approximations, which cannot be merged
+    /// The base is not trained (a merge adds the segments' items with its training), stores codes without re-scoring (its distances are the codes' approximations, which cannot be merged
     /// with a float32 segment's exact distances), its tuned defaults turn re-scoring off, or it re-scores from an
     /// external full-vector source (the segments' items could not be saved with full vectors).
     /// </exception>
@@ -90,7 +90,7 @@ public sealed class SegmentedIndex : IVectorIndex
     /// <returns>The segmented index; the caller owns (and disposes) it.</returns>
     /// <exception cref="IndexFileException">As for <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>.</exception>
     /// <exception cref="NotSupportedException">As for <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>.</exception>
-    /// <exception cref="ArgumentException">The file's index stores codes without re-scoring, or re-scores from an external source (see <see cref="SegmentedIndex(VectorIndex)"/>).</exception>
+    /// <exception cref="ArgumentException">The file's index is not trained, stores codes without re-scoring, or re-scores from an external source (see <see cref="SegmentedIndex(VectorIndex)"/>).</exception>
     public static SegmentedIndex Open(string path, MappedOpenOptions? options = null)
     {
         var mapped = (VectorIndex)IndexFile.OpenMapped(path, options);
@@ -651,6 +651,11 @@ public sealed class SegmentedIndex : IVectorIndex
     {
         VectorIndexOptions options = ((IVectorIndex)baseIndex).Options;
         string kind = baseIndex.GetType().Name;
+        if (!baseIndex.IsTrained)
+        {
+            ThrowHelper.ThrowArgument(nameof(baseIndex), $"A segmented index needs a trained base; this {kind} is not trained, so a merge could not add the segments' items to it. Train it and save it before opening it.");
+        }
+
         if (options.Encoding == VectorEncoding.Float32)
         {
             return;

@@ -257,6 +257,10 @@ public sealed class SegmentedIndexKindTests : IDisposable
         ArgumentException tuned = Assert.Throws<ArgumentException>(() => new SegmentedIndex(tunedOff));
         Assert.StartsWith("A segmented index needs a base whose searches return full-precision distances; this GraphIndex's tuned defaults turn re-scoring off", tuned.Message, StringComparison.Ordinal);
 
+        using var untrained = new InvertedFileIndex(4, DistanceMetric.SquaredEuclidean, new InvertedFileOptions { ListCount = 2 });
+        ArgumentException training = Assert.Throws<ArgumentException>(() => new SegmentedIndex(untrained));
+        Assert.StartsWith("A segmented index needs a trained base; this InvertedFileIndex is not trained", training.Message, StringComparison.Ordinal);
+
         // A base that re-scores is taken, and a search cannot turn its re-scoring off.
         string path = _folder.File("rescoring.vkx");
         using (GraphIndex rescoring = PersistenceSamples.ScalarGraph(rescoreDepth: 5))
