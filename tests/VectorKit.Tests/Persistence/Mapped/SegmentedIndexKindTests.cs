@@ -31,8 +31,9 @@ public sealed class SegmentedIndexKindTests : IDisposable
     // wrong lists) loses far more.
     private const double RecallTolerance = 0.04;
 
-    // Rows 0..1499 the base, 1500..1999 new items, 2000..2299 replacements, the rest queries: one distribution.
-    private static readonly float[] Data = ClusteredData.Generate(BaseCount + NewCount + 300 + QueryCount, Dim, 12, 0.3f, seed: 21);
+    // Rows 0..1499 the base, 1500..1999 new items, 2000..2299 replacements, 2300..2399 queries, 2400..2499 items written
+    // while other threads search: one distribution.
+    private static readonly float[] Data = ClusteredData.Generate(BaseCount + NewCount + 300 + QueryCount + 100, Dim, 12, 0.3f, seed: 21);
 
     private readonly TempFolder _folder = new();
     private readonly ITestOutputHelper _output;
@@ -206,6 +207,59 @@ public sealed class SegmentedIndexKindTests : IDisposable
             AssertHoldsTheModel(live.Index, live);
             CheckSearches(live.Index, live, out _);
         }
+    }
+
+    [Theory]
+    [MemberData(nameof(Kinds))]
+    public async Task SearchesOnOtherThreads_DuringWritesSavesAndMerges_SeeWholeStates(string kind)
+    {
+        using Live live = Start(kind);
+        var ever = new HashSet<long>(live.Model.Keys);
+        for (int i = 0; i < 60; i++)
+        {
+            ever.Add(70_000 + i);
+        }
+
+        using var stop = new CancellationTokenSource();
+        int searches = 0;
+        Task[] readers = [.. Enumerable.Range(0, 2).Select(r => Task.Run(() =>
+        {
+            float[] query = Row(BaseCount + NewCount + 300 + r);
+            while (!stop.IsCancellationRequested)
+            {
+                // Every state holds well over k items, so a whole state gives k distinct items ever written, best first.
+                SearchHit[] hits = live.Index.Search(query, K);
+                Assert.Equal(K, hits.Length);
+                Assert.Equal(K, hits.Select(h => h.Id).Distinct().Count());
+                Assert.True(hits.SequenceEqual(hits.Order()), "hits are best first, ties by id");
+                Assert.All(hits, h => Assert.Contains(h.Id, ever));
+                Interlocked.Increment(ref searches);
+            }
+        }))];
+
+        for (int round = 0; round < 3; round++)
+        {
+            for (int i = 0; i < 20; i++)
+            {
+                long gone = 3L * (1000 + (round * 20) + i);
+                live.Index.Remove(gone);
+                live.Model.Remove(gone);
+                float[] row = Row(2400 + (round * 20) + i);
+                live.Index.Add(70_000 + (round * 20) + i, row);
+                live.Model[70_000 + (round * 20) + i] = row;
+            }
+
+            live.Index.Save(_folder.File($"snapshot-{round}.vkx"));
+            await live.Index.MergeAsync(_folder.File(round % 2 == 0 ? "a.vkx" : "b.vkx"));
+        }
+
+        await stop.CancelAsync();
+        await Task.WhenAll(readers);
+        Assert.True(searches > 0);
+        AssertHoldsTheModel(live.Index, live);
+        CheckSearches(live.Index, live with { SegmentIds = [] }, out _);
+        using var snapshot = (VectorIndex)IndexFile.Load(_folder.File("snapshot-2.vkx"));
+        AssertHoldsTheModel(snapshot, live);
     }
 
     [Theory]
