@@ -26,8 +26,8 @@ namespace VectorKit.Persistence;
 /// <see cref="FullVectorLocation.InIndexMemory"/>). Those distances are the metric's own, the same numbers the float32
 /// segments give, so merging by distance is sound. A base whose distances are code approximations (no re-scoring) is
 /// refused: its errors differ from item to item, so a segment item would be ranked above or below base items by the
-/// codes' error rather than by distance. A base that re-scores from an external source is refused too: a save or merge
-/// could not give the segments' items full vectors the source does not hold.</para>
+/// codes' error rather than by distance. A base that re-scores from an external source is refused too (a save or merge
+/// could not give the segments' items full vectors the source does not hold), and so is an untrained one.</para>
 /// <para><b>Results.</b> Segments are searched exactly; the base as it searches itself, with the caller's
 /// <see cref="SearchOptions"/> (width, re-score depth, filter). So over an approximate base every segment item among
 /// the true best k is returned, and the base's items are found as well as the base finds them. Masked base items are
