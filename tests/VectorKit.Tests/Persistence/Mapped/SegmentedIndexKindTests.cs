@@ -125,6 +125,21 @@ public sealed class SegmentedIndexKindTests : IDisposable
             Assert.True(after >= edited - RecallTolerance, $"recall@{K} {after:F3} after the merge vs {edited:F3} for the base loaded and given the same writes");
         }
 
+        // A merge onto the very file the base is mapped from (the mapping keeps the old contents until the swap).
+        for (int i = 0; i < 5; i++)
+        {
+            long id = 3L * (1200 + i);
+            float[] row = Row(2400 + i);
+            Assert.True(live.Index.AddOrReplace(id, row));
+            live.Model[id] = row;
+            live.Index.Remove(10_200 + i);
+            live.Model.Remove(10_200 + i);
+        }
+
+        await live.Index.MergeAsync(merged);
+        Assert.Equal((0, 0), (live.Index.SegmentCount, live.Index.MaskedCount));
+        AssertHoldsTheModel(live.Index, live);
+
         // A save of the merged state loads as the same items too.
         string saved = _folder.File("saved.vkx");
         live.Index.Save(saved);
