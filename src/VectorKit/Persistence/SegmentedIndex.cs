@@ -19,6 +19,9 @@ namespace VectorKit.Persistence;
 /// new file mapped in place of the old one and the segments it folded in.
 /// </summary>
 /// <remarks>
+/// <para><b>Parts.</b> The base, the sealed segments a running or failed merge froze, and the active segment that
+/// takes writes. Every id is live in at most one part. A search asks each part for its best k (see <b>Results</b>) and
+/// keeps the best k of all, ordered by distance, ties by id.</para>
 /// <para><b>Bases.</b> Any <see cref="ExactIndex"/>, <see cref="GraphIndex"/> or <see cref="InvertedFileIndex"/>
 /// (usually one opened with <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>) whose
 /// searches return full-precision distances: float32 storage, or compressed codes re-scored on full vectors kept in the
