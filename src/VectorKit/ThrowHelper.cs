@@ -12,7 +12,7 @@ internal static class ThrowHelper
     [DoesNotReturn]
     public static void ThrowReadOnlyIndex(string kind)
         => throw new NotSupportedException($"This {kind} reads a mapped index file in place and is read-only; "
-            + (kind == "ExactIndex" ? "wrap it in a SegmentedIndex to add, replace or remove items." : "load the file with IndexFile.Load to add, replace or remove items."));
+            + "wrap it in a SegmentedIndex, or load the file with IndexFile.Load, to add, replace or remove items.");
 
     [DoesNotReturn]
     public static void ThrowArgument(string paramName, string message)

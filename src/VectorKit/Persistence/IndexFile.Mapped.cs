@@ -10,8 +10,9 @@ public static partial class IndexFile
     /// <summary>
     /// Opens a saved index for searching by mapping its file read-only into memory: ids, rows, codes, list contents and
     /// graph links are read in place from the page cache (shared with every process that maps or reads the same file),
-    /// never copied into the process. The returned index is read-only; wrap a mapped exact index in a
-    /// <see cref="SegmentedIndex"/> to take writes.
+    /// never copied into the process. The returned index is read-only; wrap it in a <see cref="SegmentedIndex"/> to take
+    /// writes (any kind whose searches return full-precision distances: float32, or codes re-scored on full vectors kept
+    /// in the file).
     /// </summary>
     /// <param name="path">A file written by <see cref="Save(IVectorIndex, string, CancellationToken)"/>; it must hold exactly one index.</param>
     /// <param name="options">Caps and verification; <see langword="null"/> for <see cref="MappedOpenOptions.Default"/>. Use <see cref="MappedOpenOptions.Untrusted"/> for files from elsewhere.</param>

@@ -143,7 +143,7 @@ internal sealed partial class InvertedFileIndexCodec : IndexCodec
                 writer.BeginSection(SectionId.ListCodes);
                 for (int list = 0; list < parts.ListLengths.Length; list++)
                 {
-                    writer.Write(parts.ListCodes[list].AsSpan(0, checked(parts.ListLengths[list] * codeBytes)));
+                    writer.Write(parts.CodesOf(list)[..checked(parts.ListLengths[list] * codeBytes)]);
                 }
 
                 writer.EndSection();
@@ -394,12 +394,12 @@ internal sealed partial class InvertedFileIndexCodec : IndexCodec
         {
             int length = parts.ListLengths[list];
             int whole = length / FastScanKernel.BlockSize;
-            byte[] blocks = parts.ListCodes[list];
-            writer.Write(blocks.AsSpan(0, whole * blockBytes));
+            ReadOnlySpan<byte> blocks = parts.CodesOf(list);
+            writer.Write(blocks[..(whole * blockBytes)]);
             int rest = length - (whole * FastScanKernel.BlockSize);
             if (rest > 0)
             {
-                blocks.AsSpan(whole * blockBytes, blockBytes).CopyTo(last);
+                blocks.Slice(whole * blockBytes, blockBytes).CopyTo(last);
                 for (int row = 0; row < codeBytes; row++)
                 {
                     last.AsSpan((row * FastScanKernel.BlockSize) + rest, FastScanKernel.BlockSize - rest).Clear();

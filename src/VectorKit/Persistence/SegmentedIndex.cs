@@ -1,26 +1,50 @@
 using System.Buffers;
+using System.IO.Pipelines;
 using System.Runtime.ExceptionServices;
 using VectorKit.Distance;
 using VectorKit.Indexes;
 using VectorKit.Indexes.Exact;
+using VectorKit.Indexes.Graph;
+using VectorKit.Indexes.InvertedFile;
 using VectorKit.Internal;
 
 namespace VectorKit.Persistence;
 
 /// <summary>
-/// A writable exact index over a read-only mapped file: adds and replacements go to an in-memory segment searched
-/// beside the mapped index, removals of mapped items are masked, and results from every part are merged, so searches
-/// return exactly what one in-memory <see cref="ExactIndex"/> holding the same items would. <see cref="Save"/> writes
-/// everything as one new file, atomically; <see cref="MergeAsync"/> does the same in the background and then serves
-/// the new file mapped in place of the old one and the segments it folded in.
+/// A writable index over a read-only mapped file of any kind: adds and replacements go to an in-memory exact segment
+/// searched beside the mapped index (the base), removals of the base's items are masked, and results from every part
+/// are merged by distance, ties by id. Over a float32 exact base, searches return exactly what one in-memory
+/// <see cref="ExactIndex"/> holding the same items would. <see cref="Save"/> writes everything as one new file of the
+/// base's kind and options, atomically; <see cref="MergeAsync"/> does the same in the background and then serves the
+/// new file mapped in place of the old one and the segments it folded in.
 /// </summary>
 /// <remarks>
-/// <para><b>Parts.</b> The base (a float32 <see cref="ExactIndex"/> opened with <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>, or
-/// any float32 exact index), the sealed segments a running or failed merge froze, and the active segment that takes
-/// writes. Every id is live in at most one part. A search asks each part for its best k plus its masked ids (or runs
-/// it with a filter when many of its ids are masked) and keeps the best k of all, ordered by distance, ties by id.</para>
+/// <para><b>Parts.</b> The base, the sealed segments a running or failed merge froze, and the active segment that
+/// takes writes. Every id is live in at most one part. A search asks each part for its best k (see <b>Results</b>) and
+/// keeps the best k of all, ordered by distance, ties by id.</para>
+/// <para><b>Bases.</b> Any <see cref="ExactIndex"/>, <see cref="GraphIndex"/> or <see cref="InvertedFileIndex"/>
+/// (usually one opened with <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>) whose
+/// searches return full-precision distances: float32 storage, or compressed codes re-scored on full vectors kept in the
+/// index (a positive <see cref="VectorIndexOptions.RescoreDepth"/>, full vectors
+/// <see cref="FullVectorLocation.InIndexMemory"/>). Those distances are the metric's own, the same numbers the float32
+/// segments give, so merging by distance is sound. A base whose distances are code approximations (no re-scoring) is
+/// refused: its errors differ from item to item, so a segment item would be ranked above or below base items by the
+/// codes' error rather than by distance. A base that re-scores from an external source is refused too (a save or merge
+/// could not give the segments' items full vectors the source does not hold), and so is an untrained one.</para>
+/// <para><b>Results.</b> Segments are searched exactly; the base as it searches itself, with the caller's
+/// <see cref="SearchOptions"/> (width, re-score depth, filter). So over an approximate base every segment item among
+/// the true best k is returned, and the base's items are found as well as the base finds them. Masked base items are
+/// passed to an approximate base as a filter (its walk or probes stay as wide as asked); from an exhaustive float32
+/// exact part, the best k + masked are asked for unless many ids are masked.</para>
+/// <para><b>Saving.</b> Over a float32 exact base the live rows of every part are streamed into the new file. Over
+/// any other base, a save or merge loads a full copy of the base into memory (read from the base itself), removes the
+/// masked ids from it, adds the segments' items (coded with the base's training; graph items linked as adds link
+/// them), and saves it with the base's options and tuned defaults. Removed graph items stay in the new file as removed
+/// slots, as after the graph's own removals, until the graph is compacted. Under the cosine metric the segments' rows,
+/// already normalised, are normalised again when added, which may change their last bit.</para>
 /// <para><b>Costs.</b> Masked ids and the segments live in memory until a merge folds them into a new file. A save or
-/// merge sorts the ids it writes (12 bytes per item of temporary memory).</para>
+/// merge over a float32 exact base sorts the ids it writes (12 bytes per item of temporary memory); over any other
+/// base it holds the base's full in-memory copy until the new file is written.</para>
 /// <para><b>Thread safety.</b> All members are thread-safe. Searches run concurrently with each other and with saves
 /// and merges; writes are exclusive and wait for a save. A merge writes its file without blocking searches or writes,
 /// then swaps the new base in under a short exclusive lock. One merge runs at a time.</para>
@@ -36,38 +60,43 @@ public sealed class SegmentedIndex : IVectorIndex
     private readonly SemaphoreSlim _gate = new(1, 1);
     private readonly List<Segment> _sealed = [];
     private readonly CancellationTokenSource _disposing = new();
-    private ExactIndex _base;
+    private VectorIndex _base;
     private HashSet<long> _baseMasked = [];
     private ExactIndex _active;
     private Task? _merge;
     private bool _disposed;
 
     /// <summary>Wraps <paramref name="baseIndex"/>, taking ownership of it (it is disposed with this index, or when a merge replaces it).</summary>
-    /// <param name="baseIndex">A float32 exact index, usually one opened with <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>; it is never written to.</param>
+    /// <param name="baseIndex">
+    /// An exact, graph or inverted-file index, usually one opened with
+    /// <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>; it is never written to. Its
+    /// searches must return full-precision distances: float32 storage, or codes re-scored on full vectors kept in the
+    /// index (see the remarks on <see cref="SegmentedIndex"/>).
+    /// </param>
     /// <exception cref="ArgumentNullException"><paramref name="baseIndex"/> is null.</exception>
-    /// <exception cref="ArgumentException">The base stores 8-bit codes (segments hold float32 rows, and the merged results must be exact distances on both sides).</exception>
-    public SegmentedIndex(ExactIndex baseIndex)
+    /// <exception cref="ArgumentException">
+    /// The base is not trained (a merge adds the segments' items with its training), stores codes without re-scoring (its distances are the codes' approximations, which cannot be merged
+    /// with a float32 segment's exact distances), its tuned defaults turn re-scoring off, or it re-scores from an
+    /// external full-vector source (the segments' items could not be saved with full vectors).
+    /// </exception>
+    public SegmentedIndex(VectorIndex baseIndex)
     {
         ArgumentNullException.ThrowIfNull(baseIndex);
-        if (baseIndex.Options.Encoding != VectorEncoding.Float32)
-        {
-            ThrowHelper.ThrowArgument(nameof(baseIndex), $"A segmented index needs a float32 exact base; this one stores {baseIndex.Options.Encoding} codes, whose distances cannot be merged exactly with a float32 segment's.");
-        }
-
+        CheckBase(baseIndex);
         _base = baseIndex;
         _active = new ExactIndex(baseIndex.Dimension, baseIndex.Metric);
     }
 
     /// <summary>Opens <paramref name="path"/> mapped (<see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>) and wraps it.</summary>
-    /// <param name="path">A float32 exact index file.</param>
+    /// <param name="path">An exact, graph or inverted-file index file whose index the constructor accepts.</param>
     /// <param name="options">As for <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>.</param>
     /// <returns>The segmented index; the caller owns (and disposes) it.</returns>
     /// <exception cref="IndexFileException">As for <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>.</exception>
-    /// <exception cref="NotSupportedException">The file holds another kind of index.</exception>
-    /// <exception cref="ArgumentException">The file's exact index stores 8-bit codes.</exception>
+    /// <exception cref="NotSupportedException">As for <see cref="IndexFile.OpenMapped(string, MappedOpenOptions?, CancellationToken)"/>.</exception>
+    /// <exception cref="ArgumentException">The file's index is not trained, stores codes without re-scoring, or re-scores from an external source (see <see cref="SegmentedIndex(VectorIndex)"/>).</exception>
     public static SegmentedIndex Open(string path, MappedOpenOptions? options = null)
     {
-        ExactIndex mapped = IndexFile.OpenMapped<ExactIndex>(path, options);
+        var mapped = (VectorIndex)IndexFile.OpenMapped(path, options);
         try
         {
             return new SegmentedIndex(mapped);
@@ -85,8 +114,8 @@ public sealed class SegmentedIndex : IVectorIndex
     /// <inheritdoc/>
     public DistanceMetric Metric => _active.Metric;
 
-    /// <inheritdoc/>
-    public VectorIndexOptions Options => _active.Options;
+    /// <summary>The base's options: the kind and settings a save or merge writes (the segments hold float32 rows whatever they say).</summary>
+    public VectorIndexOptions Options => ((IVectorIndex)Volatile.Read(ref _base)).Options;
 
     /// <inheritdoc/>
     public int Count
@@ -154,8 +183,8 @@ public sealed class SegmentedIndex : IVectorIndex
         }
     }
 
-    /// <inheritdoc/>
-    public int CodeBytesPerVector => Dimension * sizeof(float);
+    /// <summary>The base's bytes per stored vector (what each item costs once merged into the file); an item in a segment costs 4 × <see cref="Dimension"/>.</summary>
+    public int CodeBytesPerVector => Volatile.Read(ref _base).CodeBytesPerVector;
 
     /// <inheritdoc/>
     public bool Contains(long id)
@@ -171,7 +200,7 @@ public sealed class SegmentedIndex : IVectorIndex
         VectorChecks.CheckVectorDestination(destination, Dimension);
         using var read = _lock.EnterRead();
         ThrowIfDisposed();
-        return Locate(id) is ExactIndex part && part.TryGetVector(id, destination);
+        return Locate(id) is VectorIndex part && part.TryGetVector(id, destination);
     }
 
     /// <inheritdoc/>
@@ -287,7 +316,12 @@ public sealed class SegmentedIndex : IVectorIndex
     }
 
     /// <inheritdoc/>
-    /// <remarks>Exact: the best k of all parts' live items, the same ids and distances (bit for bit) one <see cref="ExactIndex"/> holding the same items returns.</remarks>
+    /// <remarks>
+    /// The best k of all parts' results. Over a float32 exact base this is exact: the same ids and distances (bit for
+    /// bit) one <see cref="ExactIndex"/> holding the same items returns. Over an approximate base, the base is searched
+    /// with <paramref name="options"/> as it searches itself (masked items filtered out) and the segments exactly.
+    /// </remarks>
+    /// <exception cref="ArgumentException"><paramref name="options"/> sets <see cref="SearchOptions.RescoreDepth"/> to 0 over a base that stores codes (its distances would be the codes' approximations).</exception>
     public int Search(ReadOnlySpan<float> query, Span<SearchHit> destination, SearchOptions? options = null)
     {
         VectorChecks.CheckResultDestination(destination);
@@ -295,6 +329,7 @@ public sealed class SegmentedIndex : IVectorIndex
         int k = destination.Length;
         using var read = _lock.EnterRead();
         ThrowIfDisposed();
+        CheckSearchOptions(_base, options);
 
         // The active segment validates (and under cosine normalises) the query exactly as one exact index would.
         int found = _active.Search(query, destination, options);
@@ -322,10 +357,12 @@ public sealed class SegmentedIndex : IVectorIndex
 
     /// <inheritdoc/>
     /// <remarks>Each query runs <see cref="Search"/> (so a batch returns exactly what single searches return), queries in parallel up to <see cref="SearchOptions.MaxDegreeOfParallelism"/>.</remarks>
+    /// <exception cref="ArgumentException"><paramref name="options"/> sets <see cref="SearchOptions.RescoreDepth"/> to 0 over a base that stores codes.</exception>
     public BatchSearchResults SearchBatch(ReadOnlySpan<float> queries, int k, SearchOptions? options = null, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
         VectorChecks.CheckBatchQueries(queries, k, Dimension, Metric, out int queryCount);
         options ??= SearchOptions.Default;
+        CheckSearchOptions(Volatile.Read(ref _base), options);
         BatchSearchResults results = BatchSearch.CreateResults(queryCount, k, Count);
         if (queryCount == 0)
         {
@@ -356,11 +393,14 @@ public sealed class SegmentedIndex : IVectorIndex
         return results;
     }
 
-    /// <summary>Writes every live item as one float32 exact index file (format version 3), atomically, as <see cref="IndexFile.Save(IVectorIndex, string, CancellationToken)"/> does.</summary>
+    /// <summary>
+    /// Writes every live item as one index file of the base's kind and options (for a float32 exact base, a float32 exact
+    /// index file of format version 3), atomically, as <see cref="IndexFile.Save(IVectorIndex, string, CancellationToken)"/> does.
+    /// </summary>
     /// <param name="path">The file to create or replace; it may be the file the base is mapped from (the mapping keeps the old contents).</param>
-    /// <param name="progress">Rows written so far.</param>
+    /// <param name="progress">Items written so far (over a base other than float32 exact: items of the copy so far, the base's live ones first).</param>
     /// <param name="cancellationToken">Checked between blocks; a cancelled save leaves the previous file as it was.</param>
-    /// <remarks>Searches proceed during the save; writes wait for it.</remarks>
+    /// <remarks>Searches proceed during the save; writes wait for it. Over a base other than float32 exact, the base is copied into memory first (see the remarks on <see cref="SegmentedIndex"/>).</remarks>
     /// <exception cref="ArgumentNullException"><paramref name="path"/> is null.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     /// <exception cref="OperationCanceledException">The token was cancelled.</exception>
@@ -370,7 +410,7 @@ public sealed class SegmentedIndex : IVectorIndex
         ArgumentException.ThrowIfNullOrEmpty(path);
         using var gate = _gate.EnterScope(cancellationToken);
         ThrowIfDisposed();
-        List<ExactIndexCodec.Layer> layers = [new(_base, _baseMasked)];
+        List<Layer> layers = [new(_base, _baseMasked)];
         foreach (Segment segment in _sealed)
         {
             layers.Add(new(segment.Index, segment.Masked));
@@ -381,14 +421,15 @@ public sealed class SegmentedIndex : IVectorIndex
     }
 
     /// <summary>
-    /// Folds the base and the segments into a new file at <paramref name="path"/> in the background, then maps that file
-    /// as the new base and drops what it folded in. Searches and writes go on meanwhile: writes made during the merge
-    /// land in a new active segment, and removals of folded items are masked in the new base.
+    /// Folds the base and the segments into a new file of the base's kind and options at <paramref name="path"/> in the
+    /// background, then maps that file as the new base and drops what it folded in. Searches and writes go on
+    /// meanwhile: writes made during the merge land in a new active segment, and removals of folded items are masked in
+    /// the new base.
     /// </summary>
     /// <param name="path">The file to write (atomically); it may be the file the base is mapped from.</param>
-    /// <param name="progress">Rows written so far.</param>
+    /// <param name="progress">Items written so far, as for <see cref="Save"/>.</param>
     /// <param name="cancellationToken">Cancels the merge; the index then stays as it was (the frozen segment is kept and searched, and the next merge folds it in).</param>
-    /// <returns>A task that completes when the new base is in use.</returns>
+    /// <returns>A task that completes when the new base is in use; it fails as <see cref="Save"/> does, or with the new file's mapped open, leaving the index as it was.</returns>
     /// <exception cref="InvalidOperationException">Another merge is running.</exception>
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public Task MergeAsync(string path, IProgress<int>? progress = null, CancellationToken cancellationToken = default)
@@ -411,10 +452,10 @@ public sealed class SegmentedIndex : IVectorIndex
             }
         }
 
-        ExactIndex oldBase = _base;
+        VectorIndex oldBase = _base;
         var baseMaskedAtFreeze = new HashSet<long>(_baseMasked);
         var folded = _sealed.Select(s => (Segment: s, MaskedAtFreeze: new HashSet<long>(s.Masked))).ToList();
-        List<ExactIndexCodec.Layer> layers = [new(oldBase, baseMaskedAtFreeze), .. folded.Select(f => new ExactIndexCodec.Layer(f.Segment.Index, f.MaskedAtFreeze))];
+        List<Layer> layers = [new(oldBase, baseMaskedAtFreeze), .. folded.Select(f => new Layer(f.Segment.Index, f.MaskedAtFreeze))];
         var linked = CancellationTokenSource.CreateLinkedTokenSource(cancellationToken, _disposing.Token);
         Task merge = Task.Run(
             () =>
@@ -422,7 +463,7 @@ public sealed class SegmentedIndex : IVectorIndex
                 try
                 {
                     WriteFile(path, layers, progress, linked.Token);
-                    ExactIndex merged = IndexFile.OpenMapped<ExactIndex>(path, cancellationToken: linked.Token);
+                    var merged = (VectorIndex)IndexFile.OpenMapped(path, cancellationToken: linked.Token);
                     SwapIn(merged, oldBase, baseMaskedAtFreeze, folded);
                 }
                 finally
@@ -479,17 +520,105 @@ public sealed class SegmentedIndex : IVectorIndex
         }
     }
 
-    private static void WriteFile(string path, List<ExactIndexCodec.Layer> layers, IProgress<int>? progress, CancellationToken cancellationToken)
+    // A float32 exact base streams every layer's live rows into the file; any other base is copied, changed and saved.
+    private static void WriteFile(string path, List<Layer> layers, IProgress<int>? progress, CancellationToken cancellationToken)
     {
-        ExactIndex first = layers[0].Index;
-        using DurableFile file = DurableFile.Begin(path, nameof(path), "save the segmented index to");
-        file.Write(stream => ExactIndexCodec.WriteLayers(stream, first.Dimension, first.Metric, layers, progress, cancellationToken));
-        file.Commit(cancellationToken);
+        VectorIndex first = layers[0].Index;
+        if (first is ExactIndex { Options.Encoding: VectorEncoding.Float32 })
+        {
+            var exact = layers.ConvertAll(l => new ExactIndexCodec.Layer((ExactIndex)l.Index, l.Masked));
+            using DurableFile file = DurableFile.Begin(path, nameof(path), "save the segmented index to");
+            file.Write(stream => ExactIndexCodec.WriteLayers(stream, first.Dimension, first.Metric, exact, progress, cancellationToken));
+            file.Commit(cancellationToken);
+            return;
+        }
+
+        using VectorIndex copy = CopyOf(first, cancellationToken);
+        if (layers[0].Masked is { Count: > 0 } masked)
+        {
+            copy.RemoveRange(masked.ToArray());
+        }
+
+        int done = copy.Count;
+        progress?.Report(done);
+        for (int i = 1; i < layers.Count; i++)
+        {
+            done = AddLiveRows(copy, layers[i], done, progress, cancellationToken);
+        }
+
+        IndexFile.Save(copy, path, cancellationToken);
+    }
+
+    // A writable in-memory copy of the base, with its options, training and tuned defaults: the base saved into a pipe
+    // that a load reads from, so no second copy of its bytes is held and a mapped base is read in place.
+    private static VectorIndex CopyOf(VectorIndex source, CancellationToken cancellationToken)
+    {
+        var pipe = new Pipe(new PipeOptions(pauseWriterThreshold: 4 << 20, resumeWriterThreshold: 2 << 20, useSynchronizationContext: false));
+        Task writer = Task.Run(
+            () =>
+            {
+                try
+                {
+                    IndexFile.Save(source, pipe.Writer.AsStream(leaveOpen: true), cancellationToken);
+                    pipe.Writer.Complete();
+                }
+                catch (Exception e)
+                {
+                    // The reader then fails with this exception instead of waiting for bytes that never come.
+                    pipe.Writer.Complete(e);
+                }
+            },
+            CancellationToken.None);
+        try
+        {
+            return (VectorIndex)IndexFile.Load(pipe.Reader.AsStream(leaveOpen: true), cancellationToken: cancellationToken);
+        }
+        finally
+        {
+            // A failed load leaves the writer's flushes returning at once, so it ends before the base can be disposed.
+            pipe.Reader.Complete();
+            writer.GetAwaiter().GetResult();
+        }
+    }
+
+    // Adds a segment's live rows to the copy in blocks (bounded temporary memory, cancellation between blocks).
+    private static int AddLiveRows(VectorIndex copy, Layer layer, int done, IProgress<int>? progress, CancellationToken cancellationToken)
+    {
+        const int BlockRows = 4096;
+        int d = copy.Dimension;
+        var ids = new List<long>(BlockRows);
+        float[] rows = new float[BlockRows * d];
+        foreach (long id in layer.Index.GetIds())
+        {
+            if (layer.Masked is not null && layer.Masked.Contains(id))
+            {
+                continue;
+            }
+
+            layer.Index.TryGetVector(id, rows.AsSpan(ids.Count * d, d));
+            ids.Add(id);
+            if (ids.Count == BlockRows)
+            {
+                done = AddBlock(copy, ids, rows, done, progress, cancellationToken);
+            }
+        }
+
+        return ids.Count > 0 ? AddBlock(copy, ids, rows, done, progress, cancellationToken) : done;
+    }
+
+    private static int AddBlock(VectorIndex copy, List<long> ids, float[] rows, int done, IProgress<int>? progress, CancellationToken cancellationToken)
+    {
+        int n = ids.Count;
+        copy.AddRange(ids.ToArray(), rows.AsSpan(0, n * copy.Dimension), null, cancellationToken);
+        ids.Clear();
+        done += n;
+        progress?.Report(done);
+        return done;
     }
 
     // The short exclusive step of a merge: the new base replaces the old one and the folded segments; what was removed
     // from them during the merge is masked in the new base.
-    private void SwapIn(ExactIndex merged, ExactIndex oldBase, HashSet<long> baseMaskedAtFreeze, List<(Segment Segment, HashSet<long> MaskedAtFreeze)> folded)
+    private void SwapIn(VectorIndex merged, VectorIndex oldBase, HashSet<long> baseMaskedAtFreeze, List<(Segment Segment, HashSet<long> MaskedAtFreeze)> folded)
     {
         using var gate = _gate.EnterScope(CancellationToken.None);
         using var write = _lock.EnterWrite();
@@ -520,8 +649,47 @@ public sealed class SegmentedIndex : IVectorIndex
         oldBase.Dispose();
     }
 
+    // A base whose distances can be merged with a float32 segment's (see the class remarks).
+    private static void CheckBase(VectorIndex baseIndex)
+    {
+        VectorIndexOptions options = ((IVectorIndex)baseIndex).Options;
+        string kind = baseIndex.GetType().Name;
+        if (!baseIndex.IsTrained)
+        {
+            ThrowHelper.ThrowArgument(nameof(baseIndex), $"A segmented index needs a trained base; this {kind} is not trained, so a merge could not add the segments' items to it. Train it and save it before opening it.");
+        }
+
+        if (options.Encoding == VectorEncoding.Float32)
+        {
+            return;
+        }
+
+        if (options.RescoreDepth == 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(baseIndex), $"A segmented index needs a base whose searches return full-precision distances; this {kind} stores {options.Encoding} codes without re-scoring, so its distances are the codes' approximations and cannot be merged with a float32 segment's.");
+        }
+
+        if (baseIndex.TunedDefaults?.RescoreDepth == 0)
+        {
+            ThrowHelper.ThrowArgument(nameof(baseIndex), $"A segmented index needs a base whose searches return full-precision distances; this {kind}'s tuned defaults turn re-scoring off, so its distances would be the codes' approximations.");
+        }
+
+        if (options.FullVectors == FullVectorLocation.ExternalSource)
+        {
+            ThrowHelper.ThrowArgument(nameof(baseIndex), $"A segmented index needs a base that keeps its full vectors in the index; this {kind} re-scores from an external source, which could not take the segments' items when they are saved into the base's kind.");
+        }
+    }
+
+    private static void CheckSearchOptions(VectorIndex baseIndex, SearchOptions options)
+    {
+        if (options.RescoreDepth == 0 && ((IVectorIndex)baseIndex).Options.Encoding != VectorEncoding.Float32)
+        {
+            ThrowHelper.ThrowArgument(nameof(options), $"RescoreDepth 0 turns re-scoring off, so this segmented index's {baseIndex.GetType().Name} base would return its codes' approximate distances, which cannot be merged with the segments' exact ones; leave it null or set it positive.");
+        }
+    }
+
     // The part holding id live, or null; caller holds the lock.
-    private ExactIndex? Locate(long id)
+    private VectorIndex? Locate(long id)
     {
         if (_active.Contains(id))
         {
@@ -531,7 +699,7 @@ public sealed class SegmentedIndex : IVectorIndex
         return LocateBelowActive(id);
     }
 
-    private ExactIndex? LocateBelowActive(long id)
+    private VectorIndex? LocateBelowActive(long id)
     {
         for (int i = _sealed.Count - 1; i >= 0; i--)
         {
@@ -562,7 +730,7 @@ public sealed class SegmentedIndex : IVectorIndex
     }
 
     // Searches one part below the active segment and merges its live hits into destination[..found] (best first).
-    private static int MergePart(ExactIndex part, HashSet<long> masked, ReadOnlySpan<float> query, Span<SearchHit> destination, int found, SearchOptions options, SearchHit[] scratch)
+    private static int MergePart(VectorIndex part, HashSet<long> masked, ReadOnlySpan<float> query, Span<SearchHit> destination, int found, SearchOptions options, SearchHit[] scratch)
     {
         int k = destination.Length;
         int live = part.Count - masked.Count;
@@ -571,9 +739,12 @@ public sealed class SegmentedIndex : IVectorIndex
             return found;
         }
 
+        // Asking a float32 exact scan for more results changes nothing but their number; an approximate base asked for
+        // more would search wider than the caller set, so it gets the mask as a filter instead.
+        bool exhaustive = part is ExactIndex { Options.Encoding: VectorEncoding.Float32 };
         Span<SearchHit> hits;
         int got;
-        if (masked.Count == 0 || masked.Count > OverfetchLimit)
+        if (masked.Count == 0 || masked.Count > OverfetchLimit || !exhaustive)
         {
             SearchOptions run = masked.Count == 0 ? options : WithMask(options, masked);
             hits = scratch.AsSpan(0, k);
@@ -637,7 +808,7 @@ public sealed class SegmentedIndex : IVectorIndex
         };
     }
 
-    private static void AddLive(List<long> ids, ExactIndex part, HashSet<long> masked)
+    private static void AddLive(List<long> ids, VectorIndex part, HashSet<long> masked)
     {
         foreach (long id in part.GetIds())
         {
@@ -652,4 +823,7 @@ public sealed class SegmentedIndex : IVectorIndex
 
     /// <summary>A sealed segment: an in-memory exact index no longer written to, and its ids removed or replaced since.</summary>
     private sealed record Segment(ExactIndex Index, HashSet<long> Masked);
+
+    /// <summary>One part as a save or merge writes it: an index that stays still meanwhile, and its ids not to be written.</summary>
+    private readonly record struct Layer(VectorIndex Index, IReadOnlySet<long>? Masked);
 }

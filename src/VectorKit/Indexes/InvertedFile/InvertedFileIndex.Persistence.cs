@@ -14,7 +14,7 @@ public sealed partial class InvertedFileIndex
     /// <summary>
     /// Runs <paramref name="export"/> on the primary state while holding the writer gate exclusively: searches proceed
     /// (and never queue behind it), changes wait. Ids and list lengths are copies; list codes and full vectors are the
-    /// live storage and must not be modified.
+    /// live storage (a mapped index's lists are read in place) and must not be modified.
     /// </summary>
     internal T ExportParts<T>(Func<InvertedFileIndexParts, T> export)
     {
@@ -28,13 +28,14 @@ public sealed partial class InvertedFileIndex
             int at = 0;
             for (int list = 0; list < lists; list++)
             {
+                // Mapped, a slot is the entry's number in list order, which is also its full vector's row.
                 int[] slots = _listSlots[list];
                 for (int p = 0; p < _listCounts[list]; p++)
                 {
-                    ids[at] = _ids[slots[p]];
+                    ids[at] = EntryId(list, slots, p);
                     if (order is not null)
                     {
-                        order[at] = slots[p];
+                        order[at] = _mapped is null ? slots[p] : at;
                     }
 
                     at++;
@@ -57,7 +58,8 @@ public sealed partial class InvertedFileIndex
                     : _fourBit is { IsRotated: true } ? _fourBit.Rotation.ToArray() : null,
                 ScalarRanges = ranges,
                 ListLengths = (int[])_listCounts.Clone(),
-                ListCodes = _listCodes,
+                ListCodes = _mapped is null ? _listCodes : [],
+                MappedCodes = _mapped,
                 ListCodesPacked = _fourBit is not null,
                 Ids = ids,
                 FullVectors = _full,

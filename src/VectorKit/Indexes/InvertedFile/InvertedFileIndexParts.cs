@@ -46,11 +46,17 @@ internal sealed class InvertedFileIndexParts
     /// </summary>
     public required byte[][] ListCodes { get; init; }
 
+    /// <summary>On export from a mapped index, its lists read in place (<see cref="ListCodes"/> is then empty); else <see langword="null"/>.</summary>
+    public MappedLists? MappedCodes { get; init; }
+
     /// <summary>
     /// Whether <see cref="ListCodes"/> holds fast-scan blocks (always on export under the fast-scan layout; on load from
     /// a file of format version 4) rather than codes one after another (older fast-scan files, which a load packs).
     /// </summary>
     public bool ListCodesPacked { get; init; }
+
+    /// <summary>The codes (or fast-scan blocks) of <paramref name="list"/>, from <see cref="ListCodes"/> or the mapped lists.</summary>
+    public ReadOnlySpan<byte> CodesOf(int list) => MappedCodes is { } mapped ? mapped.Codes(list) : ListCodes[list];
 
     /// <summary><see cref="VectorIndex.Count"/> ids in list order.</summary>
     public required long[] Ids { get; init; }

@@ -28,7 +28,7 @@ public abstract class MappedContract<TVariant> : SearchContractTests
     protected override SearchOptions WideSearch => _variant.Facts.WideSearch;
 
     // The rows are the file's pages: the process holds only the small tables.
-    private protected override bool CountsStoredRows => false;
+    private protected override bool? CountsStoredRows => false;
 
     protected override IVectorIndex Create(int dimension, DistanceMetric metric)
     {

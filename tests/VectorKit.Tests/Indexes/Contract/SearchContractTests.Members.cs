@@ -22,11 +22,11 @@ public abstract partial class SearchContractTests
         using Filled filled = Fill(metric, 700);
         IVectorIndex index = filled.Index;
         Assert.Equal(700, index.Count);
-        if (CountsStoredRows)
+        if (CountsStoredRows == true)
         {
             Assert.True(index.MemoryBytes >= emptyBytes + (700L * index.CodeBytesPerVector), $"700 items take {index.MemoryBytes} bytes, the empty index {emptyBytes}, codes {index.CodeBytesPerVector} each");
         }
-        else
+        else if (CountsStoredRows == false)
         {
             Assert.True(index.MemoryBytes - emptyBytes < 700L * index.CodeBytesPerVector, $"700 items mapped take {index.MemoryBytes} bytes of the process, the empty index {emptyBytes}, codes {index.CodeBytesPerVector} each: rows were copied");
         }

@@ -75,8 +75,12 @@ public abstract partial class SearchContractTests
     /// <summary>Checks that <paramref name="index"/> reports the options its factory gave (see <see cref="Given{T}"/>).</summary>
     private protected virtual void AssertOptions(IVectorIndex index) => Assert.Same(GivenOptions, index.Options);
 
-    /// <summary>Whether <see cref="IVectorIndex.MemoryBytes"/> counts the stored rows (not for a mapped index, whose rows are the file's pages).</summary>
-    private protected virtual bool CountsStoredRows => true;
+    /// <summary>
+    /// Whether <see cref="IVectorIndex.MemoryBytes"/> counts the stored rows (not for a mapped index, whose rows are the
+    /// file's pages); <see langword="null"/> when some rows are mapped and some in memory (a segmented index), which
+    /// bounds it neither way.
+    /// </summary>
+    private protected virtual bool? CountsStoredRows => true;
 
     /// <summary>Records the options a factory hands its index, for the <see cref="IVectorIndex.Options"/> check.</summary>
     protected T Given<T>(T options)

@@ -132,7 +132,7 @@ public sealed class MappedGraphTests : IDisposable
         using GraphIndex mapped = IndexFile.OpenMapped<GraphIndex>(_folder.File("ro.vkx"));
         float[] row = [0.1f, 0.2f, 0.3f, 0.4f];
         long present = saved.GetIds()[0];
-        MappedChecks.AssertWritesRefused(mapped, present, row, row, "This GraphIndex reads a mapped index file in place and is read-only; load the file with IndexFile.Load to add, replace or remove items.");
+        MappedChecks.AssertWritesRefused(mapped, present, row, row, "This GraphIndex reads a mapped index file in place and is read-only; wrap it in a SegmentedIndex, or load the file with IndexFile.Load, to add, replace or remove items.");
 
         Assert.Equal(saved.GetIds(), mapped.GetIds());
         Assert.Equal(saved.Search(row, 5), mapped.Search(row, 5));

@@ -55,6 +55,24 @@ public sealed class MappedInvertedFileTests : IDisposable
         }
     }
 
+    // Saving a mapped inverted file once failed (its lists were read as if they were in memory).
+    [Theory]
+    [MemberData(nameof(Variants))]
+    public void AMappedInvertedFileSavedAgain_GivesTheSameFile(string variant)
+    {
+        using (InvertedFileIndex saved = Build(variant, count: 300, seed: 4))
+        {
+            IndexFile.Save(saved, _folder.File("a.vkx"));
+        }
+
+        using (var mapped = (InvertedFileIndex)IndexFile.OpenMapped(_folder.File("a.vkx")))
+        {
+            IndexFile.Save(mapped, _folder.File("b.vkx"));
+        }
+
+        Assert.Equal(File.ReadAllBytes(_folder.File("a.vkx")), File.ReadAllBytes(_folder.File("b.vkx")));
+    }
+
     [Property(MaxTest = 25)]
     public void AnySavedInvertedFile_OpensMappedToTheSameAnswers(NonNegativeInt variantPick, NonNegativeInt countPick, int seed)
     {
@@ -96,7 +114,7 @@ public sealed class MappedInvertedFileTests : IDisposable
         using var mapped = IndexFile.OpenMapped<InvertedFileIndex>(_folder.File("ro.vkx"));
         float[] row = Data(1, 9);
         long present = saved.GetIds()[0];
-        MappedChecks.AssertWritesRefused(mapped, present, row, Data(64, 4), "This InvertedFileIndex reads a mapped index file in place and is read-only; load the file with IndexFile.Load to add, replace or remove items.");
+        MappedChecks.AssertWritesRefused(mapped, present, row, Data(64, 4), "This InvertedFileIndex reads a mapped index file in place and is read-only; wrap it in a SegmentedIndex, or load the file with IndexFile.Load, to add, replace or remove items.");
 
         AssertSame(saved, mapped);
     }

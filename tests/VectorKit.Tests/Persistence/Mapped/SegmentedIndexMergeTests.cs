@@ -9,7 +9,7 @@ namespace VectorKit.Tests.Persistence.Mapped;
 
 /// <summary>
 /// Background merges of a <see cref="SegmentedIndex"/>: writes and searches during a merge, cancellation, progress,
-/// one merge at a time, and an 8-bit base refused.
+/// one merge at a time, and an 8-bit base without re-scoring refused.
 /// </summary>
 public sealed class SegmentedIndexMergeTests : IDisposable
 {
@@ -102,23 +102,34 @@ public sealed class SegmentedIndexMergeTests : IDisposable
     [Fact]
     public async Task OneMergeAtATime_AndAnEightBitBaseIsRefused()
     {
-        (SegmentedIndex segmented, ExactIndex reference) = Start(count: 50_000);
+        (SegmentedIndex segmented, ExactIndex reference) = Start(count: 5000);
         using (segmented)
         using (reference)
         {
-            Task first = segmented.MergeAsync(_folder.File("one.vkx"));
-            if (!first.IsCompleted)
+            // The first merge waits in its first progress report until the second has been refused (it used to be
+            // raced against the clock, and a quick first merge let the second one start).
+            using var reported = new ManualResetEventSlim();
+            using var release = new ManualResetEventSlim();
+            Task first = segmented.MergeAsync(_folder.File("one.vkx"), new BlockingProgress(reported, release));
+            try
             {
+                Assert.True(reported.Wait(TimeSpan.FromMinutes(1)), "the first merge reports progress");
+                Assert.True(segmented.IsMerging);
                 InvalidOperationException e = await Assert.ThrowsAsync<InvalidOperationException>(() => segmented.MergeAsync(_folder.File("two.vkx")));
                 Assert.Equal("A merge is already running on this index; wait for it before starting another.", e.Message);
             }
+            finally
+            {
+                release.Set();
+            }
 
             await first;
+            Assert.False(File.Exists(_folder.File("two.vkx")));
         }
 
         using ExactIndex codes = PersistenceSamples.ExactScalar();
         ArgumentException refused = Assert.Throws<ArgumentException>(() => new SegmentedIndex(codes));
-        Assert.StartsWith("A segmented index needs a float32 exact base; this one stores Scalar8Bit codes", refused.Message, StringComparison.Ordinal);
+        Assert.StartsWith("A segmented index needs a base whose searches return full-precision distances; this ExactIndex stores Scalar8Bit codes without re-scoring", refused.Message, StringComparison.Ordinal);
     }
 
     [Fact]
@@ -190,6 +201,19 @@ public sealed class SegmentedIndexMergeTests : IDisposable
         reference.AddRange(ids, data);
         IndexFile.Save(reference, path);
         return (SegmentedIndex.Open(path), reference);
+    }
+
+    // Signals its first report and holds the reporting (merging) thread there until released.
+    private sealed class BlockingProgress(ManualResetEventSlim reported, ManualResetEventSlim release) : IProgress<int>
+    {
+        public void Report(int value)
+        {
+            if (!reported.IsSet)
+            {
+                reported.Set();
+                release.Wait();
+            }
+        }
     }
 
     private sealed class CancellingProgress(CancellationTokenSource cancel, int after) : IProgress<int>
