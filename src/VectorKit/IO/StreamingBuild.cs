@@ -135,6 +135,8 @@ public static class StreamingBuild
                     throw new ArgumentException($"Training on {trainingRows} rows of '{path}' failed: {e.Message}", nameof(path), e);
                 }
 
+                // The sample also tells where the rows will fall: kinds with lists size them once for the whole load.
+                index.PrepareBulkLoad(sample, count - index.Count, cancellationToken);
                 budget.Release(trainingRows);
                 progress?.Report(new StreamingBuildProgress(StreamingBuildStage.Training, 1, 1));
             }

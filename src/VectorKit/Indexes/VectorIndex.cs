@@ -518,6 +518,32 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     }
 
     /// <summary>
+    /// Before a bulk load of <paramref name="added"/> rows (a streamed build, right after training on
+    /// <paramref name="sample"/>, rows drawn from the same file): kinds that store per-list data reserve their rows and
+    /// id map once and size their lists from where the sample falls, instead of growing them batch after batch. Only a
+    /// hint; the load adds its rows as usual.
+    /// </summary>
+    internal void PrepareBulkLoad(ReadOnlySpan<float> sample, long added, CancellationToken cancellationToken)
+    {
+        if (!SizesStorageFromSample || added <= 0 || sample.IsEmpty)
+        {
+            return;
+        }
+
+        int rows = (int)Math.Min(added, Array.MaxLength - Count);
+        ReserveRows(rows);
+        ReserveFromSample(sample, rows, cancellationToken);
+    }
+
+    /// <summary>Whether <see cref="PrepareBulkLoad"/> applies to this kind.</summary>
+    private protected virtual bool SizesStorageFromSample => false;
+
+    /// <summary>For <see cref="PrepareBulkLoad"/>: sizes the kind's own storage for <paramref name="added"/> rows distributed as <paramref name="sample"/> is.</summary>
+    private protected virtual void ReserveFromSample(ReadOnlySpan<float> sample, int added, CancellationToken cancellationToken)
+    {
+    }
+
+    /// <summary>
     /// For <see cref="ReserveRows"/>, with the writer gate held exclusively: copies the kind's rows into storage with
     /// room for <paramref name="added"/> more, beside searches, and swaps it in under a short write lock, together with
     /// <paramref name="slotOf"/> when given (the grown id map). False when the rows have room (or cannot grow further):

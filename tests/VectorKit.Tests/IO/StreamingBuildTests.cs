@@ -147,6 +147,43 @@ public sealed class StreamingBuildTests : IDisposable
         Assert.Equal(new SearchHit(4321, 0f), single[0]);
     }
 
+    [Theory]
+    [InlineData("inverted-file-fast-scan")]
+    [InlineData("inverted-file-product")]
+    public void StreamedInvertedFile_SizesItsListsFromTheSample_SoFewListsRegrow(string kind)
+    {
+        // 16 lists of about 1,250 rows added in blocks of 500: grown block by block, nearly every list regrows several
+        // times; sized once from where the 1,000-row sample falls (plus two standard deviations), few lists outgrow it.
+        const int n = 20_000;
+        float[] data = ClusteredData.Generate(n, D, 16, 0.3f, seed: 91);
+        string path = Path.Combine(_directory, "sized.npy");
+        WriteNpyFloat32(path, data, n, D);
+        using FileVectorSource source = StreamingBuild.OpenFullVectors(path);
+        using var streamed = (InvertedFileIndex)Create(kind, source);
+        StreamingBuild.Build(streamed, path, new StreamingBuildOptions { BlockRows = 500, SampleSize = 1000 });
+
+        // The same rows in the same blocks through AddRange, on an index trained alike: the unsized reference.
+        using var blockwise = (InvertedFileIndex)Create(kind, source);
+        blockwise.Train(data.AsSpan(0, 1000 * D));
+        for (int start = 0; start < n; start += 500)
+        {
+            blockwise.AddRange([.. Enumerable.Range(start, 500).Select(i => (long)i)], data.AsSpan(start * D, 500 * D));
+        }
+
+        Assert.Equal(n, streamed.Count);
+        int lists = streamed.Options.ListCount;
+        Assert.True(blockwise.ListRegrowths >= 2 * lists, $"the reference regrew its lists only {blockwise.ListRegrowths} times");
+        Assert.True(streamed.ListRegrowths <= lists / 4, $"{streamed.ListRegrowths} list regrowths after sizing from the sample ({lists} lists)");
+
+        // Sized or not, every row is found at distance 0.
+        var hit = new SearchHit[1];
+        foreach (int row in new[] { 0, 777, 12_345, n - 1 })
+        {
+            Assert.Equal(1, streamed.Search(data.AsSpan(row * D, D), hit, new SearchOptions { SearchWidth = lists }));
+            Assert.Equal(row, hit[0].Id);
+        }
+    }
+
     [Fact]
     public void RandomTrainingRows_AreDistinctSeededAndInFileOrder()
     {

@@ -660,6 +660,65 @@ public sealed partial class InvertedFileIndex : VectorIndex
         }, static _ => { });
     }
 
+    /// <inheritdoc/>
+    private protected override bool SizesStorageFromSample => !IsReadOnly;
+
+    // Each list's share of the sample, scaled to the load, plus two standard deviations of that estimate (so few lists
+    // outgrow it), reserved once: a streamed build then appends without regrowing its lists block after block, which
+    // leaves each list's old arrays behind as large-object garbage.
+    private protected override unsafe void ReserveFromSample(ReadOnlySpan<float> sample, int added, CancellationToken cancellationToken)
+    {
+        int d = Dimension;
+        int n = sample.Length / d;
+        if (!IsTrained || n == 0)
+        {
+            return;
+        }
+
+        var rows = new float[n * d];
+        var labels = new int[n];
+        var distances = new float[n];
+        Prepare(sample[..(n * d)], rows);
+        fixed (float* pointer = rows)
+        {
+            NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels, distances, _options.EffectiveParallelism, cancellationToken);
+        }
+
+        var share = new int[_options.ListCount];
+        foreach (int label in labels)
+        {
+            share[label]++;
+        }
+
+        double scale = added / (double)n;
+        _lock.EnterWriteLock();
+        try
+        {
+            if (IsDisposed)
+            {
+                return;
+            }
+
+            for (int list = 0; list < share.Length; list++)
+            {
+                double expected = (share[list] + (2 * Math.Sqrt(Math.Max(1, share[list])))) * scale;
+                int capacity = (int)Math.Min(Array.MaxLength / Math.Max(1, _codeBytes), _listCounts[list] + Math.Ceiling(expected));
+                if (_listSlots[list].Length < capacity)
+                {
+                    Array.Resize(ref _listSlots[list], capacity);
+                    Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
+                }
+            }
+        }
+        finally
+        {
+            _lock.ExitWriteLock();
+        }
+    }
+
+    /// <summary>Lists that had to be regrown by adds since the index was created (for tests of bulk-load sizing).</summary>
+    internal int ListRegrowths { get; private set; }
+
     // Grows every list that the batch adds to, once: exactly to size when it was empty (a bulk load leaves no slack),
     // else by half again or to size, whichever is larger.
     private void GrowLists(ReadOnlySpan<int> labels)
@@ -676,6 +735,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
             int current = _listSlots[list].Length;
             if (added[list] > 0 && current < required)
             {
+                ListRegrowths += current == 0 ? 0 : 1;
                 int capacity = current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
                 Array.Resize(ref _listSlots[list], capacity);
                 Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
