@@ -211,11 +211,11 @@ public static class MappedOpen
         {
             if (line.StartsWith("RssAnon:", StringComparison.Ordinal))
             {
-                anon = long.Parse(line.Split(' ', StringSplitOptions.RemoveEmptyEntries)[1], System.Globalization.CultureInfo.InvariantCulture);
+                anon = long.Parse(line.Split([' ', '\t'], StringSplitOptions.RemoveEmptyEntries)[1], System.Globalization.CultureInfo.InvariantCulture);
             }
             else if (line.StartsWith("RssFile:", StringComparison.Ordinal))
             {
-                file = long.Parse(line.Split(' ', StringSplitOptions.RemoveEmptyEntries)[1], System.Globalization.CultureInfo.InvariantCulture);
+                file = long.Parse(line.Split([' ', '\t'], StringSplitOptions.RemoveEmptyEntries)[1], System.Globalization.CultureInfo.InvariantCulture);
             }
         }
 
