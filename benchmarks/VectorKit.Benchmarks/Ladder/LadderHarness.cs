@@ -44,7 +44,12 @@ internal static class LadderHarness
         Summarise(root);
     }
 
-    /// <summary>A child process's entry: <c>ladder-step data|truth|ivf-fastscan|ivf-pq|graph-8bit folder count dimension queries format [positional|mapped]</c>.</summary>
+    /// <summary>
+    /// A child process's entry: <c>ladder-step data|truth|ivf-fastscan|ivf-pq|graph-8bit folder count dimension queries format
+    /// [positional|mapped] [grid=width/depth,...] [open=mapped]</c>. <c>grid=</c> measures only the given settings instead of
+    /// the kind's sweep (for a rung where every setting takes minutes); <c>open=mapped</c> opens a saved index by mapping
+    /// instead of loading it.
+    /// </summary>
     public static void Step(string[] args)
     {
         string step = args[1];
@@ -70,7 +75,9 @@ internal static class LadderHarness
                 break;
             default:
                 FileVectorReads reads = args.Length > 7 && args[7] == "mapped" ? FileVectorReads.Mapped : FileVectorReads.Positional;
-                LadderSteps.BuildAndSweep(step, data, query, truth, Path.Combine(folder, $"{step}.result"), reads);
+                string? grid = args.Skip(8).FirstOrDefault(a => a.StartsWith("grid=", StringComparison.Ordinal))?["grid=".Length..];
+                bool openMapped = args.Skip(8).Contains("open=mapped");
+                LadderSteps.BuildAndSweep(step, data, query, truth, Path.Combine(folder, $"{step}.result"), reads, grid, openMapped);
                 break;
         }
     }

@@ -113,7 +113,7 @@ internal static class LadderSteps
         result.Save(resultPath);
     }
 
-    public static void BuildAndSweep(string kind, string dataPath, string queryPath, string truthPath, string resultPath, FileVectorReads reads)
+    public static void BuildAndSweep(string kind, string dataPath, string queryPath, string truthPath, string resultPath, FileVectorReads reads, string? gridOverride = null, bool openMapped = false)
     {
         VectorSet queries = NpyOrFvecs(queryPath);
         long[][] truth = ReadTruth(truthPath);
@@ -160,8 +160,8 @@ internal static class LadderSteps
         if (reuse)
         {
             index.Dispose();
-            index = (VectorIndex)IndexFile.Load(saved);
-            Console.Error.WriteLine($"{kind}: loaded the index built earlier from {saved}");
+            index = openMapped ? (VectorIndex)IndexFile.OpenMapped(saved) : (VectorIndex)IndexFile.Load(saved);
+            Console.Error.WriteLine($"{kind}: {(openMapped ? "opened (mapped)" : "loaded")} the index built earlier from {saved}");
         }
 
         using (index)
@@ -194,12 +194,16 @@ internal static class LadderSteps
             {
                 Kind = kind,
                 BuildSeconds = buildSeconds,
-                BytesPerVector = index.MemoryBytes / (double)index.Count,
-                Notes = $"{settings} ({(reads == FileVectorReads.Mapped ? "mapped" : "positional reads")}); trained on {trainingRows:N0} strided rows; {memoryNote}",
+                // A mapped index holds nothing in the managed heap: its footprint is the index file the page cache serves.
+                BytesPerVector = (reuse && openMapped ? new FileInfo(saved).Length : index.MemoryBytes) / (double)index.Count,
+                Notes = $"{settings} ({(reads == FileVectorReads.Mapped ? "mapped" : "positional reads")}); trained on {trainingRows:N0} strided rows; {memoryNote}"
+                    + (reuse && openMapped ? "; the sweep opened the saved index mapped: bytes/vector is the index file's size" : ""),
             };
             Console.Error.WriteLine($"{kind}: {index.Count:N0} rows built in {buildSeconds:F0} s; {result.BytesPerVector:F0} bytes/vector");
 
-            (int Width, int Depth)[] grid = kind switch
+            (int Width, int Depth)[] grid = gridOverride is not null
+                ? [.. gridOverride.Split(',').Select(s => s.Split('/')).Select(p => (int.Parse(p[0], CultureInfo.InvariantCulture), int.Parse(p[1], CultureInfo.InvariantCulture)))]
+                : kind switch
             {
                 "graph-8bit" => [.. Grid([10, 16, 24, 32, 48, 64, 96, 128, 192, 256, 384, 512, 768, 1024], [0, 20, 50, 100])],
                 "ivf-fastscan" => [.. Grid([1, 2, 4, 6, 8, 12, 16, 24, 32, 48, 64, 128], [10, 20, 30, 50, 100, 200])],
@@ -209,7 +213,7 @@ internal static class LadderSteps
             var previous = new Dictionary<int, double>();
             foreach ((int width, int depth) in grid)
             {
-                if (done.Contains(depth))
+                if (done.Contains(depth) && gridOverride is null)
                 {
                     continue;
                 }
