@@ -203,6 +203,6 @@ internal static class LadderHarness
             }
         }
 
-        LadderPlot.Draw(all.Where(x => x.Dimension == all[0].Dimension).Select(x => (x.Count, x.Result)).ToList(), all.Count > 0 ? all[0].Dimension : 0, Path.Combine(root, "ladder.png"));
+        LadderPlot.Draw(all.Select(x => (x.Count, x.Dimension, x.Result)).ToList(), all.Count > 0 ? all[0].Dimension : 0, Path.Combine(root, "ladder.png"));
     }
 }

@@ -2,11 +2,15 @@ using System.Globalization;
 
 namespace VectorKit.Benchmarks.Ladder;
 
-/// <summary>The ladder's plot: single-thread queries/s against rows, both on log scales, as the command-line tool draws its curves.</summary>
+/// <summary>
+/// The ladder's plot: single-thread queries/s against rows, both on log scales, as the command-line tool draws its
+/// curves. Rungs of another dimension (the 10⁸ × 64 rung) are drawn as separate markers, not joined to the lines.
+/// </summary>
 internal static class LadderPlot
 {
-    public static void Draw(IReadOnlyList<(long Count, LadderResult Result)> results, int dimension, string path)
+    public static void Draw(IReadOnlyList<(long Count, int Dimension, LadderResult Result)> all, int dimension, string path)
     {
+        var results = all.Where(x => x.Dimension == dimension).Select(x => (x.Count, x.Result)).ToList();
         var plot = new ScottPlot.Plot();
         var series = new (string Label, string Kind, double Target)[]
         {
@@ -41,6 +45,23 @@ internal static class LadderPlot
             line.LegendText = label;
             line.LineWidth = 2;
             line.MarkerSize = 7;
+        }
+
+        foreach ((long count, int d, LadderResult r) in all.Where(x => x.Dimension != dimension))
+        {
+            foreach (double target in r.Kind == "exact" ? [1.0] : new[] { 0.90, 0.95 })
+            {
+                if (r.Cheapest(target) is not { } p)
+                {
+                    continue;
+                }
+
+                var marker = plot.Add.Scatter(new[] { Math.Log10(count) }, new[] { Math.Log10(Math.Max(p.QueriesPerSecond, 1e-3)) });
+                marker.LegendText = string.Create(CultureInfo.InvariantCulture, $"{r.Kind} at × {d} (full vectors read from disk), {(r.Kind == "exact" ? "recall 1" : $"≥ {target:F2}")}");
+                marker.LineWidth = 0;
+                marker.MarkerSize = 11;
+                marker.MarkerShape = r.Kind == "exact" ? ScottPlot.MarkerShape.OpenSquare : ScottPlot.MarkerShape.OpenDiamond;
+            }
         }
 
         // Log scales: the lines run through log10 values and the ticks are labelled back.
