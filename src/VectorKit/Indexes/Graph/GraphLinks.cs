@@ -231,14 +231,22 @@ internal sealed unsafe class GraphLinks
                 : MemoryMarshal.CreateSpan(ref Unsafe.Add(ref MemoryMarshal.GetArrayDataReference(_bottom), (nint)slot * stride), stride);
         }
 
-        int upperStride = UpperLimit + 1;
         if (_mappedUpper != null)
         {
-            // A layer the node lacks (or that would lie outside the section) reads as empty.
-            return level <= MappedLevel(slot) ? new Span<int>(_mappedUpper + _mappedStarts[slot] + ((nint)(level - 1) * upperStride), upperStride) : s_noLinks;
+            return MappedUpperBlock(slot, level);
         }
 
+        int upperStride = UpperLimit + 1;
         return _upper.AsSpan(_upperStart[slot] + ((level - 1) * upperStride), upperStride);
+    }
+
+    // A mapped node's list on an upper layer; a layer the node lacks (or that would lie outside the section) reads as
+    // empty. Not inlined: the checks stay out of the walks that inline Block, whose bottom layer never comes here.
+    [MethodImpl(MethodImplOptions.NoInlining)]
+    private Span<int> MappedUpperBlock(int slot, int level)
+    {
+        int upperStride = UpperLimit + 1;
+        return level <= MappedLevel(slot) ? new Span<int>(_mappedUpper + _mappedStarts[slot] + ((nint)(level - 1) * upperStride), upperStride) : s_noLinks;
     }
 
     /// <summary>How many lists on <paramref name="level"/> name <paramref name="slot"/>; update it with interlocked operations.</summary>
