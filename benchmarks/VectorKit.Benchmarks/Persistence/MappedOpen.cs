@@ -30,10 +30,21 @@ public static class MappedOpen
         string path = Path.Combine(folder, kind switch
         {
             "ivf" => $"ivf-pq64-v4-{count}x{dimension}.vkx",
-            "graph" => $"graph-v5-{count}x{dimension}.vkx",
-            "graph-8bit" => $"graph-8bit-v5-{count}x{dimension}.vkx",
+            "graph" => $"graph-v6-{count}x{dimension}.vkx",
+            "graph-8bit" => $"graph-8bit-v6-{count}x{dimension}.vkx",
             _ => $"exact-v3-{count}x{dimension}.vkx",
         });
+
+        // A graph cached in format version 5 is loaded and saved again (the same graph, with its upper-layer starts),
+        // instead of being rebuilt; the old file stays, for opening it with older code.
+        string previous = path.Replace("-v6-", "-v5-", StringComparison.Ordinal);
+        if (!File.Exists(path) && previous != path && File.Exists(previous))
+        {
+            using IVectorIndex old = IndexFile.Load(previous);
+            IndexFile.Save(old, path);
+            Console.WriteLine($"saved {Path.GetFileName(previous)} again as {Path.GetFileName(path)}");
+        }
+
         if (!File.Exists(path))
         {
             var build = Stopwatch.StartNew();

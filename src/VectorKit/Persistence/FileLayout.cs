@@ -10,14 +10,20 @@ internal static class FileLayout
     /// the tuned search defaults (<see cref="TuningFields"/>); version 3 the exact index's <see cref="SectionId.IdOrder"/>
     /// (for mapped opening); version 4 the inverted file's id order and its fast-scan codes as blocks
     /// (<see cref="SectionId.FastScanBlocks"/>), so that an inverted file is searched in place too; version 5 the graph's
-    /// id order (of its live slots), so that a graph opens mapped without hashing its ids. A file is written with the
-    /// lowest version that holds what it needs.
+    /// id order (of its live slots), so that a graph opens mapped without hashing its ids; version 6 the graph's
+    /// <see cref="SectionId.UpperLinkStarts"/>, so that a graph opens mapped without a pass over its levels. A file is
+    /// written with the lowest version that holds what it needs.
     /// </summary>
-    public const uint CurrentVersion = 5;
+    public const uint CurrentVersion = 6;
 
     /// <summary>The lowest format version that holds everything <paramref name="header"/> lists.</summary>
     public static uint VersionFor(IndexHeader header)
     {
+        if (header.Kind == IndexKind.Graph && header.Sections.Exists(s => s.Id == (uint)SectionId.UpperLinkStarts))
+        {
+            return 6;
+        }
+
         if (header.Kind == IndexKind.Graph && header.Sections.Exists(s => s.Id == (uint)SectionId.IdOrder))
         {
             return 5;

@@ -8,11 +8,12 @@ namespace VectorKit.Persistence;
 internal sealed partial class GraphIndexCodec
 {
     /// <summary>
-    /// Builds a read-only graph whose ids, removal flags, links, rows and codes are the mapped file's own pages. At open
-    /// it reads the header, the scalar ranges (small, copied after their checksum) and the levels (one byte per slot,
-    /// copied), from which it builds each node's upper-layer start (4 bytes per slot); ids are found through the file's
-    /// id order (format version 5), or, in older files, hashed at open. Takes ownership of <paramref name="view"/>
-    /// (unmapped on failure, or when the index is disposed).
+    /// Builds a read-only graph whose ids, removal flags, levels, links, upper-layer starts, rows and codes are the
+    /// mapped file's own pages. Unverified, a file of format version 6 costs the header and the scalar ranges (small,
+    /// copied after their checksum) at open, nothing per slot: every use of a level or start is range-checked instead.
+    /// Older files have their upper-layer starts built from the levels (4 bytes and one pass per slot), and before
+    /// version 5 their ids hashed, at open. Takes ownership of <paramref name="view"/> (unmapped on failure, or when the
+    /// index is disposed).
     /// </summary>
     public static unsafe GraphIndex OpenMapped(IndexHeader header, MappedFileView view, MappedSections sections, IndexLoadOptions load, bool verify, CancellationToken cancellationToken)
     {
@@ -27,9 +28,15 @@ internal sealed partial class GraphIndexCodec
             (SectionId.RemovedFlags, slots),
             (SectionId.BottomLinks, checked((long)slots * (options.EffectiveBottomLayerLinks + 1) * sizeof(int))),
 
-            // Its length follows from the levels; GraphLinks.Mapped checks it.
+            // Its length follows from the levels: checked against them when verifying, or for a file without starts.
             (SectionId.UpperLinks, -1),
         };
+        bool hasStarts = header.Sections.Exists(s => s.Id == (uint)SectionId.UpperLinkStarts);
+        if (hasStarts)
+        {
+            expected.Add((SectionId.UpperLinkStarts, checked((long)slots * sizeof(int))));
+        }
+
         MappedSections.ExpectRows(expected, d, slots, codes, trained, keepsFull);
         Dictionary<SectionId, int> at = sections.Match(expected, checked((long)count * sizeof(int)), verify, cancellationToken);
         float[]? ranges = codes && trained ? sections.ScalarRanges(at, d, cancellationToken) : null;
@@ -39,6 +46,13 @@ internal sealed partial class GraphIndexCodec
         if (upperBytes % sizeof(int) != 0)
         {
             throw sections.Problem(upperAt, $"its length, {upperBytes} bytes, is not a whole number of ints");
+        }
+
+        byte* levels = (byte*)sections.Payload(at[SectionId.NodeLevels]).Start;
+        int* starts = hasStarts ? (int*)sections.Payload(at[SectionId.UpperLinkStarts]).Start : null;
+        if (verify && hasStarts)
+        {
+            CheckUpperStarts(sections, at, levels, starts, slots, options.LinksPerNode + 1, upperBytes / sizeof(int), cancellationToken);
         }
 
         if (verify && keepsFull)
@@ -67,13 +81,45 @@ internal sealed partial class GraphIndexCodec
         {
             return GraphIndex.FromMapped(
                 view, options, d, header.Metric, slots, count, (entrySlot, entryLevel),
-                ids, removed, (byte*)sections.Payload(at[SectionId.NodeLevels]).Start,
+                ids, removed, levels, starts,
                 (int*)sections.Payload(at[SectionId.BottomLinks]).Start, (int*)sections.Payload(upperAt).Start, upperBytes / sizeof(int),
                 vectors, codeRows, ranges, slotOf, verify);
         }
         catch (InvalidDataException e)
         {
             throw new IndexFileException($"Index file holds an invalid graph: {e.Message}.", "graph", -1, e);
+        }
+    }
+
+    // The whole column against the levels, as a load checks it: levels within the cap, each start the running total of
+    // the levels before it (so the column never decreases), and the total the upper-layer section's length.
+    private static unsafe void CheckUpperStarts(MappedSections sections, Dictionary<SectionId, int> at, byte* levels, int* starts, int slots, int upperStride, long upperInts, CancellationToken cancellationToken)
+    {
+        long running = 0;
+        for (int slot = 0; slot < slots; slot++)
+        {
+            if ((slot & 0xFFFFF) == 0)
+            {
+                cancellationToken.ThrowIfCancellationRequested();
+            }
+
+            int level = levels[slot];
+            if (level > GraphIndexParts.MaxNodeLevel)
+            {
+                throw sections.Problem(at[SectionId.NodeLevels], $"slot {slot} has level {level}; the most is {GraphIndexParts.MaxNodeLevel}");
+            }
+
+            if (starts[slot] != running)
+            {
+                throw sections.Problem(at[SectionId.UpperLinkStarts], StartProblem(slot, starts[slot], running));
+            }
+
+            running += (long)level * upperStride;
+        }
+
+        if (running != upperInts)
+        {
+            throw sections.Problem(at[SectionId.UpperLinks], $"it holds {upperInts} ints; the levels require {running}");
         }
     }
 }

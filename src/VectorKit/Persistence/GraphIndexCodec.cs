@@ -11,7 +11,8 @@ namespace VectorKit.Persistence;
 /// bottom-layer links, upper-layer links and vectors, in that order. Under 8-bit codes the vectors section is replaced
 /// by the scalar ranges and the codes, followed by the vectors only when the full vectors are kept in memory for
 /// re-scoring; a graph re-scoring from an external source records that in the field <c>full-vector-location</c> (1)
-/// and stores no vectors. Last, from format version 5, the id order of the live slots (for mapped opening).
+/// and stores no vectors. Last, from format version 5, the id order of the live slots (for mapped opening). From
+/// version 6 the upper-layer starts follow the upper-layer links (derived from the levels, for mapped opening).
 /// </summary>
 internal sealed partial class GraphIndexCodec : IndexCodec
 {
@@ -30,6 +31,9 @@ internal sealed partial class GraphIndexCodec : IndexCodec
     private const string RescoreDepth = "rescore-depth";
     private const string Trained = "trained";
     private const int CodeBlockBytes = 1 << 20;
+
+    // Upper-layer starts written or checked per block (on the stack).
+    private const int StartsBlock = 1024;
 
     public override IndexKind Kind => IndexKind.Graph;
 
@@ -75,6 +79,7 @@ internal sealed partial class GraphIndexCodec : IndexCodec
             header.Sections.Add(new SectionEntry((uint)SectionId.RemovedFlags, 0, slots));
             header.Sections.Add(new SectionEntry((uint)SectionId.BottomLinks, 0, checked((long)parts.BottomLinks.Length * sizeof(int))));
             header.Sections.Add(new SectionEntry((uint)SectionId.UpperLinks, 0, checked((long)parts.UpperLinks.Length * sizeof(int))));
+            header.Sections.Add(new SectionEntry((uint)SectionId.UpperLinkStarts, 0, checked((long)slots * sizeof(int))));
             if (codes)
             {
                 header.Sections.Add(new SectionEntry((uint)SectionId.ScalarRanges, 0, checked((long)(parts.ScalarRanges?.Length ?? 0) * sizeof(float))));
@@ -102,6 +107,9 @@ internal sealed partial class GraphIndexCodec : IndexCodec
             writer.EndSection();
             writer.BeginSection(SectionId.UpperLinks);
             writer.Write<int>(parts.UpperLinks);
+            writer.EndSection();
+            writer.BeginSection(SectionId.UpperLinkStarts);
+            WriteUpperStarts(writer, parts.Levels.AsSpan(0, slots), options.LinksPerNode + 1);
             writer.EndSection();
             if (codes)
             {
@@ -224,6 +232,11 @@ internal sealed partial class GraphIndexCodec : IndexCodec
 
         int[] upperLinks = reader.ReadArray<int>((int)upperInts);
         reader.CloseSection();
+        if (header.Sections.Exists(s => s.Id == (uint)SectionId.UpperLinkStarts))
+        {
+            CheckUpperStarts(reader, levels, links + 1);
+        }
+
         float[]? ranges = null;
         CodeBuffer? codeRows = null;
         VectorBuffer? vectors = null;
@@ -282,6 +295,59 @@ internal sealed partial class GraphIndexCodec : IndexCodec
             throw new IndexFileException($"Index file holds an invalid graph: {e.Message}.", "graph", -1, e);
         }
     }
+
+    // Each slot's start in the upper-layer section (SectionId.UpperLinkStarts), a block of slots at a time.
+    private static void WriteUpperStarts(IndexFileWriter writer, ReadOnlySpan<byte> levels, int upperStride)
+    {
+        Span<int> block = stackalloc int[StartsBlock];
+        int at = 0;
+        for (int first = 0; first < levels.Length; first += StartsBlock)
+        {
+            int n = Math.Min(StartsBlock, levels.Length - first);
+            for (int i = 0; i < n; i++)
+            {
+                block[i] = at;
+                at = checked(at + (levels[first + i] * upperStride));
+            }
+
+            writer.Write<int>(block[..n]);
+        }
+    }
+
+    // A load derives the starts from the levels itself: the stored column is read through its checksum and must equal
+    // them, so that a file never opens mapped into another graph than it loads into.
+    private static void CheckUpperStarts(IndexFileReader reader, ReadOnlySpan<byte> levels, int upperStride)
+    {
+        reader.OpenSection(SectionId.UpperLinkStarts);
+        reader.ExpectPayload(checked((long)levels.Length * sizeof(int)));
+        Span<int> block = stackalloc int[StartsBlock];
+        long at = 0;
+        string? problem = null;
+        for (int first = 0; first < levels.Length; first += StartsBlock)
+        {
+            int n = Math.Min(StartsBlock, levels.Length - first);
+            reader.Read(block[..n]);
+            for (int i = 0; i < n; i++)
+            {
+                if (problem is null && block[i] != at)
+                {
+                    problem = StartProblem(first + i, block[i], at);
+                }
+
+                at += levels[first + i] * upperStride;
+            }
+        }
+
+        reader.CloseSection();
+        if (problem is not null)
+        {
+            throw reader.SectionProblem(problem);
+        }
+    }
+
+    /// <summary>The message for a stored upper-layer start that differs from the levels' running total.</summary>
+    internal static string StartProblem(int slot, int stored, long expected)
+        => $"slot {slot} starts at int {stored} of the upper-layer links; the levels of the slots before it put it at {expected}";
 
     // Codes in blocks of about 1 MiB (a code buffer may exceed one span's reach).
     private static void WriteCodes(IndexFileWriter writer, CodeBuffer codes, int rows)

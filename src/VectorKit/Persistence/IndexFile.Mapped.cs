@@ -25,9 +25,9 @@ public static partial class IndexFile
     /// <remarks>
     /// <para><b>Open time.</b> For a file of the current format version the open reads the header and the small sections
     /// only (code ranges, centroids, codebooks, list lengths; <see cref="MappedOpenOptions"/> says what is checked when);
-    /// ids are found by binary search over the file's id order. A graph also reads its levels (one byte per node,
-    /// copied) and computes where each node's upper-layer links start (four bytes per node): one pass that grows with
-    /// the count. A file without an id order (an exact index of format version 1 or 2, an inverted file of 1 to 3, a
+    /// ids are found by binary search over the file's id order, and a graph reads its levels and where each node's
+    /// upper-layer links start in place. A graph of format version 5 or older has those starts built from its levels at
+    /// open (four bytes per node, one pass that grows with the count). A file without an id order (an exact index of format version 1 or 2, an inverted file of 1 to 3, a
     /// graph of 1 or 2) has its ids hashed into a table at open (time and memory grow with the count); save it again to
     /// get the current version.</para>
     /// <para><b>Kinds.</b> Every variant of the exact index and of the graph (float32; 8-bit codes with full vectors

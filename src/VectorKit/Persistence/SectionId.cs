@@ -66,4 +66,13 @@ internal enum SectionId : uint
     /// <see cref="ListCodes"/>, so a mapped file is scanned in place.
     /// </summary>
     FastScanBlocks = 16,
+
+    /// <summary>
+    /// Graph (format version 6): where each slot's upper-layer blocks start in <see cref="UpperLinks"/>, one int32 per
+    /// slot in slot order, counted in ints: the total of <c>level × (links per node + 1)</c> over the slots before it. A
+    /// slot of level 0 holds that running total too (where the next blocks start), so the column never decreases.
+    /// Derived from the levels, so that a mapped file opens without a pass over them; a loader checks it against the
+    /// levels, a mapped opener range-checks every use (and with verification checks the whole column).
+    /// </summary>
+    UpperLinkStarts = 17,
 }

@@ -119,7 +119,7 @@ public class CraftedGraphTests
         IndexHeader memoryHeader = IndexFileBytes.CopyHeader(IndexFileBytes.Header(withVectors));
         Assert.False(memoryHeader.Integers.ContainsKey("full-vector-location"));
         memoryHeader.Integers["full-vector-location"] = 1;
-        Assert.Contains("section 7 is 'Vectors' (id 2); this index kind expects 'IdOrder' (id 14) there", Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors))).Message, StringComparison.Ordinal);
+        Assert.Contains("section 8 is 'Vectors' (id 2); this index kind expects 'IdOrder' (id 14) there", Rejection.Assert(IndexFileBytes.Compose(memoryHeader, IndexFileBytes.Payloads(withVectors))).Message, StringComparison.Ordinal);
     }
 
     private static string Reject(Action<byte[]> damage, bool settled = false)

@@ -118,7 +118,7 @@ public partial class GoldenFileTests
 
         using (FullVectorSources.Open(FullVectorSourceKind.InMemory, string.Empty, data, ids, 3, out IFullVectorSource again))
         {
-            AssertResavedFixture("graph-scalar-external-v5.vkx", 5, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "ScalarRanges", "ScalarCodes", "IdOrder"], everything, again);
+            AssertResavedFixture("graph-scalar-external-v6.vkx", 6, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "UpperLinkStarts", "ScalarRanges", "ScalarCodes", "IdOrder"], everything, again);
         }
     }
 

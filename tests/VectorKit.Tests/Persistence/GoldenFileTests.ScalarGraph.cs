@@ -49,7 +49,7 @@ public partial class GoldenFileTests
             AssertSameHits(NearestByLoop(decoded, query, 10), loaded.Search(query, 10, codesOnly));
         }
 
-        AssertResavedFixture("graph-scalar-v5.vkx", 5, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "ScalarRanges", "ScalarCodes", "Vectors", "IdOrder"], everything);
+        AssertResavedFixture("graph-scalar-v6.vkx", 6, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "UpperLinkStarts", "ScalarRanges", "ScalarCodes", "Vectors", "IdOrder"], everything);
     }
 
     [Fact]
@@ -97,7 +97,7 @@ public partial class GoldenFileTests
             AssertSameHits(NearestByLoop(decoded, query, 10), loaded.Search(query, 10, wide));
         }
 
-        AssertResavedFixture("graph-scalar-codes-v5.vkx", 5, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "ScalarRanges", "ScalarCodes", "IdOrder"], wide);
+        AssertResavedFixture("graph-scalar-codes-v6.vkx", 6, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "UpperLinkStarts", "ScalarRanges", "ScalarCodes", "IdOrder"], wide);
     }
 
     // Decodes the live slots' 8-bit codes straight from a graph file's sections: minimum + code × step per component.

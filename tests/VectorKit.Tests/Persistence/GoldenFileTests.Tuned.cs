@@ -34,11 +34,11 @@ public partial class GoldenFileTests
         }
 
         // The exact index is written with its id order today (format version 3), the inverted file with its own (4), the
-        // graph with the order of its live slots (5).
+        // graph with the order of its live slots (5) and its upper-layer starts (6).
         byte[] resaved = IndexFileBytes.Save(loaded);
-        Assert.Equal(kind switch { "exact" => Fixture("exact-tuned-v3.vkx", resaved), "ivf" => Fixture("ivf-tuned-v4.vkx", resaved), _ => Fixture("graph-tuned-v5.vkx", resaved) }, resaved);
+        Assert.Equal(kind switch { "exact" => Fixture("exact-tuned-v3.vkx", resaved), "ivf" => Fixture("ivf-tuned-v4.vkx", resaved), _ => Fixture("graph-tuned-v6.vkx", resaved) }, resaved);
         loaded.ApplyTunedDefaults(null);
-        Assert.Equal(kind switch { "exact" => 3u, "ivf" => 4u, _ => 5u }, BinaryPrimitives.ReadUInt32LittleEndian(IndexFileBytes.Save(loaded).AsSpan(8)));
+        Assert.Equal(kind switch { "exact" => 3u, "ivf" => 4u, _ => 6u }, BinaryPrimitives.ReadUInt32LittleEndian(IndexFileBytes.Save(loaded).AsSpan(8)));
     }
 
     [Fact]

@@ -101,8 +101,8 @@ public partial class GoldenFileTests
             Assert.Equal(exact.Search(query, 10), loaded.Search(query, 10, wide));
         }
 
-        // Today's writer adds the id order of the live slots (format version 5).
-        AssertResavedFixture("graph-v5.vkx", 5, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "Vectors", "IdOrder"], wide);
+        // Today's writer adds the id order of the live slots (format version 5) and the upper-layer starts (6).
+        AssertResavedFixture("graph-v6.vkx", 6, loaded, ["Ids", "NodeLevels", "RemovedFlags", "BottomLinks", "UpperLinks", "UpperLinkStarts", "Vectors", "IdOrder"], wide);
     }
 
     [Fact]

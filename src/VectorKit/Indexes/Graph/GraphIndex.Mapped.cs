@@ -23,10 +23,11 @@ public sealed partial class GraphIndex
     /// <summary>
     /// Builds a read-only graph over a mapped file's sections, taking ownership of <paramref name="mapping"/> and of
     /// the borrowed <paramref name="vectors"/> and <paramref name="codes"/> (all disposed on failure, or with the index).
-    /// Nothing of the sections is copied but the levels (see <see cref="GraphLinks.Mapped"/>). With
-    /// <paramref name="verify"/> the structure is checked as a load checks it (one pass over the links); without, a walk
-    /// stays inside the file all the same: it passes over link targets outside the slots, and an upper layer a node
-    /// lacks reads as empty.
+    /// Nothing of the sections is copied, and without <paramref name="verify"/> nothing is read per slot when
+    /// <paramref name="starts"/> is given (see <see cref="GraphLinks.Mapped"/>). With <paramref name="verify"/> the
+    /// structure is checked as a load checks it (one pass over the links); without, a walk stays inside the file all the
+    /// same: it passes over link targets outside the slots, and an upper layer a node lacks, or whose level or start is
+    /// impossible, reads as empty.
     /// </summary>
     /// <param name="mapping">The mapped file.</param>
     /// <param name="options">The stored options.</param>
@@ -38,6 +39,7 @@ public sealed partial class GraphIndex
     /// <param name="ids"><paramref name="slots"/> ids.</param>
     /// <param name="removed"><paramref name="slots"/> removal flags.</param>
     /// <param name="levels"><paramref name="slots"/> levels.</param>
+    /// <param name="starts">Where each slot's upper-layer blocks start (format version 6; the caller has checked them against the levels when verifying), or null to build them from the levels.</param>
     /// <param name="bottom">The bottom-layer blocks of every slot.</param>
     /// <param name="upper">The upper-layer blocks, <paramref name="upperInts"/> ints.</param>
     /// <param name="upperInts">The upper-layer section's length in ints.</param>
@@ -49,7 +51,7 @@ public sealed partial class GraphIndex
     /// <exception cref="InvalidDataException">The state violates an invariant that is checked.</exception>
     internal static unsafe GraphIndex FromMapped(
         IDisposable mapping, GraphIndexOptions options, int dimension, DistanceMetric metric, int slots, int count, (int Slot, int Level) entry,
-        long* ids, byte* removed, byte* levels, int* bottom, int* upper, long upperInts,
+        long* ids, byte* removed, byte* levels, int* starts, int* bottom, int* upper, long upperInts,
         VectorBuffer? vectors, CodeBuffer? codes, float[]? ranges, IdMap slotOf, bool verify)
     {
         GraphIndex index;
@@ -76,11 +78,10 @@ public sealed partial class GraphIndex
 
             var bottomLinks = new ReadOnlySpan<int>(bottom, checked(slots * bottomStride));
             var upperLinks = new ReadOnlySpan<int>(upper, (int)upperInts);
-            var levelSpan = new ReadOnlySpan<byte>(levels, slots);
-            GraphLinks links = GraphLinks.Mapped(options.LinksPerNode, options.EffectiveBottomLayerLinks, levelSpan, MaxLevel, bottom, upper, upperInts);
+            GraphLinks links = GraphLinks.Mapped(options.LinksPerNode, options.EffectiveBottomLayerLinks, slots, levels, starts, MaxLevel, bottom, upper, upperInts);
             if (verify)
             {
-                ValidateLinks(new StoredLinks(slots, count, levelSpan, new ReadOnlySpan<byte>(removed, slots), bottomLinks, upperLinks, entry.Slot, entry.Level), bottomStride, upperStride);
+                ValidateLinks(new StoredLinks(slots, count, new ReadOnlySpan<byte>(levels, slots), new ReadOnlySpan<byte>(removed, slots), bottomLinks, upperLinks, entry.Slot, entry.Level), bottomStride, upperStride);
                 if (codes is not null)
                 {
                     CheckCodePadding(codes, slots, dimension);

@@ -23,13 +23,21 @@ namespace VectorKit.Indexes.Graph;
 /// </remarks>
 internal sealed unsafe class GraphLinks
 {
-    // The count-only list a mapped graph reads for a layer above a node's level (which only a damaged file names).
+    // The count-only list a mapped graph reads for a layer above a node's level, and for a node whose level or start
+    // a damaged file gives an impossible value.
     private static readonly int[] s_noLinks = [0];
 
-    // A mapped file's link sections, read in place (null in memory): every node's bottom-layer block, and the upper
-    // layers' blocks at the starts in _upperStart, which Mapped derives from the levels.
+    // A mapped file's sections, read in place (null in memory): every node's bottom-layer block, the levels, and the
+    // upper layers' blocks at the starts in _mappedStarts (the file's column, or _ownedStarts built at open for a file
+    // that predates it). Nothing per node is copied, so that opening does not grow with the node count.
     private int* _mappedBottom;
     private int* _mappedUpper;
+    private byte* _mappedLevels;
+    private int* _mappedStarts;
+    private long _mappedUpperInts;
+    private int _mappedMaxLevel;
+    private int[]? _ownedStarts;
+    private int _capacity;
     private int[] _bottom = [];
     private int[] _upperStart = [];
     private byte[] _levels = [];
@@ -45,38 +53,47 @@ internal sealed unsafe class GraphLinks
     }
 
     /// <summary>
-    /// Read-only links over a mapped file's sections: <paramref name="bottom"/> holds <c>levels.Length</c> blocks of
-    /// <c>bottomLimit + 1</c> ints, <paramref name="upper"/> the upper-layer blocks in slot order (the file's layout), which
-    /// must hold exactly <paramref name="upperInts"/> ints. The levels are kept (a copy, checked) and each node's upper
-    /// start is computed from them: these two tables are all that is built, 5 bytes per node. No in-degrees: such links
-    /// are never written.
+    /// Read-only links over a mapped file's sections, none of them copied: <paramref name="bottom"/> holds
+    /// <paramref name="slots"/> blocks of <c>bottomLimit + 1</c> ints, <paramref name="levels"/> one level per slot,
+    /// <paramref name="upper"/> the upper-layer blocks in slot order (the file's layout), <paramref name="upperInts"/> ints,
+    /// and <paramref name="starts"/> where each slot's blocks begin in it. Every read of an upper layer is range-checked
+    /// against these (a level above <paramref name="maxLevel"/>, or blocks that would run past the section, read as a
+    /// node without upper layers), so unverified values cannot send a read outside the section; the bottom layer needs
+    /// no check (its blocks are fixed by the slot count). A file without starts (<paramref name="starts"/> null, format
+    /// version 5 and older) has them built here, with its levels checked: 4 bytes and one pass per node. No in-degrees:
+    /// such links are never written.
     /// </summary>
-    /// <exception cref="InvalidDataException">A level exceeds <paramref name="maxLevel"/>, or the levels call for another number of upper-layer ints.</exception>
-    public static GraphLinks Mapped(int upperLimit, int bottomLimit, ReadOnlySpan<byte> levels, int maxLevel, int* bottom, int* upper, long upperInts)
+    /// <exception cref="InvalidDataException">Only when <paramref name="starts"/> is null: a level exceeds <paramref name="maxLevel"/>, or the levels call for another number of upper-layer ints.</exception>
+    public static GraphLinks Mapped(int upperLimit, int bottomLimit, int slots, byte* levels, int* starts, int maxLevel, int* bottom, int* upper, long upperInts)
     {
         var links = new GraphLinks(upperLimit, bottomLimit)
         {
-            _levels = levels.ToArray(),
-            _upperStart = new int[levels.Length],
+            _capacity = slots,
             _mappedBottom = bottom,
             _mappedUpper = upper,
+            _mappedLevels = levels,
+            _mappedStarts = starts,
+            _mappedUpperInts = upperInts,
+            _mappedMaxLevel = maxLevel,
         };
+        if (starts != null)
+        {
+            return links;
+        }
+
+        // Pinned, so that both kinds of file are read through one pointer.
+        int[] built = GC.AllocateUninitializedArray<int>(slots, pinned: true);
         long at = 0;
         int upperStride = upperLimit + 1;
-        for (int slot = 0; slot < links._levels.Length; slot++)
+        for (int slot = 0; slot < slots; slot++)
         {
-            int level = links._levels[slot];
-            if (level == 0)
-            {
-                continue;
-            }
-
+            int level = levels[slot];
             if (level > maxLevel)
             {
                 throw new InvalidDataException($"slot {slot} has level {level}; the most is {maxLevel}");
             }
 
-            links._upperStart[slot] = (int)Math.Min(at, int.MaxValue);
+            built[slot] = (int)Math.Min(at, int.MaxValue);
             at += (long)level * upperStride;
         }
 
@@ -85,6 +102,8 @@ internal sealed unsafe class GraphLinks
             throw new InvalidDataException($"the upper-layer links hold {upperInts} ints; the levels require {at}");
         }
 
+        links._ownedStarts = built;
+        links._mappedStarts = (int*)Unsafe.AsPointer(ref MemoryMarshal.GetArrayDataReference(built));
         return links;
     }
 
@@ -95,10 +114,10 @@ internal sealed unsafe class GraphLinks
     /// <summary>The larger of the two limits: the most neighbours any one list holds.</summary>
     public int MaxLimit => Math.Max(UpperLimit, BottomLimit);
 
-    public int Capacity => _levels.Length;
+    public int Capacity => _capacity;
 
     public long Bytes =>
-        ((long)(_bottom.Length + _upperStart.Length + _upper.Length + _inBottom.Length + _inUpper.Length) * sizeof(int)) + _levels.Length;
+        ((long)(_bottom.Length + _upperStart.Length + _upper.Length + _inBottom.Length + _inUpper.Length + (_ownedStarts?.Length ?? 0)) * sizeof(int)) + _levels.Length;
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public int Limit(int level) => level == 0 ? BottomLimit : UpperLimit;
@@ -116,6 +135,7 @@ internal sealed unsafe class GraphLinks
         Array.Resize(ref _upperStart, grown);
         Array.Resize(ref _levels, grown);
         Array.Resize(ref _inBottom, grown);
+        _capacity = grown;
     }
 
     /// <summary>
@@ -133,6 +153,7 @@ internal sealed unsafe class GraphLinks
             _upper = (int[])_upper.Clone(),
             _inUpper = (int[])_inUpper.Clone(),
             _upperUsed = _upperUsed,
+            _capacity = capacity,
         };
         _bottom.CopyTo(copy._bottom, 0);
         _upperStart.CopyTo(copy._upperStart, 0);
@@ -151,6 +172,7 @@ internal sealed unsafe class GraphLinks
         _upper = [];
         _inUpper = [];
         _upperUsed = 0;
+        _capacity = capacity;
     }
 
     /// <summary>Gives a new slot its level and empty lists on every layer; caller excludes all other users.</summary>
@@ -176,7 +198,26 @@ internal sealed unsafe class GraphLinks
     }
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    public int Level(int slot) => _levels[slot];
+    public int Level(int slot) => _mappedLevels != null ? MappedLevel(slot) : _levels[slot];
+
+    // A mapped node's level when its blocks lie inside the upper-layer section, else 0 (only a damaged file has such a
+    // node; it then reads as a node of the bottom layer alone, on every path alike).
+    private int MappedLevel(int slot)
+    {
+        if ((uint)slot >= (uint)_capacity)
+        {
+            return 0;
+        }
+
+        int level = _mappedLevels[slot];
+        if (level == 0 || level > _mappedMaxLevel)
+        {
+            return 0;
+        }
+
+        long start = _mappedStarts[slot];
+        return start >= 0 && start + ((long)level * (UpperLimit + 1)) <= _mappedUpperInts ? level : 0;
+    }
 
     /// <summary>The list of <paramref name="slot"/> on <paramref name="level"/>: element 0 is the count, then the neighbours.</summary>
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
@@ -190,14 +231,22 @@ internal sealed unsafe class GraphLinks
                 : MemoryMarshal.CreateSpan(ref Unsafe.Add(ref MemoryMarshal.GetArrayDataReference(_bottom), (nint)slot * stride), stride);
         }
 
-        int upperStride = UpperLimit + 1;
         if (_mappedUpper != null)
         {
-            // Within the section by construction (Mapped); a layer the node lacks reads as empty.
-            return level <= _levels[slot] ? new Span<int>(_mappedUpper + _upperStart[slot] + ((level - 1) * upperStride), upperStride) : s_noLinks;
+            return MappedUpperBlock(slot, level);
         }
 
+        int upperStride = UpperLimit + 1;
         return _upper.AsSpan(_upperStart[slot] + ((level - 1) * upperStride), upperStride);
+    }
+
+    // A mapped node's list on an upper layer; a layer the node lacks (or that would lie outside the section) reads as
+    // empty. Not inlined: the checks stay out of the walks that inline Block, whose bottom layer never comes here.
+    [MethodImpl(MethodImplOptions.NoInlining)]
+    private Span<int> MappedUpperBlock(int slot, int level)
+    {
+        int upperStride = UpperLimit + 1;
+        return level <= MappedLevel(slot) ? new Span<int>(_mappedUpper + _mappedStarts[slot] + ((nint)(level - 1) * upperStride), upperStride) : s_noLinks;
     }
 
     /// <summary>How many lists on <paramref name="level"/> name <paramref name="slot"/>; update it with interlocked operations.</summary>

@@ -16,7 +16,7 @@ namespace VectorKit.Tests.Persistence.Mapped;
 /// </summary>
 public sealed class MappedGraphTests : IDisposable
 {
-    private const int Dim = 8;
+    internal const int Dim = 8;
     private readonly TempFolder _folder = new();
 
     public static TheoryData<string> Variants => new()
@@ -33,6 +33,7 @@ public sealed class MappedGraphTests : IDisposable
         using GraphIndex saved = Build(variant, count: 400, seed: 3);
         string path = _folder.File(variant + ".vkx");
         IndexFile.Save(saved, path);
+        Assert.Equal(6, IndexFile.Inspect(path).FormatVersion);
         using FileVectorSource? source = variant == "scalar-external"
             ? FullVectorSources.WriteNpy(Directory.CreateDirectory(_folder.File("source")).FullName, Data(400, 3), Ids(400), Dim)
             : null;
@@ -97,12 +98,12 @@ public sealed class MappedGraphTests : IDisposable
             IndexFile.Save(mapped, _folder.File("b.vkx"));
         }
 
-        Assert.Equal(5, IndexFile.Inspect(_folder.File("b.vkx")).FormatVersion);
+        Assert.Equal(6, IndexFile.Inspect(_folder.File("b.vkx")).FormatVersion);
         Assert.Equal(File.ReadAllBytes(_folder.File("a.vkx")), File.ReadAllBytes(_folder.File("b.vkx")));
     }
 
     [Fact]
-    public void OpeningCopiesNoneOfTheBulk_OnlyTheLevelsAndTheUpperLayerStarts()
+    public void OpeningCopiesNoneOfTheBulk()
     {
         const int count = 4_000, dimension = 32;
         using (var built = new GraphIndex(dimension, DistanceMetric.SquaredEuclidean, new GraphIndexOptions { MaxDegreeOfParallelism = 1 }))
@@ -116,10 +117,10 @@ public sealed class MappedGraphTests : IDisposable
         using GraphIndex mapped = IndexFile.OpenMapped<GraphIndex>(_folder.File("bulk.vkx"));
         long allocated = GC.GetAllocatedBytesForCurrentThread() - before;
 
-        // The file holds about 0.8 MB of rows, links, ids and id order; opening copies the levels (1 byte per slot),
-        // builds the upper-layer starts (4 bytes per slot) and allocates the header and a few objects.
-        Assert.True(allocated < (count * 5) + (fileBytes / 20), $"opening allocated {allocated} bytes for a {fileBytes}-byte file of {count} slots");
-        Assert.True(mapped.MemoryBytes < (count * 5) + (fileBytes / 20), $"the mapped graph reports {mapped.MemoryBytes} bytes for a {fileBytes}-byte file");
+        // The file holds about 0.8 MB of rows, links, levels, starts, ids and id order; opening allocates the header
+        // and a few objects (MappedGraphOpenCostTests shows that this does not grow with the slots).
+        Assert.True(allocated < fileBytes / 20, $"opening allocated {allocated} bytes for a {fileBytes}-byte file of {count} slots");
+        Assert.True(mapped.MemoryBytes < fileBytes / 20, $"the mapped graph reports {mapped.MemoryBytes} bytes for a {fileBytes}-byte file");
         Assert.True(mapped.Contains(3 * 1_234));
         Assert.False(mapped.Contains((3 * 1_234) + 1));
     }
@@ -221,17 +222,32 @@ public sealed class MappedGraphTests : IDisposable
 
     [Fact]
     [Trait("Weakness", "CWE-130 length inconsistency")]
-    public void LevelsThatDisagreeWithTheUpperLayers_OrExceedTheCap_AreRejectedAtOpenEvenUnverified()
+    public void LevelsThatDisagreeWithTheUpperLayers_OrExceedTheCap_AreRejectedWhenVerifying_AndReadSafelyOtherwise()
     {
         byte[] file = SaveBytes(Build("float32-l2", count: 400, seed: 2));
         int low = Array.IndexOf(Section(file, SectionId.NodeLevels), (byte)0);
         byte[] raised = (byte[])file.Clone();
         EditSection(raised, SectionId.NodeLevels, levels => levels[low] = 1);
-        Assert.Contains("the levels require", Reject(raised).Message, StringComparison.Ordinal);
+        Assert.Contains("section 'UpperLinkStarts' (id 17)", Reject(raised, MappedOpenOptions.Untrusted).Message, StringComparison.Ordinal);
 
         byte[] capped = (byte[])file.Clone();
         EditSection(capped, SectionId.NodeLevels, levels => levels[low] = 200);
-        Assert.Contains($"slot {low} has level 200; the most is 30", Reject(capped).Message, StringComparison.Ordinal);
+        Assert.Contains($"section 'NodeLevels' (id 3) (payload from byte {IndexFileBytes.Map(file).Single(s => s.Id == (uint)SectionId.NodeLevels).PayloadStart}) is invalid: slot {low} has level 200; the most is 30", Reject(capped, MappedOpenOptions.Untrusted).Message, StringComparison.Ordinal);
+
+        // Unverified, a version-6 file is not read per slot at open: such a node reads as one of the bottom layer alone.
+        float[] queries = Data(20, 9);
+        foreach (byte[] damaged in new[] { raised, capped })
+        {
+            using GraphIndex mapped = IndexFile.OpenMapped<GraphIndex>(_folder.Write(damaged));
+            for (int q = 0; q < 20; q++)
+            {
+                Assert.Equal(10, mapped.Search(queries.AsSpan(q * Dim, Dim), 10).Length);
+            }
+        }
+
+        // A file without the starts (version 5) builds them from the levels at open, which checks them even unverified.
+        Assert.Contains("the levels require", Reject(MappedGraphStartsTests.WithoutStarts(raised)).Message, StringComparison.Ordinal);
+        Assert.Contains($"slot {low} has level 200; the most is 30", Reject(MappedGraphStartsTests.WithoutStarts(capped)).Message, StringComparison.Ordinal);
     }
 
     [Fact]
@@ -288,11 +304,11 @@ public sealed class MappedGraphTests : IDisposable
         return graph;
     }
 
-    private static float[] Data(int count, int seed) => ClusteredData.Generate(count, Dim, 6, 0.5f, seed);
+    internal static float[] Data(int count, int seed) => ClusteredData.Generate(count, Dim, 6, 0.5f, seed);
 
     private static long[] Ids(int count) => Enumerable.Range(0, count).Select(i => 1000L + (i * 3)).ToArray();
 
-    private static byte[] SaveBytes(GraphIndex index)
+    internal static byte[] SaveBytes(GraphIndex index)
     {
         using (index)
         {
@@ -300,13 +316,13 @@ public sealed class MappedGraphTests : IDisposable
         }
     }
 
-    private static byte[] Section(byte[] file, SectionId id)
+    internal static byte[] Section(byte[] file, SectionId id)
     {
         SectionSpan section = IndexFileBytes.Map(file).Single(s => s.Id == (uint)id);
         return file.AsSpan((int)section.PayloadStart, (int)section.Length).ToArray();
     }
 
-    private static void EditSection(byte[] file, SectionId id, SpanAction edit)
+    internal static void EditSection(byte[] file, SectionId id, SpanAction edit)
     {
         SectionSpan section = IndexFileBytes.Map(file).Single(s => s.Id == (uint)id);
         edit(file.AsSpan((int)section.PayloadStart, (int)section.Length));
@@ -316,5 +332,5 @@ public sealed class MappedGraphTests : IDisposable
     private IndexFileException Reject(byte[] file, MappedOpenOptions? options = null)
         => Assert.Throws<IndexFileException>(() => IndexFile.OpenMapped<GraphIndex>(_folder.Write(file), options).Dispose());
 
-    private delegate void SpanAction(Span<byte> span);
+    internal delegate void SpanAction(Span<byte> span);
 }
