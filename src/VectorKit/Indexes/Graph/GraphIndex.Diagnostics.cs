@@ -53,16 +53,20 @@ public sealed partial class GraphIndex
         }
     }
 
-    /// <summary>Runs the global reachability pass now and returns how many nodes it attached (for tests).</summary>
+    /// <summary>
+    /// Runs the global reachability pass now and returns how many nodes it attached (for tests and benchmarks). As after
+    /// a write: noted orphans are attached and the pass runs outside the write lock, which only its list writes take.
+    /// </summary>
     internal int RunFullPass()
     {
         using (_writerGate.EnterRead())
         using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
-            FinishLocked(null, 0, 0, forceFullPass: true);
+            FinishLocked(null, 0, 0, forceFullPass: true, deferAttach: true);
         }
 
+        AttachDueOrphans();
         return RunDueFullPass();
     }
 

@@ -501,46 +501,49 @@ public sealed partial class InvertedFileIndex : VectorIndex
         _mapping?.Dispose();
     }
 
-    // Adds (and with `replace`, replaces) a validated batch under the write lock. Cancellation is honoured only while
-    // rows are assigned to lists, before the first write, so a batch is all or nothing. Returns how many were replaced.
+    // Adds (and with `replace`, replaces) a validated batch. Rows are assigned to lists (and a batch of one chunk is
+    // encoded) before the write lock, beside searches, against the training of that moment; under the lock the work is
+    // redone only if a training landed in between. Cancellation is honoured only while rows are assigned, before the
+    // first write, so a batch is all or nothing. Returns how many were replaced.
     private protected override unsafe int WriteBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int d = Dimension;
         int replaced = 0;
-        _lock.EnterWriteLock();
+        int total = ids.Length;
+
+        // The chunk buffers are rented: a streamed build adds thousands of batches, and fresh large arrays per batch
+        // pile up as uncollected large-object garbage between full collections.
+        int chunkRows = Math.Min(AddChunk, Math.Max(1, total));
+        bool oneChunk = total <= chunkRows;
+        float[] rows = ArrayPool<float>.Shared.Rent(chunkRows * d);
+        int[] labels = ArrayPool<int>.Shared.Rent(total);
+        float[] distances = ArrayPool<float>.Shared.Rent(chunkRows);
+        byte[] codes = ArrayPool<byte>.Shared.Rent(chunkRows * _codeBytes);
         try
         {
-            ThrowIfDisposed();
-            ThrowIfReadOnly();
-            ThrowIfNotTrained();
-            if (!replace)
+            float[]? assignedWith = null;
+            if (Volatile.Read(ref _trained))
             {
-                _slotOf.CheckAbsent(ids, nameof(ids));
+                assignedWith = _centroids;
+                AssignRows(vectors, total, chunkRows, rows, labels, distances, codes, oneChunk, cancellationToken);
             }
 
-            int total = ids.Length;
-            EnsureSlotCapacity(checked(_count + total));
-            _slotOf.EnsureCapacity(_count + total);
-
-            // Two passes over the batch in chunks (temporary copies stay small): assign every row to its list, grow
-            // each list once to its final size, then encode and append. The chunk buffers are rented: a streamed
-            // build adds thousands of batches, and fresh large arrays per batch pile up as uncollected large-object
-            // garbage between full collections.
-            int chunkRows = Math.Min(AddChunk, Math.Max(1, total));
-            float[] rows = ArrayPool<float>.Shared.Rent(chunkRows * d);
-            int[] labels = ArrayPool<int>.Shared.Rent(total);
-            float[] distances = ArrayPool<float>.Shared.Rent(chunkRows);
-            byte[] codes = ArrayPool<byte>.Shared.Rent(chunkRows * _codeBytes);
+            _lock.EnterWriteLock();
             try
             {
-                for (int start = 0; start < total; start += chunkRows)
+                ThrowIfDisposed();
+                ThrowIfReadOnly();
+                ThrowIfNotTrained();
+                if (!replace)
                 {
-                    int n = Math.Min(chunkRows, total - start);
-                    Prepare(vectors.Slice(start * d, n * d), rows);
-                    fixed (float* pointer = rows)
-                    {
-                        NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances.AsSpan(0, n), _options.EffectiveParallelism, cancellationToken);
-                    }
+                    _slotOf.CheckAbsent(ids, nameof(ids));
+                }
+
+                EnsureSlotCapacity(checked(_count + total));
+                _slotOf.EnsureCapacity(_count + total);
+                if (!ReferenceEquals(assignedWith, _centroids))
+                {
+                    AssignRows(vectors, total, chunkRows, rows, labels, distances, codes, oneChunk, cancellationToken);
                 }
 
                 // Nothing is written before this point, and nothing after it checks the token.
@@ -557,29 +560,57 @@ public sealed partial class InvertedFileIndex : VectorIndex
                 }
 
                 GrowLists(labels.AsSpan(0, total));
-                for (int start = 0; start < total; start += chunkRows)
+                if (oneChunk)
                 {
-                    int n = Math.Min(chunkRows, total - start);
-                    Prepare(vectors.Slice(start * d, n * d), rows);
-                    Encode(rows, labels.AsSpan(start, n), n, codes);
-                    Append(ids.Slice(start, n), rows, labels.AsSpan(start, n), codes, n);
+                    Append(ids, rows, labels.AsSpan(0, total), codes, total);
+                }
+                else
+                {
+                    for (int start = 0; start < total; start += chunkRows)
+                    {
+                        int n = Math.Min(chunkRows, total - start);
+                        Prepare(vectors.Slice(start * d, n * d), rows);
+                        Encode(rows, labels.AsSpan(start, n), n, codes);
+                        Append(ids.Slice(start, n), rows, labels.AsSpan(start, n), codes, n);
+                    }
                 }
             }
             finally
             {
-                ArrayPool<float>.Shared.Return(rows);
-                ArrayPool<int>.Shared.Return(labels);
-                ArrayPool<float>.Shared.Return(distances);
-                ArrayPool<byte>.Shared.Return(codes);
+                _lock.ExitWriteLock();
             }
         }
         finally
         {
-            _lock.ExitWriteLock();
+            ArrayPool<float>.Shared.Return(rows);
+            ArrayPool<int>.Shared.Return(labels);
+            ArrayPool<float>.Shared.Return(distances);
+            ArrayPool<byte>.Shared.Return(codes);
         }
 
         progress?.Report(ids.Length);
         return replaced;
+    }
+
+    // Assigns every row of the batch to its list, chunk by chunk (temporary copies stay small); a batch of one chunk
+    // is also prepared and encoded, ready to append. Reads only the training (centroids and quantizer).
+    private unsafe void AssignRows(ReadOnlySpan<float> vectors, int total, int chunkRows, float[] rows, int[] labels, float[] distances, byte[] codes, bool oneChunk, CancellationToken cancellationToken)
+    {
+        int d = Dimension;
+        for (int start = 0; start < total; start += chunkRows)
+        {
+            int n = Math.Min(chunkRows, total - start);
+            Prepare(vectors.Slice(start * d, n * d), rows);
+            fixed (float* pointer = rows)
+            {
+                NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances.AsSpan(0, n), _options.EffectiveParallelism, cancellationToken);
+            }
+        }
+
+        if (oneChunk)
+        {
+            Encode(rows, labels.AsSpan(0, total), total, codes);
+        }
     }
 
     // The rows as stored: copied, or scaled to unit length under cosine.
