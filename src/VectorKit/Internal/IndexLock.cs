@@ -40,6 +40,7 @@ internal sealed class IndexLock
     // When the writer raised its flag (from then on new readers wait), and the longest such hold so far (Stopwatch
     // ticks; diagnostics).
     private long _heldSince;
+    private long _ownedSince;
     private long _longestHold;
 
     /// <summary>Whether the calling thread holds the write lock.</summary>
@@ -59,12 +60,12 @@ internal sealed class IndexLock
     /// </summary>
     internal static long TraceHoldsLongerThan { get; set; }
 
-    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, string Stack)> s_longHolds = new();
+    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, string Stack)> s_longHolds = new();
 
     /// <summary>The holds recorded under <see cref="TraceHoldsLongerThan"/> since the last call, emptying the record.</summary>
-    internal static List<(double Ms, string Stack)> TakeLongHolds()
+    internal static List<(double Ms, double DrainMs, string Stack)> TakeLongHolds()
     {
-        var holds = new List<(double Ms, string Stack)>();
+        var holds = new List<(double Ms, double DrainMs, string Stack)>();
         while (s_longHolds.TryDequeue(out var hold))
         {
             holds.Add(hold);
@@ -205,6 +206,7 @@ internal sealed class IndexLock
             }
 
             Volatile.Write(ref _owner, Environment.CurrentManagedThreadId);
+            _ownedSince = System.Diagnostics.Stopwatch.GetTimestamp();
             Interlocked.Decrement(ref _counters.WaitingWriters);
         }
         catch
@@ -236,7 +238,8 @@ internal sealed class IndexLock
 
         if (TraceHoldsLongerThan > 0 && held > TraceHoldsLongerThan)
         {
-            s_longHolds.Enqueue(((double)held * 1000 / System.Diagnostics.Stopwatch.Frequency, new System.Diagnostics.StackTrace(1, false).ToString()));
+            double drain = (double)(_ownedSince - _heldSince) * 1000 / System.Diagnostics.Stopwatch.Frequency;
+            s_longHolds.Enqueue(((double)held * 1000 / System.Diagnostics.Stopwatch.Frequency, drain, new System.Diagnostics.StackTrace(1, false).ToString()));
         }
 
         Volatile.Write(ref _owner, 0);

@@ -21,6 +21,9 @@ public sealed partial class GraphIndex
     /// <summary>Called by an add batch between its exclusive store step and its linking (for tests).</summary>
     internal Action? AfterBatchStored { get; set; }
 
+    /// <summary>Called by an add batch inside its read lock, before linking; for tests.</summary>
+    internal Action? DuringLinking { get; set; }
+
     /// <summary>Replaces the options' filtered-scan fraction (0: always walk, 1: always scan); for tests and benchmarks.</summary>
     internal double? FilteredScanFractionOverride { get; set; }
 

@@ -302,6 +302,7 @@ public sealed partial class GraphIndex : VectorIndex
             _lock.EnterBatchReadLock();
             using var read = new IndexLock.BatchReadScope(_lock);
             ThrowIfDisposed();
+            DuringLinking?.Invoke();
             LinkAll(first, n, progress, cancellationToken);
         }
         catch (OperationCanceledException)

@@ -394,13 +394,17 @@ public sealed partial class InvertedFileIndex : VectorIndex
         var codes = new byte[lists][];
         for (int list = 0; list < lists; list++)
         {
-            slots[list] = _listSlots[list].AsSpan(0, _listCounts[list]).ToArray();
-            codes[list] = _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(_listCounts[list]))).ToArray();
+            // A list without slack is kept as it is: copying it would only make garbage for the collector, whose
+            // pauses stop searches too.
+            int length = _listCounts[list];
+            int codeBytes = checked((int)ListCodeBytes(length));
+            slots[list] = _listSlots[list].Length == length ? _listSlots[list] : _listSlots[list].AsSpan(0, length).ToArray();
+            codes[list] = _listCodes[list].Length == codeBytes ? _listCodes[list] : _listCodes[list].AsSpan(0, codeBytes).ToArray();
         }
 
-        long[] ids = _ids.AsSpan(0, count).ToArray();
-        int[] listOf = _listOf.AsSpan(0, count).ToArray();
-        int[] positionOf = _positionOf.AsSpan(0, count).ToArray();
+        long[] ids = _ids.Length == count ? _ids : _ids.AsSpan(0, count).ToArray();
+        int[] listOf = _listOf.Length == count ? _listOf : _listOf.AsSpan(0, count).ToArray();
+        int[] positionOf = _positionOf.Length == count ? _positionOf : _positionOf.AsSpan(0, count).ToArray();
         var slotOf = new IdMap(count);
         for (int slot = 0; slot < count; slot++)
         {
