@@ -169,6 +169,7 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
 
         if (_rows != null)
         {
+            PageRelease.BeforeFree(_rows, Bytes);
             NativeMemory.AlignedFree(_rows);
             _rows = null;
             Capacity = 0;

@@ -526,10 +526,12 @@ public sealed partial class InvertedFileIndex : VectorIndex
         try
         {
             float[]? assignedWith = null;
+            List<(int List, int[] Slots, byte[] Codes)>? grown = null;
             if (Volatile.Read(ref _trained))
             {
                 assignedWith = _centroids;
                 AssignRows(vectors, total, chunkRows, rows, labels, distances, codes, oneChunk, cancellationToken);
+                grown = GrownListsFor(labels.AsSpan(0, total));
             }
 
             _lock.EnterWriteLock();
@@ -563,7 +565,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
                     }
                 }
 
-                GrowLists(labels.AsSpan(0, total));
+                GrowLists(labels.AsSpan(0, total), grown);
                 if (oneChunk)
                 {
                     Append(ids, rows, labels.AsSpan(0, total), codes, total);
@@ -756,7 +758,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
 
     // Grows every list that the batch adds to, once: exactly to size when it was empty (a bulk load leaves no slack),
     // else by half again or to size, whichever is larger.
-    private void GrowLists(ReadOnlySpan<int> labels)
+    private void GrowLists(ReadOnlySpan<int> labels, List<(int List, int[] Slots, byte[] Codes)>? grown = null)
     {
         var added = new int[_listCounts.Length];
         foreach (int label in labels)
@@ -771,11 +773,53 @@ public sealed partial class InvertedFileIndex : VectorIndex
             if (added[list] > 0 && current < required)
             {
                 ListRegrowths += current == 0 ? 0 : 1;
-                int capacity = current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
+                (int List, int[] Slots, byte[] Codes) ready = grown?.Find(g => g.List == list) ?? default;
+                if (ready.Slots is not null && ready.Slots.Length >= required)
+                {
+                    // Made before the lock; only the entries are copied here.
+                    int length = _listCounts[list];
+                    _listSlots[list].AsSpan(0, length).CopyTo(ready.Slots);
+                    _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(length))).CopyTo(ready.Codes);
+                    _listSlots[list] = ready.Slots;
+                    _listCodes[list] = ready.Codes;
+                    continue;
+                }
+
+                int capacity = GrownListCapacity(current, required);
                 Array.Resize(ref _listSlots[list], capacity);
                 Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
             }
         }
+    }
+
+    // The capacity a list of `current` entries grows to when it must hold `required`.
+    private static int GrownListCapacity(int current, int required)
+        => current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
+
+    // For a small batch, the larger arrays of the lists it would overflow, made before the write lock: an allocation
+    // of a large list's codes can wait for another thread's large allocation, and under the lock every search would
+    // wait with it. A hint read without the lock; GrowLists checks each against the lists as they are then.
+    private List<(int List, int[] Slots, byte[] Codes)>? GrownListsFor(ReadOnlySpan<int> labels)
+    {
+        if (labels.Length > 64)
+        {
+            return null;
+        }
+
+        List<(int List, int[] Slots, byte[] Codes)>? grown = null;
+        for (int i = 0; i < labels.Length; i++)
+        {
+            int list = labels[i];
+            int required = Volatile.Read(ref _listCounts[list]) + labels.Length;
+            int current = _listSlots[list].Length;
+            if (current < required && grown?.Exists(g => g.List == list) != true)
+            {
+                int capacity = GrownListCapacity(current, required);
+                (grown ??= []).Add((list, new int[capacity], new byte[checked((int)ListCodeBytes(capacity))]));
+            }
+        }
+
+        return grown;
     }
 
     // Appends encoded rows to their lists (already grown) and to the slots.
