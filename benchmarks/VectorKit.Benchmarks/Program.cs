@@ -19,7 +19,7 @@ namespace VectorKit.Benchmarks;
 /// <c>storage-load [exact count] [graph count] [dimension]</c>; mapped opening against loading,
 /// <c>mapped-open [count] [dimension] [queries] [rounds] [exact|ivf|graph|graph-8bit]</c>; and every index kind side by side at default options on
 /// Fashion-MNIST: <c>index-guide [without-default-lists]</c>; search latency during removals, the graph's global pass,
-/// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds] [nice of the searching and writing threads]</c>; the
+/// compaction, saves and batch searches: <c>maintenance-latency [count] [dimension] [seconds] [kinds] [nice of the searching and writing threads, or rt for real-time scheduling]</c>; the
 /// command-line tool's overhead over the library on the Fashion-MNIST batch job: <c>tool-overhead [rounds]</c>; the exact
 /// index's batch search against the numpy + OpenBLAS baseline: <c>exact-batch-vs-blas [repetitions] [reference queries] [baseline ids]</c>;
 /// recall-targeted tuning of every kind beside its untuned defaults: <c>tuning [fashion-mnist|text|clustered] [target] [cosine|-] [count] [dimension] [kinds]</c>;
@@ -193,8 +193,9 @@ public static class Program
             int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
             double seconds = args.Length > 3 ? double.Parse(args[3], CultureInfo.InvariantCulture) : 5;
             string[] kinds = args.Length > 4 ? args[4].Split(',') : ["exact", "graph", "inverted-file"];
-            int foregroundNice = args.Length > 5 ? int.Parse(args[5], CultureInfo.InvariantCulture) : 0;
-            MaintenanceLatency.Run(count, dimension, seconds, kinds, foregroundNice);
+            bool realTime = args.Length > 5 && args[5] == "rt";
+            int foregroundNice = args.Length > 5 && !realTime ? int.Parse(args[5], CultureInfo.InvariantCulture) : 0;
+            MaintenanceLatency.Run(count, dimension, seconds, kinds, foregroundNice, realTime);
             return;
         }
 

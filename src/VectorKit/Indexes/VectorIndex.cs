@@ -501,6 +501,12 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
         }
 
         using var gate = _writerGate.EnterWrite();
+        ReserveRowsHoldingGate(added);
+    }
+
+    // ReserveRows' work, with the writer gate held exclusively.
+    private void ReserveRowsHoldingGate(int added)
+    {
         if (IsDisposed || IsReadOnly)
         {
             // A read-only (mapped) index refuses the write itself.
@@ -560,20 +566,40 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     /// <summary>
     /// Reserves room for a batch of <paramref name="added"/> (<see cref="ReserveRows"/>), then enters the writer gate
     /// for the write. A compaction may trim the room between the two (it holds the gate alone); the room is then
-    /// reserved again, twice at most, after which the write grows the storage under the lock as it must.
+    /// reserved again holding the gate's upgradeable side, which keeps compactions out until the write holds the gate,
+    /// so the storage grows beside searches, never under the write lock (unless it cannot grow further).
     /// </summary>
     private LockScopes.ReadScope EnterGateWithRoom(int added)
     {
-        for (int attempt = 0; ; attempt++)
+        ReserveRows(added);
+        LockScopes.ReadScope gate = _writerGate.EnterRead();
+        if (HasRoomFor(added))
         {
-            ReserveRows(added);
-            LockScopes.ReadScope gate = _writerGate.EnterRead();
-            if (attempt >= 2 || HasRoomFor(added))
+            return gate;
+        }
+
+        gate.Dispose();
+        _writerGate.EnterUpgradeableReadLock();
+        try
+        {
+            if (!HasRoomFor(added))
             {
-                return gate;
+                _writerGate.EnterWriteLock();
+                try
+                {
+                    ReserveRowsHoldingGate(added);
+                }
+                finally
+                {
+                    _writerGate.ExitWriteLock();
+                }
             }
 
-            gate.Dispose();
+            return _writerGate.EnterRead();
+        }
+        finally
+        {
+            _writerGate.ExitUpgradeableReadLock();
         }
     }
 

@@ -28,22 +28,59 @@ internal sealed class IndexLock
     // Readers that spun past the budget sleep on this until the writer leaves.
     private readonly object _wake = new();
 
+    // The time this thread's reads waited for writers since it last asked (Stopwatch ticks; diagnostics, slow path only).
+    [ThreadStatic]
+    private static long t_readWaitTicks;
+
     private Counters _counters;
 
     // The managed thread id of the writer holding the lock, 0 when none.
     private int _owner;
 
-    // When the holding writer took the lock, and the longest hold so far (Stopwatch ticks; diagnostics).
+    // When the writer raised its flag (from then on new readers wait), and the longest such hold so far (Stopwatch
+    // ticks; diagnostics).
     private long _heldSince;
+    private long _ownedSince;
     private long _longestHold;
 
     /// <summary>Whether the calling thread holds the write lock.</summary>
     public bool IsWriteLockHeld => Volatile.Read(ref _owner) == Environment.CurrentManagedThreadId;
 
-    /// <summary>The longest time a writer held the lock since the last <see cref="ResetLongestWriteHold"/> (for benchmarks).</summary>
+    /// <summary>
+    /// The longest time a writer kept new readers out (from raising its flag, through the wait for readers inside, to
+    /// leaving) since the last <see cref="ResetLongestWriteHold"/> (for benchmarks).
+    /// </summary>
     public TimeSpan LongestWriteHold => TimeSpan.FromSeconds((double)Volatile.Read(ref _longestHold) / System.Diagnostics.Stopwatch.Frequency);
 
     public void ResetLongestWriteHold() => Volatile.Write(ref _longestHold, 0);
+
+    /// <summary>
+    /// When positive, every write-lock hold longer than this many Stopwatch ticks records the writer's stack at its end
+    /// (for benchmarks that look for long exclusive steps; off by default).
+    /// </summary>
+    internal static long TraceHoldsLongerThan { get; set; }
+
+    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, string Stack)> s_longHolds = new();
+
+    /// <summary>The holds recorded under <see cref="TraceHoldsLongerThan"/> since the last call, emptying the record.</summary>
+    internal static List<(double Ms, double DrainMs, string Stack)> TakeLongHolds()
+    {
+        var holds = new List<(double Ms, double DrainMs, string Stack)>();
+        while (s_longHolds.TryDequeue(out var hold))
+        {
+            holds.Add(hold);
+        }
+
+        return holds;
+    }
+
+    /// <summary>How long the calling thread's reads waited for writers since its last call, on any index (for benchmarks).</summary>
+    public static TimeSpan TakeReadWait()
+    {
+        long ticks = t_readWaitTicks;
+        t_readWaitTicks = 0;
+        return TimeSpan.FromSeconds((double)ticks / System.Diagnostics.Stopwatch.Frequency);
+    }
 
     /// <summary>Writers waiting: for their turn, for batch queries or for readers to leave.</summary>
     public int WaitingWriteCount => Volatile.Read(ref _counters.WaitingWriters);
@@ -62,7 +99,9 @@ internal sealed class IndexLock
 
             Interlocked.Decrement(ref _counters.Readers);
             Interlocked.Increment(ref _counters.SpinningReaders);
+            long waitStart = System.Diagnostics.Stopwatch.GetTimestamp();
             WaitForWriter();
+            t_readWaitTicks += System.Diagnostics.Stopwatch.GetTimestamp() - waitStart;
             Interlocked.Decrement(ref _counters.SpinningReaders);
         }
     }
@@ -98,7 +137,10 @@ internal sealed class IndexLock
 
     public void ExitReadLock() => Interlocked.Decrement(ref _counters.Readers);
 
-    /// <summary>The read lock for one batch query (or tile): waits first while a writer is waiting or writing.</summary>
+    /// <summary>
+    /// The read lock for a long reader (one block of a batch query, the linking of an add): waits first while a writer
+    /// is waiting or writing, and a writer waits for it to end before keeping new readers out.
+    /// </summary>
     public void EnterBatchReadLock()
     {
         // The same handshake as EnterReadLock's, against writers from the moment they arrive.
@@ -156,6 +198,7 @@ internal sealed class IndexLock
             }
 
             Interlocked.Exchange(ref _counters.Writing, 1);
+            _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
             spin.Reset();
             while (Volatile.Read(ref _counters.Readers) != 0)
             {
@@ -163,7 +206,7 @@ internal sealed class IndexLock
             }
 
             Volatile.Write(ref _owner, Environment.CurrentManagedThreadId);
-            _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
+            _ownedSince = System.Diagnostics.Stopwatch.GetTimestamp();
             Interlocked.Decrement(ref _counters.WaitingWriters);
         }
         catch
@@ -191,6 +234,12 @@ internal sealed class IndexLock
         if (held > _longestHold)
         {
             Volatile.Write(ref _longestHold, held);
+        }
+
+        if (TraceHoldsLongerThan > 0 && held > TraceHoldsLongerThan)
+        {
+            double drain = (double)(_ownedSince - _heldSince) * 1000 / System.Diagnostics.Stopwatch.Frequency;
+            s_longHolds.Enqueue(((double)held * 1000 / System.Diagnostics.Stopwatch.Frequency, drain, new System.Diagnostics.StackTrace(1, false).ToString()));
         }
 
         Volatile.Write(ref _owner, 0);

@@ -11,7 +11,9 @@ namespace VectorKit.Internal;
 /// <remarks>
 /// Not thread-safe on its own: the owning index serialises growth against readers. Growth moves the block, so no
 /// reference into it may be held across a call that can grow it. Freed by <see cref="Dispose"/>, or by the finalizer
-/// if the owner was never disposed.
+/// if the owner was never disposed. The block is not reported to the collector as memory pressure: that report
+/// starts full collections when large blocks are allocated (a compaction's copy, a growth), whose pauses stop every
+/// search; an owner that is not disposed keeps its block until a collection finalizes it.
 /// </remarks>
 internal abstract unsafe class RowBuffer<T> : IDisposable
     where T : unmanaged
@@ -111,18 +113,8 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
         }
 
         // AlignedRealloc keeps min(old, new) bytes, so growing never loses rows.
-        long oldBytes = Bytes;
         _rows = (T*)NativeMemory.AlignedRealloc(_rows, bytes, Alignment);
         Capacity = capacity;
-        long delta = Bytes - oldBytes;
-        if (delta > 0)
-        {
-            GC.AddMemoryPressure(delta);
-        }
-        else if (delta < 0)
-        {
-            GC.RemoveMemoryPressure(-delta);
-        }
     }
 
     public void CopyRow(int from, int to) => RowSpan(from).CopyTo(RowSpan(to));
@@ -177,13 +169,9 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
 
         if (_rows != null)
         {
+            PageRelease.BeforeFree(_rows, Bytes);
             NativeMemory.AlignedFree(_rows);
             _rows = null;
-            if (Bytes > 0)
-            {
-                GC.RemoveMemoryPressure(Bytes);
-            }
-
             Capacity = 0;
         }
     }

@@ -80,6 +80,43 @@ public sealed class MaintenanceConcurrencyTests
         }
     }
 
+    [Fact]
+    public void ASearch_DoesNotQueueBehindAWrite_ThatWaitsForAGraphAddStillLinking()
+    {
+        const int n = 1500, d = 16;
+        float[] data = ContractData.Rows(n + 1, d, seed: 17);
+        using var index = (GraphIndex)Create("graph", d, data.AsSpan(0, n * d).ToArray());
+
+        // An add parks inside its read lock, before linking its new item.
+        using var parked = new ManualResetEventSlim();
+        using var release = new ManualResetEventSlim();
+        bool parkTimedOut = false;
+        index.DuringLinking = () =>
+        {
+            parked.Set();
+            parkTimedOut = !release.Wait(Guard);
+        };
+        var adder = new Background(() => index.Add(n, data.AsSpan(n * d, d)));
+        Assert.True(parked.Wait(Guard), "the add never reached its linking");
+        index.DuringLinking = null;
+
+        // A removal arrives and waits for the linking; a search must not queue behind it.
+        var writer = new Background(() => index.Remove(n - 1));
+        Assert.True(SpinWait.SpinUntil(() => index.WaitingWriters > 0 || writer.IsCompleted, Guard));
+        Assert.False(writer.IsCompleted, "the removal ran while an add was linking");
+        var search = new Background(() => index.Search(data.AsSpan(5 * d, d), 3, new SearchOptions { SearchWidth = 64 }));
+        bool searched = search.Finishes();
+        release.Set();
+        adder.Result<object>();
+        writer.Result<object>();
+        Assert.True(searched, "the search queued behind a write that waited for an add's linking");
+        Assert.False(parkTimedOut);
+        Assert.Equal(5, search.Result<SearchHit[]>()[0].Id);
+        Assert.True(index.Contains(n));
+        Assert.False(index.Contains(n - 1));
+        Assert.Equal(n, index.Search(data.AsSpan(n * d, d), 1, new SearchOptions { SearchWidth = 64 })[0].Id);
+    }
+
     [Theory]
     [MemberData(nameof(Kinds))]
     public void ASearch_DoesNotQueueBehindAWrite_ThatWaitsForABatchQuery(string kind)

@@ -21,6 +21,9 @@ public sealed partial class GraphIndex
     /// <summary>Called by an add batch between its exclusive store step and its linking (for tests).</summary>
     internal Action? AfterBatchStored { get; set; }
 
+    /// <summary>Called by an add batch inside its read lock, before linking; for tests.</summary>
+    internal Action? DuringLinking { get; set; }
+
     /// <summary>Replaces the options' filtered-scan fraction (0: always walk, 1: always scan); for tests and benchmarks.</summary>
     internal double? FilteredScanFractionOverride { get; set; }
 
@@ -53,16 +56,20 @@ public sealed partial class GraphIndex
         }
     }
 
-    /// <summary>Runs the global reachability pass now and returns how many nodes it attached (for tests).</summary>
+    /// <summary>
+    /// Runs the global reachability pass now and returns how many nodes it attached (for tests and benchmarks). As after
+    /// a write: noted orphans are attached and the pass runs outside the write lock, which only its list writes take.
+    /// </summary>
     internal int RunFullPass()
     {
         using (_writerGate.EnterRead())
         using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
-            FinishLocked(null, 0, 0, forceFullPass: true);
+            FinishLocked(null, 0, 0, forceFullPass: true, deferAttach: true);
         }
 
+        AttachDueOrphans();
         return RunDueFullPass();
     }
 

@@ -297,8 +297,12 @@ public sealed partial class GraphIndex : VectorIndex
         AfterBatchStored?.Invoke();
         try
         {
-            using var read = _lock.EnterRead();
+            // Linking takes as long as searches do, many over: as a batch query's, its read lock makes a writer wait
+            // for it before the writer keeps new searches out, not after.
+            _lock.EnterBatchReadLock();
+            using var read = new IndexLock.BatchReadScope(_lock);
             ThrowIfDisposed();
+            DuringLinking?.Invoke();
             LinkAll(first, n, progress, cancellationToken);
         }
         catch (OperationCanceledException)

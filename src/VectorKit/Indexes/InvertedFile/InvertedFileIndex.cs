@@ -394,13 +394,17 @@ public sealed partial class InvertedFileIndex : VectorIndex
         var codes = new byte[lists][];
         for (int list = 0; list < lists; list++)
         {
-            slots[list] = _listSlots[list].AsSpan(0, _listCounts[list]).ToArray();
-            codes[list] = _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(_listCounts[list]))).ToArray();
+            // A list without slack is kept as it is: copying it would only make garbage for the collector, whose
+            // pauses stop searches too.
+            int length = _listCounts[list];
+            int codeBytes = checked((int)ListCodeBytes(length));
+            slots[list] = _listSlots[list].Length == length ? _listSlots[list] : _listSlots[list].AsSpan(0, length).ToArray();
+            codes[list] = _listCodes[list].Length == codeBytes ? _listCodes[list] : _listCodes[list].AsSpan(0, codeBytes).ToArray();
         }
 
-        long[] ids = _ids.AsSpan(0, count).ToArray();
-        int[] listOf = _listOf.AsSpan(0, count).ToArray();
-        int[] positionOf = _positionOf.AsSpan(0, count).ToArray();
+        long[] ids = _ids.Length == count ? _ids : _ids.AsSpan(0, count).ToArray();
+        int[] listOf = _listOf.Length == count ? _listOf : _listOf.AsSpan(0, count).ToArray();
+        int[] positionOf = _positionOf.Length == count ? _positionOf : _positionOf.AsSpan(0, count).ToArray();
         var slotOf = new IdMap(count);
         for (int slot = 0; slot < count; slot++)
         {
@@ -501,46 +505,51 @@ public sealed partial class InvertedFileIndex : VectorIndex
         _mapping?.Dispose();
     }
 
-    // Adds (and with `replace`, replaces) a validated batch under the write lock. Cancellation is honoured only while
-    // rows are assigned to lists, before the first write, so a batch is all or nothing. Returns how many were replaced.
+    // Adds (and with `replace`, replaces) a validated batch. Rows are assigned to lists (and a batch of one chunk is
+    // encoded) before the write lock, beside searches, against the training of that moment; under the lock the work is
+    // redone only if a training landed in between. Cancellation is honoured only while rows are assigned, before the
+    // first write, so a batch is all or nothing. Returns how many were replaced.
     private protected override unsafe int WriteBatch(ReadOnlySpan<long> ids, ReadOnlySpan<float> vectors, bool replace, IProgress<int>? progress, CancellationToken cancellationToken)
     {
         int d = Dimension;
         int replaced = 0;
-        _lock.EnterWriteLock();
+        int total = ids.Length;
+
+        // The chunk buffers are rented: a streamed build adds thousands of batches, and fresh large arrays per batch
+        // pile up as uncollected large-object garbage between full collections.
+        int chunkRows = Math.Min(AddChunk, Math.Max(1, total));
+        bool oneChunk = total <= chunkRows;
+        float[] rows = ArrayPool<float>.Shared.Rent(chunkRows * d);
+        int[] labels = ArrayPool<int>.Shared.Rent(total);
+        float[] distances = ArrayPool<float>.Shared.Rent(chunkRows);
+        byte[] codes = ArrayPool<byte>.Shared.Rent(chunkRows * _codeBytes);
         try
         {
-            ThrowIfDisposed();
-            ThrowIfReadOnly();
-            ThrowIfNotTrained();
-            if (!replace)
+            float[]? assignedWith = null;
+            List<(int List, int[] Slots, byte[] Codes)>? grown = null;
+            if (Volatile.Read(ref _trained))
             {
-                _slotOf.CheckAbsent(ids, nameof(ids));
+                assignedWith = _centroids;
+                AssignRows(vectors, total, chunkRows, rows, labels, distances, codes, oneChunk, cancellationToken);
+                grown = GrownListsFor(labels.AsSpan(0, total));
             }
 
-            int total = ids.Length;
-            EnsureSlotCapacity(checked(_count + total));
-            _slotOf.EnsureCapacity(_count + total);
-
-            // Two passes over the batch in chunks (temporary copies stay small): assign every row to its list, grow
-            // each list once to its final size, then encode and append. The chunk buffers are rented: a streamed
-            // build adds thousands of batches, and fresh large arrays per batch pile up as uncollected large-object
-            // garbage between full collections.
-            int chunkRows = Math.Min(AddChunk, Math.Max(1, total));
-            float[] rows = ArrayPool<float>.Shared.Rent(chunkRows * d);
-            int[] labels = ArrayPool<int>.Shared.Rent(total);
-            float[] distances = ArrayPool<float>.Shared.Rent(chunkRows);
-            byte[] codes = ArrayPool<byte>.Shared.Rent(chunkRows * _codeBytes);
+            _lock.EnterWriteLock();
             try
             {
-                for (int start = 0; start < total; start += chunkRows)
+                ThrowIfDisposed();
+                ThrowIfReadOnly();
+                ThrowIfNotTrained();
+                if (!replace)
                 {
-                    int n = Math.Min(chunkRows, total - start);
-                    Prepare(vectors.Slice(start * d, n * d), rows);
-                    fixed (float* pointer = rows)
-                    {
-                        NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances.AsSpan(0, n), _options.EffectiveParallelism, cancellationToken);
-                    }
+                    _slotOf.CheckAbsent(ids, nameof(ids));
+                }
+
+                EnsureSlotCapacity(checked(_count + total));
+                _slotOf.EnsureCapacity(_count + total);
+                if (!ReferenceEquals(assignedWith, _centroids))
+                {
+                    AssignRows(vectors, total, chunkRows, rows, labels, distances, codes, oneChunk, cancellationToken);
                 }
 
                 // Nothing is written before this point, and nothing after it checks the token.
@@ -556,30 +565,58 @@ public sealed partial class InvertedFileIndex : VectorIndex
                     }
                 }
 
-                GrowLists(labels.AsSpan(0, total));
-                for (int start = 0; start < total; start += chunkRows)
+                GrowLists(labels.AsSpan(0, total), grown);
+                if (oneChunk)
                 {
-                    int n = Math.Min(chunkRows, total - start);
-                    Prepare(vectors.Slice(start * d, n * d), rows);
-                    Encode(rows, labels.AsSpan(start, n), n, codes);
-                    Append(ids.Slice(start, n), rows, labels.AsSpan(start, n), codes, n);
+                    Append(ids, rows, labels.AsSpan(0, total), codes, total);
+                }
+                else
+                {
+                    for (int start = 0; start < total; start += chunkRows)
+                    {
+                        int n = Math.Min(chunkRows, total - start);
+                        Prepare(vectors.Slice(start * d, n * d), rows);
+                        Encode(rows, labels.AsSpan(start, n), n, codes);
+                        Append(ids.Slice(start, n), rows, labels.AsSpan(start, n), codes, n);
+                    }
                 }
             }
             finally
             {
-                ArrayPool<float>.Shared.Return(rows);
-                ArrayPool<int>.Shared.Return(labels);
-                ArrayPool<float>.Shared.Return(distances);
-                ArrayPool<byte>.Shared.Return(codes);
+                _lock.ExitWriteLock();
             }
         }
         finally
         {
-            _lock.ExitWriteLock();
+            ArrayPool<float>.Shared.Return(rows);
+            ArrayPool<int>.Shared.Return(labels);
+            ArrayPool<float>.Shared.Return(distances);
+            ArrayPool<byte>.Shared.Return(codes);
         }
 
         progress?.Report(ids.Length);
         return replaced;
+    }
+
+    // Assigns every row of the batch to its list, chunk by chunk (temporary copies stay small); a batch of one chunk
+    // is also prepared and encoded, ready to append. Reads only the training (centroids and quantizer).
+    private unsafe void AssignRows(ReadOnlySpan<float> vectors, int total, int chunkRows, float[] rows, int[] labels, float[] distances, byte[] codes, bool oneChunk, CancellationToken cancellationToken)
+    {
+        int d = Dimension;
+        for (int start = 0; start < total; start += chunkRows)
+        {
+            int n = Math.Min(chunkRows, total - start);
+            Prepare(vectors.Slice(start * d, n * d), rows);
+            fixed (float* pointer = rows)
+            {
+                NearestCentroid.Assign(_kernelPath, pointer, n, _centroids, _options.ListCount, d, labels.AsSpan(start, n), distances.AsSpan(0, n), _options.EffectiveParallelism, cancellationToken);
+            }
+        }
+
+        if (oneChunk)
+        {
+            Encode(rows, labels.AsSpan(0, total), total, codes);
+        }
     }
 
     // The rows as stored: copied, or scaled to unit length under cosine.
@@ -721,7 +758,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
 
     // Grows every list that the batch adds to, once: exactly to size when it was empty (a bulk load leaves no slack),
     // else by half again or to size, whichever is larger.
-    private void GrowLists(ReadOnlySpan<int> labels)
+    private void GrowLists(ReadOnlySpan<int> labels, List<(int List, int[] Slots, byte[] Codes)>? grown = null)
     {
         var added = new int[_listCounts.Length];
         foreach (int label in labels)
@@ -736,11 +773,53 @@ public sealed partial class InvertedFileIndex : VectorIndex
             if (added[list] > 0 && current < required)
             {
                 ListRegrowths += current == 0 ? 0 : 1;
-                int capacity = current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
+                (int List, int[] Slots, byte[] Codes) ready = grown?.Find(g => g.List == list) ?? default;
+                if (ready.Slots is not null && ready.Slots.Length >= required)
+                {
+                    // Made before the lock; only the entries are copied here.
+                    int length = _listCounts[list];
+                    _listSlots[list].AsSpan(0, length).CopyTo(ready.Slots);
+                    _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(length))).CopyTo(ready.Codes);
+                    _listSlots[list] = ready.Slots;
+                    _listCodes[list] = ready.Codes;
+                    continue;
+                }
+
+                int capacity = GrownListCapacity(current, required);
                 Array.Resize(ref _listSlots[list], capacity);
                 Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
             }
         }
+    }
+
+    // The capacity a list of `current` entries grows to when it must hold `required`.
+    private static int GrownListCapacity(int current, int required)
+        => current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
+
+    // For a small batch, the larger arrays of the lists it would overflow, made before the write lock: an allocation
+    // of a large list's codes can wait for another thread's large allocation, and under the lock every search would
+    // wait with it. A hint read without the lock; GrowLists checks each against the lists as they are then.
+    private List<(int List, int[] Slots, byte[] Codes)>? GrownListsFor(ReadOnlySpan<int> labels)
+    {
+        if (labels.Length > 64)
+        {
+            return null;
+        }
+
+        List<(int List, int[] Slots, byte[] Codes)>? grown = null;
+        for (int i = 0; i < labels.Length; i++)
+        {
+            int list = labels[i];
+            int required = Volatile.Read(ref _listCounts[list]) + labels.Length;
+            int current = _listSlots[list].Length;
+            if (current < required && grown?.Exists(g => g.List == list) != true)
+            {
+                int capacity = GrownListCapacity(current, required);
+                (grown ??= []).Add((list, new int[capacity], new byte[checked((int)ListCodeBytes(capacity))]));
+            }
+        }
+
+        return grown;
     }
 
     // Appends encoded rows to their lists (already grown) and to the slots.
