@@ -193,9 +193,11 @@ public static class Program
             int dimension = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 128;
             double seconds = args.Length > 3 ? double.Parse(args[3], CultureInfo.InvariantCulture) : 5;
             string[] kinds = args.Length > 4 ? args[4].Split(',') : ["exact", "graph", "inverted-file"];
-            bool realTime = args.Length > 5 && args[5] == "rt";
+            // rt, or rt=<ms>: real-time, the searcher resting 1 ms after every <ms> of searching (4 by default).
+            bool realTime = args.Length > 5 && args[5].StartsWith("rt", StringComparison.Ordinal);
+            double busy = realTime && args[5].StartsWith("rt=", StringComparison.Ordinal) ? double.Parse(args[5][3..], CultureInfo.InvariantCulture) : 4;
             int foregroundNice = args.Length > 5 && !realTime ? int.Parse(args[5], CultureInfo.InvariantCulture) : 0;
-            MaintenanceLatency.Run(count, dimension, seconds, kinds, foregroundNice, realTime);
+            MaintenanceLatency.Run(count, dimension, seconds, kinds, foregroundNice, realTime, busy);
             return;
         }
 

@@ -48,7 +48,7 @@ public static class MaintenanceLatency
 
     // Under real-time scheduling the searcher rests 1 ms after every this many ms of searching: a thread that never
     // sleeps would meet the kernel's real-time throttling (95 % of each second by default), a pause of its own.
-    private const double RealTimeBusyMs = 4;
+    private static double RealTimeBusyMs = 4;
 
     /// <summary>A search during which the searching thread slept (or a write): when it started and how long it took.</summary>
     private readonly record struct SleptSearch(DateTime StartUtc, double Ms);
@@ -77,8 +77,9 @@ public static class MaintenanceLatency
     }
 
     /// <summary>Runs the harness on <paramref name="count"/> × <paramref name="dimension"/> clustered rows for the kinds named (exact, graph, inverted-file).</summary>
-    public static void Run(int count, int dimension, double baselineSeconds, IReadOnlyList<string> kinds, int foregroundNice = 0, bool realTime = false)
+    public static void Run(int count, int dimension, double baselineSeconds, IReadOnlyList<string> kinds, int foregroundNice = 0, bool realTime = false, double realTimeBusyMs = 4)
     {
+        RealTimeBusyMs = realTimeBusyMs;
         int d = dimension;
         int clusters = Math.Max(1, count / 100);
         s_foregroundNice = foregroundNice;
