@@ -101,11 +101,7 @@ public sealed class MaintenanceConcurrencyTests
         index.DuringLinking = null;
 
         // A removal arrives and waits for the linking; a search must not queue behind it.
-        var writer = new Background(() => index.Remove(n - 1));
-        Assert.True(SpinWait.SpinUntil(() => index.WaitingWriters > 0 || writer.IsCompleted, Guard));
-        Assert.False(writer.IsCompleted, "the removal ran while an add was linking");
-        var search = new Background(() => index.Search(data.AsSpan(5 * d, d), 3, new SearchOptions { SearchWidth = 64 }));
-        bool searched = search.Finishes();
+        (Background writer, Background search, bool searched) = RemoveQueuesAndSearchRuns(index, n - 1, data.AsSpan(5 * d, d), "the removal ran while an add was linking");
         release.Set();
         adder.Result<object>();
         writer.Result<object>();
@@ -148,11 +144,7 @@ public sealed class MaintenanceConcurrencyTests
         Assert.True(parked.Wait(Guard), "the batch never called its filter");
 
         // A write arrives and waits for the batch query; a search must not queue behind it.
-        var writer = new Background(() => index.Remove(n - 1));
-        Assert.True(SpinWait.SpinUntil(() => index.WaitingWriters > 0 || writer.IsCompleted, Guard));
-        Assert.False(writer.IsCompleted, "the write ran while a batch query held the read lock");
-        var search = new Background(() => index.Search(data.AsSpan(5 * d, d), 3, new SearchOptions { SearchWidth = 64 }));
-        bool searched = search.Finishes();
+        (Background writer, Background search, bool searched) = RemoveQueuesAndSearchRuns(index, n - 1, data.AsSpan(5 * d, d), "the write ran while a batch query held the read lock");
         release.Set();
         var results = batch.Result<BatchSearchResults>();
         writer.Result<object>();
@@ -176,11 +168,7 @@ public sealed class MaintenanceConcurrencyTests
         Assert.True(destination.Parked.Wait(Guard), "the save never wrote");
 
         // A write arrives and waits for the save; a search must not queue behind it.
-        var writer = new Background(() => index.Remove(0));
-        Assert.True(SpinWait.SpinUntil(() => index.WaitingWriters > 0 || writer.IsCompleted, Guard));
-        Assert.False(writer.IsCompleted, "the write ran while the save was reading the index");
-        var search = new Background(() => index.Search(data.AsSpan(5 * d, d), 3, new SearchOptions { SearchWidth = 64 }));
-        bool searched = search.Finishes();
+        (Background writer, Background search, bool searched) = RemoveQueuesAndSearchRuns(index, 0, data.AsSpan(5 * d, d), "the write ran while the save was reading the index");
         destination.Release();
         save.Result<object>();
         writer.Result<object>();
@@ -332,6 +320,18 @@ public sealed class MaintenanceConcurrencyTests
         {
             Assert.DoesNotContain(graph.Search(data.AsSpan(i * d, d), 10, wide), h => gone.Contains(h.Id));
         }
+    }
+
+    // A removal of `id` arrives and must wait (for the parked operation); then a search for `query` starts, which must
+    // not queue behind the waiting write. Returns both, and whether the search finished while the write waited.
+    private static (Background Writer, Background Search, bool Searched) RemoveQueuesAndSearchRuns(VectorIndex index, long id, ReadOnlySpan<float> query, string ranEarly)
+    {
+        var writer = new Background(() => index.Remove(id));
+        Assert.True(SpinWait.SpinUntil(() => index.WaitingWriters > 0 || writer.IsCompleted, Guard));
+        Assert.False(writer.IsCompleted, ranEarly);
+        float[] q = query.ToArray();
+        var search = new Background(() => index.Search(q, 3, new SearchOptions { SearchWidth = 64 }));
+        return (writer, search, search.Finishes());
     }
 
     private static VectorIndex Create(string kind, int d, float[] data)

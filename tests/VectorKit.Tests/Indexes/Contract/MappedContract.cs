@@ -46,30 +46,11 @@ public abstract class MappedContract<TVariant> : SearchContractTests
 
     private protected override void AssertDecoded(IVectorIndex index, double[] encoded, float[] decoded) => _variant.CheckDecoded(index, encoded, decoded);
 
-    // Options come back from the file: not the instance given, but the same settings.
-    private protected override void AssertOptions(IVectorIndex index)
-    {
-        VectorIndexOptions given = _variant.LastGivenOptions!;
-        VectorIndexOptions read = index.Options;
-        Assert.Equal(
-            (given.GetType(), given.Encoding, given.RescoreDepth, given.FullVectors),
-            (read.GetType(), read.Encoding, read.RescoreDepth, read.FullVectors));
-    }
+    private protected override void AssertOptions(IVectorIndex index) => ReopenedIndex.AssertSameSettings(_variant.LastGivenOptions!, index.Options);
 
     private IVectorIndex Map(IVectorIndex built)
     {
-        string path = Path.Combine(Path.GetTempPath(), $"vectorkit-contract-{Guid.NewGuid():N}.vkx");
-        IndexFile.Save(built, path);
-        IVectorIndex mapped;
-        try
-        {
-            mapped = IndexFile.OpenMapped(path, MappedOpenOptions.Untrusted);
-        }
-        finally
-        {
-            // The mapping keeps the file's pages; the name is not needed once it is open.
-            File.Delete(path);
-        }
+        IVectorIndex mapped = ReopenedIndex.SaveAndOpen(built, path => IndexFile.OpenMapped(path, MappedOpenOptions.Untrusted));
 
         Assert.True(mapped is VectorIndex index && IsMapped(index), $"{mapped.GetType().Name} did not open mapped");
         if (mapped.Options.ReadsFullVectorsExternally && _variant.ExistingSource(built.Dimension) is IFullVectorSource source)

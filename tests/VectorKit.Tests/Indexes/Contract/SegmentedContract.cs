@@ -54,28 +54,8 @@ public abstract class SegmentedContract<TVariant> : IndexContractTests
 
     protected override int ExpectedCodeBytes(int dimension) => _variant.CodeBytesOf(dimension);
 
-    // Options come back from the file: not the instance given, but the same settings.
-    private protected override void AssertOptions(IVectorIndex index)
-    {
-        VectorIndexOptions given = _variant.LastGivenOptions!;
-        VectorIndexOptions read = index.Options;
-        Assert.Equal(
-            (given.GetType(), given.Encoding, given.RescoreDepth, given.FullVectors),
-            (read.GetType(), read.Encoding, read.RescoreDepth, read.FullVectors));
-    }
+    private protected override void AssertOptions(IVectorIndex index) => ReopenedIndex.AssertSameSettings(_variant.LastGivenOptions!, index.Options);
 
     private static SegmentedIndex Open(IVectorIndex built)
-    {
-        string path = Path.Combine(Path.GetTempPath(), $"vectorkit-contract-{Guid.NewGuid():N}.vkx");
-        IndexFile.Save(built, path);
-        try
-        {
-            return SegmentedIndex.Open(path, MappedOpenOptions.Untrusted);
-        }
-        finally
-        {
-            // The mapping keeps the file's pages; the name is not needed once it is open.
-            File.Delete(path);
-        }
-    }
+        => ReopenedIndex.SaveAndOpen(built, path => SegmentedIndex.Open(path, MappedOpenOptions.Untrusted));
 }
