@@ -12,6 +12,22 @@ public sealed partial class GraphIndex
     {
         int completed = 0;
         int step = Math.Max(1, n / 100);
+        if (n == 1 || _options.EffectiveParallelism == 1)
+        {
+            // On the calling thread: a parallel loop's tasks and closures cost more than a single link.
+            for (int i = 0; i < n; i++)
+            {
+                cancellationToken.ThrowIfCancellationRequested();
+                Link(first + i);
+                if (progress is not null && ((i + 1) % step == 0 || i + 1 == n))
+                {
+                    progress.Report(i + 1);
+                }
+            }
+
+            return;
+        }
+
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveParallelism, CancellationToken = cancellationToken };
         Parallel.For(0, n, parallel, i =>
         {

@@ -301,15 +301,17 @@ public sealed partial class GraphIndex
         where TDistance : struct, IGraphDistance
     {
         int stride = _links.MaxLimit;
-        int[] chosen = new int[Math.Min(lists.Length, RelinkStep) * stride];
-        int[] kept = new int[RelinkStep];
+        using var chosenRental = ScratchRental<int>.Rent(Math.Min(lists.Length, RelinkStep) * stride);
+        using var keptRental = ScratchRental<int>.Rent(RelinkStep);
+        Span<int> chosen = chosenRental.Span;
+        Span<int> kept = keptRental.Span;
         for (int start = 0; start < lists.Length; start += RelinkStep)
         {
             int n = Math.Min(RelinkStep, lists.Length - start);
             for (int i = 0; i < n; i++)
             {
                 long list = lists[start + i];
-                kept[i] = ChooseAgain<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF), chosen.AsSpan(i * stride, stride));
+                kept[i] = ChooseAgain<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF), chosen.Slice(i * stride, stride));
             }
 
             using (_lock.EnterWrite())
@@ -317,7 +319,7 @@ public sealed partial class GraphIndex
                 for (int i = 0; i < n; i++)
                 {
                     long list = lists[start + i];
-                    SetList((int)(list >> 8), (int)(list & 0xFF), chosen.AsSpan(i * stride, kept[i]));
+                    SetList((int)(list >> 8), (int)(list & 0xFF), chosen.Slice(i * stride, kept[i]));
                 }
             }
 
@@ -329,20 +331,20 @@ public sealed partial class GraphIndex
     // `removed`, and per removed slot whether its walk found every list naming it.
     private long[] ListsNaming(GraphScratch scratch, int[] removed, out bool[] complete)
     {
-        var affected = new HashSet<long>();
-        var frontier = new List<int>();
-        var next = new List<int>();
+        HashSet<long> affected = scratch.ListsFound;
+        affected.Clear();
         complete = new bool[removed.Length];
         for (int r = 0; r < removed.Length; r++)
         {
             complete[r] = true;
             for (int layer = _links.Level(removed[r]); layer >= 0; layer--)
             {
-                complete[r] &= FindInLinks(scratch.Visited, removed[r], layer, affected, frontier, next);
+                complete[r] &= FindInLinks(scratch.Visited, removed[r], layer, affected, scratch.Frontier, scratch.NextFrontier);
             }
         }
 
         long[] lists = [.. affected];
+        affected.Clear();
         Array.Sort(lists);
         return lists;
     }

@@ -44,6 +44,16 @@ internal sealed class GraphScratch
 
     public int[] RepairSlots { get; private set; } = [];
 
+    /// <summary>
+    /// The walk that finds the lists naming removed nodes: its two frontiers and the lists found. Kept, with their
+    /// room, so that a removal allocates nothing in steady state (a walk's frontier reaches tens of thousands of nodes).
+    /// </summary>
+    public List<int> Frontier { get; } = [];
+
+    public List<int> NextFrontier { get; } = [];
+
+    public HashSet<long> ListsFound { get; } = [];
+
     /// <summary>Nodes decoded from 8-bit codes to serve as queries (see <see cref="IGraphDistance.NodeAsQuery"/>), one row per place.</summary>
     public float[] Decoded { get; private set; } = [];
 
