@@ -177,6 +177,12 @@ public static class MaintenanceLatency
         Measure(index, queries, d, TimeSpan.FromSeconds(1), writes: null, static () => { });
         phases.Add(Measure(kind, "no writes", index, queries, d, baselineSeconds, null, () => Thread.Sleep(TimeSpan.FromSeconds(baselineSeconds))));
 
+        // References for the runtime's own pauses, whatever causes them: a collection every 100 ms made by an ordinary
+        // thread, first with nothing else running, then beside two ordinary threads busy searching (as a rebuild's
+        // linking threads are busy).
+        phases.Add(Measure(kind, "collections (reference)", index, queries, d, baselineSeconds, null, () => CollectEvery100Ms(baselineSeconds, index, queries, d, busyThreads: 0)));
+        phases.Add(Measure(kind, "collections beside 2 busy threads (reference)", index, queries, d, baselineSeconds, null, () => CollectEvery100Ms(baselineSeconds, index, queries, d, busyThreads: 2)));
+
         var writer = new SteadyWriter(index, data, count, d);
         if (graph is not null)
         {
@@ -214,6 +220,29 @@ public static class MaintenanceLatency
             batchMs = Math.Max(batchMs, watch.Elapsed.TotalMilliseconds);
         });
         phases.Add(batchPhase with { Extra = batchMs });
+    }
+
+    private static void CollectEvery100Ms(double seconds, VectorIndex index, float[] queries, int d, int busyThreads)
+    {
+        bool stop = false;
+        var busy = Enumerable.Range(0, busyThreads).Select(t => new Thread(() =>
+        {
+            var hits = new SearchHit[K];
+            for (int q = t; !Volatile.Read(ref stop); q = (q + 1) % QueryCount)
+            {
+                index.Search(queries.AsSpan(q * d, d), hits);
+            }
+        }) { IsBackground = true }).ToList();
+        busy.ForEach(t => t.Start());
+        var watch = Stopwatch.StartNew();
+        while (watch.Elapsed.TotalSeconds < seconds)
+        {
+            Thread.Sleep(100);
+            GC.Collect(0, GCCollectionMode.Forced, blocking: true);
+        }
+
+        Volatile.Write(ref stop, true);
+        busy.ForEach(t => t.Join());
     }
 
     /// <summary>
