@@ -71,6 +71,9 @@ internal abstract unsafe class RowBuffer<T> : IDisposable
     /// <summary>Rows [0, count) as one span, when that fits a span (under 2³¹ elements).</summary>
     public Span<T> Rows(int count) => new(_rows, checked(count * Dimension));
 
+    /// <summary>Rows [0, count) as memory, without a copy; valid until the buffer next grows or is freed.</summary>
+    public ReadOnlyMemory<T> RowsMemory(int count) => new NativeMemoryView<T>(_rows, checked(count * Dimension)).Memory;
+
     /// <summary>Grows to hold at least <paramref name="required"/> rows: by half again, or exactly when one batch needs more.</summary>
     public void EnsureCapacity(int required)
     {

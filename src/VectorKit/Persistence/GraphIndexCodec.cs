@@ -94,22 +94,22 @@ internal sealed partial class GraphIndexCodec : IndexCodec
             AddIdOrder(header, parts.Count);
             writer.WriteHeader(header);
             writer.BeginSection(SectionId.Ids);
-            writer.Write<long>(parts.Ids.AsSpan(0, slots));
+            writer.Write<long>(parts.Ids.Span[..slots]);
             writer.EndSection();
             writer.BeginSection(SectionId.NodeLevels);
-            writer.Write<byte>(parts.Levels);
+            writer.Write<byte>(parts.Levels.Span);
             writer.EndSection();
             writer.BeginSection(SectionId.RemovedFlags);
-            writer.Write<byte>(parts.Removed.AsSpan(0, slots));
+            writer.Write<byte>(parts.Removed.Span[..slots]);
             writer.EndSection();
             writer.BeginSection(SectionId.BottomLinks);
-            writer.Write<int>(parts.BottomLinks);
+            writer.Write<int>(parts.BottomLinks.Span);
             writer.EndSection();
             writer.BeginSection(SectionId.UpperLinks);
-            writer.Write<int>(parts.UpperLinks);
+            writer.Write<int>(parts.UpperLinks.Span);
             writer.EndSection();
             writer.BeginSection(SectionId.UpperLinkStarts);
-            WriteUpperStarts(writer, parts.Levels.AsSpan(0, slots), options.LinksPerNode + 1);
+            WriteUpperStarts(writer, parts.Levels.Span[..slots], options.LinksPerNode + 1);
             writer.EndSection();
             if (codes)
             {
@@ -128,7 +128,7 @@ internal sealed partial class GraphIndexCodec : IndexCodec
                 writer.EndSection();
             }
 
-            WriteIdOrder(writer, parts.Ids.AsSpan(0, slots), parts.Removed.AsSpan(0, slots));
+            WriteIdOrder(writer, parts.Ids.Span[..slots], parts.Removed.Span[..slots]);
             writer.Finish();
             return 0;
         });

@@ -1,4 +1,5 @@
 using VectorKit.Indexes;
+using VectorKit.Internal;
 
 namespace VectorKit.Persistence;
 
@@ -66,8 +67,11 @@ internal abstract class IndexCodec
             live -= ids.Length - removed.Count((byte)0);
         }
 
-        long[] keys = new long[live];
-        int[] order = new int[live];
+        // Native scratch: at 10⁶ ids, managed arrays would be large objects, whose allocation starts full collections.
+        using var keyColumn = new Column<long>(live);
+        using var orderColumn = new Column<int>(live);
+        Span<long> keys = keyColumn.Rows(live);
+        Span<int> order = orderColumn.Rows(live);
         for (int row = 0, at = 0; row < ids.Length; row++)
         {
             if (removed.IsEmpty || removed[row] == 0)
@@ -77,7 +81,7 @@ internal abstract class IndexCodec
             }
         }
 
-        Array.Sort(keys, order);
+        keys.Sort(order);
         writer.BeginSection(SectionId.IdOrder);
         writer.Write<int>(order);
         writer.EndSection();

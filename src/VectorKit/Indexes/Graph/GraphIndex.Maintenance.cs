@@ -8,9 +8,10 @@ public sealed partial class GraphIndex
 {
     // Hides the items at once (a removed item is never returned from here on) and queues their slots for repair, which
     // runs from AfterWrite once the write lock is released: see RunPendingRepairs and the class remarks, Writes.
+    // Allocates nothing for a few ids: a collection started inside the write lock would keep searches waiting for it.
     private protected override void RemoveLocked(ReadOnlySpan<long> ids)
     {
-        int[] slots = new int[ids.Length];
+        Span<int> slots = ids.Length <= 64 ? stackalloc int[ids.Length] : new int[ids.Length];
         for (int i = 0; i < ids.Length; i++)
         {
             _slotOf.Remove(ids[i], out slots[i]);
@@ -58,7 +59,7 @@ public sealed partial class GraphIndex
 
     // Caller holds the write lock and has taken the slots' ids out of the map: hides the slots from results (their
     // lists stay for the repair that follows) and moves the entry point off them.
-    private void RetireLocked(int[] slots)
+    private void RetireLocked(ReadOnlySpan<int> slots)
     {
         foreach (int slot in slots)
         {
@@ -95,7 +96,7 @@ public sealed partial class GraphIndex
     {
         using var compaction = _compaction.EnterScope(cancellationToken);
         GraphIndex rebuilt;
-        ChangeLog log = new();
+        using ChangeLog log = new();
         int live;
 
         // With the writer gate held exclusively no write is in flight, so the copy and the start of the log agree.

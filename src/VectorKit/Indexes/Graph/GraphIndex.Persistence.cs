@@ -18,8 +18,9 @@ public sealed partial class GraphIndex
     /// <summary>
     /// Runs <paramref name="export"/> on a consistent copy of the primary state. Holds the writer gate exclusively for
     /// the whole call: every write, including the linking phase of an add, passes the gate, so nothing changes, while
-    /// searches (which never touch the gate) proceed. The link arrays, ids and flags are copies; vectors and codes are
-    /// the live storage and must not be modified.
+    /// searches (which never touch the gate) proceed. The parts are views of the live storage, not copies (a save then
+    /// allocates next to nothing, and starts no collection that would pause searches), valid during the call only and
+    /// never to be modified; only links in another layout (a mapped file's) are copied.
     /// </summary>
     internal T ExportParts<T>(Func<GraphIndexParts, T> export)
     {
@@ -28,28 +29,9 @@ public sealed partial class GraphIndex
         {
             ThrowIfDisposed();
             int slots = _used;
-            int bottomStride = _links.BottomLimit + 1;
-            int upperStride = _links.UpperLimit + 1;
-            var levels = new byte[slots];
-            var bottom = new int[checked(slots * bottomStride)];
-            long upperLength = 0;
-            for (int slot = 0; slot < slots; slot++)
+            if (!_links.TryViewInFileLayout(slots, out ReadOnlyMemory<byte> levels, out ReadOnlyMemory<int> bottom, out ReadOnlyMemory<int> upper))
             {
-                int level = _links.Level(slot);
-                levels[slot] = (byte)level;
-                _links.Block(slot, 0).CopyTo(bottom.AsSpan(slot * bottomStride, bottomStride));
-                upperLength += (long)level * upperStride;
-            }
-
-            var upper = new int[checked((int)upperLength)];
-            int at = 0;
-            for (int slot = 0; slot < slots; slot++)
-            {
-                for (int layer = 1; layer <= levels[slot]; layer++)
-                {
-                    _links.Block(slot, layer).CopyTo(upper.AsSpan(at, upperStride));
-                    at += upperStride;
-                }
+                (levels, bottom, upper) = CopyLinksInFileLayout(slots);
             }
 
             long packed = _entry;
@@ -62,8 +44,8 @@ public sealed partial class GraphIndex
                 Options = _options,
                 Slots = slots,
                 Count = _count,
-                Ids = _ids.Rows(slots).ToArray(),
-                Removed = _removed.Rows(slots).ToArray(),
+                Ids = _ids.RowsMemory(slots),
+                Removed = _removed.RowsMemory(slots),
                 Levels = levels,
                 BottomLinks = bottom,
                 UpperLinks = upper,
@@ -79,6 +61,36 @@ public sealed partial class GraphIndex
         {
             _writerGate.ExitWriteLock();
         }
+    }
+
+    // The levels and lists in a file's layout, copied from links that are not in it.
+    private (byte[] Levels, int[] Bottom, int[] Upper) CopyLinksInFileLayout(int slots)
+    {
+        int bottomStride = _links.BottomLimit + 1;
+        int upperStride = _links.UpperLimit + 1;
+        var levels = new byte[slots];
+        var bottom = new int[checked(slots * bottomStride)];
+        long upperLength = 0;
+        for (int slot = 0; slot < slots; slot++)
+        {
+            int level = _links.Level(slot);
+            levels[slot] = (byte)level;
+            _links.Block(slot, 0).CopyTo(bottom.AsSpan(slot * bottomStride, bottomStride));
+            upperLength += (long)level * upperStride;
+        }
+
+        var upper = new int[checked((int)upperLength)];
+        int at = 0;
+        for (int slot = 0; slot < slots; slot++)
+        {
+            for (int layer = 1; layer <= levels[slot]; layer++)
+            {
+                _links.Block(slot, layer).CopyTo(upper.AsSpan(at, upperStride));
+                at += upperStride;
+            }
+        }
+
+        return (levels, bottom, upper);
     }
 
     /// <summary>
@@ -119,18 +131,23 @@ public sealed partial class GraphIndex
             index._codes = parts.Codes;
             index._ids.Resize(slots);
             index._removed.Resize(slots);
-            parts.Ids.AsSpan(0, slots).CopyTo(index._ids.Rows(slots));
-            parts.Removed.AsSpan(0, slots).CopyTo(index._removed.Rows(slots));
+            ReadOnlySpan<long> ids = parts.Ids.Span[..slots];
+            ReadOnlySpan<byte> removed = parts.Removed.Span[..slots];
+            ReadOnlySpan<byte> levels = parts.Levels.Span;
+            ReadOnlySpan<int> bottom = parts.BottomLinks.Span;
+            ReadOnlySpan<int> upper = parts.UpperLinks.Span;
+            ids.CopyTo(index._ids.Rows(slots));
+            removed.CopyTo(index._removed.Rows(slots));
             index._links.EnsureCapacity(slots);
             int at = 0;
             for (int slot = 0; slot < slots; slot++)
             {
-                int level = parts.Levels[slot];
+                int level = levels[slot];
                 index._links.InitNode(slot, level);
-                parts.BottomLinks.AsSpan(slot * bottomStride, bottomStride).CopyTo(index._links.Block(slot, 0));
+                bottom.Slice(slot * bottomStride, bottomStride).CopyTo(index._links.Block(slot, 0));
                 for (int layer = 1; layer <= level; layer++)
                 {
-                    parts.UpperLinks.AsSpan(at, upperStride).CopyTo(index._links.Block(slot, layer));
+                    upper.Slice(at, upperStride).CopyTo(index._links.Block(slot, layer));
                     at += upperStride;
                 }
             }
@@ -138,9 +155,9 @@ public sealed partial class GraphIndex
             var slotOf = new IdMap(parts.Count);
             for (int slot = 0; slot < slots; slot++)
             {
-                if (parts.Removed[slot] == 0 && !slotOf.TryAdd(parts.Ids[slot], slot))
+                if (removed[slot] == 0 && !slotOf.TryAdd(ids[slot], slot))
                 {
-                    throw new InvalidDataException($"id {parts.Ids[slot]} is live at slots {slotOf[parts.Ids[slot]]} and {slot}; ids must be unique");
+                    throw new InvalidDataException($"id {ids[slot]} is live at slots {slotOf[ids[slot]]} and {slot}; ids must be unique");
                 }
             }
 
@@ -179,7 +196,7 @@ public sealed partial class GraphIndex
             throw new InvalidDataException($"the arrays do not match the {slots} slots");
         }
 
-        ValidateLinks(new StoredLinks(slots, parts.Count, parts.Levels, parts.Removed, parts.BottomLinks, parts.UpperLinks, parts.EntrySlot, parts.EntryLevel), bottomStride, upperStride);
+        ValidateLinks(new StoredLinks(slots, parts.Count, parts.Levels.Span, parts.Removed.Span, parts.BottomLinks.Span, parts.UpperLinks.Span, parts.EntrySlot, parts.EntryLevel), bottomStride, upperStride);
     }
 
     /// <summary>The stored structure a walk relies on, as arrays of a load or a mapped file's sections.</summary>

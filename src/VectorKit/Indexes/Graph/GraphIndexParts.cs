@@ -23,19 +23,19 @@ internal sealed class GraphIndexParts
     public required int Count { get; init; }
 
     /// <summary>At least <see cref="Slots"/> ids.</summary>
-    public required long[] Ids { get; init; }
+    public required ReadOnlyMemory<long> Ids { get; init; }
 
     /// <summary>At least <see cref="Slots"/> flags: 1 for a removed slot, else 0.</summary>
-    public required byte[] Removed { get; init; }
+    public required ReadOnlyMemory<byte> Removed { get; init; }
 
     /// <summary>Exactly <see cref="Slots"/> levels.</summary>
-    public required byte[] Levels { get; init; }
+    public required ReadOnlyMemory<byte> Levels { get; init; }
 
     /// <summary><c>Slots × (bottom limit + 1)</c> ints: per slot the count, then the neighbour slots.</summary>
-    public required int[] BottomLinks { get; init; }
+    public required ReadOnlyMemory<int> BottomLinks { get; init; }
 
     /// <summary>For each slot with level ≥ 1, in slot order, <c>level × (upper limit + 1)</c> ints, layer 1 first.</summary>
-    public required int[] UpperLinks { get; init; }
+    public required ReadOnlyMemory<int> UpperLinks { get; init; }
 
     /// <summary>
     /// At least <see cref="Slots"/> rows, unit length under cosine: the storage under float32, the full vectors under

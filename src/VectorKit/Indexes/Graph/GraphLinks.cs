@@ -150,16 +150,60 @@ internal sealed unsafe class GraphLinks
             _upperStart = new int[capacity],
             _levels = new byte[capacity],
             _inBottom = new int[capacity],
-            _upper = (int[])_upper.Clone(),
-            _inUpper = (int[])_inUpper.Clone(),
+            _upper = new int[UpperRoom(capacity)],
+            _inUpper = new int[UpperRoom(capacity) / (UpperLimit + 1)],
             _upperUsed = _upperUsed,
             _capacity = capacity,
         };
         _bottom.CopyTo(copy._bottom, 0);
+        _upper.AsSpan(0, _upperUsed).CopyTo(copy._upper);
+        _inUpper.AsSpan(0, _upperUsed / (UpperLimit + 1)).CopyTo(copy._inUpper);
         _upperStart.CopyTo(copy._upperStart, 0);
         _levels.CopyTo(copy._levels, 0);
         _inBottom.CopyTo(copy._inBottom, 0);
         return copy;
+    }
+
+    // Upper-layer room for `capacity` nodes at the share of them that have upper layers so far, so that adds into
+    // the room of a growth rarely grow the upper layers themselves (InitNode does, under the owner's write lock).
+    private int UpperRoom(int capacity)
+    {
+        long proportional = _capacity == 0 ? 0 : (long)_upperUsed * capacity / _capacity;
+        int stride = UpperLimit + 1;
+        long room = Math.Max(_upper.Length, proportional + (64L * stride));
+        return (int)Math.Min(Array.MaxLength / stride * stride, room / stride * stride);
+    }
+
+    /// <summary>
+    /// The levels and lists of slots [0, <paramref name="slots"/>) in a file's layout, without a copy: the bottom
+    /// layer's blocks and, when the nodes own their upper-layer blocks in slot order (as adds, loads and compactions
+    /// give them out), the upper layers' blocks. False for mapped links or another order; caller excludes every writer.
+    /// </summary>
+    public bool TryViewInFileLayout(int slots, out ReadOnlyMemory<byte> levels, out ReadOnlyMemory<int> bottom, out ReadOnlyMemory<int> upper)
+    {
+        (levels, bottom, upper) = (default, default, default);
+        if (_mappedBottom != null)
+        {
+            return false;
+        }
+
+        int upperStride = UpperLimit + 1;
+        long at = 0;
+        for (int slot = 0; slot < slots; slot++)
+        {
+            int level = _levels[slot];
+            if (level > 0 && _upperStart[slot] != at)
+            {
+                return false;
+            }
+
+            at += (long)level * upperStride;
+        }
+
+        levels = _levels.AsMemory(0, slots);
+        bottom = _bottom.AsMemory(0, checked(slots * (BottomLimit + 1)));
+        upper = _upper.AsMemory(0, (int)at);
+        return true;
     }
 
     /// <summary>Shrinks to exactly <paramref name="capacity"/> nodes and forgets every link; caller excludes all other users.</summary>
