@@ -331,7 +331,7 @@ public static class MaintenanceLatency
         });
         foreach (var group in VectorKit.Internal.IndexLock.TakeLongHolds().GroupBy(h => h.Stack).OrderByDescending(g => g.Max(h => h.Ms)).Take(4))
         {
-            Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"  {kind}, {name}: {group.Count()} exclusive steps over 0.5 ms, longest {group.Max(h => h.Ms):F2} ms (of it waiting for readers to leave {group.MaxBy(h => h.Ms).DrainMs:F2} ms), ending at:"));
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"  {kind}, {name}: {group.Count()} exclusive steps over 0.5 ms, longest {group.Max(h => h.Ms):F2} ms (of it waiting for readers to leave {group.MaxBy(h => h.Ms).DrainMs:F2} ms; the writer on a processor for {group.MaxBy(h => h.Ms).CpuMs:F2} ms of it), ending at:"));
             Console.WriteLine(string.Join(Environment.NewLine, group.Key.Split(Environment.NewLine).Take(8).Select(l => "    " + l.Trim())));
         }
 

@@ -40,6 +40,7 @@ internal sealed class IndexLock
     // When the writer raised its flag (from then on new readers wait), and the longest such hold so far (Stopwatch
     // ticks; diagnostics).
     private long _heldSince;
+    private long _heldSinceCpu;
     private long _ownedSince;
     private long _longestHold;
 
@@ -55,17 +56,18 @@ internal sealed class IndexLock
     public void ResetLongestWriteHold() => Volatile.Write(ref _longestHold, 0);
 
     /// <summary>
-    /// When positive, every write-lock hold longer than this many Stopwatch ticks records the writer's stack at its end
-    /// (for benchmarks that look for long exclusive steps; off by default).
+    /// When positive, every write-lock hold longer than this many Stopwatch ticks records the writer's stack at its end,
+    /// how long it waited for readers to leave, and the processor time it used (for benchmarks that look for long
+    /// exclusive steps; off by default).
     /// </summary>
     internal static long TraceHoldsLongerThan { get; set; }
 
-    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, string Stack)> s_longHolds = new();
+    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, double CpuMs, string Stack)> s_longHolds = new();
 
     /// <summary>The holds recorded under <see cref="TraceHoldsLongerThan"/> since the last call, emptying the record.</summary>
-    internal static List<(double Ms, double DrainMs, string Stack)> TakeLongHolds()
+    internal static List<(double Ms, double DrainMs, double CpuMs, string Stack)> TakeLongHolds()
     {
-        var holds = new List<(double Ms, double DrainMs, string Stack)>();
+        var holds = new List<(double Ms, double DrainMs, double CpuMs, string Stack)>();
         while (s_longHolds.TryDequeue(out var hold))
         {
             holds.Add(hold);
@@ -199,6 +201,7 @@ internal sealed class IndexLock
 
             Interlocked.Exchange(ref _counters.Writing, 1);
             _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
+            _heldSinceCpu = TraceHoldsLongerThan > 0 ? ThreadClock.CpuNanoseconds() : 0;
             spin.Reset();
             while (Volatile.Read(ref _counters.Readers) != 0)
             {
@@ -239,7 +242,9 @@ internal sealed class IndexLock
         if (TraceHoldsLongerThan > 0 && held > TraceHoldsLongerThan)
         {
             double drain = (double)(_ownedSince - _heldSince) * 1000 / System.Diagnostics.Stopwatch.Frequency;
-            s_longHolds.Enqueue(((double)held * 1000 / System.Diagnostics.Stopwatch.Frequency, drain, new System.Diagnostics.StackTrace(1, false).ToString()));
+            long cpu = ThreadClock.CpuNanoseconds();
+            double cpuMs = cpu < 0 || _heldSinceCpu < 0 ? double.NaN : (cpu - _heldSinceCpu) / 1e6;
+            s_longHolds.Enqueue(((double)held * 1000 / System.Diagnostics.Stopwatch.Frequency, drain, cpuMs, new System.Diagnostics.StackTrace(1, false).ToString()));
         }
 
         Volatile.Write(ref _owner, 0);
