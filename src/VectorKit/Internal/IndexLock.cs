@@ -12,8 +12,9 @@ namespace VectorKit.Internal;
 /// A reader blocked in the kernel is woken only when the scheduler next runs it, which on a busy machine costs
 /// milliseconds however short the write was; spinning costs the length of the write. So every step taken under the
 /// write lock must be short (copies and swaps, never searches or scans), which the index kinds keep to. A writer that
-/// holds the lock past the budget was most likely pre-empted, and a spinning reader would keep it from a core. Writers queue
-/// on a monitor, one at a time, and may sleep. A writer arriving gives readers already spinning their turn first, so
+/// holds the lock past the budget was most likely pre-empted, and a spinning reader would keep it from a core; likewise a
+/// writer whose readers have not left within the budget sleeps while it waits for them. Writers queue on a monitor, one
+/// at a time, and may sleep. A writer arriving gives readers already spinning their turn first, so
 /// back-to-back write steps cannot starve searches. Non-recursive: a thread holding either side must not enter again.
 /// </remarks>
 internal sealed class IndexLock
@@ -205,7 +206,16 @@ internal sealed class IndexLock
             spin.Reset();
             while (Volatile.Read(ref _counters.Readers) != 0)
             {
-                spin.SpinOnce(sleep1Threshold: -1);
+                // A reader still inside past the budget was most likely pre-empted: a writer spinning on would keep it
+                // from the core (for good, when the writer outranks it), so the writer sleeps and gives the core up.
+                if (System.Diagnostics.Stopwatch.GetTimestamp() - _heldSince < SpinBudgetTicks)
+                {
+                    spin.SpinOnce(sleep1Threshold: -1);
+                }
+                else
+                {
+                    Thread.Sleep(1);
+                }
             }
 
             Volatile.Write(ref _owner, Environment.CurrentManagedThreadId);
