@@ -13,7 +13,7 @@ namespace VectorKit.Internal;
 /// milliseconds however short the write was; spinning costs the length of the write. So every step taken under the
 /// write lock must be short (copies and swaps, never searches or scans), which the index kinds keep to. A writer that
 /// holds the lock past the budget was most likely pre-empted, and a spinning reader would keep it from a core; likewise a
-/// writer whose readers have not left within the budget sleeps while it waits for them. Writers queue on a monitor, one
+/// writer whose readers have not left within a longer budget (a few searches' length) sleeps while it waits for them. Writers queue on a monitor, one
 /// at a time, and may sleep. A writer arriving gives readers already spinning their turn first, so
 /// back-to-back write steps cannot starve searches. Non-recursive: a thread holding either side must not enter again.
 /// </remarks>
@@ -22,6 +22,10 @@ internal sealed class IndexLock
     // How long a reader spins behind a writer before it sleeps: longer than any exclusive step the index kinds take
     // on an idle core, far shorter than a scheduler's time slice.
     private static readonly long SpinBudgetTicks = System.Diagnostics.Stopwatch.Frequency / 10_000;
+
+    // How long a writer spins for readers to leave before it sleeps: longer than a graph or inverted-file search, so
+    // that it sleeps only for a long scan or a pre-empted reader (which its spinning would keep from the core).
+    private static readonly long DrainSpinBudgetTicks = System.Diagnostics.Stopwatch.Frequency / 500;
 
     // Writers take this first, one at a time; it is held from EnterWriteLock to ExitWriteLock.
     private readonly object _writerTurn = new();
@@ -206,9 +210,9 @@ internal sealed class IndexLock
             spin.Reset();
             while (Volatile.Read(ref _counters.Readers) != 0)
             {
-                // A reader still inside past the budget was most likely pre-empted: a writer spinning on would keep it
-                // from the core (for good, when the writer outranks it), so the writer sleeps and gives the core up.
-                if (System.Diagnostics.Stopwatch.GetTimestamp() - _heldSince < SpinBudgetTicks)
+                // A reader still inside past the budget is a long scan or was pre-empted: a writer spinning on would keep
+                // it from the core (for good, when the writer outranks it), so the writer sleeps and gives the core up.
+                if (System.Diagnostics.Stopwatch.GetTimestamp() - _heldSince < DrainSpinBudgetTicks)
                 {
                     spin.SpinOnce(sleep1Threshold: -1);
                 }
