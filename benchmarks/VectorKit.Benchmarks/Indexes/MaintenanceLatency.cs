@@ -22,7 +22,10 @@ namespace VectorKit.Benchmarks.Indexes;
 /// take about as long as the batch). A second table lists the runtime's suspensions per phase (from its own events:
 /// length, and for a collection its generation, reason and type) and matches every search that slept for longer than
 /// 5× the no-write p99 against them and against the writes of the phase, to tell a collection's pause from a lock wait.
-/// Each phase also reports the longest exclusive step (write-lock hold) the index took during it.
+/// Each phase also reports the longest exclusive step (write-lock hold) the index took during it, and the steps over
+/// 0.5 ms with their stacks, their wait for readers and the writer's processor time. Two reference phases, after the
+/// no-write one, force a collection every 100 ms (alone, then beside two ordinary threads searching) to show the
+/// runtime's own pauses apart from the index.
 /// </summary>
 /// <remarks>
 /// With a nice value given (Linux; lowering it needs root), the searching and the writing thread run at that value while
