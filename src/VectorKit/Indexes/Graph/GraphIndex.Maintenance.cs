@@ -208,16 +208,19 @@ public sealed partial class GraphIndex
     }
 
     // Copies the live rows (already normalised under cosine; codes as they are, the ranges being the same), ids and nothing else of `source` into this empty index,
-    // in slot order, with exactly as much room as they need, and draws their levels. No other thread sees this index.
+    // in slot order, and draws their levels. No other thread sees this index. The room is the live count and a
+    // sixteenth: the writes replayed from the rebuild's log then rarely grow every array by half (and the id map to
+    // twice its size, a large allocation that starts a full collection) right before the swap.
     private void StoreLiveRowsOf(GraphIndex source)
     {
         int live = source._count;
-        EnsureRowCapacity(live);
-        _links.EnsureCapacity(live);
-        _ids.Resize(live);
-        _removed.Resize(live);
-        _removed.Rows(live).Clear();
-        _slotOf.EnsureCapacity(live);
+        int room = (int)Math.Min(Array.MaxLength / (_links.BottomLimit + 1), live + Math.Max(64L, live / 16));
+        EnsureRowCapacity(room);
+        _links.EnsureCapacity(room);
+        _ids.Resize(room);
+        _removed.Resize(room);
+        _removed.Rows(room).Clear();
+        _slotOf.EnsureCapacity(room);
         int next = 0;
         for (int slot = 0; slot < source._used; slot++)
         {
