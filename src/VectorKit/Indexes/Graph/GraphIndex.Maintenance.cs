@@ -142,7 +142,7 @@ public sealed partial class GraphIndex
             {
                 ThrowIfDisposed();
                 ChangeLog.Replay(log.Take(), rebuilt);
-                (VectorBuffer? oldVectors, CodeBuffer? oldCodes, IdColumn oldIds, Column<byte> oldRemoved, GraphLinks oldLinks) = (_vectors, _codes, _ids, _removed, _links);
+                (VectorBuffer? oldVectors, CodeBuffer? oldCodes, IdColumn oldIds, Column<byte> oldRemoved) = (_vectors, _codes, _ids, _removed);
                 using (_lock.EnterWrite())
                 {
                     AdoptGraphOf(rebuilt);
@@ -155,7 +155,6 @@ public sealed partial class GraphIndex
                 oldCodes?.Dispose();
                 oldIds.Dispose();
                 oldRemoved.Dispose();
-                oldLinks.Dispose();
             }
         }
         catch

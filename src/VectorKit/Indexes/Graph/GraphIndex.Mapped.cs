@@ -108,7 +108,6 @@ public sealed partial class GraphIndex
             index._ids.Borrow(ids, slots);
             index._removed = new Column<byte>(0);
             index._removed.Borrow(removed, slots);
-            index._links.Dispose();
             index._links = links;
             index._slotOf = slotOf;
             index._used = slots;

@@ -400,7 +400,6 @@ public sealed partial class GraphIndex : VectorIndex
         _codes?.Dispose();
         _ids.Dispose();
         _removed.Dispose();
-        _links.Dispose();
         _mapping?.Dispose();
         _used = 0;
         Volatile.Write(ref _entry, -1L & 0xFFFFFFFFL);
@@ -428,7 +427,6 @@ public sealed partial class GraphIndex : VectorIndex
         CodeBuffer? codes = _codes is null ? null : new CodeBuffer(_codes.Dimension, grown);
         var ids = new IdColumn(grown);
         var removed = new Column<byte>(grown);
-        GraphLinks? links = null;
         try
         {
             _vectors?.CopyRowsTo(vectors!, used);
@@ -437,7 +435,7 @@ public sealed partial class GraphIndex : VectorIndex
             // The rows to come are touched now, not by the first add to reach each page, under the write lock.
             vectors?.ClearRows(used, grown - used);
             codes?.ClearRows(used, grown - used);
-            links = _links.GrownCopy(grown);
+            GraphLinks links = _links.GrownCopy(grown);
             _ids.CopyRowsTo(ids, used);
             _removed.CopyRowsTo(removed, used);
             using (_lock.EnterWrite())
@@ -452,7 +450,7 @@ public sealed partial class GraphIndex : VectorIndex
                     _codes!.Adopt(codes);
                 }
 
-                (_links, links) = (links, _links);
+                _links = links;
                 _ids.Adopt(ids);
                 _removed.Adopt(removed);
                 if (slotOf is not null)
@@ -468,7 +466,6 @@ public sealed partial class GraphIndex : VectorIndex
             codes?.Dispose();
             ids.Dispose();
             removed.Dispose();
-            links?.Dispose();
         }
 
         return true;

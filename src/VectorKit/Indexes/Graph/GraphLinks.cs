@@ -1,6 +1,5 @@
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
-using VectorKit.Internal;
 
 namespace VectorKit.Indexes.Graph;
 
@@ -21,11 +20,8 @@ namespace VectorKit.Indexes.Graph;
 /// <para><b>Concurrency.</b> Writers of one list hold that node's lock and write the count last; readers do not lock.
 /// A reader can therefore see a list mid-rewrite, but every slot it reads is a valid, fully stored node, and a count
 /// never exceeds the limit. Growth (<see cref="EnsureCapacity"/>) requires that nobody else uses the links.</para>
-/// <para><b>Memory.</b> The arrays are native blocks (<see cref="Column{T}"/>), not managed arrays: at millions of nodes
-/// they would be large objects, whose allocation (by every growth, rebuild and copy) starts full collections that
-/// pause every thread. <see cref="Dispose"/> frees them; the owner does so once no reader can still use them.</para>
 /// </remarks>
-internal sealed unsafe class GraphLinks : IDisposable
+internal sealed unsafe class GraphLinks
 {
     // The count-only list a mapped graph reads for a layer above a node's level, and for a node whose level or start
     // a damaged file gives an impossible value.
@@ -42,13 +38,13 @@ internal sealed unsafe class GraphLinks : IDisposable
     private int _mappedMaxLevel;
     private int[]? _ownedStarts;
     private int _capacity;
-    private Column<int> _bottom = new(0);
-    private Column<int> _upperStart = new(0);
-    private Column<byte> _levels = new(0);
-    private Column<int> _upper = new(0);
+    private int[] _bottom = [];
+    private int[] _upperStart = [];
+    private byte[] _levels = [];
+    private int[] _upper = [];
     private int _upperUsed;
-    private Column<int> _inBottom = new(0);
-    private Column<int> _inUpper = new(0);
+    private int[] _inBottom = [];
+    private int[] _inUpper = [];
 
     public GraphLinks(int upperLimit, int bottomLimit)
     {
@@ -121,7 +117,7 @@ internal sealed unsafe class GraphLinks : IDisposable
     public int Capacity => _capacity;
 
     public long Bytes =>
-        _bottom.Bytes + _upperStart.Bytes + _upper.Bytes + _inBottom.Bytes + _inUpper.Bytes + _levels.Bytes + ((long)(_ownedStarts?.Length ?? 0) * sizeof(int));
+        ((long)(_bottom.Length + _upperStart.Length + _upper.Length + _inBottom.Length + _inUpper.Length + (_ownedStarts?.Length ?? 0)) * sizeof(int)) + _levels.Length;
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
     public int Limit(int level) => level == 0 ? BottomLimit : UpperLimit;
@@ -135,33 +131,11 @@ internal sealed unsafe class GraphLinks : IDisposable
         }
 
         int grown = (int)Math.Min(Array.MaxLength / (BottomLimit + 1), Math.Max(capacity, Capacity + ((long)Capacity / 2)));
-        Grow(_bottom, checked(grown * (BottomLimit + 1)));
-        Grow(_upperStart, grown);
-        Grow(_levels, grown);
-        Grow(_inBottom, grown);
+        Array.Resize(ref _bottom, checked(grown * (BottomLimit + 1)));
+        Array.Resize(ref _upperStart, grown);
+        Array.Resize(ref _levels, grown);
+        Array.Resize(ref _inBottom, grown);
         _capacity = grown;
-    }
-
-    // Resizes a column to `length` elements, keeping its contents and zeroing the new ones (which touches their pages).
-    private static void Grow<T>(Column<T> column, int length)
-        where T : unmanaged
-    {
-        int old = column.Capacity;
-        column.Resize(length);
-        if (length > old)
-        {
-            column.ClearRows(old, length - old);
-        }
-    }
-
-    // A zeroed column of `length` elements with the first `kept` of `source`.
-    private static Column<T> CopyOf<T>(Column<T> source, int kept, int length)
-        where T : unmanaged
-    {
-        var copy = new Column<T>(length);
-        source.Rows(kept).CopyTo(copy.Rows(kept));
-        copy.ClearRows(kept, length - kept);
-        return copy;
     }
 
     /// <summary>
@@ -170,16 +144,23 @@ internal sealed unsafe class GraphLinks : IDisposable
     /// </summary>
     public GraphLinks GrownCopy(int capacity)
     {
-        int upperRoom = UpperRoom(capacity);
-        int upperStride = UpperLimit + 1;
-        var copy = new GraphLinks(UpperLimit, BottomLimit) { _upperUsed = _upperUsed, _capacity = capacity };
-        copy.ReplaceColumns(
-            CopyOf(_bottom, checked(_capacity * (BottomLimit + 1)), checked(capacity * (BottomLimit + 1))),
-            CopyOf(_upperStart, _capacity, capacity),
-            CopyOf(_levels, _capacity, capacity),
-            CopyOf(_upper, _upperUsed, upperRoom),
-            CopyOf(_inBottom, _capacity, capacity),
-            CopyOf(_inUpper, _upperUsed / upperStride, upperRoom / upperStride));
+        var copy = new GraphLinks(UpperLimit, BottomLimit)
+        {
+            _bottom = new int[checked(capacity * (BottomLimit + 1))],
+            _upperStart = new int[capacity],
+            _levels = new byte[capacity],
+            _inBottom = new int[capacity],
+            _upper = new int[UpperRoom(capacity)],
+            _inUpper = new int[UpperRoom(capacity) / (UpperLimit + 1)],
+            _upperUsed = _upperUsed,
+            _capacity = capacity,
+        };
+        _bottom.CopyTo(copy._bottom, 0);
+        _upper.AsSpan(0, _upperUsed).CopyTo(copy._upper);
+        _inUpper.AsSpan(0, _upperUsed / (UpperLimit + 1)).CopyTo(copy._inUpper);
+        _upperStart.CopyTo(copy._upperStart, 0);
+        _levels.CopyTo(copy._levels, 0);
+        _inBottom.CopyTo(copy._inBottom, 0);
         return copy;
     }
 
@@ -189,7 +170,7 @@ internal sealed unsafe class GraphLinks : IDisposable
     {
         long proportional = _capacity == 0 ? 0 : (long)_upperUsed * capacity / _capacity;
         int stride = UpperLimit + 1;
-        long room = Math.Max(_upper.Capacity, proportional + (64L * stride));
+        long room = Math.Max(_upper.Length, proportional + (64L * stride));
         return (int)Math.Min(Array.MaxLength / stride * stride, room / stride * stride);
     }
 
@@ -219,45 +200,23 @@ internal sealed unsafe class GraphLinks : IDisposable
             at += (long)level * upperStride;
         }
 
-        levels = _levels.RowsMemory(slots);
-        bottom = _bottom.RowsMemory(checked(slots * (BottomLimit + 1)));
-        upper = _upper.RowsMemory((int)at);
+        levels = _levels.AsMemory(0, slots);
+        bottom = _bottom.AsMemory(0, checked(slots * (BottomLimit + 1)));
+        upper = _upper.AsMemory(0, (int)at);
         return true;
     }
 
     /// <summary>Shrinks to exactly <paramref name="capacity"/> nodes and forgets every link; caller excludes all other users.</summary>
     public void Reset(int capacity)
     {
-        ReplaceColumns(
-            CopyOf(_bottom, 0, checked(capacity * (BottomLimit + 1))),
-            CopyOf(_upperStart, 0, capacity),
-            CopyOf(_levels, 0, capacity),
-            new Column<int>(0),
-            CopyOf(_inBottom, 0, capacity),
-            new Column<int>(0));
+        _bottom = new int[checked(capacity * (BottomLimit + 1))];
+        _upperStart = new int[capacity];
+        _levels = new byte[capacity];
+        _inBottom = new int[capacity];
+        _upper = [];
+        _inUpper = [];
         _upperUsed = 0;
         _capacity = capacity;
-    }
-
-    /// <summary>Frees the native blocks (a mapped file's sections are not owned: untouched); nothing may use the links after.</summary>
-    public void Dispose()
-    {
-        ReplaceColumns(new(0), new(0), new(0), new(0), new(0), new(0));
-        _upperUsed = 0;
-        _capacity = 0;
-    }
-
-    private void ReplaceColumns(Column<int> bottom, Column<int> upperStart, Column<byte> levels, Column<int> upper, Column<int> inBottom, Column<int> inUpper)
-    {
-        (Column<int> oldBottom, Column<int> oldStarts, Column<byte> oldLevels, Column<int> oldUpper, Column<int> oldInBottom, Column<int> oldInUpper) =
-            (_bottom, _upperStart, _levels, _upper, _inBottom, _inUpper);
-        (_bottom, _upperStart, _levels, _upper, _inBottom, _inUpper) = (bottom, upperStart, levels, upper, inBottom, inUpper);
-        oldBottom.Dispose();
-        oldStarts.Dispose();
-        oldLevels.Dispose();
-        oldUpper.Dispose();
-        oldInBottom.Dispose();
-        oldInUpper.Dispose();
     }
 
     /// <summary>Gives a new slot its level and empty lists on every layer; caller excludes all other users.</summary>
@@ -269,17 +228,15 @@ internal sealed unsafe class GraphLinks : IDisposable
         if (level > 0)
         {
             int length = checked(level * (UpperLimit + 1));
-            if (_upperUsed + length > _upper.Capacity)
+            if (_upperUsed + length > _upper.Length)
             {
-                int stride = UpperLimit + 1;
-                long room = Math.Max(checked(_upperUsed + length), _upper.Capacity + (_upper.Capacity / 2) + (64L * stride));
-                Grow(_upper, (int)Math.Min(Array.MaxLength / stride * stride, room / stride * stride));
-                Grow(_inUpper, _upper.Capacity / stride);
+                Array.Resize(ref _upper, Math.Max(checked(_upperUsed + length), _upper.Length + (_upper.Length / 2) + 64));
+                Array.Resize(ref _inUpper, _upper.Length / (UpperLimit + 1));
             }
 
             _upperStart[slot] = _upperUsed;
-            _upper.ClearRows(_upperUsed, length);
-            _inUpper.ClearRows(_upperUsed / (UpperLimit + 1), level);
+            _upper.AsSpan(_upperUsed, length).Clear();
+            _inUpper.AsSpan(_upperUsed / (UpperLimit + 1), level).Clear();
             _upperUsed += length;
         }
     }
@@ -315,7 +272,7 @@ internal sealed unsafe class GraphLinks : IDisposable
             int stride = BottomLimit + 1;
             return _mappedBottom != null
                 ? new Span<int>(_mappedBottom + ((nint)slot * stride), stride)
-                : MemoryMarshal.CreateSpan(ref _bottom.Row(slot * stride), stride);
+                : MemoryMarshal.CreateSpan(ref Unsafe.Add(ref MemoryMarshal.GetArrayDataReference(_bottom), (nint)slot * stride), stride);
         }
 
         if (_mappedUpper != null)
@@ -324,7 +281,7 @@ internal sealed unsafe class GraphLinks : IDisposable
         }
 
         int upperStride = UpperLimit + 1;
-        return MemoryMarshal.CreateSpan(ref _upper.Row(_upperStart[slot] + ((level - 1) * upperStride)), upperStride);
+        return _upper.AsSpan(_upperStart[slot] + ((level - 1) * upperStride), upperStride);
     }
 
     // A mapped node's list on an upper layer; a layer the node lacks (or that would lie outside the section) reads as
@@ -341,8 +298,8 @@ internal sealed unsafe class GraphLinks : IDisposable
     public ref int InDegree(int slot, int level)
     {
         return ref level == 0
-            ? ref _inBottom.Row(slot)
-            : ref _inUpper.Row((_upperStart[slot] / (UpperLimit + 1)) + level - 1);
+            ? ref _inBottom[slot]
+            : ref _inUpper[(_upperStart[slot] / (UpperLimit + 1)) + level - 1];
     }
 
     /// <summary>The neighbour count of a list, read once, never more than the limit even mid-rewrite.</summary>
