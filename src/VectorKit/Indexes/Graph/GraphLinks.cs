@@ -144,14 +144,15 @@ internal sealed unsafe class GraphLinks
     /// </summary>
     public GraphLinks GrownCopy(int capacity)
     {
+        int upperRoom = UpperRoom(capacity);
         var copy = new GraphLinks(UpperLimit, BottomLimit)
         {
             _bottom = new int[checked(capacity * (BottomLimit + 1))],
             _upperStart = new int[capacity],
             _levels = new byte[capacity],
             _inBottom = new int[capacity],
-            _upper = new int[UpperRoom(capacity)],
-            _inUpper = new int[UpperRoom(capacity) / (UpperLimit + 1)],
+            _upper = new int[upperRoom],
+            _inUpper = new int[upperRoom / (UpperLimit + 1)],
             _upperUsed = _upperUsed,
             _capacity = capacity,
         };
