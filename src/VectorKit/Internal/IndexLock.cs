@@ -12,10 +12,12 @@ namespace VectorKit.Internal;
 /// A reader blocked in the kernel is woken only when the scheduler next runs it, which on a busy machine costs
 /// milliseconds however short the write was; spinning costs the length of the write. So every step taken under the
 /// write lock must be short (copies and swaps, never searches or scans), which the index kinds keep to. A writer that
-/// holds the lock past the budget was most likely pre-empted, and a spinning reader would keep it from a core; likewise a
-/// writer whose readers have not left within a longer budget (a few searches' length) sleeps while it waits for them. Writers queue on a monitor, one
-/// at a time, and may sleep. A writer arriving gives readers already spinning their turn first, so
-/// back-to-back write steps cannot starve searches. Non-recursive: a thread holding either side must not enter again.
+/// holds the lock past the budget was most likely pre-empted, and a spinning reader would keep it from a core.
+/// A writer keeps new readers out only from a moment when none is inside (waiting up to about a search's length for
+/// one), so the searches held back are those that arrive during its step, not during its wait for the searches in
+/// flight; past that it keeps them out, waits for those inside, and sleeps until the last of them wakes it. Writers
+/// queue on a monitor, one at a time, and may sleep. A writer arriving gives readers already spinning their turn first,
+/// so back-to-back write steps cannot starve searches. Non-recursive: a thread holding either side must not enter again.
 /// </remarks>
 internal sealed class IndexLock
 {
@@ -23,15 +25,19 @@ internal sealed class IndexLock
     // on an idle core, far shorter than a scheduler's time slice.
     private static readonly long SpinBudgetTicks = System.Diagnostics.Stopwatch.Frequency / 10_000;
 
-    // How long a writer spins for readers to leave before it sleeps: longer than a graph or inverted-file search, so
-    // that it sleeps only for a long scan or a pre-empted reader (which its spinning would keep from the core).
-    private static readonly long DrainSpinBudgetTicks = System.Diagnostics.Stopwatch.Frequency / 500;
+    // How long a writer waits for a moment with no reader inside, and then, its flag up, spins for the readers inside
+    // to leave before it sleeps until the last one wakes it: about a graph search. Past it the reader is a long scan or
+    // was pre-empted, and a writer spinning on would keep it from the core (for good, when the writer outranks it).
+    private static readonly long DrainSpinBudgetTicks = System.Diagnostics.Stopwatch.Frequency / 5_000;
 
     // Writers take this first, one at a time; it is held from EnterWriteLock to ExitWriteLock.
     private readonly object _writerTurn = new();
 
     // Readers that spun past the budget sleep on this until the writer leaves.
     private readonly object _wake = new();
+
+    // A writer whose readers outlast its spin sleeps on this until the last of them leaves.
+    private readonly object _drained = new();
 
     // The time this thread's reads waited for writers since it last asked (Stopwatch ticks; diagnostics, slow path only).
     [ThreadStatic]
@@ -104,7 +110,7 @@ internal sealed class IndexLock
                 return;
             }
 
-            Interlocked.Decrement(ref _counters.Readers);
+            LeaveReaders();
             Interlocked.Increment(ref _counters.SpinningReaders);
             long waitStart = System.Diagnostics.Stopwatch.GetTimestamp();
             WaitForWriter();
@@ -142,7 +148,21 @@ internal sealed class IndexLock
         }
     }
 
-    public void ExitReadLock() => Interlocked.Decrement(ref _counters.Readers);
+    public void ExitReadLock() => LeaveReaders();
+
+    // The last reader out wakes a writer sleeping for readers to leave. Decrement, then look (full fences on both
+    // sides, as in EnterReadLock): either this reader sees the sleeper and pulses under the monitor, or the writer,
+    // looking after announcing itself, sees no reader.
+    private void LeaveReaders()
+    {
+        if (Interlocked.Decrement(ref _counters.Readers) == 0 && Volatile.Read(ref _counters.DrainingWriter) != 0)
+        {
+            lock (_drained)
+            {
+                Monitor.Pulse(_drained);
+            }
+        }
+    }
 
     /// <summary>
     /// The read lock for a long reader (one block of a batch query, the linking of an add): waits first while a writer
@@ -204,23 +224,8 @@ internal sealed class IndexLock
                 spin.SpinOnce(sleep1Threshold: -1);
             }
 
-            Interlocked.Exchange(ref _counters.Writing, 1);
-            _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
-            _heldSinceCpu = TraceHoldsLongerThan > 0 ? ThreadClock.CpuNanoseconds() : 0;
-            spin.Reset();
-            while (Volatile.Read(ref _counters.Readers) != 0)
-            {
-                // A reader still inside past the budget is a long scan or was pre-empted: a writer spinning on would keep
-                // it from the core (for good, when the writer outranks it), so the writer sleeps and gives the core up.
-                if (System.Diagnostics.Stopwatch.GetTimestamp() - _heldSince < DrainSpinBudgetTicks)
-                {
-                    spin.SpinOnce(sleep1Threshold: -1);
-                }
-                else
-                {
-                    Thread.Sleep(1);
-                }
-            }
+            RaiseWritingFlag();
+            WaitForReaders();
 
             Volatile.Write(ref _owner, Environment.CurrentManagedThreadId);
             _ownedSince = System.Diagnostics.Stopwatch.GetTimestamp();
@@ -237,6 +242,66 @@ internal sealed class IndexLock
             Interlocked.Decrement(ref _counters.WaitingWriters);
             Interlocked.Decrement(ref _counters.Writers);
             throw;
+        }
+    }
+
+    // Raises the flag that keeps new readers out, at a moment when no reader is inside if one comes within the
+    // budget: readers are let in meanwhile, so a writer held back while it waits (pre-empted, or its processor stalled)
+    // keeps out only the searches that arrive during its own short step. A reader that slips in between the look and the
+    // raise has a whole search to run, so the writer steps back and looks again. Past the budget (readers that never all
+    // leave at once) it keeps the flag up and waits for those inside (WaitForReaders), so writers are not starved.
+    private void RaiseWritingFlag()
+    {
+        long arrived = System.Diagnostics.Stopwatch.GetTimestamp();
+        var spin = default(SpinWait);
+        while (true)
+        {
+            while (Volatile.Read(ref _counters.Readers) != 0 && System.Diagnostics.Stopwatch.GetTimestamp() - arrived < DrainSpinBudgetTicks)
+            {
+                spin.SpinOnce(sleep1Threshold: -1);
+            }
+
+            Interlocked.Exchange(ref _counters.Writing, 1);
+            _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
+            if (Volatile.Read(ref _counters.Readers) == 0 || _heldSince - arrived >= DrainSpinBudgetTicks)
+            {
+                break;
+            }
+
+            LowerWritingFlag();
+        }
+
+        _heldSinceCpu = TraceHoldsLongerThan > 0 ? ThreadClock.CpuNanoseconds() : 0;
+    }
+
+    // Spins while the readers inside are likely to leave soon; past the budget, sleeps until the last one leaves and
+    // wakes it (the timeout is a backstop), which gives the core up to a reader the writer may have kept from it.
+    private void WaitForReaders()
+    {
+        var spin = default(SpinWait);
+        while (Volatile.Read(ref _counters.Readers) != 0)
+        {
+            if (System.Diagnostics.Stopwatch.GetTimestamp() - _heldSince < DrainSpinBudgetTicks)
+            {
+                spin.SpinOnce(sleep1Threshold: -1);
+                continue;
+            }
+
+            Interlocked.Exchange(ref _counters.DrainingWriter, 1);
+            try
+            {
+                lock (_drained)
+                {
+                    if (Volatile.Read(ref _counters.Readers) != 0)
+                    {
+                        Monitor.Wait(_drained, 1);
+                    }
+                }
+            }
+            finally
+            {
+                Interlocked.Exchange(ref _counters.DrainingWriter, 0);
+            }
         }
     }
 
@@ -340,5 +405,9 @@ internal sealed class IndexLock
         // Readers that spun past the budget and sleep until the writer leaves.
         [FieldOffset(384)]
         public int SleepingReaders;
+
+        // 1 while a writer sleeps until the readers inside have left (readers read it as they leave).
+        [FieldOffset(388)]
+        public int DrainingWriter;
     }
 }

@@ -124,6 +124,49 @@ public sealed class IndexLockTests
     }
 
     [Fact]
+    public void A_writer_that_went_to_sleep_for_slow_readers_enters_only_after_the_last_has_left()
+    {
+        var rwLock = new IndexLock();
+        bool firstLeft = false, secondLeft = false, sawBoth = false;
+        var inside = new CountdownEvent(2);
+        var release = new ManualResetEventSlim[] { new(), new() };
+        Thread[] readers = [.. Enumerable.Range(0, 2).Select(r => Start(() =>
+        {
+            rwLock.EnterReadLock();
+            inside.Signal();
+            release[r].Wait(Guard);
+            if (r == 0)
+            {
+                Volatile.Write(ref firstLeft, true);
+            }
+            else
+            {
+                Volatile.Write(ref secondLeft, true);
+            }
+
+            rwLock.ExitReadLock();
+        }))];
+        Assert.True(inside.Wait(Guard));
+        Thread writer = Start(() =>
+        {
+            rwLock.EnterWriteLock();
+            sawBoth = Volatile.Read(ref firstLeft) && Volatile.Read(ref secondLeft);
+            rwLock.ExitWriteLock();
+        });
+
+        // Well past the writer's spin budget: it sleeps, and the first reader to leave must not let it in.
+        SpinUntil(() => rwLock.WaitingWriteCount == 1);
+        Thread.Sleep(20);
+        release[0].Set();
+        Assert.True(readers[0].Join(Guard));
+        Thread.Sleep(20);
+        Assert.True(writer.IsAlive, "the writer entered while a reader was inside");
+        release[1].Set();
+        Assert.True(writer.Join(Guard) && readers[1].Join(Guard));
+        Assert.True(sawBoth, "the writer entered before both readers had left");
+    }
+
+    [Fact]
     public void A_waiting_writer_keeps_new_batch_queries_out_until_it_has_written()
     {
         var rwLock = new IndexLock();
