@@ -87,7 +87,6 @@ public static class MaintenanceLatency
         int clusters = Math.Max(1, count / 100);
         s_foregroundNice = foregroundNice;
         s_realTime = realTime;
-        VectorKit.Internal.IndexLock.TraceHoldsLongerThan = Stopwatch.Frequency / 2000;
         string priority = realTime
             ? $"both real-time (first in, first out), the searcher resting 1 ms after every {RealTimeBusyMs} ms of searching"
             : $"both at nice {(foregroundNice == 0 ? "as the process" : foregroundNice.ToString(CultureInfo.InvariantCulture))}";
@@ -174,6 +173,7 @@ public static class MaintenanceLatency
         index.Train(data.AsSpan(0, Math.Min(count, 100_000) * d));
         index.AddRange(ids, data);
         Console.WriteLine($"{kind}: built in {build.Elapsed.TotalSeconds:F1} s");
+        index.TraceWriteHoldsLongerThan(TimeSpan.FromMilliseconds(0.5));
         var graph = index as GraphIndex;
 
         // Warm-up, then the reference: searches with no writes. The warm-up includes a removal and an add (of the same

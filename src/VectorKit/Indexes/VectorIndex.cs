@@ -697,6 +697,9 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
 
     internal void ResetLongestWriteHold() => _lock.ResetLongestWriteHold();
 
+    /// <summary>Records this index's exclusive steps longer than <paramref name="threshold"/> (see <see cref="IndexLock.TakeLongHolds"/>), for benchmarks.</summary>
+    internal void TraceWriteHoldsLongerThan(TimeSpan threshold) => _lock.TraceHoldsLongerThan = (long)(threshold.TotalSeconds * System.Diagnostics.Stopwatch.Frequency);
+
     /// <summary>Threads waiting to write: on the write lock, or at the writer gate (for tests).</summary>
     internal int WaitingWriters => _lock.WaitingWriteCount + _writerGate.WaitingReadCount + _writerGate.WaitingWriteCount;
 

@@ -67,11 +67,11 @@ internal sealed class IndexLock
     public void ResetLongestWriteHold() => Volatile.Write(ref _longestHold, 0);
 
     /// <summary>
-    /// When positive, every write-lock hold longer than this many Stopwatch ticks records the writer's stack at its end,
-    /// how long it waited for readers to leave, and the processor time it used (for benchmarks that look for long
-    /// exclusive steps; off by default).
+    /// When positive, every hold of this lock's write side longer than this many Stopwatch ticks records the writer's
+    /// stack at its end, how long it waited for readers to leave, and the processor time it used (for benchmarks that
+    /// look for long exclusive steps; off by default). Per lock, so a private copy (a compaction's rebuild) stays out.
     /// </summary>
-    internal static long TraceHoldsLongerThan { get; set; }
+    internal long TraceHoldsLongerThan { get; set; }
 
     private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, double CpuMs, string Stack)> s_longHolds = new();
 

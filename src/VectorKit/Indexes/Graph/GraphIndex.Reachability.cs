@@ -1,3 +1,4 @@
+using System.Buffers;
 using VectorKit.Internal;
 
 namespace VectorKit.Indexes.Graph;
@@ -235,39 +236,52 @@ public sealed partial class GraphIndex
 
         RetireWaypoints<TDistance>();
         int used = _used;
-        var reached = new bool[used];
-        var stack = new Stack<int>();
-        Spread(entry, reached, stack);
+
+        // Pooled: a pass runs again and again on a large index, and fresh arrays of this size would come from the
+        // large-object heap, whose allocations start full collections (which stop searches). Each node is pushed at
+        // most once, so the stack needs a place per slot.
+        bool[] reached = ArrayPool<bool>.Shared.Rent(used);
+        int[] stack = ArrayPool<int>.Shared.Rent(used);
         int attached = 0;
-        using GraphScratch.Rental rental = GraphScratch.Rent();
-        GraphScratch scratch = rental.Scratch;
-        scratch.EnsureSizes(_options.BuildWidth, _links.MaxLimit);
-
-        // Attaching replaces a link only when the reached node's list is full; a node cut off that way is found by the
-        // next round. Rounds beyond the first are rare; the bound only guards against a pathological cycle. The
-        // traversals read the graph only, beside searches; each attach writes under a short write lock.
-        for (int round = 0; round < 8; round++)
+        try
         {
-            bool any = false;
-            for (int slot = 0; slot < used; slot++)
-            {
-                if (_removed[slot] == 0 && !reached[slot])
-                {
-                    any = true;
-                    Attach<TDistance>(scratch, slot, reached, lockWrites: true);
-                    attached++;
-                    Spread(slot, reached, stack);
-                    BetweenPassSteps?.Invoke();
-                }
-            }
-
-            if (!any)
-            {
-                break;
-            }
-
-            Array.Clear(reached);
+            Array.Clear(reached, 0, used);
             Spread(entry, reached, stack);
+            using GraphScratch.Rental rental = GraphScratch.Rent();
+            GraphScratch scratch = rental.Scratch;
+            scratch.EnsureSizes(_options.BuildWidth, _links.MaxLimit);
+
+            // Attaching replaces a link only when the reached node's list is full; a node cut off that way is found by
+            // the next round. Rounds beyond the first are rare; the bound only guards against a pathological cycle. The
+            // traversals read the graph only, beside searches; each attach writes under a short write lock.
+            for (int round = 0; round < 8; round++)
+            {
+                bool any = false;
+                for (int slot = 0; slot < used; slot++)
+                {
+                    if (_removed[slot] == 0 && !reached[slot])
+                    {
+                        any = true;
+                        Attach<TDistance>(scratch, slot, reached, lockWrites: true);
+                        attached++;
+                        Spread(slot, reached, stack);
+                        BetweenPassSteps?.Invoke();
+                    }
+                }
+
+                if (!any)
+                {
+                    break;
+                }
+
+                Array.Clear(reached, 0, used);
+                Spread(entry, reached, stack);
+            }
+        }
+        finally
+        {
+            ArrayPool<bool>.Shared.Return(reached);
+            ArrayPool<int>.Shared.Return(stack);
         }
 
         // Attaching can leave a node without in-links that the pass then reached some other way: none is kept noted.
@@ -302,7 +316,7 @@ public sealed partial class GraphIndex
     }
 
     // Marks every node reachable on the bottom layer from `start`.
-    private void Spread(int start, bool[] reached, Stack<int> stack)
+    private void Spread(int start, bool[] reached, int[] stack)
     {
         if (reached[start])
         {
@@ -310,17 +324,18 @@ public sealed partial class GraphIndex
         }
 
         reached[start] = true;
-        stack.Push(start);
-        while (stack.Count > 0)
+        stack[0] = start;
+        int depth = 1;
+        while (depth > 0)
         {
-            Span<int> block = _links.Block(stack.Pop(), 0);
+            Span<int> block = _links.Block(stack[--depth], 0);
             for (int i = 1; i <= block[0]; i++)
             {
                 int to = block[i];
                 if (!reached[to])
                 {
                     reached[to] = true;
-                    stack.Push(to);
+                    stack[depth++] = to;
                 }
             }
         }
