@@ -137,19 +137,24 @@ public static class MaintenanceLatency
         }
 
         // The goal, split by cause: what the index made a search wait (its lock; the runtime's suspensions, which our
-        // allocations trigger) against what the machine did to a search that waited for neither.
+        // allocations trigger) against what the machine did to a search that waited for neither. A suspension counts by
+        // the searches it stopped (those that slept while it lasted), not by its own length: the runtime's events time
+        // it from the request to stop every thread, which waits for ordinary threads the real-time ones keep off the
+        // cores, while a searcher resting between searches is not stopped at all.
         Console.WriteLine();
         Console.WriteLine("Against the goal (max within 5× the no-write p99), by cause:");
         Console.WriteLine();
-        Console.WriteLine("| index | phase | no-write p99 ms | 5× that | max search ms | longest wait in the index's lock ms | longest runtime suspension ms | index-caused wait within 5×? | max of searches that did not wait in the lock ms |");
-        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---|---:|");
+        Console.WriteLine("| index | phase | no-write p99 ms | 5× that | max search ms | longest wait in the index's lock ms | longest runtime suspension ms | longest search that slept during one ms | index-caused wait within 5×? | max of searches that did not wait in the lock ms |");
+        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---:|---|---:|");
         foreach (Phase p in phases)
         {
             double p99 = phases.First(b => b.Kind == p.Kind).Searches.P99;
-            double suspension = recorded.Where(x => x.StartUtc < p.EndUtc && x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) > p.StartUtc).Select(x => x.Ms).DefaultIfEmpty(0).Max();
-            bool within = Math.Max(p.Waits.LockWaitMaxMs, suspension) <= 5 * p99;
+            List<RuntimeSuspensions.Suspension> during = recorded.Where(x => x.StartUtc < p.EndUtc && x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) > p.StartUtc).ToList();
+            double suspension = during.Select(x => x.Ms).DefaultIfEmpty(0).Max();
+            double stopped = p.Slept.Where(x => during.Any(y => y.StartUtc < x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) && y.StartUtc + TimeSpan.FromMilliseconds(y.Ms) > x.StartUtc)).Select(x => x.Ms).DefaultIfEmpty(0).Max();
+            bool within = Math.Max(p.Waits.LockWaitMaxMs, stopped) <= 5 * p99;
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                $"| {p.Kind} | {p.Name} | {p99:F2} | {5 * p99:F2} | {p.Searches.Max:F2} | {p.Waits.LockWaitMaxMs:F2} | {suspension:F1} | {(within ? "yes" : "no")} | {p.Waits.NoLockWaitMaxMs:F2} |"));
+                $"| {p.Kind} | {p.Name} | {p99:F2} | {5 * p99:F2} | {p.Searches.Max:F2} | {p.Waits.LockWaitMaxMs:F2} | {suspension:F1} | {stopped:F2} | {(within ? "yes" : "no")} | {p.Waits.NoLockWaitMaxMs:F2} |"));
         }
 
         Console.WriteLine();

@@ -20,6 +20,15 @@ internal sealed class ChangeLog : IDisposable
     private long _pendingIds;
     private bool _disposed;
 
+    // Writers append under their write lock, and the first call of a method compiles it: a throwaway log appends once
+    // of each kind when the first real one is created (outside every lock), so no write's exclusive step compiles them.
+    static ChangeLog()
+    {
+        using var warm = new ChangeLog();
+        warm.RecordWrite([0], [0f]);
+        warm.RecordRemove([0]);
+    }
+
     /// <summary>Ids written or removed since the last <see cref="Take"/>.</summary>
     public long PendingIds
     {
