@@ -1,3 +1,4 @@
+using System.Buffers;
 using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 using VectorKit.Distance.Kernels;
@@ -42,20 +43,30 @@ internal static unsafe class NearestCentroid
         fixed (float* distancePointer = distances)
         {
             var work = new Work((nint)rows, rowCount, centroids, centroidCount, dimension, tileRows, path, (nint)labelPointer, (nint)distancePointer);
+            // Each block's distances to one tile of centroids, rented: a single add assigns one row, and a fresh
+            // array sized for a whole block of rows would be a large object per add.
+            int scratchLength = Math.Min(RowBlock, rowCount) * tileRows;
             if (blocks == 1 || parallelism == 1)
             {
-                var scratch = new float[RowBlock * tileRows];
-                for (int b = 0; b < blocks; b++)
+                float[] scratch = ArrayPool<float>.Shared.Rent(scratchLength);
+                try
                 {
-                    cancellationToken.ThrowIfCancellationRequested();
-                    work.Block(b, scratch);
+                    for (int b = 0; b < blocks; b++)
+                    {
+                        cancellationToken.ThrowIfCancellationRequested();
+                        work.Block(b, scratch);
+                    }
+                }
+                finally
+                {
+                    ArrayPool<float>.Shared.Return(scratch);
                 }
 
                 return;
             }
 
             var options = new ParallelOptions { MaxDegreeOfParallelism = parallelism, CancellationToken = cancellationToken };
-            Parallel.For(0, blocks, options, () => new float[RowBlock * tileRows], (b, _, scratch) => work.Block(b, scratch), static _ => { });
+            Parallel.For(0, blocks, options, () => ArrayPool<float>.Shared.Rent(scratchLength), (b, _, scratch) => work.Block(b, scratch), static scratch => ArrayPool<float>.Shared.Return(scratch));
         }
     }
 

@@ -757,39 +757,66 @@ public sealed partial class InvertedFileIndex : VectorIndex
     internal int ListRegrowths { get; private set; }
 
     // Grows every list that the batch adds to, once: exactly to size when it was empty (a bulk load leaves no slack),
-    // else by half again or to size, whichever is larger.
+    // else by half again or to size, whichever is larger. Runs under the write lock, so its own counts are pooled: an
+    // allocation here could start a collection while every search waits for the lock.
     private void GrowLists(ReadOnlySpan<int> labels, List<(int List, int[] Slots, byte[] Codes)>? grown = null)
     {
-        var added = new int[_listCounts.Length];
-        foreach (int label in labels)
+        int lists = _listCounts.Length;
+        int[] added = ArrayPool<int>.Shared.Rent(lists);
+        try
         {
-            added[label]++;
-        }
-
-        for (int list = 0; list < added.Length; list++)
-        {
-            int required = _listCounts[list] + added[list];
-            int current = _listSlots[list].Length;
-            if (added[list] > 0 && current < required)
+            Array.Clear(added, 0, lists);
+            foreach (int label in labels)
             {
-                ListRegrowths += current == 0 ? 0 : 1;
-                (int List, int[] Slots, byte[] Codes) ready = grown?.Find(g => g.List == list) ?? default;
-                if (ready.Slots is not null && ready.Slots.Length >= required)
-                {
-                    // Made before the lock; only the entries are copied here.
-                    int length = _listCounts[list];
-                    _listSlots[list].AsSpan(0, length).CopyTo(ready.Slots);
-                    _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(length))).CopyTo(ready.Codes);
-                    _listSlots[list] = ready.Slots;
-                    _listCodes[list] = ready.Codes;
-                    continue;
-                }
+                added[label]++;
+            }
 
-                int capacity = GrownListCapacity(current, required);
-                Array.Resize(ref _listSlots[list], capacity);
-                Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
+            for (int list = 0; list < lists; list++)
+            {
+                int required = _listCounts[list] + added[list];
+                int current = _listSlots[list].Length;
+                if (added[list] > 0 && current < required)
+                {
+                    ListRegrowths += current == 0 ? 0 : 1;
+                    (int List, int[] Slots, byte[] Codes) ready = ReadyGrowth(grown, list);
+                    if (ready.Slots is not null && ready.Slots.Length >= required)
+                    {
+                        // Made before the lock; only the entries are copied here.
+                        int length = _listCounts[list];
+                        _listSlots[list].AsSpan(0, length).CopyTo(ready.Slots);
+                        _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(length))).CopyTo(ready.Codes);
+                        _listSlots[list] = ready.Slots;
+                        _listCodes[list] = ready.Codes;
+                        continue;
+                    }
+
+                    int capacity = GrownListCapacity(current, required);
+                    Array.Resize(ref _listSlots[list], capacity);
+                    Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
+                }
             }
         }
+        finally
+        {
+            ArrayPool<int>.Shared.Return(added);
+        }
+    }
+
+    // The arrays GrownListsFor made for `list`, if any (a plain loop: a predicate capturing `list` would allocate).
+    private static (int List, int[] Slots, byte[] Codes) ReadyGrowth(List<(int List, int[] Slots, byte[] Codes)>? grown, int list)
+    {
+        if (grown is not null)
+        {
+            foreach ((int List, int[] Slots, byte[] Codes) growth in grown)
+            {
+                if (growth.List == list)
+                {
+                    return growth;
+                }
+            }
+        }
+
+        return default;
     }
 
     // The capacity a list of `current` entries grows to when it must hold `required`.
@@ -815,7 +842,15 @@ public sealed partial class InvertedFileIndex : VectorIndex
             if (current < required && grown?.Exists(g => g.List == list) != true)
             {
                 int capacity = GrownListCapacity(current, required);
-                (grown ??= []).Add((list, new int[capacity], new byte[checked((int)ListCodeBytes(capacity))]));
+                var slots = new int[capacity];
+                var codes = new byte[checked((int)ListCodeBytes(capacity))];
+
+                // A large array can come from pages the system has not handed over yet (known to be zero, so not
+                // written at allocation): writing them here takes their first-touch faults beside searches, where
+                // the copy under the lock would take them otherwise.
+                slots.AsSpan().Clear();
+                codes.AsSpan().Clear();
+                (grown ??= []).Add((list, slots, codes));
             }
         }
 
