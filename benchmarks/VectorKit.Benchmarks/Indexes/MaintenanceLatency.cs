@@ -53,6 +53,12 @@ public static class MaintenanceLatency
     // sleeps would meet the kernel's real-time throttling (95 % of each second by default), a pause of its own.
     private static double RealTimeBusyMs = 4;
 
+    // Searches that waited longer than this in the index's lock are kept with their times, to match against the steps.
+    private const double LongLockWaitMs = 0.5;
+
+    /// <summary>A search that waited in the index's lock: its start and end (Stopwatch ticks) and the wait.</summary>
+    private readonly record struct LockWait(long StartTicks, long EndTicks, double WaitMs);
+
     /// <summary>A search during which the searching thread slept (or a write): when it started and how long it took.</summary>
     private readonly record struct SleptSearch(DateTime StartUtc, double Ms);
 
@@ -332,7 +338,7 @@ public static class MaintenanceLatency
         DateTime startUtc = DateTime.UtcNow;
         int runs = 0;
         index.ResetLongestWriteHold();
-        (LatencySummary summary, int writes, double slowest, Collections gc, Waits waits, List<SleptSearch> slept) = Measure(index, queries, d, null, writer, () =>
+        (LatencySummary summary, int writes, double slowest, Collections gc, Waits waits, List<SleptSearch> slept, List<LockWait> lockWaits) = Measure(index, queries, d, null, writer, () =>
         {
             do
             {
@@ -341,7 +347,21 @@ public static class MaintenanceLatency
             }
             while (watch.Elapsed.TotalSeconds < seconds);
         });
-        foreach (var group in VectorKit.Internal.IndexLock.TakeLongHolds().GroupBy(h => h.Stack).OrderByDescending(g => g.Max(h => h.Ms)).Take(4))
+        var holds = VectorKit.Internal.IndexLock.TakeLongHolds();
+        if (lockWaits.Count > 0)
+        {
+            // The exclusive steps over 0.5 ms that overlapped the search with the longest wait in the lock, to name its cause.
+            LockWait longest = lockWaits.MaxBy(w => w.WaitMs);
+            var overlapping = holds.Where(h => h.EndTicks > longest.StartTicks && h.EndTicks - (long)(h.Ms * Stopwatch.Frequency / 1000) < longest.EndTicks).ToList();
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"  {kind}, {name}: the longest wait in the lock, {longest.WaitMs:F2} ms (search {(longest.EndTicks - longest.StartTicks) * 1000.0 / Stopwatch.Frequency:F2} ms), overlapped {overlapping.Count} exclusive step(s) over 0.5 ms{(overlapping.Count == 0 ? " (so its wait was steps under 0.5 ms, or the wake-up after one)" : ":")}"));
+            foreach (var hold in overlapping)
+            {
+                string frame = hold.Stack.Split(Environment.NewLine).Select(l => l.Trim()).FirstOrDefault(l => !l.Contains("IndexLock", StringComparison.Ordinal)) ?? "";
+                Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"    {hold.Ms:F2} ms (waiting for readers {hold.DrainMs:F2} ms, on a processor {hold.CpuMs:F2} ms) {frame}"));
+            }
+        }
+
+        foreach (var group in holds.GroupBy(h => h.Stack).OrderByDescending(g => g.Max(h => h.Ms)).Take(4))
         {
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"  {kind}, {name}: {group.Count()} exclusive steps over 0.5 ms, longest {group.Max(h => h.Ms):F2} ms (of it waiting for readers to leave {group.MaxBy(h => h.Ms).DrainMs:F2} ms; the writer on a processor for {group.MaxBy(h => h.Ms).CpuMs:F2} ms of it), ending at:"));
             Console.WriteLine(string.Join(Environment.NewLine, group.Key.Split(Environment.NewLine).Take(8).Select(l => "    " + l.Trim())));
@@ -352,13 +372,14 @@ public static class MaintenanceLatency
         return phase;
     }
 
-    private static (LatencySummary Summary, int Writes, double SlowestWriteMs, Collections Gc, Waits Waits, List<SleptSearch> Slept) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
+    private static (LatencySummary Summary, int Writes, double SlowestWriteMs, Collections Gc, Waits Waits, List<SleptSearch> Slept, List<LockWait> LockWaits) Measure(VectorIndex index, float[] queries, int d, TimeSpan? duration, SteadyWriter? writes, Action maintenance)
     {
         // Room for every sample up front, touched before the phase: growing the list mid-phase would allocate (and
         // collect) beside the searches, and a first touch of each page would fault in the searching thread, where a
         // machine short of free pages reclaims some first.
         var latencies = Touched<double>(1 << 22);
         var slept = Touched<SleptSearch>(1 << 16);
+        var lockWaits = Touched<LockWait>(1 << 14);
         int searches = 0;
         long searchBytes = 0;
         var waits = default(Waits);
@@ -390,6 +411,11 @@ public static class MaintenanceLatency
                 double ms = Stopwatch.GetElapsedTime(start).TotalMilliseconds;
                 ThreadSwitches after = ThreadSwitches.Read();
                 double lockWait = VectorKit.Internal.IndexLock.TakeReadWait().TotalMilliseconds;
+                if (lockWait > LongLockWaitMs && lockWaits.Count < lockWaits.Capacity)
+                {
+                    lockWaits.Add(new LockWait(start, start + (long)(ms * Stopwatch.Frequency / 1000), lockWait));
+                }
+
                 latencies.Add(ms);
                 waits = lockWait > 0
                     ? waits with { LockWaits = waits.LockWaits + 1, LockWaitMaxMs = Math.Max(waits.LockWaitMaxMs, lockWait) }
@@ -437,7 +463,7 @@ public static class MaintenanceLatency
         searcher.Join();
         writer?.Join();
         Collections gc = Collections.Since(gen0, gen1, gen2, pause, searchBytes, searches);
-        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc, waits, slept);
+        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc, waits, slept, lockWaits);
     }
 
     // The machine's own floor: a thread scheduled as the searcher is (and resting as it does) reads the clock in a

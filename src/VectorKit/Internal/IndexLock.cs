@@ -68,17 +68,17 @@ internal sealed class IndexLock
 
     /// <summary>
     /// When positive, every hold of this lock's write side longer than this many Stopwatch ticks records the writer's
-    /// stack at its end, how long it waited for readers to leave, and the processor time it used (for benchmarks that
+    /// stack and time (Stopwatch ticks) at its end, how long it waited for readers to leave, and the processor time it used (for benchmarks that
     /// look for long exclusive steps; off by default). Per lock, so a private copy (a compaction's rebuild) stays out.
     /// </summary>
     internal long TraceHoldsLongerThan { get; set; }
 
-    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, double CpuMs, string Stack)> s_longHolds = new();
+    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack)> s_longHolds = new();
 
     /// <summary>The holds recorded under <see cref="TraceHoldsLongerThan"/> since the last call, emptying the record.</summary>
-    internal static List<(double Ms, double DrainMs, double CpuMs, string Stack)> TakeLongHolds()
+    internal static List<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack)> TakeLongHolds()
     {
-        var holds = new List<(double Ms, double DrainMs, double CpuMs, string Stack)>();
+        var holds = new List<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack)>();
         while (s_longHolds.TryDequeue(out var hold))
         {
             holds.Add(hold);
@@ -323,7 +323,7 @@ internal sealed class IndexLock
             double drain = (double)(_ownedSince - _heldSince) * 1000 / System.Diagnostics.Stopwatch.Frequency;
             long cpu = ThreadClock.CpuNanoseconds();
             double cpuMs = cpu < 0 || _heldSinceCpu < 0 ? double.NaN : (cpu - _heldSinceCpu) / 1e6;
-            s_longHolds.Enqueue(((double)held * 1000 / System.Diagnostics.Stopwatch.Frequency, drain, cpuMs, new System.Diagnostics.StackTrace(1, false).ToString()));
+            s_longHolds.Enqueue(((double)held * 1000 / System.Diagnostics.Stopwatch.Frequency, drain, cpuMs, _heldSince + held, new System.Diagnostics.StackTrace(1, false).ToString()));
         }
 
         Volatile.Write(ref _owner, 0);
