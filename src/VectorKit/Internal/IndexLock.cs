@@ -16,8 +16,9 @@ namespace VectorKit.Internal;
 /// A writer keeps new readers out only from a moment when none is inside (waiting up to about a search's length for
 /// one), so the searches held back are those that arrive during its step, not during its wait for the searches in
 /// flight; past that it keeps them out, waits for those inside, and sleeps until the last of them wakes it. Writers
-/// queue on a monitor, one at a time, and may sleep. A writer arriving gives readers already spinning their turn first,
-/// so back-to-back write steps cannot starve searches. Non-recursive: a thread holding either side must not enter again.
+/// queue on a monitor, one at a time, and may sleep. A writer arriving gives readers already waiting their turn first
+/// (up to about a search's length, time for a sleeping one to be woken), so back-to-back write steps cannot starve
+/// searches. Non-recursive: a thread holding either side must not enter again.
 /// </remarks>
 internal sealed class IndexLock
 {
@@ -212,14 +213,17 @@ internal sealed class IndexLock
             Monitor.Enter(_writerTurn, ref turn);
             var spin = default(SpinWait);
 
-            // Batch queries end first, then readers already spinning (behind the previous write step) get their turn.
+            // Batch queries end first, then readers already waiting (behind the previous write step) get their turn,
+            // so back-to-back steps cannot keep a search out: one that went to sleep needs a moment to be woken and
+            // run, so the writer gives them up to about a search's length.
             while (Volatile.Read(ref _counters.BatchReaders) != 0)
             {
                 spin.SpinOnce();
             }
 
             spin.Reset();
-            while (Volatile.Read(ref _counters.SpinningReaders) != 0 && !spin.NextSpinWillYield)
+            long turnStart = System.Diagnostics.Stopwatch.GetTimestamp();
+            while (Volatile.Read(ref _counters.SpinningReaders) != 0 && System.Diagnostics.Stopwatch.GetTimestamp() - turnStart < DrainSpinBudgetTicks)
             {
                 spin.SpinOnce(sleep1Threshold: -1);
             }

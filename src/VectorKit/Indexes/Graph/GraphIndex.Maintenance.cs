@@ -1,3 +1,5 @@
+using System.Reflection;
+using System.Runtime.CompilerServices;
 using VectorKit.Distance;
 using VectorKit.Internal;
 
@@ -94,6 +96,12 @@ public sealed partial class GraphIndex
     /// <exception cref="ObjectDisposedException">The index was disposed.</exception>
     public override void Compact(IProgress<int>? progress = null, CancellationToken cancellationToken = default)
     {
+        // The swap runs under the write lock, and a method's first call compiles it: compiled here the first time.
+        if (Interlocked.Exchange(ref s_swapPrepared, 1) == 0)
+        {
+            RuntimeHelpers.PrepareMethod(typeof(GraphIndex).GetMethod(nameof(AdoptGraphOf), BindingFlags.NonPublic | BindingFlags.Instance)!.MethodHandle);
+        }
+
         using var compaction = _compaction.EnterScope(cancellationToken);
         GraphIndex rebuilt;
         using ChangeLog log = new();
@@ -165,6 +173,9 @@ public sealed partial class GraphIndex
             throw;
         }
     }
+
+    // Whether AdoptGraphOf has been compiled ahead of its first call (see Compact).
+    private static int s_swapPrepared;
 
     // Caller holds the write lock; `rebuilt` is private to the caller and is dropped afterwards without being disposed,
     // its storage now belonging to this index. The caller frees the old storage once the lock is released.
