@@ -23,7 +23,8 @@ namespace VectorKit.Benchmarks.Indexes;
 /// length, and for a collection its generation, reason and type) and matches every search that slept for longer than
 /// 5× the no-write p99 against them and against the writes of the phase, to tell a collection's pause from a lock wait.
 /// Each phase also reports the longest exclusive step (write-lock hold) the index took during it, and the steps over
-/// 0.5 ms with their stacks, their wait for readers and the writer's processor time. Two reference phases, after the
+/// 0.5 ms with their stacks, their wait for readers and the writer's processor time, and the steps the phase's longest
+/// wait in the lock overlapped. Two reference phases, after the
 /// no-write one, force a collection every 100 ms (alone, then beside two ordinary threads searching) to show the
 /// runtime's own pauses apart from the index.
 /// </summary>
