@@ -69,8 +69,9 @@ internal sealed class IndexLock
 
     /// <summary>
     /// When positive, every hold of this lock's write side longer than this many Stopwatch ticks records the writer's
-    /// stack and time (Stopwatch ticks) at its end, how long it waited for readers to leave, and the processor time it used (for benchmarks that
-    /// look for long exclusive steps; off by default). Per lock, so a private copy (a compaction's rebuild) stays out.
+    /// stack and time (Stopwatch ticks) at its end, how long it waited for readers to leave, and the processor time it
+    /// used (for benchmarks that look for long exclusive steps; off by default). Per lock, so a private copy (a
+    /// compaction's rebuild) stays out.
     /// </summary>
     internal long TraceHoldsLongerThan { get; set; }
 

@@ -761,44 +761,37 @@ public sealed partial class InvertedFileIndex : VectorIndex
     // allocation here could start a collection while every search waits for the lock.
     private void GrowLists(ReadOnlySpan<int> labels, List<(int List, int[] Slots, byte[] Codes)>? grown = null)
     {
-        int lists = _listCounts.Length;
-        int[] added = ArrayPool<int>.Shared.Rent(lists);
-        try
+        using var rental = ScratchRental<int>.Rent(_listCounts.Length);
+        Span<int> added = rental.Span;
+        added.Clear();
+        foreach (int label in labels)
         {
-            Array.Clear(added, 0, lists);
-            foreach (int label in labels)
-            {
-                added[label]++;
-            }
-
-            for (int list = 0; list < lists; list++)
-            {
-                int required = _listCounts[list] + added[list];
-                int current = _listSlots[list].Length;
-                if (added[list] > 0 && current < required)
-                {
-                    ListRegrowths += current == 0 ? 0 : 1;
-                    (int List, int[] Slots, byte[] Codes) ready = ReadyGrowth(grown, list);
-                    if (ready.Slots is not null && ready.Slots.Length >= required)
-                    {
-                        // Made before the lock; only the entries are copied here.
-                        int length = _listCounts[list];
-                        _listSlots[list].AsSpan(0, length).CopyTo(ready.Slots);
-                        _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(length))).CopyTo(ready.Codes);
-                        _listSlots[list] = ready.Slots;
-                        _listCodes[list] = ready.Codes;
-                        continue;
-                    }
-
-                    int capacity = GrownListCapacity(current, required);
-                    Array.Resize(ref _listSlots[list], capacity);
-                    Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
-                }
-            }
+            added[label]++;
         }
-        finally
+
+        for (int list = 0; list < added.Length; list++)
         {
-            ArrayPool<int>.Shared.Return(added);
+            int required = _listCounts[list] + added[list];
+            int current = _listSlots[list].Length;
+            if (added[list] > 0 && current < required)
+            {
+                ListRegrowths += current == 0 ? 0 : 1;
+                (int List, int[] Slots, byte[] Codes) ready = ReadyGrowth(grown, list);
+                if (ready.Slots is not null && ready.Slots.Length >= required)
+                {
+                    // Made before the lock; only the entries are copied here.
+                    int length = _listCounts[list];
+                    _listSlots[list].AsSpan(0, length).CopyTo(ready.Slots);
+                    _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(length))).CopyTo(ready.Codes);
+                    _listSlots[list] = ready.Slots;
+                    _listCodes[list] = ready.Codes;
+                    continue;
+                }
+
+                int capacity = GrownListCapacity(current, required);
+                Array.Resize(ref _listSlots[list], capacity);
+                Array.Resize(ref _listCodes[list], checked((int)ListCodeBytes(capacity)));
+            }
         }
     }
 
@@ -839,7 +832,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
             int list = labels[i];
             int required = Volatile.Read(ref _listCounts[list]) + labels.Length;
             int current = _listSlots[list].Length;
-            if (current < required && grown?.Exists(g => g.List == list) != true)
+            if (current < required && ReadyGrowth(grown, list).Slots is null)
             {
                 int capacity = GrownListCapacity(current, required);
                 var slots = new int[capacity];
