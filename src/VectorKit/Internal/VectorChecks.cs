@@ -41,9 +41,26 @@ internal static class VectorChecks
         CheckUniqueIds(ids);
     }
 
+    // Up to this many ids, the pairwise check's vectorised scans cost less than building a set.
+    private const int PairwiseIdLimit = 32;
+
     /// <summary>Throws on the first id that appears twice in <paramref name="ids"/>.</summary>
     public static void CheckUniqueIds(ReadOnlySpan<long> ids)
     {
+        // A few ids (a single write's) are compared pairwise: no set is allocated for them.
+        if (ids.Length <= PairwiseIdLimit)
+        {
+            for (int i = 1; i < ids.Length; i++)
+            {
+                if (ids[..i].Contains(ids[i]))
+                {
+                    ThrowHelper.ThrowArgument(nameof(ids), $"Id {ids[i]} appears more than once in ids; ids must be unique.");
+                }
+            }
+
+            return;
+        }
+
         var seen = new HashSet<long>(ids.Length, KeyedIdComparer.Instance);
         foreach (long id in ids)
         {

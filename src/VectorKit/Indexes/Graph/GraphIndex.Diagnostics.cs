@@ -66,7 +66,7 @@ public sealed partial class GraphIndex
         using (_lock.EnterWrite())
         {
             ThrowIfDisposed();
-            FinishLocked(null, 0, 0, forceFullPass: true, deferAttach: true);
+            FinishLocked([], 0, 0, forceFullPass: true, deferAttach: true);
         }
 
         AttachDueOrphans();

@@ -10,24 +10,31 @@ public sealed partial class GraphIndex
     // compaction); the vectors are stored and the levels drawn.
     private void LinkAll(int first, int n, IProgress<int>? progress, CancellationToken cancellationToken)
     {
-        int completed = 0;
-        int step = Math.Max(1, n / 100);
-        if (n == 1 || _options.EffectiveParallelism == 1)
+        if (n > 1 && _options.EffectiveParallelism > 1)
         {
-            // On the calling thread: a parallel loop's tasks and closures cost more than a single link.
-            for (int i = 0; i < n; i++)
-            {
-                cancellationToken.ThrowIfCancellationRequested();
-                Link(first + i);
-                if (progress is not null && ((i + 1) % step == 0 || i + 1 == n))
-                {
-                    progress.Report(i + 1);
-                }
-            }
-
+            LinkAllInParallel(first, n, progress, cancellationToken);
             return;
         }
 
+        // On the calling thread: a parallel loop's tasks and closures cost more than a single link.
+        int step = Math.Max(1, n / 100);
+        for (int i = 0; i < n; i++)
+        {
+            cancellationToken.ThrowIfCancellationRequested();
+            Link(first + i);
+            if (progress is not null && ((i + 1) % step == 0 || i + 1 == n))
+            {
+                progress.Report(i + 1);
+            }
+        }
+    }
+
+    // Apart from LinkAll: the loop's closure would be allocated on entry to any method declaring what it captures,
+    // single adds included.
+    private void LinkAllInParallel(int first, int n, IProgress<int>? progress, CancellationToken cancellationToken)
+    {
+        int completed = 0;
+        int step = Math.Max(1, n / 100);
         var parallel = new ParallelOptions { MaxDegreeOfParallelism = _options.EffectiveParallelism, CancellationToken = cancellationToken };
         Parallel.For(0, n, parallel, i =>
         {

@@ -1,5 +1,6 @@
 using System.Reflection;
 using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
 using VectorKit.Distance;
 using VectorKit.Internal;
 
@@ -43,20 +44,26 @@ public sealed partial class GraphIndex
         }
 
         using var gate = _writerGate.EnterWrite();
-        int[] slots;
-        lock (_pendingRepairs)
-        {
-            slots = [.. _pendingRepairs];
-            _pendingRepairs.Clear();
-        }
-
-        if (slots.Length == 0 || IsDisposed)
+        using ScratchRental<int> slots = TakeAll(_pendingRepairs);
+        if (slots.Span.Length == 0 || IsDisposed)
         {
             return;
         }
 
-        var action = new SteppedRepairAction(this, slots);
+        var action = new SteppedRepairAction(this, slots.Span);
         Dispatch<SteppedRepairAction, bool>(ref action);
+    }
+
+    // Empties `list` (locked on itself) into a borrowed span the caller returns: a write's few slots allocate nothing.
+    private static ScratchRental<int> TakeAll(List<int> list)
+    {
+        lock (list)
+        {
+            var taken = ScratchRental<int>.Rent(list.Count);
+            CollectionsMarshal.AsSpan(list).CopyTo(taken.Span);
+            list.Clear();
+            return taken;
+        }
     }
 
     // Caller holds the write lock and has taken the slots' ids out of the map: hides the slots from results (their
@@ -134,7 +141,7 @@ public sealed partial class GraphIndex
             if (live > 0)
             {
                 rebuilt.LinkAll(0, live, progress, cancellationToken);
-                rebuilt.FinishLocked(null, 0, live, forceFullPass: true);
+                rebuilt.FinishLocked([], 0, live, forceFullPass: true);
                 rebuilt.RunDueFullPass();
             }
 
@@ -262,47 +269,49 @@ public sealed partial class GraphIndex
     // removed slot and chooses those of live nodes again. A removed slot whose in-links were all found loses its own
     // lists; one whose walk came back short keeps them (a waypoint for walks that still reach it through the links
     // not found) until the next global pass repairs the rest.
-    private void RepairAfterRemoval<TDistance>(int[] removed)
+    private void RepairAfterRemoval<TDistance>(ReadOnlySpan<int> removed)
         where TDistance : struct, IGraphDistance
     {
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
-        long[] lists = ListsNaming(scratch, removed, out bool[] complete);
-        foreach (long list in lists)
+        using var complete = ScratchRental<bool>.Rent(removed.Length);
+        using ScratchRental<long> lists = ListsNaming(scratch, removed, complete.Span);
+        foreach (long list in lists.Span)
         {
             Relink<TDistance>(scratch, (int)(list >> 8), (int)(list & 0xFF));
         }
 
-        RetireLists(removed, complete);
+        RetireLists(removed, complete.Span);
     }
 
     // RepairAfterRemoval in steps, for RunPendingRepairs (writer gate held exclusively, write lock not held): the lists
     // naming the removed slots are found outside the write lock and chosen again in steps (RelinkInSteps); the
     // orphans the new lists leave are attached from AfterWrite.
-    private void RepairAfterRemovalInSteps<TDistance>(int[] removed)
+    private void RepairAfterRemovalInSteps<TDistance>(ReadOnlySpan<int> removed)
         where TDistance : struct, IGraphDistance
     {
-        bool[] complete;
+        using var complete = ScratchRental<bool>.Rent(removed.Length);
         try
         {
             using GraphScratch.Rental rental = GraphScratch.Rent();
             GraphScratch scratch = rental.Scratch;
             scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
-            long[] lists = ListsNaming(scratch, removed, out complete);
-            RelinkInSteps<TDistance>(scratch, lists, BetweenRepairSteps);
+            using ScratchRental<long> lists = ListsNaming(scratch, removed, complete.Span);
+            RelinkInSteps<TDistance>(scratch, lists.Span, BetweenRepairSteps);
         }
         catch
         {
             // Whatever was not repaired is left to the global pass, as an incomplete removal is.
             using var write = _lock.EnterWrite();
-            RetireLists(removed, new bool[removed.Length]);
+            complete.Span.Clear();
+            RetireLists(removed, complete.Span);
             throw;
         }
 
         using (_lock.EnterWrite())
         {
-            RetireLists(removed, complete);
+            RetireLists(removed, complete.Span);
             FinishChanges<TDistance>(0, 0, removed.Length, forceFullPass: false, deferAttach: true);
         }
     }
@@ -312,7 +321,7 @@ public sealed partial class GraphIndex
     // the writer gate exclusively and not the write lock, so nothing else changes the graph meanwhile; a new list
     // depends on its own old one and the removed nodes' lists only, so choosing a step's lists before writing them
     // gives the lists that choosing and writing each in turn would. `between` runs after each step (for tests).
-    private void RelinkInSteps<TDistance>(GraphScratch scratch, long[] lists, Action? between)
+    private void RelinkInSteps<TDistance>(GraphScratch scratch, ReadOnlySpan<long> lists, Action? between)
         where TDistance : struct, IGraphDistance
     {
         int stride = _links.MaxLimit;
@@ -343,12 +352,11 @@ public sealed partial class GraphIndex
     }
 
     // The live lists (keyed slot << 8 | layer, sorted so the repaired graph does not depend on hash order) naming any of
-    // `removed`, and per removed slot whether its walk found every list naming it.
-    private long[] ListsNaming(GraphScratch scratch, int[] removed, out bool[] complete)
+    // `removed`, borrowed for the caller to return, and per removed slot whether its walk found every list naming it.
+    private ScratchRental<long> ListsNaming(GraphScratch scratch, ReadOnlySpan<int> removed, Span<bool> complete)
     {
         HashSet<long> affected = scratch.ListsFound;
         affected.Clear();
-        complete = new bool[removed.Length];
         for (int r = 0; r < removed.Length; r++)
         {
             complete[r] = true;
@@ -358,15 +366,21 @@ public sealed partial class GraphIndex
             }
         }
 
-        long[] lists = [.. affected];
+        var lists = ScratchRental<long>.Rent(affected.Count);
+        int at = 0;
+        foreach (long list in affected)
+        {
+            lists.Span[at++] = list;
+        }
+
         affected.Clear();
-        Array.Sort(lists);
+        lists.Span.Sort();
         return lists;
     }
 
     // Caller holds the write lock and has chosen again every list found naming `removed`: a slot whose in-links were
     // all found loses its lists, the others stay as waypoints for the global pass.
-    private void RetireLists(int[] removed, bool[] complete)
+    private void RetireLists(ReadOnlySpan<int> removed, ReadOnlySpan<bool> complete)
     {
         for (int r = 0; r < removed.Length; r++)
         {
@@ -402,7 +416,8 @@ public sealed partial class GraphIndex
             return;
         }
 
-        var lists = new List<long>();
+        List<long> lists = _waypointLists;
+        lists.Clear();
         for (int slot = 0; slot < _used; slot++)
         {
             if (_removed[slot] != 0)
@@ -427,8 +442,9 @@ public sealed partial class GraphIndex
         using GraphScratch.Rental rental = GraphScratch.Rent();
         GraphScratch scratch = rental.Scratch;
         scratch.EnsureSizes(_options.LinksPerNode, _links.MaxLimit);
-        RelinkInSteps<TDistance>(scratch, [.. lists], BetweenPassSteps);
-        int[] waypoints = [.. _waypoints];
+        RelinkInSteps<TDistance>(scratch, CollectionsMarshal.AsSpan(lists), BetweenPassSteps);
+        lists.Clear();
+        ReadOnlySpan<int> waypoints = CollectionsMarshal.AsSpan(_waypoints);
         for (int start = 0; start < waypoints.Length; start += RelinkStep)
         {
             using (_lock.EnterWrite())
@@ -652,12 +668,14 @@ public sealed partial class GraphIndex
     }
 
     /// <summary>Runs the stepped repair of removed slots with the index's distance.</summary>
-    private readonly struct SteppedRepairAction(GraphIndex index, int[] removed) : IGraphAction<bool>
+    private readonly ref struct SteppedRepairAction(GraphIndex index, ReadOnlySpan<int> removed) : IGraphAction<bool>
     {
+        private readonly ReadOnlySpan<int> _removed = removed;
+
         public bool Run<TDistance>()
             where TDistance : struct, IGraphDistance
         {
-            index.RepairAfterRemovalInSteps<TDistance>(removed);
+            index.RepairAfterRemovalInSteps<TDistance>(_removed);
             return true;
         }
     }

@@ -178,19 +178,14 @@ public sealed partial class GraphIndex
         scratch.EnsureSizes(_options.BuildWidth, _links.MaxLimit);
         for (int round = 0; round < 16; round++)
         {
-            int[] noted;
-            lock (_orphanNotes)
-            {
-                noted = [.. _orphanNotes];
-                _orphanNotes.Clear();
-            }
-
+            using ScratchRental<int> notes = TakeAll(_orphanNotes);
+            Span<int> noted = notes.Span;
             if (noted.Length == 0)
             {
                 return false;
             }
 
-            Array.Sort(noted);
+            noted.Sort();
             for (int i = 0; i < noted.Length; i++)
             {
                 int slot = noted[i];
@@ -482,16 +477,18 @@ public sealed partial class GraphIndex
     }
 
     /// <summary>Runs the last step of an add, removal or compaction with the index's distance.</summary>
-    private readonly struct FinishAction(GraphIndex index, int[]? removed, int first, int added, bool forceFullPass, bool deferAttach) : IGraphAction<bool>
+    private readonly ref struct FinishAction(GraphIndex index, ReadOnlySpan<int> removed, int first, int added, bool forceFullPass, bool deferAttach) : IGraphAction<bool>
     {
+        private readonly ReadOnlySpan<int> _removed = removed;
+
         public bool Run<TDistance>()
             where TDistance : struct, IGraphDistance
         {
             int changes = added;
-            if (removed is not null)
+            if (!_removed.IsEmpty)
             {
-                index.RepairAfterRemoval<TDistance>(removed);
-                changes += removed.Length;
+                index.RepairAfterRemoval<TDistance>(_removed);
+                changes += _removed.Length;
             }
 
             index.FinishChanges<TDistance>(first, added, changes, forceFullPass, deferAttach);
@@ -501,7 +498,7 @@ public sealed partial class GraphIndex
 
     // Caller holds the write lock; a global pass found due runs later, from AfterWrite, and so do the orphans' attaches
     // when `deferAttach`.
-    private void FinishLocked(int[]? removed, int first, int added, bool forceFullPass, bool deferAttach = false)
+    private void FinishLocked(ReadOnlySpan<int> removed, int first, int added, bool forceFullPass, bool deferAttach = false)
     {
         var action = new FinishAction(this, removed, first, added, forceFullPass, deferAttach);
         Dispatch<FinishAction, bool>(ref action);
@@ -516,7 +513,7 @@ public sealed partial class GraphIndex
         {
             if (!IsDisposed)
             {
-                FinishLocked(null, first, added, forceFullPass: false, deferAttach: true);
+                FinishLocked([], first, added, forceFullPass: false, deferAttach: true);
             }
         }
         finally

@@ -109,6 +109,9 @@ public sealed partial class GraphIndex : VectorIndex
     private long _incompleteRemovals;
     private readonly List<int> _waypoints = [];
 
+    // The lists a global pass finds naming waypoints (RetireWaypoints), kept with their room between passes.
+    private readonly List<long> _waypointLists = [];
+
     // Slots retired by removals whose repair has not run yet (RunPendingRepairs); locked on itself.
     private readonly List<int> _pendingRepairs = [];
 
@@ -335,22 +338,24 @@ public sealed partial class GraphIndex : VectorIndex
             throw;
         }
 
-        var retired = new List<int>();
+        // Borrowed: a compaction replays its log's writes one at a time through here, under the write lock.
+        using var retired = ScratchRental<int>.Rent(n);
+        int replaced = 0;
         for (int r = 0; r < n; r++)
         {
             int slot = first + r;
             if (_slotOf.TryGetValue(ids[r], out int old) && old != slot)
             {
-                retired.Add(old);
+                retired.Span[replaced++] = old;
                 _slotOf[ids[r]] = slot;
             }
         }
 
-        int[] oldSlots = [.. retired];
+        ReadOnlySpan<int> oldSlots = retired.Span[..replaced];
         RetireLocked(oldSlots);
         FinishLocked(oldSlots, first, n, forceFullPass: false);
         _changeLog?.RecordWrite(ids, vectors);
-        return oldSlots.Length;
+        return replaced;
     }
 
     // After a cancelled batch: takes every slot of it that is still live out of the index again, with repair.
