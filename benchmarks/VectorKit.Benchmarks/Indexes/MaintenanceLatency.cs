@@ -360,6 +360,25 @@ public static class MaintenanceLatency
                 string frame = hold.Stack.Split(Environment.NewLine).Select(l => l.Trim()).FirstOrDefault(l => !l.Contains("IndexLock", StringComparison.Ordinal)) ?? "";
                 Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"    {hold.Ms:F2} ms (waiting for readers {hold.DrainMs:F2} ms, on a processor {hold.CpuMs:F2} ms) {frame}"));
             }
+
+            // Every step of any length during that search: one long step, many short ones back to back (their flag up
+            // for most of the wait), or the search not running while the flag was down.
+            var steps = index.WriteHoldsBetween(longest.StartTicks, longest.EndTicks);
+            double Ms(long ticks) => ticks * 1000.0 / Stopwatch.Frequency;
+            long flagUp = steps.Sum(h => Math.Min(h.LeftTicks, longest.EndTicks) - Math.Max(h.RaisedTicks, longest.StartTicks));
+            long longestGap = 0, previous = longest.StartTicks;
+            foreach (var (raised, left) in steps.OrderBy(h => h.RaisedTicks))
+            {
+                longestGap = Math.Max(longestGap, raised - previous);
+                previous = Math.Max(previous, left);
+            }
+
+            longestGap = Math.Max(longestGap, longest.EndTicks - previous);
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"    during that search: {steps.Count} exclusive step(s) of any length, the flag up {Ms(flagUp):F2} ms of its {Ms(longest.EndTicks - longest.StartTicks):F2} ms, the longest time with the flag down {Ms(longestGap):F2} ms"));
+            foreach (var (raised, left) in steps.OrderBy(h => h.RaisedTicks).Take(12))
+            {
+                Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"      step at +{Ms(raised - longest.StartTicks):F2} ms for {Ms(left - raised):F3} ms"));
+            }
         }
 
         foreach (var group in holds.GroupBy(h => h.Stack).OrderByDescending(g => g.Max(h => h.Ms)).Take(4))

@@ -700,6 +700,9 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     /// <summary>Records this index's exclusive steps longer than <paramref name="threshold"/> (see <see cref="IndexLock.TakeLongHolds"/>), for benchmarks.</summary>
     internal void TraceWriteHoldsLongerThan(TimeSpan threshold) => _lock.TraceHoldsLongerThan = (long)(threshold.TotalSeconds * System.Diagnostics.Stopwatch.Frequency);
 
+    /// <summary>While tracing, this index's exclusive steps of any length that overlapped the two Stopwatch times (see <see cref="IndexLock.HoldsBetween"/>).</summary>
+    internal List<(long RaisedTicks, long LeftTicks)> WriteHoldsBetween(long fromTicks, long toTicks) => _lock.HoldsBetween(fromTicks, toTicks);
+
     /// <summary>Threads waiting to write: on the write lock, or at the writer gate (for tests).</summary>
     internal int WaitingWriters => _lock.WaitingWriteCount + _writerGate.WaitingReadCount + _writerGate.WaitingWriteCount;
 

@@ -73,7 +73,46 @@ internal sealed class IndexLock
     /// used (for benchmarks that look for long exclusive steps; off by default). Per lock, so a private copy (a
     /// compaction's rebuild) stays out.
     /// </summary>
-    internal long TraceHoldsLongerThan { get; set; }
+    internal long TraceHoldsLongerThan
+    {
+        get => _traceHoldsLongerThan;
+        set
+        {
+            _traceHoldsLongerThan = value;
+            _recentHolds = value > 0 ? new (long, long)[RecentHoldCount] : null;
+        }
+    }
+
+    private long _traceHoldsLongerThan;
+
+    // While tracing, when every hold (of any length) raised its flag and left, the latest RecentHoldCount of them.
+    private const int RecentHoldCount = 1 << 16;
+    private (long RaisedTicks, long LeftTicks)[]? _recentHolds;
+    private long _holdsRecorded;
+
+    /// <summary>
+    /// While tracing (<see cref="TraceHoldsLongerThan"/>), the holds of any length that ended between the two
+    /// Stopwatch times, among the latest 65,536 (for benchmarks: whether a reader's long wait was one step, many short
+    /// ones back to back, or the reader not running).
+    /// </summary>
+    internal List<(long RaisedTicks, long LeftTicks)> HoldsBetween(long fromTicks, long toTicks)
+    {
+        var found = new List<(long, long)>();
+        if (_recentHolds is { } holds)
+        {
+            long count = Volatile.Read(ref _holdsRecorded);
+            for (long i = Math.Max(0, count - RecentHoldCount); i < count; i++)
+            {
+                (long raised, long left) = holds[i % RecentHoldCount];
+                if (left > fromTicks && raised < toTicks)
+                {
+                    found.Add((raised, left));
+                }
+            }
+        }
+
+        return found;
+    }
 
     private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack)> s_longHolds = new();
 
@@ -321,6 +360,12 @@ internal sealed class IndexLock
         if (held > _longestHold)
         {
             Volatile.Write(ref _longestHold, held);
+        }
+
+        if (_recentHolds is { } recent)
+        {
+            recent[_holdsRecorded % RecentHoldCount] = (_heldSince, _heldSince + held);
+            Volatile.Write(ref _holdsRecorded, _holdsRecorded + 1);
         }
 
         if (TraceHoldsLongerThan > 0 && held > TraceHoldsLongerThan)
