@@ -24,7 +24,8 @@ namespace VectorKit.Benchmarks.Indexes;
 /// 5× the no-write p99 against them and against the writes of the phase, to tell a collection's pause from a lock wait.
 /// Each phase also reports the longest exclusive step (write-lock hold) the index took during it, and the steps over
 /// 0.5 ms with their stacks, their wait for readers and the writer's processor time, and the steps the phase's longest
-/// wait in the lock overlapped. Two reference phases, after the
+/// wait in the lock overlapped. A lock wait counts against the goal for the time a step's flag (which keeps readers out)
+/// was up during its search: the rest of a wait, the flag was down and the searcher was not running. Two reference phases, after the
 /// no-write one, force a collection every 100 ms (alone, then beside two ordinary threads searching) to show the
 /// runtime's own pauses apart from the index.
 /// </summary>
@@ -44,7 +45,7 @@ public static class MaintenanceLatency
     private const int SearchesPerWrite = 100;
     private const int BatchQueries = 2_000;
 
-    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc, Waits Waits, DateTime StartUtc, DateTime EndUtc, List<SleptSearch> Slept, List<SleptSearch> WriteTimes, double LongestHoldMs);
+    private sealed record Phase(string Kind, string Name, double Seconds, int Runs, LatencySummary Searches, int Writes, double SlowestWriteMs, double Extra, Collections Gc, Waits Waits, DateTime StartUtc, DateTime EndUtc, List<SleptSearch> Slept, List<SleptSearch> WriteTimes, double LongestHoldMs, double FlagUpWaitMs = 0);
 
     // The searching and writing threads' nice value (0: the process's own), or real-time scheduling for both.
     private static int s_foregroundNice;
@@ -151,17 +152,17 @@ public static class MaintenanceLatency
         Console.WriteLine();
         Console.WriteLine("Against the goal (max within 5× the no-write p99), by cause:");
         Console.WriteLine();
-        Console.WriteLine("| index | phase | no-write p99 ms | 5× that | max search ms | longest wait in the index's lock ms | longest runtime suspension ms | longest search that slept during one ms | index-caused wait within 5×? | max of searches that did not wait in the lock ms |");
-        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---:|---|---:|");
+        Console.WriteLine("| index | phase | no-write p99 ms | 5× that | max search ms | longest wait in the index's lock ms | of a wait, longest part with a step's flag up ms | longest runtime suspension ms | longest search that slept during one ms | index-caused wait within 5×? | max of searches that did not wait in the lock ms |");
+        Console.WriteLine("|---|---|---:|---:|---:|---:|---:|---:|---:|---|---:|");
         foreach (Phase p in phases)
         {
             double p99 = phases.First(b => b.Kind == p.Kind).Searches.P99;
             List<RuntimeSuspensions.Suspension> during = recorded.Where(x => x.StartUtc < p.EndUtc && x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) > p.StartUtc).ToList();
             double suspension = during.Select(x => x.Ms).DefaultIfEmpty(0).Max();
             double stopped = p.Slept.Where(x => during.Any(y => y.StartUtc < x.StartUtc + TimeSpan.FromMilliseconds(x.Ms) && y.StartUtc + TimeSpan.FromMilliseconds(y.Ms) > x.StartUtc)).Select(x => x.Ms).DefaultIfEmpty(0).Max();
-            bool within = Math.Max(p.Waits.LockWaitMaxMs, stopped) <= 5 * p99;
+            bool within = Math.Max(p.FlagUpWaitMs, stopped) <= 5 * p99;
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                $"| {p.Kind} | {p.Name} | {p99:F2} | {5 * p99:F2} | {p.Searches.Max:F2} | {p.Waits.LockWaitMaxMs:F2} | {suspension:F1} | {stopped:F2} | {(within ? "yes" : "no")} | {p.Waits.NoLockWaitMaxMs:F2} |"));
+                $"| {p.Kind} | {p.Name} | {p99:F2} | {5 * p99:F2} | {p.Searches.Max:F2} | {p.Waits.LockWaitMaxMs:F2} | {p.FlagUpWaitMs:F2} | {suspension:F1} | {stopped:F2} | {(within ? "yes" : "no")} | {p.Waits.NoLockWaitMaxMs:F2} |"));
         }
 
         Console.WriteLine();
@@ -329,11 +330,43 @@ public static class MaintenanceLatency
         }
     }
 
+    // The longest part of a lock wait during which a write step kept readers out: each wait kept (over LongLockWaitMs)
+    // is capped by the time the flag of any step was up during its search, since the rest of the wait the flag was down
+    // and the search was not running (not scheduled); shorter waits count in full. The raw wait when the timeline or
+    // the list of waits ran out of room.
+    private static double FlagUpWait(VectorIndex index, Waits waits, List<LockWait> lockWaits, long startTicks, long holdsBefore)
+    {
+        if (lockWaits.Count == lockWaits.Capacity || index.WriteHoldsRecorded - holdsBefore >= 1 << 20)
+        {
+            Console.WriteLine("  (the lock waits or the step timeline ran out of room: the flag-up wait is the raw wait)");
+            return waits.LockWaitMaxMs;
+        }
+
+        var holds = index.WriteHoldsBetween(startTicks, long.MaxValue);
+        long[] ends = holds.Select(h => h.LeftTicks).ToArray();
+        double longest = Math.Min(waits.LockWaitMaxMs, LongLockWaitMs);
+        foreach (LockWait wait in lockWaits)
+        {
+            int at = Array.BinarySearch(ends, wait.StartTicks);
+            long up = 0;
+            for (int i = at < 0 ? ~at : at; i < holds.Count && holds[i].RaisedTicks < wait.EndTicks; i++)
+            {
+                up += Math.Min(holds[i].LeftTicks, wait.EndTicks) - Math.Max(holds[i].RaisedTicks, wait.StartTicks);
+            }
+
+            longest = Math.Max(longest, Math.Min(wait.WaitMs, up * 1000.0 / Stopwatch.Frequency));
+        }
+
+        return longest;
+    }
+
     // One phase: the searcher runs while `maintenance` runs, again and again until `seconds` have passed (at least
     // once), the writer beside it when given.
     private static Phase Measure(string kind, string name, VectorIndex index, float[] queries, int d, double seconds, SteadyWriter? writer, Action maintenance)
     {
         var watch = Stopwatch.StartNew();
+        long startTicks = Stopwatch.GetTimestamp();
+        long holdsBefore = index.WriteHoldsRecorded;
         VectorKit.Internal.IndexLock.TakeLongHolds();
         long allocatedBefore = GC.GetTotalAllocatedBytes();
         DateTime startUtc = DateTime.UtcNow;
@@ -387,7 +420,8 @@ public static class MaintenanceLatency
             Console.WriteLine(string.Join(Environment.NewLine, group.Key.Split(Environment.NewLine).Take(8).Select(l => "    " + l.Trim())));
         }
 
-        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc, waits, startUtc, DateTime.UtcNow, slept, writer is null ? [] : [.. writer.Times], index.LongestWriteHold.TotalMilliseconds);
+        var phase = new Phase(kind, name, watch.Elapsed.TotalSeconds, runs, summary, writes, slowest, 0, gc, waits, startUtc, DateTime.UtcNow, slept, writer is null ? [] : [.. writer.Times], index.LongestWriteHold.TotalMilliseconds,
+            FlagUpWait(index, waits, lockWaits, startTicks, holdsBefore));
         Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"{kind}, {name}: {phase.Seconds:F1} s, {summary.Count:N0} searches, p99 {summary.P99:F2} ms, max {summary.Max:F2} ms, {writes} writes (slowest {slowest:F1} ms), collections {gc.Gen0}/{gc.Gen1}/{gc.Gen2}, GC pauses {gc.PauseMs:F0} ms in all; longest exclusive step {phase.LongestHoldMs:F2} ms; slept {waits.Slept} (max {waits.SleptMaxMs:F2} ms), pre-empted only {waits.Preempted} (max {waits.PreemptedMaxMs:F2} ms), neither max {waits.NeitherMaxMs:F2} ms; waited in the lock {waits.LockWaits} (longest wait {waits.LockWaitMaxMs:F2} ms), max of the others {waits.NoLockWaitMaxMs:F2} ms; {(GC.GetTotalAllocatedBytes() - allocatedBefore) / 1048576.0:F0} MiB allocated in the process"));
         return phase;
     }

@@ -703,6 +703,9 @@ public abstract class VectorIndex : ITrainableIndex, IExternalFullVectors
     /// <summary>While tracing, this index's exclusive steps of any length that overlapped the two Stopwatch times (see <see cref="IndexLock.HoldsBetween"/>).</summary>
     internal List<(long RaisedTicks, long LeftTicks)> WriteHoldsBetween(long fromTicks, long toTicks) => _lock.HoldsBetween(fromTicks, toTicks);
 
+    /// <summary>While tracing, how many exclusive steps this index has recorded in all (see <see cref="IndexLock.HoldsRecorded"/>).</summary>
+    internal long WriteHoldsRecorded => _lock.HoldsRecorded;
+
     /// <summary>Threads waiting to write: on the write lock, or at the writer gate (for tests).</summary>
     internal int WaitingWriters => _lock.WaitingWriteCount + _writerGate.WaitingReadCount + _writerGate.WaitingWriteCount;
 

@@ -86,13 +86,16 @@ internal sealed class IndexLock
     private long _traceHoldsLongerThan;
 
     // While tracing, when every hold (of any length) raised its flag and left, the latest RecentHoldCount of them.
-    private const int RecentHoldCount = 1 << 16;
+    private const int RecentHoldCount = 1 << 20;
     private (long RaisedTicks, long LeftTicks)[]? _recentHolds;
     private long _holdsRecorded;
 
+    /// <summary>The holds recorded while tracing, in all (those before the latest 2^20 are no longer kept).</summary>
+    internal long HoldsRecorded => Volatile.Read(ref _holdsRecorded);
+
     /// <summary>
-    /// While tracing (<see cref="TraceHoldsLongerThan"/>), the holds of any length that ended between the two
-    /// Stopwatch times, among the latest 65,536 (for benchmarks: whether a reader's long wait was one step, many short
+    /// While tracing (<see cref="TraceHoldsLongerThan"/>), the holds of any length that overlapped the two Stopwatch
+    /// times, among the latest 2^20, oldest first (for benchmarks: whether a reader's long wait was one step, many short
     /// ones back to back, or the reader not running).
     /// </summary>
     internal List<(long RaisedTicks, long LeftTicks)> HoldsBetween(long fromTicks, long toTicks)
