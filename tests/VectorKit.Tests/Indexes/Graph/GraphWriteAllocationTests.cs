@@ -53,8 +53,8 @@ public class GraphWriteAllocationTests
         }
 
         // Growth is geometric, so a few pairs may grow an array (the upper layers' links, a scratch list). Before
-        // single writes stopped allocating, every pair did (about 570 B: the uniqueness check's set, the linking
-        // loop's closure, the repair's arrays).
+        // single writes stopped allocating, every pair did: the uniqueness check's set, the linking loop's closure,
+        // the repair's arrays.
         Assert.True(allocating.Count <= 3, $"{allocating.Count} of {Pairs} pairs allocated: {string.Join("; ", allocating)}");
         Assert.Equal(N, index.Count);
         Assert.False(index.Contains(oldest - 1));
