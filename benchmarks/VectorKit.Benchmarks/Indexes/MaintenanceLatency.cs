@@ -391,7 +391,7 @@ public static class MaintenanceLatency
             foreach (var hold in overlapping)
             {
                 string frame = hold.Stack.Split(Environment.NewLine).Select(l => l.Trim()).FirstOrDefault(l => !l.Contains("IndexLock", StringComparison.Ordinal)) ?? "";
-                Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"    {hold.Ms:F2} ms (waiting for readers {hold.DrainMs:F2} ms, on a processor {hold.CpuMs:F2} ms) {frame}"));
+                Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"    {hold.Ms:F2} ms (waiting for readers {hold.DrainMs:F2} ms, on a processor {hold.CpuMs:F2} ms) {frame}; {hold.Drain}"));
             }
 
             // Every step of any length during that search: one long step, many short ones back to back (their flag up
@@ -416,7 +416,7 @@ public static class MaintenanceLatency
 
         foreach (var group in holds.GroupBy(h => h.Stack).OrderByDescending(g => g.Max(h => h.Ms)).Take(4))
         {
-            Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"  {kind}, {name}: {group.Count()} exclusive steps over 0.5 ms, longest {group.Max(h => h.Ms):F2} ms (of it waiting for readers to leave {group.MaxBy(h => h.Ms).DrainMs:F2} ms; the writer on a processor for {group.MaxBy(h => h.Ms).CpuMs:F2} ms of it), ending at:"));
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"  {kind}, {name}: {group.Count()} exclusive steps over 0.5 ms, longest {group.Max(h => h.Ms):F2} ms (of it waiting for readers to leave {group.MaxBy(h => h.Ms).DrainMs:F2} ms; the writer on a processor for {group.MaxBy(h => h.Ms).CpuMs:F2} ms of it; {group.MaxBy(h => h.Ms).Drain}), ending at:"));
             Console.WriteLine(string.Join(Environment.NewLine, group.Key.Split(Environment.NewLine).Take(8).Select(l => "    " + l.Trim())));
         }
 

@@ -13,9 +13,10 @@ namespace VectorKit.Internal;
 /// milliseconds however short the write was; spinning costs the length of the write. So every step taken under the
 /// write lock must be short (copies and swaps, never searches or scans), which the index kinds keep to. A writer that
 /// holds the lock past the budget was most likely pre-empted, and a spinning reader would keep it from a core.
-/// A writer keeps new readers out only from a moment when none is inside (waiting up to about a search's length for
-/// one), so the searches held back are those that arrive during its step, not during its wait for the searches in
-/// flight; past that it keeps them out, waits for those inside, and sleeps until the last of them wakes it. Writers
+/// A writer keeps new readers out only from a moment when none is inside (spinning for one, then sleeping with new
+/// readers still let in until those inside leave, up to a few searches' length), so the searches held back are those
+/// that arrive during its step, not during its wait for the searches in flight, nor while it waits to be woken; past
+/// its patience it keeps them out, spins for those inside, and sleeps until the last of them wakes it. Writers
 /// queue on a monitor, one at a time, and may sleep. A writer arriving gives readers already waiting their turn first
 /// (up to about a search's length, time for a sleeping one to be woken), so back-to-back write steps cannot starve
 /// searches. Non-recursive: a thread holding either side must not enter again.
@@ -26,10 +27,18 @@ internal sealed class IndexLock
     // on an idle core, far shorter than a scheduler's time slice.
     private static readonly long SpinBudgetTicks = System.Diagnostics.Stopwatch.Frequency / 10_000;
 
-    // How long a writer waits for a moment with no reader inside, and then, its flag up, spins for the readers inside
-    // to leave before it sleeps until the last one wakes it: about a graph search. Past it the reader is a long scan or
-    // was pre-empted, and a writer spinning on would keep it from the core (for good, when the writer outranks it).
+    // How long a writer spins for a moment with no reader inside before it sleeps (flag down) until the readers inside
+    // leave, and how long readers already waiting behind a step get to enter before the next: about a graph search.
     private static readonly long DrainSpinBudgetTicks = System.Diagnostics.Stopwatch.Frequency / 5_000;
+
+    // How long a writer waits, its flag down, for a moment with no reader inside before it keeps new readers out
+    // anyway: several searches of the slower kinds, so a lone searcher's pauses are met, and a bound on writers'
+    // waits when readers overlap without a break.
+    private static readonly long DefaultWriterPatienceTicks = System.Diagnostics.Stopwatch.Frequency / 250;
+
+    // How long a writer past its patience, its flag up, spins for the readers inside before it sleeps: about the
+    // longest search of a list-scanning kind, so a reader that is running leaves before the writer would sleep.
+    private static readonly long ForcedDrainSpinTicks = System.Diagnostics.Stopwatch.Frequency / 500;
 
     // Writers take this first, one at a time; it is held from EnterWriteLock to ExitWriteLock.
     private readonly object _writerTurn = new();
@@ -45,6 +54,8 @@ internal sealed class IndexLock
     private static long t_readWaitTicks;
 
     private Counters _counters;
+
+    private long _writerPatienceTicks = DefaultWriterPatienceTicks;
 
     // The managed thread id of the writer holding the lock, 0 when none.
     private int _owner;
@@ -66,6 +77,16 @@ internal sealed class IndexLock
     public TimeSpan LongestWriteHold => TimeSpan.FromSeconds((double)Volatile.Read(ref _longestHold) / System.Diagnostics.Stopwatch.Frequency);
 
     public void ResetLongestWriteHold() => Volatile.Write(ref _longestHold, 0);
+
+    /// <summary>
+    /// How long a writer waits, new readers still let in, for a moment with no reader inside before it keeps them out
+    /// (a few searches' length by default; tests lengthen it to watch a waiting writer).
+    /// </summary>
+    internal TimeSpan WriterPatience
+    {
+        get => TimeSpan.FromSeconds((double)_writerPatienceTicks / System.Diagnostics.Stopwatch.Frequency);
+        set => _writerPatienceTicks = (long)(value.TotalSeconds * System.Diagnostics.Stopwatch.Frequency);
+    }
 
     /// <summary>
     /// When positive, every hold of this lock's write side longer than this many Stopwatch ticks records the writer's
@@ -117,12 +138,22 @@ internal sealed class IndexLock
         return found;
     }
 
-    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack)> s_longHolds = new();
+    private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack, string Drain)> s_longHolds = new();
+
+    // While tracing, what a writer's wait for readers saw: readers inside when it raised its flag, when (Stopwatch
+    // ticks) and on which thread the last of them left, and the writer's longest gap between two looks at them.
+    private long _drainArrivedTicks;
+    private int _drainSleepsBeforeRaise;
+    private int _drainReadersAtRaise;
+    private long _drainLastLeftTicks;
+    private int _drainLastLeftThread;
+    private long _drainLongestGap;
+    private int _drainSleeps;
 
     /// <summary>The holds recorded under <see cref="TraceHoldsLongerThan"/> since the last call, emptying the record.</summary>
-    internal static List<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack)> TakeLongHolds()
+    internal static List<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack, string Drain)> TakeLongHolds()
     {
-        var holds = new List<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack)>();
+        var holds = new List<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack, string Drain)>();
         while (s_longHolds.TryDequeue(out var hold))
         {
             holds.Add(hold);
@@ -138,6 +169,18 @@ internal sealed class IndexLock
         t_readWaitTicks = 0;
         return TimeSpan.FromSeconds((double)ticks / System.Diagnostics.Stopwatch.Frequency);
     }
+
+    /// <summary>
+    /// How many write steps have ended: unchanged between two reads, no write step ended in between, so what a writer
+    /// copied without the lock (holding off other writers' steps by other means or not) is still current if the
+    /// count it read before copying equals the count once it holds the lock.
+    /// </summary>
+    internal long WritesCompleted => Volatile.Read(ref _writesCompleted);
+
+    private long _writesCompleted;
+
+    /// <summary>Whether a writer's flag keeps new readers out at this moment.</summary>
+    internal bool KeepsReadersOut => Volatile.Read(ref _counters.Writing) != 0;
 
     /// <summary>Writers waiting: for their turn, for batch queries or for readers to leave.</summary>
     public int WaitingWriteCount => Volatile.Read(ref _counters.WaitingWriters);
@@ -199,11 +242,20 @@ internal sealed class IndexLock
     // looking after announcing itself, sees no reader.
     private void LeaveReaders()
     {
-        if (Interlocked.Decrement(ref _counters.Readers) == 0 && Volatile.Read(ref _counters.DrainingWriter) != 0)
+        if (Interlocked.Decrement(ref _counters.Readers) == 0)
         {
-            lock (_drained)
+            if (Volatile.Read(ref _counters.DrainingWriter) != 0)
             {
-                Monitor.Pulse(_drained);
+                lock (_drained)
+                {
+                    Monitor.Pulse(_drained);
+                }
+            }
+
+            if (_traceHoldsLongerThan > 0 && Volatile.Read(ref _counters.Writing) != 0)
+            {
+                _drainLastLeftTicks = System.Diagnostics.Stopwatch.GetTimestamp();
+                _drainLastLeftThread = Environment.CurrentManagedThreadId;
             }
         }
     }
@@ -292,63 +344,109 @@ internal sealed class IndexLock
         }
     }
 
-    // Raises the flag that keeps new readers out, at a moment when no reader is inside if one comes within the
-    // budget: readers are let in meanwhile, so a writer held back while it waits (pre-empted, or its processor stalled)
-    // keeps out only the searches that arrive during its own short step. A reader that slips in between the look and the
-    // raise has a whole search to run, so the writer steps back and looks again. Past the budget (readers that never all
-    // leave at once) it keeps the flag up and waits for those inside (WaitForReaders), so writers are not starved.
+    // Raises the flag that keeps new readers out, at a moment when no reader is inside: searches go on meanwhile, so
+    // the writer keeps out only those that arrive during its own short step, and never sleeps with its flag up while a
+    // search is inside (were it woken late, every search would wait for it). It spins for such a moment while a search
+    // is likely to end, then sleeps, flag down, until the readers inside leave, and looks again. A reader that slips in
+    // between the look and the raise has a whole search to run, so the writer steps back. Past its patience (readers
+    // that never all leave at once) it keeps the flag up and waits for those inside (WaitForReaders), so writers are
+    // not starved.
     private void RaiseWritingFlag()
     {
         long arrived = System.Diagnostics.Stopwatch.GetTimestamp();
+        long spinningSince = arrived;
         var spin = default(SpinWait);
+        int sleeps = 0;
         while (true)
         {
-            while (Volatile.Read(ref _counters.Readers) != 0 && System.Diagnostics.Stopwatch.GetTimestamp() - arrived < DrainSpinBudgetTicks)
+            if (Volatile.Read(ref _counters.Readers) == 0)
             {
-                spin.SpinOnce(sleep1Threshold: -1);
+                Interlocked.Exchange(ref _counters.Writing, 1);
+                _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
+                if (Volatile.Read(ref _counters.Readers) == 0)
+                {
+                    break;
+                }
+
+                LowerWritingFlag();
             }
 
-            Interlocked.Exchange(ref _counters.Writing, 1);
-            _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
-            if (Volatile.Read(ref _counters.Readers) == 0 || _heldSince - arrived >= DrainSpinBudgetTicks)
+            long now = System.Diagnostics.Stopwatch.GetTimestamp();
+            if (now - arrived >= _writerPatienceTicks)
             {
+                Interlocked.Exchange(ref _counters.Writing, 1);
+                _heldSince = System.Diagnostics.Stopwatch.GetTimestamp();
                 break;
             }
 
-            LowerWritingFlag();
-        }
-
-        _heldSinceCpu = TraceHoldsLongerThan > 0 ? ThreadClock.CpuNanoseconds() : 0;
-    }
-
-    // Spins while the readers inside are likely to leave soon; past the budget, sleeps until the last one leaves and
-    // wakes it (the timeout is a backstop), which gives the core up to a reader the writer may have kept from it.
-    private void WaitForReaders()
-    {
-        var spin = default(SpinWait);
-        while (Volatile.Read(ref _counters.Readers) != 0)
-        {
-            if (System.Diagnostics.Stopwatch.GetTimestamp() - _heldSince < DrainSpinBudgetTicks)
+            if (now - spinningSince < DrainSpinBudgetTicks)
             {
                 spin.SpinOnce(sleep1Threshold: -1);
                 continue;
             }
 
-            Interlocked.Exchange(ref _counters.DrainingWriter, 1);
-            try
+            sleeps++;
+            SleepUntilReadersLeave();
+            spinningSince = System.Diagnostics.Stopwatch.GetTimestamp();
+            spin.Reset();
+        }
+
+        _heldSinceCpu = TraceHoldsLongerThan > 0 ? ThreadClock.CpuNanoseconds() : 0;
+        if (_traceHoldsLongerThan > 0)
+        {
+            _drainArrivedTicks = arrived;
+            _drainSleepsBeforeRaise = sleeps;
+            _drainReadersAtRaise = Volatile.Read(ref _counters.Readers);
+            _drainLastLeftTicks = 0;
+            _drainLastLeftThread = 0;
+            _drainLongestGap = 0;
+            _drainSleeps = 0;
+        }
+    }
+
+    // With its flag up past its patience: spins for the readers inside to leave while they are likely running, then
+    // sleeps until the last of them wakes it, giving the core up to a reader the writer may have kept from it.
+    private void WaitForReaders()
+    {
+        var spin = default(SpinWait);
+        long looked = _heldSince;
+        while (Volatile.Read(ref _counters.Readers) != 0)
+        {
+            long now = System.Diagnostics.Stopwatch.GetTimestamp();
+            if (_traceHoldsLongerThan > 0)
             {
-                lock (_drained)
+                _drainLongestGap = Math.Max(_drainLongestGap, now - looked);
+                looked = now;
+            }
+
+            if (now - _heldSince < ForcedDrainSpinTicks)
+            {
+                spin.SpinOnce(sleep1Threshold: -1);
+                continue;
+            }
+
+            _drainSleeps++;
+            SleepUntilReadersLeave();
+        }
+    }
+
+    // Sleeps until the last reader inside leaves and wakes this writer (the timeout is a backstop).
+    private void SleepUntilReadersLeave()
+    {
+        Interlocked.Exchange(ref _counters.DrainingWriter, 1);
+        try
+        {
+            lock (_drained)
+            {
+                if (Volatile.Read(ref _counters.Readers) != 0)
                 {
-                    if (Volatile.Read(ref _counters.Readers) != 0)
-                    {
-                        Monitor.Wait(_drained, 1);
-                    }
+                    Monitor.Wait(_drained, 1);
                 }
             }
-            finally
-            {
-                Interlocked.Exchange(ref _counters.DrainingWriter, 0);
-            }
+        }
+        finally
+        {
+            Interlocked.Exchange(ref _counters.DrainingWriter, 0);
         }
     }
 
@@ -376,9 +474,12 @@ internal sealed class IndexLock
             double drain = (double)(_ownedSince - _heldSince) * 1000 / System.Diagnostics.Stopwatch.Frequency;
             long cpu = ThreadClock.CpuNanoseconds();
             double cpuMs = cpu < 0 || _heldSinceCpu < 0 ? double.NaN : (cpu - _heldSinceCpu) / 1e6;
-            s_longHolds.Enqueue(((double)held * 1000 / System.Diagnostics.Stopwatch.Frequency, drain, cpuMs, _heldSince + held, new System.Diagnostics.StackTrace(1, false).ToString()));
+            static double Ms(long ticks) => (double)ticks * 1000 / System.Diagnostics.Stopwatch.Frequency;
+            string detail = string.Create(System.Globalization.CultureInfo.InvariantCulture, $"waited {Ms(_heldSince - _drainArrivedTicks):F2} ms with the flag down ({_drainSleepsBeforeRaise} sleep(s)); {_drainReadersAtRaise} reader(s) inside at the raise; the last left at {(_drainLastLeftTicks == 0 ? "–" : Ms(_drainLastLeftTicks - _heldSince).ToString("F2", System.Globalization.CultureInfo.InvariantCulture))} ms on thread {_drainLastLeftThread} (the writer is {Environment.CurrentManagedThreadId}); the writer's longest gap between looks {Ms(_drainLongestGap):F2} ms, {_drainSleeps} sleep(s)");
+            s_longHolds.Enqueue((Ms(held), drain, cpuMs, _heldSince + held, new System.Diagnostics.StackTrace(1, false).ToString(), detail));
         }
 
+        Volatile.Write(ref _writesCompleted, _writesCompleted + 1);
         Volatile.Write(ref _owner, 0);
         LowerWritingFlag();
         Monitor.Exit(_writerTurn);

@@ -167,6 +167,74 @@ public sealed class IndexLockTests
     }
 
     [Fact]
+    public void A_writer_waiting_for_a_reader_lets_new_readers_in_until_its_patience_ends()
+    {
+        var rwLock = new IndexLock { WriterPatience = TimeSpan.FromMinutes(10) };
+        rwLock.EnterReadLock();
+        bool written = false;
+        Thread writer = Start(() =>
+        {
+            rwLock.EnterWriteLock();
+            Volatile.Write(ref written, true);
+            rwLock.ExitWriteLock();
+        });
+        SpinUntil(() => rwLock.WaitingWriteCount == 1);
+
+        // Well past the writer's spin budget: it sleeps with its flag down, so a search arriving now runs.
+        Thread.Sleep(20);
+        Assert.True(Start(() =>
+        {
+            rwLock.EnterReadLock();
+            rwLock.ExitReadLock();
+        }).Join(Guard), "a new reader waited for a writer that was itself waiting for a reader");
+        Assert.False(Volatile.Read(ref written), "the writer entered while a reader was inside");
+
+        rwLock.ExitReadLock();
+        Assert.True(writer.Join(Guard));
+        Assert.True(written);
+    }
+
+    [Fact]
+    public void A_writer_enters_between_readers_that_never_all_leave_at_once()
+    {
+        // Two readers take turns so that one is always inside: a moment without a reader never comes, so past its
+        // patience the writer keeps new readers out, the one inside leaves, and the writer enters.
+        var rwLock = new IndexLock { WriterPatience = TimeSpan.FromMilliseconds(5) };
+        int inside = 0, turn = 0, handovers = 0;
+        bool stop = false;
+        Thread[] readers = [.. Enumerable.Range(0, 2).Select(r => Start(() =>
+        {
+            if (r == 1)
+            {
+                SpinUntil(() => Volatile.Read(ref inside) == 1);
+            }
+
+            while (!Volatile.Read(ref stop))
+            {
+                rwLock.EnterReadLock();
+                Interlocked.Increment(ref inside);
+
+                // Leave only on this reader's turn with the other inside, or when a writer keeps the other out.
+                SpinWait.SpinUntil(() => (Volatile.Read(ref inside) == 2 && Volatile.Read(ref turn) == r) || rwLock.KeepsReadersOut || Volatile.Read(ref stop));
+                Volatile.Write(ref turn, 1 - r);
+                Interlocked.Increment(ref handovers);
+                Interlocked.Decrement(ref inside);
+                rwLock.ExitReadLock();
+            }
+        }))];
+
+        SpinUntil(() => Volatile.Read(ref handovers) > 100);
+        Thread writer = Start(() =>
+        {
+            rwLock.EnterWriteLock();
+            rwLock.ExitWriteLock();
+        });
+        Assert.True(writer.Join(Guard), "the writer never entered between overlapping readers");
+        Volatile.Write(ref stop, true);
+        Assert.True(readers.All(t => t.Join(Guard)));
+    }
+
+    [Fact]
     public void A_waiting_writer_keeps_new_batch_queries_out_until_it_has_written()
     {
         var rwLock = new IndexLock();
