@@ -526,12 +526,18 @@ public sealed partial class InvertedFileIndex : VectorIndex
         try
         {
             float[]? assignedWith = null;
-            List<(int List, int[] Slots, byte[] Codes)>? grown = null;
+            List<ListGrowth>? grown = null;
+            long copiedAfter = -1;
             if (Volatile.Read(ref _trained))
             {
                 assignedWith = _centroids;
                 AssignRows(vectors, total, chunkRows, rows, labels, distances, codes, oneChunk, cancellationToken);
+                copiedAfter = _lock.WritesCompleted;
                 grown = GrownListsFor(labels.AsSpan(0, total));
+                if (grown is not null)
+                {
+                    AfterListsCopied?.Invoke();
+                }
             }
 
             _lock.EnterWriteLock();
@@ -552,6 +558,9 @@ public sealed partial class InvertedFileIndex : VectorIndex
                     AssignRows(vectors, total, chunkRows, rows, labels, distances, codes, oneChunk, cancellationToken);
                 }
 
+                // The lists copied before the lock are current if no write step ended since (and this one removes none).
+                bool copiesCurrent = _lock.WritesCompleted == copiedAfter;
+
                 // Nothing is written before this point, and nothing after it checks the token.
                 if (replace)
                 {
@@ -565,7 +574,7 @@ public sealed partial class InvertedFileIndex : VectorIndex
                     }
                 }
 
-                GrowLists(labels.AsSpan(0, total), grown);
+                GrowLists(labels.AsSpan(0, total), grown, copiesCurrent && replaced == 0);
                 if (oneChunk)
                 {
                     Append(ids, rows, labels.AsSpan(0, total), codes, total);
@@ -756,10 +765,15 @@ public sealed partial class InvertedFileIndex : VectorIndex
     /// <summary>Lists that had to be regrown by adds since the index was created (for tests of bulk-load sizing).</summary>
     internal int ListRegrowths { get; private set; }
 
+    /// <summary>Called by an add once it has copied the lists it grows and before it takes the write lock (for tests).</summary>
+    internal Action? AfterListsCopied { get; set; }
+
     // Grows every list that the batch adds to, once: exactly to size when it was empty (a bulk load leaves no slack),
     // else by half again or to size, whichever is larger. Runs under the write lock, so its own counts are pooled: an
-    // allocation here could start a collection while every search waits for the lock.
-    private void GrowLists(ReadOnlySpan<int> labels, List<(int List, int[] Slots, byte[] Codes)>? grown = null)
+    // allocation here could start a collection while every search waits for the lock. Arrays in `grown` were made
+    // before the lock with the list's entries copied in; when `copiesCurrent` (no write since) they are swapped in as
+    // they are, else the entries are copied again.
+    private void GrowLists(ReadOnlySpan<int> labels, List<ListGrowth>? grown = null, bool copiesCurrent = false)
     {
         using var rental = ScratchRental<int>.Rent(_listCounts.Length);
         Span<int> added = rental.Span;
@@ -776,13 +790,16 @@ public sealed partial class InvertedFileIndex : VectorIndex
             if (added[list] > 0 && current < required)
             {
                 ListRegrowths += current == 0 ? 0 : 1;
-                (int List, int[] Slots, byte[] Codes) ready = ReadyGrowth(grown, list);
+                ListGrowth ready = ReadyGrowth(grown, list);
                 if (ready.Slots is not null && ready.Slots.Length >= required)
                 {
-                    // Made before the lock; only the entries are copied here.
                     int length = _listCounts[list];
-                    _listSlots[list].AsSpan(0, length).CopyTo(ready.Slots);
-                    _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(length))).CopyTo(ready.Codes);
+                    if (!copiesCurrent || ready.Copied != length)
+                    {
+                        _listSlots[list].AsSpan(0, length).CopyTo(ready.Slots);
+                        _listCodes[list].AsSpan(0, checked((int)ListCodeBytes(length))).CopyTo(ready.Codes);
+                    }
+
                     _listSlots[list] = ready.Slots;
                     _listCodes[list] = ready.Codes;
                     continue;
@@ -795,12 +812,15 @@ public sealed partial class InvertedFileIndex : VectorIndex
         }
     }
 
+    // A list's larger arrays made before the write lock, holding the first `Copied` entries as they were then.
+    private readonly record struct ListGrowth(int List, int[] Slots, byte[] Codes, int Copied);
+
     // The arrays GrownListsFor made for `list`, if any (a plain loop: a predicate capturing `list` would allocate).
-    private static (int List, int[] Slots, byte[] Codes) ReadyGrowth(List<(int List, int[] Slots, byte[] Codes)>? grown, int list)
+    private static ListGrowth ReadyGrowth(List<ListGrowth>? grown, int list)
     {
         if (grown is not null)
         {
-            foreach ((int List, int[] Slots, byte[] Codes) growth in grown)
+            foreach (ListGrowth growth in grown)
             {
                 if (growth.List == list)
                 {
@@ -816,34 +836,42 @@ public sealed partial class InvertedFileIndex : VectorIndex
     private static int GrownListCapacity(int current, int required)
         => current == 0 ? required : Math.Max(required, current + Math.Max(8, current / 2));
 
-    // For a small batch, the larger arrays of the lists it would overflow, made before the write lock: an allocation
-    // of a large list's codes can wait for another thread's large allocation, and under the lock every search would
-    // wait with it. A hint read without the lock; GrowLists checks each against the lists as they are then.
-    private List<(int List, int[] Slots, byte[] Codes)>? GrownListsFor(ReadOnlySpan<int> labels)
+    // For a small batch, the larger arrays of the lists it would overflow, made before the write lock with the lists'
+    // entries copied in: an allocation of a large list's codes can wait for another thread's large allocation, and a
+    // large list's copy takes milliseconds; under the lock every search would wait with them. Read without the lock
+    // (another writer's step may change a list meanwhile, so lengths are bounded by the arrays read); GrowLists uses
+    // the copies only if no write step ended since.
+    private List<ListGrowth>? GrownListsFor(ReadOnlySpan<int> labels)
     {
         if (labels.Length > 64)
         {
             return null;
         }
 
-        List<(int List, int[] Slots, byte[] Codes)>? grown = null;
+        List<ListGrowth>? grown = null;
         for (int i = 0; i < labels.Length; i++)
         {
             int list = labels[i];
-            int required = Volatile.Read(ref _listCounts[list]) + labels.Length;
-            int current = _listSlots[list].Length;
-            if (current < required && ReadyGrowth(grown, list).Slots is null)
+            int[] oldSlots = Volatile.Read(ref _listSlots[list]);
+            byte[] oldCodes = Volatile.Read(ref _listCodes[list]);
+            int length = Volatile.Read(ref _listCounts[list]);
+            int required = length + labels.Length;
+            if (oldSlots.Length < required && ReadyGrowth(grown, list).Slots is null)
             {
-                int capacity = GrownListCapacity(current, required);
+                int capacity = GrownListCapacity(oldSlots.Length, required);
                 var slots = new int[capacity];
                 var codes = new byte[checked((int)ListCodeBytes(capacity))];
+                length = Math.Min(length, oldSlots.Length);
+                int codeBytes = (int)Math.Min(ListCodeBytes(length), oldCodes.Length);
+                oldSlots.AsSpan(0, length).CopyTo(slots);
+                oldCodes.AsSpan(0, codeBytes).CopyTo(codes);
 
                 // A large array can come from pages the system has not handed over yet (known to be zero, so not
-                // written at allocation): writing them here takes their first-touch faults beside searches, where
-                // the copy under the lock would take them otherwise.
-                slots.AsSpan().Clear();
-                codes.AsSpan().Clear();
-                (grown ??= []).Add((list, slots, codes));
+                // written at allocation): writing the rest here takes their first-touch faults beside searches, where
+                // the appends under the lock would take them otherwise.
+                slots.AsSpan(length).Clear();
+                codes.AsSpan(codeBytes).Clear();
+                (grown ??= []).Add(new ListGrowth(list, slots, codes, codeBytes == ListCodeBytes(length) ? length : -1));
             }
         }
 
