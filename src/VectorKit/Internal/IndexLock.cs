@@ -1,3 +1,4 @@
+using System.Runtime.CompilerServices;
 using System.Runtime.InteropServices;
 
 namespace VectorKit.Internal;
@@ -351,6 +352,9 @@ internal sealed class IndexLock
     // between the look and the raise has a whole search to run, so the writer steps back. Past its patience (readers
     // that never all leave at once) it keeps the flag up and waits for those inside (WaitForReaders), so writers are
     // not starved.
+    // Compiled fully at first use (as is WaitForReaders): a loop that has run long in a method's first compiled form
+    // is recompiled on the spot, which with the flag up would keep every search waiting for the compiler.
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private void RaiseWritingFlag()
     {
         long arrived = System.Diagnostics.Stopwatch.GetTimestamp();
@@ -406,6 +410,7 @@ internal sealed class IndexLock
 
     // With its flag up past its patience: spins for the readers inside to leave while they are likely running, then
     // sleeps until the last of them wakes it, giving the core up to a reader the writer may have kept from it.
+    [MethodImpl(MethodImplOptions.AggressiveOptimization)]
     private void WaitForReaders()
     {
         var spin = default(SpinWait);

@@ -775,19 +775,32 @@ public sealed partial class InvertedFileIndex : VectorIndex
     // they are, else the entries are copied again.
     private void GrowLists(ReadOnlySpan<int> labels, List<ListGrowth>? grown = null, bool copiesCurrent = false)
     {
+        // Visits the batch's own lists, not every list: a single add then runs no long loop under the lock (a loop
+        // that runs long enough in a method's first compiled form has the runtime recompile it on the spot).
         using var rental = ScratchRental<int>.Rent(_listCounts.Length);
         Span<int> added = rental.Span;
-        added.Clear();
+        foreach (int label in labels)
+        {
+            added[label] = 0;
+        }
+
         foreach (int label in labels)
         {
             added[label]++;
         }
 
-        for (int list = 0; list < added.Length; list++)
+        foreach (int list in labels)
         {
-            int required = _listCounts[list] + added[list];
+            int adding = added[list];
+            if (adding == 0)
+            {
+                continue;
+            }
+
+            added[list] = 0;
+            int required = _listCounts[list] + adding;
             int current = _listSlots[list].Length;
-            if (added[list] > 0 && current < required)
+            if (current < required)
             {
                 ListRegrowths += current == 0 ? 0 : 1;
                 ListGrowth ready = ReadyGrowth(grown, list);
