@@ -336,7 +336,7 @@ public static class MaintenanceLatency
     // the list of waits ran out of room.
     private static double FlagUpWait(VectorIndex index, Waits waits, List<LockWait> lockWaits, long startTicks, long holdsBefore)
     {
-        if (lockWaits.Count == lockWaits.Capacity || index.WriteHoldsRecorded - holdsBefore >= 1 << 20)
+        if (lockWaits.Count == s_lockWaits.Capacity || index.WriteHoldsRecorded - holdsBefore >= 1 << 20)
         {
             Console.WriteLine("  (the lock waits or the step timeline ran out of room: the flag-up wait is the raw wait)");
             return waits.LockWaitMaxMs;
@@ -431,9 +431,14 @@ public static class MaintenanceLatency
         // Room for every sample up front, touched before the phase: growing the list mid-phase would allocate (and
         // collect) beside the searches, and a first touch of each page would fault in the searching thread, where a
         // machine short of free pages reclaims some first.
-        var latencies = Touched<double>(1 << 22);
-        var slept = Touched<SleptSearch>(1 << 16);
-        var lockWaits = Touched<LockWait>(1 << 14);
+        // The same lists every phase: 33 MiB of fresh large arrays per phase had started gen-2 collections (and their
+        // pauses) during later phases, which the harness would then have counted against the index.
+        var latencies = s_latencies;
+        var slept = s_slept;
+        var lockWaits = s_lockWaits;
+        latencies.Clear();
+        slept.Clear();
+        lockWaits.Clear();
         int searches = 0;
         long searchBytes = 0;
         var waits = default(Waits);
@@ -517,7 +522,7 @@ public static class MaintenanceLatency
         searcher.Join();
         writer?.Join();
         Collections gc = Collections.Since(gen0, gen1, gen2, pause, searchBytes, searches);
-        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc, waits, slept, lockWaits);
+        return (LatencySummary.Of(latencies), writes?.Count ?? 0, writes?.SlowestMs ?? 0, gc, waits, [.. slept], [.. lockWaits]);
     }
 
     // The machine's own floor: a thread scheduled as the searcher is (and resting as it does) reads the clock in a
@@ -557,6 +562,10 @@ public static class MaintenanceLatency
     }
 
     // An empty list whose storage for `capacity` items has been written once.
+    private static readonly List<double> s_latencies = Touched<double>(1 << 22);
+    private static readonly List<SleptSearch> s_slept = Touched<SleptSearch>(1 << 16);
+    private static readonly List<LockWait> s_lockWaits = Touched<LockWait>(1 << 14);
+
     private static List<T> Touched<T>(int capacity)
     {
         var list = new List<T>(capacity);
