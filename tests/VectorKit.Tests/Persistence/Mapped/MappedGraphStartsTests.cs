@@ -38,10 +38,13 @@ public sealed class MappedGraphStartsTests(ITestOutputHelper output) : IDisposab
         Assert.True(Math.Abs(largeBytes - smallBytes) < 64 * 1024, $"opening allocated {smallBytes} bytes at 2,000 slots and {largeBytes} at 200,000");
 
         // The same files without the starts (version 5) build them at open, 4 bytes per slot: the measure sees that.
+        // Its first open pays for its own path's type loading; the bound is 3 of those 4 bytes, as the difference is
+        // otherwise exactly the starts' and any one-off allocation on the small side took it under.
+        Allocated(smallOld);
         long smallOldBytes = Allocated(smallOld);
         long largeOldBytes = Allocated(largeOld);
         output.WriteLine($"managed bytes allocated by a trusted mapped open: version 6 {smallBytes} (2,000 slots), {largeBytes} (200,000); version 5 {smallOldBytes}, {largeOldBytes}");
-        Assert.True(largeOldBytes - smallOldBytes > 4L * 198_000, $"a version-5 open allocated {smallOldBytes} bytes at 2,000 slots and {largeOldBytes} at 200,000");
+        Assert.True(largeOldBytes - smallOldBytes > 3L * 198_000, $"a version-5 open allocated {smallOldBytes} bytes at 2,000 slots and {largeOldBytes} at 200,000");
 
         // Both open to the same graph.
         using GraphIndex current = IndexFile.OpenMapped<GraphIndex>(large);
