@@ -141,15 +141,8 @@ internal sealed class IndexLock
 
     private static readonly System.Collections.Concurrent.ConcurrentQueue<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack, string Drain)> s_longHolds = new();
 
-    // While tracing, what a writer's wait for readers saw: readers inside when it raised its flag, when (Stopwatch
-    // ticks) and on which thread the last of them left, and the writer's longest gap between two looks at them.
-    private long _drainArrivedTicks;
-    private int _drainSleepsBeforeRaise;
-    private int _drainReadersAtRaise;
-    private long _drainLastLeftTicks;
-    private int _drainLastLeftThread;
-    private long _drainLongestGap;
-    private int _drainSleeps;
+    // While tracing, what the current writer's wait for readers saw.
+    private DrainTrace _drain;
 
     /// <summary>The holds recorded under <see cref="TraceHoldsLongerThan"/> since the last call, emptying the record.</summary>
     internal static List<(double Ms, double DrainMs, double CpuMs, long EndTicks, string Stack, string Drain)> TakeLongHolds()
@@ -255,8 +248,8 @@ internal sealed class IndexLock
 
             if (_traceHoldsLongerThan > 0 && Volatile.Read(ref _counters.Writing) != 0)
             {
-                _drainLastLeftTicks = System.Diagnostics.Stopwatch.GetTimestamp();
-                _drainLastLeftThread = Environment.CurrentManagedThreadId;
+                _drain.LastLeftTicks = System.Diagnostics.Stopwatch.GetTimestamp();
+                _drain.LastLeftThread = Environment.CurrentManagedThreadId;
             }
         }
     }
@@ -395,16 +388,11 @@ internal sealed class IndexLock
             spin.Reset();
         }
 
-        _heldSinceCpu = TraceHoldsLongerThan > 0 ? ThreadClock.CpuNanoseconds() : 0;
+        _heldSinceCpu = 0;
         if (_traceHoldsLongerThan > 0)
         {
-            _drainArrivedTicks = arrived;
-            _drainSleepsBeforeRaise = sleeps;
-            _drainReadersAtRaise = Volatile.Read(ref _counters.Readers);
-            _drainLastLeftTicks = 0;
-            _drainLastLeftThread = 0;
-            _drainLongestGap = 0;
-            _drainSleeps = 0;
+            _heldSinceCpu = ThreadClock.CpuNanoseconds();
+            _drain = new DrainTrace { ArrivedTicks = arrived, SleepsBeforeRaise = sleeps, ReadersAtRaise = Volatile.Read(ref _counters.Readers) };
         }
     }
 
@@ -420,7 +408,7 @@ internal sealed class IndexLock
             long now = System.Diagnostics.Stopwatch.GetTimestamp();
             if (_traceHoldsLongerThan > 0)
             {
-                _drainLongestGap = Math.Max(_drainLongestGap, now - looked);
+                _drain.LongestGapTicks = Math.Max(_drain.LongestGapTicks, now - looked);
                 looked = now;
             }
 
@@ -430,7 +418,7 @@ internal sealed class IndexLock
                 continue;
             }
 
-            _drainSleeps++;
+            _drain.Sleeps++;
             SleepUntilReadersLeave();
         }
     }
@@ -476,12 +464,11 @@ internal sealed class IndexLock
 
         if (TraceHoldsLongerThan > 0 && held > TraceHoldsLongerThan)
         {
-            double drain = (double)(_ownedSince - _heldSince) * 1000 / System.Diagnostics.Stopwatch.Frequency;
+            double drain = Milliseconds(_ownedSince - _heldSince);
             long cpu = ThreadClock.CpuNanoseconds();
             double cpuMs = cpu < 0 || _heldSinceCpu < 0 ? double.NaN : (cpu - _heldSinceCpu) / 1e6;
-            static double Ms(long ticks) => (double)ticks * 1000 / System.Diagnostics.Stopwatch.Frequency;
-            string detail = string.Create(System.Globalization.CultureInfo.InvariantCulture, $"waited {Ms(_heldSince - _drainArrivedTicks):F2} ms with the flag down ({_drainSleepsBeforeRaise} sleep(s)); {_drainReadersAtRaise} reader(s) inside at the raise; the last left at {(_drainLastLeftTicks == 0 ? "–" : Ms(_drainLastLeftTicks - _heldSince).ToString("F2", System.Globalization.CultureInfo.InvariantCulture))} ms on thread {_drainLastLeftThread} (the writer is {Environment.CurrentManagedThreadId}); the writer's longest gap between looks {Ms(_drainLongestGap):F2} ms, {_drainSleeps} sleep(s)");
-            s_longHolds.Enqueue((Ms(held), drain, cpuMs, _heldSince + held, new System.Diagnostics.StackTrace(1, false).ToString(), detail));
+            string detail = _drain.Describe(_heldSince);
+            s_longHolds.Enqueue((Milliseconds(held), drain, cpuMs, _heldSince + held, new System.Diagnostics.StackTrace(1, false).ToString(), detail));
         }
 
         Volatile.Write(ref _writesCompleted, _writesCompleted + 1);
@@ -532,6 +519,28 @@ internal sealed class IndexLock
     public readonly struct WriteScope(IndexLock owner) : IDisposable
     {
         public void Dispose() => owner.ExitWriteLock();
+    }
+
+    private static double Milliseconds(long ticks) => (double)ticks * 1000 / System.Diagnostics.Stopwatch.Frequency;
+
+    /// <summary>While tracing, what one writer's wait for readers saw (Stopwatch ticks; diagnostics).</summary>
+    private struct DrainTrace
+    {
+        public long ArrivedTicks;
+        public int SleepsBeforeRaise;
+        public int ReadersAtRaise;
+
+        // When the last reader inside left while the flag was up, and on which thread.
+        public long LastLeftTicks;
+        public int LastLeftThread;
+
+        // The writer's longest gap between two looks at the readers, and its sleeps, with the flag up.
+        public long LongestGapTicks;
+        public int Sleeps;
+
+        public readonly string Describe(long raisedTicks) => string.Create(
+            System.Globalization.CultureInfo.InvariantCulture,
+            $"waited {Milliseconds(raisedTicks - ArrivedTicks):F2} ms with the flag down ({SleepsBeforeRaise} sleep(s)); {ReadersAtRaise} reader(s) inside at the raise; the last left at {(LastLeftTicks == 0 ? "–" : Milliseconds(LastLeftTicks - raisedTicks).ToString("F2", System.Globalization.CultureInfo.InvariantCulture))} ms on thread {LastLeftThread} (the writer is {Environment.CurrentManagedThreadId}); the writer's longest gap between looks {Milliseconds(LongestGapTicks):F2} ms, {Sleeps} sleep(s)");
     }
 
     /// <summary>The counters readers and writers touch, each on a cache line of its own (readers bump theirs per search).</summary>
